@@ -1,0 +1,5 @@
+"""Allow ``python -m workbench``."""
+
+from workbench.cli import main
+
+raise SystemExit(main())
