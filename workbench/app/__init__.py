@@ -1,0 +1,1 @@
+"""(package docstring to be written by its owner)."""

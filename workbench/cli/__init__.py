@@ -53,9 +53,11 @@ def _version_text() -> str:
 
 class _VersionAction(argparse.Action):
     def __init__(self, option_strings: Sequence[str], dest: str, **kwargs: object) -> None:
-        super().__init__(option_strings, dest, nargs=0, help="print code and reference-data versions")
+        super().__init__(
+            option_strings, dest, nargs=0, help="print code and reference-data versions"
+        )
 
-    def __call__(self, parser, namespace, values, option_string=None):  # noqa: D102
+    def __call__(self, parser, namespace, values, option_string=None):
         print(_version_text())
         parser.exit(0)
 

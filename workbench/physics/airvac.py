@@ -285,9 +285,10 @@ def air_to_vacuum_nm(
     for _ in range(8):
         h = 1e-6
         g = lam_vac / _index(lam_vac, method, conditions) - lam_air
-        dg = ((lam_vac + h) / _index(lam_vac + h, method, conditions) - (lam_vac - h) / _index(
-            lam_vac - h, method, conditions
-        )) / (2 * h)
+        dg = (
+            (lam_vac + h) / _index(lam_vac + h, method, conditions)
+            - (lam_vac - h) / _index(lam_vac - h, method, conditions)
+        ) / (2 * h)
         step = g / dg
         lam_vac = lam_vac - step
         if np.all(np.abs(step) < 1e-12):

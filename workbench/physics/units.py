@@ -82,7 +82,7 @@ def normalise_unit(unit: str) -> str:
     Parameters
     ----------
     unit : str
-        A unit as a user might write it (``"Å"``, ``"A"``, ``"microns"``, ``"1/cm"``, ``"KeV"``).
+        A unit as a user might write it (``"Å"``, ``"A"``, ``"microns"``, ``"1/cm"``).
 
     Returns
     -------
