@@ -87,7 +87,8 @@ def normalise_unit(unit: str) -> str:
     Returns
     -------
     str
-        One of ``"nm"``, ``"angstrom"``, ``"um"``, ``"pm"``, ``"cm-1"``, ``"eV"``, ``"keV"``, ``"meV"``.
+        One of ``"nm"``, ``"angstrom"``, ``"um"``, ``"pm"``, ``"cm-1"``,
+        ``"eV"``, ``"keV"``, ``"meV"``.
 
     Raises
     ------
