@@ -1,0 +1,125 @@
+"""One call from input bytes to a result: read, find peaks if needed, match, report.
+
+This is what the CLI (``workbench match``), the case store's ``analyse`` and
+the app all call, so that every face gives the same answer for the same input.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from workbench.datamodel import PeakList, Spectrum
+from workbench.matching.engine import MatchParameters, MatchResult, match_peaks
+from workbench.matching.report import result_json
+
+__all__ = ["DEFAULT_SETS", "AnalysisOutcome", "analyse_input", "analyse_peaks"]
+
+#: Reference sets used when none are chosen, by axis.
+DEFAULT_SETS: dict[str, tuple[str, ...]] = {"wavelength": ("optical",), "energy": ("xray",)}
+
+
+@dataclass
+class AnalysisOutcome:
+    """Result of :func:`analyse_input`.
+
+    Attributes
+    ----------
+    report : dict
+        The schema-1 result record.
+    json_bytes : bytes
+        Its canonical JSON (what is stored and signed).
+    peaks : PeakList
+        The observed lines that were matched.
+    spectrum : Spectrum or None
+        The raw spectrum, when the input was one.
+    result : MatchResult
+        The engine's full result (for plots).
+    """
+
+    report: dict[str, Any]
+    json_bytes: bytes
+    peaks: PeakList
+    spectrum: Spectrum | None
+    result: MatchResult
+
+
+def analyse_peaks(
+    peaks: PeakList,
+    set_ids: Sequence[str] | None = None,
+    params: MatchParameters | None = None,
+    *,
+    spectrum: Spectrum | None = None,
+    lab_dir: Path | None = None,
+) -> AnalysisOutcome:
+    """Match an already-read peak list against the named reference sets."""
+    from workbench.refdata import load_set
+
+    params = params or MatchParameters(mode=peaks.mode)
+    ids = list(set_ids) if set_ids else list(DEFAULT_SETS[peaks.axis])
+    sets = [load_set(i, lab_dir=lab_dir) if lab_dir else load_set(i) for i in ids]
+    result = match_peaks(peaks, sets, params)
+    report = result.report()
+    return AnalysisOutcome(report, result_json(report), peaks, spectrum, result)
+
+
+def analyse_input(
+    source: bytes | str | os.PathLike[str],
+    *,
+    name: str | None = None,
+    set_ids: Sequence[str] | None = None,
+    params: MatchParameters | None = None,
+    unit: str | None = None,
+    medium: str | None = None,
+    kind: str | None = None,
+    peak_options: dict[str, Any] | None = None,
+    lab_dir: Path | None = None,
+) -> AnalysisOutcome:
+    """Read an input (peak list or raw spectrum), find peaks if needed, and match.
+
+    Parameters
+    ----------
+    source : bytes, str or path
+        File path, raw bytes, or pasted text.
+    name : str, optional
+        Display name of the input (defaults to the file name).
+    set_ids : sequence of str, optional
+        Reference set ids; the axis default (``optical`` / ``xray``) when omitted.
+    params : MatchParameters, optional
+        Engine settings (its ``mode`` also drives peak finding).
+    unit, medium : str, optional
+        Override what the file states.
+    kind : {"peak_list", "spectrum"}, optional
+        Force how the file is read.
+    peak_options : dict, optional
+        Extra keyword arguments for :func:`workbench.peaks.find_peaks`.
+    lab_dir : pathlib.Path, optional
+        Directory of lab reference sets.
+
+    Returns
+    -------
+    AnalysisOutcome
+    """
+    from workbench.io import read_any
+    from workbench.peaks import find_peaks
+
+    params = params or MatchParameters()
+    kw: dict[str, Any] = {"name": name, "unit": unit, "medium": medium}
+    if kind:
+        kw["kind"] = kind
+    data = read_any(source, **kw)
+    spectrum: Spectrum | None = None
+    if isinstance(data, Spectrum):
+        spectrum = data
+        peaks = find_peaks(data, mode=params.mode, **(peak_options or {}))
+    else:
+        peaks = data
+        if peaks.mode != params.mode:
+            peaks = PeakList(
+                peaks.table, peaks.axis, peaks.medium, peaks.source, params.mode, dict(peaks.extra)
+            )
+    outcome = analyse_peaks(peaks, set_ids, params, spectrum=spectrum, lab_dir=lab_dir)
+    return outcome

@@ -1,0 +1,194 @@
+"""Gather per-species evidence from candidate pairs (one pass of the engine).
+
+The pass is vectorised over pairs; the only Python loop is over the species
+that have at least one candidate (tens to a few hundred), each handled with
+slices of species-sorted arrays.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from workbench.matching.candidates import CandidatePairs, find_candidates
+from workbench.matching.reference import ReferenceIndex
+from workbench.matching.scoring import SpeciesEvidence, decide_verdict, score_of
+
+__all__ = ["EvidencePass", "ObservedLines", "gather_evidence"]
+
+
+@dataclass(frozen=True)
+class ObservedLines:
+    """Observed peaks as arrays (axis unit), as the engine sees them."""
+
+    position: np.ndarray
+    intensity: np.ndarray  # NaN where unknown
+    half_window: np.ndarray
+    saturated: np.ndarray  # bool
+    detection_limit: float | None  # intensity units; None when intensities are unknown
+
+
+@dataclass
+class EvidencePass:
+    """Result of one evidence pass."""
+
+    evidence: dict[int, SpeciesEvidence]
+    pairs: CandidatePairs  # ref indices are global (into the ReferenceIndex)
+    pair_species: np.ndarray
+    pair_competes: np.ndarray  # bool: the pair's line is strong enough to compete
+    strengths: np.ndarray  # expected strength per reference line
+    in_range: np.ndarray
+    usable: np.ndarray
+
+
+def _pearson(a: np.ndarray, b: np.ndarray) -> float | None:
+    if a.size < 3 or np.ptp(a) == 0 or np.ptp(b) == 0:
+        return None
+    return float(np.corrcoef(a, b)[0, 1])
+
+
+def gather_evidence(
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    strengths: np.ndarray,
+    in_range: np.ndarray,
+    *,
+    strong_fraction: float,
+    min_rel_intensity: float,
+    competitor_min_rel: float,
+    missing_factor: float,
+    plausible: set[int] | None = None,
+) -> EvidencePass:
+    """Collect the evidence of every species with at least one candidate.
+
+    Parameters
+    ----------
+    obs : ObservedLines
+        The observed peaks.
+    index : ReferenceIndex
+        Reference lines.
+    strengths : numpy.ndarray
+        Expected relative strength per reference line (NaN = unknown).
+    in_range : numpy.ndarray of bool
+        Reference lines inside the observed range.
+    strong_fraction, min_rel_intensity, competitor_min_rel, missing_factor : float
+        Thresholds (see :mod:`workbench.matching.scoring`).
+    plausible : set of int, optional
+        Species codes that may compete for a peak; all species when omitted
+        (first pass). The second pass restricts competition to species that
+        reached at least "possible" in the first.
+
+    Returns
+    -------
+    EvidencePass
+    """
+    e = strengths
+    usable = in_range & (~np.isfinite(e) | (e >= min_rel_intensity))
+    usable_idx = np.flatnonzero(usable)
+    local = find_candidates(obs.position, obs.half_window, index.position[usable_idx])
+    ref = usable_idx[local.ref]
+    pairs = CandidatePairs(obs=local.obs, ref=ref, delta=local.delta)
+    sp = index.species[ref]
+    e_pair = e[ref]
+    competes = ~np.isfinite(e_pair) | (e_pair >= competitor_min_rel)
+    if plausible is not None:
+        competes &= np.isin(sp, np.fromiter(plausible, dtype=np.int64, count=len(plausible)))
+
+    # Distinct competing species per peak: unique (peak, species) among competing pairs.
+    n_obs = obs.position.size
+    comp_keys = np.unique(pairs.obs[competes].astype(np.int64) * index.n_species + sp[competes])
+    comp_peak = comp_keys // index.n_species
+    comp_species = comp_keys % index.n_species
+    n_comp = np.bincount(comp_peak, minlength=n_obs)
+
+    # Sort pairs by species once; slice per species.
+    order = np.lexsort((np.abs(pairs.delta), ref, sp))
+    sp_sorted = sp[order]
+    species_present, starts = np.unique(sp_sorted, return_index=True)
+    ends = np.append(starts[1:], sp_sorted.size)
+
+    # In-range lines per species, for the expected-but-missing logic.
+    in_idx = np.flatnonzero(in_range)
+    in_sp = index.species[in_idx]
+    in_order = np.argsort(in_sp, kind="stable")
+    in_idx = in_idx[in_order]
+    in_sp = in_sp[in_order]
+
+    evidence: dict[int, SpeciesEvidence] = {}
+    for code, a, b in zip(species_present, starts, ends, strict=True):
+        code = int(code)
+        sel = order[a:b]
+        p_obs = pairs.obs[sel]
+        p_ref = ref[sel]
+        # Best peak per reference line: first occurrence after sorting by |delta|.
+        lines, first = np.unique(p_ref, return_index=True)
+        best_peak = p_obs[first]
+        lo, hi = np.searchsorted(in_sp, [code, code + 1])
+        sp_lines = in_idx[lo:hi]
+        e_lines = e[sp_lines]
+        ev = SpeciesEvidence(
+            code=code,
+            label=index.species_names[code],
+            element=index.species_element[code],
+            ion=index.species_ion[code],
+            family=index.species_family[code],
+            n_lines_in_range=int(sp_lines.size),
+            n_strong_in_range=int(np.sum(e_lines >= strong_fraction)),
+        )
+        e_found = e[lines]
+        # A line is unique when no other competing species has a candidate at its peak.
+        own_competes = np.isin(best_peak, comp_peak[comp_species == code])
+        others = n_comp[best_peak] - own_competes.astype(np.int64)
+        unique = others == 0
+        ev.found_lines = lines.tolist()
+        ev.found_peaks = best_peak.tolist()
+        ev.unique_lines = lines[unique].tolist()
+        ev.shared_lines = lines[~unique].tolist()
+        ev.n_strong_found = int(np.sum(e_found >= strong_fraction))
+
+        # Intensity scale: observed / expected at each matched peak (all of this
+        # species' lines in a peak's window are summed: a blend).
+        pk_all, inv = np.unique(p_obs, return_inverse=True)
+        e_p = np.bincount(inv, weights=np.nan_to_num(e[p_ref], nan=0.0), minlength=pk_all.size)
+        peak_unique = n_comp[pk_all] - np.isin(pk_all, comp_peak[comp_species == code]) == 0
+        I_p = obs.intensity[pk_all]
+        good = np.isfinite(I_p) & (I_p > 0) & (e_p > 0) & ~obs.saturated[pk_all]
+        use = good & peak_unique if np.any(good & peak_unique) else good
+        if np.any(use):
+            ev.scale = float(np.median(I_p[use] / e_p[use]))
+        if np.sum(good & peak_unique) >= 3:
+            m = good & peak_unique
+            ev.pattern_r = _pearson(np.log(I_p[m]), np.log(e_p[m]))
+
+        found_mask = np.isin(sp_lines, lines)
+        finite = np.isfinite(e_lines)
+        if ev.scale is not None and obs.detection_limit is not None:
+            predicted = ev.scale * np.where(finite, e_lines, 0.0)
+            visible = predicted >= missing_factor * obs.detection_limit
+        else:
+            predicted = np.where(finite, e_lines, 0.0)
+            visible = e_lines >= strong_fraction
+        missing = visible & ~found_mask & finite
+        miss_order = np.argsort(-predicted[missing], kind="stable")
+        ev.missing_lines = sp_lines[missing][miss_order].tolist()
+        ev.missing_predicted = predicted[missing][miss_order].tolist()
+        denom_mask = finite & (visible | found_mask)
+        denom = float(np.sum(e_lines[denom_mask]))
+        if denom > 0:
+            ev.found_fraction = float(np.sum(e_lines[denom_mask & found_mask]) / denom)
+        else:
+            # No strength information: presence alone caps the call at "possible".
+            ev.found_fraction = 0.5 if lines.size else 0.0
+        ev.level = decide_verdict(ev)
+        ev.score = score_of(ev)
+        evidence[code] = ev
+    return EvidencePass(
+        evidence=evidence,
+        pairs=pairs,
+        pair_species=sp,
+        pair_competes=competes,
+        strengths=e,
+        in_range=in_range,
+        usable=usable,
+    )

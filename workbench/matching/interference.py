@@ -1,0 +1,264 @@
+"""Line assignment and interference warnings.
+
+Assignment
+    Each observed peak goes to the plausible species (verdict "possible" or
+    better) that best explains it: highest verdict, then the largest
+    predicted intensity at that peak (the species' intensity scale × its
+    expected strength there), then the smallest offset. When a second
+    plausible species is predicted at ≥ ``share_ratio`` of the best (or
+    intensities are unknown), the peak is marked *shared*. Peaks that no
+    plausible species explains are *unassigned*; their candidates, if any,
+    are still listed.
+
+Warnings (kind)
+    ``unresolved_overlap``
+        an observed peak has candidate lines of two or more plausible species.
+    ``reference_overlap``
+        a strong line of a species called "probable" or better lies within the
+        window of a line of another species with matches, even where no peak
+        was seen there.
+    Each names both lines, their separation, the resolving power λ/Δλ
+    needed to separate them, and for each species the interference-free
+    lines that settle the question (found ones support it; strong ones
+    missing speak against it).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from workbench.matching.evidence import EvidencePass, ObservedLines
+from workbench.matching.reference import ReferenceIndex
+from workbench.matching.scoring import SpeciesEvidence
+
+__all__ = ["PeakAssignment", "assign_peaks", "interference_warnings"]
+
+
+@dataclass
+class PeakAssignment:
+    """Assignment of one observed peak."""
+
+    status: str  # "assigned" | "shared" | "unassigned"
+    species: list[int]  # species codes explaining the peak (best first)
+
+
+def _predicted_at_peaks(ev_pass: EvidencePass, n_obs: int) -> dict[int, np.ndarray]:
+    """Sum of expected strength per (species, peak), as dense arrays for plausible species."""
+    out: dict[int, np.ndarray] = {}
+    e = np.nan_to_num(ev_pass.strengths[ev_pass.pairs.ref], nan=0.0)
+    for code in ev_pass.evidence:
+        m = ev_pass.pair_species == code
+        out[code] = np.bincount(ev_pass.pairs.obs[m], weights=e[m], minlength=n_obs)
+    return out
+
+
+def assign_peaks(
+    obs: ObservedLines, ev_pass: EvidencePass, share_ratio: float = 0.2
+) -> list[PeakAssignment]:
+    """Assign every observed peak (see module docstring)."""
+    n_obs = obs.position.size
+    plausible = {c: ev for c, ev in ev_pass.evidence.items() if ev.level >= 1}
+    sums = _predicted_at_peaks(ev_pass, n_obs)
+    pairs = ev_pass.pairs
+    cand_by_peak: dict[int, set[int]] = {}
+    for p, s in zip(pairs.obs.tolist(), ev_pass.pair_species.tolist(), strict=True):
+        if s in plausible:
+            cand_by_peak.setdefault(p, set()).add(s)
+    out: list[PeakAssignment] = []
+    for p in range(n_obs):
+        codes = cand_by_peak.get(p)
+        if not codes:
+            out.append(PeakAssignment("unassigned", []))
+            continue
+
+        def predicted(c: int, p: int = p) -> float:
+            ev = plausible[c]
+            e = float(sums[c][p])
+            return e * ev.scale if ev.scale is not None else float("nan")
+
+        def key(c: int, p: int = p) -> tuple:
+            pred = predicted(c)
+            return (
+                -plausible[c].level,
+                -(pred if np.isfinite(pred) else 0.0),
+                -plausible[c].score,
+                plausible[c].label,
+            )
+
+        ranked = sorted(codes, key=key)
+        best = ranked[0]
+        sharing = [best]
+        pb = predicted(best)
+        for c in ranked[1:]:
+            pc = predicted(c)
+            if not (np.isfinite(pb) and np.isfinite(pc)) or pc >= share_ratio * pb:
+                sharing.append(c)
+        out.append(PeakAssignment("shared" if len(sharing) > 1 else "assigned", sharing))
+    return out
+
+
+def _settling_lines(
+    ev: SpeciesEvidence, index: ReferenceIndex, strengths: np.ndarray, limit: int = 3
+) -> dict[str, list[float]]:
+    found = sorted(ev.unique_lines, key=lambda i: -np.nan_to_num(strengths[i]))[:limit]
+    missing = ev.missing_lines[:limit]
+    return {
+        "found": [round(float(index.position[i]), 5) for i in found],
+        "missing": [round(float(index.position[i]), 5) for i in missing],
+    }
+
+
+def _describe(ev: SpeciesEvidence, settle: dict[str, list[float]], unit: str) -> str:
+    parts = []
+    if settle["found"]:
+        parts.append("found clean " + ", ".join(f"{v:.4f}" for v in settle["found"]) + f" {unit}")
+    if settle["missing"]:
+        parts.append(
+            "strong but missing " + ", ".join(f"{v:.4f}" for v in settle["missing"]) + f" {unit}"
+        )
+    return f"{ev.label}: " + ("; ".join(parts) if parts else "no interference-free line in range")
+
+
+def interference_warnings(
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    ev_pass: EvidencePass,
+    assignments: list[PeakAssignment],
+    *,
+    strong_fraction: float,
+) -> list[dict[str, object]]:
+    """Build the interference warnings (see module docstring)."""
+    unit = "nm" if index.axis == "wavelength" else "eV"
+    ev_all = ev_pass.evidence
+    e = ev_pass.strengths
+    pairs = ev_pass.pairs
+    warnings: list[dict[str, object]] = []
+    seen: set[tuple] = set()
+    # 1. Peaks with candidates of two or more plausible species.
+    for p, asg in enumerate(assignments):
+        sel = np.flatnonzero(pairs.obs == p) if asg.status == "shared" else np.array([], int)
+        if sel.size == 0:
+            continue
+        # The strongest candidate line of each sharing species at this peak.
+        best_line: dict[int, int] = {}
+        for k in sel:
+            s = int(ev_pass.pair_species[k])
+            if s not in asg.species:
+                continue
+            r = int(pairs.ref[k])
+            if s not in best_line or np.nan_to_num(e[r]) > np.nan_to_num(e[best_line[s]]):
+                best_line[s] = r
+        codes = [s for s in asg.species if s in best_line]
+        for i, a in enumerate(codes):
+            for b in codes[i + 1 :]:
+                ra, rb = best_line[a], best_line[b]
+                key = ("peak", p, min(a, b), max(a, b))
+                if key in seen:
+                    continue
+                seen.add(key)
+                warnings.append(
+                    _overlap_warning(
+                        "unresolved_overlap",
+                        index,
+                        ev_all[a],
+                        ev_all[b],
+                        ra,
+                        rb,
+                        e,
+                        unit,
+                        observed=float(obs.position[p]),
+                        peak=p,
+                    )
+                )
+    # 2. Strong lines of identified species overlapping lines of other candidates.
+    candidates = [c for c, ev in ev_all.items() if ev.found_lines]
+    cand_mask = np.isin(index.species, np.array(candidates, dtype=np.int64))
+    usable = ev_pass.usable & cand_mask & (np.nan_to_num(e) >= 0.05)
+    other_idx = np.flatnonzero(usable)
+    other_pos = index.position[other_idx]
+    for code, ev in sorted(ev_all.items()):
+        if ev.level < 2:
+            continue
+        strong = [
+            i for i in ev.found_lines + ev.missing_lines if np.nan_to_num(e[i]) >= strong_fraction
+        ]
+        for i in strong:
+            x = index.position[i]
+            tol = float(np.interp(x, obs.position, obs.half_window)) if obs.position.size else 0.0
+            lo, hi = np.searchsorted(other_pos, [x - tol, x + tol + 1e-12])
+            for j in other_idx[lo:hi]:
+                s = int(index.species[j])
+                if s == code:
+                    continue
+                key = ("ref", min(i, int(j)), max(i, int(j)))
+                pair_key = ("peak_pair", min(code, s), max(code, s), round(float(x), 3))
+                if key in seen or pair_key in seen:
+                    continue
+                seen.add(key)
+                seen.add(pair_key)
+                # Skip when already reported as an unresolved overlap at a peak.
+                if any(
+                    w["kind"] == "unresolved_overlap"
+                    and set(w["elements"]) == {ev.label, ev_all[s].label}
+                    and abs(w["observed"] - x) <= tol
+                    for w in warnings
+                ):
+                    continue
+                warnings.append(
+                    _overlap_warning(
+                        "reference_overlap",
+                        index,
+                        ev,
+                        ev_all[s],
+                        i,
+                        int(j),
+                        e,
+                        unit,
+                        observed=None,
+                        peak=None,
+                    )
+                )
+    return warnings
+
+
+def _overlap_warning(
+    kind: str,
+    index: ReferenceIndex,
+    ev_a: SpeciesEvidence,
+    ev_b: SpeciesEvidence,
+    line_a: int,
+    line_b: int,
+    e: np.ndarray,
+    unit: str,
+    *,
+    observed: float | None,
+    peak: int | None,
+) -> dict[str, object]:
+    xa, xb = float(index.position[line_a]), float(index.position[line_b])
+    sep = abs(xa - xb)
+    mean = 0.5 * (xa + xb)
+    needed = mean / sep if sep > 0 else float("inf")
+    settle_a = _settling_lines(ev_a, index, e)
+    settle_b = _settling_lines(ev_b, index, e)
+    where = f"observed line at {observed:.4f} {unit}: " if observed is not None else ""
+    needed_txt = f"R ≥ {needed:,.0f}" if np.isfinite(needed) else "not separable (same position)"
+    message = (
+        f"{where}{ev_a.label} {xa:.4f} and {ev_b.label} {xb:.4f} {unit} are within the match "
+        f"window (separation {sep:.4f} {unit}; separating them needs {needed_txt}). "
+        f"Settle with other lines — {_describe(ev_a, settle_a, unit)}; "
+        f"{_describe(ev_b, settle_b, unit)}."
+    )
+    return {
+        "kind": kind,
+        "message": message,
+        "elements": sorted([ev_a.label, ev_b.label]),
+        "lines": [str(index.line_id[line_a]), str(index.line_id[line_b])],
+        "positions": [round(xa, 6), round(xb, 6)],
+        "separation": round(sep, 6),
+        "resolving_power_needed": round(needed, 1) if np.isfinite(needed) else None,
+        "observed": round(observed, 6) if observed is not None else None,
+        "peak_index": peak,
+        "settle": {ev_a.label: settle_a, ev_b.label: settle_b},
+    }

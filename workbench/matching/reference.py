@@ -1,0 +1,236 @@
+"""Reference lines laid out as sorted arrays for vectorised matching.
+
+A *species* is what the engine scores: an element in one ion stage for
+optical sets (``"Fe I"``, ``"Ca II"``), or an element's X-ray line family
+for X-ray sets (``"Pb L"``, ``"As K"``), since K, L and M lines are excited
+independently and their relative strengths depend on the excitation.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any, Literal
+
+import numpy as np
+import polars as pl
+
+from workbench.errors import ValueRangeError
+
+__all__ = ["ReferenceIndex", "roman", "species_label"]
+
+_ROMAN = ["", "I", "II", "III", "IV", "V", "VI", "VII", "VIII", "IX", "X"]
+
+
+def roman(ion: int) -> str:
+    """Spectroscopic notation of an ion stage (1 → "I", 2 → "II")."""
+    return _ROMAN[ion] if 0 < ion < len(_ROMAN) else str(ion)
+
+
+def species_label(element: str, ion: int | None, family: str | None = None) -> str:
+    """Human label of a species: ``"Fe I"``, ``"Ca II"`` or ``"Pb L"``."""
+    if family:
+        return f"{element} {family}"
+    return f"{element} {roman(int(ion))}" if ion is not None else element
+
+
+# Rough weights of the L sub-shell families relative to L3 under tube or
+# source excitation, used only to put L1/L2/L3 lines on one scale within an
+# element's L family (common practice, no source; varies with excitation).
+_XRAY_SUBSHELL_WEIGHT = {
+    "L1": 0.25,
+    "L2": 0.5,
+    "L3": 1.0,
+    "M1": 0.1,
+    "M2": 0.1,
+    "M3": 0.2,
+    "M4": 0.6,
+    "M5": 1.0,
+    "K": 1.0,
+}
+
+
+def _col(table: pl.DataFrame, name: str, dtype: Any = pl.Float64) -> np.ndarray:
+    if name not in table.columns:
+        if dtype == pl.Utf8:
+            return np.array([None] * table.height, dtype=object)
+        return np.full(table.height, np.nan)
+    series = table[name]
+    if dtype == pl.Utf8:
+        return np.array(series.cast(pl.Utf8).to_list(), dtype=object)
+    return series.cast(pl.Float64).fill_null(np.nan).to_numpy()
+
+
+@dataclass
+class ReferenceIndex:
+    """Reference lines of one or more sets, sorted by position.
+
+    Use :meth:`from_sets` to build one. Arrays are aligned (one entry per line).
+
+    Attributes
+    ----------
+    axis : {"wavelength", "energy"}
+        Position axis.
+    medium : {"air", "vacuum"} or None
+        Medium of ``position`` for a wavelength axis.
+    position : numpy.ndarray
+        Line positions (nm in ``medium``, or eV), ascending.
+    wavelength_vac_nm : numpy.ndarray
+        Vacuum wavelength (NaN for X-ray lines); used by the physics.
+    species : numpy.ndarray
+        Integer species code per line; ``species_names[code]`` is the label.
+    """
+
+    axis: Literal["wavelength", "energy"]
+    medium: str | None
+    position: np.ndarray
+    wavelength_vac_nm: np.ndarray
+    species: np.ndarray
+    species_names: list[str]
+    species_element: list[str]
+    species_ion: list[int | None]
+    species_family: list[str | None]
+    g_upper: np.ndarray
+    A_ki_per_s: np.ndarray
+    E_upper_eV: np.ndarray
+    E_lower_eV: np.ndarray
+    log_gf: np.ndarray
+    rel_intensity: np.ndarray
+    subshell_weight: np.ndarray
+    line_id: np.ndarray
+    transition: np.ndarray
+    set_id: np.ndarray
+    provenance: list[dict[str, object]]
+
+    @classmethod
+    def from_sets(
+        cls,
+        sets: Sequence[Any],
+        axis: Literal["wavelength", "energy"],
+        medium: str | None,
+        elements: Sequence[str] | None = None,
+        position_range: tuple[float, float] | None = None,
+    ) -> ReferenceIndex:
+        """Build the index from loaded reference sets.
+
+        Parameters
+        ----------
+        sets : sequence of ReferenceSet
+            Loaded sets (``workbench.refdata.load_set``); their ``axis`` must
+            agree with ``axis``.
+        axis : {"wavelength", "energy"}
+            Axis of the observed data.
+        medium : {"air", "vacuum"} or None
+            For a wavelength axis, which reference column to match against.
+            Air wavelengths are undefined below 200 nm (vacuum by convention),
+            so the vacuum value is used there.
+        elements : sequence of str, optional
+            Restrict to these element symbols.
+        position_range : (float, float), optional
+            Keep only lines inside this range (axis unit).
+
+        Returns
+        -------
+        ReferenceIndex
+        """
+        if not sets:
+            raise ValueRangeError("no reference set was chosen", "choose at least one set")
+        frames: list[pl.DataFrame] = []
+        provenance: list[dict[str, object]] = []
+        for s in sets:
+            if s.axis != axis:
+                raise ValueRangeError(
+                    f"reference set {s.id!r} is on a {s.axis} axis but the data are on a "
+                    f"{axis} axis",
+                    "choose sets of the same kind as the data (optical for wavelengths, "
+                    "xray for energies)",
+                )
+            t = s.table
+            if elements:
+                t = t.filter(pl.col("element").is_in(list(elements)))
+            frames.append(t.with_columns(pl.lit(s.id).alias("_set_id")))
+            provenance.append(s.provenance())
+        table = pl.concat(frames, how="diagonal_relaxed")
+        if axis == "wavelength":
+            if medium == "air":
+                pos = pl.coalesce(pl.col("wavelength_air_nm"), pl.col("wavelength_vac_nm"))
+            elif medium == "vacuum":
+                pos = pl.col("wavelength_vac_nm")
+            else:
+                raise ValueRangeError(f"unknown medium {medium!r}", "use 'air' or 'vacuum'")
+        else:
+            pos = pl.col("energy_eV")
+        table = table.with_columns(pos.cast(pl.Float64).alias("_pos")).filter(
+            pl.col("_pos").is_not_null() & pl.col("_pos").is_finite()
+        )
+        if position_range is not None:
+            lo, hi = position_range
+            table = table.filter((pl.col("_pos") >= lo) & (pl.col("_pos") <= hi))
+        # Family for X-ray lines: "K", "L", "M" from the initial level (e.g. "L3").
+        if "initial_level" in table.columns and axis == "energy":
+            table = table.with_columns(
+                pl.col("initial_level").cast(pl.Utf8).str.slice(0, 1).alias("_family")
+            )
+        else:
+            table = table.with_columns(pl.lit(None, dtype=pl.Utf8).alias("_family"))
+        if "ion" not in table.columns:
+            table = table.with_columns(pl.lit(None, dtype=pl.Int32).alias("ion"))
+        table = table.with_columns(
+            pl.when(pl.col("_family").is_not_null())
+            .then(pl.col("element") + " " + pl.col("_family"))
+            .otherwise(pl.col("element") + "|" + pl.col("ion").cast(pl.Utf8))
+            .alias("_species_key")
+        )
+        # Same line from two sets (e.g. H in optical and hydrogen_like): keep the first set's.
+        table = table.with_columns(pl.col("_pos").round(5).alias("_pos_key")).unique(
+            subset=["_species_key", "_pos_key"], keep="first", maintain_order=True
+        )
+        table = table.sort(["_pos", "_species_key", "line_id"])
+        keys = table["_species_key"].to_list()
+        names_sorted = sorted(set(keys))
+        code_of = {k: i for i, k in enumerate(names_sorted)}
+        species = np.fromiter((code_of[k] for k in keys), dtype=np.int32, count=len(keys))
+        first = table.unique(subset=["_species_key"], keep="first").sort("_species_key")
+        el = first["element"].to_list()
+        ions = first["ion"].to_list()
+        fams = first["_family"].to_list()
+        labels = [
+            species_label(e, None if f else i, f) for e, i, f in zip(el, ions, fams, strict=True)
+        ]
+        initial = _col(table, "initial_level", pl.Utf8)
+        weight = np.array([_XRAY_SUBSHELL_WEIGHT.get(str(v), 1.0) if v else 1.0 for v in initial])
+        return cls(
+            axis=axis,
+            medium=medium if axis == "wavelength" else None,
+            position=table["_pos"].to_numpy().astype(np.float64),
+            wavelength_vac_nm=_col(table, "wavelength_vac_nm"),
+            species=species,
+            species_names=labels,
+            species_element=el,
+            species_ion=[
+                None if f else (int(i) if i is not None else None)
+                for i, f in zip(ions, fams, strict=True)
+            ],
+            species_family=fams,
+            g_upper=_col(table, "g_upper"),
+            A_ki_per_s=_col(table, "A_ki_per_s"),
+            E_upper_eV=_col(table, "E_upper_eV"),
+            E_lower_eV=_col(table, "E_lower_eV"),
+            log_gf=_col(table, "log_gf"),
+            rel_intensity=_col(table, "rel_intensity"),
+            subshell_weight=weight,
+            line_id=np.array(table["line_id"].cast(pl.Utf8).to_list(), dtype=object),
+            transition=_col(table, "transition", pl.Utf8),
+            set_id=np.array(table["_set_id"].to_list(), dtype=object),
+            provenance=provenance,
+        )
+
+    @property
+    def n_lines(self) -> int:
+        """Number of reference lines."""
+        return int(self.position.size)
+
+    @property
+    def n_species(self) -> int:
+        """Number of species."""
+        return len(self.species_names)

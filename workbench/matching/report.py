@@ -1,0 +1,335 @@
+"""The versioned result record (JSON schema version 1) and its text summary.
+
+Top-level keys: ``schema_version``, ``software_version``, ``data_version``,
+``input``, ``parameters``, ``reference_sets``, ``calibration``,
+``temperature``, ``elements``, ``lines``, ``warnings``, ``summary``. Position
+keys carry the axis unit in their names (``observed_nm``/``reference_nm``/
+``delta_nm`` on a wavelength axis, ``observed_eV``/… on an energy axis); the
+medium is in ``input.medium``. The full field list is in
+``docs/result-schema.md``.
+
+``observed_rel`` of a matched line is the observed intensity divided by the
+species' intensity scale, so it is directly comparable with ``expected_rel``
+(both 1 for the strongest expected line when the pattern is perfect).
+
+:func:`result_json` gives canonical bytes: sorted keys, compact separators,
+floats to 10 significant digits, NaN as null. The same input and parameters
+give byte-identical output.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from workbench.matching.scoring import VERDICTS
+
+if TYPE_CHECKING:
+    from workbench.matching.engine import MatchResult
+
+__all__ = ["SCHEMA_VERSION", "build_report", "canonical", "result_json", "summary_text"]
+
+SCHEMA_VERSION = 1
+_MAX_CANDIDATES = 8
+
+
+def canonical(obj: Any) -> Any:
+    """Convert to plain JSON types with reproducible floats (10 significant digits)."""
+    if isinstance(obj, dict):
+        return {str(k): canonical(v) for k, v in obj.items()}
+    if isinstance(obj, list | tuple):
+        return [canonical(v) for v in obj]
+    if isinstance(obj, np.ndarray):
+        return [canonical(v) for v in obj.tolist()]
+    if isinstance(obj, bool | np.bool_):
+        return bool(obj)
+    if isinstance(obj, int | np.integer):
+        return int(obj)
+    if isinstance(obj, float | np.floating):
+        v = float(obj)
+        if not math.isfinite(v):
+            return None
+        return float(f"{v:.10g}")
+    return obj
+
+
+def result_json(report: dict[str, Any], indent: int | None = None) -> bytes:
+    """Canonical JSON bytes of a report."""
+    seps = (",", ":") if indent is None else (",", ": ")
+    text = json.dumps(
+        canonical(report),
+        sort_keys=True,
+        separators=seps,
+        ensure_ascii=False,
+        allow_nan=False,
+        indent=indent,
+    )
+    return text.encode("utf-8")
+
+
+def _num(v: float) -> float | None:
+    return float(v) if v is not None and np.isfinite(v) else None
+
+
+def build_report(result: MatchResult) -> dict[str, Any]:
+    """Assemble the schema-1 dictionary from a :class:`MatchResult`."""
+    from workbench import __version__
+
+    idx = result.index
+    obs = result.observed
+    ev_pass = result.evidence
+    e = ev_pass.strengths
+    u = "nm" if idx.axis == "wavelength" else "eV"
+    peaks = result.peaks
+    source = peaks.source
+    pos_obs = peaks.positions  # as given (before any applied calibration)
+
+    elements = []
+    for ev in sorted(ev_pass.evidence.values(), key=lambda v: (-v.level, -v.score, v.label)):
+        shared = set(ev.shared_lines)
+        matched = []
+        for line, peak in sorted(
+            zip(ev.found_lines, ev.found_peaks, strict=True), key=lambda t: idx.position[t[0]]
+        ):
+            inten = obs.intensity[peak]
+            obs_rel = inten / ev.scale if ev.scale and np.isfinite(inten) else None
+            matched.append(
+                {
+                    "line_id": str(idx.line_id[line]),
+                    f"observed_{u}": _num(pos_obs[peak]),
+                    f"reference_{u}": _num(idx.position[line]),
+                    f"delta_{u}": _num(obs.position[peak] - idx.position[line]),
+                    "expected_rel": _num(e[line]),
+                    "observed_rel": _num(obs_rel) if obs_rel is not None else None,
+                    "peak_index": int(peak),
+                    "shared": line in shared,
+                    "saturated": bool(obs.saturated[peak]),
+                    "transition": idx.transition[line],
+                }
+            )
+        missing = [
+            {
+                "line_id": str(idx.line_id[line]),
+                f"reference_{u}": _num(idx.position[line]),
+                "expected_rel": _num(e[line]),
+                "predicted_intensity": _num(pred),
+            }
+            for line, pred in zip(ev.missing_lines, ev.missing_predicted, strict=True)
+        ]
+        elements.append(
+            {
+                "species": ev.label,
+                "element": ev.element,
+                "ion": ev.ion,
+                "family": ev.family,
+                "verdict": ev.verdict,
+                "verdict_level": ev.level,
+                "score": round(ev.score, 4),
+                "found_fraction": round(ev.found_fraction, 4),
+                "n_lines_in_range": ev.n_lines_in_range,
+                "n_strong_in_range": ev.n_strong_in_range,
+                "n_strong_found": ev.n_strong_found,
+                "n_unique_found": len(ev.unique_lines),
+                "pattern_r": _num(ev.pattern_r) if ev.pattern_r is not None else None,
+                "intensity_scale": _num(ev.scale) if ev.scale is not None else None,
+                "matched_lines": matched,
+                "missing_lines": missing,
+                "shared_lines": sorted(str(idx.line_id[i]) for i in ev.shared_lines),
+            }
+        )
+
+    names = idx.species_names
+    pairs = ev_pass.pairs
+    order = np.lexsort((np.abs(pairs.delta), pairs.obs))
+    by_peak: dict[int, list[int]] = {}
+    for k in order.tolist():
+        by_peak.setdefault(int(pairs.obs[k]), []).append(k)
+    lines = []
+    for p, asg in enumerate(result.assignments):
+        cands = []
+        for k in by_peak.get(p, [])[:_MAX_CANDIDATES]:
+            r = int(pairs.ref[k])
+            cands.append(
+                {
+                    "species": names[int(idx.species[r])],
+                    "line_id": str(idx.line_id[r]),
+                    f"reference_{u}": _num(idx.position[r]),
+                    f"delta_{u}": _num(pairs.delta[k]),
+                    "expected_rel": _num(e[r]),
+                }
+            )
+        lines.append(
+            {
+                "index": p,
+                f"observed_{u}": _num(pos_obs[p]),
+                "intensity": _num(obs.intensity[p]),
+                f"tolerance_{u}": _num(obs.half_window[p]),
+                "status": asg.status,
+                "assigned_to": [names[c] for c in asg.species],
+                "n_candidates": len(by_peak.get(p, [])),
+                "candidates": cands,
+            }
+        )
+
+    warnings = list(result.warnings)
+    warnings.extend(_other_warnings(result, u))
+    warnings.sort(key=lambda w: (str(w["kind"]), str(w["message"])))
+
+    levels = {
+        lvl: [el["species"] for el in elements if el["verdict_level"] == lvl] for lvl in VERDICTS
+    }
+    statuses = [a.status for a in result.assignments]
+    return {
+        "schema_version": SCHEMA_VERSION,
+        "software_version": __version__,
+        "data_version": _data_version(result),
+        "input": {
+            "name": source.name if source else None,
+            "sha256": source.sha256 if source else None,
+            "size_bytes": source.size_bytes if source else None,
+            "kind": source.kind if source else "peak_list",
+            "format": source.format if source else None,
+            "notes": list(source.notes) if source else [],
+            "axis": peaks.axis,
+            "unit": u,
+            "medium": peaks.medium,
+            "mode": peaks.mode,
+            "n_peaks": int(pos_obs.size),
+            "peak_finding": peaks.extra.get("peak_finding")
+            if isinstance(peaks.extra, dict)
+            else None,
+        },
+        "parameters": result.parameters.to_dict(),
+        "reference_sets": [dict(p) for p in idx.provenance],
+        "calibration": result.scale.to_dict(),
+        "temperature": {
+            "working_temperature_K": result.working_temperature_K,
+            "given_K": result.parameters.temperature_K,
+            "estimate": result.temperature.to_dict() if result.temperature else None,
+            "lte": result.lte,
+        },
+        "elements": elements,
+        "lines": lines,
+        "warnings": warnings,
+        "summary": {
+            "n_peaks": int(pos_obs.size),
+            "n_assigned": statuses.count("assigned"),
+            "n_shared": statuses.count("shared"),
+            "n_unassigned": statuses.count("unassigned"),
+            "by_verdict": {VERDICTS[lvl]: levels[lvl] for lvl in sorted(VERDICTS, reverse=True)},
+        },
+    }
+
+
+def _data_version(result: MatchResult) -> str | None:
+    versions = sorted(
+        {str(p.get("data_version")) for p in result.index.provenance if p.get("data_version")}
+    )
+    return ";".join(versions) if versions else None
+
+
+def _other_warnings(result: MatchResult, u: str) -> list[dict[str, object]]:
+    out: list[dict[str, object]] = []
+    src = result.peaks.source
+    for note in src.notes if src else ():
+        if "assum" in note.lower():
+            out.append({"kind": "input_assumption", "message": note, "elements": [], "lines": []})
+    sc = result.scale
+    if sc.shift is not None and not sc.applied:
+        tol = float(np.median(result.observed.half_window))
+        if abs(sc.shift) > max(3 * (sc.shift_uncertainty or 0.0), 0.25 * tol):
+            out.append(
+                {
+                    "kind": "scale_offset",
+                    "message": f"{sc.message}: larger than its uncertainty and a quarter of the "
+                    f"match window; check the instrument's wavelength calibration or rerun with "
+                    f"--apply-calibration",
+                    "elements": [],
+                    "lines": [],
+                }
+            )
+    lte = result.lte
+    if lte is not None and lte.get("satisfied") is not True:
+        out.append({"kind": "lte", "message": str(lte["message"]), "elements": [], "lines": []})
+    t = result.temperature
+    if t is not None and t.temperature_K is None:
+        out.append(
+            {
+                "kind": "temperature",
+                "message": t.message + f"; expected intensities use "
+                f"{result.working_temperature_K:g} K",
+                "elements": [],
+                "lines": [],
+            }
+        )
+    unassigned = sum(1 for a in result.assignments if a.status == "unassigned")
+    if unassigned:
+        out.append(
+            {
+                "kind": "unassigned_lines",
+                "message": f"{unassigned} observed line(s) are explained by no plausible species "
+                "(molecular bands, elements outside the chosen sets, or artefacts)",
+                "elements": [],
+                "lines": [],
+            }
+        )
+    return out
+
+
+def summary_text(report: dict[str, Any], max_lines: int = 40) -> str:
+    """Readable summary for the terminal: verdict table, warnings, unassigned lines."""
+    u = report["input"]["unit"]
+    inp = report["input"]
+    out = [
+        f"input     {inp['name']}  sha256 {inp['sha256']}",
+        f"axis      {inp['axis']} ({u}, medium {inp['medium'] or 'n/a'}), {inp['mode']}, "
+        f"{inp['n_peaks']} lines",
+        "reference " + ", ".join(f"{s['id']} {s['version']}" for s in report["reference_sets"]),
+    ]
+    t = report["temperature"]
+    est = t.get("estimate") or {}
+    t_line = f"temperature {t['working_temperature_K']:.0f} K"
+    if est.get("temperature_K"):
+        t_line += (
+            f" (Boltzmann plot of {est['species']}: {est['temperature_K']:.0f} ± "
+            f"{est['uncertainty_K']:.0f} K, R² {est['r_squared']:.3f})"
+        )
+    elif t.get("given_K"):
+        t_line += " (given)"
+    out.append(t_line)
+    out.append("")
+    out.append(
+        f"{'species':<10} {'verdict':<14} {'score':>5} {'strong':>7} {'uniq':>4} "
+        f"{'miss':>4}  best lines ({u})"
+    )
+    for el in report["elements"]:
+        if el["verdict_level"] == 0 and len(out) > max_lines:
+            continue
+        best = sorted(el["matched_lines"], key=lambda m: -(m["expected_rel"] or 0))[:3]
+        lines = ", ".join(f"{m[f'reference_{u}']:.3f}" for m in best)
+        out.append(
+            f"{el['species']:<10} {el['verdict']:<14} {el['score']:>5.2f} "
+            f"{el['n_strong_found']:>3}/{el['n_strong_in_range']:<3} "
+            f"{el['n_unique_found']:>4} {len(el['missing_lines']):>4}  {lines}"
+        )
+    if report["warnings"]:
+        out.append("")
+        out.append("warnings:")
+        for w in report["warnings"]:
+            out.append(f"  [{w['kind']}] {w['message']}")
+    un = [ln for ln in report["lines"] if ln["status"] == "unassigned"]
+    if un:
+        out.append("")
+        shown = ", ".join(f"{ln[f'observed_{u}']:.4f}" for ln in un[:20])
+        more = f" (+{len(un) - 20} more)" if len(un) > 20 else ""
+        out.append(f"unassigned lines ({u}): {shown}{more}")
+    s = report["summary"]
+    out.append("")
+    out.append(
+        f"{s['n_assigned']} assigned, {s['n_shared']} shared, {s['n_unassigned']} "
+        "unassigned. Results need review by a qualified examiner."
+    )
+    return "\n".join(out)
