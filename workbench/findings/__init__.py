@@ -1,1 +1,65 @@
-"""(package docstring to be written by its owner)."""
+"""Signed findings sheets: content, PDF rendering, Ed25519 keys and signatures.
+
+A findings sheet is built from plain data (:func:`build_sheet_content`),
+written twice — as canonical JSON (:func:`canonical_json`) and as a PDF
+(:func:`render_pdf`) — and signed with the analyst's Ed25519 key
+(:func:`sign_sheet`). :func:`verify_sheet` and :func:`verify_sheet_with_store`
+check all three files and say which check failed. :func:`issue_findings_sheet`
+does the whole round trip against a case store.
+"""
+
+from __future__ import annotations
+
+from workbench.findings.content import (
+    CAUTIONS,
+    CONTENT_FORMAT,
+    build_sheet_content,
+    canonical_json,
+    utc_timestamp,
+)
+from workbench.findings.keys import (
+    MIN_PASSPHRASE_LENGTH,
+    KeyPair,
+    fingerprint_of,
+    generate_key_pair,
+    load_private_key,
+    load_public_key,
+    public_key_pem_of,
+    save_key_pair,
+)
+from workbench.findings.sheet import render_pdf
+from workbench.findings.signing import (
+    SIGNATURE_FORMAT,
+    SignedSheet,
+    VerificationResult,
+    parse_signature_record,
+    sign_sheet,
+    verify_raw_pdf_signature,
+    verify_sheet,
+    verify_sheet_with_store,
+)
+
+__all__ = [
+    "CAUTIONS",
+    "CONTENT_FORMAT",
+    "MIN_PASSPHRASE_LENGTH",
+    "SIGNATURE_FORMAT",
+    "KeyPair",
+    "SignedSheet",
+    "VerificationResult",
+    "build_sheet_content",
+    "canonical_json",
+    "fingerprint_of",
+    "generate_key_pair",
+    "load_private_key",
+    "load_public_key",
+    "parse_signature_record",
+    "public_key_pem_of",
+    "render_pdf",
+    "save_key_pair",
+    "sign_sheet",
+    "utc_timestamp",
+    "verify_raw_pdf_signature",
+    "verify_sheet",
+    "verify_sheet_with_store",
+]

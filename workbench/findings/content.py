@@ -1,0 +1,380 @@
+"""Canonical content of a findings sheet, built from plain data.
+
+The content dictionary is what the sheet *says*; the PDF is one rendering of
+it and the canonical JSON (:func:`canonical_json`) is the other. Both are
+signed. Building is deterministic: the same inputs give the same dictionary
+and the same JSON bytes.
+
+Floats are rounded to :data:`SIGNIFICANT_DIGITS` significant digits when the
+content is built, so that the JSON does not depend on the last bits of a
+floating-point computation; ``json.dumps`` then writes each rounded float by
+Python's shortest round-trip ``repr``, which is reproducible.
+
+Everything a user typed (names, notes, limitations) is kept as plain text and
+never interpreted as markup by the renderer.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from collections.abc import Mapping, Sequence
+from datetime import UTC, datetime
+from typing import Any
+
+from workbench.errors import InputError, ValueRangeError
+
+__all__ = [
+    "CAUTIONS",
+    "CONTENT_FORMAT",
+    "SIGNIFICANT_DIGITS",
+    "build_sheet_content",
+    "canonical_json",
+    "normalise_value",
+    "position_keys",
+    "utc_timestamp",
+]
+
+#: Format id written into every sheet's content.
+CONTENT_FORMAT: str = "workbench-findings/1"
+
+#: Significant digits kept for every float in the content (enough for 0.0001 nm at 1000 nm).
+SIGNIFICANT_DIGITS: int = 10
+
+#: The standing cautions printed on every sheet (the lab's own limitations come in addition).
+CAUTIONS: tuple[str, ...] = (
+    "This sheet reports what an automated line-matching program found. A qualified "
+    "examiner must review it, and it must be interpreted under the laboratory's own "
+    "accredited procedures before anyone relies on it.",
+    "Finding a chemical element says nothing by itself about which compound, material or "
+    "product was present.",
+    "Line matching is a screening step. It does not take the place of confirmatory "
+    "methods required by the laboratory's procedures.",
+    "Where a finding could affect a person's liberty or legal position, it must be reviewed "
+    "and confirmed under the laboratory's procedures before it is reported onward.",
+)
+
+
+def utc_timestamp(value: str | datetime | None = None) -> str:
+    """Return a UTC time as ``YYYY-MM-DDTHH:MM:SSZ``.
+
+    Parameters
+    ----------
+    value : str or datetime or None
+        An aware datetime, an ISO 8601 string with an offset or ``Z``, or
+        ``None`` for the current time.
+
+    Returns
+    -------
+    str
+        The time in UTC, to the second.
+
+    Raises
+    ------
+    ValueRangeError
+        If the value is naive (no time zone) or not ISO 8601.
+    """
+    if value is None:
+        moment = datetime.now(UTC)
+    elif isinstance(value, datetime):
+        moment = value
+    elif isinstance(value, str):
+        text = value.strip()
+        if text.endswith(("Z", "z")):
+            text = text[:-1] + "+00:00"
+        try:
+            moment = datetime.fromisoformat(text)
+        except ValueError as exc:
+            raise ValueRangeError(
+                f"time {value!r} is not an ISO 8601 date-time",
+                "write it like 2026-03-14T09:30:00Z",
+            ) from exc
+    else:
+        raise ValueRangeError(f"time {value!r} is not a date-time", "give an ISO 8601 string")
+    if moment.tzinfo is None or moment.utcoffset() is None:
+        raise ValueRangeError(
+            f"time {value!r} has no time zone",
+            "give the time in UTC with a 'Z' suffix (2026-03-14T09:30:00Z) or an offset",
+        )
+    return moment.astimezone(UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def _round_sig(x: float, digits: int = SIGNIFICANT_DIGITS) -> float:
+    if x == 0.0:
+        return 0.0
+    return float(f"{x:.{digits - 1}e}")
+
+
+def normalise_value(value: Any, where: str = "content") -> Any:
+    """Turn a value into plain JSON data with rounded floats.
+
+    Parameters
+    ----------
+    value : Any
+        Mappings, sequences, str, int, float, bool, None, bytes (decoded as
+        UTF-8 JSON if possible, else hex) or numpy scalars.
+    where : str
+        Path of the value, for error messages.
+
+    Returns
+    -------
+    Any
+        The normalised value (dict keys are str; tuples become lists).
+
+    Raises
+    ------
+    ValueRangeError
+        For NaN or infinite floats, or values that have no JSON form.
+    """
+    if value is None or isinstance(value, bool | str):
+        return value
+    if isinstance(value, int):
+        return int(value)
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            raise ValueRangeError(
+                f"{where} is {value}, which has no place on a findings sheet",
+                "fix the analysis so that it gives finite numbers, or leave the value out",
+            )
+        return _round_sig(value)
+    if hasattr(value, "item") and callable(value.item) and not isinstance(value, Mapping):
+        try:
+            return normalise_value(value.item(), where)  # numpy scalar
+        except (TypeError, ValueError):
+            pass
+    if isinstance(value, bytes | bytearray):
+        try:
+            return normalise_value(json.loads(bytes(value).decode("utf-8")), where)
+        except (UnicodeDecodeError, json.JSONDecodeError):
+            return bytes(value).hex()
+    if isinstance(value, datetime):
+        return utc_timestamp(value)
+    if isinstance(value, Mapping):
+        return {str(k): normalise_value(v, f"{where}.{k}") for k, v in value.items()}
+    if isinstance(value, Sequence):
+        return [normalise_value(v, f"{where}[{i}]") for i, v in enumerate(value)]
+    raise ValueRangeError(
+        f"{where} holds a {type(value).__name__}, which has no JSON form",
+        "pass plain numbers, strings, lists and dictionaries",
+    )
+
+
+def canonical_json(content: Mapping[str, Any]) -> bytes:
+    """Serialise content canonically.
+
+    Sorted keys, compact separators, ``ensure_ascii=False``, UTF-8, no NaN.
+    Floats should already be rounded (:func:`build_sheet_content` does it).
+
+    Parameters
+    ----------
+    content : mapping
+        The sheet content.
+
+    Returns
+    -------
+    bytes
+        UTF-8 JSON.
+    """
+    try:
+        text = json.dumps(
+            content, sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False
+        )
+    except (TypeError, ValueError) as exc:
+        raise ValueRangeError(
+            f"sheet content cannot be written as canonical JSON ({exc})",
+            "build the content with build_sheet_content()",
+        ) from exc
+    return text.encode("utf-8")
+
+
+def _text(value: Any, what: str) -> str:
+    if value is None:
+        return ""
+    if not isinstance(value, str):
+        raise InputError(f"{what} must be text, got {type(value).__name__}", "pass a string")
+    # Normalise line ends only; the words themselves are kept exactly.
+    return value.replace("\r\n", "\n").replace("\r", "\n")
+
+
+def position_keys(result: Mapping[str, Any]) -> tuple[str, str]:
+    """Return the axis kind and unit of a matching result.
+
+    Parameters
+    ----------
+    result : mapping
+        The matching engine's result JSON (schema_version 1).
+
+    Returns
+    -------
+    tuple of str
+        ``("wavelength", "nm")`` or ``("energy", "eV")``.
+    """
+    inp = result.get("input") or {}
+    unit = str(inp.get("unit") or "").strip()
+    if unit in ("eV", "keV") or inp.get("kind") == "energy":
+        return "energy", "eV"
+    for el in result.get("elements") or []:
+        for m in el.get("matched_lines") or []:
+            if "observed_eV" in m:
+                return "energy", "eV"
+            if "observed_nm" in m:
+                return "wavelength", "nm"
+    return "wavelength", "nm"
+
+
+def _pick(src: Mapping[str, Any] | None, keys: Sequence[str]) -> dict[str, Any]:
+    if not src:
+        return {}
+    return {k: src[k] for k in keys if k in src and src[k] is not None}
+
+
+def _finding(el: Mapping[str, Any], unit: str) -> dict[str, Any]:
+    obs, ref, dlt = f"observed_{unit}", f"reference_{unit}", f"delta_{unit}"
+    matched = []
+    for m in el.get("matched_lines") or []:
+        row = _pick(m, (obs, ref, dlt, "expected_rel", "observed_rel", "line_id"))
+        if obs in m and ref in m and dlt not in m:
+            row[dlt] = float(m[obs]) - float(m[ref])
+        matched.append(row)
+    matched.sort(key=lambda r: (float(r.get(ref, 0.0)), str(r.get("line_id", ""))))
+    missing = [_pick(m, (ref, "expected_rel", "line_id")) for m in el.get("missing_lines") or []]
+    missing.sort(key=lambda r: (float(r.get(ref, 0.0)), str(r.get("line_id", ""))))
+    shared = [dict(s) if isinstance(s, Mapping) else s for s in el.get("shared_lines") or []]
+    return {
+        "element": str(el.get("element", "?")),
+        "ion": el.get("ion"),
+        "verdict": str(el.get("verdict", "")),
+        "verdict_level": el.get("verdict_level"),
+        "score": el.get("score"),
+        "matched_lines": matched,
+        "missing_lines": missing,
+        "shared_lines": shared,
+    }
+
+
+def _observed_lines(result: Mapping[str, Any]) -> list[dict[str, Any]]:
+    out = []
+    for ln in result.get("lines") or []:
+        if not isinstance(ln, Mapping) or ln.get("position") is None:
+            continue
+        out.append(_pick(ln, ("index", "position", "intensity", "assigned_to")))
+    out.sort(key=lambda r: (float(r["position"]), r.get("index", 0)))
+    return out
+
+
+def build_sheet_content(
+    *,
+    lab: Mapping[str, Any],
+    case: Mapping[str, Any],
+    item: Mapping[str, Any],
+    custody: Sequence[Mapping[str, Any]],
+    measurement: Mapping[str, Any],
+    analysis: Mapping[str, Any],
+    analyst: Mapping[str, Any],
+    notes: str,
+    limitations: str,
+    issued_at: str | datetime,
+) -> dict[str, Any]:
+    """Assemble the canonical content of a findings sheet.
+
+    Parameters
+    ----------
+    lab : mapping
+        The laboratory: ``name`` (required), optionally ``address``,
+        ``accreditation``, ``unit``.
+    case, item : mapping
+        Case and item records (any keys; at least an identifier is expected).
+    custody : sequence of mapping
+        Chain-of-custody events of the item, in recorded order.
+    measurement : mapping
+        Measurement record: technique, instrument, settings, input file, ...
+    analysis : mapping
+        Analysis record: ``id``, ``parameters``, ``reference_sets`` and
+        ``result`` (the matching engine's result JSON as a dict).
+    analyst : mapping
+        ``name``, ``role`` and ``fingerprint`` of the signing analyst.
+    notes, limitations : str
+        The analyst's free text, kept verbatim.
+    issued_at : str or datetime
+        Issue time (UTC or with an offset).
+
+    Returns
+    -------
+    dict
+        Plain JSON data; pass it to :func:`canonical_json` and
+        :func:`workbench.findings.sheet.render_pdf`.
+
+    Raises
+    ------
+    InputError
+        If the lab has no name, the analysis has no result, or the analyst
+        has no name or fingerprint.
+    ValueRangeError
+        If a number is NaN or infinite.
+    """
+    if not isinstance(lab, Mapping) or not str(lab.get("name") or "").strip():
+        raise InputError("the laboratory has no name", "give the lab's name (--lab-name)")
+    result = analysis.get("result") if isinstance(analysis, Mapping) else None
+    if isinstance(result, bytes | bytearray | str):
+        try:
+            result = json.loads(result)
+        except json.JSONDecodeError as exc:
+            raise InputError(
+                f"the analysis result is not JSON ({exc})", "re-run the analysis"
+            ) from exc
+    if not isinstance(result, Mapping):
+        raise InputError(
+            "the analysis has no result to report", "run the analysis before issuing a sheet"
+        )
+    for key in ("name", "fingerprint"):
+        if not str(analyst.get(key) or "").strip():
+            raise InputError(f"the analyst record has no {key}", "register the analyst's key first")
+    axis, unit = position_keys(result)
+    findings = [_finding(el, unit) for el in result.get("elements") or []]
+    # Strongest verdicts first; ties broken by element and ion so that order is fixed.
+    findings.sort(
+        key=lambda f: (
+            -(f["verdict_level"] if isinstance(f["verdict_level"], int | float) else -1),
+            f["element"],
+            f["ion"] if isinstance(f["ion"], int) else 0,
+        )
+    )
+    warnings = [
+        _pick(w, ("kind", "message", "elements", "lines"))
+        for w in result.get("warnings") or []
+        if isinstance(w, Mapping)
+    ]
+    ref_sets = analysis.get("reference_sets") or result.get("reference_sets") or []
+    parameters = analysis.get("parameters") or result.get("parameters") or {}
+    analysis_part = {
+        "id": analysis.get("id", analysis.get("analysis_id")),
+        "created_at": analysis.get("created_at"),
+        "software_version": result.get("software_version"),
+        "schema_version": result.get("schema_version"),
+        "input": result.get("input") or {},
+        "parameters": parameters,
+        "reference_sets": [
+            _pick(r, ("id", "version", "sha256")) for r in ref_sets if isinstance(r, Mapping)
+        ],
+        "calibration": result.get("calibration"),
+        "temperature": result.get("temperature"),
+    }
+    content = {
+        "format": CONTENT_FORMAT,
+        "issued_at": utc_timestamp(issued_at),
+        "lab": dict(lab),
+        "case": dict(case),
+        "item": dict(item),
+        "custody": [dict(e) for e in custody],
+        "measurement": dict(measurement),
+        "analysis": analysis_part,
+        "axis": {"kind": axis, "unit": unit, "medium": (result.get("input") or {}).get("medium")},
+        "findings": findings,
+        "observed_lines": _observed_lines(result),
+        "warnings": warnings,
+        "analyst": _pick(analyst, ("name", "role", "fingerprint")),
+        "notes": _text(notes, "notes"),
+        "limitations": _text(limitations, "limitations"),
+        "cautions": list(CAUTIONS),
+    }
+    return normalise_value(content)
