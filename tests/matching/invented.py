@@ -1,0 +1,74 @@
+"""A small invented reference set for engine tests (invented data, not real lines)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import polars as pl
+
+from workbench.datamodel import PeakList
+from workbench.physics.airvac import vacuum_to_air_nm
+
+
+@dataclass(frozen=True, eq=False)
+class FakeSet:
+    """Stands in for workbench.refdata.ReferenceSet (same attributes the engine uses)."""
+
+    id: str
+    table: pl.DataFrame
+    axis: str = "wavelength"
+    version: str = "test"
+    sha256: str = "0" * 64
+    entry: dict = field(default_factory=dict)
+
+    def provenance(self) -> dict:
+        return {
+            "id": self.id,
+            "version": self.version,
+            "sha256": self.sha256,
+            "data_version": "test",
+        }
+
+
+# Invented species: "Qa".."Qd" are not element symbols; the engine treats symbols as opaque.
+INVENTED = [
+    # element, ion, vac_nm, g_upper, A, E_upper
+    ("Qa", 1, 300.000, 5, 1.0e8, 4.2),
+    ("Qa", 1, 320.000, 3, 6.0e7, 3.9),
+    ("Qa", 1, 350.000, 7, 4.0e7, 5.6),
+    ("Qa", 1, 410.000, 5, 2.0e7, 3.1),
+    ("Qb", 1, 300.010, 3, 5.0e7, 4.1),  # 0.01 nm from Qa 300.000: an overlap pair
+    ("Qb", 1, 450.000, 5, 9.0e7, 2.8),
+    ("Qb", 1, 470.000, 3, 7.0e7, 2.7),
+    ("Qb", 1, 500.000, 5, 3.0e7, 4.5),
+    ("Qc", 1, 380.000, 5, 1.0e8, 3.3),  # one strong line in range: never "established"
+    ("Qc", 1, 600.000, 3, 1.0e5, 6.0),
+]
+
+
+def invented_table(rows=INVENTED) -> pl.DataFrame:
+    el, ion, vac, g, A, E = (list(c) for c in zip(*rows, strict=True))
+    vac_arr = np.array(vac)
+    return pl.DataFrame(
+        {
+            "line_id": [f"t:{e}:{i}:{v:.5f}" for e, i, v in zip(el, ion, vac, strict=True)],
+            "element": el,
+            "ion": pl.Series(ion, dtype=pl.Int32),
+            "wavelength_vac_nm": vac_arr,
+            "wavelength_air_nm": vacuum_to_air_nm(vac_arr),
+            "g_upper": np.array(g, dtype=float),
+            "A_ki_per_s": np.array(A, dtype=float),
+            "E_upper_eV": np.array(E, dtype=float),
+        }
+    )
+
+
+def peaks_from(positions, intensities, medium="vacuum", **extra_cols) -> PeakList:
+    cols = {
+        "wavelength_nm": np.asarray(positions, float),
+        "intensity": np.asarray(intensities, float),
+    }
+    cols.update(extra_cols)
+    t = pl.DataFrame(cols).sort("wavelength_nm")
+    return PeakList(t, "wavelength", medium)

@@ -1,0 +1,26 @@
+"""Vectorised candidate search against a brute-force double loop (random data, fixed seed)."""
+
+import numpy as np
+import pytest
+
+from workbench.matching.candidates import find_candidates
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_same_pairs_as_brute_force(seed):
+    rng = np.random.default_rng(seed)
+    ref = np.sort(rng.uniform(200, 300, 400))
+    obs = rng.uniform(199, 301, 150)
+    tol = rng.uniform(0.01, 0.5, 150)
+    got = find_candidates(obs, tol, ref)
+    pairs = {(int(o), int(r)) for o, r in zip(got.obs, got.ref, strict=True)}
+    brute = {
+        (i, j) for i in range(obs.size) for j in range(ref.size) if abs(obs[i] - ref[j]) <= tol[i]
+    }
+    assert pairs == brute
+    np.testing.assert_allclose(got.delta, obs[got.obs] - ref[got.ref])
+
+
+def test_no_candidates():
+    got = find_candidates(np.array([100.0]), np.array([0.1]), np.array([200.0, 300.0]))
+    assert got.size == 0

@@ -1,0 +1,185 @@
+"""Engine mechanics on an invented reference set (data invented; expectations derived here)."""
+
+from __future__ import annotations
+
+import numpy as np
+import polars as pl
+import pytest
+from scipy import constants as sc
+
+from tests.matching.invented import FakeSet, invented_table, peaks_from
+from workbench.errors import ValueRangeError
+from workbench.matching import MatchParameters, ToleranceSpec, match_peaks, result_json
+from workbench.matching.expected import GF_TO_GA, expected_strengths
+from workbench.matching.reference import ReferenceIndex
+
+FIXED = ToleranceSpec("fixed", 0.02)
+
+
+def _params(**kw):
+    kw.setdefault("tolerance", FIXED)
+    kw.setdefault("estimate_temperature", False)
+    return MatchParameters(**kw)
+
+
+def _lines_of(fake: FakeSet, label: str, T=10_000.0):
+    idx = ReferenceIndex.from_sets([fake], "wavelength", "vacuum")
+    e = expected_strengths(idx, T)
+    m = idx.species == idx.species_names.index(label)
+    return idx.position[m], e[m]
+
+
+def _by_species(report):
+    return {el["species"]: el for el in report["elements"]}
+
+
+def test_gf_to_gA_constant():
+    # g_k A_ki = 6.6702e15 gf / λ[Å]² (standard oscillator-strength relation,
+    # e.g. Hilborn, Am. J. Phys. 50, 982 (1982); value from memory).
+    assert GF_TO_GA == pytest.approx(6.6702e15, rel=1e-4)
+
+
+def test_expected_ratio_is_boltzmann(invented_set):
+    # Two Qa I lines: ratio must equal (g1A1/λ1)/(g2A2/λ2)·exp(-(E1-E2)/kT), derived analytically.
+    pos, e = _lines_of(invented_set, "Qa I", T=8000.0)
+    i300, i320 = e[np.argmin(abs(pos - 300))], e[np.argmin(abs(pos - 320))]
+    kT = sc.k / sc.e * 8000.0
+    expected = (5 * 1.0e8 / 300.0) / (3 * 6.0e7 / 320.0) * np.exp(-(4.2 - 3.9) / kT)
+    assert i300 / i320 == pytest.approx(expected, rel=1e-12)
+
+
+def test_single_species_is_established_and_overlap_warned(invented_set):
+    pos, e = _lines_of(invented_set, "Qa I")
+    report = match_peaks(peaks_from(pos + 0.001, 1000 * e), [invented_set], _params()).report()
+    sp = _by_species(report)
+    assert sp["Qa I"]["verdict"] == "established"
+    assert sp["Qa I"]["verdict_level"] == 3
+    # Qb I's only line in range sits 0.010 nm from Qa I 300.000 (invented set): ambiguous.
+    assert sp["Qb I"]["verdict_level"] <= 1
+    overlaps = [w for w in report["warnings"] if w["kind"] == "unresolved_overlap"]
+    assert len(overlaps) == 1
+    w = overlaps[0]
+    assert w["elements"] == ["Qa I", "Qb I"]
+    assert w["separation"] == pytest.approx(0.010, abs=1e-9)
+    # R needed = mean λ / Δλ = 300.005 / 0.010 (derived).
+    assert w["resolving_power_needed"] == pytest.approx(30000.5, abs=0.1)
+    assert "Qa I" in w["settle"] and w["settle"]["Qa I"]["found"]
+
+
+def test_missing_strongest_line_blocks_top_verdict(invented_set):
+    pos, e = _lines_of(invented_set, "Qb I")
+    keep = np.abs(pos - 450.0) > 0.1  # drop Qb I 450.000, its strongest line (invented set)
+    peaks = peaks_from(pos[keep] + 0.001, 1000 * e[keep])
+    report = match_peaks(peaks, [invented_set], _params()).report()
+    qb = _by_species(report)["Qb I"]
+    assert qb["verdict_level"] < 3
+    assert qb["missing_lines"][0]["reference_nm"] == pytest.approx(450.0)
+
+
+def test_absent_species_not_supported_when_its_strong_lines_are_missing(invented_set):
+    # Only Qb I's weakest line 500.000 present, strong: the species cannot be supported.
+    peaks = peaks_from([300.5, 500.001, 510.0], [1000.0, 1000.0, 1000.0])
+    report = match_peaks(peaks, [invented_set], _params()).report()
+    qb = _by_species(report)["Qb I"]
+    assert qb["verdict_level"] == 0
+    assert len(qb["missing_lines"]) >= 2
+    statuses = [ln["status"] for ln in report["lines"]]
+    assert statuses.count("unassigned") == 3
+
+
+def test_deterministic_bytes(invented_set):
+    pos, e = _lines_of(invented_set, "Qa I")
+    peaks = peaks_from(pos + 0.001, 1000 * e)
+    a = result_json(match_peaks(peaks, [invented_set], _params()).report())
+    b = result_json(match_peaks(peaks, [invented_set], _params()).report())
+    assert a == b
+
+
+def _many_line_set():
+    rng = np.random.default_rng(20261202)
+    vac = np.sort(rng.uniform(300, 700, 12))
+    rows = [
+        ("Qd", 1, float(v), 5, float(a), float(E))
+        for v, a, E in zip(vac, rng.uniform(2e7, 1e8, 12), rng.uniform(3.0, 5.0, 12), strict=True)
+    ]
+    return FakeSet("many", invented_table(rows))
+
+
+def test_scale_shift_estimated_and_applied():
+    fake = _many_line_set()
+    pos, e = _lines_of(fake, "Qd I")
+    shift = 0.006  # nm, imposed on every peak (invented test condition)
+    peaks = peaks_from(pos + shift, 1000 * e)
+    rep = match_peaks(peaks, [fake], _params()).report()
+    cal = rep["calibration"]
+    assert cal["shift"] == pytest.approx(shift, abs=1e-6)
+    assert not cal["applied"]
+    rep2 = match_peaks(peaks, [fake], _params(apply_calibration=True)).report()
+    assert rep2["calibration"]["applied"]
+    deltas = [m["delta_nm"] for m in _by_species(rep2)["Qd I"]["matched_lines"]]
+    assert max(abs(d) for d in deltas) < 1e-6
+
+
+@pytest.mark.parametrize(
+    ("kind", "value", "x", "expected"),
+    [
+        ("fixed", 0.05, 500.0, 0.05),  # definition
+        ("resolving_power", 5000.0, 500.0, 0.1),  # λ/R = 500/5000 (derived)
+        ("resolving_power", 20000.0, 300.0, 0.015),  # 300/20000 (derived)
+    ],
+)
+def test_half_window(kind, value, x, expected):
+    assert ToleranceSpec(kind, value).half_window(np.array([x]))[0] == pytest.approx(expected)
+
+
+def test_fwhm_tolerance_uses_widths_and_floor():
+    spec = ToleranceSpec("fwhm", 0.5, min_value=0.01)
+    tol = spec.half_window(np.array([400.0, 500.0]), np.array([0.1, np.nan]))
+    assert tol.tolist() == pytest.approx([0.05, 0.01])  # 0.5 × 0.1; NaN width → floor
+
+
+def test_bad_inputs_are_refused(invented_set):
+    with pytest.raises(ValueRangeError, match="not sorted"):
+        t = pl.DataFrame({"wavelength_nm": [400.0, 300.0], "intensity": [1.0, 1.0]})
+        from workbench.datamodel import PeakList
+
+        match_peaks(PeakList(t, "wavelength", "vacuum"), [invented_set], _params())
+    with pytest.raises(ValueRangeError, match="empty"):
+        match_peaks(peaks_from([], []), [invented_set], _params())
+    with pytest.raises(ValueRangeError, match="absorption"):
+        match_peaks(peaks_from([300.0], [1.0]), [invented_set], _params(mode="absorption"))
+    xray = FakeSet("x", invented_table(), axis="energy")
+    with pytest.raises(ValueRangeError, match="energy axis"):
+        match_peaks(peaks_from([300.0], [1.0]), [xray], _params())
+    with pytest.raises(ValueRangeError, match="temperature"):
+        MatchParameters(temperature_K=50.0)
+
+
+def test_report_has_schema_fields(invented_set):
+    pos, e = _lines_of(invented_set, "Qa I")
+    rep = match_peaks(peaks_from(pos, e), [invented_set], _params()).report()
+    for key in (
+        "schema_version",
+        "input",
+        "parameters",
+        "reference_sets",
+        "calibration",
+        "temperature",
+        "elements",
+        "lines",
+        "warnings",
+        "software_version",
+    ):
+        assert key in rep
+    el = rep["elements"][0]
+    for key in (
+        "element",
+        "ion",
+        "verdict",
+        "verdict_level",
+        "score",
+        "matched_lines",
+        "missing_lines",
+    ):
+        assert key in el
+    assert rep["input"]["medium"] == "vacuum"
