@@ -1,4 +1,23 @@
-"""Line physics: units, air/vacuum, hydrogen-like lines, Boltzmann, Saha, LTE, synthesis."""
+"""Line physics: units, air/vacuum, hydrogen-like lines, Boltzmann, Saha, LTE, synthesis.
+
+Modules
+-------
+units
+    Wavelength, wavenumber, frequency and photon-energy conversions (CODATA).
+airvac
+    Air ↔ vacuum wavelengths (IAU/Morton 2000 with exact inverse; Ciddor 1996).
+hydrogen
+    Hydrogen-like lines: Rydberg gross structure, Dirac fine structure and exact
+    nonrelativistic E1 rates; the ``hydrogen_like`` reference table.
+boltzmann
+    LTE relative line intensities and the Boltzmann-plot temperature.
+saha
+    Saha ionisation balance, Saha–Boltzmann line ratios, partition functions.
+lte
+    The McWhirter criterion (necessary, not sufficient, for LTE).
+synth
+    Synthetic emission and absorption spectra (invented data for demos and tests).
+"""
 
 from workbench.physics.airvac import (
     AirConditions,
@@ -6,6 +25,45 @@ from workbench.physics.airvac import (
     refractive_index_ciddor,
     refractive_index_iau,
     vacuum_to_air_nm,
+)
+from workbench.physics.boltzmann import (
+    K_B_EV_PER_K,
+    BoltzmannFit,
+    boltzmann_plot,
+    relative_line_intensities,
+)
+from workbench.physics.hydrogen import (
+    FineStructureComponent,
+    HydrogenLikeSpecies,
+    dirac_binding_energy_eV,
+    einstein_A_nl_per_s,
+    fine_structure_components,
+    gf_from_A,
+    gross_einstein_A_per_s,
+    hydrogen_like_blends,
+    hydrogen_like_line_table,
+    level_energy_eV,
+    radial_integral_au,
+    rydberg_wavelength_vac_nm,
+    series_limit_vac_nm,
+)
+from workbench.physics.lte import (
+    LteCheck,
+    check_mcwhirter,
+    mcwhirter_min_electron_density_per_cm3,
+)
+from workbench.physics.saha import (
+    partition_function_from_levels,
+    saha_boltzmann_line_ratio,
+    saha_factor_per_cm3,
+    saha_ion_neutral_ratio,
+    temperature_from_saha_boltzmann_ratio,
+)
+from workbench.physics.synth import (
+    absorption_spectrum,
+    line_profile,
+    render_lines,
+    synthetic_spectrum,
 )
 from workbench.physics.units import (
     HC_EV_NM,
@@ -21,13 +79,42 @@ from workbench.physics.units import (
 
 __all__ = [
     "HC_EV_NM",
+    "K_B_EV_PER_K",
     "AirConditions",
+    "BoltzmannFit",
+    "FineStructureComponent",
+    "HydrogenLikeSpecies",
+    "LteCheck",
+    "absorption_spectrum",
     "air_to_vacuum_nm",
+    "boltzmann_plot",
+    "check_mcwhirter",
+    "dirac_binding_energy_eV",
+    "einstein_A_nl_per_s",
     "energy_eV_to_wavelength_vac_nm",
     "energy_to_eV",
+    "fine_structure_components",
+    "gf_from_A",
+    "gross_einstein_A_per_s",
+    "hydrogen_like_blends",
+    "hydrogen_like_line_table",
+    "level_energy_eV",
+    "line_profile",
+    "mcwhirter_min_electron_density_per_cm3",
     "normalise_unit",
+    "partition_function_from_levels",
+    "radial_integral_au",
     "refractive_index_ciddor",
     "refractive_index_iau",
+    "relative_line_intensities",
+    "render_lines",
+    "rydberg_wavelength_vac_nm",
+    "saha_boltzmann_line_ratio",
+    "saha_factor_per_cm3",
+    "saha_ion_neutral_ratio",
+    "series_limit_vac_nm",
+    "synthetic_spectrum",
+    "temperature_from_saha_boltzmann_ratio",
     "vacuum_to_air_nm",
     "wavelength_nm_to_energy_eV",
     "wavelength_to_nm",
