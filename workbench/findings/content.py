@@ -211,7 +211,9 @@ def position_keys(result: Mapping[str, Any]) -> tuple[str, str]:
     """
     inp = result.get("input") or {}
     unit = str(inp.get("unit") or "").strip()
-    if unit in ("eV", "keV") or inp.get("kind") == "energy":
+    if inp.get("axis") == "wavelength" or unit == "nm":
+        return "wavelength", "nm"
+    if unit in ("eV", "keV") or inp.get("axis") == "energy" or inp.get("kind") == "energy":
         return "energy", "eV"
     for el in result.get("elements") or []:
         for m in el.get("matched_lines") or []:
@@ -232,7 +234,9 @@ def _finding(el: Mapping[str, Any], unit: str) -> dict[str, Any]:
     obs, ref, dlt = f"observed_{unit}", f"reference_{unit}", f"delta_{unit}"
     matched = []
     for m in el.get("matched_lines") or []:
-        row = _pick(m, (obs, ref, dlt, "expected_rel", "observed_rel", "line_id"))
+        row = _pick(
+            m, (obs, ref, dlt, "expected_rel", "observed_rel", "line_id", "shared", "saturated")
+        )
         if obs in m and ref in m and dlt not in m:
             row[dlt] = float(m[obs]) - float(m[ref])
         matched.append(row)
@@ -241,6 +245,7 @@ def _finding(el: Mapping[str, Any], unit: str) -> dict[str, Any]:
     missing.sort(key=lambda r: (float(r.get(ref, 0.0)), str(r.get("line_id", ""))))
     shared = [dict(s) if isinstance(s, Mapping) else s for s in el.get("shared_lines") or []]
     return {
+        "species": el.get("species"),
         "element": str(el.get("element", "?")),
         "ion": el.get("ion"),
         "verdict": str(el.get("verdict", "")),
@@ -253,11 +258,18 @@ def _finding(el: Mapping[str, Any], unit: str) -> dict[str, Any]:
 
 
 def _observed_lines(result: Mapping[str, Any]) -> list[dict[str, Any]]:
+    _, unit = position_keys(result)
     out = []
     for ln in result.get("lines") or []:
-        if not isinstance(ln, Mapping) or ln.get("position") is None:
+        if not isinstance(ln, Mapping):
             continue
-        out.append(_pick(ln, ("index", "position", "intensity", "assigned_to")))
+        # The brief's shape says "position"; the engine writes "observed_<unit>".
+        pos = ln.get("position", ln.get(f"observed_{unit}"))
+        if not isinstance(pos, int | float) or isinstance(pos, bool):
+            continue
+        row = _pick(ln, ("index", "intensity", "assigned_to", "status"))
+        row["position"] = pos
+        out.append(row)
     out.sort(key=lambda r: (float(r["position"]), r.get("index", 0)))
     return out
 

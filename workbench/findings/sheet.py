@@ -55,6 +55,8 @@ def _clean(text: Any) -> str:
 
 
 def _species(finding: Mapping[str, Any]) -> str:
+    if isinstance(finding.get("species"), str) and finding["species"]:
+        return _clean(finding["species"])
     el = str(finding.get("element", "?"))
     ion = finding.get("ion")
     if isinstance(ion, int) and 1 <= ion <= len(_ROMAN):
@@ -383,6 +385,7 @@ class _Sheet:
                         "expected rel.",
                         "observed rel.",
                         "line",
+                        "flags",
                     ),
                     [
                         (
@@ -392,11 +395,12 @@ class _Sheet:
                             _fmt(m.get("expected_rel"), "rel", u),
                             _fmt(m.get("observed_rel"), "rel", u),
                             _clean(m.get("line_id", "")),
+                            ", ".join(k for k in ("shared", "saturated") if m.get(k) is True),
                         )
                         for m in matched
                     ],
-                    (30, 30, 25, 25, 25, 45),
-                    aligns=("RIGHT", "RIGHT", "RIGHT", "RIGHT", "RIGHT", "LEFT"),
+                    (27, 27, 22, 21, 21, 40, 22),
+                    aligns=("RIGHT", "RIGHT", "RIGHT", "RIGHT", "RIGHT", "LEFT", "LEFT"),
                     size=7.5,
                 )
             missing = f.get("missing_lines") or []
@@ -409,7 +413,10 @@ class _Sheet:
                 self.para(f"Expected but not observed: {shown}", 7.5)
             shared = f.get("shared_lines") or []
             if shared:
-                self.para(f"Lines shared with other elements: {_clean(shared)}", 7.5)
+                self.para(
+                    "Lines shared with other elements: " + ", ".join(_clean(x) for x in shared),
+                    7.5,
+                )
 
     def warnings(self) -> None:
         self.heading("Interference and other warnings")
