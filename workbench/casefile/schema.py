@@ -1,0 +1,274 @@
+"""SQLite schema of the case store and its ordered migrations.
+
+The schema version lives in ``schema_version`` (one row per applied
+migration). :func:`connect` opens the database in WAL mode with foreign keys
+on and a busy timeout, then applies every missing migration in ONE
+``BEGIN IMMEDIATE`` transaction, so an older store is upgraded completely or
+not at all. A store written by newer software (a version above
+:data:`SCHEMA_VERSION`) is refused.
+
+Migration 1 creates the tables; migration 2 adds the immutability triggers
+(``BEFORE UPDATE/DELETE ... RAISE(ABORT, ...)``) and search indexes.
+"""
+
+from __future__ import annotations
+
+import sqlite3
+import time
+from pathlib import Path
+
+from workbench.errors import CaseFileError, StoreIntegrityError
+
+__all__ = ["MIGRATIONS", "SCHEMA_VERSION", "connect", "is_busy", "schema_version"]
+
+_TABLES = [
+    """CREATE TABLE schema_version (
+        version INTEGER PRIMARY KEY,
+        applied_at TEXT NOT NULL
+    )""",
+    """CREATE TABLE cases (
+        id INTEGER PRIMARY KEY,
+        case_number TEXT NOT NULL UNIQUE,
+        title TEXT NOT NULL,
+        requesting_party TEXT NOT NULL,
+        status TEXT NOT NULL CHECK (status IN ('open', 'closed', 'archived')),
+        created_at TEXT NOT NULL,
+        record_hash TEXT NOT NULL
+    )""",
+    """CREATE TABLE items (
+        id INTEGER PRIMARY KEY,
+        case_id INTEGER NOT NULL REFERENCES cases(id),
+        item_number TEXT NOT NULL,
+        description TEXT NOT NULL,
+        parent_item_id INTEGER REFERENCES items(id),
+        seal_numbers TEXT NOT NULL,
+        storage_location TEXT,
+        created_at TEXT NOT NULL,
+        record_hash TEXT NOT NULL,
+        UNIQUE (case_id, item_number)
+    )""",
+    """CREATE TABLE custody_events (
+        id INTEGER PRIMARY KEY,
+        item_id INTEGER NOT NULL REFERENCES items(id),
+        seq INTEGER NOT NULL,
+        kind TEXT NOT NULL,
+        at TEXT NOT NULL,
+        actor TEXT NOT NULL,
+        from_party TEXT,
+        to_party TEXT,
+        location TEXT,
+        seal_state TEXT NOT NULL,
+        seal_number TEXT,
+        note TEXT,
+        corrects_seq INTEGER,
+        ref_kind TEXT,
+        ref_key TEXT,
+        ref_hash TEXT,
+        recorded_at TEXT NOT NULL,
+        prev_hash TEXT NOT NULL,
+        hash TEXT NOT NULL,
+        UNIQUE (item_id, seq)
+    )""",
+    """CREATE TABLE measurements (
+        id INTEGER PRIMARY KEY,
+        item_id INTEGER NOT NULL REFERENCES items(id),
+        sha256 TEXT NOT NULL,
+        filename TEXT NOT NULL,
+        size_bytes INTEGER NOT NULL,
+        technique TEXT NOT NULL,
+        instrument TEXT NOT NULL,
+        settings TEXT NOT NULL,
+        operator TEXT NOT NULL,
+        measured_at TEXT NOT NULL,
+        recorded_at TEXT NOT NULL,
+        record_hash TEXT NOT NULL UNIQUE
+    )""",
+    """CREATE TABLE analyses (
+        id INTEGER PRIMARY KEY,
+        measurement_id INTEGER NOT NULL REFERENCES measurements(id),
+        parameters TEXT NOT NULL,
+        reference_sets TEXT NOT NULL,
+        result_json BLOB NOT NULL,
+        result_sha256 TEXT NOT NULL,
+        software_version TEXT NOT NULL,
+        analyst TEXT NOT NULL,
+        created_at TEXT NOT NULL,
+        record_hash TEXT NOT NULL UNIQUE
+    )""",
+    """CREATE TABLE analysts (
+        id INTEGER PRIMARY KEY,
+        name TEXT NOT NULL,
+        role TEXT NOT NULL,
+        public_key_pem TEXT NOT NULL,
+        fingerprint TEXT NOT NULL UNIQUE,
+        status TEXT NOT NULL CHECK (status IN ('active', 'revoked')),
+        registered_at TEXT NOT NULL,
+        revoked_at TEXT,
+        revoked_reason TEXT,
+        revoked_by TEXT
+    )""",
+    """CREATE TABLE findings_sheets (
+        id INTEGER PRIMARY KEY,
+        analysis_id INTEGER NOT NULL REFERENCES analyses(id),
+        analyst_fingerprint TEXT NOT NULL REFERENCES analysts(fingerprint),
+        analyst TEXT NOT NULL,
+        pdf_sha256 TEXT NOT NULL,
+        json_sha256 TEXT NOT NULL,
+        signature_sha256 TEXT NOT NULL,
+        record_sha256 TEXT NOT NULL,
+        issued_at TEXT NOT NULL,
+        recorded_at TEXT NOT NULL,
+        record_hash TEXT NOT NULL UNIQUE
+    )""",
+]
+
+
+def _no_change(table: str, action: str, message: str) -> str:
+    return (
+        f"CREATE TRIGGER {table}_no_{action.lower()} BEFORE {action} ON {table} "
+        f"BEGIN SELECT RAISE(ABORT, '{message}'); END"
+    )
+
+
+_TRIGGERS = [
+    *(
+        _no_change(t, a, f"{t} are append-only: {a.lower()} refused")
+        for t in ("custody_events", "measurements", "analyses", "findings_sheets", "items")
+        for a in ("UPDATE", "DELETE")
+    ),
+    _no_change("cases", "DELETE", "cases are never deleted"),
+    _no_change("analysts", "DELETE", "analysts are never deleted"),
+    # A case's status may change; nothing else about it may.
+    """CREATE TRIGGER cases_fixed_fields BEFORE UPDATE ON cases
+       WHEN NEW.case_number IS NOT OLD.case_number OR NEW.title IS NOT OLD.title
+         OR NEW.requesting_party IS NOT OLD.requesting_party
+         OR NEW.created_at IS NOT OLD.created_at OR NEW.record_hash IS NOT OLD.record_hash
+         OR NEW.id IS NOT OLD.id
+       BEGIN SELECT RAISE(ABORT, 'only the status of a case may change'); END""",
+    # An analyst may only go from active to revoked, once.
+    """CREATE TRIGGER analysts_revoke_only BEFORE UPDATE ON analysts
+       WHEN OLD.status <> 'active' OR NEW.status <> 'revoked'
+         OR NEW.name IS NOT OLD.name OR NEW.role IS NOT OLD.role
+         OR NEW.public_key_pem IS NOT OLD.public_key_pem
+         OR NEW.fingerprint IS NOT OLD.fingerprint OR NEW.id IS NOT OLD.id
+         OR NEW.registered_at IS NOT OLD.registered_at
+       BEGIN SELECT RAISE(ABORT, 'an analyst can only be revoked, once'); END""",
+    "CREATE INDEX events_by_item ON custody_events (item_id, seq)",
+    "CREATE INDEX items_by_case ON items (case_id)",
+    "CREATE INDEX measurements_by_item ON measurements (item_id)",
+    "CREATE INDEX analyses_by_measurement ON analyses (measurement_id)",
+    "CREATE INDEX sheets_by_analysis ON findings_sheets (analysis_id)",
+]
+
+#: Ordered migrations: ``(version, statements)``; applied in order, never edited.
+MIGRATIONS: tuple[tuple[int, tuple[str, ...]], ...] = (
+    (1, tuple(_TABLES)),
+    (2, tuple(_TRIGGERS)),
+)
+
+#: Schema version this code writes.
+SCHEMA_VERSION: int = MIGRATIONS[-1][0]
+
+
+def is_busy(exc: BaseException) -> bool:
+    """Return whether an SQLite error means 'locked by another writer, try again'."""
+    if not isinstance(exc, sqlite3.OperationalError):
+        return False
+    text = str(exc).lower()
+    return "locked" in text or "busy" in text
+
+
+def schema_version(conn: sqlite3.Connection) -> int:
+    """Return the store's schema version (0 for an empty database)."""
+    row = conn.execute(
+        "SELECT name FROM sqlite_master WHERE type='table' AND name='schema_version'"
+    ).fetchone()
+    if row is None:
+        return 0
+    value = conn.execute("SELECT MAX(version) FROM schema_version").fetchone()[0]
+    return int(value or 0)
+
+
+def _migrate(conn: sqlite3.Connection, db_path: Path, target: int) -> None:
+    from workbench.casefile.hashing import utc_now
+
+    for attempt in range(60):
+        try:
+            conn.execute("BEGIN IMMEDIATE")
+            break
+        except sqlite3.OperationalError as exc:
+            if not is_busy(exc) or attempt == 59:
+                raise
+            time.sleep(0.05 * (1 + attempt % 5))
+    try:
+        current = schema_version(conn)
+        if current > SCHEMA_VERSION:
+            raise CaseFileError(
+                f"case store {db_path} has schema version {current}, newer than this "
+                f"software knows ({SCHEMA_VERSION})",
+                "upgrade the workbench to a version that knows this store; it was not changed",
+            )
+        for version, statements in MIGRATIONS:
+            if current < version <= target:
+                for sql in statements:
+                    conn.execute(sql)
+                conn.execute(
+                    "INSERT INTO schema_version (version, applied_at) VALUES (?, ?)",
+                    (version, utc_now()),
+                )
+        conn.execute("COMMIT")
+    except BaseException:
+        conn.execute("ROLLBACK")
+        raise
+
+
+def connect(db_path: Path, *, target_version: int | None = None) -> sqlite3.Connection:
+    """Open (creating or migrating) the store database.
+
+    Parameters
+    ----------
+    db_path : Path
+        The ``cases.sqlite`` file.
+    target_version : int, optional
+        Migrate only up to this version (used by tests to build an old store).
+
+    Returns
+    -------
+    sqlite3.Connection
+        In autocommit mode (``isolation_level=None``); writers issue
+        ``BEGIN IMMEDIATE`` themselves.
+
+    Raises
+    ------
+    CaseFileError
+        If the store is newer than this code.
+    StoreIntegrityError
+        If the file is not an SQLite database.
+    """
+    target = SCHEMA_VERSION if target_version is None else target_version
+    try:
+        conn = sqlite3.connect(str(db_path), isolation_level=None, timeout=30.0)
+        conn.execute("PRAGMA busy_timeout = 30000")
+        conn.execute("PRAGMA journal_mode = WAL")
+        conn.execute("PRAGMA foreign_keys = ON")
+        conn.execute("PRAGMA synchronous = FULL")
+        current = schema_version(conn)
+    except sqlite3.DatabaseError as exc:
+        raise StoreIntegrityError(
+            f"{db_path} is not a readable case-store database ({exc})",
+            "point --store at the directory holding cases.sqlite, or restore it from backup",
+        ) from exc
+    if current > SCHEMA_VERSION:
+        conn.close()
+        raise CaseFileError(
+            f"case store {db_path} has schema version {current}, newer than this software "
+            f"knows ({SCHEMA_VERSION})",
+            "upgrade the workbench to a version that knows this store; it was not changed",
+        )
+    if current < target:
+        try:
+            _migrate(conn, db_path, target)
+        except BaseException:
+            conn.close()
+            raise
+    return conn
