@@ -1,0 +1,107 @@
+"""Header parsing, fuzzy column mapping and unit plausibility."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from workbench.errors import ColumnMappingError, UnitError
+from workbench.io.columns import check_unit_plausibility, map_columns, parse_header
+
+# Expected splits follow the header conventions listed in the task brief
+# (common practice, no source).
+
+
+@pytest.mark.parametrize(
+    ("header", "name", "unit", "medium"),
+    [
+        ("Wavelength (nm)", "wavelength", "nm", None),
+        ("lambda [A]", "lambda", "A", None),
+        ("Energy/keV", "energy", "keV", None),
+        ("wavenumber cm-1", "wavenumber", "cm-1", None),
+        ("λ/Å", "λ", "Å", None),
+        ("λ_vac/nm", "λ", "nm", "vacuum"),
+        ("Wavelength (air, nm)", "wavelength", "nm", "air"),
+        ("Air wavelength (Å)", "wavelength", "Å", "air"),
+        ("wl_nm", "wl", "nm", None),
+        ("S/N", "s/n", None, None),
+        ("Intensity (a.u.)", "intensity", "a.u.", None),
+    ],
+)
+def test_parse_header(header, name, unit, medium):
+    h = parse_header(header)
+    assert (h.name, h.unit, h.medium) == (name, unit, medium)
+
+
+@pytest.mark.parametrize(
+    ("headers", "expected"),
+    [
+        (["Wavelength (nm)", "Intensity"], {"position": 0, "intensity": 1}),
+        (
+            ["Channel", "E (keV)", "Net counts", "FWHM (eV)"],
+            {"position": 1, "intensity": 2, "fwhm": 3},
+        ),
+        (
+            ["centre", "height", "peak area", "signal-to-noise"],
+            {"position": 0, "intensity": 1, "area": 2, "snr": 3},
+        ),
+        (["Wavelenght (nm)", "Intesity"], {"position": 0, "intensity": 1}),  # typos, fuzzy
+        (["peak position", "amplitude", "width"], {"position": 0, "intensity": 1, "fwhm": 2}),
+    ],
+)
+def test_map_columns(headers, expected):
+    mapping = map_columns(headers, where="t.csv")
+    assert {r: c.index for r, c in mapping.items()} == expected
+
+
+def test_typo_has_score_below_100():
+    mapping = map_columns(["Wavelenght (nm)", "Intensity"], where="t.csv")
+    assert 80 <= mapping["position"].score < 100
+
+
+def test_channel_is_not_a_position():
+    with pytest.raises(ColumnMappingError, match="'Channel' holds channel or index numbers"):
+        map_columns(["Channel", "Counts"], where="t.csv")
+
+
+def test_two_position_columns_are_ambiguous():
+    with pytest.raises(ColumnMappingError, match="both look like the position"):
+        map_columns(["Wavelength (nm)", "lambda (nm)", "counts"], where="t.csv")
+
+
+def test_explicit_choice_wins():
+    mapping = map_columns(
+        ["Wavelength (nm)", "lambda (nm)", "counts"],
+        where="t.csv",
+        columns={"position": "lambda (nm)"},
+    )
+    assert mapping["position"].index == 1
+
+
+@pytest.mark.parametrize(
+    ("values", "unit", "remedy"),
+    [
+        ([3000.0, 5000.0, 9000.0], "nm", "--unit angstrom"),  # Å under nm (brief's example)
+        ([5.9, 6.4, 8.0, 17.4], "eV", "--unit keV"),  # XRF keV under eV (brief's example)
+        ([0.4, 0.6, 0.8], "nm", "--unit um"),  # µm under nm
+        ([400.0, 650.0], "um", "--unit nm"),  # nm under µm
+        ([6400.0, 8040.0], "keV", "--unit eV"),  # eV under keV
+        ([400.0, 650.0], "angstrom", "--unit nm"),  # nm under Å
+    ],
+)
+def test_implausible_units_refused(values, unit, remedy):
+    with pytest.raises(UnitError, match=remedy):
+        check_unit_plausibility(np.array(values), unit, "t.csv column 'x'")
+
+
+@pytest.mark.parametrize(
+    ("values", "unit"),
+    [
+        ([250.0, 656.3, 1064.0], "nm"),
+        ([2500.0, 6563.0], "angstrom"),
+        ([1.5, 3.2], "eV"),
+        ([5.9, 17.4], "keV"),
+    ],
+)
+def test_plausible_units_pass(values, unit):
+    check_unit_plausibility(np.array(values), unit, "t")

@@ -1,0 +1,251 @@
+"""Delimited, pasted and Parquet peak lists and spectra; detection; every bad input."""
+
+from __future__ import annotations
+
+import hashlib
+import io
+
+import numpy as np
+import polars as pl
+import pytest
+
+from workbench.datamodel import PeakList, Spectrum
+from workbench.errors import (
+    ColumnMappingError,
+    FileFormatError,
+    UnitError,
+    ValueRangeError,
+)
+from workbench.io import read_any, read_peak_list, read_spectrum, sniff
+from workbench.physics.units import wavenumber_per_cm_to_wavelength_vac_nm
+
+# Invented demo lines (values are test inputs, not reference data).
+CSV = "Wavelength (nm),Intensity,FWHM (nm),S/N\n656.28,1200,0.05,80\n486.13,300,0.04,20\n"
+
+
+def test_csv_peak_list_mapping_and_provenance():
+    data = CSV.encode()
+    pl_ = read_peak_list(data, name="lines.csv")
+    assert pl_.axis == "wavelength" and pl_.medium == "air"
+    np.testing.assert_allclose(pl_.positions, [486.13, 656.28])  # sorted input values
+    np.testing.assert_allclose(pl_.table["fwhm_nm"].to_numpy(), [0.04, 0.05])
+    assert pl_.source.sha256 == hashlib.sha256(data).hexdigest()  # hashlib as oracle
+    assert pl_.source.size_bytes == len(data)
+    assert "medium not stated; assumed air" in pl_.source.notes
+    assert pl_.extra["mapping"]["S/N"]["role"] == "snr"
+    assert pl_.extra["mapping"]["Wavelength (nm)"] == {
+        "role": "position",
+        "score": 100.0,
+        "unit": "nm",
+    }
+
+
+def test_semicolon_decimal_comma_and_medium_comment():
+    text = "# spectrometer in vacuum\nλ/Å;Höhe;Intensität\n6562,8;1;1200,5\n4861,3;2;300\n"
+    pl_ = read_peak_list(text, columns={"intensity": "Intensität"})
+    np.testing.assert_allclose(pl_.positions, [486.13, 656.28])  # Å × 0.1
+    np.testing.assert_allclose(pl_.intensities, [300.0, 1200.5])
+    assert pl_.medium == "vacuum"
+    assert any("decimal comma" in n for n in pl_.source.notes)
+
+
+def test_tab_pasted_from_spreadsheet_energy_kev():
+    text = "Energy (keV)\tCounts\n6.404\t5000\n7.058\t700\n"
+    pl_ = read_peak_list(text)
+    assert pl_.axis == "energy" and pl_.medium is None
+    np.testing.assert_allclose(pl_.positions, [6404.0, 7058.0])  # keV × 1000
+
+
+def test_whitespace_header_with_units_in_brackets():
+    text = "Wavelength (nm)   Intensity\n  393.37   1000\n 396.85   700\n"
+    pl_ = read_peak_list(text)
+    np.testing.assert_allclose(pl_.positions, [393.37, 396.85])
+
+
+def test_wavenumber_header_converts_to_vacuum_nm():
+    pl_ = read_peak_list("wavenumber cm-1,intensity\n20000,1\n25000,2\n")
+    expected = np.sort(wavenumber_per_cm_to_wavelength_vac_nm(np.array([20000.0, 25000.0])))
+    np.testing.assert_allclose(pl_.positions, expected)
+    assert pl_.medium == "vacuum"
+
+
+def test_explicit_unit_overrides_header_and_is_noted():
+    pl_ = read_peak_list("wavelength (nm),intensity\n3933.7,1\n3968.5,2\n", unit="angstrom")
+    np.testing.assert_allclose(pl_.positions, [393.37, 396.85])
+    assert any("overrides" in n for n in pl_.source.notes)
+
+
+def test_explicit_medium_overrides_header():
+    pl_ = read_peak_list("wavelength air (nm),intensity\n393.37,1\n", medium="vacuum")
+    assert pl_.medium == "vacuum"
+
+
+def test_units_in_cells():
+    pl_ = read_peak_list("line,intensity\n393.37 nm,1\n396.85 nm,2\n")
+    np.testing.assert_allclose(pl_.positions, [393.37, 396.85])
+
+
+def test_empty_intensity_is_null():
+    pl_ = read_peak_list("wavelength (nm),intensity\n393.37,\n396.85,2\n")
+    assert np.isnan(pl_.intensities[0]) and pl_.intensities[1] == 2.0
+
+
+def test_parquet_peak_list():
+    buf = io.BytesIO()
+    pl.DataFrame({"lambda [nm]": [500.0, 400.0], "counts": [1.0, 2.0]}).write_parquet(buf)
+    out = read_any(buf.getvalue(), kind="peak_list")
+    assert out.source.format == "parquet"
+    np.testing.assert_allclose(out.positions, [400.0, 500.0])
+
+
+def test_parquet_nan_names_data_row():
+    buf = io.BytesIO()
+    pl.DataFrame({"wavelength (nm)": [500.0, float("nan")], "counts": [1.0, 2.0]}).write_parquet(
+        buf
+    )
+    with pytest.raises(ValueRangeError, match="data row 2, column 'wavelength \\(nm\\)'"):
+        read_peak_list(buf.getvalue())
+
+
+def _spectrum_text(n=200, header="Wavelength (nm),Counts", descending=False):
+    x = np.linspace(400.0, 500.0, n)
+    y = 10.0 + np.exp(-0.5 * ((x - 450.0) / 0.5) ** 2)
+    if descending:
+        x, y = x[::-1], y[::-1]
+    body = "\n".join(f"{a:.6f},{b:.6f}" for a, b in zip(x, y, strict=True))
+    return (header + "\n" if header else "") + body + "\n"
+
+
+def test_read_any_detects_spectrum_and_peak_list():
+    assert isinstance(read_any(_spectrum_text()), Spectrum)
+    assert isinstance(read_any(CSV), PeakList)
+    assert sniff(_spectrum_text())["kind"] == "spectrum"
+    assert sniff(CSV)["kind"] == "peak_list"
+
+
+def test_descending_spectrum_reversed_with_note():
+    spec = read_spectrum(_spectrum_text(descending=True))
+    assert np.all(np.diff(spec.x) > 0)
+    assert "axis was in descending order; reversed" in spec.source.notes
+
+
+def test_headerless_spectrum_with_comment_unit_and_semicolon_comments():
+    text = "; exported by invented ScanMate\n% medium: air\n# x units: nm\n" + _spectrum_text(
+        header=""
+    )
+    spec = read_spectrum(text)
+    assert spec.medium == "air" and spec.x[0] == 400.0  # linspace start above
+
+
+def test_force_kind_spectrum_on_short_table():
+    spec = read_any(_spectrum_text(n=20), kind="spectrum")
+    assert isinstance(spec, Spectrum) and spec.x.size == 20
+
+
+def test_encodings_utf16_bom_and_latin1():
+    text = "Wavelength (Å),Intensität\n6562.8,1\n4861.3,2\n"
+    for data in (text.encode("utf-16"), text.encode("latin-1"), b"\xef\xbb\xbf" + text.encode()):
+        pl_ = read_peak_list(data)
+        np.testing.assert_allclose(pl_.positions, [486.13, 656.28])  # Å × 0.1
+
+
+def test_max_bytes_refused_before_reading(tmp_path):
+    path = tmp_path / "big.csv"
+    path.write_text(CSV)
+    with pytest.raises(FileFormatError, match=r"over the limit of 10 bytes.*decimate"):
+        read_peak_list(path, max_bytes=10)
+
+
+# Each bad input gives one clear error naming the row or column (brief's list).
+BAD_PEAK_LISTS = [
+    ("", FileFormatError, "is empty"),
+    ("wavelength (nm),intensity\n", FileFormatError, "header \\(line 1\\) but no data rows"),
+    (
+        "wavelength (nm),intensity\n393.3,1\nnan,2\n",
+        ValueRangeError,
+        "row 3, column 'wavelength \\(nm\\)' is 'nan'",
+    ),
+    (
+        "wavelength (nm),intensity\n393.3,inf\n",
+        ValueRangeError,
+        "row 2, column 'intensity' is 'inf'",
+    ),
+    (
+        "wavelength (nm),intensity\n393.3,1\n-1,2\n",
+        ValueRangeError,
+        "row 3, column 'wavelength \\(nm\\)' is -1",
+    ),
+    ("wavelength (nm),intensity\n0,1\n", ValueRangeError, "row 2.*must be positive"),
+    (
+        "wavelength (nm),intensity\n393.3,1\n396.8,2,7\n",
+        FileFormatError,
+        "row 3 has 3 cells but the header has 2",
+    ),
+    ("wavelength (nm),intensity\n393.3,1\n396.8 Å,2\n", UnitError, "mixes units"),
+    (
+        "wavelength (nm),intensity\n393.3 nm,1\n3968 Å,2\n",
+        UnitError,
+        "'nm' \\(row 2\\) and 'Å' \\(row 3\\)",
+    ),
+    ("wavelength (nm),intensity\n3933,1\n5000,2\n", UnitError, "--unit angstrom"),
+    ("energy (eV),counts\n6400,1\n17400,2\n", None, None),  # plausible eV: accepted
+    ("energy (eV),counts\n6.4,1\n17.4,2\n", UnitError, "--unit keV"),
+    ("Channel,Counts\n1,2\n", ColumnMappingError, "channel or index numbers"),
+    ("wavelength,intensity\n393.3,1\n", UnitError, "unit of the positions is not stated"),
+    (
+        "wavelength (nm),intensity\n393.3,abc\n",
+        FileFormatError,
+        "row 2, column 'intensity' holds 'abc'",
+    ),
+    (
+        "wavelength (nm),fwhm (nm)\n393.3,-0.1\n",
+        ValueRangeError,
+        "row 2, column 'fwhm \\(nm\\)'.*positive",
+    ),
+    ("wavelength air vacuum (nm),i\n393.3,1\n", UnitError, "both air and vacuum"),
+    ("393.3,1\n396.8,2\n", ColumnMappingError, "no header row"),
+]
+
+
+@pytest.mark.parametrize(("text", "exc", "pattern"), BAD_PEAK_LISTS)
+def test_bad_peak_lists(text, exc, pattern):
+    if exc is None:
+        assert read_peak_list(text.encode()).table.height == 2
+        return
+    with pytest.raises(exc, match=pattern) as info:
+        read_peak_list(text.encode(), name="bad.csv")
+    assert info.value.remedy  # every error carries a remedy
+
+
+def _xy(xs):
+    return "wavelength (nm),counts\n" + "".join(f"{x},{i}\n" for i, x in enumerate(xs))
+
+
+BAD_SPECTRA = [
+    (_xy([400, 401, 401, 402, 403, 404]), "row 4 repeats the wavelength \\(nm\\) of row 3"),
+    (_xy([400, 401, 403, 402, 404, 405]), "row 5 \\(402\\) breaks the order of row 4"),
+    (_xy([400, 401, 402, float("nan"), 404]), "row 5, column 'wavelength \\(nm\\)' is 'nan'"),
+    (_xy([400, 401, 402]), "only 3 points"),
+]
+
+
+@pytest.mark.parametrize(("text", "pattern"), BAD_SPECTRA)
+def test_bad_spectra(text, pattern):
+    with pytest.raises((ValueRangeError, FileFormatError), match=pattern):
+        read_spectrum(text.encode(), name="bad.csv")
+
+
+def test_binary_garbage_refused():
+    rng = np.random.default_rng(20261202)
+    with pytest.raises(FileFormatError, match=r"not a text file|NUL"):
+        read_any(rng.integers(0, 256, 4096, dtype=np.uint8).tobytes())
+
+
+def test_missing_file_named(tmp_path):
+    with pytest.raises(FileFormatError, match="not found"):
+        read_any(tmp_path / "nope.csv")
+
+
+def test_negative_intensities_allowed():
+    spec = read_spectrum(_xy([400, 401, 402, 403, 404]).replace(",0\n", ",-5\n"))
+    assert spec.y[0] == -5.0

@@ -1,0 +1,312 @@
+"""Splitting delimited text (CSV, TSV, semicolon, whitespace, pasted cells) into a table.
+
+The delimiter is found from the data lines (tab, then semicolon, then comma,
+then runs of whitespace). With a semicolon, tab or whitespace delimiter a
+decimal comma (``656,28``, common in European labs) is read as a decimal
+point. Lines starting with ``#`` or ``%`` are comments, and so are lines
+starting with ``;`` unless ``;`` is the delimiter. Row numbers in messages
+are 1-based physical line numbers, as a spreadsheet shows them (the header
+and comment lines count).
+"""
+
+from __future__ import annotations
+
+import csv
+import re
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from workbench.errors import FileFormatError, UnitError, ValueRangeError
+
+__all__ = ["Table", "numeric_column", "parse_delimited"]
+
+_NUMBER = re.compile(r"^[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$")
+_NUMBER_WITH_UNIT = re.compile(
+    r"^\s*([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*([^\d\s.+-][^\d]*)?\s*$"
+)
+_DECIMAL_COMMA = re.compile(r"^\s*[+-]?\d*,\d+(?:[eE][+-]?\d+)?\s*$")
+_DELIMITER_NAMES = {"\t": "tab", ";": "semicolon", ",": "comma", " ": "whitespace"}
+
+
+@dataclass
+class Table:
+    """Cells of a delimited text file.
+
+    Attributes
+    ----------
+    name : str
+        File name for messages.
+    header : list of str or None
+        Header cells, when the first data line is not numeric.
+    header_line : int or None
+        1-based line number of the header.
+    rows : list of list of str
+        Data cells, row by row (all rows have ``n_columns`` cells).
+    line_numbers : list of int
+        1-based physical line number of each data row.
+    delimiter : str
+        a tab, ``";"``, ``","`` or ``" "`` (runs of whitespace).
+    decimal_comma : bool
+        Whether ``,`` was read as the decimal separator.
+    comments : list of str
+        Comment lines (without their marker), for medium and unit hints.
+    """
+
+    name: str
+    header: list[str] | None
+    header_line: int | None
+    rows: list[list[str]]
+    line_numbers: list[int]
+    delimiter: str
+    decimal_comma: bool
+    comments: list[str] = field(default_factory=list)
+
+    @property
+    def n_columns(self) -> int:
+        """Number of columns."""
+        return len(self.header) if self.header is not None else len(self.rows[0])
+
+    @property
+    def delimiter_name(self) -> str:
+        """Human name of the delimiter."""
+        return _DELIMITER_NAMES[self.delimiter]
+
+
+def _split(line: str, delimiter: str) -> list[str]:
+    if delimiter == " ":
+        return line.split()
+    return next(csv.reader([line], delimiter=delimiter, skipinitialspace=True))
+
+
+def _choose_delimiter(lines: list[str]) -> str:
+    sample = lines[1:201] if len(lines) > 1 else lines
+    for cand in ("\t", ";", ","):
+        counts = {line.count(cand) for line in sample}
+        if len(counts) == 1 and next(iter(counts)) > 0:
+            return cand
+    ws = {len(line.split()) for line in sample}
+    if len(ws) == 1 and next(iter(ws)) >= 2:
+        return " "
+    # Nothing is consistent: take the most widespread so the ragged row is named.
+    best, best_n = " ", 0
+    for cand in ("\t", ";", ","):
+        n = sum(1 for line in sample if cand in line)
+        if n > best_n:
+            best, best_n = cand, n
+    return best
+
+
+def _is_number(cell: str, decimal_comma: bool) -> bool:
+    c = cell.strip()
+    if decimal_comma:
+        c = c.replace(",", ".")
+    if _NUMBER.match(c):
+        return True
+    return c.lower() in ("nan", "inf", "-inf", "+inf", "infinity")
+
+
+def parse_delimited(text: str, name: str) -> Table:
+    """Split delimited text into header and data cells.
+
+    Parameters
+    ----------
+    text : str
+        Decoded text of the file or paste.
+    name : str
+        File name for messages.
+
+    Returns
+    -------
+    Table
+        Header (if any), data rows and what was detected.
+
+    Raises
+    ------
+    FileFormatError
+        If there are no data rows, only one column, or a row has a different
+        number of cells than the header (the message names the row).
+    """
+    comments: list[str] = []
+    lines: list[tuple[int, str]] = []
+    for number, line in enumerate(text.splitlines(), start=1):
+        stripped = line.strip()
+        if not stripped:
+            continue
+        if stripped[0] in "#%":
+            comments.append(stripped.lstrip("#%").strip())
+            continue
+        lines.append((number, line.rstrip("\r\n")))
+    if not lines:
+        raise FileFormatError(f"{name} has no data rows", "give a header row and data rows")
+    bodies = [line for _, line in lines]
+    delimiter = _choose_delimiter(bodies)
+    if delimiter != ";":
+        keep = []
+        for number, line in lines:
+            if line.lstrip().startswith(";"):
+                comments.append(line.lstrip().lstrip(";").strip())
+            else:
+                keep.append((number, line))
+        lines = keep
+        if not lines:
+            raise FileFormatError(f"{name} has no data rows", "give a header row and data rows")
+    cells = [(number, [c.strip() for c in _split(line, delimiter)]) for number, line in lines]
+    # Spreadsheets often leave a trailing delimiter; drop an empty last cell everywhere.
+    if delimiter != " " and all(c and c[-1] == "" for _, c in cells):
+        cells = [(n, c[:-1]) for n, c in cells]
+    decimal_comma = False
+    if delimiter != ",":
+        probe = [c for _, row in cells[1:200] for c in row]
+        decimal_comma = any(_DECIMAL_COMMA.match(c) for c in probe)
+    first_number, first = cells[0]
+    header: list[str] | None = None
+    header_line: int | None = None
+    if not all(_is_number(c, decimal_comma) for c in first if c):
+        header, header_line = first, first_number
+        cells = cells[1:]
+    if not cells:
+        raise FileFormatError(
+            f"{name} has a header (line {header_line}) but no data rows",
+            "add the data rows below the header",
+        )
+    width = len(cells[0][1]) if header is None else len(header)
+    if header is not None and delimiter == " " and cells and len(cells[0][1]) != width:
+        header = _fit_whitespace_header(lines[0][1], len(cells[0][1])) or header
+        width = len(header)
+    if width < 2:
+        raise FileFormatError(
+            f"{name} has only one column (delimiter: {_DELIMITER_NAMES[delimiter]})",
+            "give at least a position column and an intensity column, separated by tab, "
+            "comma, semicolon or spaces",
+        )
+    for number, row in cells:
+        if len(row) != width:
+            raise FileFormatError(
+                f"{name}: row {number} has {len(row)} cells but "
+                f"{'the header has' if header is not None else 'the first row has'} {width}",
+                f"make row {number} have {width} cells (check for a stray or missing "
+                f"{_DELIMITER_NAMES[delimiter]} delimiter)",
+            )
+    rows = [row for _, row in cells]
+    if decimal_comma:
+        rows = [[c.replace(",", ".") for c in row] for row in rows]
+    return Table(
+        name=name,
+        header=header,
+        header_line=header_line,
+        rows=rows,
+        line_numbers=[n for n, _ in cells],
+        delimiter=delimiter,
+        decimal_comma=decimal_comma,
+        comments=comments,
+    )
+
+
+def _fit_whitespace_header(line: str, width: int) -> list[str] | None:
+    parts = [p for p in re.split(r"\s{2,}|\t", line.strip()) if p]
+    if len(parts) == width:
+        return parts
+    merged: list[str] = []
+    for tok in line.split():
+        if merged and (tok[0] in "([{/" or merged[-1].endswith("/")):
+            merged[-1] = f"{merged[-1]} {tok}"
+        else:
+            merged.append(tok)
+    return merged if len(merged) == width else None
+
+
+def numeric_column(
+    table: Table, index: int, label: str, *, allow_empty: bool
+) -> tuple[np.ndarray, np.ndarray, str | None]:
+    """Parse one column to floats.
+
+    Parameters
+    ----------
+    table : Table
+        The parsed table.
+    index : int
+        0-based column index.
+    label : str
+        Column name for messages.
+    allow_empty : bool
+        Whether empty cells are allowed (returned as NaN and flagged in the mask).
+
+    Returns
+    -------
+    tuple of (numpy.ndarray, numpy.ndarray, str or None)
+        Values, a boolean mask of empty cells, and the unit written in the
+        cells (``"656.3 nm"``) when there is one.
+
+    Raises
+    ------
+    ValueRangeError
+        For an empty cell where none is allowed, NaN or infinity.
+    FileFormatError
+        For a cell that is not a number.
+    UnitError
+        When cells carry different units.
+    """
+    col = [row[index] for row in table.rows]
+    empty = np.fromiter((c == "" for c in col), dtype=bool, count=len(col))
+    unit: str | None = None
+    try:
+        values = np.array(["nan" if c == "" else c for c in col], dtype=np.float64)
+    except ValueError:
+        values, unit = _slow_parse(table, col, label)
+    if empty.any() and not allow_empty:
+        i = int(np.argmax(empty))
+        raise ValueRangeError(
+            f"{table.name}: row {table.line_numbers[i]}, column {label!r} is empty",
+            "fill the cell or delete the row",
+        )
+    bad = ~np.isfinite(values) & ~empty
+    if bad.any():
+        i = int(np.argmax(bad))
+        raise ValueRangeError(
+            f"{table.name}: row {table.line_numbers[i]}, column {label!r} is "
+            f"{col[i]!r} (not a finite number)",
+            "remove the row or replace the value with a measured number",
+        )
+    return values, empty, unit
+
+
+def _slow_parse(table: Table, col: list[str], label: str) -> tuple[np.ndarray, str | None]:
+    out = np.empty(len(col), dtype=np.float64)
+    unit: str | None = None
+    unit_row = 0
+    plain_row: int | None = None
+    for i, cell in enumerate(col):
+        if cell == "":
+            out[i] = np.nan
+            continue
+        m = _NUMBER_WITH_UNIT.match(cell)
+        if m is None:
+            word = cell.strip().lower()
+            if word in ("nan", "inf", "-inf", "+inf", "infinity"):
+                out[i] = np.nan if word == "nan" else np.inf
+                continue
+            raise FileFormatError(
+                f"{table.name}: row {table.line_numbers[i]}, column {label!r} holds "
+                f"{cell!r}, which is not a number",
+                "correct the cell (decimal point or decimal comma, no text)",
+            )
+        out[i] = float(m.group(1))
+        cell_unit = (m.group(2) or "").strip() or None
+        if cell_unit is None:
+            plain_row = plain_row or table.line_numbers[i]
+        elif unit is None:
+            unit, unit_row = cell_unit, table.line_numbers[i]
+        elif cell_unit != unit:
+            raise UnitError(
+                f"{table.name}: column {label!r} mixes units: {unit!r} (row {unit_row}) "
+                f"and {cell_unit!r} (row {table.line_numbers[i]})",
+                "convert the column to one unit and state it in the header",
+            )
+    if unit is not None and plain_row is not None:
+        raise UnitError(
+            f"{table.name}: column {label!r} mixes units: row {plain_row} has no unit "
+            f"while row {unit_row} says {unit!r}",
+            "give every value the same unit, or state the unit once in the header",
+        )
+    return out, unit
