@@ -127,3 +127,14 @@ def test_bad_arguments():
         synthetic_spectrum([1.0], [1.0], axis="energy", x_range=(0.5, 1.5), fwhm=0.1)
     with pytest.raises(ValueRangeError, match="lorentz_fraction"):
         line_profile(x, 0.5, 0.1, "voigt", lorentz_fraction=2.0)
+
+
+def test_voigt_wing_approximation_close_to_exact():
+    from scipy.special import voigt_profile
+
+    # Exact Voigt (scipy.special.voigt_profile, registry package) vs the windowed/wing form.
+    x = np.linspace(-200.0, 200.0, 40_001)
+    f_g, f_l = voigt_widths(1.0, 0.5)
+    exact = voigt_profile(x, f_g / (2 * np.sqrt(2 * np.log(2))), f_l / 2)
+    ours = line_profile(x, 0.0, 1.0, "voigt", lorentz_fraction=0.5)
+    assert np.max(np.abs(ours - exact) / exact) < 1e-3

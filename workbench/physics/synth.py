@@ -6,7 +6,9 @@ given directly (``fwhm``) or follow from a resolving power R as FWHM = x/R per
 line. Each line is evaluated only on a window around its centre (±20 FWHM for
 a Gaussian, which keeps all but ~1e-300 of the area; ±1000 FWHM for
 Lorentzian and Voigt profiles, whose far wings beyond that hold about 0.03 %
-of the area), so a 10⁶-point grid with hundreds of lines stays quick.
+of the area), so a 10⁶-point grid with hundreds of lines stays quick. Voigt
+profiles are computed exactly (Faddeeva function) within ±50 FWHM and by their
+Lorentzian asymptote beyond, where the two agree to ~1e-4 of the wing value.
 """
 
 from __future__ import annotations
@@ -35,6 +37,8 @@ Profile = Literal["gaussian", "lorentzian", "voigt"]
 _FWHM_PER_SIGMA = 2.0 * math.sqrt(2.0 * math.log(2.0))
 #: Half-width of the evaluation window in FWHM, by profile.
 _WINDOW_FWHM = {"gaussian": 20.0, "lorentzian": 1000.0, "voigt": 1000.0}
+#: Half-width (FWHM) inside which a Voigt profile is evaluated exactly.
+_VOIGT_CORE_FWHM = 50.0
 
 
 def voigt_widths(
@@ -73,7 +77,16 @@ def _profile_values(dx: np.ndarray, fwhm: float, kind: str, lorentz_fraction: fl
         from scipy.special import voigt_profile
 
         f_g, f_l = voigt_widths(fwhm, lorentz_fraction)
-        return voigt_profile(dx, float(f_g) / _FWHM_PER_SIGMA, 0.5 * float(f_l))
+        sigma, gamma = float(f_g) / _FWHM_PER_SIGMA, 0.5 * float(f_l)
+        core = np.abs(dx) <= _VOIGT_CORE_FWHM * fwhm
+        if gamma == 0.0 or core.all():
+            return voigt_profile(dx, sigma, gamma)
+        # Far wings: the Voigt profile tends to its Lorentzian component, with a
+        # relative error of order (σ/x)² (≈ 1e-4 at 50 FWHM); the Faddeeva function
+        # is ~20× slower per point, and the wings are most of the window.
+        out = (gamma / math.pi) / (dx * dx + gamma * gamma)
+        out[core] = voigt_profile(dx[core], sigma, gamma)
+        return out
     raise ValueRangeError(
         f"unknown line profile {kind!r}", "use 'gaussian', 'lorentzian' or 'voigt'"
     )
