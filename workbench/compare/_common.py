@@ -1,14 +1,12 @@
 """Small helpers shared by the comparison modules (private).
 
 Canonical JSON, atomic writes, element symbols, the reading of element
-results in the identification engine's JSON shape, and peak-list reading
-with a fallback for when :func:`workbench.io.read_peak_list` is not present.
+results in the identification engine's JSON shape, and peak-list reading.
 """
 
 from __future__ import annotations
 
 import hashlib
-import io
 import json
 import math
 import os
@@ -216,7 +214,7 @@ def read_peaks(
     medium: str | None = None,
     mode: str = "emission",
 ):
-    """Read a peak list from bytes, via :func:`workbench.io.read_peak_list` when present.
+    """Read a peak list from bytes with :func:`workbench.io.read_peak_list`.
 
     Parameters
     ----------
@@ -225,89 +223,17 @@ def read_peaks(
     name : str
         File name for messages and provenance.
     unit, medium, mode
-        Passed to the reader (``medium`` is required for wavelengths).
+        Passed to the reader (an unstated medium is assumed air by the reader,
+        with a note; the collection then records it explicitly).
 
     Returns
     -------
     workbench.datamodel.PeakList
         The peaks.
     """
-    try:
-        from workbench.io import read_peak_list  # type: ignore[attr-defined]
-    except ImportError:
-        read_peak_list = None
-    if read_peak_list is not None:
-        return read_peak_list(data, name=name, unit=unit, medium=medium, mode=mode)
-    return _fallback_read_csv(data, name=name, unit=unit, medium=medium, mode=mode)
+    from workbench.io import read_peak_list
 
-
-_POSITION_HEADERS = {
-    "wavelength_nm": ("wavelength", "nm"),
-    "wavelength": ("wavelength", None),
-    "lambda_nm": ("wavelength", "nm"),
-    "energy_ev": ("energy", "eV"),
-    "energy_kev": ("energy", "keV"),
-    "energy": ("energy", None),
-}
-
-
-def _fallback_read_csv(data: bytes, *, name: str, unit, medium, mode):
-    """Minimal comma-separated peak-list reader used until workbench.io lands."""
-    import csv
-
-    import numpy as np
-    import polars as pl
-
-    from workbench.datamodel import InputSource, PeakList
-    from workbench.physics.units import energy_to_eV, wavelength_to_nm
-
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise FileFormatError(f"{name}: not UTF-8 text", "save the peak list as UTF-8 CSV") from exc
-    rows = [r for r in csv.reader(io.StringIO(text)) if r and not r[0].lstrip().startswith("#")]
-    if len(rows) < 2:
-        raise FileFormatError(f"{name}: no peak rows", "give a CSV with a header and peak rows")
-    header = [h.strip().lower() for h in rows[0]]
-    pos_col = next((i for i, h in enumerate(header) if h in _POSITION_HEADERS), None)
-    if pos_col is None or "intensity" not in header:
-        raise FileFormatError(
-            f"{name}: header {rows[0]} lacks a position column or 'intensity'",
-            "name the columns wavelength_nm (or energy_eV / energy_keV) and intensity",
-        )
-    axis, head_unit = _POSITION_HEADERS[header[pos_col]]
-    use_unit = unit or head_unit or ("nm" if axis == "wavelength" else "eV")
-    int_col = header.index("intensity")
-    pos: list[float] = []
-    inten: list[float] = []
-    for line_no, row in enumerate(rows[1:], start=2):
-        try:
-            pos.append(float(row[pos_col]))
-            inten.append(float(row[int_col]) if row[int_col].strip() else float("nan"))
-        except (ValueError, IndexError) as exc:
-            raise FileFormatError(
-                f"{name}: row {line_no} is not numeric ({row})", "fix or remove that row"
-            ) from exc
-    arr = np.asarray(pos, dtype=np.float64)
-    arr = wavelength_to_nm(arr, use_unit) if axis == "wavelength" else energy_to_eV(arr, use_unit)
-    order = np.argsort(arr, kind="stable")
-    col = "wavelength_nm" if axis == "wavelength" else "energy_eV"
-    table = pl.DataFrame({col: arr[order], "intensity": np.asarray(inten)[order]})
-    source = InputSource(
-        name=name,
-        sha256=sha256_hex(data),
-        size_bytes=len(data),
-        kind="peak_list",
-        format="delimited",
-        notes=("read by the comparison module's minimal CSV reader",),
-    )
-    return PeakList(
-        table=table,
-        axis=axis,
-        medium=medium if axis == "wavelength" else None,
-        source=source,
-        mode=mode,
-    )
+    return read_peak_list(data, name=name, unit=unit, medium=medium, mode=mode)
 
 
 def not_found(what: str, value: str, known: Iterable[str], remedy: str) -> ComparisonError:

@@ -313,9 +313,11 @@ def create_collection(
     return coll
 
 
-def _as_bytes(item: bytes | str | os.PathLike[str], index: int) -> tuple[bytes, str]:
+def _as_bytes(
+    item: bytes | str | os.PathLike[str], index: int, exemplar_id: str
+) -> tuple[bytes, str]:
     if isinstance(item, bytes | bytearray):
-        return bytes(item), f"replicate-{index + 1}"
+        return bytes(item), f"{exemplar_id}-replicate-{index + 1}"
     p = Path(item)
     try:
         return p.read_bytes(), p.name
@@ -394,7 +396,7 @@ def add_exemplar(
     prepared: list[tuple[bytes, Replicate]] = []
     axes: set[str] = set()
     for i, item in enumerate(replicate_files):
-        data, name = _as_bytes(item, i)
+        data, name = _as_bytes(item, i, exemplar_id)
         if original_names is not None:
             name = original_names[i]
         peaks = read_peaks(data, name=name, unit=unit, medium=medium, mode=mode)
@@ -541,13 +543,12 @@ def load_collection(
     directory = _collection_dir(root, collection_id)
     index = directory / COLLECTION_FILE
     if not index.exists():
-        known = (
-            [p.name for p in Path(root).glob(f"*/{COLLECTION_FILE}")] if Path(root).is_dir() else []
-        )
+        base = Path(root)
+        known = [p.parent.name for p in base.glob(f"*/{COLLECTION_FILE}")] if base.is_dir() else []
         raise not_found(
-            f"collection in {Path(root)} called",
+            f"collection in {base} called",
             collection_id,
-            (Path(k).parent.name for k in known),
+            known,
             "create it with 'workbench collection create', or point --root/--store/--shared "
             "at the directory that holds it",
         )

@@ -417,7 +417,7 @@ def candidate_materials(
             }
         )
         scored.append((len(found), len(assoc), m.name, entry))
-    scored.sort(key=lambda t: (-t[0], -t[1], t[2]))
+    scored.sort(key=lambda t: (-t[0], -t[1], t[2].casefold()))
     candidates = []
     anachronisms = []
     explained: set[str] = set()
