@@ -495,15 +495,17 @@ class CaseStore:
         ).fetchall()
         return [self.get_item(r[0]) for r in ids]
 
-    def _check_at(self, at: datetime | str | None) -> str:
+    def _check_at(self, at: datetime | str | None) -> str | None:
+        """Normalise an explicit event time; ``None`` stays None (stamped inside the write)."""
+        if at is None:
+            return None
         stamp = normalise_time(at, "event time")
-        if at is not None:
-            limit = (datetime.now(UTC) + _FUTURE_SLACK).strftime(TIME_FORMAT)
-            if stamp > limit:
-                raise ValueRangeError(
-                    f"event time {stamp} is in the future",
-                    "give the time the event happened (UTC 'Z' or with an offset)",
-                )
+        limit = (datetime.now(UTC) + _FUTURE_SLACK).strftime(TIME_FORMAT)
+        if stamp > limit:
+            raise ValueRangeError(
+                f"event time {stamp} is in the future",
+                "give the time the event happened (UTC 'Z' or with an offset)",
+            )
         return stamp
 
     def _append(
@@ -523,6 +525,10 @@ class CaseStore:
         ev["item_number"] = item_row["item_number"]
         ev["seq"] = (state.count if state else 0) + 1
         ev["recorded_at"] = utc_now()
+        if ev.get("at") is None:
+            # "now" is taken while holding the write lock, so concurrent writers
+            # stamp their events in commit order and the chain's times never run back.
+            ev["at"] = ev["recorded_at"]
         if state is not None:
             if ev.get("seal_state") is None:
                 ev["seal_state"] = {"sealed": "sealed", "opened": "open"}.get(
@@ -624,6 +630,7 @@ class CaseStore:
         created = utc_now()
 
         def tx(conn: sqlite3.Connection) -> int:
+            when = stamp or utc_now()
             if case["status"] != "open":
                 raise CaseFileError(
                     f"case {case['case_number']} is {case['status']}; items cannot be added",
@@ -673,7 +680,7 @@ class CaseStore:
                     parent_row,
                     {
                         "kind": "sub-sampled",
-                        "at": stamp,
+                        "at": when,
                         "actor": actor,
                         "from_party": from_party,
                         "to_party": actor,
@@ -691,7 +698,7 @@ class CaseStore:
                 item_row,
                 {
                     "kind": "sub-sampled" if parent_row is not None else "received",
-                    "at": stamp,
+                    "at": when,
                     "actor": actor,
                     "from_party": from_party,
                     "to_party": actor,
@@ -907,7 +914,7 @@ class CaseStore:
                 row,
                 {
                     "kind": "note",
-                    "at": utc_now(),
+                    "at": None,
                     "actor": fields["operator"],
                     "note": f"measurement recorded: {name} ({tech}, {fields['instrument']}), "
                     f"SHA-256 {fields['sha256']}, measured at {fields['measured_at']}",
