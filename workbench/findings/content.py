@@ -361,6 +361,11 @@ def build_sheet_content(
     analysis_part = {
         "id": analysis.get("id", analysis.get("analysis_id")),
         "created_at": analysis.get("created_at"),
+        "analysed_by": analysis.get("analyst")
+        if isinstance(analysis.get("analyst"), str)
+        else None,
+        "record_hash": analysis.get("record_hash"),
+        "result_sha256": analysis.get("result_sha256"),
         "software_version": result.get("software_version"),
         "schema_version": result.get("schema_version"),
         "input": result.get("input") or {},

@@ -41,6 +41,18 @@ _PALETTE: tuple[tuple[int, int, int], ...] = (
     (160, 120, 30),
     (220, 60, 150),
 )
+_CUSTODY_HIDDEN = (
+    "id",
+    "seq",
+    "hash",
+    "prev_hash",
+    "case_number",
+    "item_number",
+    "ref_kind",
+    "ref_key",
+    "ref_hash",
+    "corrects_seq",
+)
 _ROMAN = ("I", "II", "III", "IV", "V", "VI", "VII", "VIII", "IX", "X")
 
 
@@ -299,10 +311,11 @@ class _Sheet:
 
         used = {"at", "timestamp", "time", "occurred_at", "recorded_at", "event", "kind"}
         used |= {"action", "type", "actor", "by", "person", "analyst"}
+        # Chain bookkeeping stays in the JSON; the printed table shows what happened.
+        used |= set(_CUSTODY_HIDDEN)
         rows = []
         for e in events:
             rest = {k: v for k, v in e.items() if k not in used and v not in (None, "")}
-            rest.pop("id", None)
             details = "; ".join(f"{k.replace('_', ' ')}: {_clean(rest[k])}" for k in sorted(rest))
             rows.append(
                 (
@@ -329,6 +342,15 @@ class _Sheet:
             f"Software version: {_clean(a.get('software_version', ''))}.",
             8,
         )
+        run = [f"Analysis {self._analysis_id()}"]
+        if a.get("analysed_by"):
+            run.append(f"run by {_clean(a['analysed_by'])}")
+        if a.get("created_at"):
+            run.append(f"at {_clean(a['created_at'])}")
+        if a.get("record_hash"):
+            run.append(f"(record hash {_clean(a['record_hash'])})")
+        if len(run) > 1:
+            self.para(" ".join(run) + ".", 8)
         self.heading("Reference sets")
         refs = a.get("reference_sets") or []
         if refs:
@@ -567,7 +589,7 @@ class _Sheet:
             7.5,
         )
 
-    def render(self) -> tuple[bytes, int]:
+    def render(self, output: bool = True) -> tuple[bytes, int]:
         self.pdf.add_page()
         self.title_block()
         self.case_item()
@@ -579,7 +601,14 @@ class _Sheet:
         self.free_text()
         self.signature()
         pages = self.pdf.pages_count
-        return bytes(self.pdf.output()), pages
+        if output:
+            return bytes(self.pdf.output()), pages
+        # output() is what closes the font files; a counting pass closes them itself.
+        for font in self.pdf.fonts.values():
+            close = getattr(font, "close", None)
+            if callable(close):
+                close()
+        return b"", pages
 
 
 def render_pdf(content: Mapping[str, Any], *, compress: bool = True) -> bytes:
@@ -613,10 +642,11 @@ def render_pdf(content: Mapping[str, Any], *, compress: bool = True) -> bytes:
                 f"embedded font {FONT_DIR / name} is missing",
                 "reinstall the workbench package (the fonts ship with it)",
             )
-    total: int | None = None
-    for _ in range(3):
+    # First pass only counts pages; the footer's width does not change the flow,
+    # so the second pass, which prints "page i of n", has the same pages.
+    _, total = _Sheet(content, None, compress).render(output=False)
+    while True:
         data, pages = _Sheet(content, total, compress).render()
         if pages == total:
             return data
-        total = pages
-    return data
+        total = pages  # pragma: no cover - only if the layout depended on the total

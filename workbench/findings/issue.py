@@ -1,0 +1,323 @@
+"""Issue a signed findings sheet for an analysis held in a case store.
+
+:func:`issue_findings_sheet` gathers the case, item, custody history,
+measurement and analysis from the store, builds the content, renders the PDF,
+signs both renderings with the analyst's key and stores the four files with
+:meth:`CaseStore.add_findings_sheet` (one transaction, which also appends the
+``reported`` custody event). Optionally the files are written to a folder:
+they are first written under temporary names, and only renamed into place
+once the store has accepted the sheet, so a failure leaves nothing behind.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import tempfile
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from workbench.errors import InputError, NotFoundError, SigningError, StoreIntegrityError
+from workbench.findings.content import build_sheet_content, canonical_json, utc_timestamp
+from workbench.findings.keys import fingerprint_of, load_private_key
+from workbench.findings.sheet import render_pdf
+from workbench.findings.signing import analyst_revocation, sign_sheet, verify_sheet
+
+__all__ = ["SHEET_SUFFIXES", "IssuedSheet", "gather_sheet_inputs", "issue_findings_sheet"]
+
+#: File suffixes of an issued sheet: PDF, canonical JSON, raw signature, signature record.
+SHEET_SUFFIXES: dict[str, str] = {
+    "pdf": ".pdf",
+    "json": ".json",
+    "sig": ".sig",
+    "record": ".sig.json",
+}
+
+# Database-local ids and duplicated keys left out of the sheet (record hashes stay in).
+_DROP = ("id", "case_number", "item_number", "measurement_id")
+
+
+@dataclass(frozen=True)
+class IssuedSheet:
+    """An issued, signed and stored findings sheet.
+
+    Attributes
+    ----------
+    sheet_id : int
+        Id of the stored sheet.
+    record : object
+        The store's :class:`~workbench.casefile.records.FindingsSheetRecord`.
+    content : dict
+        The sheet content.
+    pdf_bytes, json_bytes, signature_raw, signature_record : bytes
+        The four files.
+    key_fingerprint, issued_at : str
+        Signing key and UTC issue time.
+    paths : dict of str to Path
+        Where the files were written (empty without ``out_dir``).
+    """
+
+    sheet_id: int
+    record: Any
+    content: dict[str, Any]
+    pdf_bytes: bytes
+    json_bytes: bytes
+    signature_raw: bytes
+    signature_record: bytes
+    key_fingerprint: str
+    issued_at: str
+    paths: dict[str, Path] = field(default_factory=dict)
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return a JSON-friendly summary."""
+        return {
+            "sheet_id": self.sheet_id,
+            "analysis_id": self.content.get("analysis", {}).get("id"),
+            "key_fingerprint": self.key_fingerprint,
+            "issued_at": self.issued_at,
+            "pdf_sha256": json.loads(self.signature_record)["pdf_sha256"],
+            "json_sha256": json.loads(self.signature_record)["json_sha256"],
+            "files": {k: str(v) for k, v in self.paths.items()},
+        }
+
+
+def _as_dict(record: Any) -> dict[str, Any]:
+    if isinstance(record, Mapping):
+        return dict(record)
+    if hasattr(record, "to_dict"):
+        return dict(record.to_dict())
+    raise InputError(f"cannot read a {type(record).__name__} record", "pass a store record")
+
+
+def _strip(d: Mapping[str, Any], keep: tuple[str, ...] = ()) -> dict[str, Any]:
+    return {k: v for k, v in d.items() if k not in _DROP or k in keep}
+
+
+def gather_sheet_inputs(store: Any, analysis_id: int) -> dict[str, Any]:
+    """Read everything a sheet reports about one analysis from the store.
+
+    Parameters
+    ----------
+    store : CaseStore
+        The open store.
+    analysis_id : int
+        The analysis.
+
+    Returns
+    -------
+    dict
+        Keyword arguments ``case``, ``item``, ``custody``, ``measurement`` and
+        ``analysis`` for :func:`~workbench.findings.content.build_sheet_content`.
+
+    Raises
+    ------
+    NotFoundError
+        If the analysis does not exist.
+    StoreIntegrityError
+        If the stored result is not JSON.
+    """
+    a = store.get_analysis(int(analysis_id))
+    try:
+        result = json.loads(bytes(a.result_json).decode("utf-8"))
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+        raise StoreIntegrityError(
+            f"analysis {analysis_id}: the stored result is not JSON ({exc})",
+            "re-run the analysis; a sheet cannot be issued from an unreadable result",
+        ) from exc
+    measurement = _strip(_as_dict(store.get_measurement(a.measurement_id)))
+    item_rec = store.get_item((a.case_number, a.item_number))
+    item = _as_dict(item_rec)
+    item = {"reference": f"{a.case_number}/{a.item_number}", **_strip(item)}
+    case = _as_dict(store.get_case(a.case_number))
+    case = {"reference": a.case_number, **_strip(case)}
+    custody = [_strip(_as_dict(e), keep=("seq",)) for e in store.custody_events(item_rec)]
+    analysis = _strip(_as_dict(a))
+    analysis.pop("result_json", None)
+    analysis.update(id=a.id, result=result)
+    return {
+        "case": case,
+        "item": item,
+        "custody": custody,
+        "measurement": measurement,
+        "analysis": analysis,
+    }
+
+
+def _stem(content: Mapping[str, Any]) -> str:
+    case = str((content.get("item") or {}).get("reference", "case"))
+    analysis = str((content.get("analysis") or {}).get("id", "x"))
+    when = str(content.get("issued_at", "")).replace("-", "").replace(":", "")
+    raw = f"findings_{case}_A{analysis}_{when}"
+    return re.sub(r"[^A-Za-z0-9._-]+", "-", raw).strip("-.")
+
+
+def _prepare_files(
+    out_dir: Path, stem: str, blobs: dict[str, bytes]
+) -> dict[str, tuple[Path, Path]]:
+    """Write every file under a temporary name; return {kind: (temp, final)}."""
+    out_dir.mkdir(parents=True, exist_ok=True)
+    finals = {k: out_dir / f"{stem}{suffix}" for k, suffix in SHEET_SUFFIXES.items()}
+    existing = [str(p) for p in finals.values() if p.exists()]
+    if existing:
+        raise InputError(
+            f"{existing[0]} already exists; an issued sheet is never overwritten",
+            "choose another --out directory or move the old files away",
+        )
+    staged: dict[str, tuple[Path, Path]] = {}
+    try:
+        for kind, final in finals.items():
+            fd, tmp = tempfile.mkstemp(prefix=f".{final.name}.", suffix=".tmp", dir=out_dir)
+            with os.fdopen(fd, "wb") as fh:
+                fh.write(blobs[kind])
+                fh.flush()
+                os.fsync(fh.fileno())
+            staged[kind] = (Path(tmp), final)
+    except OSError as exc:
+        _discard(staged)
+        raise InputError(
+            f"cannot write the sheet files to {out_dir} ({exc})",
+            "choose a writable --out directory",
+        ) from exc
+    return staged
+
+
+def _discard(staged: Mapping[str, tuple[Path, Path]]) -> None:
+    for tmp, _ in staged.values():
+        tmp.unlink(missing_ok=True)
+
+
+def issue_findings_sheet(
+    store: Any,
+    analysis_id: int,
+    *,
+    analyst_fingerprint: str,
+    private_key_pem: bytes,
+    passphrase: str,
+    lab: Mapping[str, Any],
+    notes: str,
+    limitations: str,
+    issued_at: str | None = None,
+    out_dir: str | os.PathLike[str] | None = None,
+) -> IssuedSheet:
+    """Build, render, sign and store a findings sheet for one analysis.
+
+    Parameters
+    ----------
+    store : CaseStore
+        The open case store.
+    analysis_id : int
+        The analysis to report.
+    analyst_fingerprint : str
+        Registered fingerprint of the signing analyst's key.
+    private_key_pem : bytes
+        The analyst's encrypted private key (``.key.pem``).
+    passphrase : str
+        Its passphrase.
+    lab : mapping
+        Laboratory details (``name`` required).
+    notes, limitations : str
+        Analyst's free text, printed verbatim.
+    issued_at : str, optional
+        UTC issue time; now when omitted.
+    out_dir : path-like, optional
+        Folder to write ``<stem>.pdf``, ``.json``, ``.sig`` and ``.sig.json`` into.
+
+    Returns
+    -------
+    IssuedSheet
+        The stored sheet and its files.
+
+    Raises
+    ------
+    SigningError
+        If the analyst is unknown or revoked, or the key is not the registered one.
+    KeyFileError
+        If the key cannot be read or the passphrase is wrong.
+    """
+    try:
+        analyst = store.get_analyst(analyst_fingerprint)
+    except NotFoundError as exc:
+        raise SigningError(
+            f"analyst key {analyst_fingerprint} is not registered in the case store",
+            "register the public key first ('workbench keys register PUBKEY --name --role')",
+        ) from exc
+    if analyst.fingerprint != analyst_fingerprint:
+        raise SigningError(
+            f"{analyst_fingerprint!r} is not a key fingerprint",
+            f"give the fingerprint ({analyst.fingerprint})",
+        )
+    revoked, note = analyst_revocation(analyst)
+    if revoked:
+        raise SigningError(
+            f"key {analyst.fingerprint} of {analyst.name} is revoked ({note}); "
+            "it can no longer sign",
+            "create and register a new key ('workbench keys create', 'workbench keys register')",
+        )
+    private_key = load_private_key(private_key_pem, passphrase)
+    key_fp = fingerprint_of(private_key.public_key())  # type: ignore[attr-defined]
+    if key_fp != analyst.fingerprint:
+        raise SigningError(
+            f"the private key given ({key_fp}) does not match the registered key of "
+            f"{analyst.name} ({analyst.fingerprint})",
+            "sign with the key file that belongs to the registered public key",
+        )
+    when = utc_timestamp(issued_at)
+    inputs = gather_sheet_inputs(store, analysis_id)
+    content = build_sheet_content(
+        lab=lab,
+        analyst={"name": analyst.name, "role": analyst.role, "fingerprint": analyst.fingerprint},
+        notes=notes,
+        limitations=limitations,
+        issued_at=when,
+        **inputs,
+    )
+    json_bytes = canonical_json(content)
+    pdf_bytes = render_pdf(content)
+    signed = sign_sheet(pdf_bytes, json_bytes, private_key, signer=analyst.name, signed_at=when)
+    pem = analyst.public_key_pem
+    verify_sheet(
+        pdf_bytes,
+        json_bytes,
+        signed.record,
+        pem.encode("ascii") if isinstance(pem, str) else pem,
+        expected_fingerprint=analyst.fingerprint,
+    )
+    blobs = {
+        "pdf": pdf_bytes,
+        "json": json_bytes,
+        "sig": signed.signature_raw,
+        "record": signed.record,
+    }
+    staged = _prepare_files(Path(out_dir), _stem(content), blobs) if out_dir is not None else {}
+    try:
+        record = store.add_findings_sheet(
+            int(analysis_id),
+            analyst_fingerprint=analyst.fingerprint,
+            pdf_bytes=pdf_bytes,
+            json_bytes=json_bytes,
+            signature_raw=signed.signature_raw,
+            signature_record=signed.record,
+            issued_at=when,
+        )
+    except BaseException:
+        _discard(staged)
+        raise
+    paths = {}
+    for kind, (tmp, final) in staged.items():
+        os.replace(tmp, final)
+        paths[kind] = final
+    return IssuedSheet(
+        sheet_id=int(record.id),
+        record=record,
+        content=content,
+        pdf_bytes=pdf_bytes,
+        json_bytes=json_bytes,
+        signature_raw=signed.signature_raw,
+        signature_record=signed.record,
+        key_fingerprint=analyst.fingerprint,
+        issued_at=when,
+        paths=paths,
+    )
