@@ -55,3 +55,30 @@ def populate(s: CaseStore, case_number: str = "HLX-2026-0007") -> dict:
         analyst="Dana Whitlock",
     )
     return {"case": case_number, "measurement": m, "analysis": a}
+
+
+def add_signed_sheet(s: CaseStore, analysis_id: int, name: str = "Dana Whitlock") -> dict:
+    """Register a fresh analyst key and store a signed findings sheet for an analysis."""
+    from cryptography.hazmat.primitives import serialization
+    from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
+
+    from workbench.findings.signing import sign_sheet
+
+    key = Ed25519PrivateKey.generate()
+    pem = key.public_key().public_bytes(
+        serialization.Encoding.PEM, serialization.PublicFormat.SubjectPublicKeyInfo
+    )
+    analyst = s.register_analyst(name, "examiner", pem)
+    pdf = b"%PDF-1.4\n% invented findings sheet for tests\n%%EOF\n"
+    js = json.dumps({"analysis": analysis_id, "finding": "Na present"}, sort_keys=True).encode()
+    signed = sign_sheet(pdf, js, key, signer=name, signed_at="2026-02-04T09:00:00Z")
+    sheet = s.add_findings_sheet(
+        analysis_id,
+        analyst_fingerprint=analyst.fingerprint,
+        pdf_bytes=pdf,
+        json_bytes=js,
+        signature_raw=signed.signature_raw,
+        signature_record=signed.record,
+        issued_at="2026-02-04T09:00:00Z",
+    )
+    return {"key": key, "analyst": analyst, "sheet": sheet, "pdf": pdf, "json": js}
