@@ -249,3 +249,12 @@ def test_missing_file_named(tmp_path):
 def test_negative_intensities_allowed():
     spec = read_spectrum(_xy([400, 401, 402, 403, 404]).replace(",0\n", ",-5\n"))
     assert spec.y[0] == -5.0
+
+
+def test_spectrum_with_one_duplicated_row_is_not_silently_a_peak_list():
+    xs = [400.0 + i for i in range(80)]
+    xs[40] = xs[39]
+    text = "wavelength (nm),counts\n" + "".join(f"{v},1\n" for v in xs)
+    assert sniff(text)["kind"] == "spectrum"
+    with pytest.raises(ValueRangeError, match="row 42 repeats"):  # index 40 + header + 1-based
+        read_any(text)

@@ -658,10 +658,16 @@ def _guess_kind(parsed: _Parsed, block: int | str | None) -> tuple[str, str]:
         return "peak_list", "position column could not be read as evenly spaced numbers"
     d = np.diff(x)
     d = d[np.isfinite(d)]
-    if d.size and (np.all(d > 0) or np.all(d < 0)):
-        a = np.abs(d)
-        if a.max() <= 3.0 * a.min():
-            return "spectrum", f"{cols.n_rows} evenly spaced rows"
+    # Mostly monotonic and evenly stepped means a sampled spectrum; a few bad steps
+    # (a duplicated or out-of-order row) must still reach the spectrum checks, which
+    # name the row, instead of silently becoming a peak list.
+    if d.size:
+        up, down = np.count_nonzero(d > 0), np.count_nonzero(d < 0)
+        steps = np.abs(d[d > 0] if up >= down else d[d < 0])
+        if max(up, down) >= 0.95 * d.size and steps.size:
+            lo, hi = np.percentile(steps, [5.0, 95.0])
+            if hi <= 3.0 * lo:
+                return "spectrum", f"{cols.n_rows} evenly spaced rows"
     return "peak_list", "positions are irregularly spaced"
 
 
@@ -843,9 +849,11 @@ def read_any(
     """Read a peak list or a spectrum, deciding which from the content.
 
     JCAMP-DX is recognised by its leading ``##TITLE=``, Parquet by its magic
-    bytes. A delimited table with at least 50 monotonic, evenly spaced rows
-    (largest step at most 3× the smallest) and no peak columns (fwhm, area,
-    snr) is a spectrum; anything else is a peak list. ``kind`` forces the choice.
+    bytes. A delimited table with at least 50 rows whose positions step
+    (nearly: ≥ 95 % of steps) one way, evenly (95th-percentile step at most 3×
+    the 5th), and no peak columns (fwhm, area, snr) is a spectrum, whose
+    stricter checks then name any duplicated or out-of-order row; anything
+    else is a peak list. ``kind`` forces the choice.
 
     Parameters
     ----------

@@ -3,9 +3,11 @@
 Pipeline (all vectorised over the spectrum and over the peaks):
 
 1. Baseline (emission) or continuum (absorption) by SNIP or ALS
-   (:mod:`workbench.peaks.baseline`). Absorption dips are found on the
-   inverted, continuum-normalised signal: depth = 1 − y / continuum (or
-   continuum − y where the continuum is not positive).
+   (:mod:`workbench.peaks.baseline`). Absorption dips are detected on the
+   inverted signal continuum − y (uniform noise) and measured on the
+   continuum-normalised depth 1 − y / continuum (when the continuum is
+   positive), so their intensity is a fraction of the continuum and their
+   area an equivalent width.
 2. Noise σ by the robust first-difference MAD (:mod:`workbench.peaks.noise`).
 3. :func:`scipy.signal.find_peaks` with height ≥ k·σ *and* prominence ≥ k·σ
    (k = ``min_snr``). Prominence alone would accept the largest noise
@@ -216,13 +218,17 @@ def find_peaks(
         intensity_unit = spectrum.y_label
     else:
         base = -estimate_baseline(-y, prm.baseline, sigma=sigma_raw, **kw)  # continuum
-        if prm.baseline is not None and np.all(base > 0):
-            s = 1.0 - y / base
-            intensity_unit = "fraction of continuum"
-        else:
-            s = base - y
-            intensity_unit = spectrum.y_label
+        s = base - y
+        intensity_unit = spectrum.y_label
     sigma = noise_sigma(s)
+    # Dips are *detected* on continuum − y, whose noise is uniform; dividing by the
+    # continuum would scale the noise by 1/continuum and make a k·σ threshold vary
+    # along the spectrum. Heights, widths and areas are then measured on the
+    # continuum-normalised depth 1 − y/continuum (area = equivalent width).
+    s_measure = s
+    if prm.mode == "absorption" and prm.baseline is not None and np.all(base > 0):
+        s_measure = 1.0 - y / base
+        intensity_unit = "fraction of continuum"
     axis = spectrum.axis
     pos_col, fwhm_col = AXIS_COLUMN[axis], FWHM_COLUMN[axis]
     extra: dict[str, object] = {
@@ -250,14 +256,18 @@ def find_peaks(
             }
         )
         return PeakList(table, axis, spectrum.medium, spectrum.source, prm.mode, extra)  # type: ignore[arg-type]
-    fidx, height = refine_centres(s, idx)
+    _, height_detect = refine_centres(s, idx)
+    fidx, height = refine_centres(s_measure, idx)
     grid = np.arange(n, dtype=np.float64)
     centre = np.interp(fidx, grid, x)
     # peak_widths measures at s[peak] − rel_height·prominence; choosing the
     # "prominence" 2·s[peak] − h puts the line at h/2, the interpolated half maximum.
-    prom = np.maximum(2.0 * s[idx] - height, 1e-300)
+    prom = np.maximum(2.0 * s_measure[idx] - height, 1e-300)
     _, _, left_ips, right_ips = peak_widths(
-        s, idx, rel_height=0.5, prominence_data=(prom, props["left_bases"], props["right_bases"])
+        s_measure,
+        idx,
+        rel_height=0.5,
+        prominence_data=(prom, props["left_bases"], props["right_bases"]),
     )
     x_left = np.interp(left_ips, grid, x)
     x_right = np.interp(right_ips, grid, x)
@@ -265,7 +275,7 @@ def find_peaks(
     saturated = _saturation(y, idx, left_ips, right_ips, prm)
     if saturated.any():
         centre = _plateau_centres(y, x, idx, left_ips, right_ips, saturated, centre, prm)
-    cum = np.concatenate(([0.0], np.cumsum(0.5 * (s[1:] + s[:-1]) * np.diff(x))))
+    cum = np.concatenate(([0.0], np.cumsum(0.5 * (s_measure[1:] + s_measure[:-1]) * np.diff(x))))
     area = np.interp(centre + fwhm, x, cum) - np.interp(centre - fwhm, x, cum)
     table = pl.DataFrame(
         {
@@ -273,7 +283,7 @@ def find_peaks(
             "intensity": height,
             fwhm_col: fwhm,
             "area": area,
-            "snr": height / sigma,
+            "snr": height_detect / sigma,
             "saturated": saturated,
         }
     )
