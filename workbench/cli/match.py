@@ -74,8 +74,10 @@ def params_from_args(args: argparse.Namespace):
         tol = ToleranceSpec("fixed", args.tolerance_eV)
     elif args.fwhm_factor is not None:
         tol = ToleranceSpec("fwhm", args.fwhm_factor)
+    elif args.resolving_power is not None:
+        tol = ToleranceSpec("resolving_power", args.resolving_power)
     else:
-        tol = ToleranceSpec("resolving_power", args.resolving_power or 5000.0)
+        tol = ToleranceSpec("auto")
     elements = None
     if args.elements:
         elements = tuple(sorted({e.strip() for e in args.elements.split(",") if e.strip()}))

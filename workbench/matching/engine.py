@@ -6,7 +6,9 @@ Flow of :func:`match_peaks`:
 2. Reference lines in the observed range, expected strengths at the working
    temperature (:mod:`~workbench.matching.expected`).
 3. Evidence pass 1, all species competing; pass 2, competition restricted
-   to species that reached "possible" (:mod:`~workbench.matching.evidence`).
+   to species with real support in pass 1 — "probable" or better, or
+   "possible" with a chance probability ≤ 0.01
+   (:mod:`~workbench.matching.evidence`).
 4. Emission without a given temperature: a Boltzmann-plot estimate from the
    best-identified species; when it differs from the working value by more
    than 10 %, steps 2–3 are repeated once at the estimate.
@@ -82,6 +84,8 @@ class MatchParameters:
         For the McWhirter check; unknown when ``None``.
     share_ratio : float
         A second species explains a peak too when predicted at ≥ this × the best.
+    max_ion : int or None
+        Highest ion stage considered (2 = I and II); ``None`` for all stages.
     """
 
     tolerance: ToleranceSpec = field(default_factory=ToleranceSpec)
@@ -98,6 +102,7 @@ class MatchParameters:
     apply_calibration: bool = False
     electron_density_per_cm3: float | None = None
     share_ratio: float = 0.2
+    max_ion: int | None = 2
 
     def __post_init__(self) -> None:
         t = self.temperature_K
@@ -148,14 +153,18 @@ _INDEX_CACHE: dict[tuple, ReferenceIndex] = {}
 
 
 def build_index(
-    sets: Sequence[Any], axis: str, medium: str | None, elements: Sequence[str] | None = None
+    sets: Sequence[Any],
+    axis: str,
+    medium: str | None,
+    elements: Sequence[str] | None = None,
+    max_ion: int | None = 2,
 ) -> ReferenceIndex:
-    """Reference index for these sets, cached by set ids, hashes, axis, medium and elements."""
+    """Reference index for these sets, cached by set ids, hashes and the other arguments."""
     els = tuple(sorted(elements)) if elements else None
-    key = (tuple((s.id, s.sha256) for s in sets), axis, medium, els)
+    key = (tuple((s.id, s.sha256) for s in sets), axis, medium, els, max_ion)
     index = _INDEX_CACHE.get(key)
     if index is None:
-        index = ReferenceIndex.from_sets(list(sets), axis, medium, els)
+        index = ReferenceIndex.from_sets(list(sets), axis, medium, els, max_ion=max_ion)
         if len(_INDEX_CACHE) >= 16:
             _INDEX_CACHE.pop(next(iter(_INDEX_CACHE)))
         _INDEX_CACHE[key] = index
@@ -178,7 +187,8 @@ def _observed(peaks: PeakList, params: MatchParameters) -> ObservedLines:
     fwhm = (
         t[fwhm_col].cast(pl.Float64).fill_null(np.nan).to_numpy() if fwhm_col in t.columns else None
     )
-    tol = params.tolerance.half_window(x, fwhm)
+    spec = params.tolerance.resolve(peaks.axis, fwhm)
+    tol = spec.half_window(x, fwhm)
     sat = (
         t["saturated"].fill_null(False).to_numpy().astype(bool)
         if "saturated" in t.columns
@@ -222,7 +232,14 @@ def _run_passes(
         missing_factor=params.missing_factor,
     )
     first = gather_evidence(obs, index, strengths, in_range, **kw)
-    plausible = {c for c, ev in first.evidence.items() if ev.level >= 1}
+    # Species that may compete for a peak in the second pass: those with real
+    # support, not every species that happens to have one line in some window
+    # (in a dense line list many do, and would make every line "shared").
+    plausible = {
+        c
+        for c, ev in first.evidence.items()
+        if ev.level >= 2 or (ev.level >= 1 and ev.chance_probability <= 0.01)
+    }
     return gather_evidence(obs, index, strengths, in_range, plausible=plausible, **kw)
 
 
@@ -269,7 +286,7 @@ def match_peaks(
             f"use --mode {peaks.mode}, or find the peaks again in {params.mode} mode",
         )
     obs = _observed(peaks, params)
-    index = build_index(sets, peaks.axis, peaks.medium, params.elements)
+    index = build_index(sets, peaks.axis, peaks.medium, params.elements, params.max_ion)
     x_range = peaks.extra.get("x_range") if isinstance(peaks.extra, dict) else None
     if x_range:
         lo, hi = float(x_range[0]), float(x_range[1])

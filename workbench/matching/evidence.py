@@ -10,6 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import stats
 
 from workbench.matching.candidates import CandidatePairs, find_candidates
 from workbench.matching.reference import ReferenceIndex
@@ -27,6 +28,7 @@ class ObservedLines:
     half_window: np.ndarray
     saturated: np.ndarray  # bool
     detection_limit: float | None  # intensity units; None when intensities are unknown
+    tolerance: object = None  # the resolved ToleranceSpec
 
 
 @dataclass
@@ -99,8 +101,14 @@ def gather_evidence(
     n_obs = obs.position.size
     comp_keys = np.unique(pairs.obs[competes].astype(np.int64) * index.n_species + sp[competes])
     comp_peak = comp_keys // index.n_species
-    comp_species = comp_keys % index.n_species
     n_comp = np.bincount(comp_peak, minlength=n_obs)
+
+    def competes_at(peaks_: np.ndarray, code_: int) -> np.ndarray:
+        # Is (peak, code) among the competing keys? Binary search in the sorted keys.
+        q = peaks_.astype(np.int64) * index.n_species + code_
+        pos = np.searchsorted(comp_keys, q)
+        pos = np.minimum(pos, max(comp_keys.size - 1, 0))
+        return comp_keys[pos] == q if comp_keys.size else np.zeros(q.size, dtype=bool)
 
     # Sort pairs by species once; slice per species.
     order = np.lexsort((np.abs(pairs.delta), ref, sp))
@@ -114,6 +122,11 @@ def gather_evidence(
     in_order = np.argsort(in_sp, kind="stable")
     in_idx = in_idx[in_order]
     in_sp = in_sp[in_order]
+
+    # Density of observed peaks, for the chance-coincidence probability.
+    span = float(obs.position[-1] - obs.position[0]) + 2.0 * float(np.median(obs.half_window))
+    density = n_obs / span if span > 0 else 0.0
+    sorted_intensity = np.sort(obs.intensity[np.isfinite(obs.intensity)])
 
     evidence: dict[int, SpeciesEvidence] = {}
     for code, a, b in zip(species_present, starts, ends, strict=True):
@@ -138,20 +151,23 @@ def gather_evidence(
         )
         e_found = e[lines]
         # A line is unique when no other competing species has a candidate at its peak.
-        own_competes = np.isin(best_peak, comp_peak[comp_species == code])
+        own_competes = competes_at(best_peak, code)
         others = n_comp[best_peak] - own_competes.astype(np.int64)
         unique = others == 0
         ev.found_lines = lines.tolist()
         ev.found_peaks = best_peak.tolist()
         ev.unique_lines = lines[unique].tolist()
         ev.shared_lines = lines[~unique].tolist()
-        ev.n_strong_found = int(np.sum(e_found >= strong_fraction))
+        # Counts are of distinct observed peaks: two lines of one species inside
+        # one unresolved peak are one piece of evidence, not two.
+        ev.n_strong_found = int(np.unique(best_peak[e_found >= strong_fraction]).size)
+        ev.n_unique_peaks = int(np.unique(best_peak[unique]).size)
 
         # Intensity scale: observed / expected at each matched peak (all of this
         # species' lines in a peak's window are summed: a blend).
         pk_all, inv = np.unique(p_obs, return_inverse=True)
         e_p = np.bincount(inv, weights=np.nan_to_num(e[p_ref], nan=0.0), minlength=pk_all.size)
-        peak_unique = n_comp[pk_all] - np.isin(pk_all, comp_peak[comp_species == code]) == 0
+        peak_unique = n_comp[pk_all] - competes_at(pk_all, code) == 0
         I_p = obs.intensity[pk_all]
         good = np.isfinite(I_p) & (I_p > 0) & (e_p > 0) & ~obs.saturated[pk_all]
         use = good & peak_unique if np.any(good & peak_unique) else good
@@ -170,9 +186,55 @@ def gather_evidence(
             predicted = np.where(finite, e_lines, 0.0)
             visible = e_lines >= strong_fraction
         missing = visible & ~found_mask & finite
+        if np.any(missing):
+            # A line without its own peak may be hidden in the wing of a stronger
+            # neighbour (peak finders resolve shoulders poorly): not "missing"
+            # when an observed peak at least as strong as predicted lies within
+            # 3 half-windows.
+            cand = sp_lines[missing]
+            xc = index.position[cand]
+            w = 3.0 * np.interp(xc, obs.position, obs.half_window)
+            lo_i = np.searchsorted(obs.position, xc - w, side="left")
+            hi_i = np.searchsorted(obs.position, xc + w, side="right")
+            strongest = (
+                np.array(
+                    [
+                        np.nanmax(obs.intensity[a:b]) if b > a else -np.inf
+                        for a, b in zip(lo_i, hi_i, strict=True)
+                    ]
+                )
+                if obs.detection_limit is not None
+                else np.full(cand.size, -np.inf)
+            )
+            masked_local = strongest >= predicted[missing]
+            masked = np.zeros_like(missing)
+            masked[np.flatnonzero(missing)[masked_local]] = True
+            ev.masked_lines = sp_lines[masked].tolist()
+            missing &= ~masked
+            visible &= ~masked
         miss_order = np.argsort(-predicted[missing], kind="stable")
         ev.missing_lines = sp_lines[missing][miss_order].tolist()
         ev.missing_predicted = predicted[missing][miss_order].tolist()
+        # Chance coincidence: with peaks scattered at this density, each strong
+        # line would have a peak in its window with p = 1 - exp(-ρ·2·tol).
+        strong_mask = finite & (e_lines >= strong_fraction)
+        if ev.masked_lines:
+            strong_mask &= ~np.isin(sp_lines, ev.masked_lines)
+        n_strong = int(np.sum(strong_mask))
+        k_strong = int(np.sum(strong_mask & found_mask))
+        if n_strong and k_strong:
+            tol_l = np.interp(index.position[sp_lines[strong_mask]], obs.position, obs.half_window)
+            rho = np.full(tol_l.size, density)
+            if ev.scale is not None and sorted_intensity.size:
+                # Only peaks of comparable strength (≥ 30 % of the prediction)
+                # could pass for the line: a strong line is rarely matched by
+                # chance when strong peaks are few.
+                thr = 0.3 * ev.scale * e_lines[strong_mask]
+                n_ge = sorted_intensity.size - np.searchsorted(sorted_intensity, thr, "left")
+                rho = n_ge / span
+            p = float(np.mean(1.0 - np.exp(-rho * 2.0 * tol_l)))
+            ev.chance_probability = float(stats.binom.sf(k_strong - 1, n_strong, p))
+        ev.missing_strong = [i for i in ev.missing_lines if e[i] >= strong_fraction]
         denom_mask = finite & (visible | found_mask)
         denom = float(np.sum(e_lines[denom_mask]))
         if denom > 0:

@@ -110,6 +110,7 @@ class ReferenceIndex:
         medium: str | None,
         elements: Sequence[str] | None = None,
         position_range: tuple[float, float] | None = None,
+        max_ion: int | None = 2,
     ) -> ReferenceIndex:
         """Build the index from loaded reference sets.
 
@@ -128,6 +129,9 @@ class ReferenceIndex:
             Restrict to these element symbols.
         position_range : (float, float), optional
             Keep only lines inside this range (axis unit).
+        max_ion : int or None
+            Highest ion stage kept (2: neutral and singly ionised, the stages
+            that dominate LIBS, spark and ICP spectra); ``None`` keeps all.
 
         Returns
         -------
@@ -148,6 +152,8 @@ class ReferenceIndex:
             t = s.table
             if elements:
                 t = t.filter(pl.col("element").is_in(list(elements)))
+            if max_ion is not None and "ion" in t.columns:
+                t = t.filter(pl.col("ion").is_null() | (pl.col("ion") <= max_ion))
             frames.append(t.with_columns(pl.lit(s.id).alias("_set_id")))
             provenance.append(s.provenance())
         table = pl.concat(frames, how="diagonal_relaxed")
@@ -185,6 +191,22 @@ class ReferenceIndex:
         table = table.with_columns(pl.col("_pos").round(5).alias("_pos_key")).unique(
             subset=["_species_key", "_pos_key"], keep="first", maintain_order=True
         )
+        # Isotope and hyperfine components listed separately with the same
+        # atomic data (Morton lists 24/25/26Mg II 279.55 each with the full A)
+        # would count one line several times: collapse same-species rows closer
+        # than 0.002 nm (or 0.5 eV) with equal g_upper, A and E_upper.
+        near = 0.002 if axis == "wavelength" else 0.5
+        table = table.sort(["_species_key", "_pos", "line_id"])
+        same_prev = (pl.col("_species_key") == pl.col("_species_key").shift(1)) & (
+            (pl.col("_pos") - pl.col("_pos").shift(1)) < near
+        )
+        for c in ("g_upper", "A_ki_per_s", "E_upper_eV"):
+            if c in table.columns:
+                same_prev = same_prev & (
+                    (pl.col(c).is_null() & pl.col(c).shift(1).is_null())
+                    | ((pl.col(c) - pl.col(c).shift(1)).abs() <= 1e-3 * pl.col(c).abs())
+                )
+        table = table.filter(~same_prev.fill_null(False))
         table = table.sort(["_pos", "_species_key", "line_id"])
         keys = table["_species_key"].to_list()
         names_sorted = sorted(set(keys))

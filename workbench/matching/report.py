@@ -132,7 +132,10 @@ def build_report(result: MatchResult) -> dict[str, Any]:
                 "n_lines_in_range": ev.n_lines_in_range,
                 "n_strong_in_range": ev.n_strong_in_range,
                 "n_strong_found": ev.n_strong_found,
-                "n_unique_found": len(ev.unique_lines),
+                "n_unique_found": ev.n_unique_peaks,
+                "n_missing_strong": len(ev.missing_strong),
+                "n_masked": len(ev.masked_lines),
+                "chance_probability": _num(ev.chance_probability),
                 "pattern_r": _num(ev.pattern_r) if ev.pattern_r is not None else None,
                 "intensity_scale": _num(ev.scale) if ev.scale is not None else None,
                 "matched_lines": matched,
@@ -202,7 +205,8 @@ def build_report(result: MatchResult) -> dict[str, Any]:
             if isinstance(peaks.extra, dict)
             else None,
         },
-        "parameters": result.parameters.to_dict(),
+        "parameters": result.parameters.to_dict()
+        | {"tolerance_resolved": obs.tolerance.to_dict() if obs.tolerance else None},
         "reference_sets": [dict(p) for p in idx.provenance],
         "calibration": result.scale.to_dict(),
         "temperature": {
@@ -313,7 +317,7 @@ def summary_text(report: dict[str, Any], max_lines: int = 40) -> str:
         out.append(
             f"{el['species']:<10} {el['verdict']:<14} {el['score']:>5.2f} "
             f"{el['n_strong_found']:>3}/{el['n_strong_in_range']:<3} "
-            f"{el['n_unique_found']:>4} {len(el['missing_lines']):>4}  {lines}"
+            f"{el['n_unique_found']:>4} {el['n_missing_strong']:>4}  {lines}"
         )
     if report["warnings"]:
         out.append("")

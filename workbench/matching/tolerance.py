@@ -14,6 +14,14 @@ line at ``r`` is a candidate for an observed line at ``x`` when
     ``tol = k · FWHM_i`` from each peak's measured width (``k = 0.5``:
     a line inside the peak's half-maximum span).
 
+``auto`` (the default)
+    ``fwhm`` with k = 0.5 when the peaks carry measured widths (raw spectra
+    after peak finding); otherwise R = 5000 on a wavelength axis (a typical
+    echelle or 0.5 m spectrograph; common practice, no source) or a fixed
+    50 eV on an energy axis (half the ~150 eV FWHM of a silicon-drift
+    detector at Mn Kα; common practice, no source). The engine records
+    which rule it used.
+
 A floor (``min_value``) keeps the window from collapsing for very narrow or
 missing widths; the floor also absorbs residual wavelength-scale error.
 """
@@ -36,7 +44,7 @@ class ToleranceSpec:
 
     Attributes
     ----------
-    kind : {"fixed", "resolving_power", "fwhm"}
+    kind : {"auto", "fixed", "resolving_power", "fwhm"}
         Rule used (see module docstring).
     value : float
         The fixed half-window (axis unit), the resolving power R, or the
@@ -47,16 +55,16 @@ class ToleranceSpec:
         Floor of the half-window in the axis unit.
     """
 
-    kind: Literal["fixed", "resolving_power", "fwhm"] = "resolving_power"
-    value: float = 5000.0
+    kind: Literal["auto", "fixed", "resolving_power", "fwhm"] = "auto"
+    value: float = 0.5
     factor: float = 1.0
     min_value: float = 0.0
 
     def __post_init__(self) -> None:
-        if self.kind not in ("fixed", "resolving_power", "fwhm"):
+        if self.kind not in ("auto", "fixed", "resolving_power", "fwhm"):
             raise ValueRangeError(
                 f"unknown tolerance kind {self.kind!r}",
-                "use 'fixed', 'resolving_power' or 'fwhm'",
+                "use 'auto', 'fixed', 'resolving_power' or 'fwhm'",
             )
         if not np.isfinite(self.value) or self.value <= 0:
             raise ValueRangeError(
@@ -73,6 +81,17 @@ class ToleranceSpec:
                 f"resolving power {self.value:g} is implausibly low",
                 "give R = λ/Δλ (typically 500–100000), or use a fixed tolerance",
             )
+
+    def resolve(self, axis: str, fwhm: np.ndarray | None) -> ToleranceSpec:
+        """The concrete rule ``auto`` stands for with these data (others: unchanged)."""
+        if self.kind != "auto":
+            return self
+        if fwhm is not None and np.any(np.isfinite(fwhm) & (fwhm > 0)):
+            floor = self.min_value
+            return ToleranceSpec("fwhm", self.value, min_value=floor)
+        if axis == "energy":
+            return ToleranceSpec("fixed", 50.0, min_value=self.min_value)
+        return ToleranceSpec("resolving_power", 5000.0, min_value=self.min_value)
 
     def half_window(self, positions: np.ndarray, fwhm: np.ndarray | None = None) -> np.ndarray:
         """Half-window for each observed position.
@@ -92,6 +111,11 @@ class ToleranceSpec:
             Half-window per position, in the axis unit.
         """
         x = np.asarray(positions, dtype=np.float64)
+        if self.kind == "auto":
+            raise ValueRangeError(
+                "an 'auto' tolerance must be resolved against the data first",
+                "call ToleranceSpec.resolve(axis, fwhm) before half_window",
+            )
         if self.kind == "fixed":
             tol = np.full_like(x, self.value)
         elif self.kind == "resolving_power":

@@ -1,0 +1,264 @@
+"""Invented demonstration data: two scenarios, their spectra and a seeded case.
+
+Everything here is INVENTED for demonstration and testing. The laboratory,
+cases, people, vehicles and artworks do not exist; the spectra are
+synthesised from the shipped reference sets with
+:mod:`workbench.physics.synth` and are labelled as synthetic in their headers.
+
+Scenarios
+---------
+``paint_chip`` (case NRFL-2026-0417, an invented hit-and-run)
+    A LIBS spectrum (240–620 nm, air wavelengths, R ≈ 5000, T = 9000 K) of
+    a red paint chip recovered from a cyclist's jacket: titanium and
+    barium (white pigment and filler), calcium, iron, chromium and silicon,
+    with a little magnesium, on a sloping continuum with noise.
+``white_pigment`` (case NRFL-2026-0502, an invented attribution query)
+    An XRF spectrum (1–20 keV) of the white ground of the painting
+    "Harbour at Dusk", claimed to be by the invented painter Ilse Varga and
+    dated 1850: lead, zinc and titanium lines — titanium white would be an
+    anachronism for 1850 if confirmed by a compound-specific method.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+__all__ = [
+    "DEMO_CASES",
+    "DEMO_LAB",
+    "SCENARIOS",
+    "DemoScenario",
+    "demo_file",
+    "seed_demo_case",
+]
+
+#: The invented laboratory used on demo findings sheets.
+DEMO_LAB: dict[str, str] = {
+    "name": "Northbridge Regional Forensic Laboratory (invented)",
+    "address": "14 Quarry Lane, Northbridge (invented)",
+    "accreditation": "demonstration only — not an accredited laboratory",
+}
+
+
+@dataclass(frozen=True)
+class DemoScenario:
+    """Recipe of one invented spectrum."""
+
+    key: str
+    title: str
+    axis: str
+    species: dict[str, float]  # species label → relative abundance (invented)
+    x_range: tuple[float, float]
+    n_points: int
+    temperature_K: float | None
+    resolving_power: float | None
+    fwhm: float | None
+    noise_sigma: float
+    seed: int
+    filename: str
+    header: str
+
+
+SCENARIOS: dict[str, DemoScenario] = {
+    "paint_chip": DemoScenario(
+        key="paint_chip",
+        title="LIBS, red paint chip from jacket (invented)",
+        axis="wavelength",
+        species={
+            "Ti II": 3.0,
+            "Ti I": 1.0,
+            "Ba II": 2.5,
+            "Ca II": 1.5,
+            "Ca I": 0.4,
+            "Fe I": 1.2,
+            "Cr I": 0.8,
+            "Si I": 0.6,
+            "Mg II": 0.5,
+            "Mg I": 0.3,
+        },
+        x_range=(240.0, 620.0),
+        n_points=38_001,
+        temperature_K=9000.0,
+        resolving_power=5000.0,
+        fwhm=None,
+        noise_sigma=0.01,
+        seed=417,
+        filename="NRFL-2026-0417_item2_LIBS.csv",
+        header="# SYNTHETIC DEMO SPECTRUM - INVENTED DATA, NOT A MEASUREMENT\n"
+        "# instrument: demo LIBS (invented)\n"
+        "# medium: air\n"
+        "wavelength (nm),intensity\n",
+    ),  # fmt: skip
+    "white_pigment": DemoScenario(
+        key="white_pigment",
+        title="XRF, white ground of 'Harbour at Dusk' (invented)",
+        axis="energy",
+        species={"Pb L": 3.0, "Pb M": 0.5, "Zn K": 1.2, "Ti K": 1.0, "Ca K": 0.4, "Fe K": 0.2},
+        x_range=(1000.0, 20000.0),
+        n_points=4096,
+        temperature_K=None,
+        resolving_power=None,
+        fwhm=160.0,
+        noise_sigma=0.01,
+        seed=502,
+        filename="NRFL-2026-0502_item1_XRF.csv",
+        header="# SYNTHETIC DEMO SPECTRUM - INVENTED DATA, NOT A MEASUREMENT\n"
+        "# instrument: demo handheld XRF (invented)\n"
+        "energy (keV),counts\n",
+    ),
+}
+
+
+def _lines(scn: DemoScenario) -> tuple[np.ndarray, np.ndarray]:
+    from workbench.matching.engine import build_index
+    from workbench.matching.expected import expected_strengths
+    from workbench.refdata import load_set
+
+    set_id = "optical" if scn.axis == "wavelength" else "xray"
+    medium = "air" if scn.axis == "wavelength" else None
+    index = build_index([load_set(set_id)], scn.axis, medium)
+    lo, hi = scn.x_range
+    in_range = (index.position >= lo) & (index.position <= hi)
+    strength = expected_strengths(index, scn.temperature_K or 10_000.0, "emission", in_range)
+    names = np.array(index.species_names, dtype=object)[index.species]
+    abundance = np.array([scn.species.get(n, 0.0) for n in names])
+    amp = np.nan_to_num(strength) * abundance
+    keep = in_range & (amp >= 5e-4)
+    pos = index.position[keep]
+    # The synthesiser takes line areas; scale by the width so that `amp` is
+    # the peak height, as a spectrometer would show it.
+    width = pos / scn.resolving_power if scn.resolving_power else np.full(pos.size, scn.fwhm)
+    return pos, amp[keep] * width * 1.0645
+
+
+def demo_file(key: str) -> bytes:
+    """Bytes of the invented demo spectrum ``key`` (a CSV with a labelled header).
+
+    Parameters
+    ----------
+    key : {"paint_chip", "white_pigment"}
+        Scenario.
+
+    Returns
+    -------
+    bytes
+        Deterministic CSV bytes (the same on every machine for a given code
+        and reference-data version).
+    """
+    from workbench.physics.synth import synthetic_spectrum
+
+    scn = SCENARIOS[key]
+    pos, amp = _lines(scn)
+    rng_seed = scn.seed
+    if scn.axis == "wavelength":
+
+        def continuum(x: np.ndarray) -> np.ndarray:
+            return 0.2 + 0.3 * (x - scn.x_range[0]) / (scn.x_range[1] - scn.x_range[0])
+
+        spec = synthetic_spectrum(pos, amp, axis="wavelength", medium="air", x_range=scn.x_range,
+                                  n_points=scn.n_points, resolving_power=scn.resolving_power,
+                                  noise_sigma=scn.noise_sigma, continuum=continuum, seed=rng_seed)  # fmt: skip
+        x, y = spec.x, spec.y * 1000.0
+        body = "".join(f"{a:.5f},{b:.2f}\n" for a, b in zip(x, y, strict=True))
+    else:
+
+        def continuum(x: np.ndarray) -> np.ndarray:
+            # Bremsstrahlung-like hump (invented shape).
+            return 0.05 * np.exp(-(((x - 9000.0) / 6000.0) ** 2))
+
+        spec = synthetic_spectrum(pos, amp, axis="energy", medium=None, x_range=scn.x_range,
+                                  n_points=scn.n_points, fwhm=scn.fwhm,
+                                  noise_sigma=scn.noise_sigma, continuum=continuum, seed=rng_seed)  # fmt: skip
+        x, y = spec.x / 1000.0, np.maximum(spec.y * 2000.0, 0.0)
+        body = "".join(f"{a:.5f},{b:.1f}\n" for a, b in zip(x, y, strict=True))
+    return (scn.header + body).encode("utf-8")
+
+
+#: The invented cases seeded by :func:`seed_demo_case`.
+DEMO_CASES: list[dict[str, Any]] = [
+    {
+        "case_number": "NRFL-2026-0417",
+        "title": "Hit-and-run, Millbrook Road — paint transfer (invented)",
+        "requesting_party": "Northbridge Constabulary, Roads Unit (invented)",
+        "items": [
+            {"item_number": "1", "description": "Cyclist's jacket, left sleeve with red paint "
+             "smear (invented)", "seals": ["NB-448120"], "from": "PC Aled Rhys (invented)"},
+            {"item_number": "2", "description": "Red paint chip lifted from item 1 (invented)",
+             "parent": "1"},
+            {"item_number": "3", "description": "Paint reference sample, front wing of vehicle "
+             "KX19 NRF (invented)", "seals": ["NB-448133"], "from": "PC Aled Rhys (invented)"},
+        ],
+        "measurement": {"item": "2", "scenario": "paint_chip", "technique": "LIBS",
+                        "instrument": "Demo LIBS bench, 1064 nm Nd:YAG (invented)",
+                        "settings": {"pulse_energy_mJ": 30, "gate_delay_us": 1.0,
+                                     "gate_width_us": 10.0, "accumulations": 20}},
+    },
+    {
+        "case_number": "NRFL-2026-0502",
+        "title": "Attribution query, 'Harbour at Dusk' (invented)",
+        "requesting_party": "Marrow & Pike Fine Art, insurers (invented)",
+        "items": [
+            {"item_number": "1", "description": "Painting 'Harbour at Dusk', oil on canvas, "
+             "attributed to Ilse Varga, dated 1850 (invented)", "seals": [],
+             "from": "Marrow & Pike Fine Art (invented)"},
+        ],
+        "measurement": {"item": "1", "scenario": "white_pigment", "technique": "XRF",
+                        "instrument": "Demo handheld XRF, Rh tube 40 kV (invented)",
+                        "settings": {"tube_kV": 40, "tube_uA": 20, "live_time_s": 60,
+                                     "spot": "white ground, lower left"}},
+    },
+]  # fmt: skip
+
+_ANALYST = "Dr Mirela Okafor (invented)"
+
+
+def seed_demo_case(store: Any) -> dict[str, Any]:
+    """Create the invented demo cases in ``store`` (idempotent).
+
+    Parameters
+    ----------
+    store : workbench.casefile.CaseStore
+        An open store.
+
+    Returns
+    -------
+    dict
+        ``{"cases": [case numbers], "measurements": {case number: measurement id},
+        "created": bool}``.
+    """
+    from workbench.errors import NotFoundError
+
+    out: dict[str, Any] = {"cases": [], "measurements": {}, "created": False}
+    for case in DEMO_CASES:
+        number = case["case_number"]
+        out["cases"].append(number)
+        try:
+            store.get_case(number)
+            existing = store.list_measurements(case_number=number)
+            if existing:
+                out["measurements"][number] = existing[0].id
+            continue
+        except NotFoundError:
+            pass
+        out["created"] = True
+        store.create_case(number, case["title"], case["requesting_party"],
+                          created_at="2026-11-20T09:00:00Z")  # fmt: skip
+        for i, item in enumerate(case["items"]):
+            at = f"2026-11-20T{10 + i:02d}:00:00Z"
+            if item.get("parent"):
+                store.add_item(number, item["item_number"], item["description"],
+                               parent_item=item["parent"], received_by=_ANALYST, at=at)  # fmt: skip
+            else:
+                store.add_item(number, item["item_number"], item["description"],
+                               seal_numbers=item["seals"], storage_location="Store B, shelf 4",
+                               received_by=_ANALYST, received_from=item["from"], at=at)  # fmt: skip
+        m = case["measurement"]
+        scn = SCENARIOS[m["scenario"]]
+        rec = store.add_measurement((number, m["item"]), demo_file(scn.key), scn.filename,
+                                    m["technique"], m["instrument"], m["settings"], _ANALYST,
+                                    "2026-11-21T14:30:00Z")  # fmt: skip
+        out["measurements"][number] = rec.id
+    return out
