@@ -8,6 +8,8 @@ input, not as check values.
 from __future__ import annotations
 
 import copy
+import json
+from pathlib import Path
 from typing import Any
 
 # Invented engine result in the schema_version 1 shape described by the lead.
@@ -149,3 +151,46 @@ def make_content_kwargs(**overrides: Any) -> dict[str, Any]:
     }
     kwargs.update(overrides)
     return kwargs
+
+
+def make_store(root: Path, public_keys: dict[str, bytes]) -> Any:
+    """Open a new case store holding the invented case, one analysis and the given analysts."""
+    from workbench.casefile import CaseStore
+
+    st = CaseStore.open(root)
+    st.create_case(
+        "HFC-2026-0042",
+        "Warehouse fire, Dock 7",
+        "Portwick Police (invented)",
+        created_at="2026-03-01T09:00:00Z",
+    )
+    st.add_item(
+        "HFC-2026-0042",
+        "3",
+        "swab from door handle",
+        seal_numbers=["S-881"],
+        received_by="Zoë Ångström",
+        received_from="DC Bjørn Łukasz",
+        at="2026-03-01T10:00:00Z",
+    )
+    m = st.add_measurement(
+        "HFC-2026-0042/3",
+        b"wavelength_nm,intensity\n405.78,1000\n",
+        "item-3_swab_LIBS.csv",
+        "LIBS",
+        "Bench LIBS #2",
+        {"gate_delay_us": 1.0},
+        "Zoë Ångström",
+        "2026-03-02T09:00:00Z",
+    )
+    st.add_analysis(
+        m.id,
+        parameters=RESULT["parameters"],
+        reference_sets=RESULT["reference_sets"],
+        result_json=json.dumps(RESULT).encode(),
+        software_version="0.1.0",
+        analyst="Zoë Ångström",
+    )
+    for name, pem in public_keys.items():
+        st.register_analyst(name, "examiner", pem)
+    return st

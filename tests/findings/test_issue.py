@@ -6,9 +6,8 @@ import json
 
 import pytest
 
-from tests.findings.findings_data import RESULT
+from tests.findings.findings_data import make_store
 from tests.findings.findings_pdftext import pages_text, squash
-from workbench.casefile import CaseStore
 from workbench.errors import KeyFileError, NotFoundError, SignatureInvalidError, SigningError
 from workbench.findings.issue import issue_findings_sheet
 from workbench.findings.keys import generate_key_pair
@@ -25,42 +24,10 @@ def keys():
 
 @pytest.fixture
 def store(tmp_path, keys):
-    st = CaseStore.open(tmp_path / "store")
-    st.create_case(
-        "HFC-2026-0042",
-        "Warehouse fire, Dock 7",
-        "Portwick Police (invented)",
-        created_at="2026-03-01T09:00:00Z",
+    st = make_store(
+        tmp_path / "store",
+        {"Zoë Ångström": keys[0].public_key_pem, "Bjørn Łukasz": keys[1].public_key_pem},
     )
-    st.add_item(
-        "HFC-2026-0042",
-        "3",
-        "swab from door handle",
-        seal_numbers=["S-881"],
-        received_by="Zoë Ångström",
-        received_from="DC Bjørn Łukasz",
-        at="2026-03-01T10:00:00Z",
-    )
-    m = st.add_measurement(
-        "HFC-2026-0042/3",
-        b"wavelength_nm,intensity\n405.78,1000\n",
-        "item-3_swab_LIBS.csv",
-        "LIBS",
-        "Bench LIBS #2",
-        {"gate_delay_us": 1.0},
-        "Zoë Ångström",
-        "2026-03-02T09:00:00Z",
-    )
-    st.add_analysis(
-        m.id,
-        parameters=RESULT["parameters"],
-        reference_sets=RESULT["reference_sets"],
-        result_json=json.dumps(RESULT).encode(),
-        software_version="0.1.0",
-        analyst="Zoë Ångström",
-    )
-    st.register_analyst("Zoë Ångström", "examiner", keys[0].public_key_pem)
-    st.register_analyst("Bjørn Łukasz", "examiner", keys[1].public_key_pem)
     yield st
     st.close()
 

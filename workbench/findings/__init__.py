@@ -17,6 +17,7 @@ from workbench.findings.content import (
     canonical_json,
     utc_timestamp,
 )
+from workbench.findings.issue import IssuedSheet, gather_sheet_inputs, issue_findings_sheet
 from workbench.findings.keys import (
     MIN_PASSPHRASE_LENGTH,
     KeyPair,
@@ -25,6 +26,7 @@ from workbench.findings.keys import (
     load_private_key,
     load_public_key,
     public_key_pem_of,
+    read_passphrase,
     save_key_pair,
 )
 from workbench.findings.sheet import render_pdf
@@ -44,17 +46,21 @@ __all__ = [
     "CONTENT_FORMAT",
     "MIN_PASSPHRASE_LENGTH",
     "SIGNATURE_FORMAT",
+    "IssuedSheet",
     "KeyPair",
     "SignedSheet",
     "VerificationResult",
     "build_sheet_content",
     "canonical_json",
     "fingerprint_of",
+    "gather_sheet_inputs",
     "generate_key_pair",
+    "issue_findings_sheet",
     "load_private_key",
     "load_public_key",
     "parse_signature_record",
     "public_key_pem_of",
+    "read_passphrase",
     "render_pdf",
     "save_key_pair",
     "sign_sheet",

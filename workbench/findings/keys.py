@@ -20,14 +20,19 @@ from workbench.errors import InputError, KeyFileError
 
 __all__ = [
     "MIN_PASSPHRASE_LENGTH",
+    "PASSPHRASE_ENV",
     "KeyPair",
     "fingerprint_of",
     "generate_key_pair",
     "load_private_key",
     "load_public_key",
     "public_key_pem_of",
+    "read_passphrase",
     "save_key_pair",
 ]
+
+#: Environment variable read for the passphrase when no file is given.
+PASSPHRASE_ENV: str = "WORKBENCH_PASSPHRASE"
 
 #: Shortest passphrase accepted for a new private key.
 MIN_PASSPHRASE_LENGTH: int = 8
@@ -327,4 +332,61 @@ def public_key_pem_of(private_key: object) -> bytes:
 
     return private_key.public_key().public_bytes(  # type: ignore[attr-defined]
         serialization.Encoding.PEM, serialization.PublicFormat.SubjectPublicKeyInfo
+    )
+
+
+def read_passphrase(
+    passphrase_file: str | os.PathLike[str] | None, *, confirm: bool = False
+) -> str:
+    """Get a passphrase without it ever appearing on a command line.
+
+    Sources, in order: the file ``passphrase_file`` (its first line; a
+    trailing newline is dropped), the environment variable
+    :data:`PASSPHRASE_ENV`, or an interactive prompt (``getpass``) when
+    standard input is a terminal.
+
+    Parameters
+    ----------
+    passphrase_file : path-like, optional
+        File holding the passphrase.
+    confirm : bool
+        Ask twice at the prompt (for a new key).
+
+    Returns
+    -------
+    str
+        The passphrase.
+
+    Raises
+    ------
+    InputError
+        If the file cannot be read.
+    KeyFileError
+        If no source gives a passphrase, or the two prompts differ.
+    """
+    import getpass
+    import sys
+
+    if passphrase_file is not None:
+        try:
+            text = Path(passphrase_file).read_text(encoding="utf-8")
+        except (OSError, UnicodeDecodeError) as exc:
+            raise InputError(
+                f"cannot read the passphrase file {passphrase_file} ({exc})",
+                "give a readable UTF-8 text file holding the passphrase on its first line",
+            ) from exc
+        lines = text.splitlines()
+        return lines[0] if lines else ""
+    env = os.environ.get(PASSPHRASE_ENV)
+    if env:
+        return env
+    if sys.stdin is not None and sys.stdin.isatty():
+        first = getpass.getpass("Passphrase: ")
+        if confirm and getpass.getpass("Passphrase again: ") != first:
+            raise KeyFileError("the two passphrases differ", "type the same passphrase twice")
+        return first
+    raise KeyFileError(
+        "no passphrase given",
+        f"use --passphrase-file FILE or set {PASSPHRASE_ENV} (it is never taken from the "
+        "command line)",
     )
