@@ -1,0 +1,92 @@
+"""Tests of workbench/app/_display.py: display decimation and figure builders."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from workbench.app._display import decimate_minmax, stick_figure, timeline_figure
+from workbench.errors import ValueRangeError
+
+
+def test_small_input_is_returned_unchanged():
+    x = np.linspace(1.0, 2.0, 100)
+    y = np.sin(x)
+    xd, yd = decimate_minmax(x, y, n_buckets=50)  # 100 ≤ 2·50: nothing to thin
+    np.testing.assert_array_equal(xd, x)
+    np.testing.assert_array_equal(yd, y)
+
+
+def test_million_points_keep_a_one_sample_spike_and_the_bounds():
+    rng = np.random.default_rng(20261202)
+    n = 1_000_000
+    x = np.linspace(200.0, 900.0, n)
+    y = rng.normal(0.0, 1.0, n)
+    y[123_457] = 1000.0  # a single-sample spike: plain striding would drop it
+    y[765_432] = -500.0  # a single-sample dip
+    xd, yd = decimate_minmax(x, y, n_buckets=2000)
+    assert xd.size <= 4000  # two points per bucket at most (definition of the method)
+    assert np.all(np.diff(xd) > 0)  # x order kept
+    assert yd.max() == 1000.0 and yd.min() == -500.0  # global extremes survive
+    assert x[123_457] in xd and x[765_432] in xd
+
+
+def test_each_bucket_keeps_its_minimum_and_maximum():
+    rng = np.random.default_rng(20261202)
+    x = np.sort(rng.uniform(0.0, 10.0, 5000))
+    y = rng.normal(size=5000)
+    n = 40
+    xd, yd = decimate_minmax(x, y, n_buckets=n)
+    # Brute force over the same equal-width buckets (common practice, no source).
+    b = np.minimum(((x - x[0]) / (x[-1] - x[0]) * n).astype(int), n - 1)
+    bd = np.minimum(((xd - x[0]) / (x[-1] - x[0]) * n).astype(int), n - 1)
+    for k in range(n):
+        sel = b == k
+        if not sel.any():
+            continue
+        assert yd[bd == k].max() == y[sel].max()
+        assert yd[bd == k].min() == y[sel].min()
+        assert np.sum(bd == k) <= 2
+
+
+def test_non_finite_points_are_dropped():
+    x = np.arange(10.0)
+    y = np.array([1, 2, np.nan, 4, 5, np.inf, 7, 8, 9, 10], dtype=float)
+    xd, yd = decimate_minmax(x, y, n_buckets=100)
+    assert xd.size == 8 and np.all(np.isfinite(yd))  # 10 points, 2 non-finite
+
+
+def test_bad_input_is_refused_with_a_workbench_error():
+    with pytest.raises(ValueRangeError, match="differ in shape"):
+        decimate_minmax(np.arange(3.0), np.arange(4.0))
+    with pytest.raises(ValueRangeError, match="n_buckets"):
+        decimate_minmax(np.arange(3.0), np.arange(3.0), n_buckets=0)
+
+
+def test_stick_figure_mirrors_references_below_the_axis_and_escapes_text():
+    observed = [{"position": 500.0, "height": 1.0, "status": "assigned", "assigned_to": "Qa I"}]
+    refs = [
+        {"species": "<b>Qa I</b>", "ion_stage": "I", "position": 500.01, "expected_rel": 0.8,
+         "line_id": "t:1", "transition": None},
+    ]  # fmt: skip
+    fig = stick_figure(observed, refs, unit="nm", interference=[(499.9, 500.1, "x<y")],
+                       x_range=(499.0, 501.0))  # fmt: skip
+    ref_markers = [t for t in fig.data if t.name == "<b>Qa I</b>" and t.mode == "markers"]
+    assert list(ref_markers[0].y) == [-0.8]  # mirrored: expected 0.8 drawn at −0.8
+    assert "&lt;b&gt;Qa I&lt;/b&gt;" in ref_markers[0].hovertext[0]  # user text escaped
+    assert "<b>" not in ref_markers[0].hovertext[0]
+    assert tuple(fig.layout.xaxis.range) == (499.0, 501.0)
+    assert len(fig.layout.shapes) == 2  # one interference band + the zero line
+
+
+def test_timeline_marks_the_broken_event():
+    events = [
+        {"item_number": "1", "seq": 1, "kind": "received", "at": "2026-01-01T00:00:00Z",
+         "actor": "A", "seal_state": "sealed"},
+        {"item_number": "1", "seq": 2, "kind": "note", "at": "2026-01-02T00:00:00Z",
+         "actor": "A", "seal_state": "sealed", "note": "<script>"},
+    ]  # fmt: skip
+    fig = timeline_figure(events, {"1": 2})
+    note = next(t for t in fig.data if t.name == "note")
+    assert list(note.marker.color) == ["#c0392b"]  # the broken event is drawn in red
+    assert "&lt;script&gt;" in note.hovertext[0]

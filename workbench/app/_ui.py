@@ -1,0 +1,61 @@
+"""Streamlit-side helpers shared by the pages: store location, case choice, errors, cautions."""
+
+from __future__ import annotations
+
+import contextlib
+import sys
+from collections.abc import Iterator
+from pathlib import Path
+
+import streamlit as st
+
+from workbench.app import _services as sv
+from workbench.errors import WorkbenchError
+
+__all__ = ["CAUTIONS", "cautions", "choose_case", "current_case", "shown_errors", "store_root"]
+
+#: The app's own wording of the standing cautions (the sheet prints the library's).
+CAUTIONS: tuple[str, ...] = (
+    "These results come from an automated comparison of line positions. A qualified examiner "
+    "has to review them under the laboratory's accredited procedures before anyone relies on "
+    "them.",
+    "Detecting an element does not tell you which compound, pigment or product it came from.",
+    "Laser (LIBS) and X-ray sources are hazardous: measure only under the laboratory's own "
+    "safety procedures and with the interlocks in place.",
+)
+
+
+def store_root() -> Path:
+    """The case store of this session: chosen once, from --store, $WORKBENCH_STORE or default."""
+    if "store_root" not in st.session_state:
+        arg = sv.store_root_from_argv(sys.argv[1:])
+        st.session_state["store_root"] = str(sv.resolve_root(arg))
+    return Path(st.session_state["store_root"])
+
+
+@contextlib.contextmanager
+def shown_errors() -> Iterator[None]:
+    """Show a workbench error as a red box with its remedy instead of a traceback."""
+    try:
+        yield
+    except WorkbenchError as exc:
+        st.error(sv.md_escape(str(exc)), icon="⛔")
+
+
+def current_case() -> str | None:
+    """Case number chosen in the sidebar (or on the Cases page)."""
+    return st.session_state.get("case_number")
+
+
+def cautions() -> None:
+    """Show the standing cautions."""
+    with st.expander("Cautions — read before relying on any result", expanded=True):
+        for c in CAUTIONS:
+            st.caption("• " + c)
+
+
+def choose_case(case_number: str) -> None:
+    """Make ``case_number`` the working case (takes effect on the rerun this triggers)."""
+    st.session_state["pending_case"] = case_number
+    st.session_state["case_number"] = case_number
+    st.rerun()

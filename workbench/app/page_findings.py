@@ -1,0 +1,207 @@
+"""Findings: draft a sheet from an analysis, preview it, sign it, and verify sheets."""
+
+from __future__ import annotations
+
+import streamlit as st
+
+from workbench.app import _services as sv
+from workbench.app import _ui
+
+st.title("Findings")
+root = _ui.store_root()
+number = _ui.current_case()
+_ui.cautions()
+
+with _ui.shown_errors(), sv.open_store(root) as store:
+    tab_issue, tab_keys, tab_verify = st.tabs(["Draft and sign", "Signing keys", "Verify a sheet"])
+
+    with tab_keys:
+        analysts = store.list_analysts()
+        if analysts:
+            st.dataframe(
+                [
+                    {"name": a.name, "role": a.role, "fingerprint": a.fingerprint,
+                     "status": a.status, "registered (UTC)": a.registered_at}
+                    for a in analysts
+                ],
+                hide_index=True,
+            )  # fmt: skip
+        st.subheader("Create and register a signing key")
+        with st.form("new_key", clear_on_submit=True):
+            c1, c2 = st.columns(2)
+            name = c1.text_input("Analyst name")
+            role = c2.text_input("Role", value="Analyst")
+            p1 = st.text_input("Passphrase (at least 8 characters)", type="password")
+            p2 = st.text_input("Repeat the passphrase", type="password")
+            make = st.form_submit_button("Create key")
+        if make:
+            with _ui.shown_errors():
+                from workbench.errors import KeyFileError
+                from workbench.findings import generate_key_pair
+
+                if p1 != p2:
+                    raise KeyFileError(
+                        "the two passphrases differ", "type the same passphrase twice"
+                    )
+                pair = generate_key_pair(p1)
+                rec = store.register_analyst(name, role, pair.public_key_pem)
+                st.session_state["new_private_key"] = pair.private_key_pem
+                st.session_state["new_key_fingerprint"] = rec.fingerprint
+                st.success("Registered key " + sv.md_escape(rec.fingerprint))
+        if st.session_state.get("new_private_key"):
+            st.warning(
+                "Download the private key now and keep it safe: the store keeps only the public "
+                "key. It is encrypted with the passphrase."
+            )
+            st.download_button(
+                "Download private key (PEM)",
+                st.session_state["new_private_key"],
+                file_name="signing-key.pem",
+                mime="application/x-pem-file",
+                key="dl_private_key",
+            )
+
+    with tab_issue:
+        if not number:
+            st.info("Choose a case first.")
+        else:
+            analyses = store.list_analyses(number)
+            if not analyses:
+                st.info("No analysis saved in this case yet (Line matching page).")
+            else:
+                ids = [a.id for a in analyses]
+                saved = st.session_state.get("saved_analysis_id")
+                aid = st.selectbox(
+                    "Analysis",
+                    ids,
+                    index=ids.index(saved) if saved in ids else len(ids) - 1,
+                    format_func=lambda i: next(
+                        f"#{a.id} item {a.item_number}, by {a.analyst}, {a.created_at}"
+                        for a in analyses
+                        if a.id == i
+                    ),
+                )
+                active = [a for a in store.list_analysts() if a.status == "active"]
+                if not active:
+                    st.info("Register a signing key first (Signing keys tab).")
+                else:
+                    fps = [a.fingerprint for a in active]
+                    new_fp = st.session_state.get("new_key_fingerprint")
+                    fp = st.selectbox(
+                        "Signing analyst",
+                        fps,
+                        index=fps.index(new_fp) if new_fp in fps else 0,
+                        format_func=lambda f: next(
+                            f"{a.name} ({a.role}) {a.fingerprint[:19]}…"
+                            for a in active
+                            if a.fingerprint == f
+                        ),
+                    )
+                    c1, c2 = st.columns(2)
+                    lab_name = c1.text_input("Laboratory", key="lab_name")
+                    lab_acc = c2.text_input("Accreditation", key="lab_acc")
+                    notes = st.text_area("Notes (printed verbatim)", key="sheet_notes")
+                    limitations = st.text_area(
+                        "Limitations (printed verbatim)", key="sheet_limitations"
+                    )
+                    lab = {"name": lab_name}
+                    if lab_acc:
+                        lab["accreditation"] = lab_acc
+                    if st.button("Preview draft", key="preview"):
+                        with _ui.shown_errors():
+                            from workbench.findings import render_pdf
+
+                            content = sv.draft_sheet(
+                                store, aid, lab=lab, analyst_fingerprint=fp, notes=notes,
+                                limitations=limitations,
+                            )  # fmt: skip
+                            st.session_state["draft"] = content
+                            st.session_state["draft_pdf"] = render_pdf(content)
+                    draft = st.session_state.get("draft")
+                    if draft is not None:
+                        st.caption("Draft content (unsigned):")
+                        st.json(
+                            {k: draft[k] for k in ("case", "item", "findings", "warnings",
+                                                   "notes", "limitations", "cautions")},
+                            expanded=False,
+                        )  # fmt: skip
+                        st.download_button(
+                            "Download draft PDF (unsigned)", st.session_state["draft_pdf"],
+                            file_name="draft-findings.pdf", mime="application/pdf",
+                            key="dl_draft",
+                        )  # fmt: skip
+                    st.subheader("Sign and issue")
+                    key_up = st.file_uploader(
+                        "Private key (PEM); a key created in this session is used if none is given",
+                        key="key_upload",
+                    )
+                    passphrase = st.text_input("Passphrase", type="password", key="passphrase")
+                    if st.button("Sign and issue the sheet", type="primary", key="sign"):
+                        with _ui.shown_errors():
+                            from workbench.errors import KeyFileError
+
+                            pem = key_up.getvalue() if key_up is not None else None
+                            pem = pem or st.session_state.get("new_private_key")
+                            if not pem:
+                                raise KeyFileError(
+                                    "no private key given", "upload the analyst's private key PEM"
+                                )
+                            content = sv.draft_sheet(
+                                store, aid, lab=lab, analyst_fingerprint=fp, notes=notes,
+                                limitations=limitations,
+                            )  # fmt: skip
+                            issued = sv.issue_sheet(store, aid, content, pem, passphrase)
+                            st.session_state["issued"] = issued
+                    issued = st.session_state.get("issued")
+                    if issued is not None:
+                        st.success(
+                            f"Issued findings sheet #{issued.record.id}, signed by "
+                            f"{sv.md_escape(issued.record.analyst)}."
+                        )
+                        stem = f"findings-{issued.record.case_number}-{issued.record.id}"
+                        c1, c2, c3, c4 = st.columns(4)
+                        c1.download_button("Sheet PDF", issued.pdf, f"{stem}.pdf",
+                                           "application/pdf", key="dl_pdf")  # fmt: skip
+                        c2.download_button("Sheet JSON", issued.json, f"{stem}.json",
+                                           "application/json", key="dl_json")  # fmt: skip
+                        c3.download_button("Signature (.sig)", issued.signature_raw,
+                                           f"{stem}.pdf.sig", key="dl_sig")  # fmt: skip
+                        c4.download_button("Signature record", issued.signature_record,
+                                           f"{stem}.sig.json", "application/json",
+                                           key="dl_sigjson")  # fmt: skip
+            sheets = store.list_findings_sheets(number)
+            if sheets:
+                st.subheader("Issued sheets in this case")
+                st.dataframe(
+                    [
+                        {"sheet": f.id, "analysis": f.analysis_id, "item": f.item_number,
+                         "analyst": f.analyst, "issued (UTC)": f.issued_at,
+                         "PDF SHA-256": f.pdf_sha256}
+                        for f in sheets
+                    ],
+                    hide_index=True,
+                )  # fmt: skip
+
+    with tab_verify:
+        st.caption(
+            "Give the sheet's PDF, its JSON and its signature record; the signer's key is "
+            "looked up in this store."
+        )
+        v_pdf = st.file_uploader("Sheet PDF", key="v_pdf")
+        v_json = st.file_uploader("Sheet JSON", key="v_json")
+        v_rec = st.file_uploader("Signature record (.sig.json)", key="v_rec")
+        if st.button("Verify", key="verify"):
+            if v_pdf is None or v_json is None or v_rec is None:
+                st.error("Give all three files: the PDF, the JSON and the signature record.")
+            else:
+                with _ui.shown_errors():
+                    from workbench.findings import verify_sheet_with_store
+
+                    res = verify_sheet_with_store(
+                        store, v_pdf.getvalue(), v_json.getvalue(), v_rec.getvalue()
+                    )
+                    st.success(
+                        f"VALID: signed by {sv.md_escape(res.signer)} at {res.signed_at} "
+                        f"with key {res.key_fingerprint[:19]}…"
+                    )
+                    st.text("\n".join("✓ " + c for c in res.checks))
