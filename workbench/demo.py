@@ -91,7 +91,7 @@ SCENARIOS: dict[str, DemoScenario] = {
         "# instrument: demo LIBS (invented)\n"
         "# medium: air\n"
         "wavelength (nm),intensity\n",
-    ),  # fmt: skip
+    ),
     "white_pigment": DemoScenario(
         key="white_pigment",
         title="XRF, white ground of 'Harbour at Dusk' (invented)",
@@ -158,9 +158,18 @@ def demo_file(key: str) -> bytes:
         def continuum(x: np.ndarray) -> np.ndarray:
             return 0.2 + 0.3 * (x - scn.x_range[0]) / (scn.x_range[1] - scn.x_range[0])
 
-        spec = synthetic_spectrum(pos, amp, axis="wavelength", medium="air", x_range=scn.x_range,
-                                  n_points=scn.n_points, resolving_power=scn.resolving_power,
-                                  noise_sigma=scn.noise_sigma, continuum=continuum, seed=rng_seed)  # fmt: skip
+        spec = synthetic_spectrum(
+            pos,
+            amp,
+            axis="wavelength",
+            medium="air",
+            x_range=scn.x_range,
+            n_points=scn.n_points,
+            resolving_power=scn.resolving_power,
+            noise_sigma=scn.noise_sigma,
+            continuum=continuum,
+            seed=rng_seed,
+        )
         x, y = spec.x, spec.y * 1000.0
         body = "".join(f"{a:.5f},{b:.2f}\n" for a, b in zip(x, y, strict=True))
     else:
@@ -169,9 +178,18 @@ def demo_file(key: str) -> bytes:
             # Bremsstrahlung-like hump (invented shape).
             return 0.05 * np.exp(-(((x - 9000.0) / 6000.0) ** 2))
 
-        spec = synthetic_spectrum(pos, amp, axis="energy", medium=None, x_range=scn.x_range,
-                                  n_points=scn.n_points, fwhm=scn.fwhm,
-                                  noise_sigma=scn.noise_sigma, continuum=continuum, seed=rng_seed)  # fmt: skip
+        spec = synthetic_spectrum(
+            pos,
+            amp,
+            axis="energy",
+            medium=None,
+            x_range=scn.x_range,
+            n_points=scn.n_points,
+            fwhm=scn.fwhm,
+            noise_sigma=scn.noise_sigma,
+            continuum=continuum,
+            seed=rng_seed,
+        )
         x, y = spec.x / 1000.0, np.maximum(spec.y * 2000.0, 0.0)
         body = "".join(f"{a:.5f},{b:.1f}\n" for a, b in zip(x, y, strict=True))
     return (scn.header + body).encode("utf-8")
@@ -184,33 +202,64 @@ DEMO_CASES: list[dict[str, Any]] = [
         "title": "Hit-and-run, Millbrook Road — paint transfer (invented)",
         "requesting_party": "Northbridge Constabulary, Roads Unit (invented)",
         "items": [
-            {"item_number": "1", "description": "Cyclist's jacket, left sleeve with red paint "
-             "smear (invented)", "seals": ["NB-448120"], "from": "PC Aled Rhys (invented)"},
-            {"item_number": "2", "description": "Red paint chip lifted from item 1 (invented)",
-             "parent": "1"},
-            {"item_number": "3", "description": "Paint reference sample, front wing of vehicle "
-             "KX19 NRF (invented)", "seals": ["NB-448133"], "from": "PC Aled Rhys (invented)"},
+            {
+                "item_number": "1",
+                "description": "Cyclist's jacket, left sleeve with red paint smear (invented)",
+                "seals": ["NB-448120"],
+                "from": "PC Aled Rhys (invented)",
+            },
+            {
+                "item_number": "2",
+                "description": "Red paint chip lifted from item 1 (invented)",
+                "parent": "1",
+            },
+            {
+                "item_number": "3",
+                "description": "Paint reference sample, front wing of vehicle KX19 NRF (invented)",
+                "seals": ["NB-448133"],
+                "from": "PC Aled Rhys (invented)",
+            },
         ],
-        "measurement": {"item": "2", "scenario": "paint_chip", "technique": "LIBS",
-                        "instrument": "Demo LIBS bench, 1064 nm Nd:YAG (invented)",
-                        "settings": {"pulse_energy_mJ": 30, "gate_delay_us": 1.0,
-                                     "gate_width_us": 10.0, "accumulations": 20}},
+        "measurement": {
+            "item": "2",
+            "scenario": "paint_chip",
+            "technique": "LIBS",
+            "instrument": "Demo LIBS bench, 1064 nm Nd:YAG (invented)",
+            "settings": {
+                "pulse_energy_mJ": 30,
+                "gate_delay_us": 1.0,
+                "gate_width_us": 10.0,
+                "accumulations": 20,
+            },
+        },
     },
     {
         "case_number": "NRFL-2026-0502",
         "title": "Attribution query, 'Harbour at Dusk' (invented)",
         "requesting_party": "Marrow & Pike Fine Art, insurers (invented)",
         "items": [
-            {"item_number": "1", "description": "Painting 'Harbour at Dusk', oil on canvas, "
-             "attributed to Ilse Varga, dated 1850 (invented)", "seals": [],
-             "from": "Marrow & Pike Fine Art (invented)"},
+            {
+                "item_number": "1",
+                "description": "Painting 'Harbour at Dusk', oil on canvas, "
+                "attributed to Ilse Varga, dated 1850 (invented)",
+                "seals": [],
+                "from": "Marrow & Pike Fine Art (invented)",
+            },
         ],
-        "measurement": {"item": "1", "scenario": "white_pigment", "technique": "XRF",
-                        "instrument": "Demo handheld XRF, Rh tube 40 kV (invented)",
-                        "settings": {"tube_kV": 40, "tube_uA": 20, "live_time_s": 60,
-                                     "spot": "white ground, lower left"}},
+        "measurement": {
+            "item": "1",
+            "scenario": "white_pigment",
+            "technique": "XRF",
+            "instrument": "Demo handheld XRF, Rh tube 40 kV (invented)",
+            "settings": {
+                "tube_kV": 40,
+                "tube_uA": 20,
+                "live_time_s": 60,
+                "spot": "white ground, lower left",
+            },
+        },
     },
-]  # fmt: skip
+]
 
 _ANALYST = "Dr Mirela Okafor (invented)"
 
@@ -244,21 +293,42 @@ def seed_demo_case(store: Any) -> dict[str, Any]:
         except NotFoundError:
             pass
         out["created"] = True
-        store.create_case(number, case["title"], case["requesting_party"],
-                          created_at="2026-11-20T09:00:00Z")  # fmt: skip
+        store.create_case(
+            number, case["title"], case["requesting_party"], created_at="2026-11-20T09:00:00Z"
+        )
         for i, item in enumerate(case["items"]):
             at = f"2026-11-20T{10 + i:02d}:00:00Z"
             if item.get("parent"):
-                store.add_item(number, item["item_number"], item["description"],
-                               parent_item=item["parent"], received_by=_ANALYST, at=at)  # fmt: skip
+                store.add_item(
+                    number,
+                    item["item_number"],
+                    item["description"],
+                    parent_item=item["parent"],
+                    received_by=_ANALYST,
+                    at=at,
+                )
             else:
-                store.add_item(number, item["item_number"], item["description"],
-                               seal_numbers=item["seals"], storage_location="Store B, shelf 4",
-                               received_by=_ANALYST, received_from=item["from"], at=at)  # fmt: skip
+                store.add_item(
+                    number,
+                    item["item_number"],
+                    item["description"],
+                    seal_numbers=item["seals"],
+                    storage_location="Store B, shelf 4",
+                    received_by=_ANALYST,
+                    received_from=item["from"],
+                    at=at,
+                )
         m = case["measurement"]
         scn = SCENARIOS[m["scenario"]]
-        rec = store.add_measurement((number, m["item"]), demo_file(scn.key), scn.filename,
-                                    m["technique"], m["instrument"], m["settings"], _ANALYST,
-                                    "2026-11-21T14:30:00Z")  # fmt: skip
+        rec = store.add_measurement(
+            (number, m["item"]),
+            demo_file(scn.key),
+            scn.filename,
+            m["technique"],
+            m["instrument"],
+            m["settings"],
+            _ANALYST,
+            "2026-11-21T14:30:00Z",
+        )
         out["measurements"][number] = rec.id
     return out

@@ -283,7 +283,7 @@ def _other_warnings(result: MatchResult, u: str) -> list[dict[str, object]]:
     return out
 
 
-def summary_text(report: dict[str, Any], max_lines: int = 40) -> str:
+def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
     """Readable summary for the terminal: verdict table, warnings, unassigned lines."""
     u = report["input"]["unit"]
     inp = report["input"]
@@ -309,9 +309,13 @@ def summary_text(report: dict[str, Any], max_lines: int = 40) -> str:
         f"{'species':<10} {'verdict':<14} {'score':>5} {'strong':>7} {'uniq':>4} "
         f"{'miss':>4}  best lines ({u})"
     )
+    rejected = [el for el in report["elements"] if el["verdict_level"] == 0]
+    shown_rejected = 0
     for el in report["elements"]:
-        if el["verdict_level"] == 0 and len(out) > max_lines:
-            continue
+        if el["verdict_level"] == 0:
+            shown_rejected += 1
+            if shown_rejected > max_rejected:
+                continue
         best = sorted(el["matched_lines"], key=lambda m: -(m["expected_rel"] or 0))[:3]
         lines = ", ".join(f"{m[f'reference_{u}']:.3f}" for m in best)
         out.append(
@@ -319,6 +323,8 @@ def summary_text(report: dict[str, Any], max_lines: int = 40) -> str:
             f"{el['n_strong_found']:>3}/{el['n_strong_in_range']:<3} "
             f"{el['n_unique_found']:>4} {el['n_missing_strong']:>4}  {lines}"
         )
+    if len(rejected) > max_rejected:
+        out.append(f"(+{len(rejected) - max_rejected} more species not supported; see the JSON)")
     if report["warnings"]:
         out.append("")
         out.append("warnings:")
