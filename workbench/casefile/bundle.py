@@ -286,7 +286,7 @@ def _parse(path: Path, entries: dict[str, bytes]) -> tuple[dict[str, Any], dict[
             raise ValueError(f"format {manifest['format']!r}")
         if manifest["format_version"] != _FORMAT_VERSION:
             raise ValueError(f"format version {manifest['format_version']!r} is not known")
-    except (ValueError, KeyError, TypeError, UnicodeDecodeError) as exc:
+    except (ValueError, KeyError, TypeError, UnicodeDecodeError, RecursionError) as exc:
         raise _bad(path, "manifest.json", f"malformed ({exc})") from exc
     present = set(entries) - {"manifest.json", "manifest.sha256"}
     for name in sorted(present - set(listed)):
@@ -313,7 +313,7 @@ def _parse(path: Path, entries: dict[str, bytes]) -> tuple[dict[str, Any], dict[
             raise _bad(path, name, "missing")
         try:
             records[r] = json.loads(entries[name].decode("utf-8"))
-        except (ValueError, UnicodeDecodeError) as exc:
+        except (ValueError, UnicodeDecodeError, RecursionError) as exc:
             raise _bad(path, name, f"not valid JSON ({exc})") from exc
         want = dict if r == "case" else list
         if not isinstance(records[r], want) or (
@@ -339,6 +339,16 @@ def _case_data(path: Path, records: dict[str, Any], files: dict[str, bytes]) -> 
             {**a, "result_json": files.get(a["result_sha256"])} for a in records["analyses"]
         ]
         analysts = {a["fingerprint"]: dict(a) for a in records["analysts"]}
+        earlier: set[str] = set()
+        for it in records["items"]:
+            parent = it.get("parent_item_number")
+            if parent is not None and parent not in earlier:
+                raise ValueError(
+                    f"item {it['item_number']!r} names parent {parent!r}, not listed before it"
+                )
+            if it["item_number"] in earlier:
+                raise ValueError(f"item {it['item_number']!r} appears twice")
+            earlier.add(it["item_number"])
         case_number = records["case"]["case_number"]
         for group in ("items", "measurements", "findings_sheets"):
             for rec in records[group]:

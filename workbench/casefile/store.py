@@ -18,6 +18,7 @@ Items are named by an *item reference*: an :class:`ItemRecord`, a row id
 
 from __future__ import annotations
 
+import importlib
 import json
 import os
 import random
@@ -1258,7 +1259,7 @@ class CaseStore:
         if not all(blobs):
             raise InputError("a findings-sheet file is empty", "give the PDF, JSON and signature")
         try:
-            from workbench.findings import signing
+            signing = importlib.import_module("workbench.findings.signing")
         except ImportError:
             signing = None  # type: ignore[assignment]
         if signing is not None:

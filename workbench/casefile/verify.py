@@ -24,6 +24,7 @@ event, or against a copy (bundle, issued sheet) taken earlier.
 
 from __future__ import annotations
 
+import importlib
 import json
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -594,7 +595,7 @@ def check_case_data(
         analysis_hashes.add(a["record_hash"])
     sig_mod = None
     try:
-        from workbench.findings import signing as sig_mod
+        sig_mod = importlib.import_module("workbench.findings.signing")
     except ImportError as exc:
         sig_mod = None
         sig_reason = f"unavailable ({exc})"
