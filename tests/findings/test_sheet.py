@@ -187,3 +187,15 @@ def test_pdftotext_agrees(tmp_path, pdf, content):
     assert "Zoë Ångström" in flat and "Bjørn Łukasz" in flat
     assert "**bench log** <b>p. 4</b> {nb} {x}." in flat
     assert squash(CAUTIONS[1]) in flat
+
+
+def _legend(text: str) -> str:
+    return text.split("scaled to the strongest expected line).")[1].split("Analyst's notes")[0]
+
+
+def test_figure_draws_only_reported_elements(text):
+    assert _legend(text).split() == ["Pb", "I", "Ba", "II"]  # both supported in the fixture
+    kwargs = make_content_kwargs()
+    kwargs["analysis"]["result"]["elements"][1]["verdict_level"] = 0  # Ba: not supported
+    other = squash(" ".join(pages_text(render_pdf(build_sheet_content(**kwargs)))))
+    assert _legend(other).split() == ["Pb", "I"]

@@ -459,6 +459,10 @@ class _Sheet:
         u = self.unit
         obs_key, ref_key = f"observed_{u}", f"reference_{u}"
         findings = [f for f in self.c.get("findings") or [] if f.get("matched_lines")]
+        # Draw the reported elements: those with a positive verdict level when levels are
+        # given (level 0 means the evidence did not support the element).
+        if any(isinstance(f.get("verdict_level"), int) for f in findings):
+            findings = [f for f in findings if (f.get("verdict_level") or 0) > 0]
         observed: list[tuple[float, float]] = []
         for ln in self.c.get("observed_lines") or []:
             if isinstance(ln.get("position"), int | float):
