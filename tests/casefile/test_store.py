@@ -229,3 +229,11 @@ def test_analysts(store):
         store.register_analyst(
             "X", "y", b"-----BEGIN PUBLIC KEY-----\nAAAA\n-----END PUBLIC KEY-----\n"
         )
+
+
+def test_current_location_follows_chain(store):
+    info = populate(store)
+    # populate() opened item 1 at "bench 4" after storing it in "store room B, shelf 2"
+    item = store.get_item(f"{info['case']}/1")
+    assert item.storage_location == "store room B, shelf 2"
+    assert item.current_location == "bench 4"

@@ -129,6 +129,8 @@ class ChainState:
         Time of the latest event.
     count : int
         Number of events.
+    location : str or None
+        Latest location recorded.
     """
 
     holder: str | None
@@ -137,6 +139,7 @@ class ChainState:
     disposed: bool
     last_at: str
     count: int
+    location: str | None = None
 
     def to_dict(self) -> dict[str, Any]:
         """Return a JSON-friendly form."""
@@ -147,6 +150,7 @@ class ChainState:
             "disposed": self.disposed,
             "last_at": self.last_at,
             "events": self.count,
+            "location": self.location,
         }
 
 
@@ -212,6 +216,7 @@ def apply_event(state: ChainState | None, event: dict[str, Any], label: str) -> 
             disposed=False,
             last_at=at,
             count=1,
+            location=event.get("location"),
         )
     if state.disposed:
         _refuse(
@@ -323,4 +328,5 @@ def apply_event(state: ChainState | None, event: dict[str, Any], label: str) -> 
         disposed=state.disposed or kind == "disposed",
         last_at=at,
         count=state.count + 1,
+        location=event.get("location") or state.location,
     )

@@ -113,8 +113,10 @@ class CaseRecord(_Record):
 class ItemRecord(_Record):
     """An item or sub-sample with its current custody state.
 
-    ``holder``, ``seal_state``, ``seals`` and ``disposed`` are computed from the
-    custody chain when the record is read.
+    ``holder``, ``seal_state``, ``seals``, ``disposed``, ``event_count`` and
+    ``current_location`` (latest location in the chain) are computed from the
+    custody chain when the record is read; ``storage_location`` is where it was
+    first stored.
     """
 
     id: int
@@ -131,6 +133,7 @@ class ItemRecord(_Record):
     seals: tuple[str, ...]
     disposed: bool
     event_count: int
+    current_location: str | None = None
 
     @property
     def label(self) -> str:

@@ -480,6 +480,7 @@ class CaseStore:
             seals=state.seals if state else (),
             disposed=state.disposed if state else False,
             event_count=state.count if state else 0,
+            current_location=state.location if state else row["storage_location"],
         )
 
     def get_item(self, item: ItemRef, item_number: str | None = None) -> ItemRecord:

@@ -80,7 +80,7 @@ def _show(args: argparse.Namespace) -> int:
     data = {"item": it.to_dict(), "custody_events": [e.to_dict() for e in events]}
     lines = [
         f"item {it.label}: {it.description}",
-        f"  parent: {it.parent_item_number or '-'}; location: {it.storage_location or '-'}",
+        f"  parent: {it.parent_item_number or '-'}; location: {it.current_location or '-'}",
         f"  holder: {it.holder}; seal: {it.seal_state} {','.join(it.seals)}; "
         f"disposed: {'yes' if it.disposed else 'no'}",
         "  custody:",
