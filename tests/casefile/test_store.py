@@ -237,3 +237,21 @@ def test_current_location_follows_chain(store):
     item = store.get_item(f"{info['case']}/1")
     assert item.storage_location == "store room B, shelf 2"
     assert item.current_location == "bench 4"
+
+
+def test_failed_migration_changes_nothing(tmp_path, monkeypatch):
+    from workbench.casefile import schema
+
+    db = tmp_path / "s" / "cases.sqlite"
+    db.parent.mkdir()
+    connect(db, target_version=1).close()
+    broken = (*schema.MIGRATIONS[:1], (2, (*schema.MIGRATIONS[1][1][:3], "THIS IS NOT SQL")))
+    monkeypatch.setattr(schema, "MIGRATIONS", broken)
+    with pytest.raises(CaseFileError, match="left as it was"):
+        connect(db)
+    monkeypatch.undo()
+    conn = sqlite3.connect(db)
+    # the half-applied migration 2 was rolled back as one transaction
+    assert conn.execute("SELECT MAX(version) FROM schema_version").fetchone()[0] == 1
+    assert not conn.execute("SELECT name FROM sqlite_master WHERE type='trigger'").fetchall()
+    conn.close()

@@ -217,6 +217,12 @@ def _migrate(conn: sqlite3.Connection, db_path: Path, target: int) -> None:
                     (version, utc_now()),
                 )
         conn.execute("COMMIT")
+    except sqlite3.Error as exc:
+        conn.execute("ROLLBACK")
+        raise CaseFileError(
+            f"upgrading case store {db_path} to schema version {target} failed ({exc})",
+            "the store was left as it was; report this with the workbench version",
+        ) from exc
     except BaseException:
         conn.execute("ROLLBACK")
         raise
