@@ -15,8 +15,9 @@ Warnings (kind)
         an observed peak has candidate lines of two or more plausible species.
     ``reference_overlap``
         a strong line of a species called "probable" or better lies within the
-        window of a line of another species with matches, even where no peak
-        was seen there.
+        window of a line of another plausible species ("possible" or better),
+        even where no peak was seen there; one warning per pair of species,
+        naming the closest pair of lines and counting the others.
     Each names both lines, their separation, the resolving power λ/Δλ
     needed to separate them, and for each species the interference-free
     lines that settle the question (found ones support it; strong ones
@@ -172,12 +173,16 @@ def interference_warnings(
                         peak=p,
                     )
                 )
-    # 2. Strong lines of identified species overlapping lines of other candidates.
-    candidates = [c for c, ev in ev_all.items() if ev.found_lines]
+    # 2. Strong lines of identified species overlapping lines of other plausible
+    #    candidates; one warning per species pair (the closest pair of lines),
+    #    with the number of overlapping pairs.
+    candidates = [c for c, ev in ev_all.items() if ev.level >= 1]
     cand_mask = np.isin(index.species, np.array(candidates, dtype=np.int64))
     usable = ev_pass.usable & cand_mask & (np.nan_to_num(e) >= 0.05)
     other_idx = np.flatnonzero(usable)
     other_pos = index.position[other_idx]
+    reported = {tuple(sorted(w["elements"])) for w in warnings}
+    by_pair: dict[tuple[int, int], list[tuple[float, int, int]]] = {}
     for code, ev in sorted(ev_all.items()):
         if ev.level < 2:
             continue
@@ -190,36 +195,32 @@ def interference_warnings(
             lo, hi = np.searchsorted(other_pos, [x - tol, x + tol + 1e-12])
             for j in other_idx[lo:hi]:
                 s = int(index.species[j])
-                if s == code:
-                    continue
-                key = ("ref", min(i, int(j)), max(i, int(j)))
-                pair_key = ("peak_pair", min(code, s), max(code, s), round(float(x), 3))
-                if key in seen or pair_key in seen:
-                    continue
-                seen.add(key)
-                seen.add(pair_key)
-                # Skip when already reported as an unresolved overlap at a peak.
-                if any(
-                    w["kind"] == "unresolved_overlap"
-                    and set(w["elements"]) == {ev.label, ev_all[s].label}
-                    and abs(w["observed"] - x) <= tol
-                    for w in warnings
-                ):
-                    continue
-                warnings.append(
-                    _overlap_warning(
-                        "reference_overlap",
-                        index,
-                        ev,
-                        ev_all[s],
-                        i,
-                        int(j),
-                        e,
-                        unit,
-                        observed=None,
-                        peak=None,
+                if s != code:
+                    by_pair.setdefault((code, s), []).append(
+                        (abs(x - index.position[j]), i, int(j))
                     )
-                )
+    for (code, s), found in sorted(by_pair.items()):
+        labels = tuple(sorted([ev_all[code].label, ev_all[s].label]))
+        if labels in reported:
+            continue
+        reported.add(labels)
+        _, i, j = min(found)
+        w = _overlap_warning(
+            "reference_overlap",
+            index,
+            ev_all[code],
+            ev_all[s],
+            i,
+            j,
+            e,
+            unit,
+            observed=None,
+            peak=None,
+        )
+        if len(found) > 1:
+            w["message"] += f" ({len(found)} overlapping line pairs in all.)"
+        w["n_pairs"] = len(found)
+        warnings.append(w)
     return warnings
 
 
