@@ -39,7 +39,7 @@ def shown_errors() -> Iterator[None]:
     try:
         yield
     except WorkbenchError as exc:
-        st.error(sv.md_escape(str(exc)), icon="⛔")
+        st.error(sv.md_escape(str(exc)), icon=":material/error:")
 
 
 def current_case() -> str | None:

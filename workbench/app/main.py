@@ -15,11 +15,11 @@ st.set_page_config(page_title="Line-matching workbench", page_icon="🔬", layou
 root = _ui.store_root()
 
 pages = [
-    st.Page("page_cases.py", title="Cases", icon="🗂️", default=True),
-    st.Page("page_custody.py", title="Items & custody", icon="🔗"),
-    st.Page("page_measurement.py", title="Measurement", icon="📈"),
-    st.Page("page_matching.py", title="Line matching", icon="🧪"),
-    st.Page("page_findings.py", title="Findings", icon="🖋️"),
+    st.Page("page_cases.py", title="Cases", icon=":material/folder_open:", default=True),
+    st.Page("page_custody.py", title="Items & custody", icon=":material/link:"),
+    st.Page("page_measurement.py", title="Measurement", icon=":material/show_chart:"),
+    st.Page("page_matching.py", title="Line matching", icon=":material/science:"),
+    st.Page("page_findings.py", title="Findings", icon=":material/draw:"),
 ]
 nav = st.navigation(pages)
 

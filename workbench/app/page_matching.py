@@ -108,7 +108,7 @@ other = [(k, w) for k, w in enumerate(warnings) if w.get("kind") not in sv.INTER
 # Warnings first, counted, so that they cannot be missed.
 if interf:
     st.error(
-        f"⚠ {len(interf)} INTERFERENCE WARNING(S): lines of different elements overlap within "
+        f"{len(interf)} INTERFERENCE WARNING(S): lines of different elements overlap within "
         "the match window. Settle each with the interference-free lines named.",
     )
     for k, w in interf[:6]:

@@ -1,0 +1,243 @@
+"""End-to-end: the real app in headless Chromium, from upload to a verified signed sheet.
+
+Runs when /usr/bin/chromium exists (Debian package ``chromium``); with
+``WORKBENCH_REQUIRE_BROWSER=1`` a missing browser fails instead of skipping.
+Screenshots go to ``test-artifacts/`` (git-ignored) and the main pages are
+copied to ``docs/screenshots/`` for the README.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import socket
+import subprocess
+import time
+import urllib.request
+from pathlib import Path
+
+import pytest
+
+from tests.app.conftest import PEAKS_CSV
+
+pytestmark = [pytest.mark.e2e, pytest.mark.slow]
+
+CHROMIUM = Path("/usr/bin/chromium")
+REPO = Path(__file__).resolve().parents[2]
+ARTIFACTS = REPO / "test-artifacts" / "e2e"
+SCREENSHOTS = REPO / "docs" / "screenshots"
+CASE = "E2E-2026-0042"
+ANALYST = "Quinn Tester (invented)"
+PASSPHRASE = "e2e passphrase 42"
+
+
+def _require_browser() -> None:
+    if CHROMIUM.exists():
+        return
+    if os.environ.get("WORKBENCH_REQUIRE_BROWSER") == "1":
+        pytest.fail("/usr/bin/chromium is missing but WORKBENCH_REQUIRE_BROWSER=1")
+    pytest.skip("/usr/bin/chromium is not installed (apt-get install chromium)")
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
+def _seed(root: Path) -> None:
+    from workbench.casefile.store import CaseStore
+
+    with CaseStore.open(root) as store:
+        store.create_case(CASE, "Invented e2e case: brass fragment", "Invented Constabulary")
+        store.add_item(
+            CASE, "1", "Brass fragment in sealed bag (invented)", seal_numbers=["E-1"],
+            received_by=ANALYST, received_from="Courier Di (invented)",
+            at="2026-11-03T09:00:00Z",
+        )  # fmt: skip
+
+
+@pytest.fixture
+def app_url(tmp_path):
+    _require_browser()
+    from workbench.app.launch import app_command
+
+    root = tmp_path / "store"
+    _seed(root)
+    port = _free_port()
+    env = dict(os.environ, WORKBENCH_STORE=str(root))
+    log = open(tmp_path / "streamlit.log", "wb")
+    proc = subprocess.Popen(app_command(root, port), env=env, stdout=log, stderr=log)
+    url = f"http://127.0.0.1:{port}"
+    try:
+        deadline = time.monotonic() + 90
+        while True:
+            try:
+                with urllib.request.urlopen(url + "/_stcore/health", timeout=2) as r:
+                    if r.status == 200:
+                        break
+            except OSError:
+                pass
+            if proc.poll() is not None or time.monotonic() > deadline:
+                log.flush()
+                pytest.fail("the app did not start: " + (tmp_path / "streamlit.log").read_text())
+            time.sleep(0.5)
+        yield url, root
+    finally:
+        proc.terminate()
+        try:
+            proc.wait(timeout=15)
+        except subprocess.TimeoutExpired:
+            proc.kill()
+        log.close()
+
+
+def _shot(page, name: str, publish: bool = False) -> None:
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    path = ARTIFACTS / f"{name}.png"
+    page.screenshot(path=str(path), full_page=True)
+    if publish:
+        SCREENSHOTS.mkdir(parents=True, exist_ok=True)
+        shutil.copyfile(path, SCREENSHOTS / f"{name}.png")
+
+
+def _idle(page) -> None:
+    """Wait until Streamlit has finished the current script run."""
+    page.wait_for_timeout(300)
+    page.wait_for_function(
+        "() => !document.querySelector('[data-testid=\"stStatusWidget\"]')", timeout=90_000
+    )
+
+
+def _nav(page, title: str) -> None:
+    page.get_by_test_id("stSidebarNav").get_by_role("link", name=title).click()
+    page.get_by_role("heading", name=title).first.wait_for(timeout=60_000)
+    _idle(page)
+
+
+def _fill(page, label: str, value: str, *, in_form: bool = False) -> None:
+    box = page.get_by_label(label, exact=True)
+    box.fill(value)
+    if in_form:
+        box.press("Tab")  # form fields are sent with the submit button; Enter would submit
+        return
+    # Enter commits a text input; Ctrl+Enter a text area (Streamlit's key bindings).
+    is_area = box.evaluate("e => e.tagName") == "TEXTAREA"
+    box.press("Control+Enter" if is_area else "Enter")
+    _idle(page)
+
+
+def _upload(page, label: str, path: Path) -> None:
+    widget = page.get_by_test_id("stFileUploader").filter(has_text=label)
+    widget.locator("input[type=file]").set_input_files(str(path))
+    _idle(page)
+
+
+def test_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_path):
+    from playwright.sync_api import sync_playwright
+
+    url, root = app_url
+    peaks_file = tmp_path / "fragment_peaks.csv"
+    peaks_file.write_bytes(PEAKS_CSV)
+    with sync_playwright() as p:
+        browser = p.chromium.launch(
+            executable_path=str(CHROMIUM),
+            args=["--no-sandbox", "--disable-gpu", "--disable-background-networking",
+                  "--disable-component-update", "--disable-sync", "--no-first-run"],
+        )  # fmt: skip
+        try:
+            page = browser.new_page(viewport={"width": 1400, "height": 1000}, accept_downloads=True)
+            page.set_default_timeout(60_000)
+            page.goto(url)
+            page.get_by_role("heading", name="Cases").first.wait_for()
+            page.get_by_text(CASE).first.wait_for()
+            _idle(page)
+            _shot(page, "cases", publish=True)
+
+            _nav(page, "Items & custody")
+            page.get_by_text("Chain of custody verified").wait_for()
+            page.get_by_role("tab", name="Timeline").click()
+            _idle(page)
+            _shot(page, "custody", publish=True)
+
+            # Upload, check the reading, store the measurement.
+            _nav(page, "Measurement")
+            page.get_by_role("tab", name="Upload a file").click()
+            _upload(page, "Spectrum or peak list", peaks_file)
+            page.get_by_role("button", name="Read uploaded file").click()
+            page.get_by_text("How the file was read").wait_for()
+            _idle(page)
+            _fill(page, "Instrument", "Bench LIBS (invented)", in_form=True)
+            _fill(page, "Operator", ANALYST, in_form=True)
+            _fill(
+                page,
+                "Measured at (UTC, e.g. 2026-11-21T14:30:00Z)",
+                "2026-11-04T10:00:00Z",
+                in_form=True,
+            )
+            page.get_by_role("button", name="Store measurement").click()
+            page.get_by_text("Stored as measurement #1").wait_for()
+            _idle(page)
+            _shot(page, "measurement", publish=True)
+
+            # Match and save.
+            _nav(page, "Line matching")
+            page.get_by_role("button", name="Run matching").click()
+            page.get_by_role("heading", name="Element calls").wait_for(timeout=120_000)
+            page.get_by_text("INTERFERENCE WARNING").first.wait_for()
+            _idle(page)
+            _shot(page, "matching", publish=True)
+            _fill(page, "Analyst (your name)", ANALYST)
+            page.get_by_role("button", name="Save analysis to the case").click()
+            page.get_by_text("Saved as analysis #1").wait_for()
+
+            # Key, sheet, signature.
+            _nav(page, "Findings")
+            page.get_by_role("tab", name="Signing keys").click()
+            _fill(page, "Analyst name", ANALYST, in_form=True)
+            _fill(page, "Passphrase (at least 8 characters)", PASSPHRASE, in_form=True)
+            _fill(page, "Repeat the passphrase", PASSPHRASE, in_form=True)
+            page.get_by_role("button", name="Create key").click()
+            page.get_by_text("Registered key").wait_for()
+            _idle(page)
+            page.get_by_role("tab", name="Draft and sign").click()
+            _fill(page, "Laboratory", "Invented E2E Laboratory")
+            _fill(page, "Notes (printed verbatim)", "Screening result for the e2e test.")
+            page.get_by_role("button", name="Preview draft").click()
+            page.get_by_text("Draft content (unsigned)").wait_for()
+            _idle(page)
+            _fill(page, "Passphrase", PASSPHRASE)
+            page.get_by_role("button", name="Sign and issue the sheet").click()
+            page.get_by_text("Issued findings sheet #1").wait_for(timeout=120_000)
+            _idle(page)
+            _shot(page, "findings", publish=True)
+            files = {}
+            for label, name in (("Sheet PDF", "sheet.pdf"), ("Sheet JSON", "sheet.json"),
+                                ("Signature record", "sheet.sig.json")):  # fmt: skip
+                with page.expect_download() as dl:
+                    page.get_by_role("button", name=label, exact=True).click()
+                target = tmp_path / name
+                dl.value.save_as(str(target))
+                files[name] = target
+            assert files["sheet.pdf"].read_bytes().startswith(b"%PDF")
+
+            # Verify the downloaded sheet through the page.
+            page.get_by_role("tab", name="Verify a sheet").click()
+            _upload(page, "Sheet PDF", files["sheet.pdf"])
+            _upload(page, "Sheet JSON", files["sheet.json"])
+            _upload(page, "Signature record (.sig.json)", files["sheet.sig.json"])
+            page.get_by_role("button", name="Verify", exact=True).click()
+            page.get_by_text("VALID: signed by").wait_for()
+            _idle(page)
+            _shot(page, "verify")
+        except Exception:
+            _shot(page, "failure")
+            raise
+        finally:
+            browser.close()
+
+    from workbench.casefile.store import CaseStore
+
+    with CaseStore.open(root) as store:
+        assert store.verify(CASE).ok  # every record the browser wrote is chained and intact
+        assert len(store.list_findings_sheets(CASE)) == 1
