@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
+from scipy import special
 
 from workbench.matching.candidates import CandidatePairs, find_candidates
 from workbench.matching.reference import ReferenceIndex
@@ -233,7 +233,9 @@ def gather_evidence(
                 n_ge = sorted_intensity.size - np.searchsorted(sorted_intensity, thr, "left")
                 rho = n_ge / span
             p = float(np.mean(1.0 - np.exp(-rho * 2.0 * tol_l)))
-            ev.chance_probability = float(stats.binom.sf(k_strong - 1, n_strong, p))
+            # P(X ≥ k) for X ~ Binomial(n, p) is the regularised incomplete
+            # beta function I_p(k, n − k + 1).
+            ev.chance_probability = float(special.betainc(k_strong, n_strong - k_strong + 1, p))
         ev.missing_strong = [i for i in ev.missing_lines if e[i] >= strong_fraction]
         denom_mask = finite & (visible | found_mask)
         denom = float(np.sum(e_lines[denom_mask]))

@@ -102,6 +102,8 @@ def estimate_temperature(
             plot={
                 "E_upper_eV": [float(v) for v in fit.x_E_upper_eV],
                 "ln_I_lambda_over_gA": [float(v) for v in fit.y_ln],
+                "slope_per_eV": float(fit.slope_per_eV),
+                "intercept": float(fit.intercept),
             },
         )
     why = "; ".join(reasons) if reasons else "no species called probable or better"
