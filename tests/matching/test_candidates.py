@@ -24,3 +24,17 @@ def test_same_pairs_as_brute_force(seed):
 def test_no_candidates():
     got = find_candidates(np.array([100.0]), np.array([0.1]), np.array([200.0, 300.0]))
     assert got.size == 0
+
+
+def test_range_max_matches_loop():
+    from workbench.matching.evidence import _range_max
+
+    rng = np.random.default_rng(7)
+    a = rng.normal(size=50)
+    a[[3, 17]] = -np.inf  # unknown intensities
+    padded = np.append(a, -np.inf)
+    lo = rng.integers(0, 50, 200)
+    hi = np.minimum(lo + rng.integers(0, 6, 200), 50)
+    got = _range_max(padded, lo, hi)
+    want = np.array([a[i:j].max() if j > i else -np.inf for i, j in zip(lo, hi, strict=True)])
+    np.testing.assert_array_equal(got, want)

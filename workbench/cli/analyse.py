@@ -66,7 +66,11 @@ def run(args: argparse.Namespace) -> int:
             analyst=args.analyst,
         )
     if args.json:
-        out = {"analysis_id": record.id, "measurement_id": m.id, "result": outcome.report}
+        out = {
+            "analysis_id": record.id,
+            "measurement_id": m.id,
+            "result": json.loads(outcome.json_bytes),  # the stored canonical form
+        }
         sys.stdout.write(json.dumps(out, sort_keys=True, ensure_ascii=False) + "\n")
     else:
         print(

@@ -44,6 +44,18 @@ class EvidencePass:
     usable: np.ndarray
 
 
+def _range_max(padded: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Maximum of ``padded[lo:hi]`` per window (−inf for empty windows), vectorised.
+
+    ``padded`` ends with a −inf sentinel so that ``hi`` may equal the data length.
+    """
+    if lo.size == 0:
+        return np.empty(0)
+    idx = np.column_stack([lo, hi]).ravel()
+    out = np.maximum.reduceat(padded, idx)[::2]
+    return np.where(hi > lo, out, -np.inf)
+
+
 def _pearson(a: np.ndarray, b: np.ndarray) -> float | None:
     if a.size < 3 or np.ptp(a) == 0 or np.ptp(b) == 0:
         return None
@@ -86,6 +98,7 @@ def gather_evidence(
     EvidencePass
     """
     e = strengths
+    e_zero = np.where(np.isfinite(e), e, 0.0)
     usable = in_range & (~np.isfinite(e) | (e >= min_rel_intensity))
     usable_idx = np.flatnonzero(usable)
     local = find_candidates(obs.position, obs.half_window, index.position[usable_idx])
@@ -127,6 +140,10 @@ def gather_evidence(
     span = float(obs.position[-1] - obs.position[0]) + 2.0 * float(np.median(obs.half_window))
     density = n_obs / span if span > 0 else 0.0
     sorted_intensity = np.sort(obs.intensity[np.isfinite(obs.intensity)])
+    # Intensities with a trailing sentinel, for vectorised window maxima.
+    intensity_padded = np.append(
+        np.where(np.isfinite(obs.intensity), obs.intensity, -np.inf), -np.inf
+    )
 
     evidence: dict[int, SpeciesEvidence] = {}
     for code, a, b in zip(species_present, starts, ends, strict=True):
@@ -166,7 +183,7 @@ def gather_evidence(
         # Intensity scale: observed / expected at each matched peak (all of this
         # species' lines in a peak's window are summed: a blend).
         pk_all, inv = np.unique(p_obs, return_inverse=True)
-        e_p = np.bincount(inv, weights=np.nan_to_num(e[p_ref], nan=0.0), minlength=pk_all.size)
+        e_p = np.bincount(inv, weights=e_zero[p_ref], minlength=pk_all.size)
         peak_unique = n_comp[pk_all] - competes_at(pk_all, code) == 0
         I_p = obs.intensity[pk_all]
         good = np.isfinite(I_p) & (I_p > 0) & (e_p > 0) & ~obs.saturated[pk_all]
@@ -197,12 +214,7 @@ def gather_evidence(
             lo_i = np.searchsorted(obs.position, xc - w, side="left")
             hi_i = np.searchsorted(obs.position, xc + w, side="right")
             strongest = (
-                np.array(
-                    [
-                        np.nanmax(obs.intensity[a:b]) if b > a else -np.inf
-                        for a, b in zip(lo_i, hi_i, strict=True)
-                    ]
-                )
+                _range_max(intensity_padded, lo_i, hi_i)
                 if obs.detection_limit is not None
                 else np.full(cand.size, -np.inf)
             )

@@ -1,0 +1,123 @@
+"""``workbench match``, ``analyse``, ``demo`` and ``--version`` through the real CLI entry point."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+from workbench.cli import main
+from workbench.demo import demo_file
+
+
+@pytest.fixture(scope="module")
+def paint_chip(tmp_path_factory):
+    path = tmp_path_factory.mktemp("demo") / "paint_chip.csv"
+    path.write_bytes(demo_file("paint_chip"))  # invented demo spectrum
+    return path
+
+
+def test_match_json_stdout_is_deterministic(paint_chip, capsysbinary):
+    assert main(["match", str(paint_chip), "--json", "-"]) == 0
+    first = capsysbinary.readouterr().out
+    assert main(["match", str(paint_chip), "--json", "-"]) == 0
+    second = capsysbinary.readouterr().out
+    assert first == second
+    rep = json.loads(first)
+    assert rep["schema_version"] == 1
+    assert rep["input"]["medium"] == "air"
+    levels = {el["species"]: el["verdict_level"] for el in rep["elements"]}
+    # The invented paint chip was synthesised with Ti II and Ba II (workbench.demo).
+    assert levels["Ti II"] == 3 and levels["Ba II"] == 3
+    # Nothing outside the recipe's elements is called "established" (by construction).
+    recipe = {"Ti", "Ba", "Ca", "Fe", "Cr", "Si", "Mg"}
+    assert {el["element"] for el in rep["elements"] if el["verdict_level"] == 3} <= recipe
+
+
+def test_match_writes_summary_json_and_csv(paint_chip, tmp_path, capsys):
+    out = tmp_path / "r.json"
+    rc = main(["match", str(paint_chip), "--json", str(out), "--csv-dir", str(tmp_path / "csv")])
+    assert rc == 0
+    text = capsys.readouterr().out
+    assert "established" in text and "qualified examiner" in text
+    assert json.loads(out.read_bytes())["input"]["sha256"]
+    assert sorted(p.name for p in (tmp_path / "csv").iterdir()) == [
+        "elements.csv",
+        "lines.csv",
+        "matched_lines.csv",
+        "missing_lines.csv",
+        "warnings.csv",
+    ]
+
+
+@pytest.mark.parametrize(
+    ("content", "args", "needle"),
+    [
+        (None, [], "does not exist"),
+        (b"", [], "empty"),
+        (b"wavelength (nm),intensity\n3961.5,10\n3968.5,20\n4226.7,30\n", [], "Å"),
+        (b"wavelength (nm),intensity\n396.1,10\nabc,20\n", [], "row"),
+    ],
+)
+def test_bad_input_gives_one_clear_error(tmp_path, capsys, content, args, needle):
+    path = tmp_path / "bad.csv"
+    if content is not None:
+        path.write_bytes(content)
+    rc = main(["match", str(path), *args])
+    err = capsys.readouterr().err
+    assert rc == 2
+    assert err.startswith("error: ") and "Fix:" in err and "Traceback" not in err
+    assert needle in err
+
+
+def test_analyse_stores_result_and_chain_verifies(tmp_path, capsys):
+    from workbench.casefile import CaseStore
+    from workbench.demo import seed_demo_case
+
+    store_dir = tmp_path / "store"
+    with CaseStore.open(store_dir) as store:
+        seeded = seed_demo_case(store)
+    mid = seeded["measurements"]["NRFL-2026-0417"]
+    rc = main(
+        [
+            "analyse",
+            str(mid),
+            "--analyst",
+            "Test Analyst (invented)",
+            "--store",
+            str(store_dir),
+            "--json",
+        ]
+    )
+    assert rc == 0
+    out = json.loads(capsys.readouterr().out)
+    with CaseStore.open(store_dir) as store:
+        stored = store.get_analysis(out["analysis_id"])
+        assert json.loads(stored.result_json) == out["result"]
+    assert main(["custody", "verify", "--store", str(store_dir)]) == 0
+
+
+def test_demo_without_app(tmp_path, capsys):
+    assert main(["demo", "--no-app", "--store", str(tmp_path / "s")]) == 0
+    out = capsys.readouterr().out
+    assert "invented" in out and "Pb L" in out
+
+
+def test_version_names_data_version(capsys):
+    with pytest.raises(SystemExit) as exc:
+        main(["--version"])
+    assert exc.value.code == 0
+    out = capsys.readouterr().out
+    assert out.startswith("workbench ") and "reference data 20" in out
+
+
+def test_match_does_not_import_the_front_end(paint_chip, tmp_path):
+    code = (
+        "import sys; from workbench.cli import main; "
+        f"main(['match', {str(paint_chip)!r}, '--json', {str(tmp_path / 'o.json')!r}]); "
+        "print('streamlit' in sys.modules, 'plotly' in sys.modules)"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip().splitlines()[-1] == "False False"
