@@ -9,9 +9,8 @@ from workbench.refdata import data_version, default_root, list_sets, load_set, v
 from workbench.refdata.manifest import read_manifest, sha256_file
 
 ROOT = Path(__file__).resolve().parents[2] / "reference_sets"
-# Folders that hold no shipped line data: build scripts, download cache, and
-# directories owned by other parts of the project (exemplar collections, materials).
-EXCLUDED_DIRS = {"build", "_cache", "collections", "materials"}
+# Folders that hold no shipped data: build scripts and the download cache.
+EXCLUDED_DIRS = {"build", "_cache"}
 
 
 def _data_files() -> set[str]:
@@ -20,7 +19,7 @@ def _data_files() -> set[str]:
         rel = path.relative_to(ROOT)
         if not path.is_file() or rel.parts[0] in EXCLUDED_DIRS:
             continue
-        if path.suffix == ".md" or rel.as_posix() == "manifest.json":
+        if path.suffix in (".md", ".py") or rel.as_posix() == "manifest.json":
             continue
         out.add(rel.as_posix())
     return out
@@ -32,9 +31,10 @@ def test_default_root_is_the_checkout():
 
 def test_manifest_lists_every_data_file_and_hashes_match():
     manifest = read_manifest(ROOT)
-    listed = {e["file"] for e in manifest["sets"]} | {e["file"] for e in manifest["atomic"]}
+    entries = [*manifest["sets"], *manifest["atomic"], *manifest["other"]]
+    listed = {e["file"] for e in entries}
     assert _data_files() == listed
-    for e in [*manifest["sets"], *manifest["atomic"]]:
+    for e in entries:
         assert sha256_file(ROOT / e["file"]) == e["sha256"], e["file"]
     assert all(r["status"] == "ok" for r in verify_sets(ROOT))
 

@@ -163,7 +163,7 @@ def verify_sets(root: Path | None = None) -> list[dict[str, Any]]:
     root = Path(root) if root is not None else default_root()
     manifest = read_manifest(root)
     results = []
-    for entry in [*manifest["sets"], *manifest["atomic"]]:
+    for entry in [*manifest["sets"], *manifest["atomic"], *manifest.get("other", [])]:
         path = root / entry["file"]
         if not path.is_file():
             actual, status = None, "missing"
