@@ -46,12 +46,9 @@ def _fmt(value: object) -> object:
 
 def _handle(args: argparse.Namespace) -> int:
     import json
-    import os
     import sys
-    import tempfile
 
     from workbench.datamodel import PeakList
-    from workbench.errors import InputError
     from workbench.io import read_any
     from workbench.peaks import find_peaks
 
@@ -89,17 +86,9 @@ def _handle(args: argparse.Namespace) -> int:
         if args.json == "-":
             sys.stdout.write(text)
             return 0
-        target = os.path.abspath(args.json)
-        try:
-            fd, tmp = tempfile.mkstemp(dir=os.path.dirname(target), suffix=".tmp")
-            with os.fdopen(fd, "w", encoding="utf-8") as fh:
-                fh.write(text)
-            os.replace(tmp, target)
-        except OSError as exc:
-            raise InputError(
-                f"cannot write {args.json!r}: {exc.strerror}",
-                "choose a writable path for --json",
-            ) from None
+        from workbench.fileio import write_bytes_atomic
+
+        write_bytes_atomic(args.json, text.encode("utf-8"))
         print(f"wrote {len(rows)} peaks to {args.json}")
         return 0
     _print_table(peaks, shown_as_read)

@@ -11,7 +11,6 @@ import json
 import math
 import os
 import re
-import tempfile
 from collections.abc import Iterable, Mapping
 from pathlib import Path
 from typing import Any
@@ -184,21 +183,10 @@ def canonical_json(obj: Any) -> str:
 
 
 def atomic_write_bytes(path: Path, data: bytes) -> None:
-    """Write ``data`` to ``path`` through a temporary file and ``os.replace``."""
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
+    """Write ``data`` to ``path`` atomically, creating folders (shared helper)."""
+    from workbench.fileio import write_bytes_atomic
+
+    write_bytes_atomic(path, data, make_parents=True)
 
 
 def sha256_hex(data: bytes) -> str:

@@ -2,33 +2,19 @@
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 from typing import Any
 
 import polars as pl
 
-from workbench.errors import InputError
+from workbench.fileio import write_bytes_atomic
 
 __all__ = ["result_tables", "write_csv_tables", "write_json_atomic"]
 
 
 def write_json_atomic(path: Path, data: bytes) -> None:
-    """Write bytes to ``path`` through a temporary file and rename (never half-written)."""
-    path = Path(path)
-    if path.parent and not path.parent.exists():
-        raise InputError(f"folder {str(path.parent)!r} does not exist", "create it first")
-    fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    """Write result bytes atomically (see :func:`workbench.fileio.write_bytes_atomic`)."""
+    write_bytes_atomic(path, data)
 
 
 def result_tables(report: dict[str, Any]) -> dict[str, pl.DataFrame]:
