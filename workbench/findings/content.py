@@ -286,6 +286,7 @@ def build_sheet_content(
     notes: str,
     limitations: str,
     issued_at: str | datetime,
+    supplements: Sequence[Mapping[str, Any]] = (),
 ) -> dict[str, Any]:
     """Assemble the canonical content of a findings sheet.
 
@@ -309,6 +310,13 @@ def build_sheet_content(
         The analyst's free text, kept verbatim.
     issued_at : str or datetime
         Issue time (UTC or with an offset).
+
+    supplements : sequence of mapping, optional
+        Further results to report with the analysis, e.g. a questioned-vs-known
+        comparison or a candidate-materials report from :mod:`workbench.compare`:
+        each ``{"kind": str, "title": str, "text": str, "data": mapping}``, with
+        ``text`` the report's plain-text form (printed) and ``data`` its
+        ``to_dict()`` (kept in the JSON).
 
     Returns
     -------
@@ -394,4 +402,23 @@ def build_sheet_content(
         "limitations": _text(limitations, "limitations"),
         "cautions": list(CAUTIONS),
     }
+    if supplements:
+        content["supplements"] = [_supplement(s) for s in supplements]
     return normalise_value(content)
+
+
+def _supplement(sup: Mapping[str, Any]) -> dict[str, Any]:
+    from workbench.errors import InputError
+
+    missing = [k for k in ("kind", "title", "text") if not sup.get(k)]
+    if missing:
+        raise InputError(
+            f"a supplementary result lacks {', '.join(missing)}",
+            "give kind, title and text (and data) for each supplement",
+        )
+    return {
+        "kind": _text(sup["kind"], "supplement kind"),
+        "title": _text(sup["title"], "supplement title"),
+        "text": _text(sup["text"], "supplement text"),
+        "data": dict(sup.get("data") or {}),
+    }

@@ -557,6 +557,15 @@ class _Sheet:
         if len(findings) > len(_PALETTE):
             self.para(f"({len(findings) - len(_PALETTE)} further elements not drawn.)", 7)
 
+    def supplements(self) -> None:
+        sups = self.c.get("supplements") or []
+        if not sups:
+            return
+        self.heading("Comparisons and material candidates")
+        for sup in sups:
+            self.para(sup.get("title", ""), 9.5, bold=True)
+            self.para(sup.get("text", ""), 8.5)
+
     def free_text(self) -> None:
         self.heading("Analyst's notes")
         self.para(self.c.get("notes") or "(none)")
@@ -602,6 +611,7 @@ class _Sheet:
         self.findings()
         self.warnings()
         self.figure()
+        self.supplements()
         self.free_text()
         self.signature()
         pages = self.pdf.pages_count
