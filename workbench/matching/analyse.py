@@ -115,6 +115,9 @@ def analyse_input(
     if isinstance(data, Spectrum):
         spectrum = data
         peaks = find_peaks(data, mode=params.mode, **(peak_options or {}))
+        # The spectrum's own span bounds where lines could have been seen (and
+        # so where a strong line can be "missing"), not just the peaks' span.
+        peaks.extra.setdefault("x_range", (float(data.x[0]), float(data.x[-1])))
     else:
         peaks = data
         if peaks.mode != params.mode:
