@@ -149,6 +149,8 @@ def test_findings_page_creates_key_signs_and_verifies(app, store_root):
     app.text_input(key="lab_name").input("Invented Test Laboratory").run()
     app.text_area(key="sheet_notes").input("Notes with <b>markup</b> kept literally").run()
     app.button(key="preview").click().run()
+    assert not app.exception and app.session_state["draft"]["lab"]["name"]
+    app.button(key="render_draft").click().run()
     assert not app.exception and app.session_state["draft_pdf"].startswith(b"%PDF")
     app.text_input(key="passphrase").input("wrong passphrase").run()
     app.button(key="sign").click().run()
@@ -162,8 +164,10 @@ def test_findings_page_creates_key_signs_and_verifies(app, store_root):
     from workbench.findings import verify_sheet_with_store
 
     with CaseStore.open(store_root) as store:
-        res = verify_sheet_with_store(store, issued.pdf, issued.json, issued.signature_record)
+        res = verify_sheet_with_store(
+            store, issued.pdf_bytes, issued.json_bytes, issued.signature_record
+        )
         assert res.signer == ANALYST
         assert store.verify(CASE).ok
-    draft = json.loads(issued.json)
+    draft = json.loads(issued.json_bytes)
     assert draft["notes"] == "Notes with <b>markup</b> kept literally"  # verbatim

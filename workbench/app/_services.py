@@ -28,9 +28,9 @@ __all__ = [
     "apply_peak_edits",
     "boltzmann_fit_line",
     "chain_status",
+    "draft_key",
     "draft_sheet",
     "interference_spans",
-    "issue_sheet",
     "load_input",
     "md_escape",
     "observed_sticks",
@@ -578,72 +578,30 @@ def draft_sheet(
     limitations: str,
     issued_at: str | None = None,
 ) -> dict[str, Any]:
-    """Sheet content for a stored analysis (the library builds it from the store's records)."""
-    from workbench.findings import build_sheet_content, utc_timestamp
+    """Unsigned sheet content of a stored analysis (the library's draft, shown before signing).
 
-    a = store.get_analysis(int(analysis_id))
-    case = store.get_case(a.case_number)
-    item = store.get_item((a.case_number, a.item_number))
-    custody = [e.to_dict() for e in store.custody_events(item)]
-    m = store.get_measurement(a.measurement_id)
-    analyst = store.get_analyst(analyst_fingerprint)
-    analysis = {
-        "id": a.id,
-        "created_at": a.created_at,
-        "parameters": a.parameters,
-        "reference_sets": a.reference_sets,
-        "result": a.result_json,
-    }
-    return build_sheet_content(
+    The page signs this very content with
+    :func:`workbench.findings.issue.sign_and_store_sheet`, so what was previewed
+    is what is issued.
+    """
+    from workbench.findings.issue import draft_sheet_content
+
+    return draft_sheet_content(
+        store,
+        int(analysis_id),
+        analyst_fingerprint=analyst_fingerprint,
         lab=dict(lab),
-        case=case.to_dict(),
-        item=item.to_dict(),
-        custody=custody,
-        measurement=m.to_dict(),
-        analysis=analysis,
-        analyst={"name": analyst.name, "role": analyst.role, "fingerprint": analyst.fingerprint},
         notes=notes,
         limitations=limitations,
-        issued_at=issued_at or utc_timestamp(),
+        issued_at=issued_at,
     )
 
 
-@dataclass(frozen=True)
-class IssuedSheet:
-    """The four files of an issued sheet and its store record."""
-
-    pdf: bytes
-    json: bytes
-    signature_raw: bytes
-    signature_record: bytes
-    record: Any
-
-
-def issue_sheet(
-    store: Any,
-    analysis_id: int,
-    content: Mapping[str, Any],
-    private_key_pem: bytes,
-    passphrase: str,
-) -> IssuedSheet:
-    """Render, sign with the analyst's key, and store the sheet (refused if anything fails)."""
-    from workbench.findings import canonical_json, load_private_key, render_pdf, sign_sheet
-
-    key = load_private_key(bytes(private_key_pem), passphrase, source="uploaded private key")
-    pdf = render_pdf(content)
-    js = canonical_json(content)
-    analyst = content["analyst"]
-    signed = sign_sheet(pdf, js, key, signer=analyst["name"], signed_at=content["issued_at"])
-    record = store.add_findings_sheet(
-        int(analysis_id),
-        analyst_fingerprint=analyst["fingerprint"],
-        pdf_bytes=pdf,
-        json_bytes=js,
-        signature_raw=signed.signature_raw,
-        signature_record=signed.record,
-        issued_at=content["issued_at"],
-    )
-    return IssuedSheet(pdf, js, signed.signature_raw, signed.record, record)
+def draft_key(
+    analysis_id: int, analyst_fingerprint: str, lab: Mapping[str, Any], notes: str, limitations: str
+) -> tuple[Any, ...]:
+    """What a draft was made from, to tell whether the form changed after the preview."""
+    return (int(analysis_id), analyst_fingerprint, tuple(sorted(lab.items())), notes, limitations)
 
 
 def sheet_files(store: Any, sheet: Any) -> dict[str, bytes]:

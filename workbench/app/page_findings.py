@@ -107,51 +107,77 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                     lab = {"name": lab_name}
                     if lab_acc:
                         lab["accreditation"] = lab_acc
+                    made_from = sv.draft_key(aid, fp, lab, notes, limitations)
                     if st.button("Preview draft", key="preview"):
                         with _ui.shown_errors():
-                            from workbench.findings import render_pdf
-
                             content = sv.draft_sheet(
                                 store, aid, lab=lab, analyst_fingerprint=fp, notes=notes,
                                 limitations=limitations,
                             )  # fmt: skip
                             st.session_state["draft"] = content
-                            st.session_state["draft_pdf"] = render_pdf(content)
+                            st.session_state["draft_made_from"] = made_from
+                            st.session_state.pop("draft_pdf", None)
                     draft = st.session_state.get("draft")
                     if draft is not None:
-                        st.caption("Draft content (unsigned):")
+                        st.caption(
+                            f"Draft content (unsigned), issue time {draft['issued_at']}: "
+                            f"{len(draft['findings'])} finding(s), "
+                            f"{len(draft['warnings'])} warning(s)."
+                        )
                         st.json(
                             {k: draft[k] for k in ("case", "item", "findings", "warnings",
                                                    "notes", "limitations", "cautions")},
                             expanded=False,
                         )  # fmt: skip
-                        st.download_button(
-                            "Download draft PDF (unsigned)", st.session_state["draft_pdf"],
-                            file_name="draft-findings.pdf", mime="application/pdf",
-                            key="dl_draft",
-                        )  # fmt: skip
+                        # A long sheet takes a while to lay out, so the PDF is made on request.
+                        if st.button("Render the draft PDF", key="render_draft"):
+                            with _ui.shown_errors(), st.spinner("Laying out the PDF…"):
+                                from workbench.findings import render_pdf
+
+                                st.session_state["draft_pdf"] = render_pdf(draft)
+                        if st.session_state.get("draft_pdf"):
+                            st.download_button(
+                                "Download draft PDF (unsigned)", st.session_state["draft_pdf"],
+                                file_name="draft-findings.pdf", mime="application/pdf",
+                                key="dl_draft",
+                            )  # fmt: skip
                     st.subheader("Sign and issue")
                     key_up = st.file_uploader(
                         "Private key (PEM); a key created in this session is used if none is given",
                         key="key_upload",
                     )
                     passphrase = st.text_input("Passphrase", type="password", key="passphrase")
+                    st.caption(
+                        "The previewed draft is what gets signed, with its issue time; change "
+                        "anything above and preview again before signing."
+                    )
                     if st.button("Sign and issue the sheet", type="primary", key="sign"):
                         with _ui.shown_errors():
-                            from workbench.errors import KeyFileError
+                            from workbench.errors import InputError, KeyFileError
+                            from workbench.findings.issue import sign_and_store_sheet
 
+                            if draft is None:
+                                raise InputError(
+                                    "no draft to sign", "press 'Preview draft' and check it first"
+                                )
+                            if st.session_state.get("draft_made_from") != made_from:
+                                raise InputError(
+                                    "the analysis, analyst, laboratory, notes or limitations "
+                                    "changed after the draft was previewed",
+                                    "press 'Preview draft' again and check the new draft",
+                                )
                             pem = key_up.getvalue() if key_up is not None else None
                             pem = pem or st.session_state.get("new_private_key")
                             if not pem:
                                 raise KeyFileError(
                                     "no private key given", "upload the analyst's private key PEM"
                                 )
-                            content = sv.draft_sheet(
-                                store, aid, lab=lab, analyst_fingerprint=fp, notes=notes,
-                                limitations=limitations,
-                            )  # fmt: skip
-                            issued = sv.issue_sheet(store, aid, content, pem, passphrase)
+                            issued = sign_and_store_sheet(
+                                store, aid, draft, private_key_pem=pem, passphrase=passphrase
+                            )
                             st.session_state["issued"] = issued
+                            for k in ("draft", "draft_pdf", "draft_made_from"):
+                                st.session_state.pop(k, None)
                     issued = st.session_state.get("issued")
                     if issued is not None:
                         st.success(
@@ -160,9 +186,9 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                         )
                         stem = f"findings-{issued.record.case_number}-{issued.record.id}"
                         c1, c2, c3, c4 = st.columns(4)
-                        c1.download_button("Sheet PDF", issued.pdf, f"{stem}.pdf",
+                        c1.download_button("Sheet PDF", issued.pdf_bytes, f"{stem}.pdf",
                                            "application/pdf", key="dl_pdf")  # fmt: skip
-                        c2.download_button("Sheet JSON", issued.json, f"{stem}.json",
+                        c2.download_button("Sheet JSON", issued.json_bytes, f"{stem}.json",
                                            "application/json", key="dl_json")  # fmt: skip
                         c3.download_button("Signature (.sig)", issued.signature_raw,
                                            f"{stem}.pdf.sig", key="dl_sig")  # fmt: skip

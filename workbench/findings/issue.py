@@ -1,10 +1,14 @@
 """Issue a signed findings sheet for an analysis held in a case store.
 
-:func:`issue_findings_sheet` gathers the case, item, custody history,
-measurement and analysis from the store, builds the content, renders the PDF,
-signs both renderings with the analyst's key and stores the four files with
+:func:`draft_sheet_content` gathers the case, item, custody history,
+measurement and analysis from the store and builds the content;
+:func:`sign_and_store_sheet` checks the signer (registered, not revoked, key
+matching the registered fingerprint), renders the PDF, signs both renderings
+with the analyst's key and stores the four files with
 :meth:`CaseStore.add_findings_sheet` (one transaction, which also appends the
-``reported`` custody event). Optionally the files are written to a folder:
+``reported`` custody event). :func:`issue_findings_sheet` does both; a face
+that previews the draft calls them separately, so that the previewed content
+is the one signed. Optionally the files are written to a folder:
 they are first written under temporary names, and only renamed into place
 once the store has accepted the sheet, so a failure leaves nothing behind.
 """
@@ -26,7 +30,14 @@ from workbench.findings.keys import fingerprint_of, load_private_key
 from workbench.findings.sheet import render_pdf
 from workbench.findings.signing import analyst_revocation, sign_sheet, verify_sheet
 
-__all__ = ["SHEET_SUFFIXES", "IssuedSheet", "gather_sheet_inputs", "issue_findings_sheet"]
+__all__ = [
+    "SHEET_SUFFIXES",
+    "IssuedSheet",
+    "draft_sheet_content",
+    "gather_sheet_inputs",
+    "issue_findings_sheet",
+    "sign_and_store_sheet",
+]
 
 #: File suffixes of an issued sheet: PDF, canonical JSON, raw signature, signature record.
 SHEET_SUFFIXES: dict[str, str] = {
@@ -189,20 +200,38 @@ def _discard(staged: Mapping[str, tuple[Path, Path]]) -> None:
         tmp.unlink(missing_ok=True)
 
 
-def issue_findings_sheet(
+def _registered_analyst(store: Any, fingerprint: str) -> Any:
+    """The store's analyst record for ``fingerprint`` (SigningError if there is none)."""
+    try:
+        analyst = store.get_analyst(fingerprint)
+    except NotFoundError as exc:
+        raise SigningError(
+            f"analyst key {fingerprint} is not registered in the case store",
+            "register the public key first ('workbench keys register PUBKEY --name --role')",
+        ) from exc
+    if analyst.fingerprint != fingerprint:
+        raise SigningError(
+            f"{fingerprint!r} is not a key fingerprint",
+            f"give the fingerprint ({analyst.fingerprint})",
+        )
+    return analyst
+
+
+def draft_sheet_content(
     store: Any,
     analysis_id: int,
     *,
     analyst_fingerprint: str,
-    private_key_pem: bytes,
-    passphrase: str,
     lab: Mapping[str, Any],
     notes: str,
     limitations: str,
     issued_at: str | None = None,
-    out_dir: str | os.PathLike[str] | None = None,
-) -> IssuedSheet:
-    """Build, render, sign and store a findings sheet for one analysis.
+) -> dict[str, Any]:
+    """Build the (unsigned) content of a findings sheet for one stored analysis.
+
+    This is what :func:`issue_findings_sheet` signs; a face that previews the
+    draft before signing calls this, shows it, and passes the same content to
+    :func:`sign_and_store_sheet`.
 
     Parameters
     ----------
@@ -211,17 +240,78 @@ def issue_findings_sheet(
     analysis_id : int
         The analysis to report.
     analyst_fingerprint : str
-        Registered fingerprint of the signing analyst's key.
-    private_key_pem : bytes
-        The analyst's encrypted private key (``.key.pem``).
-    passphrase : str
-        Its passphrase.
+        Registered fingerprint of the analyst who will sign.
     lab : mapping
         Laboratory details (``name`` required).
     notes, limitations : str
         Analyst's free text, printed verbatim.
     issued_at : str, optional
         UTC issue time; now when omitted.
+
+    Returns
+    -------
+    dict
+        The sheet content (:func:`~workbench.findings.content.build_sheet_content`).
+
+    Raises
+    ------
+    SigningError
+        If the analyst's key is not registered.
+    NotFoundError
+        If the analysis does not exist.
+    """
+    analyst = _registered_analyst(store, analyst_fingerprint)
+    inputs = gather_sheet_inputs(store, analysis_id)
+    return build_sheet_content(
+        lab=lab,
+        analyst={"name": analyst.name, "role": analyst.role, "fingerprint": analyst.fingerprint},
+        notes=notes,
+        limitations=limitations,
+        issued_at=utc_timestamp(issued_at),
+        **inputs,
+    )
+
+
+def _content_field(content: Mapping[str, Any], key: str) -> Mapping[str, Any]:
+    part = content.get(key) if isinstance(content, Mapping) else None
+    if not isinstance(part, Mapping):
+        raise InputError(
+            f"the sheet content has no {key!r} section",
+            "build the content with draft_sheet_content (or build_sheet_content)",
+        )
+    return part
+
+
+def sign_and_store_sheet(
+    store: Any,
+    analysis_id: int,
+    content: Mapping[str, Any],
+    *,
+    private_key_pem: bytes,
+    passphrase: str,
+    out_dir: str | os.PathLike[str] | None = None,
+) -> IssuedSheet:
+    """Check the signer, render, sign and store a drafted sheet (and write its files).
+
+    The content is signed exactly as given (so that what was previewed is what
+    is issued), after these refusals: the content is for another analysis, or
+    for another version of its record; the analyst named in it is unknown,
+    revoked or registered under another name; the private key is not the
+    registered one.
+
+    Parameters
+    ----------
+    store : CaseStore
+        The open case store.
+    analysis_id : int
+        The analysis the sheet reports.
+    content : mapping
+        Sheet content from :func:`draft_sheet_content`; its ``issued_at`` is
+        the signing time.
+    private_key_pem : bytes
+        The analyst's encrypted private key (``.key.pem``).
+    passphrase : str
+        Its passphrase.
     out_dir : path-like, optional
         Folder to write ``<stem>.pdf``, ``.json``, ``.sig`` and ``.sig.json`` into.
 
@@ -232,22 +322,34 @@ def issue_findings_sheet(
 
     Raises
     ------
+    InputError
+        If the content is not for this analysis or lacks a section.
     SigningError
         If the analyst is unknown or revoked, or the key is not the registered one.
     KeyFileError
         If the key cannot be read or the passphrase is wrong.
     """
-    try:
-        analyst = store.get_analyst(analyst_fingerprint)
-    except NotFoundError as exc:
+    analysis_part = _content_field(content, "analysis")
+    named = _content_field(content, "analyst")
+    stored = store.get_analysis(int(analysis_id))
+    if analysis_part.get("id") != stored.id:
+        raise InputError(
+            f"the sheet content reports analysis {analysis_part.get('id')!r}, "
+            f"not analysis {stored.id}",
+            "draft the sheet again for the analysis to be issued",
+        )
+    if analysis_part.get("record_hash") != stored.record_hash:
+        raise InputError(
+            f"the sheet content for analysis {stored.id} does not carry the stored record's "
+            "hash (it was drafted from other data)",
+            "draft the sheet again from the store",
+        )
+    analyst = _registered_analyst(store, str(named.get("fingerprint") or ""))
+    if named.get("name") != analyst.name:
         raise SigningError(
-            f"analyst key {analyst_fingerprint} is not registered in the case store",
-            "register the public key first ('workbench keys register PUBKEY --name --role')",
-        ) from exc
-    if analyst.fingerprint != analyst_fingerprint:
-        raise SigningError(
-            f"{analyst_fingerprint!r} is not a key fingerprint",
-            f"give the fingerprint ({analyst.fingerprint})",
+            f"the sheet names the analyst {named.get('name')!r} but key "
+            f"{analyst.fingerprint} is registered to {analyst.name!r}",
+            "draft the sheet again with the registered analyst",
         )
     revoked, note = analyst_revocation(analyst)
     if revoked:
@@ -256,7 +358,7 @@ def issue_findings_sheet(
             "it can no longer sign",
             "create and register a new key ('workbench keys create', 'workbench keys register')",
         )
-    private_key = load_private_key(private_key_pem, passphrase)
+    private_key = load_private_key(bytes(private_key_pem), passphrase)
     key_fp = fingerprint_of(private_key.public_key())  # type: ignore[attr-defined]
     if key_fp != analyst.fingerprint:
         raise SigningError(
@@ -264,16 +366,12 @@ def issue_findings_sheet(
             f"{analyst.name} ({analyst.fingerprint})",
             "sign with the key file that belongs to the registered public key",
         )
-    when = utc_timestamp(issued_at)
-    inputs = gather_sheet_inputs(store, analysis_id)
-    content = build_sheet_content(
-        lab=lab,
-        analyst={"name": analyst.name, "role": analyst.role, "fingerprint": analyst.fingerprint},
-        notes=notes,
-        limitations=limitations,
-        issued_at=when,
-        **inputs,
-    )
+    when = utc_timestamp(content.get("issued_at"))
+    if when != content.get("issued_at"):
+        raise InputError(
+            f"the sheet's issue time {content.get('issued_at')!r} is not a UTC time to the second",
+            "draft the sheet again (draft_sheet_content normalises the time)",
+        )
     json_bytes = canonical_json(content)
     pdf_bytes = render_pdf(content)
     signed = sign_sheet(pdf_bytes, json_bytes, private_key, signer=analyst.name, signed_at=when)
@@ -312,7 +410,7 @@ def issue_findings_sheet(
     return IssuedSheet(
         sheet_id=int(record.id),
         record=record,
-        content=content,
+        content=dict(content),
         pdf_bytes=pdf_bytes,
         json_bytes=json_bytes,
         signature_raw=signed.signature_raw,
@@ -320,4 +418,73 @@ def issue_findings_sheet(
         key_fingerprint=analyst.fingerprint,
         issued_at=when,
         paths=paths,
+    )
+
+
+def issue_findings_sheet(
+    store: Any,
+    analysis_id: int,
+    *,
+    analyst_fingerprint: str,
+    private_key_pem: bytes,
+    passphrase: str,
+    lab: Mapping[str, Any],
+    notes: str,
+    limitations: str,
+    issued_at: str | None = None,
+    out_dir: str | os.PathLike[str] | None = None,
+) -> IssuedSheet:
+    """Build, render, sign and store a findings sheet for one analysis.
+
+    :func:`draft_sheet_content` followed by :func:`sign_and_store_sheet`.
+
+    Parameters
+    ----------
+    store : CaseStore
+        The open case store.
+    analysis_id : int
+        The analysis to report.
+    analyst_fingerprint : str
+        Registered fingerprint of the signing analyst's key.
+    private_key_pem : bytes
+        The analyst's encrypted private key (``.key.pem``).
+    passphrase : str
+        Its passphrase.
+    lab : mapping
+        Laboratory details (``name`` required).
+    notes, limitations : str
+        Analyst's free text, printed verbatim.
+    issued_at : str, optional
+        UTC issue time; now when omitted.
+    out_dir : path-like, optional
+        Folder to write ``<stem>.pdf``, ``.json``, ``.sig`` and ``.sig.json`` into.
+
+    Returns
+    -------
+    IssuedSheet
+        The stored sheet and its files.
+
+    Raises
+    ------
+    SigningError
+        If the analyst is unknown or revoked, or the key is not the registered one.
+    KeyFileError
+        If the key cannot be read or the passphrase is wrong.
+    """
+    content = draft_sheet_content(
+        store,
+        analysis_id,
+        analyst_fingerprint=analyst_fingerprint,
+        lab=lab,
+        notes=notes,
+        limitations=limitations,
+        issued_at=issued_at,
+    )
+    return sign_and_store_sheet(
+        store,
+        analysis_id,
+        content,
+        private_key_pem=private_key_pem,
+        passphrase=passphrase,
+        out_dir=out_dir,
     )

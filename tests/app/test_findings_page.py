@@ -1,0 +1,71 @@
+"""AppTest tests of the Findings page's refusals: the library's checks hold through the app.
+
+The page signs the previewed draft with workbench.findings.issue.sign_and_store_sheet;
+these tests drive it against the invented store of tests/app/conftest.py.
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from tests.app.conftest import ANALYST, CASE
+from tests.app.test_pages import _run_matching, _texts
+
+pytestmark = pytest.mark.slow
+
+PASSPHRASE = "correct horse 1"  # invented
+OTHER = "Bo Otherkey (invented)"
+
+
+def _saved_analysis_and_key(app) -> None:
+    _run_matching(app)
+    app.text_input(key="analysis_analyst").input(ANALYST).run()
+    app.button(key="save_analysis").click().run()
+    app.switch_page("page_findings.py").run()
+    labels = {t.label: t for t in app.text_input}
+    labels["Analyst name"].input(ANALYST)
+    labels["Passphrase (at least 8 characters)"].input(PASSPHRASE)
+    labels["Repeat the passphrase"].input(PASSPHRASE)
+    next(b for b in app.button if b.label == "Create key").click().run()
+    assert not app.exception and not app.error, _texts(app.error)
+    app.text_input(key="lab_name").input("Invented Test Laboratory").run()
+
+
+def test_a_key_not_matching_the_chosen_analyst_is_refused_through_the_app(app, store_root):
+    _saved_analysis_and_key(app)
+    # A second analyst registered with another key; the session holds only the first key.
+    from workbench.casefile.store import CaseStore
+    from workbench.findings import generate_key_pair
+
+    other = generate_key_pair(PASSPHRASE)
+    with CaseStore.open(store_root) as store:
+        other_fp = store.register_analyst(OTHER, "Analyst", other.public_key_pem).fingerprint
+    app.run()
+    signer = next(s for s in app.selectbox if s.label == "Signing analyst")
+    signer.set_value(other_fp).run()
+    app.button(key="preview").click().run()
+    assert not app.exception and app.session_state["draft"]["analyst"]["name"] == OTHER
+    app.text_input(key="passphrase").input(PASSPHRASE).run()
+    app.button(key="sign").click().run()
+    assert not app.exception
+    # The refusal is the library's (workbench/findings/issue.py message).
+    assert any("does not match the registered key" in t for t in _texts(app.error))
+    assert "issued" not in app.session_state
+    with CaseStore.open(store_root) as store:
+        assert store.list_findings_sheets(CASE) == []  # nothing stored
+        assert store.verify(CASE).ok
+
+
+def test_signing_needs_a_preview_and_an_unchanged_form(app, store_root):
+    _saved_analysis_and_key(app)
+    app.text_input(key="passphrase").input(PASSPHRASE).run()
+    app.button(key="sign").click().run()
+    assert any("no draft to sign" in t for t in _texts(app.error))
+    app.button(key="preview").click().run()
+    app.text_area(key="sheet_notes").input("changed after the preview").run()
+    app.button(key="sign").click().run()
+    assert any("changed after the draft was previewed" in t for t in _texts(app.error))
+    from workbench.casefile.store import CaseStore
+
+    with CaseStore.open(store_root) as store:
+        assert store.list_findings_sheets(CASE) == []
