@@ -7,7 +7,7 @@ Flow of :func:`match_peaks`:
    temperature (:mod:`~workbench.matching.expected`).
 3. Evidence pass 1, all species competing; pass 2, competition restricted
    to species with real support in pass 1 — "probable" or better, or
-   "possible" with a chance probability ≤ 0.01
+   "possible" with a chance probability ≤ 0.01 and no missing strong line
    (:mod:`~workbench.matching.evidence`).
 4. Emission without a given temperature: a Boltzmann-plot estimate from the
    best-identified species; when it differs from the working value by more
@@ -44,7 +44,34 @@ from workbench.matching.reference import ReferenceIndex
 from workbench.matching.temperature import TemperatureEstimate, estimate_temperature
 from workbench.matching.tolerance import ToleranceSpec
 
-__all__ = ["MatchParameters", "MatchResult", "build_index", "match_peaks"]
+__all__ = ["RARE_RADIOACTIVE", "MatchParameters", "MatchResult", "build_index", "match_peaks"]
+
+#: Elements left out unless asked for by name: no stable isotope and no
+#: place in ordinary casework samples (Tc, Pm, Po and heavier except Th and U).
+#: Their many listed lines would otherwise compete for every peak
+#: (common practice, no source).
+RARE_RADIOACTIVE: tuple[str, ...] = (
+    "Tc",
+    "Pm",
+    "Po",
+    "At",
+    "Rn",
+    "Fr",
+    "Ra",
+    "Ac",
+    "Pa",
+    "Np",
+    "Pu",
+    "Am",
+    "Cm",
+    "Bk",
+    "Cf",
+    "Es",
+    "Fm",
+    "Md",
+    "No",
+    "Lr",
+)
 
 
 @dataclass(frozen=True)
@@ -86,6 +113,9 @@ class MatchParameters:
         A second species explains a peak too when predicted at ≥ this × the best.
     max_ion : int or None
         Highest ion stage considered (2 = I and II); ``None`` for all stages.
+    exclude_elements : tuple of str
+        Elements left out (default :data:`RARE_RADIOACTIVE`); ignored for
+        elements named in ``elements``.
     """
 
     tolerance: ToleranceSpec = field(default_factory=ToleranceSpec)
@@ -103,6 +133,7 @@ class MatchParameters:
     electron_density_per_cm3: float | None = None
     share_ratio: float = 0.2
     max_ion: int | None = 2
+    exclude_elements: tuple[str, ...] = RARE_RADIOACTIVE
 
     def __post_init__(self) -> None:
         t = self.temperature_K
@@ -123,6 +154,7 @@ class MatchParameters:
         d = asdict(self)
         d["tolerance"] = self.tolerance.to_dict()
         d["elements"] = list(self.elements) if self.elements else None
+        d["exclude_elements"] = list(self.exclude_elements)
         return d
 
 
@@ -158,13 +190,17 @@ def build_index(
     medium: str | None,
     elements: Sequence[str] | None = None,
     max_ion: int | None = 2,
+    exclude: Sequence[str] = (),
 ) -> ReferenceIndex:
     """Reference index for these sets, cached by set ids, hashes and the other arguments."""
     els = tuple(sorted(elements)) if elements else None
-    key = (tuple((s.id, s.sha256) for s in sets), axis, medium, els, max_ion)
+    exc = tuple(sorted(set(exclude) - set(els or ())))
+    key = (tuple((s.id, s.sha256) for s in sets), axis, medium, els, max_ion, exc)
     index = _INDEX_CACHE.get(key)
     if index is None:
-        index = ReferenceIndex.from_sets(list(sets), axis, medium, els, max_ion=max_ion)
+        index = ReferenceIndex.from_sets(
+            list(sets), axis, medium, els, max_ion=max_ion, exclude=exc
+        )
         if len(_INDEX_CACHE) >= 16:
             _INDEX_CACHE.pop(next(iter(_INDEX_CACHE)))
         _INDEX_CACHE[key] = index
@@ -238,7 +274,8 @@ def _run_passes(
     plausible = {
         c
         for c, ev in first.evidence.items()
-        if ev.level >= 2 or (ev.level >= 1 and ev.chance_probability <= 0.01)
+        if ev.level >= 2
+        or (ev.level >= 1 and ev.chance_probability <= 0.01 and not ev.missing_strong)
     }
     return gather_evidence(obs, index, strengths, in_range, plausible=plausible, **kw)
 
@@ -286,7 +323,9 @@ def match_peaks(
             f"use --mode {peaks.mode}, or find the peaks again in {params.mode} mode",
         )
     obs = _observed(peaks, params)
-    index = build_index(sets, peaks.axis, peaks.medium, params.elements, params.max_ion)
+    index = build_index(
+        sets, peaks.axis, peaks.medium, params.elements, params.max_ion, params.exclude_elements
+    )
     x_range = peaks.extra.get("x_range") if isinstance(peaks.extra, dict) else None
     if x_range:
         lo, hi = float(x_range[0]), float(x_range[1])

@@ -111,6 +111,7 @@ class ReferenceIndex:
         elements: Sequence[str] | None = None,
         position_range: tuple[float, float] | None = None,
         max_ion: int | None = 2,
+        exclude: Sequence[str] = (),
     ) -> ReferenceIndex:
         """Build the index from loaded reference sets.
 
@@ -129,6 +130,8 @@ class ReferenceIndex:
             Restrict to these element symbols.
         position_range : (float, float), optional
             Keep only lines inside this range (axis unit).
+        exclude : sequence of str
+            Element symbols to leave out.
         max_ion : int or None
             Highest ion stage kept (2: neutral and singly ionised, the stages
             that dominate LIBS, spark and ICP spectra); ``None`` keeps all.
@@ -152,9 +155,15 @@ class ReferenceIndex:
             t = s.table
             if elements:
                 t = t.filter(pl.col("element").is_in(list(elements)))
+            if exclude:
+                t = t.filter(~pl.col("element").is_in(list(exclude)))
             if max_ion is not None and "ion" in t.columns:
                 t = t.filter(pl.col("ion").is_null() | (pl.col("ion") <= max_ion))
-            frames.append(t.with_columns(pl.lit(s.id).alias("_set_id")))
+            frames.append(
+                t.with_columns(
+                    pl.lit(s.id).alias("_set_id"), pl.lit(len(frames)).alias("_set_order")
+                )
+            )
             provenance.append(s.provenance())
         table = pl.concat(frames, how="diagonal_relaxed")
         if axis == "wavelength":
@@ -187,15 +196,20 @@ class ReferenceIndex:
             .otherwise(pl.col("element") + "|" + pl.col("ion").cast(pl.Utf8))
             .alias("_species_key")
         )
-        # Same line from two sets (e.g. H in optical and hydrogen_like): keep the first set's.
-        table = table.with_columns(pl.col("_pos").round(5).alias("_pos_key")).unique(
-            subset=["_species_key", "_pos_key"], keep="first", maintain_order=True
+        # Same line in two sets (e.g. H in optical and hydrogen_like): keep the
+        # earlier set's. Lines within one set are never dropped here (X-ray
+        # K-M2 and K-M3 share an energy and are both real).
+        table = table.with_columns(pl.col("_pos").round(5).alias("_pos_key"))
+        table = table.filter(
+            pl.col("_set_order") == pl.col("_set_order").min().over(["_species_key", "_pos_key"])
         )
         # Isotope and hyperfine components listed separately with the same
         # atomic data (Morton lists 24/25/26Mg II 279.55 each with the full A)
         # would count one line several times: collapse same-species rows closer
         # than 0.002 nm (or 0.5 eV) with equal g_upper, A and E_upper.
-        near = 0.002 if axis == "wavelength" else 0.5
+        # (Wavelength axis only: X-ray lines at one energy, e.g. Ti K-M2 and
+        # K-M3, are distinct transitions whose intensities both count.)
+        near = 0.002 if axis == "wavelength" else 0.0
         table = table.sort(["_species_key", "_pos", "line_id"])
         same_prev = (pl.col("_species_key") == pl.col("_species_key").shift(1)) & (
             (pl.col("_pos") - pl.col("_pos").shift(1)) < near
