@@ -129,7 +129,8 @@ def test_matching_page_shows_calls_warnings_sticks_and_saves(app, store_root):
         (a,) = store.list_analyses(CASE)
         assert a.analyst == ANALYST
         assert a.parameters["peak_table"]["edits"] == []
-        assert len(a.parameters["peak_table"]["original_rows"]) == 7
+        assert a.parameters["peak_table"]["n_rows"] == 7  # rows in PEAKS_CSV
+        assert "original_rows" not in a.parameters["peak_table"]  # kept only with edits
         assert json.loads(a.result_json)["schema_version"] == 1
         assert store.verify(CASE).ok
 

@@ -117,12 +117,67 @@ def test_interference_spans_only_for_overlap_warnings():
     assert lo == pytest.approx(410.0 - 0.06) and hi == pytest.approx(410.02 + 0.06)
 
 
-def test_boltzmann_line_has_slope_minus_one_over_kT():
-    # 1 eV / k_B = 11604.518 K (CODATA 2018 via scipy.constants), so the slope is −1 per eV.
-    xs, ys = sv.boltzmann_fit_line(_report())
+def test_boltzmann_line_is_the_engines_fit():
+    # Invented fit y = 7.5 − 1.25·E over points at E = 1..3 eV: the end points follow from
+    # the slope and intercept alone (arithmetic), not from the points' centroid (2, 4).
+    report = _report()
+    report["temperature"]["estimate"]["plot"].update(slope_per_eV=-1.25, intercept=7.5)
+    xs, ys = sv.boltzmann_fit_line(report)
     assert xs == [1.0, 3.0]
-    assert (ys[1] - ys[0]) / (xs[1] - xs[0]) == pytest.approx(-1.0, rel=1e-6)
-    assert (ys[0] + ys[1]) / 2 == pytest.approx(4.0)  # passes through the centroid (2, 4)
+    assert ys == [pytest.approx(6.25), pytest.approx(3.75)]
+
+
+def test_boltzmann_line_needs_the_fit():
+    assert sv.boltzmann_fit_line(_report()) is None  # no slope/intercept in the report
+    report = _report()
+    report["temperature"]["estimate"]["plot"].update(slope_per_eV=float("nan"), intercept=1.0)
+    assert sv.boltzmann_fit_line(report) is None
+
+
+def test_boltzmann_line_of_a_real_engine_run_lies_on_its_points():
+    # Invented Fe I peak list (air wavelengths of strong Fe I lines, NIST ASD, from memory;
+    # equal invented intensities). The engine's fit is unweighted least squares
+    # (workbench/physics/boltzmann.py), so residuals about the drawn line average to zero,
+    # and its slope is −1/(k_B T) (Boltzmann plot definition; CODATA via scipy.constants).
+    import numpy as np
+    from scipy.constants import e, k
+
+    from workbench.matching import MatchParameters, ToleranceSpec
+    from workbench.matching.analyse import analyse_peaks
+
+    wl = [
+        344.0608,
+        358.1193,
+        371.9935,
+        373.4864,
+        374.5561,
+        381.5840,
+        382.0425,
+        385.9911,
+        404.5813,
+        406.3594,
+        426.0474,
+        430.7902,
+        438.3545,
+        440.4750,
+        495.7596,
+        527.0357,
+    ]
+    table = pl.DataFrame({"wavelength_nm": wl, "intensity": [1000.0] * len(wl)})
+    peaks = PeakList(table, "wavelength", "air")
+    params = MatchParameters(tolerance=ToleranceSpec("resolving_power", 5000.0))
+    report = analyse_peaks(peaks, ["optical"], params).report
+    est = (report.get("temperature") or {}).get("estimate") or {}
+    if not est.get("temperature_K"):
+        pytest.skip("the engine gave no temperature estimate for this list")
+    plot = est["plot"]
+    xs, ys = sv.boltzmann_fit_line(report)
+    x, y = np.array(plot["E_upper_eV"]), np.array(plot["ln_I_lambda_over_gA"])
+    slope = (ys[1] - ys[0]) / (xs[1] - xs[0])
+    resid = y - (ys[0] + slope * (x - xs[0]))
+    assert abs(float(np.mean(resid))) < 1e-6 * max(1.0, float(np.ptp(y)))  # LS: mean residual 0
+    assert xs == [float(x.min()), float(x.max())]
+    assert slope == pytest.approx(-e / (k * est["temperature_K"]), rel=1e-6)
 
 
 def test_observed_sticks_are_scaled_to_the_strongest():
@@ -132,3 +187,25 @@ def test_observed_sticks_are_scaled_to_the_strongest():
 
 def test_markdown_escape_neutralises_markup():
     assert sv.md_escape("**bold** <b>x</b>") == r"\*\*bold\*\* \<b\>x\</b\>"
+
+
+def test_analysis_parameters_keep_the_rows_only_with_edits():
+    import hashlib
+    import json
+
+    from workbench.matching import MatchParameters, ToleranceSpec
+
+    params = MatchParameters(tolerance=ToleranceSpec("resolving_power", 5000.0))
+    rows = sv.table_rows(_peaks().table)
+    plain = sv.analysis_parameters(params, {"medium": "air"}, rows, [], ["optical"])
+    # SHA-256 of the rows' compact sorted-key JSON (hashlib; the digest rule in _services).
+    expected = hashlib.sha256(
+        json.dumps(rows, sort_keys=True, separators=(",", ":")).encode()
+    ).hexdigest()
+    assert plain["peak_table"] == {
+        "n_rows": 3, "rows_sha256": expected, "edits": [], "n_edits": 0
+    }  # fmt: skip
+    edits = [{"action": "deleted", "row": 1, "old": rows[0]}]
+    edited = sv.analysis_parameters(params, {}, rows, edits, ["optical"])
+    assert edited["peak_table"]["original_rows"] == rows
+    assert edited["peak_table"]["rows_sha256"] == expected

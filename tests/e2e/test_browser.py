@@ -1,4 +1,9 @@
-"""End-to-end: the real app in headless Chromium, from upload to a verified signed sheet.
+"""End-to-end: the real app in headless Chromium, walking the invented demo case.
+
+The store is seeded with :func:`workbench.demo.seed_demo_case` (invented cases
+NRFL-2026-0417, a paint chip with a LIBS spectrum, and NRFL-2026-0502); the test
+uploads the paint-chip spectrum, reads the stored measurement, runs the matching,
+saves the analysis, creates a key, signs a sheet and verifies the downloaded files.
 
 Runs when /usr/bin/chromium exists (Debian package ``chromium``); with
 ``WORKBENCH_REQUIRE_BROWSER=1`` a missing browser fails instead of skipping.
@@ -18,15 +23,13 @@ from pathlib import Path
 
 import pytest
 
-from tests.app.conftest import PEAKS_CSV
-
 pytestmark = [pytest.mark.e2e, pytest.mark.slow]
 
 CHROMIUM = Path("/usr/bin/chromium")
 REPO = Path(__file__).resolve().parents[2]
 ARTIFACTS = REPO / "test-artifacts" / "e2e"
 SCREENSHOTS = REPO / "docs" / "screenshots"
-CASE = "E2E-2026-0042"
+CASE = "NRFL-2026-0417"  # invented demo case (workbench/demo.py)
 ANALYST = "Quinn Tester (invented)"
 PASSPHRASE = "e2e passphrase 42"
 
@@ -45,16 +48,12 @@ def _free_port() -> int:
         return int(s.getsockname()[1])
 
 
-def _seed(root: Path) -> None:
+def _seed(root: Path) -> dict:
     from workbench.casefile.store import CaseStore
+    from workbench.demo import seed_demo_case
 
     with CaseStore.open(root) as store:
-        store.create_case(CASE, "Invented e2e case: brass fragment", "Invented Constabulary")
-        store.add_item(
-            CASE, "1", "Brass fragment in sealed bag (invented)", seal_numbers=["E-1"],
-            received_by=ANALYST, received_from="Courier Di (invented)",
-            at="2026-11-03T09:00:00Z",
-        )  # fmt: skip
+        return seed_demo_case(store)
 
 
 @pytest.fixture
@@ -63,7 +62,8 @@ def app_url(tmp_path):
     from workbench.app.launch import app_command
 
     root = tmp_path / "store"
-    _seed(root)
+    seeded = _seed(root)
+    assert CASE in seeded["cases"]
     port = _free_port()
     env = dict(os.environ, WORKBENCH_STORE=str(root))
     log = open(tmp_path / "streamlit.log", "wb")
@@ -92,9 +92,15 @@ def app_url(tmp_path):
         log.close()
 
 
-def _shot(page, name: str, publish: bool = False) -> None:
+def _shot(page, name: str, publish: bool = False, focus=None) -> None:
+    """Screenshot the page; ``focus`` (a locator) is scrolled to the top of the view first."""
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     path = ARTIFACTS / f"{name}.png"
+    if focus is not None:
+        # Streamlit scrolls its own main container, so a full-page shot shows only the
+        # viewport: bring the part worth showing into view.
+        focus.first.evaluate("e => e.scrollIntoView({block: 'start'})")
+        page.wait_for_timeout(500)
     page.screenshot(path=str(path), full_page=True)
     if publish:
         SCREENSHOTS.mkdir(parents=True, exist_ok=True)
@@ -133,12 +139,17 @@ def _upload(page, label: str, path: Path) -> None:
     _idle(page)
 
 
-def test_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_path):
+def test_demo_case_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_path):
+    import hashlib
+
     from playwright.sync_api import sync_playwright
 
+    from workbench.demo import SCENARIOS, demo_file
+
     url, root = app_url
-    peaks_file = tmp_path / "fragment_peaks.csv"
-    peaks_file.write_bytes(PEAKS_CSV)
+    chip = tmp_path / SCENARIOS["paint_chip"].filename
+    chip.write_bytes(demo_file("paint_chip"))
+    chip_sha = hashlib.sha256(chip.read_bytes()).hexdigest()
     with sync_playwright() as p:
         browser = p.chromium.launch(
             executable_path=str(CHROMIUM),
@@ -151,6 +162,7 @@ def test_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_path):
             page.goto(url)
             page.get_by_role("heading", name="Cases").first.wait_for()
             page.get_by_text(CASE).first.wait_for()
+            page.get_by_role("heading", name=f"Overview: {CASE}").wait_for()
             _idle(page)
             _shot(page, "cases", publish=True)
 
@@ -160,33 +172,37 @@ def test_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_path):
             _idle(page)
             _shot(page, "custody", publish=True)
 
-            # Upload, check the reading, store the measurement.
+            # Upload the paint-chip spectrum: the reading is shown with the spectrum plot.
             _nav(page, "Measurement")
             page.get_by_role("tab", name="Upload a file").click()
-            _upload(page, "Spectrum or peak list", peaks_file)
+            _upload(page, "Spectrum or peak list", chip)
             page.get_by_role("button", name="Read uploaded file").click()
             page.get_by_text("How the file was read").wait_for()
+            page.get_by_text(f"SHA-256 {chip_sha}").wait_for()
             _idle(page)
-            _fill(page, "Instrument", "Bench LIBS (invented)", in_form=True)
-            _fill(page, "Operator", ANALYST, in_form=True)
-            _fill(
-                page,
-                "Measured at (UTC, e.g. 2026-11-21T14:30:00Z)",
-                "2026-11-04T10:00:00Z",
-                in_form=True,
-            )
-            page.get_by_role("button", name="Store measurement").click()
-            page.get_by_text("Stored as measurement #1").wait_for()
+            # The same bytes are the case's stored measurement: read that one to keep the
+            # analysis tied to the stored record.
+            page.get_by_role("tab", name="Stored measurement").click()
+            page.get_by_role("button", name="Read stored measurement").click()
+            page.get_by_text(f"Stored measurement #1 of {CASE}/2").wait_for()
+            page.get_by_text(f"SHA-256 {chip_sha}").wait_for()
             _idle(page)
-            _shot(page, "measurement", publish=True)
+            _shot(
+                page, "measurement", publish=True,
+                focus=page.get_by_text("How the file was read"),
+            )  # fmt: skip
 
-            # Match and save.
+            # Match (shipped optical set, defaults) and save.
             _nav(page, "Line matching")
             page.get_by_role("button", name="Run matching").click()
             page.get_by_role("heading", name="Element calls").wait_for(timeout=120_000)
-            page.get_by_text("INTERFERENCE WARNING").first.wait_for()
+            page.get_by_role("heading", name="Observed and reference lines").wait_for()
             _idle(page)
-            _shot(page, "matching", publish=True)
+            _shot(page, "matching-warnings")
+            _shot(
+                page, "matching", publish=True,
+                focus=page.get_by_role("heading", name="Observed and reference lines"),
+            )  # fmt: skip
             _fill(page, "Analyst (your name)", ANALYST)
             page.get_by_role("button", name="Save analysis to the case").click()
             page.get_by_text("Saved as analysis #1").wait_for()
@@ -201,24 +217,27 @@ def test_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_path):
             page.get_by_text("Registered key").wait_for()
             _idle(page)
             page.get_by_role("tab", name="Draft and sign").click()
-            _fill(page, "Laboratory", "Invented E2E Laboratory")
-            _fill(page, "Notes (printed verbatim)", "Screening result for the e2e test.")
+            _fill(page, "Laboratory", "Northbridge Regional Forensic Laboratory (invented)")
+            _fill(page, "Notes (printed verbatim)", "Screening of the demo paint chip (e2e).")
             page.get_by_role("button", name="Preview draft").click()
             page.get_by_text("Draft content (unsigned)").wait_for()
             _idle(page)
             _fill(page, "Passphrase", PASSPHRASE)
             page.get_by_role("button", name="Sign and issue the sheet").click()
-            page.get_by_text("Issued findings sheet #1").wait_for(timeout=120_000)
+            page.get_by_text("Issued findings sheet #1").wait_for(timeout=150_000)
             _idle(page)
             _shot(page, "findings", publish=True)
             files = {}
             for label, name in (("Sheet PDF", "sheet.pdf"), ("Sheet JSON", "sheet.json"),
                                 ("Signature record", "sheet.sig.json")):  # fmt: skip
+                button = page.get_by_role("button", name=label, exact=True)
+                button.wait_for()
                 with page.expect_download() as dl:
-                    page.get_by_role("button", name=label, exact=True).click()
+                    button.click()
                 target = tmp_path / name
                 dl.value.save_as(str(target))
                 files[name] = target
+                _idle(page)
             assert files["sheet.pdf"].read_bytes().startswith(b"%PDF")
 
             # Verify the downloaded sheet through the page.
@@ -236,8 +255,17 @@ def test_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_path):
         finally:
             browser.close()
 
+    import json
+
     from workbench.casefile.store import CaseStore
 
     with CaseStore.open(root) as store:
         assert store.verify(CASE).ok  # every record the browser wrote is chained and intact
-        assert len(store.list_findings_sheets(CASE)) == 1
+        (sheet,) = store.list_findings_sheets(CASE)
+        content = json.loads(store.file_bytes(sheet.json_sha256))
+    # The signed sheet reports the stored demo measurement of item 2 (workbench/demo.py).
+    assert content["item"]["reference"] == f"{CASE}/2"
+    assert content["analysis"]["input"]["sha256"] == chip_sha
+    called = {f["element"] for f in content["findings"] if f["verdict_level"] >= 2}
+    # The invented paint chip was synthesised with Ti, Ba, Ca, Fe, Cr, Si, Mg (workbench/demo.py).
+    assert {"Ti", "Ba", "Ca"} <= called

@@ -25,16 +25,22 @@ __all__ = [
     "INTERFERENCE_KINDS",
     "LoadedInput",
     "analysis_parameters",
+    "analysis_report",
     "apply_peak_edits",
     "boltzmann_fit_line",
     "chain_status",
+    "collections_root",
     "draft_key",
     "draft_sheet",
+    "element_levels",
     "interference_spans",
+    "latest_analysis",
     "load_input",
     "md_escape",
     "observed_sticks",
     "open_store",
+    "parse_ratios",
+    "parse_year",
     "peak_edits",
     "reference_lines",
     "run_matching",
@@ -383,16 +389,34 @@ def analysis_parameters(
     edits: Sequence[Mapping[str, Any]],
     set_ids: Sequence[str],
 ) -> dict[str, Any]:
-    """What is needed to redo the analysis: engine settings, reading, peak table and edits."""
+    """What is needed to redo the analysis: engine settings, reading, peak table and edits.
+
+    The peak table as read (or detected) always travels as its row count and
+    the SHA-256 of its rows' canonical JSON. Its rows themselves are kept when
+    the user edited it (the edits refer to them); without edits the table is
+    exactly what the stored file gives with the recorded reading options, so
+    the digest is enough to check a re-run and the record stays small.
+    """
+    import hashlib
+    import json
+
+    rows = [dict(r) for r in original_rows]
+    digest = hashlib.sha256(
+        json.dumps(rows, sort_keys=True, separators=(",", ":"), ensure_ascii=False).encode()
+    ).hexdigest()
+    table: dict[str, Any] = {
+        "n_rows": len(rows),
+        "rows_sha256": digest,
+        "edits": [dict(e) for e in edits],
+        "n_edits": len(edits),
+    }
+    if edits:
+        table["original_rows"] = rows
     return {
         "engine": params.to_dict(),
         "reference_set_ids": list(set_ids),
         "reading": {k: v for k, v in dict(read_options).items()},
-        "peak_table": {
-            "original_rows": [dict(r) for r in original_rows],
-            "edits": [dict(e) for e in edits],
-            "n_edits": len(edits),
-        },
+        "peak_table": table,
     }
 
 
@@ -544,25 +568,23 @@ def zoom_range(
 
 
 def boltzmann_fit_line(report: Mapping[str, Any]) -> tuple[list[float], list[float]] | None:
-    """End points of the Boltzmann line: slope −1/(k_B T) through the points' centroid.
+    """End points of the engine's fitted Boltzmann line over the range of its points.
 
-    The report gives the fitted temperature and the points but not the
-    intercept; the least-squares line passes through the centroid of its
-    points, so the centroid and the slope fix it.
+    The line is ``y = intercept + slope_per_eV · E`` with the slope and
+    intercept the engine fitted (``temperature.estimate.plot``); the app draws
+    it and computes nothing. ``None`` when the report carries no fit (a result
+    stored before the engine gave them, or no estimate).
     """
-    from scipy.constants import e, k
-
     est = (report.get("temperature") or {}).get("estimate") or {}
     plot = est.get("plot") or {}
-    t = est.get("temperature_K")
     x = [float(v) for v in plot.get("E_upper_eV") or []]
-    y = [float(v) for v in plot.get("ln_I_lambda_over_gA") or []]
-    if not t or len(x) < 2 or len(x) != len(y):
+    slope, intercept = plot.get("slope_per_eV"), plot.get("intercept")
+    if len(x) < 2 or not isinstance(slope, int | float) or not isinstance(intercept, int | float):
         return None
-    slope = -e / (k * float(t))  # per eV
-    xm, ym = float(np.mean(x)), float(np.mean(y))
+    if not (math.isfinite(slope) and math.isfinite(intercept)):
+        return None
     x0, x1 = min(x), max(x)
-    return [x0, x1], [ym + slope * (x0 - xm), ym + slope * (x1 - xm)]
+    return [x0, x1], [float(intercept) + float(slope) * x0, float(intercept) + float(slope) * x1]
 
 
 # ----------------------------------------------------------------------------- findings
@@ -602,6 +624,86 @@ def draft_key(
 ) -> tuple[Any, ...]:
     """What a draft was made from, to tell whether the form changed after the preview."""
     return (int(analysis_id), analyst_fingerprint, tuple(sorted(lab.items())), notes, limitations)
+
+
+# ----------------------------------------------------------------------------- comparison
+
+
+def latest_analysis(
+    store: Any, case_number: str, measurement_ids: Sequence[int] | None = None
+) -> Any:
+    """The most recent stored analysis of a case (of the given measurements, if any), or None."""
+    found = store.list_analyses(case_number)
+    if measurement_ids is not None:
+        wanted = {int(m) for m in measurement_ids}
+        found = [a for a in found if a.measurement_id in wanted]
+    return found[-1] if found else None
+
+
+def analysis_report(analysis: Any) -> dict[str, Any]:
+    """The stored engine result of an analysis as a dict (StoreIntegrityError if not JSON)."""
+    import json
+
+    from workbench.errors import StoreIntegrityError
+
+    try:
+        return json.loads(bytes(analysis.result_json).decode("utf-8"))
+    except (UnicodeDecodeError, ValueError) as exc:
+        raise StoreIntegrityError(
+            f"analysis #{analysis.id}: the stored result is not JSON ({exc})",
+            "re-run the analysis",
+        ) from exc
+
+
+def element_levels(report: Mapping[str, Any]) -> dict[str, dict[str, Any]]:
+    """Best verdict per element in an engine result: ``{symbol: {"level", "verdict", "species"}}``.
+
+    Elements are sorted by symbol; an element seen in several ion stages keeps
+    its strongest verdict and lists every species.
+    """
+    out: dict[str, dict[str, Any]] = {}
+    for el in report.get("elements") or []:
+        sym = el.get("element")
+        level = el.get("verdict_level")
+        if not isinstance(sym, str) or not isinstance(level, int | float):
+            continue
+        cur = out.setdefault(sym, {"level": level, "verdict": el.get("verdict"), "species": []})
+        cur["species"].append(el.get("species") or sym)
+        if level > cur["level"]:
+            cur["level"], cur["verdict"] = level, el.get("verdict")
+    return dict(sorted(out.items()))
+
+
+def collections_root(where: str, store_root: Path | str) -> Path:
+    """Collections folder: ``"store"`` (the case store's) or ``"shared"`` (shipped)."""
+    from workbench.compare import shared_collections_root, store_collections_root
+
+    if where == "shared":
+        return shared_collections_root()
+    if where == "store":
+        return store_collections_root(store_root)
+    raise InputError(f"unknown collections location {where!r}", "choose 'store' or 'shared'")
+
+
+def parse_ratios(text: str, medium: str) -> list[Any]:
+    """One ratio per line (``Sr:407.771/Ca:393.366``), parsed by the library; blanks skipped."""
+    from workbench.compare import parse_ratio
+
+    return [parse_ratio(line.strip(), medium) for line in text.splitlines() if line.strip()]
+
+
+def parse_year(text: str) -> int | None:
+    """A claimed year typed by the user (``1850``, ``-300`` for 300 BC); empty → None."""
+    t = (text or "").strip()
+    if not t:
+        return None
+    try:
+        return int(t)
+    except ValueError as exc:
+        raise InputError(
+            f"claimed year {t!r} is not a whole number",
+            "type a year such as 1850 (negative for BC), or leave it empty",
+        ) from exc
 
 
 def sheet_files(store: Any, sheet: Any) -> dict[str, bytes]:

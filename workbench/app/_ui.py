@@ -12,7 +12,15 @@ import streamlit as st
 from workbench.app import _services as sv
 from workbench.errors import WorkbenchError
 
-__all__ = ["CAUTIONS", "cautions", "choose_case", "current_case", "shown_errors", "store_root"]
+__all__ = [
+    "CAUTIONS",
+    "cautions",
+    "choose_case",
+    "current_case",
+    "guarded_step",
+    "shown_errors",
+    "store_root",
+]
 
 #: The app's own wording of the standing cautions (the sheet prints the library's).
 CAUTIONS: tuple[str, ...] = (
@@ -40,6 +48,27 @@ def shown_errors() -> Iterator[None]:
         yield
     except WorkbenchError as exc:
         st.error(sv.md_escape(str(exc)), icon=":material/error:")
+
+
+@contextlib.contextmanager
+def guarded_step(step: str) -> Iterator[None]:
+    """Like :func:`shown_errors`, and an unexpected library failure in ``step`` is shown too.
+
+    Used around steps that write nothing before they succeed (laying out and
+    signing a sheet), so the box can say that nothing was stored.
+    """
+    try:
+        yield
+    except WorkbenchError as exc:
+        st.error(sv.md_escape(str(exc)), icon=":material/error:")
+    except Exception as exc:  # a lab user gets a message, not a traceback
+        st.error(
+            sv.md_escape(
+                f"{step} failed unexpectedly ({type(exc).__name__}: {exc}); nothing was stored. "
+                "Fix: report this to the workbench maintainers with the case number"
+            ),
+            icon=":material/error:",
+        )
 
 
 def current_case() -> str | None:

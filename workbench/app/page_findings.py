@@ -131,7 +131,10 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                         )  # fmt: skip
                         # A long sheet takes a while to lay out, so the PDF is made on request.
                         if st.button("Render the draft PDF", key="render_draft"):
-                            with _ui.shown_errors(), st.spinner("Laying out the PDF…"):
+                            with (
+                                _ui.guarded_step("Laying out the draft PDF"),
+                                st.spinner("Laying out the PDF…"),
+                            ):
                                 from workbench.findings import render_pdf
 
                                 st.session_state["draft_pdf"] = render_pdf(draft)
@@ -152,7 +155,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                         "anything above and preview again before signing."
                     )
                     if st.button("Sign and issue the sheet", type="primary", key="sign"):
-                        with _ui.shown_errors():
+                        with _ui.guarded_step("Signing the sheet"), st.spinner("Signing…"):
                             from workbench.errors import InputError, KeyFileError
                             from workbench.findings.issue import sign_and_store_sheet
 
