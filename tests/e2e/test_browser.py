@@ -249,6 +249,18 @@ def test_demo_case_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_p
             page.get_by_text("VALID: signed by").wait_for()
             _idle(page)
             _shot(page, "verify")
+
+            # Elements to materials: the invented 1850 painting's white ground (Pb, Zn, Ti).
+            _nav(page, "Comparison")
+            page.get_by_role("tab", name="Elements to materials").click()
+            page.get_by_text("type them", exact=True).last.click()
+            _idle(page)
+            _fill(page, "Elements present (e.g. Pb, Zn, Ti)", "Pb, Zn, Ti")
+            _fill(page, "Claimed date of the object (year; negative for BC; optional)", "1850")
+            page.get_by_role("button", name="List candidate materials").click()
+            page.get_by_text("Possible anachronism").first.wait_for()
+            _idle(page)
+            _shot(page, "comparison", publish=True)
         except Exception:
             _shot(page, "failure")
             raise

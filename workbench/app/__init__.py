@@ -1,4 +1,4 @@
-"""Streamlit front end: cases, custody, measurements, line matching and findings pages.
+"""Streamlit front end: cases, custody, measurements, line matching, findings, comparison.
 
 The pages (``page_*.py``, registered by ``main.py`` with ``st.navigation``)
 only call library functions, through the thin glue in

@@ -20,6 +20,7 @@ pages = [
     st.Page("page_measurement.py", title="Measurement", icon=":material/show_chart:"),
     st.Page("page_matching.py", title="Line matching", icon=":material/science:"),
     st.Page("page_findings.py", title="Findings", icon=":material/draw:"),
+    st.Page("page_comparison.py", title="Comparison", icon=":material/compare:"),
 ]
 nav = st.navigation(pages)
 
