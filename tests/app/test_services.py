@@ -209,3 +209,10 @@ def test_analysis_parameters_keep_the_rows_only_with_edits():
     edited = sv.analysis_parameters(params, {}, rows, edits, ["optical"])
     assert edited["peak_table"]["original_rows"] == rows
     assert edited["peak_table"]["rows_sha256"] == expected
+
+
+def test_reference_lines_from_a_saved_report_are_rescaled_per_species():
+    # Invented report fragment (schema-1 layout): one matched and one missing line.
+    refs = sv.report_reference_lines(_report(), ["Qa I", "Zz I"])
+    assert [(r["position"], r["expected_rel"]) for r in refs] == [(300.0, 1.0), (320.0, 0.5)]
+    assert {r["species"] for r in refs} == {"Qa I"} and refs[0]["ion_stage"] == "I"

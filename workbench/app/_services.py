@@ -24,6 +24,7 @@ from workbench.errors import InputError, ValueRangeError
 __all__ = [
     "INTERFERENCE_KINDS",
     "LoadedInput",
+    "StoredOutcome",
     "analysis_parameters",
     "analysis_report",
     "apply_peak_edits",
@@ -43,6 +44,8 @@ __all__ = [
     "parse_year",
     "peak_edits",
     "reference_lines",
+    "reopen_analysis",
+    "report_reference_lines",
     "run_matching",
     "save_analysis",
     "store_root_from_argv",
@@ -510,6 +513,77 @@ def reference_lines(
                     "expected_rel": rel,
                     "line_id": str(idx.line_id[i]),
                     "transition": idx.transition[i],
+                }
+            )
+    return out
+
+
+@dataclass(frozen=True)
+class StoredOutcome:
+    """A saved analysis re-opened for display: the stored result, no live engine objects.
+
+    ``result`` is always ``None`` (the page then takes reference lines from
+    the report); ``json_bytes`` are the stored bytes exactly.
+    """
+
+    analysis_id: int
+    case_number: str
+    item_number: str
+    analyst: str
+    created_at: str
+    report: dict[str, Any]
+    json_bytes: bytes
+    result: Any = None
+
+
+def reopen_analysis(store: Any, analysis_id: int) -> StoredOutcome:
+    """Read a saved analysis for read-only display (its result bytes as stored)."""
+    a = store.get_analysis(int(analysis_id))
+    return StoredOutcome(
+        analysis_id=int(a.id),
+        case_number=str(a.case_number),
+        item_number=str(a.item_number),
+        analyst=str(a.analyst),
+        created_at=str(a.created_at),
+        report=analysis_report(a),
+        json_bytes=bytes(a.result_json),
+    )
+
+
+def report_reference_lines(
+    report: Mapping[str, Any], species: Sequence[str]
+) -> list[dict[str, Any]]:
+    """Reference lines of the chosen species as a saved report lists them (matched + missing).
+
+    The same shape as :func:`reference_lines`; the strengths are the report's
+    ``expected_rel``, rescaled to the strongest listed line of each species.
+    """
+    u = report["input"]["unit"]
+    out: list[dict[str, Any]] = []
+    wanted = set(species)
+    for el in report.get("elements") or []:
+        sp = el.get("species")
+        if sp not in wanted:
+            continue
+        listed = list(el.get("matched_lines") or []) + list(el.get("missing_lines") or [])
+        rel = [m.get("expected_rel") for m in listed]
+        top = max((float(v) for v in rel if isinstance(v, int | float) and v > 0), default=0.0)
+        stage = sp.split(" ", 1)[1] if " " in sp else ""
+        seen: set[str] = set()
+        for m, r in zip(listed, rel, strict=True):
+            pos = m.get(f"reference_{u}")
+            key = str(m.get("line_id") or pos)
+            if not isinstance(pos, int | float) or key in seen:
+                continue
+            seen.add(key)
+            out.append(
+                {
+                    "species": sp,
+                    "ion_stage": stage,
+                    "position": float(pos),
+                    "expected_rel": float(r) / top if top and isinstance(r, int | float) else 1.0,
+                    "line_id": str(m.get("line_id") or ""),
+                    "transition": m.get("transition"),
                 }
             )
     return out

@@ -9,91 +9,133 @@ from workbench.app import _services as sv
 
 st.title("Line matching")
 root = _ui.store_root()
+number = _ui.current_case()
 work = st.session_state.get("work")
-if work is None:
+
+# A saved analysis can be re-opened to look at, never changed (the store keeps it as saved).
+with st.expander("Re-open a saved analysis (read-only)", expanded=work is None):
+    with _ui.shown_errors(), sv.open_store(root) as store:
+        saved_list = store.list_analyses(number) if number else []
+        if not saved_list:
+            st.caption("No saved analysis in this case.")
+        else:
+            by_id = {a.id: a for a in saved_list}
+            pick = st.selectbox(
+                "Saved analysis",
+                list(by_id),
+                index=len(by_id) - 1,
+                format_func=lambda i: (
+                    f"#{i} item {by_id[i].item_number}, by "
+                    f"{by_id[i].analyst}, {by_id[i].created_at}"
+                ),
+                key="reopen_pick",
+            )
+            if st.button("Open read-only", key="reopen"):
+                with _ui.shown_errors():
+                    st.session_state["reopened"] = sv.reopen_analysis(store, pick)
+reopened = st.session_state.get("reopened")
+if reopened is not None and reopened.case_number != number:
+    st.session_state.pop("reopened", None)  # another case was chosen in the sidebar
+    reopened = None
+
+if reopened is not None:
+    st.info(
+        f"Showing saved analysis #{reopened.analysis_id} of {sv.md_escape(reopened.case_number)}"
+        f"/{sv.md_escape(reopened.item_number)} (by {sv.md_escape(reopened.analyst)}, "
+        f"{reopened.created_at}), read-only. Reference lines come from the saved result."
+    )
+    if st.button("Close the saved analysis", key="close_reopened"):
+        st.session_state.pop("reopened", None)
+        st.rerun()
+elif work is None:
     st.info("Read a measurement first (Measurement page).")
     st.page_link("page_measurement.py", label="Go to Measurement →")
     st.stop()
 
-from workbench.refdata import list_sets  # noqa: E402  (after the early exit: heavy import)
+if reopened is None:
+    from workbench.refdata import list_sets
 
-peaks0 = work.peaks
-axis = peaks0.axis
-u = "nm" if axis == "wavelength" else "eV"
-st.caption(
-    f"Input {sv.md_escape(work.name)}: {peaks0.table.height} lines, {axis} axis ({u}), "
-    f"{len(st.session_state.get('peak_edits', []))} edit(s) to the peak table."
-)
+    peaks0 = work.peaks
+    axis = peaks0.axis
+    u = "nm" if axis == "wavelength" else "eV"
+    st.caption(
+        f"Input {sv.md_escape(work.name)}: {peaks0.table.height} lines, {axis} axis ({u}), "
+        f"{len(st.session_state.get('peak_edits', []))} edit(s) to the peak table."
+    )
+    _run_form = True
+else:
+    _run_form = False
 
-with _ui.shown_errors():
-    sets = [s for s in list_sets() if s["axis"] == axis]
-with st.form("match_settings"):
-    c1, c2 = st.columns([2, 1])
-    set_ids = c1.multiselect(
-        "Reference sets",
-        [s["id"] for s in sets],
-        default=[s["id"] for s in sets][:1],
-        format_func=lambda i: next(f"{s['id']} — {s['title']}" for s in sets if s["id"] == i),
-    )
-    mode = c2.selectbox(
-        "Line kind", ["emission", "absorption"], index=0 if peaks0.mode == "emission" else 1
-    )
-    c3, c4, c5 = st.columns(3)
-    tol_kind = c3.selectbox(
-        "Tolerance rule",
-        ["resolving_power", "fixed", "fwhm"],
-        format_func={
-            "resolving_power": "resolving power R (window λ/R)",
-            "fixed": f"fixed half-window ({u})",
-            "fwhm": "factor × each peak's FWHM",
-        }.get,
-    )
-    tol_value = c4.number_input(
-        "Tolerance value (R, half-window or factor)",
-        min_value=0.0,
-        value=5000.0 if axis == "wavelength" else 50.0,
-        format="%.6g",
-    )
-    if axis == "wavelength":
-        media = ["air", "vacuum"]
-        medium = c5.selectbox(
-            "Medium of the wavelengths", media, index=media.index(peaks0.medium or "air")
+if _run_form:
+    with _ui.shown_errors():
+        sets = [s for s in list_sets() if s["axis"] == axis]
+    with st.form("match_settings"):
+        c1, c2 = st.columns([2, 1])
+        set_ids = c1.multiselect(
+            "Reference sets",
+            [s["id"] for s in sets],
+            default=[s["id"] for s in sets][:1],
+            format_func=lambda i: next(f"{s['id']} — {s['title']}" for s in sets if s["id"] == i),
         )
-    else:
-        medium = None
-        c5.text("Energy axis: no medium")
-    c6, c7 = st.columns(2)
-    estimate_t = c6.checkbox("Estimate temperature from the data (Boltzmann plot)", value=True)
-    temperature = c7.number_input("Excitation temperature (K)", 500.0, 100000.0, 10000.0, 500.0)
-    elements_txt = st.text_input("Only these elements (comma-separated, optional)")
-    run = st.form_submit_button("Run matching", type="primary")
-
-if run:
-    with _ui.shown_errors(), st.spinner("Matching against the reference sets…"):
-        if (medium is not None and medium != peaks0.medium) or mode != peaks0.mode:
-            source = sv.load_input(
-                work.data, work.name, **{**work.options, "medium": medium, "mode": mode}
+        mode = c2.selectbox(
+            "Line kind", ["emission", "absorption"], index=0 if peaks0.mode == "emission" else 1
+        )
+        c3, c4, c5 = st.columns(3)
+        tol_kind = c3.selectbox(
+            "Tolerance rule",
+            ["resolving_power", "fixed", "fwhm"],
+            format_func={
+                "resolving_power": "resolving power R (window λ/R)",
+                "fixed": f"fixed half-window ({u})",
+                "fwhm": "factor × each peak's FWHM",
+            }.get,
+        )
+        tol_value = c4.number_input(
+            "Tolerance value (R, half-window or factor)",
+            min_value=0.0,
+            value=5000.0 if axis == "wavelength" else 50.0,
+            format="%.6g",
+        )
+        if axis == "wavelength":
+            media = ["air", "vacuum"]
+            medium = c5.selectbox(
+                "Medium of the wavelengths", media, index=media.index(peaks0.medium or "air")
             )
         else:
-            source = work
-        edits = st.session_state.get("peak_edits", [])
-        peaks = sv.apply_peak_edits(source.peaks, edits)
-        params = sv.build_parameters(
-            tolerance_kind=tol_kind,
-            tolerance_value=tol_value,
-            temperature_K=None if estimate_t else temperature,
-            mode=mode,
-            elements=[e.strip() for e in elements_txt.split(",") if e.strip()] or None,
-        )
-        outcome = sv.run_matching(peaks, set_ids, params, spectrum=source.spectrum)
-        st.session_state["outcome"] = outcome
-        st.session_state["outcome_parameters"] = sv.analysis_parameters(
-            params, source.options, sv.table_rows(source.peaks.table), edits, set_ids
-        )
-        st.session_state.pop("saved_analysis_id", None)
-        st.session_state.pop("zoom_choice", None)
+            medium = None
+            c5.text("Energy axis: no medium")
+        c6, c7 = st.columns(2)
+        estimate_t = c6.checkbox("Estimate temperature from the data (Boltzmann plot)", value=True)
+        temperature = c7.number_input("Excitation temperature (K)", 500.0, 100000.0, 10000.0, 500.0)
+        elements_txt = st.text_input("Only these elements (comma-separated, optional)")
+        run = st.form_submit_button("Run matching", type="primary")
 
-outcome = st.session_state.get("outcome")
+    if run:
+        with _ui.shown_errors(), st.spinner("Matching against the reference sets…"):
+            if (medium is not None and medium != peaks0.medium) or mode != peaks0.mode:
+                source = sv.load_input(
+                    work.data, work.name, **{**work.options, "medium": medium, "mode": mode}
+                )
+            else:
+                source = work
+            edits = st.session_state.get("peak_edits", [])
+            peaks = sv.apply_peak_edits(source.peaks, edits)
+            params = sv.build_parameters(
+                tolerance_kind=tol_kind,
+                tolerance_value=tol_value,
+                temperature_K=None if estimate_t else temperature,
+                mode=mode,
+                elements=[e.strip() for e in elements_txt.split(",") if e.strip()] or None,
+            )
+            outcome = sv.run_matching(peaks, set_ids, params, spectrum=source.spectrum)
+            st.session_state["outcome"] = outcome
+            st.session_state["outcome_parameters"] = sv.analysis_parameters(
+                params, source.options, sv.table_rows(source.peaks.table), edits, set_ids
+            )
+            st.session_state.pop("saved_analysis_id", None)
+            st.session_state.pop("zoom_choice", None)
+
+outcome = reopened if reopened is not None else st.session_state.get("outcome")
 if outcome is None:
     _ui.cautions()
     st.info("Choose the settings and run the matching.")
@@ -187,7 +229,11 @@ if zoom.startswith("element "):
     x_range = sv.zoom_range(report, species=zoom[len("element ") :])
 elif zoom.startswith("warning "):
     x_range = sv.zoom_range(report, warning_index=int(zoom.split()[1]) - 1)
-refs = sv.reference_lines(outcome.result, chosen)
+refs = (
+    sv.report_reference_lines(report, chosen)
+    if outcome.result is None
+    else sv.reference_lines(outcome.result, chosen)
+)
 fig = _display.stick_figure(
     sv.observed_sticks(report), refs, unit=u, interference=sv.interference_spans(report),
     x_range=x_range,
@@ -254,7 +300,9 @@ st.download_button(
 )  # fmt: skip
 mid = st.session_state.get("work_measurement_id")
 saved = st.session_state.get("saved_analysis_id")
-if saved:
+if reopened is not None:
+    st.caption("Saved analyses cannot be changed; run a new analysis to revise it.")
+elif saved:
     st.success(f"Saved as analysis #{saved}. Draft a findings sheet on the Findings page.")
     st.page_link("page_findings.py", label="Go to Findings →")
 elif mid is None:
