@@ -220,3 +220,26 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     add_root_options(p)
     add_output_option(p)
     p.set_defaults(func=_show)
+
+
+def add_supplement_option(p: argparse.ArgumentParser) -> None:
+    """``--supplement-out FILE``: save the result for a findings sheet."""
+    p.add_argument(
+        "--supplement-out",
+        metavar="FILE",
+        help="also write the result as a findings-sheet supplement "
+        "(pass it to `workbench findings issue --supplement FILE`)",
+    )
+
+
+def write_supplement(args: argparse.Namespace, kind: str, title: str, report: object) -> None:
+    """Write ``report`` (with to_text/to_dict) as a supplement file if asked."""
+    out = getattr(args, "supplement_out", None)
+    if not out:
+        return
+    import json
+
+    from workbench.fileio import write_bytes_atomic
+
+    doc = {"kind": kind, "title": title, "text": report.to_text(), "data": report.to_dict()}
+    write_bytes_atomic(out, (json.dumps(doc, sort_keys=True, ensure_ascii=False) + "\n").encode())

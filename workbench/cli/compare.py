@@ -9,7 +9,14 @@ from __future__ import annotations
 
 import argparse
 
-from workbench.cli.collection import add_output_option, add_root_options, emit, resolve_root
+from workbench.cli.collection import (
+    add_output_option,
+    add_root_options,
+    add_supplement_option,
+    emit,
+    resolve_root,
+    write_supplement,
+)
 
 __all__ = ["register"]
 
@@ -87,6 +94,7 @@ def _handler(args: argparse.Namespace) -> int:
         report = compare_to_exemplar(questioned, collection, exemplar_id, **common)
     else:
         report = compare_to_collection(questioned, collection, **common)
+    write_supplement(args, "comparison", "Questioned vs known comparison", report)
     emit(args, report.to_dict(), report.to_text())
     return 0
 
@@ -134,4 +142,5 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--medium", choices=("air", "vacuum"), default=None)
     p.add_argument("--mode", choices=("emission", "absorption"), default="emission")
     add_output_option(p)
+    add_supplement_option(p)
     p.set_defaults(func=_handler)

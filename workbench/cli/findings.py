@@ -44,6 +44,13 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     lim = p.add_mutually_exclusive_group()
     lim.add_argument("--limitations", default="", help="limitations of this examination")
     lim.add_argument("--limitations-file", metavar="FILE", help="read them from a UTF-8 file")
+    p.add_argument(
+        "--supplement",
+        action="append",
+        default=[],
+        metavar="FILE",
+        help="a comparison or materials result saved with --supplement-out (repeatable)",
+    )
     p.add_argument("--issued-at", help="UTC issue time (default now), e.g. 2026-03-14T09:30:00Z")
     p.add_argument("--out", required=True, metavar="DIR", help="folder for the four sheet files")
     _store_option(p)
@@ -105,6 +112,26 @@ def _read_text(path: str, what: str) -> str:
         raise InputError(f"{what} {path} is not UTF-8 text", "save it as UTF-8") from exc
 
 
+def _read_supplement(path: str) -> dict:
+    import json
+
+    from workbench.errors import InputError
+
+    try:
+        doc = json.loads(_read_text(path, "supplement file"))
+    except json.JSONDecodeError as exc:
+        raise InputError(
+            f"supplement file {path} is not JSON ({exc.msg}, line {exc.lineno})",
+            "write it with `workbench compare|materials --supplement-out FILE`",
+        ) from exc
+    if not isinstance(doc, dict) or not {"kind", "title", "text"} <= doc.keys():
+        raise InputError(
+            f"supplement file {path} lacks kind/title/text",
+            "write it with `workbench compare|materials --supplement-out FILE`",
+        )
+    return doc
+
+
 def _issue(args: argparse.Namespace) -> int:
     from workbench.casefile import CaseStore
     from workbench.findings.issue import issue_findings_sheet
@@ -124,6 +151,7 @@ def _issue(args: argparse.Namespace) -> int:
         if args.limitations_file
         else args.limitations
     )
+    supplements = [_read_supplement(f) for f in args.supplement]
     with CaseStore.open(args.store) as store:
         issued = issue_findings_sheet(
             store,
@@ -136,6 +164,7 @@ def _issue(args: argparse.Namespace) -> int:
             limitations=limitations,
             issued_at=args.issued_at,
             out_dir=args.out,
+            supplements=supplements,
         )
     if args.json:
         _print_json(issued.to_dict())

@@ -9,7 +9,12 @@ from __future__ import annotations
 
 import argparse
 
-from workbench.cli.collection import add_output_option, emit
+from workbench.cli.collection import (
+    add_output_option,
+    add_supplement_option,
+    emit,
+    write_supplement,
+)
 
 __all__ = ["register"]
 
@@ -23,6 +28,8 @@ def _handler(args: argparse.Namespace) -> int:
     if elements is None:
         raise InputError("no elements given", "use --elements Ti,Pb,Zn or --result RESULT.json")
     report = candidate_materials(elements, args.claimed_year)
+    year = f" (claimed date {args.claimed_year})" if args.claimed_year is not None else ""
+    write_supplement(args, "materials", f"Candidate materials{year}", report)
     emit(args, report.to_dict(), report.to_text())
     return 0
 
@@ -40,4 +47,5 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     el.add_argument("--result", metavar="RESULT.json", help="identification result JSON")
     p.add_argument("--claimed-year", type=int, default=None, help="claimed date (negative = BC)")
     add_output_option(p)
+    add_supplement_option(p)
     p.set_defaults(func=_handler)

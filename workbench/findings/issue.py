@@ -19,7 +19,7 @@ import json
 import os
 import re
 import tempfile
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -226,6 +226,7 @@ def draft_sheet_content(
     notes: str,
     limitations: str,
     issued_at: str | None = None,
+    supplements: Sequence[Mapping[str, Any]] = (),
 ) -> dict[str, Any]:
     """Build the (unsigned) content of a findings sheet for one stored analysis.
 
@@ -247,6 +248,10 @@ def draft_sheet_content(
         Analyst's free text, printed verbatim.
     issued_at : str, optional
         UTC issue time; now when omitted.
+    supplements : sequence of mapping, optional
+        Comparison or materials results to print with the analysis
+        (``kind``, ``title``, ``text``, ``data``; see
+        :func:`~workbench.findings.content.build_sheet_content`).
 
     Returns
     -------
@@ -268,6 +273,7 @@ def draft_sheet_content(
         notes=notes,
         limitations=limitations,
         issued_at=utc_timestamp(issued_at),
+        supplements=supplements,
         **inputs,
     )
 
@@ -314,6 +320,9 @@ def sign_and_store_sheet(
         Its passphrase.
     out_dir : path-like, optional
         Folder to write ``<stem>.pdf``, ``.json``, ``.sig`` and ``.sig.json`` into.
+
+    supplements : sequence of mapping, optional
+        Comparison or materials results to print with the analysis.
 
     Returns
     -------
@@ -433,6 +442,7 @@ def issue_findings_sheet(
     limitations: str,
     issued_at: str | None = None,
     out_dir: str | os.PathLike[str] | None = None,
+    supplements: Sequence[Mapping[str, Any]] = (),
 ) -> IssuedSheet:
     """Build, render, sign and store a findings sheet for one analysis.
 
@@ -479,6 +489,7 @@ def issue_findings_sheet(
         notes=notes,
         limitations=limitations,
         issued_at=issued_at,
+        supplements=supplements,
     )
     return sign_and_store_sheet(
         store,
