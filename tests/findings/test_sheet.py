@@ -199,3 +199,22 @@ def test_figure_draws_only_reported_elements(text):
     kwargs["analysis"]["result"]["elements"][1]["verdict_level"] = 0  # Ba: not supported
     other = squash(" ".join(pages_text(render_pdf(build_sheet_content(**kwargs)))))
     assert _legend(other).split() == ["Pb", "I"]
+
+
+def test_huge_cell_and_many_species_render(content):
+    # A measurement setting with a very long value (e.g. a pasted instrument log) and
+    # 120 species of which most are "not supported": the sheet must still render,
+    # shortening the cell and naming the rejected species in one line.
+    big = copy.deepcopy(content)
+    big["measurement"]["settings"] = {"log": "x" * 20000}
+    template = big["findings"][0]
+    extra = []
+    for i in range(120):
+        f = copy.deepcopy(template)
+        f["species"] = f"Q{i} I"
+        f["verdict"], f["verdict_level"] = "not supported", 0
+        extra.append(f)
+    big["findings"] = big["findings"] + extra
+    text = squash(" ".join(pages_text(render_pdf(big, compress=False))))
+    assert "shortened; full value in the JSON" in text
+    assert "Considered and not supported" in text and "Q119 I" in text

@@ -17,7 +17,13 @@ from workbench.findings.content import (
     canonical_json,
     utc_timestamp,
 )
-from workbench.findings.issue import IssuedSheet, gather_sheet_inputs, issue_findings_sheet
+from workbench.findings.issue import (
+    IssuedSheet,
+    draft_sheet_content,
+    gather_sheet_inputs,
+    issue_findings_sheet,
+    sign_and_store_sheet,
+)
 from workbench.findings.keys import (
     MIN_PASSPHRASE_LENGTH,
     KeyPair,
@@ -52,6 +58,7 @@ __all__ = [
     "VerificationResult",
     "build_sheet_content",
     "canonical_json",
+    "draft_sheet_content",
     "fingerprint_of",
     "gather_sheet_inputs",
     "generate_key_pair",
@@ -63,6 +70,7 @@ __all__ = [
     "read_passphrase",
     "render_pdf",
     "save_key_pair",
+    "sign_and_store_sheet",
     "sign_sheet",
     "utc_timestamp",
     "verify_raw_pdf_signature",

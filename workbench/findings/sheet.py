@@ -55,6 +55,9 @@ _CUSTODY_HIDDEN = (
 )
 _ROMAN = ("I", "II", "III", "IV", "V", "VI", "VII", "VIII", "IX", "X")
 
+#: Matched, missing and shared lines printed per species; the JSON has all.
+_MAX_LINE_ROWS = 25
+
 
 def _clean(text: Any) -> str:
     """Return text safe to place: control characters other than newline removed."""
@@ -64,6 +67,18 @@ def _clean(text: Any) -> str:
         text = json.dumps(text, sort_keys=True, ensure_ascii=False, separators=(", ", ": "))
     text = text.replace("\t", "    ")
     return "".join(ch for ch in text if ch == "\n" or (ch >= " " and ch != "\x7f"))
+
+
+#: Longest text placed in one table cell: a row must fit on a page (fpdf2
+#: refuses taller rows); the full value stays in the signed JSON.
+_MAX_CELL_CHARS = 600
+
+
+def _cell_text(value: Any) -> str:
+    text = _clean(value)
+    if len(text) > _MAX_CELL_CHARS:
+        return text[: _MAX_CELL_CHARS - 40].rstrip() + " … (shortened; full value in the JSON)"
+    return text
 
 
 def _species(finding: Mapping[str, Any]) -> str:
@@ -255,7 +270,7 @@ class _Sheet:
             for row in rows:
                 r = tbl.row()
                 for v in row:
-                    r.cell(_clean(v))
+                    r.cell(_cell_text(v))
         pdf.ln(1)
 
     def key_values(self, data: Mapping[str, Any], preferred: Sequence[str] = ()) -> None:
@@ -393,8 +408,24 @@ class _Sheet:
             (25, 70, 15, 20, 25, 25),
         )
         obs, ref, dlt = f"observed_{u}", f"reference_{u}", f"delta_{u}"
+        # Supporting-line detail for the species that were called (level ≥ 1);
+        # those not supported are named in one line. The JSON beside the PDF
+        # keeps every line of every species.
+        rejected = [f for f in findings if (f.get("verdict_level") or 0) < 1]
+        if rejected:
+            self.para(
+                "Considered and not supported (details in the JSON): "
+                + ", ".join(_species(f) for f in rejected),
+                7.5,
+            )
         for f in findings:
-            matched = f.get("matched_lines") or []
+            if (f.get("verdict_level") or 0) < 1:
+                continue
+            matched = sorted(
+                f.get("matched_lines") or [], key=lambda m: -(m.get("expected_rel") or 0.0)
+            )
+            n_more = max(len(matched) - _MAX_LINE_ROWS, 0)
+            matched = sorted(matched[:_MAX_LINE_ROWS], key=lambda m: m.get(ref) or 0.0)
             if not matched and not f.get("missing_lines"):
                 continue
             self.heading(f"Supporting lines: {_species(f)} ({_clean(f.get('verdict', ''))})")
@@ -425,7 +456,9 @@ class _Sheet:
                     aligns=("RIGHT", "RIGHT", "RIGHT", "RIGHT", "RIGHT", "LEFT", "LEFT"),
                     size=7.5,
                 )
-            missing = f.get("missing_lines") or []
+                if n_more:
+                    self.para(f"(+{n_more} weaker matched lines in the JSON.)", 7.5)
+            missing = (f.get("missing_lines") or [])[:_MAX_LINE_ROWS]
             if missing:
                 shown = ", ".join(
                     f"{_fmt(m.get(ref), 'pos', u)} {u} "
@@ -435,8 +468,15 @@ class _Sheet:
                 self.para(f"Expected but not observed: {shown}", 7.5)
             shared = f.get("shared_lines") or []
             if shared:
+                more = (
+                    f" (+{len(shared) - _MAX_LINE_ROWS} more)"
+                    if len(shared) > _MAX_LINE_ROWS
+                    else ""
+                )
                 self.para(
-                    "Lines shared with other elements: " + ", ".join(_clean(x) for x in shared),
+                    "Lines shared with other elements: "
+                    + ", ".join(_clean(x) for x in shared[:_MAX_LINE_ROWS])
+                    + more,
                     7.5,
                 )
 
