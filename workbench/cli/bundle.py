@@ -4,16 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-
-def _common() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(add_help=False)
-    p.add_argument(
-        "--store",
-        metavar="PATH",
-        help="store directory (default $WORKBENCH_STORE or <repo>/casefiles)",
-    )
-    p.add_argument("--json", action="store_true", help="print JSON")
-    return p
+from workbench.cli._options import store_json_parent as _common
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:

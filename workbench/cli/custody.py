@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import argparse
 
+from workbench.cli._options import store_json_parent as _common
+
 KINDS = (
     "received",
     "transferred",
@@ -14,17 +16,6 @@ KINDS = (
     "note",
     "correction",
 )
-
-
-def _common() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(add_help=False)
-    p.add_argument(
-        "--store",
-        metavar="PATH",
-        help="store directory (default $WORKBENCH_STORE or <repo>/casefiles)",
-    )
-    p.add_argument("--json", action="store_true", help="print JSON")
-    return p
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:

@@ -4,18 +4,9 @@ from __future__ import annotations
 
 import argparse
 
+from workbench.cli._options import store_json_parent as _common
+
 TECHNIQUES = ("LIBS", "spark OES", "ICP-OES", "XRF", "absorption", "other")
-
-
-def _common() -> argparse.ArgumentParser:
-    p = argparse.ArgumentParser(add_help=False)
-    p.add_argument(
-        "--store",
-        metavar="PATH",
-        help="store directory (default $WORKBENCH_STORE or <repo>/casefiles)",
-    )
-    p.add_argument("--json", action="store_true", help="print JSON")
-    return p
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
