@@ -24,7 +24,7 @@ result, and :func:`workbench.matching.report.result_json` the same bytes.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, field, replace
 from typing import Any, Literal
 
 import numpy as np
@@ -359,7 +359,7 @@ def match_peaks(
         new_peaks = PeakList(
             new_table, peaks.axis, peaks.medium, peaks.source, peaks.mode, dict(peaks.extra)
         )
-        inner = match_peaks(new_peaks, sets, _replace(params, apply_calibration=False))
+        inner = match_peaks(new_peaks, sets, replace(params, apply_calibration=False))
         inner.scale = ScaleCheck(
             scale.n_pairs,
             scale.shift,
@@ -393,12 +393,6 @@ def match_peaks(
         parameters=params,
         lte=lte,
     )
-
-
-def _replace(params: MatchParameters, **changes: Any) -> MatchParameters:
-    from dataclasses import replace
-
-    return replace(params, **changes)
 
 
 def _lte_check(temperature: TemperatureEstimate, params: MatchParameters) -> dict[str, object]:
