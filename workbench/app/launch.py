@@ -36,6 +36,8 @@ def app_command(store: Path | None, port: int, *, open_browser: bool = False) ->
         "--server.headless", "false" if open_browser else "true",
         "--browser.gatherUsageStats", "false",
         "--server.fileWatcherType", "none",
+        # A laboratory tool: no "Deploy" button or developer menu in the toolbar.
+        "--client.toolbarMode", "viewer",
     ]  # fmt: skip
     if store is not None:
         cmd += ["--", "--store", str(Path(store).expanduser().resolve())]
