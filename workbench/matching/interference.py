@@ -45,6 +45,15 @@ class PeakAssignment:
     species: list[int]  # species codes explaining the peak (best first)
 
 
+def _zero_nan(v):
+    """NaN (unknown strength) as 0, for scalars or arrays (cheaper than nan_to_num)."""
+    return (
+        np.where(np.isfinite(v), v, 0.0)
+        if isinstance(v, np.ndarray)
+        else (float(v) if v == v else 0.0)
+    )
+
+
 def _predicted_at_peaks(ev_pass: EvidencePass, n_obs: int) -> dict[int, np.ndarray]:
     """Sum of expected strength per (species, peak), as dense arrays for plausible species."""
     out: dict[int, np.ndarray] = {}
@@ -103,7 +112,9 @@ def assign_peaks(
 def _settling_lines(
     ev: SpeciesEvidence, index: ReferenceIndex, strengths: np.ndarray, limit: int = 3
 ) -> dict[str, list[float]]:
-    found = sorted(ev.unique_lines, key=lambda i: -np.nan_to_num(strengths[i]))[:limit]
+    unique = np.asarray(ev.unique_lines, dtype=np.int64)
+    order = np.argsort(-_zero_nan(strengths[unique]), kind="stable")
+    found = unique[order[:limit]].tolist()
     missing = ev.missing_lines[:limit]
     return {
         "found": [round(float(index.position[i]), 5) for i in found],
@@ -149,7 +160,7 @@ def interference_warnings(
             if s not in asg.species:
                 continue
             r = int(pairs.ref[k])
-            if s not in best_line or np.nan_to_num(e[r]) > np.nan_to_num(e[best_line[s]]):
+            if s not in best_line or _zero_nan(e[r]) > _zero_nan(e[best_line[s]]):
                 best_line[s] = r
         codes = [s for s in asg.species if s in best_line]
         for i, a in enumerate(codes):
@@ -187,7 +198,7 @@ def interference_warnings(
         if ev.level < 2:
             continue
         strong = [
-            i for i in ev.found_lines + ev.missing_lines if np.nan_to_num(e[i]) >= strong_fraction
+            i for i in ev.found_lines + ev.missing_lines if _zero_nan(e[i]) >= strong_fraction
         ]
         for i in strong:
             x = index.position[i]
