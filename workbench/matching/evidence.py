@@ -90,8 +90,8 @@ def gather_evidence(
         Thresholds (see :mod:`workbench.matching.scoring`).
     plausible : set of int, optional
         Species codes that may compete for a peak; all species when omitted
-        (first pass). The second pass restricts competition to species that
-        reached at least "possible" in the first.
+        (first pass). The second pass restricts competition to species with
+        real support in the first (see :mod:`workbench.matching.engine`).
 
     Returns
     -------
