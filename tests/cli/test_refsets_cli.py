@@ -84,6 +84,9 @@ def test_import_lab(tmp_path, capsys):
     capsys.readouterr()
     assert main(["refsets", "show", "demo-lab", "--lab-dir", str(lab), "--json"]) == 0
     assert json.loads(capsys.readouterr().out)["shown"] == 1
+    assert main(["refsets", "list", "--lab-dir", str(lab), "--json"]) == 0
+    ids = [r["id"] for r in json.loads(capsys.readouterr().out)]
+    assert ids[-1] == "demo-lab" and "optical" in ids
     bad = tmp_path / "bad.csv"
     bad.write_text("element,ion,wavelength_nm,medium\nQq,1,324.754,air\n")
     assert (

@@ -71,35 +71,11 @@ def _root(args: argparse.Namespace):
 
 
 def _list(args: argparse.Namespace) -> int:
+    from pathlib import Path
+
     from workbench.refdata import list_sets
 
-    rows = list_sets(_root(args))
-    if args.lab_dir:
-        import json
-        from pathlib import Path
-
-        path = Path(args.lab_dir) / "lab_manifest.json"
-        if path.exists():
-            for e in json.loads(path.read_text(encoding="utf-8")).get("sets", []):
-                rows.append(
-                    {
-                        k: e.get(k)
-                        for k in (
-                            "id",
-                            "title",
-                            "version",
-                            "domain",
-                            "axis",
-                            "unit",
-                            "medium",
-                            "row_count",
-                            "elements",
-                            "stages",
-                            "file",
-                            "sha256",
-                        )
-                    }
-                )
+    rows = list_sets(_root(args), Path(args.lab_dir) if args.lab_dir else None)
     if args.json:
         _dump(rows)
         return 0

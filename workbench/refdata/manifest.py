@@ -120,8 +120,32 @@ def data_version(root: Path | None = None) -> str:
     return str(read_manifest(root)["data_version"])
 
 
-def list_sets(root: Path | None = None) -> list[dict[str, Any]]:
-    """Summarise the shipped sets without loading their tables.
+#: Fields of a set entry shown by :func:`list_sets`.
+SUMMARY_KEYS: tuple[str, ...] = (
+    "id",
+    "title",
+    "version",
+    "domain",
+    "axis",
+    "unit",
+    "medium",
+    "row_count",
+    "elements",
+    "stages",
+    "file",
+    "sha256",
+)
+
+
+def list_sets(root: Path | None = None, lab_dir: Path | None = None) -> list[dict[str, Any]]:
+    """Summarise the shipped sets (and a lab directory's sets) without loading tables.
+
+    Parameters
+    ----------
+    root : pathlib.Path, optional
+        Collection directory; :func:`default_root` when omitted.
+    lab_dir : pathlib.Path, optional
+        A lab-set directory (its ``lab_manifest.json``); skipped when it has none.
 
     Returns
     -------
@@ -129,21 +153,18 @@ def list_sets(root: Path | None = None) -> list[dict[str, Any]]:
         One dict per set: id, title, version, domain, axis, unit, medium,
         row_count, elements, stages, file, sha256.
     """
-    keys = (
-        "id",
-        "title",
-        "version",
-        "domain",
-        "axis",
-        "unit",
-        "medium",
-        "row_count",
-        "elements",
-        "stages",
-        "file",
-        "sha256",
-    )
-    return [{k: entry.get(k) for k in keys} for entry in read_manifest(root)["sets"]]
+    entries = list(read_manifest(root)["sets"])
+    if lab_dir is not None:
+        lab_manifest = Path(lab_dir) / "lab_manifest.json"
+        if lab_manifest.is_file():
+            try:
+                entries += json.loads(lab_manifest.read_text(encoding="utf-8")).get("sets", [])
+            except (json.JSONDecodeError, UnicodeDecodeError) as exc:
+                raise ManifestError(
+                    f"lab manifest {lab_manifest} is not valid JSON ({exc})",
+                    "restore it from a backup or import the lab sets again",
+                ) from exc
+    return [{k: entry.get(k) for k in SUMMARY_KEYS} for entry in entries]
 
 
 def verify_sets(root: Path | None = None) -> list[dict[str, Any]]:
