@@ -11,13 +11,9 @@ import argparse
 import json
 import sys
 
+from workbench.cli._options import add_store_option as _store_option
+
 __all__ = ["register"]
-
-
-def _store_option(p: argparse.ArgumentParser) -> None:
-    p.add_argument(
-        "--store", metavar="DIR", help="case store (default: $WORKBENCH_STORE or ./casefiles)"
-    )
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:
