@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-__all__ = ["add_store_option", "store_json_parent"]
+__all__ = ["add_store_option", "print_json", "read_file", "store_json_parent"]
 
 
 _STORE_HELP = "store directory (default $WORKBENCH_STORE or <repo>/casefiles)"
@@ -21,3 +21,21 @@ def store_json_parent() -> argparse.ArgumentParser:
     add_store_option(p)
     p.add_argument("--json", action="store_true", help="print JSON")
     return p
+
+
+def print_json(data: object) -> None:
+    """Print ``data`` as indented JSON with sorted keys (the ``--json`` output)."""
+    import json
+
+    print(json.dumps(data, indent=2, sort_keys=True, ensure_ascii=False))
+
+
+def read_file(path: str, what: str, remedy: str = "check the path") -> bytes:
+    """Read a file the user named; an unreadable one is an InputError naming it."""
+    from workbench.errors import InputError
+
+    try:
+        with open(path, "rb") as fh:
+            return fh.read()
+    except OSError as exc:
+        raise InputError(f"cannot read {what} {path} ({exc.strerror})", remedy) from exc

@@ -12,6 +12,8 @@ import json
 import sys
 
 from workbench.cli._options import add_store_option as _store_option
+from workbench.cli._options import print_json as _print_json
+from workbench.cli._options import read_file
 
 __all__ = ["register"]
 
@@ -82,21 +84,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.set_defaults(func=_list)
 
 
-def _print_json(data: object) -> None:
-    print(json.dumps(data, indent=2, sort_keys=True, ensure_ascii=False))
-
-
 def _read(path: str, what: str) -> bytes:
-    from workbench.errors import InputError
-
-    try:
-        with open(path, "rb") as fh:
-            return fh.read()
-    except OSError as exc:
-        raise InputError(
-            f"cannot read {what} {path} ({exc.strerror})",
-            "check the path (the sheet's files are issued side by side)",
-        ) from exc
+    return read_file(path, what, "check the path (the sheet's files are issued side by side)")
 
 
 def _read_text(path: str, what: str) -> str:

@@ -7,10 +7,11 @@ environment variable or an interactive prompt, never from the command line.
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 
 from workbench.cli._options import add_store_option as _store_option
+from workbench.cli._options import print_json as _print_json
+from workbench.cli._options import read_file as _read
 
 __all__ = ["register"]
 
@@ -51,20 +52,6 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     _store_option(p)
     p.add_argument("--json", action="store_true", help="print JSON")
     p.set_defaults(func=_list)
-
-
-def _print_json(data: object) -> None:
-    print(json.dumps(data, indent=2, sort_keys=True, ensure_ascii=False))
-
-
-def _read(path: str, what: str) -> bytes:
-    from workbench.errors import InputError
-
-    try:
-        with open(path, "rb") as fh:
-            return fh.read()
-    except OSError as exc:
-        raise InputError(f"cannot read {what} {path} ({exc.strerror})", "check the path") from exc
 
 
 def _create(args: argparse.Namespace) -> int:
