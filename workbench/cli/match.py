@@ -111,8 +111,9 @@ def register(sub: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     """Handler of ``workbench match``."""
     from workbench.errors import InputError
+    from workbench.fileio import write_bytes_atomic
     from workbench.matching import analyse_input, summary_text
-    from workbench.matching.export import write_csv_tables, write_json_atomic
+    from workbench.matching.export import write_csv_tables
 
     if not args.input.is_file():
         raise InputError(f"input file {str(args.input)!r} does not exist", "check the path")
@@ -134,7 +135,7 @@ def run(args: argparse.Namespace) -> int:
     else:
         print(summary_text(outcome.report))
         if args.json:
-            write_json_atomic(Path(args.json), outcome.json_bytes)
+            write_bytes_atomic(args.json, outcome.json_bytes)
             print(f"\nJSON written to {args.json}")
     if args.csv_dir:
         names = write_csv_tables(outcome.report, args.csv_dir)

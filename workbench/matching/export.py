@@ -9,12 +9,7 @@ import polars as pl
 
 from workbench.fileio import write_bytes_atomic
 
-__all__ = ["result_tables", "write_csv_tables", "write_json_atomic"]
-
-
-def write_json_atomic(path: Path, data: bytes) -> None:
-    """Write result bytes atomically (see :func:`workbench.fileio.write_bytes_atomic`)."""
-    write_bytes_atomic(path, data)
+__all__ = ["result_tables", "write_csv_tables"]
 
 
 def result_tables(report: dict[str, Any]) -> dict[str, pl.DataFrame]:
@@ -79,6 +74,6 @@ def write_csv_tables(report: dict[str, Any], directory: Path) -> list[str]:
     names = []
     for name, table in result_tables(report).items():
         target = directory / f"{name}.csv"
-        write_json_atomic(target, table.write_csv().encode("utf-8"))
+        write_bytes_atomic(target, table.write_csv().encode("utf-8"))
         names.append(target.name)
     return names
