@@ -1065,6 +1065,8 @@ BLEND_RULE = (
     "rel_intensity; w-weighted: vacuum wavelength, E_lower, E_upper; shared: g_k, g_i, "
     "transition, accuracy from the strongest component; a source's natural-mixture row "
     "listed beside its isotope rows is kept as the line (isotope rows not summed). "
+    "Before blending, a second Gaia-ESO entry of one transition (same levels and labels, "
+    f"<= {MATCH_TOL_NM} nm, other damping data) is dropped and noted (dedupe_ges). "
     "See workbench/refdata/blend.py"
 )
 
