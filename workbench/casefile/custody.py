@@ -22,6 +22,10 @@ Rules (:func:`apply_event`; each refusal names the rule):
     ``sub-sampled`` part need the current holder as actor or from-party;
     ``received``, ``transferred`` and ``returned`` need a to-party, who
     becomes the holder.
+``sealed-sub-sample``
+    A sealed item cannot be sub-sampled: its seal is broken first, on record
+    (an ``opened`` event naming the seal). A sub-sample starts ``open``, or
+    ``sealed`` when it is sealed at once (seal numbers given).
 ``seal-number``
     ``sealed`` needs a seal number (comma-separated for several seals).
 ``open-records-seal``
@@ -253,6 +257,15 @@ def apply_event(state: ChainState | None, event: dict[str, Any], label: str) -> 
         holder = str(event["to_party"])
     if kind == "sub-sampled" and not event.get("ref_key"):
         _refuse("sub-sample", label, event, "no sub-sample named", "use 'item add --parent'")
+    if kind == "sub-sampled" and state.seal_state == "sealed":
+        _refuse(
+            "sealed-sub-sample",
+            label,
+            event,
+            f"the item is sealed ({', '.join(state.seals)}); a part cannot be taken without "
+            "breaking the seal on record",
+            f"record 'custody add {label} opened --seal SEAL' first",
+        )
     new_seal_state, new_seals = state.seal_state, state.seals
     if kind == "sealed":
         if seal_state != "sealed" or not seals:

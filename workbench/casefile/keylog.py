@@ -93,7 +93,7 @@ class KeyState:
     role: str
     public_key_pem: str
     registered_at: str
-    registered_by: str
+    registered_by: str | None
     provenance: str
     status: str = "active"
     revoked_at: str | None = None
@@ -175,7 +175,8 @@ def replay_key_log(
                 role=str(detail.get("role")),
                 public_key_pem=str(detail.get("public_key_pem")),
                 registered_at=ev["at"],
-                registered_by=ev["actor"],
+                # a legacy key's registrant was never recorded
+                registered_by=None if kind == "legacy" else ev["actor"],
                 provenance={"registered": "local"}.get(kind, kind),
             )
             if kind == "registered":

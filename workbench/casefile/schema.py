@@ -282,6 +282,58 @@ LEDGER_VERSION: int = 3
 SCHEMA_VERSION: int = MIGRATIONS[-1][0]
 
 
+_DAMAGE_WORDS = ("malformed", "not a database", "no such table", "no such column", "corrupt")
+
+
+def _damage(exc: sqlite3.DatabaseError) -> StoreIntegrityError | None:
+    """The StoreIntegrityError for an SQLite error that means a damaged or altered file."""
+    text = str(exc).lower()
+    if type(exc) is sqlite3.DatabaseError or any(w in text for w in _DAMAGE_WORDS):
+        return StoreIntegrityError(
+            f"the case-store database is damaged or was altered ({exc})",
+            "run 'workbench custody verify'; restore the store from a backup",
+        )
+    return None
+
+
+class _Cursor(sqlite3.Cursor):
+    """A cursor that reports a damaged database as StoreIntegrityError, not a traceback."""
+
+    def execute(self, sql: str, parameters: Any = ()) -> _Cursor:  # type: ignore[override]
+        try:
+            return super().execute(sql, parameters)
+        except sqlite3.DatabaseError as exc:
+            raise (_damage(exc) or exc) from exc
+
+    def fetchone(self) -> Any:
+        try:
+            return super().fetchone()
+        except sqlite3.DatabaseError as exc:
+            raise (_damage(exc) or exc) from exc
+
+    def fetchall(self) -> list[Any]:
+        try:
+            return super().fetchall()
+        except sqlite3.DatabaseError as exc:
+            raise (_damage(exc) or exc) from exc
+
+    def __next__(self) -> Any:
+        try:
+            return super().__next__()
+        except sqlite3.DatabaseError as exc:
+            raise (_damage(exc) or exc) from exc
+
+
+class StoreConnection(sqlite3.Connection):
+    """The store's connection: every statement runs through :class:`_Cursor`."""
+
+    def cursor(self, factory: Any = _Cursor) -> Any:  # type: ignore[override]
+        return super().cursor(factory)
+
+    def execute(self, sql: str, parameters: Any = ()) -> Any:  # type: ignore[override]
+        return self.cursor().execute(sql, parameters)
+
+
 def is_busy(exc: BaseException) -> bool:
     """Return whether an SQLite error means 'locked by another writer, try again'."""
     if not isinstance(exc, sqlite3.OperationalError):
@@ -370,13 +422,15 @@ def connect(db_path: Path, *, target_version: int | None = None) -> sqlite3.Conn
     """
     target = SCHEMA_VERSION if target_version is None else target_version
     try:
-        conn = sqlite3.connect(str(db_path), isolation_level=None, timeout=30.0)
+        conn = sqlite3.connect(
+            str(db_path), isolation_level=None, timeout=30.0, factory=StoreConnection
+        )
         conn.execute("PRAGMA busy_timeout = 30000")
         conn.execute("PRAGMA journal_mode = WAL")
         conn.execute("PRAGMA foreign_keys = ON")
         conn.execute("PRAGMA synchronous = FULL")
         current = schema_version(conn)
-    except sqlite3.DatabaseError as exc:
+    except (sqlite3.DatabaseError, StoreIntegrityError) as exc:
         raise StoreIntegrityError(
             f"{db_path} is not a readable case-store database ({exc})",
             "point --store at the directory holding cases.sqlite, or restore it from backup",
@@ -415,10 +469,12 @@ def connect_readonly(db_path: Path) -> sqlite3.Connection:
 
     uri = f"file:{quote(str(db_path.resolve()))}?{mode}"
     try:
-        conn = sqlite3.connect(uri, uri=True, isolation_level=None, timeout=30.0)
+        conn = sqlite3.connect(
+            uri, uri=True, isolation_level=None, timeout=30.0, factory=StoreConnection
+        )
         conn.execute("PRAGMA query_only = ON")
         current = schema_version(conn)
-    except sqlite3.DatabaseError as exc:
+    except (sqlite3.DatabaseError, StoreIntegrityError) as exc:
         raise StoreIntegrityError(
             f"{db_path} is not a readable case-store database ({exc})",
             "the database is damaged or was replaced; restore the store from a backup",

@@ -104,6 +104,23 @@ def resolve_store_root(path: Path | str | None = None) -> Path:
     return Path(workbench.__file__).resolve().parents[1] / "casefiles"
 
 
+def _stored_json(value: Any, what: str, kind: type) -> Any:
+    """Parse a JSON column the store wrote; anything else is damage or tampering."""
+    try:
+        if not isinstance(value, str):
+            raise ValueError(f"a {type(value).__name__} where JSON text belongs")
+        parsed = json.loads(value)
+        if not isinstance(parsed, kind):
+            raise ValueError(f"a {type(parsed).__name__} where a {kind.__name__} belongs")
+    except (ValueError, RecursionError) as exc:
+        raise StoreIntegrityError(
+            f"stored {what} cannot be read ({exc})",
+            "the store was damaged or altered; run 'workbench custody verify' and restore "
+            "it from a backup",
+        ) from exc
+    return parsed
+
+
 def _event_dict(row: sqlite3.Row | dict[str, Any]) -> dict[str, Any]:
     return {k: row[k] for k in (*EVENT_FIELDS, "id", "hash")}
 
@@ -510,7 +527,9 @@ class CaseStore:
             item_number=row["item_number"],
             description=row["description"],
             parent_item_number=row["parent_item_number"],
-            seal_numbers=tuple(json.loads(row["seal_numbers"])),
+            seal_numbers=tuple(
+                _stored_json(row["seal_numbers"], f"item {row['id']} seal_numbers", list)
+            ),
             storage_location=row["storage_location"],
             created_at=row["created_at"],
             record_hash=row["record_hash"],
@@ -746,7 +765,11 @@ class CaseStore:
                     "from_party": from_party,
                     "to_party": actor,
                     "location": fields["storage_location"],
-                    "seal_state": "sealed" if seals else "unknown",
+                    # A sub-sample is taken from an opened item, so it starts open
+                    # (or sealed at once); only a received item's state may be unknown.
+                    "seal_state": "sealed"
+                    if seals
+                    else ("open" if parent_row is not None else "unknown"),
                     "seal_number": ",".join(seals) or None,
                     "note": note,
                     "ref_kind": "item",
@@ -981,7 +1004,7 @@ class CaseStore:
             size_bytes=r["size_bytes"],
             technique=r["technique"],
             instrument=r["instrument"],
-            settings=json.loads(r["settings"]),
+            settings=_stored_json(r["settings"], f"measurement {r['id']} settings", dict),
             operator=r["operator"],
             measured_at=r["measured_at"],
             recorded_at=r["recorded_at"],
@@ -1140,8 +1163,10 @@ class CaseStore:
             case_number=r["case_number"],
             item_number=r["item_number"],
             measurement_hash=r["measurement_hash"],
-            parameters=json.loads(r["parameters"]),
-            reference_sets=json.loads(r["reference_sets"]),
+            parameters=_stored_json(r["parameters"], f"analysis {r['id']} parameters", dict),
+            reference_sets=_stored_json(
+                r["reference_sets"], f"analysis {r['id']} reference_sets", list
+            ),
             result_json=bytes(r["result_json"]),
             result_sha256=r["result_sha256"],
             software_version=r["software_version"],
@@ -1354,8 +1379,13 @@ class CaseStore:
         return [self._sheet_from_row(r) for r in rows]
 
     # ------------------------------------------------------------------- verify
-    def verify(self, case_number: str | None = None) -> Any:
-        """Check every chain, record, file and signature (see :mod:`~workbench.casefile.verify`).
+    def verify(
+        self, case_number: str | None = None, *, anchor: tuple[int, str] | None = None
+    ) -> Any:
+        """Check every chain, record, file, signature and the ledger (reads only).
+
+        See :mod:`~workbench.casefile.verify`; ``anchor`` is a ledger head
+        ``(seq, hash)`` recorded earlier outside the store.
 
         Returns
         -------
@@ -1364,4 +1394,8 @@ class CaseStore:
         """
         from workbench.casefile.verify import verify_store
 
-        return verify_store(self, case_number)
+        return verify_store(self, case_number, anchor=anchor)
+
+    def ledger_head(self) -> tuple[int, str]:
+        """Return ``(seq, hash)`` of the latest ledger entry, to keep outside the store."""
+        return ledger.head(self._conn)

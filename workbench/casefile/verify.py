@@ -717,6 +717,11 @@ def _summarise_signatures(notes: list[str]) -> str:
     return "failed" if "failed" in notes else "ok"
 
 
+def _has_table(conn: sqlite3.Connection, name: str) -> bool:
+    q = "SELECT 1 FROM sqlite_master WHERE type='table' AND name=?"
+    return conn.execute(q, (name,)).fetchone() is not None
+
+
 def _store_breaks(conn: sqlite3.Connection, anchor: tuple[int, str] | None) -> list[Break]:
     """Ledger and key-log checks over the whole store."""
     out: list[Break] = []
@@ -869,6 +874,11 @@ def verify_store(
     # Store-wide breaks come after the per-case ones, which place a change
     # more exactly (the event in its chain); deletions show only here.
     breaks += _store_breaks(conn, anchor)
+    if not _has_table(conn, ledger.LEDGER_TABLE) and not _has_table(conn, "key_events"):
+        warnings.append(
+            "this store predates the ledger (schema 2): a deleted record cannot be detected; "
+            "any write command upgrades it"
+        )
     return VerifyReport(
         ok=not breaks,
         scope=case_number or "all cases",
