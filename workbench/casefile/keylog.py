@@ -39,10 +39,19 @@ _FIRST = frozenset({"registered", "imported", "legacy"})
 _HASHED = ("seq", "fingerprint", "kind", "actor", "reason", "at", "detail", "prev_hash")
 
 
+def _plain(value: Any) -> Any:
+    if isinstance(value, bytes | bytearray | memoryview):
+        return {"blob": bytes(value).hex()}
+    if isinstance(value, float):
+        return {"real": repr(value)}
+    return value
+
+
 def key_event_hash(event: dict[str, Any]) -> str:
     """SHA-256 of the canonical JSON of a key event's hashed fields."""
     text = json.dumps(
-        {k: event.get(k) for k in _HASHED},
+        # a BLOB or REAL smuggled in must change the hash, not crash it
+        {k: _plain(event.get(k)) for k in _HASHED},
         sort_keys=True,
         separators=(",", ":"),
         ensure_ascii=False,

@@ -111,7 +111,7 @@ def row_digest(table: str, row: dict[str, Any]) -> str:
 
 def _entry_hash(entry: dict[str, Any]) -> str:
     names = ("seq", "tbl", "row_id", "action", "identity", "row_hash", "recorded_at", "prev_hash")
-    text = json.dumps({n: entry[n] for n in names}, sort_keys=True, separators=(",", ":"))
+    text = json.dumps({n: _plain(entry[n]) for n in names}, sort_keys=True, separators=(",", ":"))
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 

@@ -26,7 +26,8 @@ each break with its exact place:
 * the key log (:mod:`workbench.casefile.keylog`) replayed and compared with
   the analysts table (``key-log-broken``, ``key-state-mismatch``);
 * values that cannot be read (invalid JSON, a BLOB where text belongs) are
-  ``unreadable-record`` breaks, never crashes.
+  ``unreadable-record`` breaks, never crashes; SQLite's own integrity check
+  runs over every page (``damaged-database``).
 
 Verification only reads: ``custody verify`` opens the store read-only
 (:meth:`CaseStore.open_readonly`). Limit: a consistent rewrite of the whole
@@ -42,7 +43,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from workbench.casefile import ledger
-from workbench.casefile.custody import ChainState, apply_event, event_hash
+from workbench.casefile.custody import EVENT_FIELDS, ChainState, apply_event
 from workbench.casefile.hashing import GENESIS_HASH, sha256_hex
 from workbench.casefile.hashing import record_hash as _record_hash
 from workbench.casefile.keylog import replay_key_log
@@ -120,6 +121,17 @@ class Break:
     detail: str
     expected: str | None = None
     found: str | None = None
+
+    def __post_init__(self) -> None:
+        # Values come from a store that may be tampered with: a BLOB where a
+        # case number belongs must still print.
+        for name, value in self.__dict__.items():
+            if value is not None and not isinstance(value, str | int) or isinstance(value, bool):
+                object.__setattr__(self, name, repr(value))
+        for name in ("case_number", "item_number"):
+            value = getattr(self, name)
+            if value is not None and not isinstance(value, str):
+                object.__setattr__(self, name, str(value))
 
     def to_dict(self) -> dict[str, Any]:
         """Return a JSON-friendly form."""
@@ -383,7 +395,7 @@ def _check_chain(
                     ev["prev_hash"],
                 )
             return len(events)
-        recomputed = event_hash(ev)
+        recomputed = record_hash(ev, EVENT_FIELDS)
         if recomputed != ev["hash"]:
             brk(
                 "altered-event",
@@ -725,6 +737,21 @@ def _has_table(conn: sqlite3.Connection, name: str) -> bool:
 def _store_breaks(conn: sqlite3.Connection, anchor: tuple[int, str] | None) -> list[Break]:
     """Ledger and key-log checks over the whole store."""
     out: list[Break] = []
+    # Pages that no query reads (an index, a free page) are damaged silently
+    # otherwise; SQLite's own check reads every page.
+    problems = [r[0] for r in conn.execute("PRAGMA integrity_check(20)").fetchall()]
+    if problems != ["ok"]:
+        out.append(
+            Break(
+                "damaged-database",
+                None,
+                None,
+                None,
+                None,
+                "cases.sqlite",
+                "SQLite's integrity check fails: " + "; ".join(map(str, problems[:3])),
+            )
+        )
     tables = {r[0] for r in conn.execute("SELECT name FROM sqlite_master WHERE type='table'")}
     if ledger.LEDGER_TABLE in tables or "key_events" in tables:
         for p in ledger.check_ledger(conn, anchor):
@@ -833,7 +860,15 @@ def verify_store(
     for n in numbers:
         try:
             b, counts, w, s = check_case_data(load_case_data(store, n), get_blob)
-        except (_Unreadable, KeyError, TypeError, ValueError, AttributeError) as exc:
+        except (
+            _Unreadable,
+            WorkbenchError,
+            KeyError,
+            TypeError,
+            ValueError,
+            AttributeError,
+        ) as exc:
+            # A value of the wrong type (a BLOB in a text column) is tampering, not bad input.
             what = str(exc) if isinstance(exc, _Unreadable) else f"{type(exc).__name__}: {exc}"
             breaks.append(
                 Break(
