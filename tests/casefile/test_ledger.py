@@ -77,9 +77,8 @@ def test_every_single_row_deletion_is_detected_with_identity(pristine, tmp_path,
             named = any(b["record"] == identity for b in breaks)
         if code != 4 or not named:
             missed.append((table, rid, code, [b["kind"] for b in breaks][:3]))
-    print(
-        f"single-row deletions tried: {len(rows)}, detected with identity: {len(rows) - len(missed)}"
-    )
+    found = len(rows) - len(missed)
+    print(f"single-row deletions tried: {len(rows)}, detected with identity: {found}")
     assert not missed
 
 
@@ -143,10 +142,8 @@ def test_anchor_detects_a_rolled_back_store(pristine, tmp_path, capsys):
     conn.execute("DELETE FROM ledger WHERE seq > ?", (seq - 1,))
     conn.execute("DELETE FROM custody_events WHERE note='checked'")
     conn.close()
-    code, report = _verify_cli(capsys, root)
     # (without an anchor the ledger may be consistent again, so no claim either way)
     assert main(["custody", "verify", "--store", str(root), "--anchor", f"{seq}:{digest}"]) == 4
-    assert code in (0, 4)
 
 
 def test_old_store_is_upgraded_with_legacy_untrusted_keys(tmp_path):
