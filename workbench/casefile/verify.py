@@ -126,7 +126,7 @@ class Break:
         # Values come from a store that may be tampered with: a BLOB where a
         # case number belongs must still print.
         for name, value in self.__dict__.items():
-            if value is not None and not isinstance(value, str | int) or isinstance(value, bool):
+            if (value is not None and not isinstance(value, str | int)) or isinstance(value, bool):
                 object.__setattr__(self, name, repr(value))
         for name in ("case_number", "item_number"):
             value = getattr(self, name)
