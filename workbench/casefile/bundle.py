@@ -64,7 +64,8 @@ __all__ = [
 ]
 
 BUNDLE_FORMAT = "workbench-case-bundle"
-_FORMAT_VERSION = 1
+#: 2 adds the case's hash-chained status log to records/case.json.
+_FORMAT_VERSION = 2
 #: Largest single entry accepted on import (uncompressed).
 MAX_ENTRY_BYTES: int = 512 * 1024 * 1024
 #: Largest total (uncompressed) accepted on import.
@@ -331,7 +332,10 @@ def _parse(path: Path, entries: dict[str, bytes]) -> tuple[dict[str, Any], dict[
         if manifest["format"] != BUNDLE_FORMAT:
             raise ValueError(f"format {manifest['format']!r}")
         if manifest["format_version"] != _FORMAT_VERSION:
-            raise ValueError(f"format version {manifest['format_version']!r} is not known")
+            raise ValueError(
+                f"format version {manifest['format_version']!r} is not {_FORMAT_VERSION} (a "
+                "version-1 bundle carries no status log; export it again with this version)"
+            )
     except (ValueError, KeyError, TypeError, UnicodeDecodeError, RecursionError) as exc:
         raise _bad(path, "manifest.json", f"malformed ({exc})") from exc
     present = set(entries) - {"manifest.json", "manifest.sha256"}
@@ -520,7 +524,7 @@ def _insert(conn: Any, data: CaseData, source: str) -> None:
     c = data.case
     cur = conn.execute(
         "INSERT INTO cases (case_number, title, requesting_party, status, created_at, "
-        "record_hash) VALUES (?,?,?,?,?,?)",
+        "record_hash, status_log) VALUES (?,?,?,?,?,?,?)",
         (
             c["case_number"],
             c["title"],
@@ -528,6 +532,7 @@ def _insert(conn: Any, data: CaseData, source: str) -> None:
             c["status"],
             c["created_at"],
             c["record_hash"],
+            json.dumps(c["status_log"]),
         ),
     )
     case_id = cur.lastrowid

@@ -49,11 +49,14 @@ __all__ = [
     "EVENT_FIELDS",
     "EVENT_KINDS",
     "SEAL_STATES",
+    "STATUS_FIELDS",
     "STORE_ONLY_KINDS",
     "ChainState",
     "apply_event",
+    "check_status_log",
     "event_hash",
     "split_seals",
+    "status_entry",
 ]
 
 #: Every kind of custody event.
@@ -343,3 +346,38 @@ def apply_event(state: ChainState | None, event: dict[str, Any], label: str) -> 
         count=state.count + 1,
         location=event.get("location") or state.location,
     )
+
+
+#: Fields hashed in each entry of a case's status log.
+STATUS_FIELDS: tuple[str, ...] = ("status", "at", "prev_hash")
+
+
+def status_entry(status: str, at: str, prev_hash: str) -> dict[str, Any]:
+    """One entry of a case's status log, chained to ``prev_hash``.
+
+    A case's status may change (open, closed, archived), so it is outside the
+    case's record hash; instead every status the case has had is a hashed
+    entry whose first ``prev_hash`` is the case's record hash, so the current
+    status is covered like the rest of the case (in the store and in bundles).
+    """
+    entry = {"status": status, "at": at, "prev_hash": prev_hash}
+    entry["hash"] = record_hash(entry, STATUS_FIELDS)
+    return entry
+
+
+def check_status_log(log: Any, case_hash: str, status: Any) -> str | None:
+    """Return what is wrong with a case's status log, or None when it holds."""
+    if not isinstance(log, list) or not log:
+        return "the case has no status log"
+    prev = case_hash
+    for n, e in enumerate(log, start=1):
+        if not isinstance(e, dict) or set(e) != {*STATUS_FIELDS, "hash"}:
+            return f"status log entry {n} is malformed"
+        if e["prev_hash"] != prev:
+            return f"status log entry {n} does not link to the one before it"
+        if record_hash(e, STATUS_FIELDS) != e["hash"]:
+            return f"status log entry {n} does not match its hash"
+        prev = e["hash"]
+    if log[-1]["status"] != status:
+        return f"the case's status {status!r} is not the last one logged ({log[-1]['status']!r})"
+    return None

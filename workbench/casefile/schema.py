@@ -212,6 +212,8 @@ _LEDGER_AND_KEYS = [
     "ALTER TABLE analysts ADD COLUMN trusted_by TEXT",
     "ALTER TABLE analysts ADD COLUMN trusted_at TEXT",
     "ALTER TABLE analysts ADD COLUMN trust_reason TEXT",
+    # Every status a case has had, hash-chained from its record hash (custody.status_entry).
+    "ALTER TABLE cases ADD COLUMN status_log TEXT",
     "DROP TRIGGER analysts_revoke_only",
     # Only revocation (once) and trust (once) may change an analyst.
     """CREATE TRIGGER analysts_fixed_fields BEFORE UPDATE ON analysts
@@ -240,8 +242,17 @@ _LEDGER_AND_KEYS = [
 
 
 def _baseline_v3(conn: sqlite3.Connection, now: str) -> None:
-    """Enter pre-existing keys in the key log (as ``legacy``), then every row in the ledger."""
+    """Start status logs and the key log (keys as ``legacy``), then enter every row in the ledger."""
+    import json
+
+    from workbench.casefile.custody import status_entry
     from workbench.casefile.keylog import append_key_event
+
+    for cid, status, digest in conn.execute(
+        "SELECT id, status, record_hash FROM cases ORDER BY id"
+    ).fetchall():
+        log = [status_entry(status, now, digest)]
+        conn.execute("UPDATE cases SET status_log=? WHERE id=?", (json.dumps(log), cid))
 
     rows = conn.execute(
         "SELECT fingerprint, name, role, public_key_pem, registered_at, status, revoked_at, "

@@ -38,6 +38,7 @@ from workbench.casefile.custody import (
     ChainState,
     apply_event,
     event_hash,
+    status_entry,
 )
 from workbench.casefile.hashing import (
     GENESIS_HASH,
@@ -329,7 +330,7 @@ class CaseStore:
                 raise CaseFileError(f"case {number} already exists", "choose another case number")
             cur = conn.execute(
                 "INSERT INTO cases (case_number, title, requesting_party, status, created_at,"
-                " record_hash) VALUES (?, ?, ?, ?, ?, ?)",
+                " record_hash, status_log) VALUES (?, ?, ?, ?, ?, ?, ?)",
                 (
                     number,
                     fields["title"],
@@ -337,6 +338,7 @@ class CaseStore:
                     status,
                     fields["created_at"],
                     digest,
+                    json.dumps([status_entry(status, fields["created_at"], digest)]),
                 ),
             )
             self._ledger(conn, "cases", cur.lastrowid, "insert")
@@ -381,7 +383,13 @@ class CaseStore:
         row = self._case_row(case_number)
 
         def tx(conn: sqlite3.Connection) -> None:
-            conn.execute("UPDATE cases SET status=? WHERE id=?", (status, row["id"]))
+            current = conn.execute("SELECT * FROM cases WHERE id=?", (row["id"],)).fetchone()
+            log = _stored_json(current["status_log"], f"case {row['case_number']} status_log", list)
+            log.append(status_entry(status, utc_now(), log[-1]["hash"] if log else ""))
+            conn.execute(
+                "UPDATE cases SET status=?, status_log=? WHERE id=?",
+                (status, json.dumps(log), row["id"]),
+            )
             # The status is outside the case's record hash (it may change), so
             # the ledger entry of each change is what covers it.
             self._ledger(conn, "cases", row["id"], "update")

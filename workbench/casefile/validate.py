@@ -87,6 +87,12 @@ def _check(data: Any) -> None:
     if c.get("status") not in CASE_STATUSES:
         raise InputError(f"case status {c.get('status')!r}", f"use one of {CASE_STATUSES}")
     _time(c, "created_at", "case")
+    if not isinstance(c.get("status_log"), list) or not c["status_log"]:
+        raise InputError("case status_log is missing or not a list", "export the case again")
+    for e in c["status_log"]:
+        if not isinstance(e, dict) or e.get("status") not in CASE_STATUSES:
+            raise InputError("case status_log holds an entry that is not valid", "")
+        _time(e, "at", "case status_log entry")
     for it in data.items:
         where = f"item {str(it.get('item_number'))[:64]!r}"
         _same_text(it, "item_number", where, max_len=64)

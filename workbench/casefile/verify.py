@@ -43,7 +43,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from workbench.casefile import ledger
-from workbench.casefile.custody import EVENT_FIELDS, ChainState, apply_event
+from workbench.casefile.custody import EVENT_FIELDS, ChainState, apply_event, check_status_log
 from workbench.casefile.hashing import GENESIS_HASH, sha256_hex
 from workbench.casefile.hashing import record_hash as _record_hash
 from workbench.casefile.keylog import replay_key_log
@@ -233,6 +233,8 @@ def load_case_data(store: Any, case_number: str) -> CaseData:
                 "record_hash",
             )
         }
+        if "status_log" in c.keys():  # schema 3 on
+            case["status_log"] = _json(c["status_log"], f"case {case_number} status_log")
         items = []
         events: dict[str, list[dict[str, Any]]] = {}
         for r in conn.execute(
@@ -475,6 +477,22 @@ def check_case_data(
                 found,
             )
         )
+    if "status_log" in data.case:
+        why = check_status_log(
+            data.case["status_log"], data.case["record_hash"], data.case["status"]
+        )
+        if why is not None:
+            out.append(
+                Break(
+                    "altered-record",
+                    cn,
+                    None,
+                    None,
+                    None,
+                    "case status log",
+                    why,
+                )
+            )
     # sub-sampled events in parents, keyed by child item number
     parent_events: dict[str, dict] = {}
     for evs in data.events.values():
