@@ -382,7 +382,7 @@ def crafted_bundles(work: Path, pristine: Path, info: dict) -> Counter:
 def cli_checks(work: Path) -> Counter:
     out: Counter = Counter()
     target = work / "no-store"
-    kind, code = cli("custody", "verify", "--store", str(target))
+    _kind, code = cli("custody", "verify", "--store", str(target))
     out[f"verify on a missing path: {'creates a store' if target.exists() else 'creates nothing'}"
         f", exit {code}"] += 1  # fmt: skip
     err = io.StringIO()

@@ -242,7 +242,7 @@ _LEDGER_AND_KEYS = [
 
 
 def _baseline_v3(conn: sqlite3.Connection, now: str) -> None:
-    """Start status logs and the key log (keys as ``legacy``), then enter every row in the ledger."""
+    """Start status logs and the key log (keys as ``legacy``); enter every row in the ledger."""
     import json
 
     from workbench.casefile.custody import status_entry
