@@ -176,3 +176,28 @@ def test_old_store_is_upgraded_with_legacy_untrusted_keys(tmp_path):
         assert (a.provenance, a.trusted) == ("legacy", False)
         assert s.verify().ok, s.verify().first_break
         assert [e["kind"] for e in s.key_events()] == ["legacy"]
+
+
+@pytest.mark.parametrize(
+    ("sql", "identity", "orphan"),
+    [
+        ("DELETE FROM items WHERE item_number='1.1'", f"item {CASE}/1.1", "custody event"),
+        ("DELETE FROM cases", f"case {CASE}", "item"),
+    ],
+)
+def test_hidden_item_or_case_is_reported_with_its_orphans(
+    pristine, tmp_path, sql, identity, orphan
+):
+    """Issue 11 item 2: a whole item or case deleted; its events remain as orphans."""
+    root = copy_store(pristine, tmp_path / "s")
+    conn = raw(root)
+    conn.execute(sql)
+    conn.close()
+    with CaseStore.open_readonly(root) as s:
+        report = s.verify()
+    assert not report.ok
+    missing = [b for b in report.breaks if b.kind == "missing-row"]
+    assert any(str(b.record).startswith(identity) for b in missing), missing
+    orphans = [b for b in report.breaks if b.kind == "orphan-row"]
+    # the rows that pointed at it are named, not silently kept
+    assert any(str(b.record).startswith(orphan) for b in orphans)
