@@ -276,11 +276,56 @@ def _remanifest(entries: dict[str, bytes]) -> dict[str, bytes]:
     return {**entries, "manifest.json": mb, "manifest.sha256": (sha(mb) + "\n").encode()}
 
 
-def _edit(entries: dict[str, bytes], record: str, fn) -> dict[str, bytes]:
-    data = json.loads(entries[f"records/{record}.json"])
-    fn(data)
-    return {**entries, f"records/{record}.json": json.dumps(data, sort_keys=True,
-            separators=(",", ":"), ensure_ascii=False).encode()}  # fmt: skip
+def _rehash(records: dict) -> None:
+    """A careful forger: recompute case, item and event hashes and links after an edit."""
+    from workbench.casefile import GENESIS_HASH, event_hash
+    from workbench.casefile.hashing import record_hash
+    from workbench.casefile.records import CASE_HASH_FIELDS, ITEM_HASH_FIELDS
+
+    case = records["case"]
+    case["record_hash"] = record_hash(case, CASE_HASH_FIELDS)
+    prev = case["record_hash"]
+    for entry in case.get("status_log", []):
+        entry["prev_hash"] = prev
+        entry["hash"] = record_hash(entry, ("status", "at", "prev_hash"))
+        prev = entry["hash"]
+    item_hash = {}
+    for it in records["items"]:
+        it["record_hash"] = record_hash({**it, "case_hash": case["record_hash"]}, ITEM_HASH_FIELDS)
+        item_hash[it["item_number"]] = it["record_hash"]
+    links: dict[str, str] = {}
+    for it in records["items"]:
+        num = it["item_number"]
+        prev = links.get(num, GENESIS_HASH)
+        evs = sorted(
+            (x for x in records["events"] if x["item_number"] == num), key=lambda x: x["seq"]
+        )
+        for n, ev in enumerate(evs):
+            sub = ev["kind"] == "sub-sampled" and ev.get("ref_kind") == "sub-sample"
+            if n == 0:
+                ev["ref_hash"] = item_hash[num]
+            if sub:
+                ev["ref_hash"] = item_hash[ev["ref_key"]]
+            ev["prev_hash"] = prev
+            ev["hash"] = event_hash(ev)
+            prev = ev["hash"]
+            if sub:
+                links[ev["ref_key"]] = ev["hash"]
+
+
+def _dump(data: object) -> bytes:
+    return json.dumps(data, sort_keys=True, separators=(",", ":"), ensure_ascii=False).encode()
+
+
+def _edit(entries: dict[str, bytes], record: str, fn, rehash: bool = False) -> dict[str, bytes]:
+    names = ("case", "items", "events")
+    records = {n: json.loads(entries[f"records/{n}.json"]) for n in names}
+    if record not in records:
+        records[record] = json.loads(entries[f"records/{record}.json"])
+    fn(records[record])
+    if rehash:
+        _rehash(records)
+    return {**entries, **{f"records/{n}.json": _dump(d) for n, d in records.items()}}
 
 
 def crafted_bundles(work: Path, pristine: Path, info: dict) -> Counter:
@@ -311,11 +356,15 @@ def crafted_bundles(work: Path, pristine: Path, info: dict) -> Counter:
         "altered, re-manifested": _remanifest(
             {**e, "records/events.json": e["records/events.json"].replace(b"Ana", b"Eve")}
         ),
-        "5 MB title": _remanifest(_edit(e, "case", lambda r: r.update(title="x" * 5_000_000))),
-        "seal_numbers as text": _remanifest(
-            _edit(e, "items", lambda r: r[0].update(seal_numbers="AT-1"))
+        "5 MB title (re-hashed)": _remanifest(
+            _edit(e, "case", lambda r: r.update(title="x" * 5_000_000), rehash=True)
         ),
-        "seq as 1.0": _remanifest(_edit(e, "events", lambda r: r[0].update(seq=1.0))),
+        "seal_numbers as text (re-hashed)": _remanifest(
+            _edit(e, "items", lambda r: r[0].update(seal_numbers="AT-1"), rehash=True)
+        ),
+        "seq as 1.0 (re-hashed)": _remanifest(
+            _edit(e, "events", lambda r: r[0].update(seq=1.0), rehash=True)
+        ),
         "status changed": _remanifest(_edit(e, "case", lambda r: r.update(status="open"))),
         "forged trust fields": _remanifest(
             _edit(e, "analysts", lambda r: r[0].update(trusted=1, provenance="local"))
