@@ -156,7 +156,15 @@ def test_trust_and_list_show_provenance(env, capsys, tmp_path):
     with CaseStore.open(src) as s:
         bundle = export_bundle(s, "HLX-2026-0007", tmp_path / "b.zip")
     assert main(["bundle", "import", str(bundle)]) == 0
-    capsys.readouterr()
+    assert "untrusted" in capsys.readouterr().out
+    with CaseStore.open(env / "store") as d:
+        sheet = d.list_findings_sheets()[0]
+        for suffix, sha in ((".pdf", sheet.pdf_sha256), (".json", sheet.json_sha256),
+                            (".sig.json", sheet.record_sha256)):  # fmt: skip
+            (tmp_path / f"sheet{suffix}").write_bytes(d.file_bytes(sha))
+    # findings verify against this store: intact signature, but the key is untrusted
+    assert main(["findings", "verify", str(tmp_path / "sheet.pdf")]) == 4
+    assert "untrusted key" in capsys.readouterr().out
     assert main(["keys", "list"]) == 0
     assert "provenance: imported, untrusted" in capsys.readouterr().out
     assert main(["keys", "list", "--json"]) == 0
@@ -164,6 +172,8 @@ def test_trust_and_list_show_provenance(env, capsys, tmp_path):
     rc = main(["keys", "trust", a["fingerprint"], "--by", "Ines Calder", "--reason", "by phone"])
     assert rc == 0
     assert "trusted by Ines Calder" in capsys.readouterr().out
+    assert main(["findings", "verify", str(tmp_path / "sheet.pdf")]) == 0
+    assert "key trusted in this store (imported, trusted by Ines Calder" in capsys.readouterr().out
     # trusting twice is refused (exit 5, a store rule)
     assert main(["keys", "trust", a["fingerprint"], "--by", "X", "--reason", "y"]) == 5
     assert main(["keys", "log", "--json"]) == 0

@@ -754,6 +754,8 @@ def _has_table(conn: sqlite3.Connection, name: str) -> bool:
 
 def _store_breaks(conn: sqlite3.Connection, anchor: tuple[int, str] | None) -> list[Break]:
     """Ledger and key-log checks over the whole store."""
+    import workbench.casefile.schema  # noqa: F401  (registers the store's tables with the ledger)
+
     out: list[Break] = []
     # Pages that no query reads (an index, a free page) are damaged silently
     # otherwise; SQLite's own check reads every page.
