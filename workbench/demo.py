@@ -299,6 +299,17 @@ def seed_demo_case(store: Any) -> dict[str, Any]:
         for i, item in enumerate(case["items"]):
             at = f"2026-11-20T{10 + i:02d}:00:00Z"
             if item.get("parent"):
+                parent = next(x for x in case["items"] if x["item_number"] == item["parent"])
+                if parent.get("seals"):
+                    # custody rule 'sealed-sub-sample': the seal is broken on record first
+                    store.add_custody_event(
+                        (number, item["parent"]),
+                        "opened",
+                        _ANALYST,
+                        seal_number=",".join(parent["seals"]),
+                        location="Examination bench 2 (invented)",
+                        at=f"2026-11-20T{9 + i:02d}:30:00Z",
+                    )
                 store.add_item(
                     number,
                     item["item_number"],

@@ -32,6 +32,10 @@ def seed(root: Path) -> dict:
             received_by=ANALYST, received_from="Courier Bo (invented)",
             at="2026-11-01T09:00:00Z",
         )  # fmt: skip
+        # custody rule 'sealed-sub-sample' (issue 11 item 8): the seal is broken on record first
+        store.add_custody_event(
+            (CASE, "1"), "opened", ANALYST, seal_number="S-100", at="2026-11-01T09:30:00Z"
+        )
         store.add_item(
             CASE, "1a", "Shaving taken from item 1 (invented)", parent_item="1",
             received_by=ANALYST, at="2026-11-01T10:00:00Z",

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import struct
 import zipfile
 from pathlib import Path
 
@@ -29,8 +30,8 @@ def _entries(path: Path) -> dict[str, bytes]:
         return {n: zf.read(n) for n in zf.namelist()}
 
 
-def _write(path: Path, entries: dict[str, bytes]) -> Path:
-    with zipfile.ZipFile(path, "w") as zf:
+def _write(path: Path, entries: dict[str, bytes], method: int = zipfile.ZIP_STORED) -> Path:
+    with zipfile.ZipFile(path, "w", compression=method) as zf:
         for name, data in entries.items():
             zf.writestr(name, data)
     return path
@@ -180,3 +181,204 @@ def test_malformed_bundle_refused_store_unchanged(bundle, tmp_path, name):
 def test_size_limit(bundle, tmp_path):
     with CaseStore.open(tmp_path / "dst") as d, pytest.raises(BundleError, match="limit"):
         import_bundle(bundle, d, max_entry_bytes=100)
+
+
+# ------------------------------------------------------------------ issue 11
+def test_imported_keys_arrive_untrusted_until_a_recorded_local_act(bundle, tmp_path):
+    """Item 1: importing a bundle never makes outside keys trusted."""
+    from workbench.errors import SignatureInvalidError
+    from workbench.findings.signing import verify_sheet_with_store
+
+    with CaseStore.open(tmp_path / "dst") as d:
+        import_bundle(bundle, d)
+        (a,) = d.list_analysts()
+        assert (a.provenance, a.trusted, a.provenance_text) == (
+            "imported",
+            False,
+            "imported, untrusted",
+        )
+        sheet = d.list_findings_sheets(CASE)[0]
+        files = [
+            d.file_bytes(sheet.pdf_sha256),
+            d.file_bytes(sheet.json_sha256),
+            d.file_bytes(sheet.record_sha256),
+        ]
+        with pytest.raises(SignatureInvalidError, match="untrusted key"):
+            verify_sheet_with_store(d, *files)
+        report = d.verify()
+        # integrity is intact; the untrusted signer is a warning, not a break
+        assert report.ok and any("not trusted" in w for w in report.warnings)
+        d.trust_analyst(a.fingerprint, "Ines Calder (lab manager)", "confirmed by phone")
+        res = verify_sheet_with_store(d, *files)
+        assert "trusted by Ines Calder (lab manager)" in res.key_provenance
+        kinds = [e["kind"] for e in d.key_events(a.fingerprint)]
+        assert kinds == ["imported", "trusted"]
+        assert d.verify().ok
+
+
+def test_a_bundle_cannot_carry_trust_or_revocation_state(bundle, tmp_path):
+    """Item 1: the analysts record travels as identity only; a forged 'trusted' is ignored."""
+    e = _entries(bundle)
+    analysts = json.loads(e["records/analysts.json"])
+    assert set(analysts[0]) == {"fingerprint", "name", "role", "public_key_pem"}
+    analysts[0].update(trusted=1, provenance="local", status="active")
+    e["records/analysts.json"] = canonical_json(analysts)
+    forged = _write(tmp_path / "forged.zip", _remanifest(e))
+    with CaseStore.open(tmp_path / "dst") as d:
+        import_bundle(forged, d)
+        (a,) = d.list_analysts()
+        assert (a.provenance, a.trusted) == ("imported", False)
+
+
+def test_refused_import_leaves_no_files(bundle, tmp_path, monkeypatch):
+    """Item 6: a refusal inside the transaction leaves neither rows nor files."""
+    import workbench.casefile.bundle as bundle_mod
+
+    dst = tmp_path / "dst"
+    with CaseStore.open(dst) as d:
+        d.create_case("OTHER-1", "untouched", "someone")
+    before = _snapshot(dst)
+    real_insert = bundle_mod._insert
+
+    def failing_insert(conn, data, source):
+        real_insert(conn, data, source)  # every row written, then the write is refused
+        raise CaseFileError("simulated refusal", "nothing was written")
+
+    monkeypatch.setattr(bundle_mod, "_insert", failing_insert)
+    with CaseStore.open(dst) as d, pytest.raises(CaseFileError, match="simulated"):
+        import_bundle(bundle, d)
+    assert _snapshot(dst) == before
+    assert not list((dst / "files").glob(".staging-*"))
+
+
+def test_staged_files_left_by_a_crash_are_finished_or_dropped(bundle, tmp_path):
+    with CaseStore.open(tmp_path / "dst") as d:
+        import_bundle(bundle, d)
+        sha = d.list_measurements(CASE)[0].sha256
+        data = d.file_bytes(sha)
+        path = d.files.path(sha)
+    path.unlink()  # as if the process died after the commit, before the move
+    stage = tmp_path / "dst" / "files" / ".staging-crash"
+    stage.mkdir()
+    (stage / sha).write_bytes(data)
+    (stage / sha256_hex(b"not named by any row")).write_bytes(b"not named by any row")
+    with CaseStore.open(tmp_path / "dst") as d:
+        assert d.file_bytes(sha) == data
+        assert d.verify().ok
+    assert not stage.exists()
+
+
+def _recompressed(b: Path, out: Path, method: int) -> Path:
+    with zipfile.ZipFile(out, "w") as zf:
+        for name, data in sorted(_entries(b).items()):
+            zf.writestr(name, data, compress_type=method)
+    return out
+
+
+@pytest.mark.parametrize("method", [zipfile.ZIP_DEFLATED, zipfile.ZIP_LZMA])
+def test_damaged_compressed_stream_gives_a_clear_error(bundle, tmp_path, method):
+    """Item 6: a damaged deflate or LZMA stream is a BundleError, not a traceback."""
+    good = _recompressed(bundle, tmp_path / "good.zip", method)
+    with zipfile.ZipFile(good) as zf:
+        info = max(zf.infolist(), key=lambda i: i.compress_size)
+    raw = bytearray(good.read_bytes())
+    # the entry's data starts after its 30-byte local header, name and extra field
+    # (PKWARE APPNOTE 4.3.7); damage the middle of its compressed stream
+    name_len, extra_len = struct.unpack(
+        "<HH", raw[info.header_offset + 26 : info.header_offset + 30]
+    )
+    start = info.header_offset + 30 + name_len + extra_len
+    for k in range(start + info.compress_size // 3, start + info.compress_size // 3 + 16):
+        raw[k] ^= 0x5A
+    bad = tmp_path / "bad.zip"
+    bad.write_bytes(bytes(raw))
+    with CaseStore.open(tmp_path / "dst") as d, pytest.raises(BundleError) as err:
+        import_bundle(bad, d)
+    assert "nothing was imported" in str(err.value)
+
+
+def test_zip_bomb_refused_before_anything_is_unpacked(bundle, tmp_path, monkeypatch):
+    """Item 6: declared sizes and ratio are checked before any entry is read."""
+    e = _entries(bundle)
+    e["files/" + "0" * 64] = bytes(20 * 1024 * 1024)  # 20 MiB of zeros deflate ~1000:1
+    bomb = _write(tmp_path / "bomb.zip", e, zipfile.ZIP_DEFLATED)
+    assert bomb.stat().st_size < 200_000
+    opened = []
+    real_open = zipfile.ZipFile.open
+    monkeypatch.setattr(
+        zipfile.ZipFile, "open", lambda self, *a, **k: opened.append(a) or real_open(self, *a, **k)
+    )
+    with CaseStore.open(tmp_path / "dst") as d, pytest.raises(BundleError, match="zip bomb"):
+        import_bundle(bomb, d)
+    assert opened == []
+
+
+def _rehash(records: dict) -> None:
+    """Recompute the case, item and event hashes and links after an edit (a careful forger)."""
+    from workbench.casefile import GENESIS_HASH, event_hash
+    from workbench.casefile.hashing import record_hash
+    from workbench.casefile.records import CASE_HASH_FIELDS, ITEM_HASH_FIELDS
+
+    case = records["case"]
+    case["record_hash"] = record_hash(case, CASE_HASH_FIELDS)
+    prev = case["record_hash"]
+    for entry in case.get("status_log", []):
+        entry["prev_hash"] = prev
+        entry["hash"] = record_hash(entry, ("status", "at", "prev_hash"))
+        prev = entry["hash"]
+    item_hash = {}
+    for it in records["items"]:
+        it["record_hash"] = record_hash({**it, "case_hash": case["record_hash"]}, ITEM_HASH_FIELDS)
+        item_hash[it["item_number"]] = it["record_hash"]
+    links: dict[str, str] = {}
+    for it in records["items"]:
+        num = it["item_number"]
+        prev = links.get(num, GENESIS_HASH)
+        events = sorted(
+            (x for x in records["events"] if x["item_number"] == num), key=lambda x: x["seq"]
+        )
+        for n, ev in enumerate(events):
+            if n == 0:
+                ev["ref_hash"] = item_hash[num]
+            if ev["kind"] == "sub-sampled" and ev.get("ref_kind") == "sub-sample":
+                ev["ref_hash"] = item_hash[ev["ref_key"]]
+            ev["prev_hash"] = prev
+            ev["hash"] = event_hash(ev)
+            prev = ev["hash"]
+            if ev["kind"] == "sub-sampled" and ev.get("ref_kind") == "sub-sample":
+                links[ev["ref_key"]] = ev["hash"]
+
+
+def test_rehash_helper_is_faithful(bundle, tmp_path):
+    # recomputing an untouched bundle changes nothing (common practice, no source)
+    e = _entries(bundle)
+    records = {n: json.loads(e[f"records/{n}.json"]) for n in ("case", "items", "events")}
+    _rehash(records)
+    assert all(canonical_json(records[n]) == e[f"records/{n}.json"] for n in records)
+
+
+@pytest.mark.parametrize(
+    ("record", "edit", "field"),
+    [
+        ("case", lambda r: r.update(title="x" * 5_000_000), "title"),
+        ("items", lambda r: r[0].update(seal_numbers="HC-55120"), "seal_numbers"),
+        ("events", lambda r: r[0].update(seq=1.0), "seq"),
+        ("case", lambda r: r.update(status="reopened"), "status"),
+    ],
+)
+def test_fields_validated_as_on_direct_entry(bundle, tmp_path, record, edit, field):
+    """Item 6: what direct entry refuses, import refuses, naming the field.
+
+    The forger is careful: every record hash and custody chain is recomputed,
+    so only the field rules can refuse it.
+    """
+    e = _entries(bundle)
+    records = {n: json.loads(e[f"records/{n}.json"]) for n in ("case", "items", "events")}
+    edit(records[record])
+    _rehash(records)
+    for n, data in records.items():
+        e[f"records/{n}.json"] = canonical_json(data)
+    bad = _write(tmp_path / "bad.zip", _remanifest(e))
+    with CaseStore.open(tmp_path / "dst") as d, pytest.raises(BundleError) as err:
+        import_bundle(bad, d)
+    assert field in str(err.value) and "not valid" in str(err.value)

@@ -73,7 +73,7 @@ def test_swapped_public_key_breaks_signature(store, tmp_path):
         .public_bytes(serialization.Encoding.PEM, serialization.PublicFormat.SubjectPublicKeyInfo)
     )
     conn = sqlite3.connect(store.root / "cases.sqlite", isolation_level=None)
-    conn.execute("DROP TRIGGER analysts_revoke_only")
+    conn.execute("DROP TRIGGER analysts_fixed_fields")
     conn.execute("UPDATE analysts SET public_key_pem=?", (other.decode(),))
     conn.close()
     report = store.verify()

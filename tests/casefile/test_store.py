@@ -255,3 +255,68 @@ def test_failed_migration_changes_nothing(tmp_path, monkeypatch):
     assert conn.execute("SELECT MAX(version) FROM schema_version").fetchone()[0] == 1
     assert not conn.execute("SELECT name FROM sqlite_master WHERE type='trigger'").fetchall()
     conn.close()
+
+
+# ------------------------------------------------------------------ issue 11 item 8
+def test_sealed_item_cannot_be_sub_sampled_without_opening(store):
+    store.create_case("SEAL-1", "sealed parcel", "someone")
+    store.add_item(
+        "SEAL-1", "1", "parcel", seal_numbers=["S-77"], received_by="Ana", received_from="PC Bo"
+    )
+    before = store.connection.execute("SELECT COUNT(*) FROM custody_events").fetchone()[0]
+    with pytest.raises(CustodyRuleError, match="'sealed-sub-sample'"):
+        store.add_item("SEAL-1", "1.1", "chip", parent_item="1", received_by="Ana")
+    # refused with nothing written (no item row, no event in either chain)
+    assert store.connection.execute("SELECT COUNT(*) FROM custody_events").fetchone()[0] == before
+    assert [i.item_number for i in store.list_items("SEAL-1")] == ["1"]
+    store.add_custody_event("SEAL-1/1", "opened", "Ana", seal_number="S-77")
+    sub = store.add_item("SEAL-1", "1.1", "chip", parent_item="1", received_by="Ana")
+    # a sub-sample of an opened item starts open (a defined state, never 'unknown')
+    assert sub.seal_state == "open"
+    sealed = store.add_item(
+        "SEAL-1", "1.2", "chip", parent_item="1", received_by="Ana", seal_numbers=["S-78"]
+    )
+    assert (sealed.seal_state, sealed.seals) == ("sealed", ("S-78",))
+    assert store.verify().ok
+
+
+def test_forged_sub_sampling_of_a_sealed_item_fails_verify(store):
+    from tests.casefile.hostile import raw
+
+    store.create_case("SEAL-2", "sealed parcel", "someone")
+    store.add_item(
+        "SEAL-2", "1", "parcel", seal_numbers=["S-9"], received_by="Ana", received_from="PC Bo"
+    )
+    store.add_custody_event("SEAL-2/1", "opened", "Ana", seal_number="S-9")
+    store.add_item("SEAL-2", "1.1", "chip", parent_item="1", received_by="Ana")
+    conn = raw(store.root)
+    # the 'opened' event removed and the chain re-linked: the rule itself must fail
+    from workbench.casefile import event_hash
+
+    rows = conn.execute(
+        "SELECT e.*, i.item_number FROM custody_events e JOIN items i ON i.id=e.item_id "
+        "WHERE i.item_number='1' ORDER BY seq"
+    ).fetchall()
+    cols = [d[0] for d in conn.execute("SELECT * FROM custody_events LIMIT 1").description]
+    first, opened, sub = (dict(zip([*cols, "item_number"], r, strict=True)) for r in rows)
+    conn.execute("DELETE FROM custody_events WHERE id=?", (opened["id"],))
+    sub.update(seq=2, prev_hash=first["hash"], seal_state="sealed", seal_number="S-9")
+    sub["case_number"] = "SEAL-2"
+    conn.execute(
+        "UPDATE custody_events SET seq=2, prev_hash=?, seal_state='sealed', seal_number='S-9', "
+        "hash=? WHERE id=?",
+        (first["hash"], event_hash(sub), sub["id"]),
+    )
+    conn.close()
+    kinds = [b.kind for b in store.verify().breaks]
+    assert "rule-violation" in kinds
+
+
+def test_demo_seeding_opens_the_seal_before_sub_sampling(store):
+    from workbench.demo import seed_demo_case
+
+    seed_demo_case(store)
+    kinds = [e.kind for e in store.custody_events("NRFL-2026-0417/1", own_only=True)]
+    assert kinds[:3] == ["received", "opened", "sub-sampled"]
+    assert store.get_item("NRFL-2026-0417/2").seal_state == "open"
+    assert store.verify().ok

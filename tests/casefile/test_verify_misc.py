@@ -1,12 +1,12 @@
-"""Verify edge cases: harmless leftovers, sub-sample time order, missing signing module."""
+"""Verify edge cases: harmless leftovers, sub-sample time order, layering."""
 
 from __future__ import annotations
 
-import sys
+from pathlib import Path
 
 import pytest
 
-from tests.casefile.helpers import add_signed_sheet, populate
+from tests.casefile.helpers import populate
 from workbench.errors import CustodyRuleError, StoreIntegrityError
 
 
@@ -37,11 +37,23 @@ def test_subsample_cannot_precede_parent_sampling(store):
         )
 
 
-def test_signature_check_unavailable_without_findings_module(store, monkeypatch):
-    info = populate(store)
-    pytest.importorskip("workbench.findings.signing")
-    add_signed_sheet(store, info["analysis"].id)
-    monkeypatch.setitem(sys.modules, "workbench.findings.signing", None)
-    report = store.verify()
-    assert report.ok
-    assert report.signature_check.startswith("unavailable")
+def test_casefile_never_reaches_up_into_findings():
+    """Layering (issue 12): the case store verifies signatures through workbench.crypto."""
+    import ast
+
+    import workbench.casefile
+
+    root = Path(workbench.casefile.__file__).parent
+    for path in sorted(root.glob("*.py")):
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        for node in ast.walk(tree):
+            names = []
+            if isinstance(node, ast.Import):
+                names = [a.name for a in node.names]
+            elif isinstance(node, ast.ImportFrom):
+                names = [node.module or ""]
+            for name in names:
+                # layers point down; no importlib tricks (DEVELOPERS.md, common practice)
+                assert not name.startswith(("workbench.findings", "importlib")), (path, name)
+            if isinstance(node, ast.Call) and getattr(node.func, "attr", "") == "import_module":
+                raise AssertionError(f"{path}: dynamic import")

@@ -130,3 +130,52 @@ def test_register_bad_files(env, capsys):
 def test_revoke_unknown(env, capsys):
     assert main(["keys", "revoke", "SHA256:" + "0" * 64, "--reason", "r", "--actor", "a"]) == 6
     assert "register" in capsys.readouterr().err  # NotFoundError from the store
+
+
+@pytest.mark.parametrize("form", [["--passphrase", "s3cret-Horse"], ["--passphrase=s3cret-Horse"]])
+@pytest.mark.parametrize("command", ["keys", "findings"])
+def test_passphrase_value_is_never_echoed(env, capsys, form, command):
+    """Issue 11 item 12: argparse echoed 'unrecognized arguments: --passphrase SECRET'."""
+    argv = (
+        ["keys", "create", "--name", "a", "--out", str(env / "k")]
+        if command == "keys"
+        else ["findings", "issue", "1", "--key", "k", "--lab-name", "L", "--out", str(env)]
+    )
+    with pytest.raises(SystemExit) as exc:
+        main([*argv, *form])
+    err = capsys.readouterr().err
+    assert exc.value.code == 2
+    assert "s3cret-Horse" not in err and "--passphrase-file" in err
+
+
+def test_trust_and_list_show_provenance(env, capsys, tmp_path):
+    from tests.casefile.hostile import rich_store
+    from workbench.casefile import CaseStore, export_bundle
+
+    src = rich_store(tmp_path / "src")
+    with CaseStore.open(src) as s:
+        bundle = export_bundle(s, "HLX-2026-0007", tmp_path / "b.zip")
+    assert main(["bundle", "import", str(bundle)]) == 0
+    assert "untrusted" in capsys.readouterr().out
+    with CaseStore.open(env / "store") as d:
+        sheet = d.list_findings_sheets()[0]
+        for suffix, sha in ((".pdf", sheet.pdf_sha256), (".json", sheet.json_sha256),
+                            (".sig.json", sheet.record_sha256)):  # fmt: skip
+            (tmp_path / f"sheet{suffix}").write_bytes(d.file_bytes(sha))
+    # findings verify against this store: intact signature, but the key is untrusted
+    assert main(["findings", "verify", str(tmp_path / "sheet.pdf")]) == 4
+    assert "untrusted key" in capsys.readouterr().out
+    assert main(["keys", "list"]) == 0
+    assert "provenance: imported, untrusted" in capsys.readouterr().out
+    assert main(["keys", "list", "--json"]) == 0
+    (a,) = json.loads(capsys.readouterr().out)
+    rc = main(["keys", "trust", a["fingerprint"], "--by", "Ines Calder", "--reason", "by phone"])
+    assert rc == 0
+    assert "trusted by Ines Calder" in capsys.readouterr().out
+    assert main(["findings", "verify", str(tmp_path / "sheet.pdf")]) == 0
+    assert "key trusted in this store (imported, trusted by Ines Calder" in capsys.readouterr().out
+    # trusting twice is refused (exit 5, a store rule)
+    assert main(["keys", "trust", a["fingerprint"], "--by", "X", "--reason", "y"]) == 5
+    assert main(["keys", "log", "--json"]) == 0
+    assert [e["kind"] for e in json.loads(capsys.readouterr().out)] == ["imported", "trusted"]
+    assert main(["custody", "verify"]) == 0

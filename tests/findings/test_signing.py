@@ -278,3 +278,71 @@ def test_openssl_interop(tmp_path, signed):
     assert good.returncode == 0 and "Signature Verified Successfully" in good.stdout
     bad = run("BAD.pdf")
     assert bad.returncode != 0 and "Signature Verified Successfully" not in bad.stdout
+
+
+def _padding_flips(b64: str) -> list[str]:
+    """Every other spelling of the same bytes: set the unused low bits of the last symbol."""
+    alphabet = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/"
+    stem = b64.rstrip("=")
+    pad = len(b64) - len(stem)
+    unused = {1: 2, 2: 4}[pad]  # 64 bytes -> 86 symbols + "==": 4 spare bits (RFC 4648 s.4)
+    last = alphabet.index(stem[-1])
+    return [
+        stem[:-1] + alphabet[last | extra] + "=" * pad
+        for extra in range(1, 2**unused)
+        if last | extra != last
+    ]
+
+
+@pytest.mark.parametrize("field", ["signature_pdf", "signature_json", "signature_record"])
+def test_padding_bit_flips_are_refused(signed, field):
+    """Issue 11 item 7: base64 decoders ignore the padding bits; the record must not."""
+    rec = json.loads(signed.record)
+    variants = _padding_flips(rec[field])
+    assert variants  # a 64-byte value always leaves 4 spare bits (RFC 4648 section 4)
+    for v in variants:
+        # same bytes under a lenient decoder (the malleability being closed)
+        assert base64.b64decode(v) == base64.b64decode(rec[field])
+        forged = canonical_json({**rec, field: v})
+        with pytest.raises(SignatureInvalidError, match="canonical form"):
+            verify_sheet(PDF, JSON, forged, PUB)
+
+
+@pytest.mark.parametrize("bad", ["QUJD", "QUJD\n", "QU JD", "QUJ=", "QUJDRA", "QUJDRA=="[:-1]])
+def test_strict_base64_refuses_non_canonical_text(bad):
+    from workbench.crypto import b64decode_strict
+
+    if bad == "QUJD":
+        assert b64decode_strict(bad) == b"ABC"  # RFC 4648 section 10 style: "ABC" -> "QUJD"
+        return
+    with pytest.raises(ValueError, match=r"canonical form|not base64"):
+        b64decode_strict(bad)
+
+
+def test_verify_with_store_refuses_untrusted_imported_key(signed):
+    """Issue 11 item 1: a key that arrived in a bundle does not make a sheet VALID."""
+    untrusted = _FakeStore(
+        {
+            FP: {
+                "name": "Zoë",
+                "public_key_pem": PUB,
+                "trusted": False,
+                "provenance_text": "imported, untrusted",
+            }
+        }
+    )
+    with pytest.raises(SignatureInvalidError, match=r"untrusted key.*imported, untrusted"):
+        verify_sheet_with_store(untrusted, PDF, JSON, signed.record)
+    trusted = _FakeStore(
+        {
+            FP: {
+                "name": "Zoë",
+                "public_key_pem": PUB,
+                "trusted": True,
+                "provenance_text": "imported, trusted by Lab manager at 2026-03-15T10:00:00Z",
+            }
+        }
+    )
+    res = verify_sheet_with_store(trusted, PDF, JSON, signed.record)
+    assert res.key_provenance.startswith("imported, trusted by Lab manager")
+    assert res.to_dict()["key_provenance"] == res.key_provenance

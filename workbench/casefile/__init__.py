@@ -5,8 +5,12 @@ files stored byte-for-byte under their SHA-256), analyses, findings sheets and
 analysts in one SQLite database with an append-only, hash-chained custody log
 per item (rules in :mod:`workbench.casefile.custody`). :func:`verify_store`
 (also ``CaseStore.verify``) re-derives every hash and reports the first break
-exactly; :func:`export_bundle` / :func:`import_bundle` move a case between
-stores as one deterministic, fully verified zip.
+exactly; the store ledger (:mod:`~workbench.casefile.ledger`) chains every row
+of every table so that deleted records are reported too, and the key log
+(:mod:`~workbench.casefile.keylog`) records every registration, import, trust
+and revocation of an analyst's key. :func:`export_bundle` /
+:func:`import_bundle` move a case between stores as one deterministic, fully
+verified zip; keys it carries arrive untrusted.
 """
 
 from __future__ import annotations

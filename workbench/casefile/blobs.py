@@ -5,20 +5,28 @@ A file is written to a temporary name in its final directory, flushed and
 already exists its content is re-hashed instead of overwritten, so nothing
 stored is ever replaced. Temporary files start with ``.tmp-`` and are ignored
 everywhere else.
+
+Files that must appear only if a transaction commits (a bundle import) are
+first written to a staging folder ``files/.staging-*/`` (:meth:`BlobStore.stage`)
+and moved into place after the commit; a refusal removes the folder. A
+staging folder left by a crash after the commit is finished by
+:meth:`BlobStore.recover_staged` when the store is next opened for writing
+(its files are moved in only if some row names them, else removed).
 """
 
 from __future__ import annotations
 
 import os
 import re
+import shutil
 import tempfile
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from pathlib import Path
 
 from workbench.casefile.hashing import sha256_hex
 from workbench.errors import StoreIntegrityError
 
-__all__ = ["BlobStore", "is_sha256"]
+__all__ = ["BlobStore", "Staging", "is_sha256"]
 
 _HEX64 = re.compile(r"^[0-9a-f]{64}$")
 
@@ -34,12 +42,15 @@ class BlobStore:
     Parameters
     ----------
     root : Path
-        The ``files/`` directory (created when missing).
+        The ``files/`` directory (created when missing, unless ``create`` is False).
+    create : bool
+        False for a read-only view (verification never creates anything).
     """
 
-    def __init__(self, root: Path) -> None:
+    def __init__(self, root: Path, *, create: bool = True) -> None:
         self.root = Path(root)
-        self.root.mkdir(parents=True, exist_ok=True)
+        if create:
+            self.root.mkdir(parents=True, exist_ok=True)
 
     def path(self, sha256: str) -> Path:
         """Return where the file with this hash lives."""
@@ -134,3 +145,71 @@ class BlobStore:
                 if f.name.startswith(".tmp-") or not f.is_file():
                     continue
                 yield sub.name + f.name, f
+
+    # ------------------------------------------------------------------ staging
+    def stage(self) -> Staging:
+        """Start a staging folder for files that appear only after a commit."""
+        self.root.mkdir(parents=True, exist_ok=True)
+        return Staging(self, Path(tempfile.mkdtemp(prefix=".staging-", dir=self.root)))
+
+    def recover_staged(self, is_named: Callable[[str], bool]) -> None:
+        """Finish staging folders left by a crash: keep files some row names, drop the rest."""
+        if not self.root.is_dir():
+            return
+        for folder in sorted(self.root.glob(".staging-*")):
+            if not folder.is_dir():
+                continue
+            for f in sorted(folder.iterdir()):
+                if is_sha256(f.name) and is_named(f.name) and not self.exists(f.name):
+                    if sha256_hex(f.read_bytes()) == f.name:
+                        self._move_in(f, f.name)
+            shutil.rmtree(folder, ignore_errors=True)
+
+    def _move_in(self, source: Path, digest: str) -> None:
+        target = self.path(digest)
+        target.parent.mkdir(parents=True, exist_ok=True)
+        if target.exists():
+            self._check(target, digest)
+            source.unlink()
+            return
+        os.replace(source, target)
+        dir_fd = os.open(target.parent, os.O_RDONLY)
+        try:
+            os.fsync(dir_fd)
+        finally:
+            os.close(dir_fd)
+
+
+class Staging:
+    """Files written aside, moved into a :class:`BlobStore` only by :meth:`commit`."""
+
+    def __init__(self, blobs: BlobStore, folder: Path) -> None:
+        self.blobs = blobs
+        self.folder = folder
+        self.names: list[str] = []
+
+    def put(self, data: bytes) -> str:
+        """Write bytes to the staging folder (skipped if already stored); return the SHA-256."""
+        data = bytes(data)
+        digest = sha256_hex(data)
+        if self.blobs.exists(digest):
+            self.blobs._check(self.blobs.path(digest), digest)
+            return digest
+        target = self.folder / digest
+        if not target.exists():
+            with open(target, "wb") as fh:
+                fh.write(data)
+                fh.flush()
+                os.fsync(fh.fileno())
+            self.names.append(digest)
+        return digest
+
+    def commit(self) -> None:
+        """Move every staged file into place, then remove the staging folder."""
+        for digest in self.names:
+            self.blobs._move_in(self.folder / digest, digest)
+        shutil.rmtree(self.folder, ignore_errors=True)
+
+    def discard(self) -> None:
+        """Remove the staging folder and everything in it."""
+        shutil.rmtree(self.folder, ignore_errors=True)

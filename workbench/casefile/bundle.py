@@ -19,44 +19,81 @@ exported twice gives the same bytes and an imported case keeps its hashes.
 (no traversal, nothing unexpected), sizes, the manifest and its hash,
 completeness both ways, every entry's hash, every file's name = its hash,
 every record hash and custody chain (with the same code as ``custody
-verify``), signatures, and that every file is referenced. Then it writes the
-files and all rows in one transaction.
+verify``), every field against the rules of direct entry
+(:mod:`workbench.casefile.validate`), signatures, and that every file is
+referenced. Zip bombs are refused before anything is unpacked (declared sizes
+and each entry's compression ratio), and reading is capped at the declared
+size. Then it writes all rows in one transaction, with the files staged
+beside the store and moved into place only after the commit (a refusal
+removes them): all or nothing in both the database and ``files/``.
+
+Keys carried by a bundle (``records/analysts.json``: name, role, public key,
+fingerprint) arrive *imported* and untrusted; only a recorded act of a local
+administrator (``workbench keys trust``) makes them count in this store.
 """
 
 from __future__ import annotations
 
 import io
 import json
+import lzma
 import os
 import re
+import struct
 import tempfile
 import zipfile
+import zlib
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from workbench.casefile.hashing import canonical_json, sha256_hex
+from workbench.casefile.hashing import canonical_json, sha256_hex, utc_now
+from workbench.casefile.validate import check_records
 from workbench.casefile.verify import CaseData, check_case_data, load_case_data
-from workbench.errors import BundleError, CaseFileError, WorkbenchError
+from workbench.errors import BundleError, CaseFileError, InputError
 
 __all__ = [
     "BUNDLE_FORMAT",
     "MAX_BUNDLE_BYTES",
     "MAX_ENTRIES",
     "MAX_ENTRY_BYTES",
+    "MAX_RATIO",
     "ImportResult",
     "export_bundle",
     "import_bundle",
 ]
 
 BUNDLE_FORMAT = "workbench-case-bundle"
-_FORMAT_VERSION = 1
+#: 2 adds the case's hash-chained status log to records/case.json.
+_FORMAT_VERSION = 2
 #: Largest single entry accepted on import (uncompressed).
 MAX_ENTRY_BYTES: int = 512 * 1024 * 1024
 #: Largest total (uncompressed) accepted on import.
 MAX_BUNDLE_BYTES: int = 2 * 1024 * 1024 * 1024
 #: Most entries accepted on import.
 MAX_ENTRIES: int = 100_000
+#: Largest compression ratio accepted for an entry over 1 MiB (deflate reaches
+#: about 1000:1 on constant data; real spectra and records stay far below 100:1).
+MAX_RATIO: int = 200
+_RATIO_FLOOR = 1024 * 1024
+#: What a damaged or hostile compressed stream can raise while being read.
+_READ_ERRORS = (
+    zipfile.BadZipFile,
+    zipfile.LargeZipFile,
+    OSError,
+    EOFError,
+    ValueError,
+    RuntimeError,
+    NotImplementedError,
+    zlib.error,
+    lzma.LZMAError,
+    struct.error,
+    KeyError,
+    IndexError,
+    OverflowError,
+)
+#: Fields of an analyst that travel in a bundle (trust and status are the store's own).
+_ANALYST_FIELDS = ("fingerprint", "name", "role", "public_key_pem")
 
 _RECORDS = (
     "case",
@@ -102,7 +139,7 @@ def _records_of(data: CaseData) -> dict[str, Any]:
         "measurements": [_strip(m) for m in data.measurements],
         "analyses": [_strip(a, "result_json") for a in data.analyses],
         "findings_sheets": [_strip(f) for f in data.findings],
-        "analysts": [_strip(a, "id") for _, a in sorted(data.analysts.items())],
+        "analysts": [{k: a[k] for k in _ANALYST_FIELDS} for _, a in sorted(data.analysts.items())],
     }
 
 
@@ -220,7 +257,7 @@ def _read_entries(path: Path, max_entry: int, max_total: int, max_entries: int) 
         zf = zipfile.ZipFile(path)
     except FileNotFoundError as exc:
         raise BundleError(f"bundle {path} does not exist", "check the path") from exc
-    except (zipfile.BadZipFile, OSError, ValueError) as exc:
+    except _READ_ERRORS as exc:
         raise _bad(path, None, f"not a readable zip archive, or truncated ({exc})") from exc
     with zf:
         infos = zf.infolist()
@@ -254,12 +291,22 @@ def _read_entries(path: Path, max_entry: int, max_total: int, max_entries: int) 
             total += info.file_size
             if total > max_total:
                 raise _bad(path, name, f"bundle expands beyond {max_total} bytes")
+            ratio = info.file_size / max(info.compress_size, 1)
+            if info.file_size > _RATIO_FLOOR and ratio > MAX_RATIO:
+                raise _bad(
+                    path,
+                    name,
+                    f"entry expands {ratio:.0f}-fold ({info.compress_size} to {info.file_size} "
+                    f"bytes), over the limit {MAX_RATIO} (a zip bomb?)",
+                    "do not import this bundle",
+                )
         out: dict[str, bytes] = {}
         for info in infos:
             try:
                 with zf.open(info) as fh:
+                    # Never more than the header declares (+1 to notice a lie).
                     data = fh.read(info.file_size + 1)
-            except (zipfile.BadZipFile, OSError, EOFError, ValueError, RuntimeError) as exc:
+            except _READ_ERRORS as exc:
                 raise _bad(path, info.filename, f"entry cannot be read ({exc})") from exc
             if len(data) != info.file_size:
                 raise _bad(path, info.filename, "entry size differs from its header")
@@ -285,7 +332,10 @@ def _parse(path: Path, entries: dict[str, bytes]) -> tuple[dict[str, Any], dict[
         if manifest["format"] != BUNDLE_FORMAT:
             raise ValueError(f"format {manifest['format']!r}")
         if manifest["format_version"] != _FORMAT_VERSION:
-            raise ValueError(f"format version {manifest['format_version']!r} is not known")
+            raise ValueError(
+                f"format version {manifest['format_version']!r} is not {_FORMAT_VERSION} (a "
+                "version-1 bundle carries no status log; export it again with this version)"
+            )
     except (ValueError, KeyError, TypeError, UnicodeDecodeError, RecursionError) as exc:
         raise _bad(path, "manifest.json", f"malformed ({exc})") from exc
     present = set(entries) - {"manifest.json", "manifest.sha256"}
@@ -415,6 +465,10 @@ def import_bundle(
     entries = _read_entries(path, max_entry_bytes, max_total_bytes, max_entries)
     records, files = _parse(path, entries)
     data = _case_data(path, records, files)
+    try:
+        check_records(data)
+    except InputError as exc:
+        raise _bad(path, "records/", f"a field is not valid: {exc.problem}") from exc
     _check_analysts(path, data)
     referenced = _file_hashes(records)
     for sha in sorted(set(files) - referenced):
@@ -444,20 +498,33 @@ def import_bundle(
         ).fetchone()
         if row is not None and row[0].strip() != str(a["public_key_pem"]).strip():
             raise _bad(path, "records/analysts.json", f"key {fp} differs from the store's")
-    for sha in sorted(referenced):
-        store.files.put(files[sha])
+    source = f"case {case_number}, bundle {path.name}"
+    staging = store.files.stage()
     try:
-        store._write(lambda conn: _insert(conn, data))
-    except WorkbenchError:
+        for sha in sorted(referenced):
+            staging.put(files[sha])
+        store._write(lambda conn: _insert(conn, data, source))
+    except BaseException:
+        staging.discard()
         raise
+    # Committed: the rows name these files; move them into place.
+    staging.commit()
     return ImportResult(case_number, "imported", counts)
 
 
-def _insert(conn: Any, data: CaseData) -> None:
+def _insert(conn: Any, data: CaseData, source: str) -> None:
+    from workbench.casefile import ledger
+    from workbench.casefile.analysts import insert_imported_analyst
+
+    now = utc_now()
+
+    def led(table: str, row_id: int) -> None:
+        ledger.append(conn, table, row_id, "insert", now)
+
     c = data.case
     cur = conn.execute(
         "INSERT INTO cases (case_number, title, requesting_party, status, created_at, "
-        "record_hash) VALUES (?,?,?,?,?,?)",
+        "record_hash, status_log) VALUES (?,?,?,?,?,?,?)",
         (
             c["case_number"],
             c["title"],
@@ -465,9 +532,11 @@ def _insert(conn: Any, data: CaseData) -> None:
             c["status"],
             c["created_at"],
             c["record_hash"],
+            json.dumps(c["status_log"]),
         ),
     )
     case_id = cur.lastrowid
+    led("cases", case_id)
     item_ids: dict[str, int] = {}
     for it in data.items:
         cur = conn.execute(
@@ -485,6 +554,7 @@ def _insert(conn: Any, data: CaseData) -> None:
             ),
         )
         item_ids[it["item_number"]] = cur.lastrowid
+        led("items", cur.lastrowid)
     cols = (
         "seq",
         "kind",
@@ -506,11 +576,12 @@ def _insert(conn: Any, data: CaseData) -> None:
     )
     for it in data.items:
         for e in data.events[it["item_number"]]:
-            conn.execute(
+            cur = conn.execute(
                 f"INSERT INTO custody_events (item_id, {', '.join(cols)}) "
                 f"VALUES (?{', ?' * len(cols)})",
                 (item_ids[it["item_number"]], *(e.get(k) for k in cols)),
             )
+            led("custody_events", cur.lastrowid)
     meas_ids: dict[str, int] = {}
     for m in data.measurements:
         cur = conn.execute(
@@ -532,6 +603,7 @@ def _insert(conn: Any, data: CaseData) -> None:
             ),
         )
         meas_ids[m["record_hash"]] = cur.lastrowid
+        led("measurements", cur.lastrowid)
     analysis_ids: dict[str, int] = {}
     for a in data.analyses:
         cur = conn.execute(
@@ -551,26 +623,13 @@ def _insert(conn: Any, data: CaseData) -> None:
             ),
         )
         analysis_ids[a["record_hash"]] = cur.lastrowid
+        led("analyses", cur.lastrowid)
     for fp, a in sorted(data.analysts.items()):
         if conn.execute("SELECT 1 FROM analysts WHERE fingerprint=?", (fp,)).fetchone():
-            continue
-        conn.execute(
-            "INSERT INTO analysts (name, role, public_key_pem, fingerprint, status, "
-            "registered_at, revoked_at, revoked_reason, revoked_by) VALUES (?,?,?,?,?,?,?,?,?)",
-            (
-                a["name"],
-                a["role"],
-                a["public_key_pem"],
-                fp,
-                a["status"],
-                a["registered_at"],
-                a.get("revoked_at"),
-                a.get("revoked_reason"),
-                a.get("revoked_by"),
-            ),
-        )
+            continue  # already known here: its local provenance and trust stay as they are
+        insert_imported_analyst(conn, {**a, "fingerprint": fp}, source, now)
     for f in data.findings:
-        conn.execute(
+        cur = conn.execute(
             "INSERT INTO findings_sheets (analysis_id, analyst_fingerprint, analyst, pdf_sha256, "
             "json_sha256, signature_sha256, record_sha256, issued_at, recorded_at, record_hash) "
             "VALUES (?,?,?,?,?,?,?,?,?,?)",
@@ -587,3 +646,4 @@ def _insert(conn: Any, data: CaseData) -> None:
                 f["record_hash"],
             ),
         )
+        led("findings_sheets", cur.lastrowid)

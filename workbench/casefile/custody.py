@@ -22,6 +22,10 @@ Rules (:func:`apply_event`; each refusal names the rule):
     ``sub-sampled`` part need the current holder as actor or from-party;
     ``received``, ``transferred`` and ``returned`` need a to-party, who
     becomes the holder.
+``sealed-sub-sample``
+    A sealed item cannot be sub-sampled: its seal is broken first, on record
+    (an ``opened`` event naming the seal). A sub-sample starts ``open``, or
+    ``sealed`` when it is sealed at once (seal numbers given).
 ``seal-number``
     ``sealed`` needs a seal number (comma-separated for several seals).
 ``open-records-seal``
@@ -45,11 +49,14 @@ __all__ = [
     "EVENT_FIELDS",
     "EVENT_KINDS",
     "SEAL_STATES",
+    "STATUS_FIELDS",
     "STORE_ONLY_KINDS",
     "ChainState",
     "apply_event",
+    "check_status_log",
     "event_hash",
     "split_seals",
+    "status_entry",
 ]
 
 #: Every kind of custody event.
@@ -253,6 +260,15 @@ def apply_event(state: ChainState | None, event: dict[str, Any], label: str) -> 
         holder = str(event["to_party"])
     if kind == "sub-sampled" and not event.get("ref_key"):
         _refuse("sub-sample", label, event, "no sub-sample named", "use 'item add --parent'")
+    if kind == "sub-sampled" and state.seal_state == "sealed":
+        _refuse(
+            "sealed-sub-sample",
+            label,
+            event,
+            f"the item is sealed ({', '.join(state.seals)}); a part cannot be taken without "
+            "breaking the seal on record",
+            f"record 'custody add {label} opened --seal SEAL' first",
+        )
     new_seal_state, new_seals = state.seal_state, state.seals
     if kind == "sealed":
         if seal_state != "sealed" or not seals:
@@ -330,3 +346,38 @@ def apply_event(state: ChainState | None, event: dict[str, Any], label: str) -> 
         count=state.count + 1,
         location=event.get("location") or state.location,
     )
+
+
+#: Fields hashed in each entry of a case's status log.
+STATUS_FIELDS: tuple[str, ...] = ("status", "at", "prev_hash")
+
+
+def status_entry(status: str, at: str, prev_hash: str) -> dict[str, Any]:
+    """One entry of a case's status log, chained to ``prev_hash``.
+
+    A case's status may change (open, closed, archived), so it is outside the
+    case's record hash; instead every status the case has had is a hashed
+    entry whose first ``prev_hash`` is the case's record hash, so the current
+    status is covered like the rest of the case (in the store and in bundles).
+    """
+    entry = {"status": status, "at": at, "prev_hash": prev_hash}
+    entry["hash"] = record_hash(entry, STATUS_FIELDS)
+    return entry
+
+
+def check_status_log(log: Any, case_hash: str, status: Any) -> str | None:
+    """Return what is wrong with a case's status log, or None when it holds."""
+    if not isinstance(log, list) or not log:
+        return "the case has no status log"
+    prev = case_hash
+    for n, e in enumerate(log, start=1):
+        if not isinstance(e, dict) or set(e) != {*STATUS_FIELDS, "hash"}:
+            return f"status log entry {n} is malformed"
+        if e["prev_hash"] != prev:
+            return f"status log entry {n} does not link to the one before it"
+        if record_hash(e, STATUS_FIELDS) != e["hash"]:
+            return f"status log entry {n} does not match its hash"
+        prev = e["hash"]
+    if log[-1]["status"] != status:
+        return f"the case's status {status!r} is not the last one logged ({log[-1]['status']!r})"
+    return None

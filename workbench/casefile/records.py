@@ -227,7 +227,12 @@ class FindingsSheetRecord(_Record):
 
 @dataclass(frozen=True)
 class AnalystRecord(_Record):
-    """A registered analyst and public key."""
+    """A registered analyst and public key, with where the key came from.
+
+    ``provenance`` is ``local`` (registered here), ``imported`` (arrived in a
+    case bundle) or ``legacy`` (found when the store was upgraded); only a
+    ``trusted`` key signs in this store or verifies sheets against it.
+    """
 
     id: int
     name: str
@@ -239,6 +244,27 @@ class AnalystRecord(_Record):
     revoked_at: str | None
     revoked_reason: str | None
     revoked_by: str | None
+    provenance: str = "local"
+    registered_by: str | None = None
+    trusted: bool = True
+    trusted_by: str | None = None
+    trusted_at: str | None = None
+    trust_reason: str | None = None
+
+    @property
+    def provenance_text(self) -> str:
+        """Provenance in words: ``local``, ``imported, untrusted``, ``imported, trusted by X``."""
+        if self.provenance == "local":
+            return "local"
+        if not self.trusted:
+            return f"{self.provenance}, untrusted"
+        return f"{self.provenance}, trusted by {self.trusted_by} at {self.trusted_at}"
+
+    def to_dict(self) -> dict[str, Any]:
+        """Return a JSON-friendly dictionary (with ``provenance_text``)."""
+        out = super().to_dict()
+        out["provenance_text"] = self.provenance_text
+        return out
 
 
 @dataclass(frozen=True)

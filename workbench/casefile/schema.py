@@ -8,18 +8,38 @@ not at all. A store written by newer software (a version above
 :data:`SCHEMA_VERSION`) is refused.
 
 Migration 1 creates the tables; migration 2 adds the immutability triggers
-(``BEFORE UPDATE/DELETE ... RAISE(ABORT, ...)``) and search indexes.
+(``BEFORE UPDATE/DELETE ... RAISE(ABORT, ...)``) and search indexes;
+migration 3 adds the store ledger (:mod:`workbench.casefile.ledger`), the
+hashed key log ``key_events`` and the analysts' provenance and trust, then
+enters every existing row in the ledger and every existing key in the key log
+as ``legacy`` (untrusted until a local administrator trusts it: a store
+written before version 3 did not record whether a key was imported).
+
+Every table is registered with the ledger here (:func:`register_table` with a
+function that names a row); a later migration that adds a table registers it
+the same way.
 """
 
 from __future__ import annotations
 
 import sqlite3
 import time
+from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
+from workbench.casefile import ledger
 from workbench.errors import CaseFileError, StoreIntegrityError
 
-__all__ = ["MIGRATIONS", "SCHEMA_VERSION", "connect", "is_busy", "schema_version"]
+__all__ = [
+    "LEDGER_VERSION",
+    "MIGRATIONS",
+    "SCHEMA_VERSION",
+    "connect",
+    "connect_readonly",
+    "is_busy",
+    "schema_version",
+]
 
 _TABLES = [
     """CREATE TABLE schema_version (
@@ -160,14 +180,169 @@ _TRIGGERS = [
     "CREATE INDEX sheets_by_analysis ON findings_sheets (analysis_id)",
 ]
 
+_LEDGER_AND_KEYS = [
+    """CREATE TABLE ledger (
+        seq INTEGER PRIMARY KEY,
+        tbl TEXT NOT NULL,
+        row_id INTEGER NOT NULL,
+        action TEXT NOT NULL CHECK (action IN ('insert', 'update', 'baseline')),
+        identity TEXT NOT NULL,
+        row_hash TEXT NOT NULL,
+        recorded_at TEXT NOT NULL,
+        prev_hash TEXT NOT NULL,
+        hash TEXT NOT NULL
+    )""",
+    """CREATE TABLE key_events (
+        id INTEGER PRIMARY KEY,
+        seq INTEGER NOT NULL UNIQUE,
+        fingerprint TEXT NOT NULL,
+        kind TEXT NOT NULL CHECK (kind IN ('registered', 'imported', 'legacy', 'trusted',
+                                           'revoked')),
+        actor TEXT NOT NULL,
+        reason TEXT,
+        at TEXT NOT NULL,
+        detail TEXT NOT NULL,
+        prev_hash TEXT NOT NULL,
+        hash TEXT NOT NULL
+    )""",
+    "ALTER TABLE analysts ADD COLUMN provenance TEXT NOT NULL DEFAULT 'legacy' "
+    "CHECK (provenance IN ('local', 'imported', 'legacy'))",
+    "ALTER TABLE analysts ADD COLUMN registered_by TEXT",
+    "ALTER TABLE analysts ADD COLUMN trusted INTEGER NOT NULL DEFAULT 0 CHECK (trusted IN (0, 1))",
+    "ALTER TABLE analysts ADD COLUMN trusted_by TEXT",
+    "ALTER TABLE analysts ADD COLUMN trusted_at TEXT",
+    "ALTER TABLE analysts ADD COLUMN trust_reason TEXT",
+    # Every status a case has had, hash-chained from its record hash (custody.status_entry).
+    "ALTER TABLE cases ADD COLUMN status_log TEXT",
+    "DROP TRIGGER analysts_revoke_only",
+    # Only revocation (once) and trust (once) may change an analyst.
+    """CREATE TRIGGER analysts_fixed_fields BEFORE UPDATE ON analysts
+       WHEN NEW.name IS NOT OLD.name OR NEW.role IS NOT OLD.role
+         OR NEW.public_key_pem IS NOT OLD.public_key_pem
+         OR NEW.fingerprint IS NOT OLD.fingerprint OR NEW.id IS NOT OLD.id
+         OR NEW.registered_at IS NOT OLD.registered_at
+         OR NEW.provenance IS NOT OLD.provenance OR NEW.registered_by IS NOT OLD.registered_by
+         OR (OLD.status = 'revoked' AND (NEW.status IS NOT OLD.status
+             OR NEW.revoked_at IS NOT OLD.revoked_at OR NEW.revoked_by IS NOT OLD.revoked_by
+             OR NEW.revoked_reason IS NOT OLD.revoked_reason))
+         OR (OLD.trusted = 1 AND (NEW.trusted IS NOT 1 OR NEW.trusted_by IS NOT OLD.trusted_by
+             OR NEW.trusted_at IS NOT OLD.trusted_at
+             OR NEW.trust_reason IS NOT OLD.trust_reason))
+       BEGIN SELECT RAISE(ABORT, 'an analyst can only be revoked once and trusted once'); END""",
+    *(
+        _no_change(t, a, f"{t} are append-only: {a.lower()} refused")
+        for t in ("ledger", "key_events")
+        for a in ("UPDATE", "DELETE")
+    ),
+    _no_change("schema_version", "DELETE", "schema versions are never deleted"),
+    _no_change("schema_version", "UPDATE", "schema versions are never changed"),
+    "CREATE INDEX ledger_by_row ON ledger (tbl, row_id)",
+    "CREATE INDEX key_events_by_key ON key_events (fingerprint, seq)",
+]
+
+
+def _baseline_v3(conn: sqlite3.Connection, now: str) -> None:
+    """Start status logs and the key log (keys as ``legacy``); enter every row in the ledger."""
+    import json
+
+    from workbench.casefile.custody import status_entry
+    from workbench.casefile.keylog import append_key_event
+
+    for cid, status, digest in conn.execute(
+        "SELECT id, status, record_hash FROM cases ORDER BY id"
+    ).fetchall():
+        log = [status_entry(status, now, digest)]
+        conn.execute("UPDATE cases SET status_log=? WHERE id=?", (json.dumps(log), cid))
+
+    rows = conn.execute(
+        "SELECT fingerprint, name, role, public_key_pem, registered_at, status, revoked_at, "
+        "revoked_reason, revoked_by FROM analysts ORDER BY id"
+    ).fetchall()
+    for fp, name, role, pem, registered_at, status, revoked_at, reason, by in rows:
+        detail = {"name": name, "role": role, "public_key_pem": pem}
+        append_key_event(
+            conn,
+            fp,
+            "legacy",
+            "schema upgrade",
+            registered_at,
+            detail,
+            reason="registered before the store recorded key provenance",
+        )
+        if status == "revoked":
+            append_key_event(
+                conn, fp, "revoked", by or "unknown", revoked_at or now, {}, reason=reason
+            )
+    ledger.baseline(conn, now)
+
+
 #: Ordered migrations: ``(version, statements)``; applied in order, never edited.
 MIGRATIONS: tuple[tuple[int, tuple[str, ...]], ...] = (
     (1, tuple(_TABLES)),
     (2, tuple(_TRIGGERS)),
+    (3, tuple(_LEDGER_AND_KEYS)),
 )
+
+#: Python steps run after a migration's statements, in the same transaction.
+_POST_STEPS: dict[int, Callable[[sqlite3.Connection, str], None]] = {3: _baseline_v3}
+
+#: First version whose writes are entered in the ledger.
+LEDGER_VERSION: int = 3
 
 #: Schema version this code writes.
 SCHEMA_VERSION: int = MIGRATIONS[-1][0]
+
+
+_DAMAGE_WORDS = ("malformed", "not a database", "no such table", "no such column", "corrupt")
+
+
+def _damage(exc: sqlite3.DatabaseError) -> StoreIntegrityError | None:
+    """The StoreIntegrityError for an SQLite error that means a damaged or altered file."""
+    text = str(exc).lower()
+    if type(exc) is sqlite3.DatabaseError or any(w in text for w in _DAMAGE_WORDS):
+        return StoreIntegrityError(
+            f"the case-store database is damaged or was altered ({exc})",
+            "run 'workbench custody verify'; restore the store from a backup",
+        )
+    return None
+
+
+class _Cursor(sqlite3.Cursor):
+    """A cursor that reports a damaged database as StoreIntegrityError, not a traceback."""
+
+    def execute(self, sql: str, parameters: Any = ()) -> _Cursor:  # type: ignore[override]
+        try:
+            return super().execute(sql, parameters)
+        except sqlite3.DatabaseError as exc:
+            raise (_damage(exc) or exc) from exc
+
+    def fetchone(self) -> Any:
+        try:
+            return super().fetchone()
+        except sqlite3.DatabaseError as exc:
+            raise (_damage(exc) or exc) from exc
+
+    def fetchall(self) -> list[Any]:
+        try:
+            return super().fetchall()
+        except sqlite3.DatabaseError as exc:
+            raise (_damage(exc) or exc) from exc
+
+    def __next__(self) -> Any:
+        try:
+            return super().__next__()
+        except sqlite3.DatabaseError as exc:
+            raise (_damage(exc) or exc) from exc
+
+
+class StoreConnection(sqlite3.Connection):
+    """The store's connection: every statement runs through :class:`_Cursor`."""
+
+    def cursor(self, factory: Any = _Cursor) -> Any:  # type: ignore[override]
+        return super().cursor(factory)
+
+    def execute(self, sql: str, parameters: Any = ()) -> Any:  # type: ignore[override]
+        return self.cursor().execute(sql, parameters)
 
 
 def is_busy(exc: BaseException) -> bool:
@@ -212,10 +387,15 @@ def _migrate(conn: sqlite3.Connection, db_path: Path, target: int) -> None:
             if current < version <= target:
                 for sql in statements:
                     conn.execute(sql)
+                now = utc_now()
                 conn.execute(
                     "INSERT INTO schema_version (version, applied_at) VALUES (?, ?)",
-                    (version, utc_now()),
+                    (version, now),
                 )
+                if version in _POST_STEPS:
+                    _POST_STEPS[version](conn, now)
+                elif version > LEDGER_VERSION:
+                    ledger.append(conn, "schema_version", version, "insert", now)
         conn.execute("COMMIT")
     except sqlite3.Error as exc:
         conn.execute("ROLLBACK")
@@ -253,13 +433,15 @@ def connect(db_path: Path, *, target_version: int | None = None) -> sqlite3.Conn
     """
     target = SCHEMA_VERSION if target_version is None else target_version
     try:
-        conn = sqlite3.connect(str(db_path), isolation_level=None, timeout=30.0)
+        conn = sqlite3.connect(
+            str(db_path), isolation_level=None, timeout=30.0, factory=StoreConnection
+        )
         conn.execute("PRAGMA busy_timeout = 30000")
         conn.execute("PRAGMA journal_mode = WAL")
         conn.execute("PRAGMA foreign_keys = ON")
         conn.execute("PRAGMA synchronous = FULL")
         current = schema_version(conn)
-    except sqlite3.DatabaseError as exc:
+    except (sqlite3.DatabaseError, StoreIntegrityError) as exc:
         raise StoreIntegrityError(
             f"{db_path} is not a readable case-store database ({exc})",
             "point --store at the directory holding cases.sqlite, or restore it from backup",
@@ -278,3 +460,101 @@ def connect(db_path: Path, *, target_version: int | None = None) -> sqlite3.Conn
             conn.close()
             raise
     return conn
+
+
+def connect_readonly(db_path: Path) -> sqlite3.Connection:
+    """Open an existing store database for reading only; nothing is created or migrated.
+
+    When no write-ahead log is present (the store was closed cleanly) the file
+    is opened ``immutable`` so that not even the ``-wal``/``-shm`` side files
+    are created; otherwise the existing log is read in ``mode=ro``.
+
+    Raises
+    ------
+    StoreIntegrityError
+        If the file is not a readable SQLite database or holds no store.
+    """
+    wal = db_path.with_name(db_path.name + "-wal")
+    mode = "mode=ro" if wal.exists() else "mode=ro&immutable=1"
+    from urllib.parse import quote
+
+    uri = f"file:{quote(str(db_path.resolve()))}?{mode}"
+    try:
+        conn = sqlite3.connect(
+            uri, uri=True, isolation_level=None, timeout=30.0, factory=StoreConnection
+        )
+        conn.execute("PRAGMA query_only = ON")
+        current = schema_version(conn)
+    except (sqlite3.DatabaseError, StoreIntegrityError) as exc:
+        raise StoreIntegrityError(
+            f"{db_path} is not a readable case-store database ({exc})",
+            "the database is damaged or was replaced; restore the store from a backup",
+        ) from exc
+    if current == 0:
+        conn.close()
+        raise StoreIntegrityError(
+            f"{db_path} holds no case store (no schema version recorded)",
+            "the database is empty or was replaced; restore the store from a backup",
+        )
+    return conn
+
+
+# ---------------------------------------------------------------- ledger coverage
+def _one(conn: sqlite3.Connection, sql: str, args: tuple) -> Any:
+    r = conn.execute(sql, args).fetchone()
+    return r[0] if r else None
+
+
+def _item_label(conn: sqlite3.Connection, item_id: Any) -> str:
+    r = conn.execute(
+        "SELECT c.case_number, i.item_number FROM items i LEFT JOIN cases c ON c.id=i.case_id "
+        "WHERE i.id=?",
+        (item_id,),
+    ).fetchone()
+    if r is None:
+        return f"item id {item_id}"
+    return f"{r[0] if r[0] is not None else '?'}/{r[1]}"
+
+
+def _describe_item(conn: sqlite3.Connection, row: dict) -> str:
+    case = _one(conn, "SELECT case_number FROM cases WHERE id=?", (row["case_id"],))
+    return f"item {case if case is not None else '?'}/{row['item_number']} (id {row['id']})"
+
+
+def _describe_measurement(conn: sqlite3.Connection, row: dict) -> str:
+    return (
+        f"measurement {row['id']} of item {_item_label(conn, row['item_id'])} "
+        f"({row['filename']}, SHA-256 {str(row['sha256'])[:12]}…)"
+    )
+
+
+def _describe_analysis(conn: sqlite3.Connection, row: dict) -> str:
+    item = _one(conn, "SELECT item_id FROM measurements WHERE id=?", (row["measurement_id"],))
+    return (
+        f"analysis {row['id']} of measurement {row['measurement_id']} "
+        f"(item {_item_label(conn, item)})"
+    )
+
+
+def _describe_sheet(conn: sqlite3.Connection, row: dict) -> str:
+    return (
+        f"findings sheet {row['id']} of analysis {row['analysis_id']} "
+        f"(PDF SHA-256 {str(row['pdf_sha256'])[:12]}…, signed by {row['analyst']})"
+    )
+
+
+_DESCRIBE: dict[str, Callable[[sqlite3.Connection, dict], str]] = {
+    "schema_version": lambda c, r: f"schema version {r['version']}",
+    "cases": lambda c, r: f"case {r['case_number']} (id {r['id']})",
+    "items": _describe_item,
+    "custody_events": lambda c, r: (
+        f"custody event {_item_label(c, r['item_id'])} #{r['seq']} ({r['kind']}, id {r['id']})"
+    ),
+    "measurements": _describe_measurement,
+    "analyses": _describe_analysis,
+    "analysts": lambda c, r: f"analyst {r['name']} key {r['fingerprint']}",
+    "findings_sheets": _describe_sheet,
+    "key_events": lambda c, r: f"key event #{r['seq']} ({r['kind']} {r['fingerprint']})",
+}
+for _table, _fn in _DESCRIBE.items():
+    ledger.register_table(_table, _fn)

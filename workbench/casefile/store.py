@@ -18,7 +18,6 @@ Items are named by an *item reference*: an :class:`ItemRecord`, a row id
 
 from __future__ import annotations
 
-import importlib
 import json
 import os
 import random
@@ -29,6 +28,7 @@ from datetime import UTC, datetime, timedelta
 from pathlib import Path
 from typing import Any, TypeVar
 
+from workbench.casefile import ledger
 from workbench.casefile.blobs import BlobStore
 from workbench.casefile.custody import (
     EVENT_FIELDS,
@@ -38,6 +38,7 @@ from workbench.casefile.custody import (
     ChainState,
     apply_event,
     event_hash,
+    status_entry,
 )
 from workbench.casefile.hashing import (
     GENESIS_HASH,
@@ -65,7 +66,8 @@ from workbench.casefile.records import (
     MeasurementRecord,
     SearchHit,
 )
-from workbench.casefile.schema import connect, is_busy
+from workbench.casefile.schema import connect, connect_readonly, is_busy
+from workbench.casefile.validate import check_text as _text
 from workbench.errors import (
     CaseFileError,
     CustodyRuleError,
@@ -103,17 +105,21 @@ def resolve_store_root(path: Path | str | None = None) -> Path:
     return Path(workbench.__file__).resolve().parents[1] / "casefiles"
 
 
-def _text(value: Any, what: str, *, required: bool = True, max_len: int = 2000) -> str | None:
-    if value is None or (isinstance(value, str) and not value.strip()):
-        if required:
-            raise InputError(f"{what} is empty", f"give a {what}")
-        return None
-    if not isinstance(value, str):
-        raise InputError(f"{what} must be text, got {type(value).__name__}", f"give {what} as text")
-    value = value.strip()
-    if len(value) > max_len:
-        raise InputError(f"{what} is {len(value)} characters long", f"keep it under {max_len}")
-    return value
+def _stored_json(value: Any, what: str, kind: type) -> Any:
+    """Parse a JSON column the store wrote; anything else is damage or tampering."""
+    try:
+        if not isinstance(value, str):
+            raise ValueError(f"a {type(value).__name__} where JSON text belongs")
+        parsed = json.loads(value)
+        if not isinstance(parsed, kind):
+            raise ValueError(f"a {type(parsed).__name__} where a {kind.__name__} belongs")
+    except (ValueError, RecursionError) as exc:
+        raise StoreIntegrityError(
+            f"stored {what} cannot be read ({exc})",
+            "the store was damaged or altered; run 'workbench custody verify' and restore "
+            "it from a backup",
+        ) from exc
+    return parsed
 
 
 def _event_dict(row: sqlite3.Row | dict[str, Any]) -> dict[str, Any]:
@@ -166,7 +172,48 @@ class CaseStore:
                 f"cannot create case store directory {root} ({exc})",
                 "choose a writable directory with --store",
             ) from exc
-        return cls(root, connect(root / DB_NAME))
+        store = cls(root, connect(root / DB_NAME))
+        store.files.recover_staged(store._names_file)
+        return store
+
+    def _names_file(self, sha: str) -> bool:
+        """Whether any row names a stored file with this SHA-256 (for crash recovery)."""
+        q = (
+            "SELECT 1 FROM measurements WHERE sha256=:h UNION ALL "
+            "SELECT 1 FROM analyses WHERE result_sha256=:h UNION ALL "
+            "SELECT 1 FROM findings_sheets WHERE :h IN "
+            "(pdf_sha256, json_sha256, signature_sha256, record_sha256) LIMIT 1"
+        )
+        return self._conn.execute(q, {"h": sha}).fetchone() is not None
+
+    @classmethod
+    def open_readonly(cls, path: Path | str | None = None) -> CaseStore:
+        """Open an existing store for reading only (``custody verify``).
+
+        Nothing is created, migrated or written: a missing store is
+        :class:`NotFoundError`; a directory whose database is missing, empty or
+        unreadable (while it may still hold files) is :class:`StoreIntegrityError`.
+        """
+        root = resolve_store_root(path)
+        db = root / DB_NAME
+        if not root.is_dir():
+            raise NotFoundError(
+                f"there is no case store at {root}",
+                "give the directory that holds cases.sqlite (--store DIR); nothing was created",
+            )
+        if not db.is_file() or db.stat().st_size == 0:
+            state = "missing" if not db.is_file() else "empty"
+            raise StoreIntegrityError(
+                f"the case store {root} has no usable database: {DB_NAME} is {state}",
+                "if this is a store, restore cases.sqlite from a backup; nothing was created",
+            )
+        store = cls.__new__(cls)
+        store.root = root
+        store._conn = connect_readonly(db)
+        store._conn.row_factory = sqlite3.Row
+        store.files = BlobStore(root / FILES_DIR, create=False)
+        store._chain_cache = {}
+        return store
 
     def close(self) -> None:
         """Close the database connection."""
@@ -225,6 +272,10 @@ class CaseStore:
                 raise
         raise AssertionError("unreachable")  # pragma: no cover
 
+    def _ledger(self, conn: sqlite3.Connection, table: str, row_id: int, action: str) -> None:
+        """Enter a row just written in the store ledger (same transaction)."""
+        ledger.append(conn, table, int(row_id), action, utc_now())
+
     def _rollback(self) -> None:
         self._chain_cache.clear()
         try:
@@ -277,9 +328,9 @@ class CaseStore:
         def tx(conn: sqlite3.Connection) -> None:
             if conn.execute("SELECT 1 FROM cases WHERE case_number=?", (number,)).fetchone():
                 raise CaseFileError(f"case {number} already exists", "choose another case number")
-            conn.execute(
+            cur = conn.execute(
                 "INSERT INTO cases (case_number, title, requesting_party, status, created_at,"
-                " record_hash) VALUES (?, ?, ?, ?, ?, ?)",
+                " record_hash, status_log) VALUES (?, ?, ?, ?, ?, ?, ?)",
                 (
                     number,
                     fields["title"],
@@ -287,8 +338,10 @@ class CaseStore:
                     status,
                     fields["created_at"],
                     digest,
+                    json.dumps([status_entry(status, fields["created_at"], digest)]),
                 ),
             )
+            self._ledger(conn, "cases", cur.lastrowid, "insert")
 
         self._write(tx)
         return self.get_case(number)
@@ -328,9 +381,20 @@ class CaseStore:
         if status not in CASE_STATUSES:
             raise ValueRangeError(f"case status {status!r}", f"use one of {CASE_STATUSES}")
         row = self._case_row(case_number)
-        self._write(
-            lambda c: c.execute("UPDATE cases SET status=? WHERE id=?", (status, row["id"]))
-        )
+
+        def tx(conn: sqlite3.Connection) -> None:
+            current = conn.execute("SELECT * FROM cases WHERE id=?", (row["id"],)).fetchone()
+            log = _stored_json(current["status_log"], f"case {row['case_number']} status_log", list)
+            log.append(status_entry(status, utc_now(), log[-1]["hash"] if log else ""))
+            conn.execute(
+                "UPDATE cases SET status=?, status_log=? WHERE id=?",
+                (status, json.dumps(log), row["id"]),
+            )
+            # The status is outside the case's record hash (it may change), so
+            # the ledger entry of each change is what covers it.
+            self._ledger(conn, "cases", row["id"], "update")
+
+        self._write(tx)
         return self.get_case(row["case_number"])
 
     def search_cases(
@@ -471,7 +535,9 @@ class CaseStore:
             item_number=row["item_number"],
             description=row["description"],
             parent_item_number=row["parent_item_number"],
-            seal_numbers=tuple(json.loads(row["seal_numbers"])),
+            seal_numbers=tuple(
+                _stored_json(row["seal_numbers"], f"item {row['id']} seal_numbers", list)
+            ),
             storage_location=row["storage_location"],
             created_at=row["created_at"],
             record_hash=row["record_hash"],
@@ -569,6 +635,7 @@ class CaseStore:
             ),
         )
         ev["id"] = cur.lastrowid
+        self._ledger(conn, "custody_events", ev["id"], "insert")
         self._chain_cache[item_row["id"]] = (new_state, ev["hash"])
         return ev
 
@@ -675,6 +742,7 @@ class CaseStore:
                 ),
             )
             item_id = int(cur.lastrowid)  # type: ignore[arg-type]
+            self._ledger(conn, "items", item_id, "insert")
             link = None
             if parent_row is not None:
                 parent_ev = self._append(
@@ -705,7 +773,11 @@ class CaseStore:
                     "from_party": from_party,
                     "to_party": actor,
                     "location": fields["storage_location"],
-                    "seal_state": "sealed" if seals else "unknown",
+                    # A sub-sample is taken from an opened item, so it starts open
+                    # (or sealed at once); only a received item's state may be unknown.
+                    "seal_state": "sealed"
+                    if seals
+                    else ("open" if parent_row is not None else "unknown"),
                     "seal_number": ",".join(seals) or None,
                     "note": note,
                     "ref_kind": "item",
@@ -925,6 +997,7 @@ class CaseStore:
                     "ref_hash": digest,
                 },
             )
+            self._ledger(conn, "measurements", cur.lastrowid, "insert")
             return int(cur.lastrowid)  # type: ignore[arg-type]
 
         return self.get_measurement(self._write(tx))
@@ -939,7 +1012,7 @@ class CaseStore:
             size_bytes=r["size_bytes"],
             technique=r["technique"],
             instrument=r["instrument"],
-            settings=json.loads(r["settings"]),
+            settings=_stored_json(r["settings"], f"measurement {r['id']} settings", dict),
             operator=r["operator"],
             measured_at=r["measured_at"],
             recorded_at=r["recorded_at"],
@@ -1079,6 +1152,7 @@ class CaseStore:
                     "ref_hash": digest,
                 },
             )
+            self._ledger(conn, "analyses", cur.lastrowid, "insert")
             return int(cur.lastrowid)  # type: ignore[arg-type]
 
         return self.get_analysis(self._write(tx))
@@ -1097,8 +1171,10 @@ class CaseStore:
             case_number=r["case_number"],
             item_number=r["item_number"],
             measurement_hash=r["measurement_hash"],
-            parameters=json.loads(r["parameters"]),
-            reference_sets=json.loads(r["reference_sets"]),
+            parameters=_stored_json(r["parameters"], f"analysis {r['id']} parameters", dict),
+            reference_sets=_stored_json(
+                r["reference_sets"], f"analysis {r['id']} reference_sets", list
+            ),
             result_json=bytes(r["result_json"]),
             result_sha256=r["result_sha256"],
             software_version=r["software_version"],
@@ -1133,92 +1209,47 @@ class CaseStore:
         return [self._analysis_from_row(r) for r in rows]
 
     # ----------------------------------------------------------------- analysts
-    def register_analyst(self, name: str, role: str, public_key_pem: bytes | str) -> AnalystRecord:
-        """Register an analyst's Ed25519 public key.
+    def register_analyst(
+        self,
+        name: str,
+        role: str,
+        public_key_pem: bytes | str,
+        *,
+        registered_by: str = "local registration",
+    ) -> AnalystRecord:
+        """Register an analyst's Ed25519 public key locally (trusted; see :mod:`.analysts`)."""
+        from workbench.casefile.analysts import register_analyst
 
-        The fingerprint is ``"SHA256:"`` + hex SHA-256 of the raw 32-byte key.
-
-        Returns
-        -------
-        AnalystRecord
-            The new record.
-        """
-        from cryptography.hazmat.primitives import serialization
-        from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PublicKey
-
-        pem = public_key_pem.encode("ascii") if isinstance(public_key_pem, str) else public_key_pem
-        try:
-            key = serialization.load_pem_public_key(bytes(pem))
-        except (ValueError, TypeError) as exc:
-            raise InputError(
-                f"the public key is not a PEM public key ({exc})",
-                "give the .pub.pem file made by 'workbench keys create'",
-            ) from exc
-        if not isinstance(key, Ed25519PublicKey):
-            raise InputError(
-                f"the public key is {type(key).__name__}, not Ed25519",
-                "register an Ed25519 key ('workbench keys create')",
-            )
-        raw = key.public_bytes(serialization.Encoding.Raw, serialization.PublicFormat.Raw)
-        fp = "SHA256:" + sha256_hex(raw)
-        pem_text = key.public_bytes(
-            serialization.Encoding.PEM, serialization.PublicFormat.SubjectPublicKeyInfo
-        ).decode("ascii")
-        values = (_text(name, "analyst name"), _text(role, "analyst role"), pem_text, fp)
-
-        def tx(conn: sqlite3.Connection) -> None:
-            if conn.execute("SELECT 1 FROM analysts WHERE fingerprint=?", (fp,)).fetchone():
-                raise CaseFileError(f"key {fp} is already registered", "nothing to do")
-            conn.execute(
-                "INSERT INTO analysts (name, role, public_key_pem, fingerprint, status, "
-                "registered_at) VALUES (?,?,?,?,'active',?)",
-                (*values, utc_now()),
-            )
-
-        self._write(tx)
-        return self.get_analyst(fp)
+        return register_analyst(self, name, role, public_key_pem, registered_by=registered_by)
 
     def get_analyst(self, fingerprint_or_name: str) -> AnalystRecord:
         """Return an analyst by fingerprint, or by name (the active key, else the latest)."""
-        key = str(fingerprint_or_name).strip()
-        r = self._conn.execute("SELECT * FROM analysts WHERE fingerprint=?", (key,)).fetchone()
-        if r is None:
-            r = self._conn.execute(
-                "SELECT * FROM analysts WHERE name=? ORDER BY status='active' DESC, id DESC",
-                (key,),
-            ).fetchone()
-        if r is None:
-            raise NotFoundError(
-                f"no analyst or key {key!r} is registered in {self.root}",
-                "register the analyst's public key first ('workbench keys register')",
-            )
-        return AnalystRecord(**{k: r[k] for k in r.keys()})
+        from workbench.casefile.analysts import get_analyst
+
+        return get_analyst(self, fingerprint_or_name)
 
     def list_analysts(self) -> list[AnalystRecord]:
-        """Return all registered analysts."""
+        """Return all registered analysts with their provenance and trust."""
         rows = self._conn.execute("SELECT fingerprint FROM analysts ORDER BY id").fetchall()
         return [self.get_analyst(r[0]) for r in rows]
 
     def revoke_analyst(self, fingerprint: str, reason: str, actor: str) -> AnalystRecord:
-        """Revoke an analyst's key (once; the record is kept)."""
-        a = self.get_analyst(fingerprint)
-        if a.fingerprint != fingerprint:
-            raise InputError(
-                f"revocation needs the key fingerprint, got {fingerprint!r}",
-                f"give the fingerprint ({a.fingerprint})",
-            )
-        if a.status == "revoked":
-            raise CaseFileError(f"key {fingerprint} was already revoked at {a.revoked_at}", "")
-        why = _text(reason, "revocation reason")
-        who = _text(actor, "actor")
-        self._write(
-            lambda c: c.execute(
-                "UPDATE analysts SET status='revoked', revoked_at=?, revoked_reason=?, "
-                "revoked_by=? WHERE fingerprint=?",
-                (utc_now(), why, who, fingerprint),
-            )
-        )
-        return self.get_analyst(fingerprint)
+        """Revoke an analyst's key (once; recorded in the key log; the record is kept)."""
+        from workbench.casefile.analysts import revoke_analyst
+
+        return revoke_analyst(self, fingerprint, reason, actor)
+
+    def trust_analyst(self, fingerprint: str, by: str, reason: str) -> AnalystRecord:
+        """Record a local administrator's trust in an imported or legacy key (once)."""
+        from workbench.casefile.analysts import trust_analyst
+
+        return trust_analyst(self, fingerprint, by, reason)
+
+    def key_events(self, fingerprint: str | None = None) -> list[dict[str, Any]]:
+        """Return the key log (of one key, or all), oldest first."""
+        from workbench.casefile.analysts import key_log
+
+        return key_log(self, fingerprint)
 
     # ----------------------------------------------------------- findings sheets
     def add_findings_sheet(
@@ -1236,8 +1267,8 @@ class CaseStore:
 
         The four files are stored content-addressed; a ``reported`` custody
         event carrying the sheet's record hash is added in the same transaction.
-        When :mod:`workbench.findings.signing` is available the signature is
-        verified first and a bad one is refused.
+        The signature is verified first (:mod:`workbench.crypto`) and a bad
+        one is refused, as is a key the store does not trust.
 
         Returns
         -------
@@ -1259,16 +1290,17 @@ class CaseStore:
         blobs = [bytes(b) for b in (pdf_bytes, json_bytes, signature_raw, signature_record)]
         if not all(blobs):
             raise InputError("a findings-sheet file is empty", "give the PDF, JSON and signature")
-        try:
-            signing = importlib.import_module("workbench.findings.signing")
-        except ImportError:
-            signing = None  # type: ignore[assignment]
-        if signing is not None:
-            pem = analyst.public_key_pem.encode("ascii")
-            signing.verify_sheet(
-                blobs[0], blobs[1], blobs[3], pem, expected_fingerprint=analyst.fingerprint
+        if not analyst.trusted:
+            raise CaseFileError(
+                f"key {analyst.fingerprint} of {analyst.name} is {analyst.provenance_text}; "
+                "it cannot sign in this store",
+                "a local administrator must first record trust with 'workbench keys trust'",
             )
-            signing.verify_raw_pdf_signature(blobs[0], blobs[2], pem)
+        from workbench.crypto import verify_raw_pdf_signature, verify_sheet
+
+        pem = analyst.public_key_pem.encode("ascii")
+        verify_sheet(blobs[0], blobs[1], blobs[3], pem, expected_fingerprint=analyst.fingerprint)
+        verify_raw_pdf_signature(blobs[0], blobs[2], pem)
         digests = [self.files.put(b) for b in blobs]
         row = self._item_row((a.case_number, a.item_number))
         fields: dict[str, Any] = {
@@ -1315,6 +1347,7 @@ class CaseStore:
                     "ref_hash": digest,
                 },
             )
+            self._ledger(conn, "findings_sheets", cur.lastrowid, "insert")
             return int(cur.lastrowid)  # type: ignore[arg-type]
 
         return self.get_findings_sheet(self._write(tx))
@@ -1354,8 +1387,13 @@ class CaseStore:
         return [self._sheet_from_row(r) for r in rows]
 
     # ------------------------------------------------------------------- verify
-    def verify(self, case_number: str | None = None) -> Any:
-        """Check every chain, record, file and signature (see :mod:`~workbench.casefile.verify`).
+    def verify(
+        self, case_number: str | None = None, *, anchor: tuple[int, str] | None = None
+    ) -> Any:
+        """Check every chain, record, file, signature and the ledger (reads only).
+
+        See :mod:`~workbench.casefile.verify`; ``anchor`` is a ledger head
+        ``(seq, hash)`` recorded earlier outside the store.
 
         Returns
         -------
@@ -1364,4 +1402,8 @@ class CaseStore:
         """
         from workbench.casefile.verify import verify_store
 
-        return verify_store(self, case_number)
+        return verify_store(self, case_number, anchor=anchor)
+
+    def ledger_head(self) -> tuple[int, str]:
+        """Return ``(seq, hash)`` of the latest ledger entry, to keep outside the store."""
+        return ledger.head(self._conn)

@@ -14,24 +14,39 @@ each break with its exact place:
   (``unchained-record``), and every event's record present (``missing-record``);
 * every analysis's stored result against its SHA-256 (``altered-result``);
 * every stored file re-hashed (``file-missing``, ``file-replaced``);
-* every findings-sheet signature, via :mod:`workbench.findings.signing`
-  (``signature-invalid``), when that module is available.
+* every findings-sheet signature, via :mod:`workbench.crypto`
+  (``signature-invalid``); a valid signature by a key the store does not
+  trust (imported, not yet trusted) is a warning;
+* store-wide, the ledger (:mod:`workbench.casefile.ledger`): every row of
+  every covered table against the hash chain of everything written, so a
+  deleted, inserted or altered row of *any* table (a whole case or item, an
+  analyst, a key event, a status flipped back) is reported with the record's
+  identity (``missing-row``, ``unledgered-row``, ``altered-row``,
+  ``orphan-row``, ``ledger-gap`` ...);
+* the key log (:mod:`workbench.casefile.keylog`) replayed and compared with
+  the analysts table (``key-log-broken``, ``key-state-mismatch``);
+* values that cannot be read (invalid JSON, a BLOB where text belongs) are
+  ``unreadable-record`` breaks, never crashes; SQLite's own integrity check
+  runs over every page (``damaged-database``).
 
-Limit: removing the *last* events of a chain leaves a shorter valid chain; it
-is detected only when a record (measurement, analysis, sheet) names a removed
-event, or against a copy (bundle, issued sheet) taken earlier.
+Verification only reads: ``custody verify`` opens the store read-only
+(:meth:`CaseStore.open_readonly`). Limit: a consistent rewrite of the whole
+ledger is detected only against a ledger head kept elsewhere (``--anchor``).
 """
 
 from __future__ import annotations
 
-import importlib
 import json
+import sqlite3
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
-from workbench.casefile.custody import ChainState, apply_event, event_hash
-from workbench.casefile.hashing import GENESIS_HASH, record_hash, sha256_hex
+from workbench.casefile import ledger
+from workbench.casefile.custody import EVENT_FIELDS, ChainState, apply_event, check_status_log
+from workbench.casefile.hashing import GENESIS_HASH, sha256_hex
+from workbench.casefile.hashing import record_hash as _record_hash
+from workbench.casefile.keylog import replay_key_log
 from workbench.casefile.records import (
     ANALYSIS_HASH_FIELDS,
     CASE_HASH_FIELDS,
@@ -49,6 +64,27 @@ __all__ = [
     "load_case_data",
     "verify_store",
 ]
+
+
+def record_hash(fields: Any, names: tuple[str, ...]) -> str:
+    """Record hash that never raises: an unhashable value (a BLOB) gives a marker."""
+    try:
+        return _record_hash(fields, names)
+    except (WorkbenchError, TypeError, ValueError) as exc:
+        return f"unhashable ({exc.__class__.__name__}: a value is not text, number or JSON)"
+
+
+def _json(value: Any, what: str) -> Any:
+    if not isinstance(value, str):
+        raise _Unreadable(f"{what} is a {type(value).__name__}, not JSON text")
+    try:
+        return json.loads(value)
+    except (ValueError, RecursionError) as exc:
+        raise _Unreadable(f"{what} is not valid JSON ({exc})") from exc
+
+
+class _Unreadable(Exception):
+    """A stored value cannot be read (invalid JSON, wrong type): a break, not a crash."""
 
 
 @dataclass(frozen=True)
@@ -85,6 +121,17 @@ class Break:
     detail: str
     expected: str | None = None
     found: str | None = None
+
+    def __post_init__(self) -> None:
+        # Values come from a store that may be tampered with: a BLOB where a
+        # case number belongs must still print.
+        for name, value in self.__dict__.items():
+            if (value is not None and not isinstance(value, str | int)) or isinstance(value, bool):
+                object.__setattr__(self, name, repr(value))
+        for name in ("case_number", "item_number"):
+            value = getattr(self, name)
+            if value is not None and not isinstance(value, str):
+                object.__setattr__(self, name, str(value))
 
     def to_dict(self) -> dict[str, Any]:
         """Return a JSON-friendly form."""
@@ -186,6 +233,8 @@ def load_case_data(store: Any, case_number: str) -> CaseData:
                 "record_hash",
             )
         }
+        if "status_log" in c.keys():  # schema 3 on
+            case["status_log"] = _json(c["status_log"], f"case {case_number} status_log")
         items = []
         events: dict[str, list[dict[str, Any]]] = {}
         for r in conn.execute(
@@ -199,7 +248,7 @@ def load_case_data(store: Any, case_number: str) -> CaseData:
                     "item_number": r["item_number"],
                     "description": r["description"],
                     "parent_item_number": r["parent_item_number"],
-                    "seal_numbers": json.loads(r["seal_numbers"]),
+                    "seal_numbers": _json(r["seal_numbers"], f"item {r['id']} seal_numbers"),
                     "storage_location": r["storage_location"],
                     "created_at": r["created_at"],
                     "record_hash": r["record_hash"],
@@ -224,7 +273,7 @@ def load_case_data(store: Any, case_number: str) -> CaseData:
             (c["id"],),
         ):
             d = {k: r[k] for k in r.keys() if k != "item_id"}
-            d["settings"] = json.loads(d["settings"])
+            d["settings"] = _json(d["settings"], f"measurement {d['id']} settings")
             d["case_number"] = case_number
             d["_id"] = d.pop("id")
             meas.append(d)
@@ -236,9 +285,10 @@ def load_case_data(store: Any, case_number: str) -> CaseData:
             (c["id"],),
         ):
             d = {k: r[k] for k in r.keys() if k not in ("measurement_id",)}
-            d["parameters"] = json.loads(d["parameters"])
-            d["reference_sets"] = json.loads(d["reference_sets"])
-            d["result_json"] = bytes(d["result_json"])
+            d["parameters"] = _json(d["parameters"], f"analysis {d['id']} parameters")
+            d["reference_sets"] = _json(d["reference_sets"], f"analysis {d['id']} reference_sets")
+            rj = d["result_json"]
+            d["result_json"] = rj.encode("utf-8") if isinstance(rj, str) else bytes(rj or b"")
             d["case_number"] = case_number
             d["_id"] = d.pop("id")
             analyses.append(d)
@@ -347,7 +397,7 @@ def _check_chain(
                     ev["prev_hash"],
                 )
             return len(events)
-        recomputed = event_hash(ev)
+        recomputed = record_hash(ev, EVENT_FIELDS)
         if recomputed != ev["hash"]:
             brk(
                 "altered-event",
@@ -427,6 +477,22 @@ def check_case_data(
                 found,
             )
         )
+    if "status_log" in data.case:
+        why = check_status_log(
+            data.case["status_log"], data.case["record_hash"], data.case["status"]
+        )
+        if why is not None:
+            out.append(
+                Break(
+                    "altered-record",
+                    cn,
+                    None,
+                    None,
+                    None,
+                    "case status log",
+                    why,
+                )
+            )
     # sub-sampled events in parents, keyed by child item number
     parent_events: dict[str, dict] = {}
     for evs in data.events.values():
@@ -593,12 +659,8 @@ def check_case_data(
                 )
             )
         analysis_hashes.add(a["record_hash"])
-    sig_mod = None
-    try:
-        sig_mod = importlib.import_module("workbench.findings.signing")
-    except ImportError as exc:
-        sig_mod = None
-        sig_reason = f"unavailable ({exc})"
+    from workbench import crypto
+
     for f in data.findings:
         counts["findings_sheets"] += 1
         num = f["item_number"]
@@ -622,9 +684,6 @@ def check_case_data(
             check_file(f[k], num, k.replace("_sha256", ""))
             for k in ("pdf_sha256", "json_sha256", "signature_sha256", "record_sha256")
         ]
-        if sig_mod is None:
-            sig_notes.append(sig_reason)
-            continue
         if any(b is None for b in blobs):
             continue
         analyst = data.analysts.get(f["analyst_fingerprint"])
@@ -632,7 +691,9 @@ def check_case_data(
         revoked_at = analyst.get("revoked_at") if analyst else None
         revoked_before = revoked_at is not None and revoked_at <= f["recorded_at"]
         try:
-            sig_mod.verify_sheet(
+            if analyst is not None and not isinstance(analyst.get("public_key_pem"), str):
+                raise _Unreadable("the analyst's public key is not text")
+            crypto.verify_sheet(
                 blobs[0],
                 blobs[1],
                 blobs[3],
@@ -640,11 +701,20 @@ def check_case_data(
                 revoked=revoked_before,
                 expected_fingerprint=f["analyst_fingerprint"],
             )
-            sig_mod.verify_raw_pdf_signature(blobs[0], blobs[2], pem)
+            crypto.verify_raw_pdf_signature(blobs[0], blobs[2], pem)
             counts["signatures"] += 1
             sig_notes.append("ok")
+            if analyst is not None and analyst.get("trusted") in (0, False):
+                warnings.append(
+                    f"{what}: signature intact, but key {f['analyst_fingerprint']} "
+                    f"({analyst.get('name')}) is {analyst.get('provenance')} and not trusted "
+                    "in this store ('workbench keys trust')"
+                )
         except WorkbenchError as exc:
             out.append(Break("signature-invalid", cn, num, None, None, what, exc.problem))
+            sig_notes.append("failed")
+        except _Unreadable as exc:
+            out.append(Break("unreadable-record", cn, num, None, None, what, str(exc)))
             sig_notes.append("failed")
         if revoked_at is not None and not revoked_before:
             warnings.append(
@@ -677,28 +747,124 @@ def _summarise_signatures(notes: list[str]) -> str:
     return "failed" if "failed" in notes else "ok"
 
 
-def verify_store(store: Any, case_number: str | None = None) -> VerifyReport:
+def _has_table(conn: sqlite3.Connection, name: str) -> bool:
+    q = "SELECT 1 FROM sqlite_master WHERE type='table' AND name=?"
+    return conn.execute(q, (name,)).fetchone() is not None
+
+
+def _store_breaks(conn: sqlite3.Connection, anchor: tuple[int, str] | None) -> list[Break]:
+    """Ledger and key-log checks over the whole store."""
+    import workbench.casefile.schema  # noqa: F401  (registers the store's tables with the ledger)
+
+    out: list[Break] = []
+    # Pages that no query reads (an index, a free page) are damaged silently
+    # otherwise; SQLite's own check reads every page.
+    problems = [r[0] for r in conn.execute("PRAGMA integrity_check(20)").fetchall()]
+    if problems != ["ok"]:
+        out.append(
+            Break(
+                "damaged-database",
+                None,
+                None,
+                None,
+                None,
+                "cases.sqlite",
+                "SQLite's integrity check fails: " + "; ".join(map(str, problems[:3])),
+            )
+        )
+    tables = {r[0] for r in conn.execute("SELECT name FROM sqlite_master WHERE type='table'")}
+    if ledger.LEDGER_TABLE in tables or "key_events" in tables:
+        for p in ledger.check_ledger(conn, anchor):
+            out.append(
+                Break(p.kind, None, None, p.seq, None, p.identity, p.detail, p.expected, p.found)
+            )
+    if "key_events" not in tables:
+        return out
+    cur = conn.execute("SELECT * FROM key_events ORDER BY seq")
+    names = [d[0] for d in cur.description]
+    events = [dict(zip(names, r, strict=True)) for r in cur.fetchall()]
+    states, problems = replay_key_log(events)
+    for seq, text in problems:
+        out.append(Break("key-log-broken", None, None, seq, None, "key log", text))
+    cur = conn.execute("SELECT * FROM analysts ORDER BY id")
+    names = [d[0] for d in cur.description]
+    for row in (dict(zip(names, r, strict=True)) for r in cur.fetchall()):
+        fp = row.get("fingerprint")
+        what = f"analyst {row.get('name')} key {fp}"
+        st = states.pop(fp, None)
+        if st is None:
+            if not problems:
+                out.append(
+                    Break(
+                        "key-state-mismatch",
+                        None,
+                        None,
+                        None,
+                        None,
+                        what,
+                        "the key has no registration or import event in the key log",
+                    )
+                )
+            continue
+        for col, want in st.columns().items():
+            if row.get(col) != want:
+                out.append(
+                    Break(
+                        "key-state-mismatch",
+                        None,
+                        None,
+                        st.events[-1] if st.events else None,
+                        None,
+                        what,
+                        f"analysts.{col} differs from what the key log says",
+                        None if want is None else str(want),
+                        None if row.get(col) is None else str(row.get(col)),
+                    )
+                )
+                break
+    if not problems:
+        for fp in sorted(states):
+            out.append(
+                Break(
+                    "missing-row",
+                    None,
+                    None,
+                    None,
+                    None,
+                    f"analyst key {fp}",
+                    "the key log names a key that the analysts table does not hold (deleted)",
+                )
+            )
+    return out
+
+
+def verify_store(
+    store: Any, case_number: str | None = None, *, anchor: tuple[int, str] | None = None
+) -> VerifyReport:
     """Verify one case, or the whole store (which also re-hashes every stored file).
+
+    The store-wide ledger and key-log checks run in both cases: a deleted
+    record cannot be found by looking only at what is still there.
 
     Parameters
     ----------
     store : CaseStore
-        The open store.
+        The open store (read-only is enough; nothing is written).
     case_number : str, optional
-        Limit to one case.
+        Limit the per-case checks to one case.
+    anchor : (int, str), optional
+        A ledger head ``(seq, hash)`` recorded earlier outside the store.
 
     Returns
     -------
     VerifyReport
         The report.
     """
+    conn = store.connection
     if case_number is not None:
         numbers = [store.get_case(case_number).case_number]
     else:
-        numbers = [
-            r[0]
-            for r in store.connection.execute("SELECT case_number FROM cases ORDER BY case_number")
-        ]
+        numbers = [r[0] for r in conn.execute("SELECT case_number FROM cases ORDER BY case_number")]
 
     def get_blob(sha: str) -> bytes | None:
         try:
@@ -712,7 +878,30 @@ def verify_store(store: Any, case_number: str | None = None) -> VerifyReport:
     notes: list[str] = []
     totals: dict[str, int] = {}
     for n in numbers:
-        b, counts, w, s = check_case_data(load_case_data(store, n), get_blob)
+        try:
+            b, counts, w, s = check_case_data(load_case_data(store, n), get_blob)
+        except (
+            _Unreadable,
+            WorkbenchError,
+            KeyError,
+            TypeError,
+            ValueError,
+            AttributeError,
+        ) as exc:
+            # A value of the wrong type (a BLOB in a text column) is tampering, not bad input.
+            what = str(exc) if isinstance(exc, _Unreadable) else f"{type(exc).__name__}: {exc}"
+            breaks.append(
+                Break(
+                    "unreadable-record",
+                    str(n),
+                    None,
+                    None,
+                    None,
+                    f"case {n}",
+                    f"a stored value cannot be read ({what})",
+                )
+            )
+            continue
         breaks += b
         warnings += w
         notes += s
@@ -737,6 +926,14 @@ def verify_store(store: Any, case_number: str | None = None) -> VerifyReport:
                         digest,
                     )
                 )
+    # Store-wide breaks come after the per-case ones, which place a change
+    # more exactly (the event in its chain); deletions show only here.
+    breaks += _store_breaks(conn, anchor)
+    if not _has_table(conn, ledger.LEDGER_TABLE) and not _has_table(conn, "key_events"):
+        warnings.append(
+            "this store predates the ledger (schema 2): a deleted record cannot be detected; "
+            "any write command upgrades it"
+        )
     return VerifyReport(
         ok=not breaks,
         scope=case_number or "all cases",

@@ -4,7 +4,13 @@ from __future__ import annotations
 
 import argparse
 
-__all__ = ["add_store_option", "print_json", "read_file", "store_json_parent"]
+__all__ = [
+    "add_store_option",
+    "print_json",
+    "read_file",
+    "refuse_passphrase_option",
+    "store_json_parent",
+]
 
 
 _STORE_HELP = "store directory (default $WORKBENCH_STORE or <repo>/casefiles)"
@@ -39,3 +45,21 @@ def read_file(path: str, what: str, remedy: str = "check the path") -> bytes:
             return fh.read()
     except OSError as exc:
         raise InputError(f"cannot read {what} {path} ({exc.strerror})", remedy) from exc
+
+
+class _RefusePassphrase(argparse.Action):
+    """``--passphrase VALUE``: refused, and the value is never printed (argparse would echo it)."""
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        parser.error(
+            f"{option_string} is not accepted: a passphrase on the command line ends up in "
+            "shell history and process lists (the value was not printed); use "
+            "--passphrase-file FILE, the WORKBENCH_PASSPHRASE variable, or the prompt"
+        )
+
+
+def refuse_passphrase_option(p: argparse.ArgumentParser) -> None:
+    """Catch ``--passphrase``/``--password`` on a parser so the secret is never echoed."""
+    p.add_argument(
+        "--passphrase", "--password", nargs="?", action=_RefusePassphrase, help=argparse.SUPPRESS
+    )

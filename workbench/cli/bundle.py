@@ -45,5 +45,12 @@ def _import(args: argparse.Namespace) -> int:
 
     with open_store(args) as s:
         result = import_bundle(args.bundle, s)
-    emit(args, result.to_dict(), f"case {result.case_number}: {result.status}")
+        untrusted = [a for a in s.list_analysts() if not a.trusted]
+    lines = [f"case {result.case_number}: {result.status}"]
+    lines += [
+        f"key {a.fingerprint} ({a.name}) is {a.provenance_text}: sheets it signed do not "
+        "verify here until a local administrator runs 'workbench keys trust'"
+        for a in untrusted
+    ]
+    emit(args, result.to_dict(), lines)
     return 0

@@ -1,4 +1,11 @@
-"""``workbench custody``: add custody events, show an item's chain, verify the store."""
+"""``workbench custody``: add custody events, show an item's chain, verify the store.
+
+``verify`` opens the store read-only: it never creates, migrates or writes
+anything, and a missing or empty store is an error. ``anchor`` prints the
+ledger head to keep outside the store (in the case file, an e-mail, a log);
+``verify --anchor SEQ:HASH`` later proves the ledger was not rolled back or
+rewritten since.
+"""
 
 from __future__ import annotations
 
@@ -48,7 +55,17 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         help="check every chain, record, file and signature (exit 4 on any break)",
     )
     p.add_argument("case_number", nargs="?", metavar="CASE")
+    p.add_argument(
+        "--anchor",
+        metavar="SEQ:HASH",
+        help="a ledger head printed earlier by 'custody anchor'; it must still be there",
+    )
     p.set_defaults(func=_verify)
+
+    p = sub.add_parser(
+        "anchor", parents=[common], help="print the ledger head to keep outside the store"
+    )
+    p.set_defaults(func=_anchor)
 
 
 def _add(args: argparse.Namespace) -> int:
@@ -99,11 +116,27 @@ def _show(args: argparse.Namespace) -> int:
     return 0
 
 
-def _verify(args: argparse.Namespace) -> int:
-    from workbench.casefile.cli_support import emit, open_store
+def _parse_anchor(text: str | None) -> tuple[int, str] | None:
+    from workbench.errors import InputError
 
-    with open_store(args) as s:
-        report = s.verify(args.case_number)
+    if text is None:
+        return None
+    seq, sep, digest = text.partition(":")
+    if not sep or not seq.isdigit() or len(digest) != 64 or digest.strip("0123456789abcdef"):
+        raise InputError(
+            f"--anchor {text[:80]!r} is not SEQ:HASH",
+            "give the value printed by 'workbench custody anchor', e.g. 42:3f9a…(64 hex digits)",
+        )
+    return int(seq), digest
+
+
+def _verify(args: argparse.Namespace) -> int:
+    from workbench.casefile.cli_support import emit
+    from workbench.casefile.store import CaseStore
+
+    anchor = _parse_anchor(args.anchor)
+    with CaseStore.open_readonly(args.store) as s:
+        report = s.verify(args.case_number, anchor=anchor)
     counts = ", ".join(f"{k} {v}" for k, v in sorted(report.counts.items()))
     if report.ok:
         lines = [f"OK: {report.scope} verified ({counts}); signatures: {report.signature_check}"]
@@ -116,3 +149,20 @@ def _verify(args: argparse.Namespace) -> int:
     lines += [f"warning: {w}" for w in report.warnings]
     emit(args, report.to_dict(), lines)
     return 0 if report.ok else 4
+
+
+def _anchor(args: argparse.Namespace) -> int:
+    from workbench.casefile.cli_support import emit
+    from workbench.casefile.store import CaseStore
+
+    with CaseStore.open_readonly(args.store) as s:
+        seq, digest = s.ledger_head()
+    emit(
+        args,
+        {"seq": seq, "hash": digest, "anchor": f"{seq}:{digest}"},
+        [
+            f"{seq}:{digest}",
+            "keep this line outside the store; 'custody verify --anchor' checks it later",
+        ],
+    )
+    return 0

@@ -13,7 +13,7 @@ import sys
 
 from workbench.cli._options import add_store_option as _store_option
 from workbench.cli._options import print_json as _print_json
-from workbench.cli._options import read_file
+from workbench.cli._options import read_file, refuse_passphrase_option
 
 __all__ = ["register"]
 
@@ -33,6 +33,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("analysis_id", metavar="ANALYSIS_ID", type=int)
     p.add_argument("--key", required=True, metavar="KEYFILE", help="analyst's .key.pem file")
     p.add_argument("--passphrase-file", metavar="FILE", help="file holding the key's passphrase")
+    refuse_passphrase_option(p)
     p.add_argument("--lab-name", required=True, help="laboratory name for the sheet header")
     p.add_argument("--lab-address", help="laboratory address")
     p.add_argument("--lab-accreditation", help="accreditation statement")

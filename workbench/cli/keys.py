@@ -1,7 +1,11 @@
-"""``workbench keys``: create, register, revoke and list analysts' signing keys.
+"""``workbench keys``: create, register, trust, revoke and list analysts' signing keys.
 
 Passphrases come from ``--passphrase-file``, the ``WORKBENCH_PASSPHRASE``
-environment variable or an interactive prompt, never from the command line.
+environment variable or an interactive prompt, never from the command line
+(``--passphrase VALUE`` is refused without the value being echoed).
+
+Keys that arrive in a case bundle are untrusted; ``keys trust`` is the
+recorded act of a local administrator that makes one count in this store.
 """
 
 from __future__ import annotations
@@ -12,6 +16,7 @@ import sys
 from workbench.cli._options import add_store_option as _store_option
 from workbench.cli._options import print_json as _print_json
 from workbench.cli._options import read_file as _read
+from workbench.cli._options import refuse_passphrase_option
 
 __all__ = ["register"]
 
@@ -29,6 +34,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--name", required=True, help="file stem, e.g. z.angstrom")
     p.add_argument("--out", required=True, metavar="DIR", help="folder for the two key files")
     p.add_argument("--passphrase-file", metavar="FILE", help="file holding the passphrase")
+    refuse_passphrase_option(p)
     p.add_argument("--json", action="store_true", help="print JSON")
     p.set_defaults(func=_create)
 
@@ -48,10 +54,31 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--json", action="store_true", help="print JSON")
     p.set_defaults(func=_revoke)
 
-    p = sub.add_parser("list", help="list registered analysts and keys")
+    p = sub.add_parser(
+        "trust",
+        help="record a local administrator's trust in an imported key (hashed key-log event)",
+    )
+    p.add_argument("fingerprint", metavar="FINGERPRINT", help="SHA256:<hex> of the key")
+    p.add_argument("--by", required=True, help="the local administrator taking responsibility")
+    p.add_argument(
+        "--reason", required=True, help="how the key was confirmed with its owner's laboratory"
+    )
+    _store_option(p)
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.set_defaults(func=_trust)
+
+    p = sub.add_parser("list", help="list registered analysts and keys, with provenance")
     _store_option(p)
     p.add_argument("--json", action="store_true", help="print JSON")
     p.set_defaults(func=_list)
+
+    p = sub.add_parser(
+        "log", help="the hashed key log (registrations, imports, trust, revocations)"
+    )
+    p.add_argument("fingerprint", nargs="?", metavar="FINGERPRINT", help="one key only")
+    _store_option(p)
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.set_defaults(func=_log)
 
 
 def _create(args: argparse.Namespace) -> int:
@@ -82,8 +109,10 @@ def _register(args: argparse.Namespace) -> int:
 
     pem = _read(args.pubkey, "public key")
     load_public_key(pem, source=args.pubkey)  # a clear message for a wrong file
+    import getpass
+
     with CaseStore.open(args.store) as store:
-        rec = store.register_analyst(args.name, args.role, pem)
+        rec = store.register_analyst(args.name, args.role, pem, registered_by=getpass.getuser())
     if args.json:
         _print_json(rec.to_dict())
     else:
@@ -119,5 +148,36 @@ def _list(args: argparse.Namespace) -> int:
         return 0
     for a in analysts:
         state = f"revoked {a.revoked_at} ({a.revoked_reason})" if a.revoked_at else a.status
-        print(f"{a.fingerprint}  {a.name}  [{a.role}]  registered {a.registered_at}  {state}")
+        print(
+            f"{a.fingerprint}  {a.name}  [{a.role}]  registered {a.registered_at}  {state}  "
+            f"provenance: {a.provenance_text}"
+        )
+    return 0
+
+
+def _trust(args: argparse.Namespace) -> int:
+    from workbench.casefile import CaseStore
+
+    with CaseStore.open(args.store) as store:
+        rec = store.trust_analyst(args.fingerprint, args.by, args.reason)
+    if args.json:
+        _print_json(rec.to_dict())
+    else:
+        print(f"trusted {rec.fingerprint} of {rec.name}: {rec.provenance_text}")
+    return 0
+
+
+def _log(args: argparse.Namespace) -> int:
+    from workbench.casefile import CaseStore
+
+    with CaseStore.open(args.store) as store:
+        events = store.key_events(args.fingerprint)
+    if args.json:
+        _print_json(events)
+        return 0
+    for e in events:
+        reason = f"  reason: {e['reason']}" if e.get("reason") else ""
+        print(
+            f"#{e['seq']}  {e['at']}  {e['kind']:<10}  {e['fingerprint']}  by {e['actor']}{reason}"
+        )
     return 0

@@ -4,18 +4,19 @@ A private key is kept as PEM PKCS#8, encrypted with the analyst's passphrase
 (``BestAvailableEncryption``); the public key as PEM SubjectPublicKeyInfo,
 which is what ``openssl pkeyutl -pubin`` reads. A key is named by its
 *fingerprint*: ``"SHA256:"`` followed by the lowercase hex SHA-256 of the raw
-32-byte public key.
+32-byte public key. Loading public keys and fingerprints live in
+:mod:`workbench.crypto` (re-exported here).
 """
 
 from __future__ import annotations
 
-import hashlib
 import os
 import re
 import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
+from workbench.crypto import fingerprint_of, load_public_key
 from workbench.errors import InputError, KeyFileError
 
 __all__ = [
@@ -71,36 +72,6 @@ def _check_passphrase(passphrase: str) -> bytes:
             f"choose a passphrase of at least {MIN_PASSPHRASE_LENGTH} characters",
         )
     return passphrase.encode("utf-8")
-
-
-def _raw_public_bytes(public_key: object) -> bytes:
-    from cryptography.hazmat.primitives import serialization
-
-    return public_key.public_bytes(  # type: ignore[attr-defined]
-        serialization.Encoding.Raw, serialization.PublicFormat.Raw
-    )
-
-
-def fingerprint_of(public_key: object) -> str:
-    """Return the fingerprint of a public key.
-
-    Parameters
-    ----------
-    public_key : Ed25519PublicKey or bytes
-        A key object, its PEM bytes, or its raw 32 bytes.
-
-    Returns
-    -------
-    str
-        ``"SHA256:"`` + lowercase hex SHA-256 of the raw 32-byte key.
-    """
-    if isinstance(public_key, bytes | bytearray):
-        raw = bytes(public_key)
-        if len(raw) != 32:
-            raw = _raw_public_bytes(load_public_key(raw))
-    else:
-        raw = _raw_public_bytes(public_key)
-    return "SHA256:" + hashlib.sha256(raw).hexdigest()
 
 
 def generate_key_pair(passphrase: str) -> KeyPair:
@@ -273,54 +244,6 @@ def load_private_key(pem: bytes, passphrase: str, *, source: str = "private key"
     if not isinstance(key, Ed25519PrivateKey):
         raise KeyFileError(
             f"{source}: not an Ed25519 private key (found {type(key).__name__})",
-            "use a key made by 'workbench keys create'",
-        )
-    return key
-
-
-def load_public_key(pem: bytes, *, source: str = "public key") -> object:
-    """Load an Ed25519 public key from PEM SubjectPublicKeyInfo.
-
-    Parameters
-    ----------
-    pem : bytes
-        Contents of a ``.pub.pem`` file.
-    source : str
-        Name of the file, for error messages.
-
-    Returns
-    -------
-    Ed25519PublicKey
-        The key.
-
-    Raises
-    ------
-    KeyFileError
-        If the bytes are not a PEM Ed25519 public key.
-    """
-    from cryptography.hazmat.primitives import serialization
-    from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PublicKey
-
-    if not isinstance(pem, bytes | bytearray) or b"-----BEGIN " not in pem:
-        raise KeyFileError(
-            f"{source}: file is not a PEM key (no '-----BEGIN' line)",
-            "give the .pub.pem file written by 'workbench keys create'",
-        )
-    if b"PRIVATE KEY-----" in pem:
-        raise KeyFileError(
-            f"{source}: this is a private key, where a public key was expected",
-            "give the .pub.pem file; never hand out the .key.pem file",
-        )
-    try:
-        key = serialization.load_pem_public_key(bytes(pem))
-    except Exception as exc:
-        raise KeyFileError(
-            f"{source}: file is not a PEM public key that can be read ({exc})",
-            "give the .pub.pem file written by 'workbench keys create'",
-        ) from exc
-    if not isinstance(key, Ed25519PublicKey):
-        raise KeyFileError(
-            f"{source}: not an Ed25519 public key (found {type(key).__name__})",
             "use a key made by 'workbench keys create'",
         )
     return key
