@@ -8,7 +8,9 @@ not at all. A store written by newer software (a version above
 :data:`SCHEMA_VERSION`) is refused.
 
 Migration 1 creates the tables; migration 2 adds the immutability triggers
-(``BEFORE UPDATE/DELETE ... RAISE(ABORT, ...)``) and search indexes.
+(``BEFORE UPDATE/DELETE ... RAISE(ABORT, ...)``) and search indexes;
+migration 3 adds the analyst's decisions and the technical reviews
+(:mod:`workbench.casefile.decisions`).
 """
 
 from __future__ import annotations
@@ -160,10 +162,50 @@ _TRIGGERS = [
     "CREATE INDEX sheets_by_analysis ON findings_sheets (analysis_id)",
 ]
 
+# Migration 3: the analyst's decisions on an analysis (append-only, hash-chained
+# per analysis) and technical reviews of issued sheets (append-only).
+_DECISIONS_AND_REVIEWS = [
+    """CREATE TABLE analysis_decisions (
+        id INTEGER PRIMARY KEY,
+        analysis_id INTEGER NOT NULL REFERENCES analyses(id),
+        seq INTEGER NOT NULL,
+        action TEXT NOT NULL,
+        target TEXT NOT NULL,
+        lines TEXT NOT NULL,
+        reverses INTEGER,
+        reason TEXT NOT NULL,
+        analyst TEXT NOT NULL,
+        decided_at TEXT NOT NULL,
+        prev_hash TEXT NOT NULL,
+        record_hash TEXT NOT NULL UNIQUE,
+        UNIQUE (analysis_id, seq)
+    )""",
+    """CREATE TABLE sheet_reviews (
+        id INTEGER PRIMARY KEY,
+        sheet_id INTEGER NOT NULL REFERENCES findings_sheets(id),
+        reviewer_fingerprint TEXT NOT NULL REFERENCES analysts(fingerprint),
+        reviewer TEXT NOT NULL,
+        outcome TEXT NOT NULL CHECK (outcome IN ('approved', 'returned')),
+        comments TEXT NOT NULL,
+        signature_sha256 TEXT,
+        record_sha256 TEXT,
+        reviewed_at TEXT NOT NULL,
+        record_hash TEXT NOT NULL UNIQUE
+    )""",
+    *(
+        _no_change(t, a, f"{t} are append-only: {a.lower()} refused")
+        for t in ("analysis_decisions", "sheet_reviews")
+        for a in ("UPDATE", "DELETE")
+    ),
+    "CREATE INDEX decisions_by_analysis ON analysis_decisions (analysis_id, seq)",
+    "CREATE INDEX reviews_by_sheet ON sheet_reviews (sheet_id)",
+]
+
 #: Ordered migrations: ``(version, statements)``; applied in order, never edited.
 MIGRATIONS: tuple[tuple[int, tuple[str, ...]], ...] = (
     (1, tuple(_TABLES)),
     (2, tuple(_TRIGGERS)),
+    (3, tuple(_DECISIONS_AND_REVIEWS)),
 )
 
 #: Schema version this code writes.
