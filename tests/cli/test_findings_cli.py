@@ -141,7 +141,8 @@ def test_show_and_list(issued, capsys, tmp_path):
     assert main(["findings", "show", "1", "--json", "--export", str(tmp_path / "exp")]) == 0
     shown = json.loads(capsys.readouterr().out)
     assert shown["signature"]["valid"] is True
-    assert [f["species"] for f in shown["findings"]] == ["Pb", "Ba"]  # fixture's elements
+    # Fixture elements Pb (ion 1) and Ba (ion 2), labelled in spectroscopic notation.
+    assert [f["species"] for f in shown["findings"]] == ["Pb I", "Ba II"]
     exported = Path(shown["files"]["pdf"]).read_bytes()
     assert exported == Path(info["files"]["pdf"]).read_bytes()
     assert main(["findings", "list", "--json"]) == 0

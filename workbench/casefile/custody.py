@@ -69,9 +69,7 @@ EVENT_KINDS: tuple[str, ...] = (
 )
 
 #: Kinds only the store itself writes (with the record they stand for).
-STORE_ONLY_KINDS: frozenset[str] = frozenset(
-    {"sub-sampled", "analysed", "reported", "reviewed"}
-)
+STORE_ONLY_KINDS: frozenset[str] = frozenset({"sub-sampled", "analysed", "reported", "reviewed"})
 
 #: Seal states an event can record.
 SEAL_STATES: tuple[str, ...] = ("sealed", "open", "unknown")

@@ -78,6 +78,18 @@ def _tick_label(t: float, ticks: Sequence[float]) -> str:
     return f"{t:.{decimals}f}"
 
 
+#: Longest text placed in one table cell: a row must fit on a page; the full
+#: value stays in the signed JSON.
+MAX_CELL_CHARS = 600
+
+
+def _cell(value: Any) -> str:
+    text = clean(value)
+    if len(text) > MAX_CELL_CHARS:
+        return text[: MAX_CELL_CHARS - 40].rstrip() + " … (shortened; full value in the JSON)"
+    return text
+
+
 class Layout:
     """A document in progress: an fpdf2 ``FPDF`` plus the break rules above.
 
@@ -151,7 +163,9 @@ class Layout:
     ) -> tuple[float, list[list[str]]]:
         """Height of one table row and the lines of each of its cells."""
         lh = size * 0.45
-        split = [self.lines(c, w - 2.0, style, size) or [""] for c, w in zip(cells, widths, strict=True)]
+        split = [
+            self.lines(c, w - 2.0, style, size) or [""] for c, w in zip(cells, widths, strict=True)
+        ]
         return max(len(s) for s in split) * lh + 1.6, split
 
     def table(
@@ -180,7 +194,7 @@ class Layout:
         if head:
             head_h, head_lines = self.row_height(head, widths, size, "B")
         for r in rows:
-            measured.append(self.row_height([clean(c) for c in r], widths, size))
+            measured.append(self.row_height([_cell(c) for c in r], widths, size))
         first = measured[0][0] if measured else 0.0
         if title:
             self.heading(title, keep=head_h + first)

@@ -113,7 +113,8 @@ def custody_rows(events: Sequence[Mapping[str, Any]]) -> list[dict[str, str]]:
             details.append(f"to {e['to_party']}")
         if e.get("location"):
             details.append(f"at {e['location']}")
-        if e.get("kind") in ("received", "sealed", "opened") and e.get("seal_number"):
+        kind = e.get("kind") or e.get("event") or ""
+        if kind in ("received", "sealed", "opened") and e.get("seal_number"):
             details.append(f"seal {e['seal_number']}")
         if e.get("note"):
             # Full digests are printed once in the appendix; here the first 12 digits
@@ -126,7 +127,7 @@ def custody_rows(events: Sequence[Mapping[str, Any]]) -> list[dict[str, str]]:
                 "seq": str(e.get("seq", "")),
                 "item": str(e.get("item_number") or ""),
                 "when": short_time(e.get("at")),
-                "action": _EVENT_WORDS.get(str(e.get("kind")), str(e.get("kind", ""))),
+                "action": _EVENT_WORDS.get(str(kind), str(kind)),
                 "holder": str(e.get("to_party") or e.get("actor") or ""),
                 "by": str(e.get("actor") or ""),
                 "details": "; ".join(details),

@@ -320,9 +320,12 @@ class _Sheet:
         if c.get("limitations"):
             doc.heading("Limitations of this examination", keep=8)
             doc.para(c["limitations"], size=8.5)
-        for sup in c.get("supplements") or []:
-            doc.heading(_g(sup, "title"), keep=8)
-            doc.para(_g(sup, "text"), size=8)
+        sups = c.get("supplements") or []
+        if sups:
+            doc.heading("Comparisons and material candidates", keep=14)
+            for sup in sups:
+                doc.para(_g(sup, "title"), size=9, style="B", keep=6)
+                doc.para(_g(sup, "text"), size=8)
         doc.heading("Cautions", keep=10)
         for text in c.get("cautions") or []:
             doc.para(f"• {text}", size=8)
