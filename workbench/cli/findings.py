@@ -1,4 +1,7 @@
-"""``workbench findings``: issue, verify, show and list signed findings sheets.
+"""``workbench findings``: issue, verify, show, list and review signed findings sheets.
+
+The analyst's decisions and the technical review live in
+:mod:`workbench.cli.findings_decisions` (``decide``, ``decisions``, ``review``).
 
 ``verify`` exits 0 when every check passes and 4 when one fails, printing
 which (PDF changed, JSON changed, record malformed or altered, different,
@@ -49,6 +52,17 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         metavar="FILE",
         help="a comparison or materials result saved with --supplement-out (repeatable)",
     )
+    p.add_argument("--question", default="", help="the question the examination answers")
+    p.add_argument(
+        "--ask",
+        action="append",
+        default=[],
+        metavar="ELEMENT",
+        help="an element the question asks about; reported as not found if not concluded",
+    )
+    p.add_argument(
+        "--reviewer", metavar="FINGERPRINT", help="registered key of the designated reviewer"
+    )
     p.add_argument("--issued-at", help="UTC issue time (default now), e.g. 2026-03-14T09:30:00Z")
     p.add_argument("--out", required=True, metavar="DIR", help="folder for the four sheet files")
     _store_option(p)
@@ -61,6 +75,14 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--sig", metavar="SHEET.sig.json", help="signature record (default: beside)")
     p.add_argument(
         "--raw-sig", metavar="SHEET.sig", help="raw signature, also checked (default: beside)"
+    )
+    p.add_argument(
+        "--review-sig",
+        metavar="SHEET.review.sig.json",
+        help="reviewer's signature record, also checked (default: beside, if present)",
+    )
+    p.add_argument(
+        "--reviewer-pubkey", metavar="PEM", help="reviewer's public key file (with --pubkey)"
     )
     who = p.add_mutually_exclusive_group()
     who.add_argument("--pubkey", metavar="PEM", help="signer's public key file")
@@ -82,6 +104,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     _store_option(p)
     p.add_argument("--json", action="store_true", help="print JSON")
     p.set_defaults(func=_list)
+
+    from workbench.cli.findings_decisions import register_into
+
+    register_into(sub)
 
 
 def _read(path: str, what: str) -> bytes:
@@ -150,6 +176,9 @@ def _issue(args: argparse.Namespace) -> int:
             issued_at=args.issued_at,
             out_dir=args.out,
             supplements=supplements,
+            question=args.question,
+            elements_asked=args.ask,
+            reviewer_fingerprint=args.reviewer,
         )
     if args.json:
         _print_json(issued.to_dict())
@@ -177,6 +206,8 @@ def _verify(args: argparse.Namespace) -> int:
     import os
 
     from workbench.errors import SignatureInvalidError, SigningError
+    from workbench.findings.decisions import check_sheet_decisions
+    from workbench.findings.review import verify_review, verify_review_with_store
     from workbench.findings.signing import (
         parse_signature_record,
         verify_raw_pdf_signature,
@@ -189,10 +220,28 @@ def _verify(args: argparse.Namespace) -> int:
     record = _read(args.sig or _beside(args.pdf, ".sig.json"), "signature record")
     raw_path = args.raw_sig or _beside(args.pdf, ".sig")
     raw = _read(raw_path, "raw signature") if args.raw_sig or os.path.exists(raw_path) else None
+    review_path = args.review_sig or _beside(args.pdf, ".review.sig.json")
+    review = None
+    review_raw = None
+    if args.review_sig or os.path.exists(review_path):
+        review = _read(review_path, "review signature record")
+        review_raw_path = review_path[: -len(".json")] if review_path.endswith(".json") else ""
+        if review_raw_path and os.path.exists(review_raw_path):
+            review_raw = _read(review_raw_path, "raw review signature")
+    reviewed = None
     try:
         if args.pubkey:
             pem: bytes | None = _read(args.pubkey, "public key")
             result = verify_sheet(pdf, json_bytes, record, pem)
+            if review is not None:
+                rpem = (
+                    _read(args.reviewer_pubkey, "reviewer public key")
+                    if (args.reviewer_pubkey)
+                    else None
+                )
+                reviewed = verify_review(
+                    pdf, json_bytes, record, review, rpem, review_raw=review_raw
+                )
         else:
             from workbench.casefile import CaseStore
             from workbench.casefile.store import DB_NAME, resolve_store_root
@@ -207,7 +256,20 @@ def _verify(args: argparse.Namespace) -> int:
             with CaseStore.open(root) as store:
                 result = verify_sheet_with_store(store, pdf, json_bytes, record)
                 pem = store.get_analyst(result.key_fingerprint).public_key_pem.encode("ascii")
+                problems = check_sheet_decisions(store, json_bytes)
+                if problems:
+                    raise SignatureInvalidError(
+                        f"decision record altered: {problems[0]}",
+                        "the store's decisions no longer match what the sheet reports; "
+                        "restore the store from backup and investigate",
+                    )
+                if review is not None:
+                    reviewed = verify_review_with_store(
+                        store, pdf, json_bytes, record, review, review_raw=review_raw
+                    )
         checks = list(result.checks)
+        if reviewed is not None:
+            checks += [f"review: {c}" for c in reviewed.checks]
         if raw is not None:
             if raw != base64.b64decode(parse_signature_record(record)["signature_pdf"]):
                 raise SignatureInvalidError(
@@ -225,9 +287,15 @@ def _verify(args: argparse.Namespace) -> int:
                 print(f"  what to do: {exc.remedy}")
         return exc.exit_code
     if args.json:
-        _print_json({**result.to_dict(), "checks": checks})
+        out = {**result.to_dict(), "checks": checks}
+        out["reviewer"] = reviewed.to_dict() if reviewed is not None else None
+        _print_json(out)
         return 0
     print(f"VALID: signed by {result.signer} with key {result.key_fingerprint}")
+    if reviewed is not None:
+        print(f"  reviewed and countersigned by {reviewed.signer} ({reviewed.key_fingerprint})")
+    else:
+        print("  no technical review signature was given")
     print(f"  signed at {result.signed_at}; PDF SHA-256 {result.pdf_sha256}")
     for c in checks:
         print(f"  ok  {c}")
@@ -269,7 +337,17 @@ def _export(store: object, rec: object, out_dir: str) -> dict[str, str]:
         raise InputError(f"cannot write to {folder} ({exc})", "choose a writable folder") from exc
     for tmp, final in staged:
         os.replace(tmp, final)
-    return {k: str(v) for k, v in finals.items()}
+    out = {k: str(v) for k, v in finals.items()}
+    from workbench.casefile.decisions import list_reviews
+    from workbench.findings.review import REVIEW_SUFFIXES
+
+    for r in list_reviews(store, rec.id):  # type: ignore[attr-defined]
+        if r.outcome == "approved" and r.record_sha256 and r.signature_sha256:
+            for kind, digest in (("record", r.record_sha256), ("sig", r.signature_sha256)):
+                path = folder / f"{stem}{REVIEW_SUFFIXES[kind]}"
+                path.write_bytes(store.file_bytes(digest))  # type: ignore[attr-defined]
+                out[f"review_{kind}"] = str(path)
+    return out
 
 
 def _show(args: argparse.Namespace) -> int:

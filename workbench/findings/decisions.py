@@ -48,6 +48,7 @@ __all__ = [
     "CONCLUDED_LEVEL",
     "DECISION_ACTIONS",
     "ElementCall",
+    "check_sheet_decisions",
     "effective_calls",
     "element_of",
     "list_decisions",
@@ -449,3 +450,40 @@ def record_decision(
         reverses=None if reverses is None else int(reverses),
         decided_at=decided_at,
     )
+
+
+def check_sheet_decisions(store: Any, json_bytes: bytes) -> list[str]:
+    """Check the decisions a sheet reports against the store's record of them.
+
+    Parameters
+    ----------
+    store : CaseStore
+        The store holding the analysis.
+    json_bytes : bytes
+        The sheet's canonical JSON.
+
+    Returns
+    -------
+    list of str
+        Problems: a stored decision altered after it was recorded (its hash or
+        chain no longer holds), or a decision printed on the sheet that the
+        store does not hold with the same hash. Empty when all agree.
+    """
+    from workbench.casefile.decisions import check_decisions
+    from workbench.errors import NotFoundError
+
+    try:
+        content = json.loads(bytes(json_bytes).decode("utf-8"))
+        analysis_id = int(content["analysis"]["id"])
+    except (UnicodeDecodeError, ValueError, KeyError, TypeError):
+        return []  # not a sheet of this store's kind; the signature checks cover it
+    printed = [d for d in content.get("decisions") or [] if isinstance(d, Mapping)]
+    try:
+        problems = check_decisions(store, analysis_id)
+    except NotFoundError:
+        return [f"analysis {analysis_id} is not in this store"] if printed else []
+    stored = {d.seq: d.record_hash for d in stored_decisions(store, analysis_id)}
+    for d in printed:
+        if stored.get(int(d.get("seq", 0))) != d.get("record_hash"):
+            problems.append(f"decision {d.get('seq')} on the sheet is not the one on record")
+    return problems
