@@ -160,21 +160,31 @@ def _interference(
             )
             if decisive_ids & {str(x) for x in w.get("lines") or []} and other not in on_decisive:
                 on_decisive.append(other)
+    gap = 0.01 if unit == "nm" else 5.0
+
+    def distinct(values: Sequence[float], n: int) -> list[float]:
+        # Reference lines closer than the printed precision are one line to a reader.
+        kept: list[float] = []
+        for v in sorted(values):
+            if not kept or v - kept[-1] > gap:
+                kept.append(v)
+        return kept[:n]
+
     out = []
     for other in sorted(rows):
         r = rows[other]
         out.append(
             {
                 "competitor": other,
-                "at": ", ".join(format_position(p, unit) for p in sorted(set(r["positions"]))[:3])
-                + (" …" if len(set(r["positions"])) > 3 else ""),
+                "at": ", ".join(format_position(p, unit) for p in distinct(r["positions"], 3))
+                + (" …" if len(distinct(r["positions"], 99)) > 3 else ""),
                 "n_lines": len(set(r["positions"])),
                 "settled_by": ", ".join(
-                    format_position(p, unit) for p in sorted(set(r["settled_by"]))[:3]
+                    format_position(p, unit) for p in distinct(r["settled_by"], 3)
                 )
                 or "no clean line of its own",
                 "competitor_clean": ", ".join(
-                    format_position(p, unit) for p in sorted(set(r["competitor_clean"]))[:3]
+                    format_position(p, unit) for p in distinct(r["competitor_clean"], 3)
                 )
                 or "none",
             }

@@ -256,7 +256,7 @@ class _Sheet:
                 more = f" and {b['more_missing']} weaker" if b.get("more_missing") else ""
                 notes.append("Expected but not observed: " + "; ".join(missing) + more + ".")
             else:
-                notes.append("None of its expected lines in the measured range is missing.")
+                notes.append("No expected line in the measured range is missing.")
             doc.para(" ".join(notes), size=7.5)
             inter = b.get("interference") or []
             if inter:
