@@ -224,7 +224,7 @@ class _Sheet:
             widths = [17, 19, 19, 14, 10, 10, 29]
             if xray:
                 head = ["Family", "Line", "Reference", "Observed", "Δ", "Exp.", "Obs.", "Note"]
-                widths = [12, 16, 17, 17, 9, 9, 9, 29]
+                widths = [12, 15, 19, 19, 9, 9, 9, 26]
             rows = []
             for ln in b.get("lines") or []:
                 row = [ln["species"]]
@@ -243,9 +243,9 @@ class _Sheet:
                 fmt = (lambda t: f"{t:.0f}") if xray else None
                 doc.stick_figure(fig_x, top + 1.0, fig_w, fig_h, b["region"], unit, fmt)
             if rows:
-                doc.table(
-                    head, rows, widths, ("L",) + ("R",) * (len(widths) - 2) + ("L",), size=7.5
-                )
+                lead = ("L", "L") if xray else ("L",)
+                aligns = lead + ("R",) * (len(widths) - len(lead) - 1) + ("L",)
+                doc.table(head, rows, widths, aligns, size=7.5)
             below = max(pdf.get_y(), top + fig_h + 7.0)
             pdf.set_y(below)
             notes = []
