@@ -68,14 +68,15 @@ def _decisive(call: ElementCall, unit: str) -> list[dict[str, Any]]:
     clean = [r for r in rows if not r[1].get("shared")]
     pool = clean or rows
     level = {
-        s["species"]: int(s.get("verdict_level") or 0) >= 2 or s.get("decision") == "accepted"
+        s["species"]: 3 if s.get("decision") == "accepted" else int(s.get("verdict_level") or 0)
         for s in call.species
     }
-    # Lines of a concluded ion stage first, strongest expected first; one line per
-    # observed peak (two reference lines under one peak are one piece of evidence).
+    # Lines of the best-supported ion stage or family first, strongest expected
+    # first; one line per observed peak (two reference lines under one peak are
+    # one piece of evidence).
     pool.sort(
         key=lambda r: (
-            not level.get(r[0], False),
+            -level.get(r[0], 0),
             -(_num(r[1].get("expected_rel")) or 0.0),
             str(r[1].get("line_id")),
         )
@@ -238,6 +239,8 @@ def _class_words(call: ElementCall) -> str:
     text = call.verdict if call.verdict else ""
     if call.added:
         return "added by the analyst"
+    if not call.species:
+        return "not found; printed at the analyst's choice"
     if call.concluded and not call.engine_concluded:
         text = f"{text}; concluded present by the analyst"
     elif call.engine_concluded and not call.concluded:

@@ -164,7 +164,7 @@ class _Sheet:
                     if r.get("decisions")
                     else ""
                 ),
-                "\n".join(r.get("decisive_lines") or []) or "no line left",
+                "\n".join(r.get("decisive_lines") or []) or "none found",
                 r["interference"],
             ]
             for r in c.get("summary") or []
