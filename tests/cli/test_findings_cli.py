@@ -361,3 +361,13 @@ def test_self_review_refused_by_cli(issued, capsys):
     tmp, _ = issued
     rc = main(["findings", "review", "1", "--key", str(tmp / "keys" / "zoe.key.pem"), "--approve"])
     assert rc == 4 and "cannot review their own analysis" in capsys.readouterr().err
+
+
+def test_verify_uses_the_review_on_record(reviewed, capsys):
+    _, info, out = reviewed
+    for kind in ("record", "sig"):
+        Path(out["files"][kind]).unlink()  # no review files beside the PDF
+    assert main(["findings", "verify", info["files"]["pdf"]]) == 0
+    assert "reviewed and countersigned by Bjørn Łukasz" in capsys.readouterr().out
+    assert main(["findings", "show", "1", "--json"]) == 0
+    assert [r["outcome"] for r in json.loads(capsys.readouterr().out)["reviews"]] == ["approved"]

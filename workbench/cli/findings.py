@@ -263,6 +263,9 @@ def _verify(args: argparse.Namespace) -> int:
                         "the store's decisions no longer match what the sheet reports; "
                         "restore the store from backup and investigate",
                     )
+                if review is None:
+                    # No review files beside the PDF: use the approval on record, if any.
+                    review, review_raw = _stored_review(store, pdf)
                 if review is not None:
                     reviewed = verify_review_with_store(
                         store, pdf, json_bytes, record, review, review_raw=review_raw
@@ -300,6 +303,25 @@ def _verify(args: argparse.Namespace) -> int:
     for c in checks:
         print(f"  ok  {c}")
     return 0
+
+
+def _stored_review(store: object, pdf: bytes) -> tuple[bytes | None, bytes | None]:
+    """The approved review on record for the sheet with these PDF bytes, if any."""
+    import hashlib
+
+    from workbench.casefile.decisions import list_reviews
+
+    digest = hashlib.sha256(pdf).hexdigest()
+    for sheet in store.list_findings_sheets():  # type: ignore[attr-defined]
+        if sheet.pdf_sha256 != digest:
+            continue
+        for r in list_reviews(store, sheet.id):
+            if r.outcome == "approved" and r.record_sha256 and r.signature_sha256:
+                return (
+                    store.file_bytes(r.record_sha256),  # type: ignore[attr-defined]
+                    store.file_bytes(r.signature_sha256),  # type: ignore[attr-defined]
+                )
+    return None, None
 
 
 def _export(store: object, rec: object, out_dir: str) -> dict[str, str]:
@@ -367,6 +389,9 @@ def _show(args: argparse.Namespace) -> int:
             status = {"valid": False, "problem": str(exc)}
         content = json.loads(js)
         files = _export(store, rec, args.export) if args.export else {}
+        from workbench.casefile.decisions import list_reviews
+
+        reviews = [r.to_dict() for r in list_reviews(store, rec.id)]
     findings = [
         {
             "species": f.get("species") or f.get("element"),
@@ -381,6 +406,7 @@ def _show(args: argparse.Namespace) -> int:
                 "sheet": rec.to_dict(),
                 "signature": status,
                 "findings": findings,
+                "reviews": reviews,
                 "files": files,
             }
         )
@@ -393,6 +419,10 @@ def _show(args: argparse.Namespace) -> int:
     print(f"  signature: {verdict}")
     for f in findings:
         print(f"  {f['species']:<8} {f['verdict']}  score {f['score']}")
+    for r in reviews:
+        print(f"  review: {r['outcome']} by {r['reviewer']} at {r['reviewed_at']}: {r['comments']}")
+    if not reviews:
+        print("  review: none yet")
     for kind, path in files.items():
         print(f"  wrote {kind:<7}{path}")
     return 0
