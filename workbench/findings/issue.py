@@ -353,9 +353,6 @@ def sign_and_store_sheet(
     out_dir : path-like, optional
         Folder to write ``<stem>.pdf``, ``.json``, ``.sig`` and ``.sig.json`` into.
 
-    supplements : sequence of mapping, optional
-        Comparison or materials results to print with the analysis.
-
     Returns
     -------
     IssuedSheet
@@ -364,7 +361,8 @@ def sign_and_store_sheet(
     Raises
     ------
     InputError
-        If the content is not for this analysis or lacks a section.
+        If the content is not for this analysis, lacks a section, or reports
+        other decisions than those now on record.
     SigningError
         If the analyst is unknown or revoked, or the key is not the registered one.
     KeyFileError
