@@ -40,11 +40,12 @@ def test_rows_are_never_split_and_headings_move_with_their_table(lead):
 
 
 def test_lines_are_cached_and_wrap_at_width():
-    _, doc = _doc()
+    pdf, doc = _doc()
     long = "word " * 60
     first = doc.lines(long, 50.0)
     assert len(first) > 3 and doc.lines(long, 50.0) == first
     assert doc.lines("short", 50.0) == ["short"]
+    pdf.output()  # closes the font files
 
 
 def test_nice_ticks():

@@ -8,8 +8,9 @@ plain data that the PDF prints and the canonical JSON keeps, already worded
 Choices, and why
 ----------------
 * Decisive lines: the element's matched lines that no other species shares,
-  strongest expected first (a clean strong line is what settles an
-  identification); shared ones only when no clean line was found.
+  best-supported ion stage first, strongest expected first (a clean strong
+  line is what settles an identification), one per observed peak; shared
+  ones, marked, only to make up two.
 * Interference bearing on an element: the overlap warnings that involve one
   of its species *and* a competitor the evidence supports (verdict level ≥ 1
   or named by a decision). Overlaps with species the evidence does not
@@ -65,8 +66,7 @@ def _decisive(call: ElementCall, unit: str) -> list[dict[str, Any]]:
             continue
         for m in sp.get("matched_lines") or []:
             rows.append((sp["species"], m))
-    clean = [r for r in rows if not r[1].get("shared")]
-    pool = clean or rows
+    pool = list(rows)
     level = {
         s["species"]: 3 if s.get("decision") == "accepted" else int(s.get("verdict_level") or 0)
         for s in call.species
@@ -76,6 +76,7 @@ def _decisive(call: ElementCall, unit: str) -> list[dict[str, Any]]:
     # one piece of evidence).
     pool.sort(
         key=lambda r: (
+            bool(r[1].get("shared")),
             -level.get(r[0], 0),
             -(_num(r[1].get("expected_rel")) or 0.0),
             str(r[1].get("line_id")),
@@ -88,15 +89,18 @@ def _decisive(call: ElementCall, unit: str) -> list[dict[str, Any]]:
             continue
         seen.add(peak)
         picked.append((species, m))
+    # Clean lines decide; shared ones are named (and marked) only to make up two.
+    n_clean = sum(not m.get("shared") for _, m in picked)
+    limit = min(DECISIVE_LINES, n_clean) if n_clean >= 2 else 2
     out = []
-    for species, m in picked[:DECISIVE_LINES]:
+    for species, m in picked[:limit]:
         pos = m.get(ref, m.get("reference", m.get("position")))
         out.append(
             {
                 "species": species,
                 "line_id": m.get("line_id") or m.get("label") or "",
                 "position": _num(pos),
-                "name": line_name(m, species, unit),
+                "name": line_name(m, species, unit) + (" (shared)" if m.get("shared") else ""),
                 "shared": bool(m.get("shared")),
             }
         )
