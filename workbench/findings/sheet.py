@@ -262,9 +262,9 @@ class _Sheet:
             if inter:
                 doc.table(
                     (
-                        "Overlaps with",
+                        f"{b['element']} overlaps",
                         f"Near ({self._pos_unit()})",
-                        "Settled by its clean lines at",
+                        f"Settled by clean {b['element']} lines at",
                         "Competitor's clean lines",
                     ),
                     [
