@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import shutil
 import subprocess
+from pathlib import Path
 
 import pytest
 
@@ -182,15 +183,16 @@ def test_openssl_verifies_both_signatures(sheet, keys, tmp_path):
     (tmp_path / "SHEET.sig").write_bytes(issued.signature_raw)
     (tmp_path / "SHEET.review.sig").write_bytes(out.signature_raw)
 
-    def run(key, sig):
-        # The two commands printed in README.md.
-        cmd = ["openssl", "pkeyutl", "-verify", "-pubin", "-inkey", key, "-rawin"]
-        cmd += ["-in", "SHEET.pdf", "-sigfile", sig]
+    def run(cmd):
         return subprocess.run(cmd, cwd=tmp_path, capture_output=True, text=True)
 
-    for key, sig in (("ANALYST.pub.pem", "SHEET.sig"), ("REVIEWER.pub.pem", "SHEET.review.sig")):
-        res = run(key, sig)
+    # The commands exactly as README.md prints them, run on the issued and reviewed files.
+    readme = (Path(__file__).resolve().parents[2] / "README.md").read_text()
+    commands = [ln.split() for ln in readme.splitlines() if ln.startswith("openssl pkeyutl")]
+    assert [c[5] for c in commands] == ["ANALYST.pub.pem", "REVIEWER.pub.pem"]
+    for cmd in commands:
+        res = run(cmd)
         # Output text of OpenSSL 3 pkeyutl -verify (openssl-pkeyutl(1) man page).
         assert res.returncode == 0 and "Signature Verified Successfully" in res.stdout
-    crossed = run("ANALYST.pub.pem", "SHEET.review.sig")
-    assert crossed.returncode != 0
+    crossed = [*commands[0][:-1], "SHEET.review.sig"]  # analyst's key, reviewer's signature
+    assert run(crossed).returncode != 0

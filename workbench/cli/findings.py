@@ -193,6 +193,11 @@ def _issue(args: argparse.Namespace) -> int:
         f"    or: openssl pkeyutl -verify -pubin -inkey ANALYST.pub.pem -rawin -in {pdf} "
         f"-sigfile {raw}"
     )
+    stem = issued.paths["pdf"].name[: -len(".pdf")]
+    print(
+        f"review: workbench findings review {issued.sheet_id} --approve --key REVIEWER.key.pem "
+        f"--out {issued.paths['pdf'].parent} --stem {stem}"
+    )
     return 0
 
 
