@@ -12,6 +12,12 @@ Python's shortest round-trip ``repr``, which is reproducible.
 
 Everything a user typed (names, notes, limitations) is kept as plain text and
 never interpreted as markup by the renderer.
+
+Format 2 (``workbench-findings/2``) holds what the report prints, already in
+words: ``summary`` and ``evidence`` (:mod:`workbench.findings.conclusions`),
+``decisions``, ``method``, ``limits``, ``custody`` rows, ``parameters`` as
+name/value pairs (:mod:`workbench.findings.sections`); the full engine result
+stays in the store, identified by ``analysis.result_sha256``.
 """
 
 from __future__ import annotations
