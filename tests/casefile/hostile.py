@@ -12,19 +12,29 @@ from pathlib import Path
 
 from tests.casefile.helpers import add_signed_sheet, populate
 from workbench.casefile import CaseStore
+from workbench.casefile.decisions import add_review, append_decision
 
 CASE = "HLX-2026-0007"
 
 
 def rich_store(root: Path) -> Path:
     """A store with a row in every table: case (status changed), items, events,
-    measurement, analysis, signed sheet, a revoked second key and the key log."""
+    measurement, analysis, signed sheet, an analyst's decision, a returned review,
+    a revoked second key and the key log."""
     from cryptography.hazmat.primitives import serialization
     from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 
     with CaseStore.open(root) as s:
         info = populate(s, CASE)
-        add_signed_sheet(s, info["analysis"].id)
+        sheet = add_signed_sheet(s, info["analysis"].id)["sheet"]
+        append_decision(
+            s,
+            info["analysis"].id,
+            action="reject_element",
+            target="Na I",
+            reason="only one line, in the blank as well",
+            analyst="Dana Whitlock",
+        )
         pem = (
             Ed25519PrivateKey.generate()
             .public_key()
@@ -33,6 +43,13 @@ def rich_store(root: Path) -> Path:
             )
         )
         other = s.register_analyst("Omar Vell", "examiner", pem, registered_by="Lab manager")
+        add_review(
+            s,
+            sheet.id,
+            reviewer_fingerprint=other.fingerprint,
+            outcome="returned",
+            comments="state the blank's Na level",
+        )
         s.revoke_analyst(other.fingerprint, "left the laboratory", "Lab manager")
         s.set_case_status(CASE, "closed")
         s.set_case_status(CASE, "open")

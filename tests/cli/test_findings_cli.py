@@ -141,7 +141,8 @@ def test_show_and_list(issued, capsys, tmp_path):
     assert main(["findings", "show", "1", "--json", "--export", str(tmp_path / "exp")]) == 0
     shown = json.loads(capsys.readouterr().out)
     assert shown["signature"]["valid"] is True
-    assert [f["species"] for f in shown["findings"]] == ["Pb", "Ba"]  # fixture's elements
+    # Fixture elements Pb (ion 1) and Ba (ion 2), labelled in spectroscopic notation.
+    assert [f["species"] for f in shown["findings"]] == ["Pb I", "Ba II"]
     exported = Path(shown["files"]["pdf"]).read_bytes()
     assert exported == Path(info["files"]["pdf"]).read_bytes()
     assert main(["findings", "list", "--json"]) == 0
@@ -205,3 +206,168 @@ def test_issue_passphrase_not_accepted_on_command_line(tmp_path, capsys):
             ]
         )
     assert exc.value.code == 2  # argparse usage error exit status (Python docs)
+
+
+# --- the analyst's decisions and the technical review, through the CLI --------------------
+
+
+def _decide(*args: str) -> int:
+    return main(["findings", "decide", "1", *args, "--analyst", "Zoë Ångström"])
+
+
+def test_decisions_round_trip_and_reach_the_signed_sheet(tmp_path, monkeypatch, pairs, capsys):
+    monkeypatch.setenv("WORKBENCH_PASSPHRASE", PASS)
+    store_dir = tmp_path / "store"
+    monkeypatch.setenv("WORKBENCH_STORE", str(store_dir))
+    key_path = save_key_pair(pairs[0], tmp_path / "keys", "zoe")
+    make_store(store_dir, {"Zoë Ångström": pairs[0].public_key_pem}).close()
+    # Fixture: Pb I (level 3) with lines "Pb I 405.78" and "Pb I 368.35"; Ba II (level 2).
+    assert _decide("reject", "Ba", "--reason", "455.40 nm is explained by Ti here") == 0
+    assert _decide("reject", "Pb I|Pb I 368.35", "--reason", "saturated on the bench") == 0
+    assert _decide("add", "Sr", "--line", "500.1:Sr I (invented)", "--reason", "by eye") == 0
+    assert _decide("reverse", "1", "--reason", "Ti excluded after all") == 0
+    assert _decide("accept", "Zz", "--reason", "x") == 2  # InputError exit code
+    capsys.readouterr()
+    assert main(["findings", "decisions", "1", "--json"]) == 0
+    listed = json.loads(capsys.readouterr().out)
+    assert [d["action"] for d in listed["decisions"]] == [
+        "reject_element",
+        "reject_line",
+        "add_element",
+        "reverse",
+    ]
+    calls = {c["element"]: c for c in listed["calls"]}
+    assert calls["Ba"]["concluded"] and calls["Sr"]["added"]  # rejection reversed; Sr added
+    rc = main(
+        [
+            "findings",
+            "issue",
+            "1",
+            "--key",
+            str(key_path),
+            "--lab-name",
+            "Lab (invented)",
+            "--question",
+            "Is barium present?",
+            "--ask",
+            "Ba",
+            "--out",
+            str(tmp_path / "out"),
+            "--json",
+        ]
+    )
+    assert rc == 0
+    info = json.loads(capsys.readouterr().out)
+    content = json.loads(Path(info["files"]["json"]).read_text())
+    assert [d["seq"] for d in content["decisions"]] == [1, 2, 3, 4]
+    assert content["decisions"][0]["status"] == "reversed by decision 4"
+    from tests.findings.findings_pdftext import pages_text, squash
+
+    text = squash(" ".join(pages_text(Path(info["files"]["pdf"]).read_bytes())))
+    assert "saturated on the bench" in text and "struck by analyst" in text
+    assert main(["findings", "verify", info["files"]["pdf"]]) == 0
+    capsys.readouterr()
+    # Tamper with a stored decision behind the store's back: verification fails.
+    import sqlite3
+
+    conn = sqlite3.connect(store_dir / "cases.sqlite")
+    conn.execute("DROP TRIGGER analysis_decisions_no_update")
+    conn.execute("UPDATE analysis_decisions SET reason='edited later' WHERE seq=2")
+    conn.commit()
+    conn.close()
+    assert main(["findings", "verify", info["files"]["pdf"]]) == 4
+    assert "decision record altered" in capsys.readouterr().out
+
+
+@pytest.fixture
+def reviewed(issued, capsys, pairs):
+    tmp, info = issued
+    assert (
+        main(
+            [
+                "keys",
+                "register",
+                str(tmp / "keys" / "other.pub.pem"),
+                "--name",
+                "Bjørn Łukasz",
+                "--role",
+                "reviewer",
+            ]
+        )
+        == 0
+    )
+    capsys.readouterr()  # drop the registration message
+    stem = Path(info["files"]["pdf"]).name[: -len(".pdf")]
+    rc = main(
+        [
+            "findings",
+            "review",
+            "1",
+            "--key",
+            str(tmp / "keys" / "other.key.pem"),
+            "--approve",
+            "--comments",
+            "checked",
+            "--out",
+            str(Path(info["files"]["pdf"]).parent),
+            "--stem",
+            stem,
+            "--json",
+        ]
+    )
+    assert rc == 0
+    out = json.loads(capsys.readouterr().out)
+    return tmp, info, out
+
+
+def test_review_sign_and_verify_both(reviewed, capsys):
+    tmp, info, out = reviewed
+    assert out["outcome"] == "approved" and set(out["files"]) == {"record", "sig"}
+    pdf = info["files"]["pdf"]
+    assert main(["findings", "verify", pdf]) == 0
+    text = capsys.readouterr().out
+    assert "reviewed and countersigned by Bjørn Łukasz" in text
+    assert "review: raw .review.sig file valid" in text
+    rc = main(
+        [
+            "findings",
+            "verify",
+            pdf,
+            "--pubkey",
+            str(tmp / "keys" / "zoe.pub.pem"),
+            "--reviewer-pubkey",
+            str(tmp / "keys" / "other.pub.pem"),
+            "--json",
+        ]
+    )
+    assert rc == 0
+    assert json.loads(capsys.readouterr().out)["reviewer"]["signer"] == "Bjørn Łukasz"
+    assert main(["custody", "show", "HFC-2026-0042/3", "--json"]) == 0
+    shown = json.loads(capsys.readouterr().out)
+    events = shown["events"] if isinstance(shown, dict) else shown
+    kinds = [e["kind"] for e in events]
+    assert kinds[-2:] == ["reported", "reviewed"]
+
+
+@pytest.mark.parametrize("kind", ["record", "sig"])
+def test_altered_review_signature_fails(reviewed, capsys, kind):
+    _, info, out = reviewed
+    _flip(out["files"][kind], 30)
+    assert main(["findings", "verify", info["files"]["pdf"]]) == 4
+    assert "INVALID" in capsys.readouterr().out
+
+
+def test_self_review_refused_by_cli(issued, capsys):
+    tmp, _ = issued
+    rc = main(["findings", "review", "1", "--key", str(tmp / "keys" / "zoe.key.pem"), "--approve"])
+    assert rc == 4 and "cannot review their own analysis" in capsys.readouterr().err
+
+
+def test_verify_uses_the_review_on_record(reviewed, capsys):
+    _, info, out = reviewed
+    for kind in ("record", "sig"):
+        Path(out["files"][kind]).unlink()  # no review files beside the PDF
+    assert main(["findings", "verify", info["files"]["pdf"]]) == 0
+    assert "reviewed and countersigned by Bjørn Łukasz" in capsys.readouterr().out
+    assert main(["findings", "show", "1", "--json"]) == 0
+    assert [r["outcome"] for r in json.loads(capsys.readouterr().out)["reviews"]] == ["approved"]

@@ -67,27 +67,33 @@ def test_content_is_deterministic_and_json_stable():
 
 def test_content_shape(content_kwargs):
     c = build_sheet_content(**content_kwargs)
-    assert c["format"] == "workbench-findings/1"
+    assert c["format"] == "workbench-findings/2"
     assert c["issued_at"] == "2026-03-14T09:30:00Z"
     assert c["axis"] == {"kind": "wavelength", "unit": "nm", "medium": "air"}
     # Strongest verdict first: Pb (level 3) before Ba (level 2), from the fixture.
     assert [f["element"] for f in c["findings"]] == ["Pb", "Ba"]
-    # Matched lines sorted by reference position: 368.3462 before 405.7807 (fixture values).
-    assert [m["reference_nm"] for m in c["findings"][0]["matched_lines"]] == [368.3462, 405.7807]
+    assert [r["element"] for r in c["summary"]] == ["Pb", "Ba"]
+    # Decisive lines: strongest expected first (fixture: 405.7807 rel 1.0, 368.3462 rel 0.45).
+    assert c["summary"][0]["decisive_lines"] == ["Pb I 405.7807 nm", "Pb I 368.3462 nm"]
     assert c["findings"][0]["score"] == 0.9312345679  # 10 significant digits, by hand
     assert "extra_key_from_future" not in json.dumps(c)  # unknown keys are not carried
     assert c["cautions"] == list(CAUTIONS)
     assert c["notes"] == content_kwargs["notes"]  # user text verbatim
-    assert [ln["position"] for ln in c["observed_lines"]] == [368.348, 405.7821, 455.405, 500.1]
+    # Evidence: one block per concluded element, lines strongest expected first then
+    # printed in reference order (fixture values).
+    pb = c["evidence"][0]
+    assert [r["reference"] for r in pb["lines"]] == ["368.3462", "405.7807"]
+    assert pb["missing"] == ["Pb I 283.3053 nm (expected rel. 0.30)"]
+    assert c["not_supported_count"] == 0
 
 
 def test_missing_delta_is_computed():
     kwargs = make_content_kwargs()
     del kwargs["analysis"]["result"]["elements"][1]["matched_lines"][0]["delta_nm"]
     c = build_sheet_content(**kwargs)
-    ba = next(f for f in c["findings"] if f["element"] == "Ba")
-    # 455.4050 - 455.4033 = 0.0017 nm (fixture values, by hand).
-    assert ba["matched_lines"][0]["delta_nm"] == pytest.approx(0.0017, abs=1e-9)
+    ba = next(b for b in c["evidence"] if b["element"] == "Ba")
+    # 455.4050 - 455.4033 = +0.0017 nm (fixture values, by hand).
+    assert ba["lines"][0]["delta"] == "+0.0017"
 
 
 def test_energy_axis_detected():
@@ -97,15 +103,18 @@ def test_energy_axis_detected():
         {
             "element": "Pb",
             "ion": None,
-            "verdict": "present",
+            "family": "L",
+            "verdict": "established",
             "verdict_level": 3,
             "score": 0.9,
             "matched_lines": [
                 {
                     "observed_eV": 10551.0,
-                    "reference_eV": 10551.5,
-                    "delta_eV": -0.5,
-                    "line_id": "La1",
+                    "reference_eV": 10551.4,
+                    "delta_eV": -0.4,
+                    "line_id": "xray:Pb:L3-M5",
+                    "transition": "L3-M5",
+                    "expected_rel": 1.0,
                 }
             ],
         }
@@ -115,18 +124,25 @@ def test_energy_axis_detected():
     kwargs["analysis"]["result"] = res
     c = build_sheet_content(**kwargs)
     assert c["axis"]["unit"] == "eV"
-    assert c["findings"][0]["matched_lines"][0]["observed_eV"] == 10551.0
+    # X-ray wording: family label, energies to 1 eV, no temperature sentence.
+    assert c["summary"][0]["species"] == "Pb L"
+    assert c["summary"][0]["decisive_lines"] == ["Pb L3-M5 10551 eV"]
+    assert c["evidence"][0]["lines"][0]["delta"] == "0"  # -0.4 eV to 1 eV
+    assert c["analysis"]["temperature"] == ""
+    assert not any("thermal equilibrium" in x for x in c["limits"])
 
 
-def test_engine_style_lines_accepted():
-    res = copy.deepcopy(RESULT)
-    res["lines"] = [{"index": 0, "observed_nm": 400.0, "intensity": 5.0, "assigned_to": ["Pb I"]}]
-    kwargs = make_content_kwargs()
-    kwargs["analysis"]["result"] = res
-    c = build_sheet_content(**kwargs)
-    assert c["observed_lines"] == [
-        {"index": 0, "position": 400.0, "intensity": 5.0, "assigned_to": ["Pb I"]}
-    ]
+def test_elements_asked_and_not_found_are_reported():
+    c = build_sheet_content(**make_content_kwargs(elements_asked=["Sb", "Pb"]))
+    # Pb is concluded (fixture level 3), so only Sb is reported as not found.
+    assert [n["element"] for n in c["not_found"]] == ["Sb"]
+    assert "no line of it" in c["not_found"][0]["why"]
+
+
+def test_reviewer_cannot_be_the_analyst():
+    kw = make_content_kwargs()
+    with pytest.raises(InputError, match="reviewer named is the analyst"):
+        build_sheet_content(**kw, reviewer=dict(kw["analyst"]))
 
 
 @pytest.mark.parametrize(

@@ -68,6 +68,7 @@ EVENT_KINDS: tuple[str, ...] = (
     "sub-sampled",
     "analysed",
     "reported",
+    "reviewed",
     "returned",
     "disposed",
     "note",
@@ -75,7 +76,7 @@ EVENT_KINDS: tuple[str, ...] = (
 )
 
 #: Kinds only the store itself writes (with the record they stand for).
-STORE_ONLY_KINDS: frozenset[str] = frozenset({"sub-sampled", "analysed", "reported"})
+STORE_ONLY_KINDS: frozenset[str] = frozenset({"sub-sampled", "analysed", "reported", "reviewed"})
 
 #: Seal states an event can record.
 SEAL_STATES: tuple[str, ...] = ("sealed", "open", "unknown")

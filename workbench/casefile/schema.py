@@ -18,6 +18,9 @@ written before version 3 did not record whether a key was imported).
 Every table is registered with the ledger here (:func:`register_table` with a
 function that names a row); a later migration that adds a table registers it
 the same way.
+
+Migration 4 adds the analyst's decisions and the technical reviews
+(:mod:`workbench.casefile.decisions`), both under the ledger.
 """
 
 from __future__ import annotations
@@ -276,11 +279,51 @@ def _baseline_v3(conn: sqlite3.Connection, now: str) -> None:
     ledger.baseline(conn, now)
 
 
+# Migration 4: the analyst's decisions on an analysis (append-only, hash-chained
+# per analysis) and technical reviews of issued sheets (append-only).
+_DECISIONS_AND_REVIEWS = [
+    """CREATE TABLE analysis_decisions (
+        id INTEGER PRIMARY KEY,
+        analysis_id INTEGER NOT NULL REFERENCES analyses(id),
+        seq INTEGER NOT NULL,
+        action TEXT NOT NULL,
+        target TEXT NOT NULL,
+        lines TEXT NOT NULL,
+        reverses INTEGER,
+        reason TEXT NOT NULL,
+        analyst TEXT NOT NULL,
+        decided_at TEXT NOT NULL,
+        prev_hash TEXT NOT NULL,
+        record_hash TEXT NOT NULL UNIQUE,
+        UNIQUE (analysis_id, seq)
+    )""",
+    """CREATE TABLE sheet_reviews (
+        id INTEGER PRIMARY KEY,
+        sheet_id INTEGER NOT NULL REFERENCES findings_sheets(id),
+        reviewer_fingerprint TEXT NOT NULL REFERENCES analysts(fingerprint),
+        reviewer TEXT NOT NULL,
+        outcome TEXT NOT NULL CHECK (outcome IN ('approved', 'returned')),
+        comments TEXT NOT NULL,
+        signature_sha256 TEXT,
+        record_sha256 TEXT,
+        reviewed_at TEXT NOT NULL,
+        record_hash TEXT NOT NULL UNIQUE
+    )""",
+    *(
+        _no_change(t, a, f"{t} are append-only: {a.lower()} refused")
+        for t in ("analysis_decisions", "sheet_reviews")
+        for a in ("UPDATE", "DELETE")
+    ),
+    "CREATE INDEX decisions_by_analysis ON analysis_decisions (analysis_id, seq)",
+    "CREATE INDEX reviews_by_sheet ON sheet_reviews (sheet_id)",
+]
+
 #: Ordered migrations: ``(version, statements)``; applied in order, never edited.
 MIGRATIONS: tuple[tuple[int, tuple[str, ...]], ...] = (
     (1, tuple(_TABLES)),
     (2, tuple(_TRIGGERS)),
     (3, tuple(_LEDGER_AND_KEYS)),
+    (4, tuple(_DECISIONS_AND_REVIEWS)),
 )
 
 #: Python steps run after a migration's statements, in the same transaction.
@@ -555,6 +598,12 @@ _DESCRIBE: dict[str, Callable[[sqlite3.Connection, dict], str]] = {
     "analysts": lambda c, r: f"analyst {r['name']} key {r['fingerprint']}",
     "findings_sheets": _describe_sheet,
     "key_events": lambda c, r: f"key event #{r['seq']} ({r['kind']} {r['fingerprint']})",
+    "analysis_decisions": lambda c, r: (
+        f"decision #{r['seq']} on analysis {r['analysis_id']} ({r['action']} {r['target']})"
+    ),
+    "sheet_reviews": lambda c, r: (
+        f"technical review of findings sheet {r['sheet_id']} ({r['outcome']} by {r['reviewer']})"
+    ),
 }
 for _table, _fn in _DESCRIBE.items():
     ledger.register_table(_table, _fn)

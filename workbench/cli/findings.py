@@ -1,4 +1,7 @@
-"""``workbench findings``: issue, verify, show and list signed findings sheets.
+"""``workbench findings``: issue, verify, show, list and review signed findings sheets.
+
+The analyst's decisions and the technical review live in
+:mod:`workbench.cli.findings_decisions` (``decide``, ``decisions``, ``review``).
 
 ``verify`` exits 0 when every check passes and 4 when one fails, printing
 which (PDF changed, JSON changed, record malformed or altered, different,
@@ -50,6 +53,17 @@ def register(subparsers: argparse._SubParsersAction) -> None:
         metavar="FILE",
         help="a comparison or materials result saved with --supplement-out (repeatable)",
     )
+    p.add_argument("--question", default="", help="the question the examination answers")
+    p.add_argument(
+        "--ask",
+        action="append",
+        default=[],
+        metavar="ELEMENT",
+        help="an element the question asks about; reported as not found if not concluded",
+    )
+    p.add_argument(
+        "--reviewer", metavar="FINGERPRINT", help="registered key of the designated reviewer"
+    )
     p.add_argument("--issued-at", help="UTC issue time (default now), e.g. 2026-03-14T09:30:00Z")
     p.add_argument("--out", required=True, metavar="DIR", help="folder for the four sheet files")
     _store_option(p)
@@ -62,6 +76,14 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--sig", metavar="SHEET.sig.json", help="signature record (default: beside)")
     p.add_argument(
         "--raw-sig", metavar="SHEET.sig", help="raw signature, also checked (default: beside)"
+    )
+    p.add_argument(
+        "--review-sig",
+        metavar="SHEET.review.sig.json",
+        help="reviewer's signature record, also checked (default: beside, if present)",
+    )
+    p.add_argument(
+        "--reviewer-pubkey", metavar="PEM", help="reviewer's public key file (with --pubkey)"
     )
     who = p.add_mutually_exclusive_group()
     who.add_argument("--pubkey", metavar="PEM", help="signer's public key file")
@@ -83,6 +105,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     _store_option(p)
     p.add_argument("--json", action="store_true", help="print JSON")
     p.set_defaults(func=_list)
+
+    from workbench.cli.findings_decisions import register_into
+
+    register_into(sub)
 
 
 def _read(path: str, what: str) -> bytes:
@@ -151,6 +177,9 @@ def _issue(args: argparse.Namespace) -> int:
             issued_at=args.issued_at,
             out_dir=args.out,
             supplements=supplements,
+            question=args.question,
+            elements_asked=args.ask,
+            reviewer_fingerprint=args.reviewer,
         )
     if args.json:
         _print_json(issued.to_dict())
@@ -165,6 +194,11 @@ def _issue(args: argparse.Namespace) -> int:
         f"    or: openssl pkeyutl -verify -pubin -inkey ANALYST.pub.pem -rawin -in {pdf} "
         f"-sigfile {raw}"
     )
+    stem = issued.paths["pdf"].name[: -len(".pdf")]
+    print(
+        f"review: workbench findings review {issued.sheet_id} --approve --key REVIEWER.key.pem "
+        f"--out {issued.paths['pdf'].parent} --stem {stem}"
+    )
     return 0
 
 
@@ -178,6 +212,8 @@ def _verify(args: argparse.Namespace) -> int:
     import os
 
     from workbench.errors import SignatureInvalidError, SigningError
+    from workbench.findings.decisions import check_sheet_decisions
+    from workbench.findings.review import verify_review, verify_review_with_store
     from workbench.findings.signing import (
         parse_signature_record,
         verify_raw_pdf_signature,
@@ -190,10 +226,28 @@ def _verify(args: argparse.Namespace) -> int:
     record = _read(args.sig or _beside(args.pdf, ".sig.json"), "signature record")
     raw_path = args.raw_sig or _beside(args.pdf, ".sig")
     raw = _read(raw_path, "raw signature") if args.raw_sig or os.path.exists(raw_path) else None
+    review_path = args.review_sig or _beside(args.pdf, ".review.sig.json")
+    review = None
+    review_raw = None
+    if args.review_sig or os.path.exists(review_path):
+        review = _read(review_path, "review signature record")
+        review_raw_path = review_path[: -len(".json")] if review_path.endswith(".json") else ""
+        if review_raw_path and os.path.exists(review_raw_path):
+            review_raw = _read(review_raw_path, "raw review signature")
+    reviewed = None
     try:
         if args.pubkey:
             pem: bytes | None = _read(args.pubkey, "public key")
             result = verify_sheet(pdf, json_bytes, record, pem)
+            if review is not None:
+                rpem = (
+                    _read(args.reviewer_pubkey, "reviewer public key")
+                    if (args.reviewer_pubkey)
+                    else None
+                )
+                reviewed = verify_review(
+                    pdf, json_bytes, record, review, rpem, review_raw=review_raw
+                )
         else:
             from workbench.casefile import CaseStore
             from workbench.casefile.store import DB_NAME, resolve_store_root
@@ -208,7 +262,23 @@ def _verify(args: argparse.Namespace) -> int:
             with CaseStore.open(root) as store:
                 result = verify_sheet_with_store(store, pdf, json_bytes, record)
                 pem = store.get_analyst(result.key_fingerprint).public_key_pem.encode("ascii")
+                problems = check_sheet_decisions(store, json_bytes)
+                if problems:
+                    raise SignatureInvalidError(
+                        f"decision record altered: {problems[0]}",
+                        "the store's decisions no longer match what the sheet reports; "
+                        "restore the store from backup and investigate",
+                    )
+                if review is None:
+                    # No review files beside the PDF: use the approval on record, if any.
+                    review, review_raw = _stored_review(store, pdf)
+                if review is not None:
+                    reviewed = verify_review_with_store(
+                        store, pdf, json_bytes, record, review, review_raw=review_raw
+                    )
         checks = list(result.checks)
+        if reviewed is not None:
+            checks += [f"review: {c}" for c in reviewed.checks]
         if raw is not None:
             if raw != base64.b64decode(parse_signature_record(record)["signature_pdf"]):
                 raise SignatureInvalidError(
@@ -226,13 +296,38 @@ def _verify(args: argparse.Namespace) -> int:
                 print(f"  what to do: {exc.remedy}")
         return exc.exit_code
     if args.json:
-        _print_json({**result.to_dict(), "checks": checks})
+        out = {**result.to_dict(), "checks": checks}
+        out["reviewer"] = reviewed.to_dict() if reviewed is not None else None
+        _print_json(out)
         return 0
     print(f"VALID: signed by {result.signer} with key {result.key_fingerprint}")
+    if reviewed is not None:
+        print(f"  reviewed and countersigned by {reviewed.signer} ({reviewed.key_fingerprint})")
+    else:
+        print("  no technical review signature was given")
     print(f"  signed at {result.signed_at}; PDF SHA-256 {result.pdf_sha256}")
     for c in checks:
         print(f"  ok  {c}")
     return 0
+
+
+def _stored_review(store: object, pdf: bytes) -> tuple[bytes | None, bytes | None]:
+    """The approved review on record for the sheet with these PDF bytes, if any."""
+    import hashlib
+
+    from workbench.casefile.decisions import list_reviews
+
+    digest = hashlib.sha256(pdf).hexdigest()
+    for sheet in store.list_findings_sheets():  # type: ignore[attr-defined]
+        if sheet.pdf_sha256 != digest:
+            continue
+        for r in list_reviews(store, sheet.id):
+            if r.outcome == "approved" and r.record_sha256 and r.signature_sha256:
+                return (
+                    store.file_bytes(r.record_sha256),  # type: ignore[attr-defined]
+                    store.file_bytes(r.signature_sha256),  # type: ignore[attr-defined]
+                )
+    return None, None
 
 
 def _export(store: object, rec: object, out_dir: str) -> dict[str, str]:
@@ -270,7 +365,17 @@ def _export(store: object, rec: object, out_dir: str) -> dict[str, str]:
         raise InputError(f"cannot write to {folder} ({exc})", "choose a writable folder") from exc
     for tmp, final in staged:
         os.replace(tmp, final)
-    return {k: str(v) for k, v in finals.items()}
+    out = {k: str(v) for k, v in finals.items()}
+    from workbench.casefile.decisions import list_reviews
+    from workbench.findings.review import REVIEW_SUFFIXES
+
+    for r in list_reviews(store, rec.id):  # type: ignore[attr-defined]
+        if r.outcome == "approved" and r.record_sha256 and r.signature_sha256:
+            for kind, digest in (("record", r.record_sha256), ("sig", r.signature_sha256)):
+                path = folder / f"{stem}{REVIEW_SUFFIXES[kind]}"
+                path.write_bytes(store.file_bytes(digest))  # type: ignore[attr-defined]
+                out[f"review_{kind}"] = str(path)
+    return out
 
 
 def _show(args: argparse.Namespace) -> int:
@@ -290,6 +395,9 @@ def _show(args: argparse.Namespace) -> int:
             status = {"valid": False, "problem": str(exc)}
         content = json.loads(js)
         files = _export(store, rec, args.export) if args.export else {}
+        from workbench.casefile.decisions import list_reviews
+
+        reviews = [r.to_dict() for r in list_reviews(store, rec.id)]
     findings = [
         {
             "species": f.get("species") or f.get("element"),
@@ -304,6 +412,7 @@ def _show(args: argparse.Namespace) -> int:
                 "sheet": rec.to_dict(),
                 "signature": status,
                 "findings": findings,
+                "reviews": reviews,
                 "files": files,
             }
         )
@@ -316,6 +425,10 @@ def _show(args: argparse.Namespace) -> int:
     print(f"  signature: {verdict}")
     for f in findings:
         print(f"  {f['species']:<8} {f['verdict']}  score {f['score']}")
+    for r in reviews:
+        print(f"  review: {r['outcome']} by {r['reviewer']} at {r['reviewed_at']}: {r['comments']}")
+    if not reviews:
+        print("  review: none yet")
     for kind, path in files.items():
         print(f"  wrote {kind:<7}{path}")
     return 0

@@ -12,6 +12,12 @@ Python's shortest round-trip ``repr``, which is reproducible.
 
 Everything a user typed (names, notes, limitations) is kept as plain text and
 never interpreted as markup by the renderer.
+
+Format 2 (``workbench-findings/2``) holds what the report prints, already in
+words: ``summary`` and ``evidence`` (:mod:`workbench.findings.conclusions`),
+``decisions``, ``method``, ``limits``, ``custody`` rows, ``parameters`` as
+name/value pairs (:mod:`workbench.findings.sections`); the full engine result
+stays in the store, identified by ``analysis.result_sha256``.
 """
 
 from __future__ import annotations
@@ -36,7 +42,7 @@ __all__ = [
 ]
 
 #: Format id written into every sheet's content.
-CONTENT_FORMAT: str = "workbench-findings/1"
+CONTENT_FORMAT: str = "workbench-findings/2"
 
 #: Significant digits kept for every float in the content (enough for 0.0001 nm at 1000 nm).
 SIGNIFICANT_DIGITS: int = 10
@@ -231,47 +237,20 @@ def _pick(src: Mapping[str, Any] | None, keys: Sequence[str]) -> dict[str, Any]:
 
 
 def _finding(el: Mapping[str, Any], unit: str) -> dict[str, Any]:
-    obs, ref, dlt = f"observed_{unit}", f"reference_{unit}", f"delta_{unit}"
-    matched = []
-    for m in el.get("matched_lines") or []:
-        row = _pick(
-            m, (obs, ref, dlt, "expected_rel", "observed_rel", "line_id", "shared", "saturated")
-        )
-        if obs in m and ref in m and dlt not in m:
-            row[dlt] = float(m[obs]) - float(m[ref])
-        matched.append(row)
-    matched.sort(key=lambda r: (float(r.get(ref, 0.0)), str(r.get("line_id", ""))))
-    missing = [_pick(m, (ref, "expected_rel", "line_id")) for m in el.get("missing_lines") or []]
-    missing.sort(key=lambda r: (float(r.get(ref, 0.0)), str(r.get("line_id", ""))))
-    shared = [dict(s) if isinstance(s, Mapping) else s for s in el.get("shared_lines") or []]
+    """One species in the JSON's compact list (the full result stays in the store)."""
     return {
         "species": el.get("species"),
         "element": str(el.get("element", "?")),
-        "ion": el.get("ion"),
         "verdict": str(el.get("verdict", "")),
         "verdict_level": el.get("verdict_level"),
         "score": el.get("score"),
-        "matched_lines": matched,
-        "missing_lines": missing,
-        "shared_lines": shared,
+        "n_matched": len(el.get("matched_lines") or []),
+        "n_missing": len(el.get("missing_lines") or []),
     }
 
 
-def _observed_lines(result: Mapping[str, Any]) -> list[dict[str, Any]]:
-    _, unit = position_keys(result)
-    out = []
-    for ln in result.get("lines") or []:
-        if not isinstance(ln, Mapping):
-            continue
-        # The brief's shape says "position"; the engine writes "observed_<unit>".
-        pos = ln.get("position", ln.get(f"observed_{unit}"))
-        if not isinstance(pos, int | float) or isinstance(pos, bool):
-            continue
-        row = _pick(ln, ("index", "intensity", "assigned_to", "status"))
-        row["position"] = pos
-        out.append(row)
-    out.sort(key=lambda r: (float(r["position"]), r.get("index", 0)))
-    return out
+def _text_or_empty(value: Any) -> str:
+    return "" if value is None else str(value)
 
 
 def build_sheet_content(
@@ -287,6 +266,10 @@ def build_sheet_content(
     limitations: str,
     issued_at: str | datetime,
     supplements: Sequence[Mapping[str, Any]] = (),
+    decisions: Sequence[Mapping[str, Any]] = (),
+    question: str = "",
+    elements_asked: Sequence[str] = (),
+    reviewer: Mapping[str, Any] | None = None,
 ) -> dict[str, Any]:
     """Assemble the canonical content of a findings sheet.
 
@@ -296,11 +279,11 @@ def build_sheet_content(
         The laboratory: ``name`` (required), optionally ``address``,
         ``accreditation``, ``unit``.
     case, item : mapping
-        Case and item records (any keys; at least an identifier is expected).
+        Case and item records (the store's records as dicts).
     custody : sequence of mapping
         Chain-of-custody events of the item, in recorded order.
     measurement : mapping
-        Measurement record: technique, instrument, settings, input file, ...
+        Measurement record: technique, instrument, settings, ...
     analysis : mapping
         Analysis record: ``id``, ``parameters``, ``reference_sets`` and
         ``result`` (the matching engine's result JSON as a dict).
@@ -310,13 +293,20 @@ def build_sheet_content(
         The analyst's free text, kept verbatim.
     issued_at : str or datetime
         Issue time (UTC or with an offset).
-
     supplements : sequence of mapping, optional
-        Further results to report with the analysis, e.g. a questioned-vs-known
-        comparison or a candidate-materials report from :mod:`workbench.compare`:
-        each ``{"kind": str, "title": str, "text": str, "data": mapping}``, with
-        ``text`` the report's plain-text form (printed) and ``data`` its
-        ``to_dict()`` (kept in the JSON).
+        Further results to report, each ``{"kind", "title", "text", "data"}``
+        (``text`` is printed, ``data`` kept in the JSON).
+    decisions : sequence of mapping, optional
+        The analyst's decisions on the analysis, in order
+        (:meth:`workbench.casefile.decisions.DecisionRecord.to_dict`).
+    question : str, optional
+        The question the examination answers, in the requester's terms.
+    elements_asked : sequence of str, optional
+        Elements the question asks about: those not concluded are reported
+        as looked for and not found.
+    reviewer : mapping, optional
+        ``name``, ``role`` and ``fingerprint`` of the technical reviewer who
+        is to countersign the sheet.
 
     Returns
     -------
@@ -327,11 +317,24 @@ def build_sheet_content(
     Raises
     ------
     InputError
-        If the lab has no name, the analysis has no result, or the analyst
-        has no name or fingerprint.
+        If the lab has no name, the analysis has no result, the analyst
+        has no name or fingerprint, or the reviewer is the analyst.
     ValueRangeError
         If a number is NaN or infinite.
     """
+    from workbench.findings.conclusions import build_conclusions
+    from workbench.findings.decisions import effective_calls, with_species
+    from workbench.findings.sections import (
+        custody_rows,
+        decision_rows,
+        item_words,
+        limits,
+        method_paragraph,
+        parameter_rows,
+        plain,
+        temperature_words,
+    )
+
     if not isinstance(lab, Mapping) or not str(lab.get("name") or "").strip():
         raise InputError("the laboratory has no name", "give the lab's name (--lab-name)")
     result = analysis.get("result") if isinstance(analysis, Mapping) else None
@@ -349,59 +352,98 @@ def build_sheet_content(
     for key in ("name", "fingerprint"):
         if not str(analyst.get(key) or "").strip():
             raise InputError(f"the analyst record has no {key}", "register the analyst's key first")
-    axis, unit = position_keys(result)
-    findings = [_finding(el, unit) for el in result.get("elements") or []]
-    # Strongest verdicts first; ties broken by element and ion so that order is fixed.
-    findings.sort(
-        key=lambda f: (
-            -(f["verdict_level"] if isinstance(f["verdict_level"], int | float) else -1),
-            f["element"],
-            f["ion"] if isinstance(f["ion"], int) else 0,
+    if reviewer is not None and reviewer.get("fingerprint") == analyst.get("fingerprint"):
+        raise InputError(
+            "the technical reviewer named is the analyst", "name a second registered analyst"
         )
-    )
-    warnings = [
-        _pick(w, ("kind", "message", "elements", "lines"))
+    result = with_species(result)
+    axis, unit = position_keys(result)
+    decisions = [dict(d) for d in decisions]
+    calls = effective_calls(result, decisions)
+    asked = [str(e).strip() for e in elements_asked if str(e).strip()]
+    concl = build_conclusions(result, calls, unit, asked)
+    shown = {c.element for c in calls}
+    findings = [
+        _finding(el, unit)
+        for el in result.get("elements") or []
+        if isinstance(el, Mapping)
+        and ((el.get("verdict_level") or 0) >= 1 or str(el.get("element")) in shown)
+    ]
+    findings.sort(key=lambda f: (-(f["verdict_level"] or 0), str(f["species"])))
+    overlap = ("unresolved_overlap", "reference_overlap")
+    other_warnings = [
+        str(w.get("message", ""))
         for w in result.get("warnings") or []
         if isinstance(w, Mapping)
+        # overlaps are worded per element; temperature and LTE under the limits
+        and w.get("kind") not in (*overlap, "temperature", "lte")
     ]
     ref_sets = analysis.get("reference_sets") or result.get("reference_sets") or []
     parameters = analysis.get("parameters") or result.get("parameters") or {}
+    inp = result.get("input") or {}
+    calibration = (
+        result.get("calibration") if isinstance(result.get("calibration"), Mapping) else {}
+    )
     analysis_part = {
         "id": analysis.get("id", analysis.get("analysis_id")),
-        "created_at": analysis.get("created_at"),
-        "analysed_by": analysis.get("analyst")
-        if isinstance(analysis.get("analyst"), str)
-        else None,
+        "created_at": _text_or_empty(analysis.get("created_at")),
+        "analysed_by": analysis.get("analyst") if isinstance(analysis.get("analyst"), str) else "",
         "record_hash": analysis.get("record_hash"),
-        "result_sha256": analysis.get("result_sha256"),
-        "software_version": result.get("software_version"),
+        "result_sha256": _text_or_empty(analysis.get("result_sha256")),
+        "software_version": _text_or_empty(result.get("software_version")),
         "schema_version": result.get("schema_version"),
-        "input": result.get("input") or {},
-        "parameters": parameters,
+        "input": {
+            k: inp[k] for k in ("name", "sha256", "size_bytes", "kind", "format") if k in inp
+        },
+        "parameters": parameter_rows(parameters),
         "reference_sets": [
-            _pick(r, ("id", "version", "sha256")) for r in ref_sets if isinstance(r, Mapping)
+            {k: str(r.get(k, "")) for k in ("id", "version", "sha256")}
+            for r in ref_sets
+            if isinstance(r, Mapping)
         ],
-        "calibration": result.get("calibration"),
-        "temperature": result.get("temperature"),
+        "calibration": _text_or_empty(calibration.get("message")),
+        "temperature": temperature_words(result.get("temperature")) if axis == "wavelength" else "",
+    }
+    meas = dict(measurement)
+    measurement_part = {
+        "technique": _text_or_empty(meas.get("technique")),
+        "instrument": _text_or_empty(meas.get("instrument")),
+        "settings": plain(meas.get("settings") or {}),
+        "filename": _text_or_empty(meas.get("filename")),
+        "sha256": _text_or_empty(meas.get("sha256")),
+        "operator": _text_or_empty(meas.get("operator")),
+        "measured_at": _text_or_empty(meas.get("measured_at")),
+    }
+    case_part = {
+        "reference": str(case.get("reference", case.get("case_number", ""))),
+        "title": _text_or_empty(case.get("title")),
+        "requesting_party": _text_or_empty(case.get("requesting_party")),
     }
     content = {
         "format": CONTENT_FORMAT,
         "issued_at": utc_timestamp(issued_at),
         "lab": dict(lab),
-        "case": dict(case),
-        "item": dict(item),
-        "custody": [dict(e) for e in custody],
-        "measurement": dict(measurement),
+        "case": case_part,
+        "item": item_words(item),
+        "custody": custody_rows(custody),
+        "measurement": measurement_part,
         "analysis": analysis_part,
-        "axis": {"kind": axis, "unit": unit, "medium": (result.get("input") or {}).get("medium")},
+        "axis": {"kind": axis, "unit": unit, "medium": inp.get("medium") or ""},
+        "question": _text(question, "question"),
+        "elements_asked": asked,
+        "method": method_paragraph(measurement_part, analysis_part, result, axis, unit),
+        "limits": limits(result, axis, unit),
+        **concl,
         "findings": findings,
-        "observed_lines": _observed_lines(result),
-        "warnings": warnings,
+        "decisions": decision_rows(decisions),
+        "warnings": other_warnings,
         "analyst": _pick(analyst, ("name", "role", "fingerprint")),
         "notes": _text(notes, "notes"),
         "limitations": _text(limitations, "limitations"),
         "cautions": list(CAUTIONS),
     }
+    if reviewer is not None:
+        content["reviewer"] = _pick(reviewer, ("name", "role", "fingerprint"))
     if supplements:
         content["supplements"] = [_supplement(s) for s in supplements]
     return normalise_value(content)

@@ -24,6 +24,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from workbench.casefile.decisions import check_decisions, stored_decisions
 from workbench.errors import InputError, NotFoundError, SigningError, StoreIntegrityError
 from workbench.findings.content import build_sheet_content, canonical_json, utc_timestamp
 from workbench.findings.keys import fingerprint_of, load_private_key
@@ -120,15 +121,15 @@ def gather_sheet_inputs(store: Any, analysis_id: int) -> dict[str, Any]:
     Returns
     -------
     dict
-        Keyword arguments ``case``, ``item``, ``custody``, ``measurement`` and
-        ``analysis`` for :func:`~workbench.findings.content.build_sheet_content`.
+        Keyword arguments ``case``, ``item``, ``custody``, ``measurement``,
+        ``analysis`` and ``decisions`` for :func:`~workbench.findings.content.build_sheet_content`.
 
     Raises
     ------
     NotFoundError
         If the analysis does not exist.
     StoreIntegrityError
-        If the stored result is not JSON.
+        If the stored result is not JSON, or a decision no longer matches its hash.
     """
     a = store.get_analysis(int(analysis_id))
     try:
@@ -144,16 +145,25 @@ def gather_sheet_inputs(store: Any, analysis_id: int) -> dict[str, Any]:
     item = {"reference": f"{a.case_number}/{a.item_number}", **_strip(item)}
     case = _as_dict(store.get_case(a.case_number))
     case = {"reference": a.case_number, **_strip(case)}
-    custody = [_strip(_as_dict(e), keep=("seq",)) for e in store.custody_events(item_rec)]
+    custody = [
+        _strip(_as_dict(e), keep=("seq", "item_number")) for e in store.custody_events(item_rec)
+    ]
     analysis = _strip(_as_dict(a))
     analysis.pop("result_json", None)
     analysis.update(id=a.id, result=result)
+    broken = check_decisions(store, a.id)
+    if broken:
+        raise StoreIntegrityError(
+            f"analysis {a.id}: {broken[0]}",
+            "restore the store from backup; a sheet cannot report altered decisions",
+        )
     return {
         "case": case,
         "item": item,
         "custody": custody,
         "measurement": measurement,
         "analysis": analysis,
+        "decisions": [d.to_dict() for d in stored_decisions(store, a.id)],
     }
 
 
@@ -227,6 +237,9 @@ def draft_sheet_content(
     limitations: str,
     issued_at: str | None = None,
     supplements: Sequence[Mapping[str, Any]] = (),
+    question: str = "",
+    elements_asked: Sequence[str] = (),
+    reviewer_fingerprint: str | None = None,
 ) -> dict[str, Any]:
     """Build the (unsigned) content of a findings sheet for one stored analysis.
 
@@ -252,6 +265,12 @@ def draft_sheet_content(
         Comparison or materials results to print with the analysis
         (``kind``, ``title``, ``text``, ``data``; see
         :func:`~workbench.findings.content.build_sheet_content`).
+    question : str, optional
+        The question the examination answers.
+    elements_asked : sequence of str, optional
+        Elements the question asks about.
+    reviewer_fingerprint : str, optional
+        Registered key of the second analyst who is to review and countersign.
 
     Returns
     -------
@@ -261,11 +280,21 @@ def draft_sheet_content(
     Raises
     ------
     SigningError
-        If the analyst's key is not registered.
+        If the analyst's or reviewer's key is not registered, or the reviewer
+        is the analyst.
     NotFoundError
         If the analysis does not exist.
     """
     analyst = _registered_analyst(store, analyst_fingerprint)
+    reviewer = None
+    if reviewer_fingerprint:
+        r = _registered_analyst(store, reviewer_fingerprint)
+        if r.fingerprint == analyst.fingerprint or r.name == analyst.name:
+            raise SigningError(
+                f"{r.name} cannot review their own analysis",
+                "name a second registered analyst as reviewer",
+            )
+        reviewer = {"name": r.name, "role": r.role, "fingerprint": r.fingerprint}
     inputs = gather_sheet_inputs(store, analysis_id)
     return build_sheet_content(
         lab=lab,
@@ -274,6 +303,9 @@ def draft_sheet_content(
         limitations=limitations,
         issued_at=utc_timestamp(issued_at),
         supplements=supplements,
+        question=question,
+        elements_asked=elements_asked,
+        reviewer=reviewer,
         **inputs,
     )
 
@@ -321,9 +353,6 @@ def sign_and_store_sheet(
     out_dir : path-like, optional
         Folder to write ``<stem>.pdf``, ``.json``, ``.sig`` and ``.sig.json`` into.
 
-    supplements : sequence of mapping, optional
-        Comparison or materials results to print with the analysis.
-
     Returns
     -------
     IssuedSheet
@@ -332,7 +361,8 @@ def sign_and_store_sheet(
     Raises
     ------
     InputError
-        If the content is not for this analysis or lacks a section.
+        If the content is not for this analysis, lacks a section, or reports
+        other decisions than those now on record.
     SigningError
         If the analyst is unknown or revoked, or the key is not the registered one.
     KeyFileError
@@ -352,6 +382,13 @@ def sign_and_store_sheet(
             f"the sheet content for analysis {stored.id} does not carry the stored record's "
             "hash (it was drafted from other data)",
             "draft the sheet again from the store",
+        )
+    stored_hashes = [d.record_hash for d in stored_decisions(store, stored.id)]
+    drafted = [d.get("record_hash") for d in content.get("decisions") or []]
+    if drafted != stored_hashes:
+        raise InputError(
+            f"the decisions on analysis {stored.id} changed after the sheet was drafted",
+            "draft the sheet again so that it reports the decisions now on record",
         )
     analyst = _registered_analyst(store, str(named.get("fingerprint") or ""))
     if named.get("name") != analyst.name:
@@ -443,6 +480,9 @@ def issue_findings_sheet(
     issued_at: str | None = None,
     out_dir: str | os.PathLike[str] | None = None,
     supplements: Sequence[Mapping[str, Any]] = (),
+    question: str = "",
+    elements_asked: Sequence[str] = (),
+    reviewer_fingerprint: str | None = None,
 ) -> IssuedSheet:
     """Build, render, sign and store a findings sheet for one analysis.
 
@@ -468,6 +508,8 @@ def issue_findings_sheet(
         UTC issue time; now when omitted.
     out_dir : path-like, optional
         Folder to write ``<stem>.pdf``, ``.json``, ``.sig`` and ``.sig.json`` into.
+    supplements, question, elements_asked, reviewer_fingerprint : optional
+        As :func:`draft_sheet_content`.
 
     Returns
     -------
@@ -490,6 +532,9 @@ def issue_findings_sheet(
         limitations=limitations,
         issued_at=issued_at,
         supplements=supplements,
+        question=question,
+        elements_asked=elements_asked,
+        reviewer_fingerprint=reviewer_fingerprint,
     )
     return sign_and_store_sheet(
         store,
