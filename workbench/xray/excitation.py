@@ -80,7 +80,7 @@ def edge_energy_eV(element: str, shell: str) -> float:
 def excitable(
     element: np.ndarray | list[str], initial_level: np.ndarray | list[str], instrument: Instrument
 ) -> np.ndarray:
-    """Per line: is the edge of its initial level below the tube voltage?
+    """Per line, whether the edge of its initial level lies below the tube voltage.
 
     ``initial_level`` is the IUPAC initial level of each line (``"K"``,
     ``"L3"``, ``"M5"``); unknown levels count as excitable.
@@ -111,7 +111,7 @@ def path_transmission(energy_eV: np.ndarray | float, instrument: Instrument) -> 
 
 
 def measurable(energy_eV: np.ndarray | float, instrument: Instrument) -> np.ndarray:
-    """Per line energy: do path and detector pass ≥ :data:`MIN_MEASURABLE_TRANSMISSION`?"""
+    """Per line energy, whether path and detector pass ≥ :data:`MIN_MEASURABLE_TRANSMISSION`."""
     e = np.atleast_1d(np.asarray(energy_eV, dtype=np.float64))
     t = path_transmission(e, instrument) * detector_efficiency(e, instrument)
     return t >= MIN_MEASURABLE_TRANSMISSION

@@ -55,7 +55,7 @@ class XrayPreparation:
     def reference_mask(
         self, element: np.ndarray, transition: np.ndarray, energy_eV: np.ndarray
     ) -> np.ndarray:
-        """Per reference line: can it be excited and measured with this instrument?
+        """Per reference line, whether this instrument can excite and measure it.
 
         Parameters
         ----------

@@ -30,7 +30,7 @@ import numpy as np
 
 from workbench.xray.instrument import Instrument
 
-__all__ = ["TubeLine", "tube_continuum", "tube_lines", "transmission"]
+__all__ = ["TubeLine", "transmission", "tube_continuum", "tube_lines"]
 
 _KRAMERS_K = 13.0
 _CHAR_A = 1.3e4 * _KRAMERS_K
