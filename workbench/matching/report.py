@@ -182,6 +182,8 @@ def build_report(result: MatchResult) -> dict[str, Any]:
     xray = dict(result.xray) if result.xray else None
     if xray is not None:  # X-ray physics (workbench.xray): artefacts, instrument, exclusions
         warnings.extend(xray.pop("warnings", []))
+        # No plasma temperature or LTE on an X-ray energy axis.
+        warnings = [w for w in warnings if w["kind"] not in ("temperature", "lte")]
     warnings.sort(key=lambda w: (str(w["kind"]), str(w["message"])))
 
     levels = {

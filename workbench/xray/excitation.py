@@ -48,9 +48,9 @@ AIR_DENSITY_G_CM3 = 1.205e-3
 HELIUM_DENSITY_G_CM3 = 1.66e-4
 
 #: A line is measurable when path × detector pass at least this fraction
-#: (common practice, no source: below ~5 % a trace of the element is lost in
+#: (common practice, no source: below ~10 % a trace of the element is lost in
 #: the low-energy noise of a handheld unit).
-MIN_MEASURABLE_TRANSMISSION: float = 0.05
+MIN_MEASURABLE_TRANSMISSION: float = 0.1
 
 #: Multiplicative 1σ uncertainty of a predicted family ratio of one element
 #: (K/L, L/M) for an unknown matrix: absorption of the lower-energy family in
@@ -98,11 +98,11 @@ def excitable(
 
 
 def path_transmission(energy_eV: np.ndarray | float, instrument: Instrument) -> np.ndarray:
-    """Transmission of the beam path (sample to detector half of ``air_path_mm``)."""
+    """Transmission of the atmosphere over ``air_path_mm`` (sample to detector)."""
     from workbench.xray.tube import transmission
 
     e = np.atleast_1d(np.asarray(energy_eV, dtype=np.float64))
-    half_cm = 0.05 * instrument.air_path_mm
+    half_cm = 0.1 * instrument.air_path_mm
     if instrument.atmosphere == "air":
         return transmission(AIR_COMPOSITION, AIR_DENSITY_G_CM3, half_cm, e)
     if instrument.atmosphere == "helium":

@@ -316,7 +316,7 @@ def forward_model(
     if instrument.atmosphere == "air" and instrument.air_path_mm > 0:
         # Ar K from the air in front of the detector: a thin film excited by the primary beam.
         lines, cs = _fluor_cs("Ar", e_in)
-        rho_t = AIR_DENSITY_G_CM3 * 0.05 * instrument.air_path_mm * AIR_COMPOSITION["Ar"]
+        rho_t = AIR_DENSITY_G_CM3 * 0.1 * instrument.air_path_mm * AIR_COMPOSITION["Ar"]
         for k, (name, energy) in enumerate(lines):
             rate = np.sum(n_in * cs[k]) * rho_t * SOLID_ANGLE_SR / (4 * np.pi)
             if rate > 0:

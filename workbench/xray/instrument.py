@@ -90,7 +90,8 @@ class Instrument:
     atmosphere : {"air", "helium", "vacuum"}
         Beam path; air adds Ar K lines and hides light elements.
     air_path_mm : float
-        Total path in the atmosphere (tube to sample plus sample to detector).
+        Path in the atmosphere from sample to detector (the tube side is
+        taken as equal in the forward model).
     incidence_deg, takeoff_deg : float
         Angles of the primary and fluorescent beams to the sample surface.
     scatter_angle_deg : float or None

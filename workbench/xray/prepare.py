@@ -145,12 +145,21 @@ def _not_significant(
     sig = np.full(x.size, np.nan)
     drop = np.zeros(x.size, dtype=bool)
     extra = peaks.extra if isinstance(peaks.extra, dict) else {}
+    w_obs = (
+        peaks.table[FWHM_COLUMN["energy"]].cast(pl.Float64).fill_null(np.nan).to_numpy()
+        if FWHM_COLUMN["energy"] in peaks.table.columns
+        else np.full(x.size, np.nan)
+    )
+    # No real peak is narrower than the detector response: a maximum under
+    # half the detector FWHM wide is a noise spike.
+    drop |= np.isfinite(w_obs) & (w_obs < 0.5 * fwhm)
+    width = np.where(np.isfinite(w_obs) & (w_obs > 0), np.minimum(w_obs, 2.0 * fwhm), fwhm)
     base, xr = extra.get("baseline"), extra.get("x_range")
     if base is not None and xr is not None and np.size(base) > 1 and np.min(base) >= 0:
         grid = np.linspace(float(xr[0]), float(xr[1]), np.size(base))
         b = np.interp(x, grid, np.asarray(base, dtype=np.float64))
-        n = 0.98 * 1.0645 * np.clip(np.nan_to_num(inten), 0.0, None) * fwhm / channel
-        bg = b * 2.0 * fwhm / channel
+        n = 0.98 * 1.0645 * np.clip(np.nan_to_num(inten), 0.0, None) * width / channel
+        bg = b * 2.0 * width / channel
         with np.errstate(divide="ignore", invalid="ignore"):
             sig = np.where(n + bg > 0, n / np.sqrt(n + 2.0 * bg), 0.0)
         drop |= sig < MIN_COUNTING_SIGMA
