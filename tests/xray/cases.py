@@ -6,9 +6,11 @@ source): they exercise the X-ray physics, not any real object.
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import replace
 
 import numpy as np
+from scipy.signal._peak_finding_utils import PeakPropertyWarning
 
 from workbench.datamodel import Spectrum
 from workbench.matching import MatchParameters, match_peaks
@@ -79,7 +81,11 @@ def run_case(name: str, fwhm: float, seed: int) -> tuple[ForwardSpectrum, dict]:
     fs = forward_model(CASES[name], inst, rng=np.random.default_rng(seed))
     keep = fs.energy_eV >= 1000.0  # below ~1 keV a handheld unit shows only noise
     spec = Spectrum(fs.energy_eV[keep], fs.counts[keep], "energy", None)
-    peaks = find_peaks(spec)
+    with warnings.catch_warnings():
+        # scipy warns "some peaks have a width of 0" on single-channel Poisson
+        # spikes (a peaks-module issue reported to the lead); not an XRF matter.
+        warnings.simplefilter("ignore", PeakPropertyWarning)
+        peaks = find_peaks(spec)
     peaks.extra.setdefault("x_range", (float(spec.x[0]), float(spec.x[-1])))
     rep = match_peaks(peaks, [load_set("xray")], MatchParameters(instrument=inst)).report()
     return fs, rep

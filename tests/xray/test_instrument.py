@@ -7,7 +7,12 @@ import json
 import pytest
 
 from workbench.errors import FileFormatError, InputError, ValueRangeError
-from workbench.xray.instrument import DEFAULT_INSTRUMENT, Instrument, load_instrument, save_instrument
+from workbench.xray.instrument import (
+    DEFAULT_INSTRUMENT,
+    Instrument,
+    load_instrument,
+    save_instrument,
+)
 
 
 def test_round_trip(tmp_path):
