@@ -337,7 +337,9 @@ def match_peaks(
 
         ref_species = np.asarray(index.species_names, dtype=object)[index.species]
         peaks, xray = prepare_energy_peaks(
-            peaks, params.instrument, (ref_species, index.position, index.rel_intensity)
+            peaks,
+            params.instrument,
+            (ref_species, index.position, index.rel_intensity * index.subshell_weight),
         )
     obs = _observed(peaks, params)
     x_range = peaks.extra.get("x_range") if isinstance(peaks.extra, dict) else None

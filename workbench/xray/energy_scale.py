@@ -19,9 +19,9 @@ import numpy as np
 
 __all__ = ["MIN_SIGNIFICANT_EV", "EnergyScale", "fit_energy_scale"]
 
-#: Corrections smaller than this are never applied (a tenth of a typical
+#: Corrections smaller than this are never applied (some 15 % of a typical
 #: detector FWHM; common practice, no source).
-MIN_SIGNIFICANT_EV: float = 10.0
+MIN_SIGNIFICANT_EV: float = 20.0
 
 
 @dataclass(frozen=True)

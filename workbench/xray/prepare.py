@@ -79,8 +79,9 @@ class XrayPreparation:
         el = np.asarray(element, dtype=object)
         self.not_excited = sorted({f"{e} {f}" for e, f in zip(el[~exc], fam[~exc], strict=True)})
         lost = ~mea & exc
-        # A family is "not measurable" when none of its lines is measurable.
-        fams = {f"{e} {f}" for e, f in zip(el, fam, strict=True)}
+        # A K family none of whose lines is measurable: the light elements
+        # (an L or M family of a heavier element is measured by its K or L lines).
+        fams = {f"{e} {f}" for e, f in zip(el, fam, strict=True) if f == "K"}
         ok = {f"{e} {f}" for e, f in zip(el[mea & exc], fam[mea & exc], strict=True)}
         self.not_measurable = sorted(
             {f"{e} {f}" for e, f in zip(el[lost], fam[lost], strict=True)} & (fams - ok)
@@ -181,17 +182,23 @@ def _scale_pairs(
     """Strong peaks explained by exactly one confirmed line family.
 
     A family (``"Fe K"``) is a candidate for a peak with SNR ≥ 30 when one of
-    its main lines (relative intensity ≥ 0.5) lies within half the FWHM, and
+    its main lines (≥ 0.5 of the family's strongest) lies within half the FWHM, and
     is *confirmed* when its strongest line lying more than a FWHM away has
-    an observed peak within half a FWHM (Kβ for Kα, Lβ for Lα). A peak with
-    one confirmed family gives a pair: the peak's centre and the intensity-
-    weighted centroid of that family's lines within half a FWHM (the blend
-    the peak really is).
+    an observed peak within half a FWHM (Kβ for Kα, Lβ for Lα). Each
+    confirmed family gives a candidate pair: the peak's centre and where
+    the blend of that family's lines peaks at this resolution; :func:`_consistent` keeps the pairs one
+    scale explains.
     """
     if ref is None:
         return np.empty(0), np.empty(0), np.empty(0), ()
     r_sp, r_e, r_rel = ref
-    r_rel = np.nan_to_num(r_rel)
+    # Relative intensities are fractions of each initial level's emission;
+    # put them on a scale where each family's strongest line is 1.
+    r_rel = np.nan_to_num(np.asarray(r_rel, dtype=np.float64))
+    names, inv = np.unique(np.asarray(r_sp, dtype=str), return_inverse=True)
+    top = np.zeros(names.size)
+    np.maximum.at(top, inv, r_rel)
+    r_rel = np.where(top[inv] > 0, r_rel / top[inv], 0.0)
     obs, refs, sig, names = [], [], [], []
     for p in np.flatnonzero(np.nan_to_num(snr) >= 30.0):
         half = 0.5 * fwhm[p]
@@ -205,16 +212,72 @@ def _scale_pairs(
             e_other = r_e[far][np.argmax(r_rel[far])]
             if np.min(np.abs(x - e_other)) <= 0.5 * float(np.interp(e_other, x, fwhm)):
                 confirmed.append(sp)
-        if len(confirmed) != 1:
-            continue
-        grp = (r_sp == confirmed[0]) & (np.abs(r_e - x[p]) <= half) & (r_rel >= 0.05)
-        centroid = float(np.sum(r_e[grp] * r_rel[grp]) / np.sum(r_rel[grp]))
-        n_counts = max(float(snr[p]) ** 2, 1.0)
-        obs.append(x[p])
-        refs.append(centroid)
-        sig.append(np.hypot(fwhm[p] / (2.355 * np.sqrt(n_counts)), 2.0))
-        names.append(f"{confirmed[0]} {centroid:.0f} eV")
-    return np.array(obs), np.array(refs), np.array(sig), tuple(names)
+        sigma = fwhm[p] / 2.3548
+        for fam in confirmed:
+            # Where the blend of this family's lines peaks: start at its main
+            # line and shift to the Gaussian-weighted mean of its lines
+            # (mean shift; converges to the blend's maximum in a few steps).
+            mine = (r_sp == fam) & (np.abs(r_e - x[p]) <= 2.0 * fwhm[p]) & (r_rel >= 0.01)
+            main = mine & (r_rel >= 0.5) & (np.abs(r_e - x[p]) <= half)
+            centroid = float(r_e[main][np.argmax(r_rel[main])])
+            for _ in range(10):
+                wgt = r_rel[mine] * np.exp(-0.5 * ((r_e[mine] - centroid) / sigma) ** 2)
+                centroid = float(np.sum(wgt * r_e[mine]) / np.sum(wgt))
+            n_counts = max(float(snr[p]) ** 2, 1.0)
+            obs.append(x[p])
+            refs.append(centroid)
+            sig.append(np.hypot(fwhm[p] / (2.355 * np.sqrt(n_counts)), 2.0))
+            names.append(f"{fam} {centroid:.0f} eV")
+    return _consistent(np.array(obs), np.array(refs), np.array(sig), names)
+
+
+def _consistent(
+    o: np.ndarray, r: np.ndarray, s: np.ndarray, names: list[str]
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, tuple[str, ...]]:
+    """The largest set of pairs that one offset-and-gain line explains.
+
+    Every pair of candidate pairs (and every single pair, for an offset only)
+    proposes a scale; the proposal explaining the most pairs within
+    max(3σ, 20 eV; unresolved blends shift centroids by ~10 eV) wins (ties: the smaller summed residual), if it explains
+    at least two more peaks than the unchanged scale. Only its inliers
+    are kept, one per observed peak, and only when they are at least three
+    on at least two different peaks: a single coincidence must not move the
+    whole spectrum.
+    """
+    n = o.size
+    if n < 3:
+        return np.empty(0), np.empty(0), np.empty(0), ()
+    tol = np.maximum(3.0 * s, 20.0)
+    best: tuple[int, float, np.ndarray] | None = None
+    models = [(0.0, 1.0)] + [(float(r[i] - o[i]), 1.0) for i in range(n)]
+    for i in range(n):
+        for j in range(i + 1, n):
+            if abs(o[i] - o[j]) >= 1000.0:
+                g = (r[i] - r[j]) / (o[i] - o[j])
+                if 0.98 <= g <= 1.02:
+                    models.append((float(r[i] - g * o[i]), float(g)))
+    null: tuple[int, float, np.ndarray] | None = None
+    for off, g in models:
+        res = np.abs(r - (off + g * o))
+        inl = res <= tol
+        key = (int(np.unique(o[inl]).size), -float(np.sum(res[inl])))
+        if null is None:
+            null = (key[0], key[1], inl)  # the calibrated scale (offset 0, gain 1)
+        if best is None or key > (best[0], best[1]):
+            best = (key[0], key[1], inl)
+    assert best is not None and null is not None
+    # Occam: the instrument's own calibration stands unless another scale
+    # explains at least two more peaks (chance alignments explain one).
+    inl = best[2] if best[0] >= null[0] + 2 else null[2]
+    # One pair per observed peak: the one closest to the winning line.
+    keep = []
+    for peak in np.unique(o[inl]):
+        cand = np.flatnonzero(inl & (o == peak))
+        keep.append(int(cand[0]))
+    keep_a = np.array(keep, dtype=int)
+    if keep_a.size < 3:
+        return np.empty(0), np.empty(0), np.empty(0), ()
+    return o[keep_a], r[keep_a], s[keep_a], tuple(names[k] for k in keep_a)
 
 
 def prepare_energy_peaks(
@@ -267,17 +330,27 @@ def prepare_energy_peaks(
     with np.errstate(divide="ignore", invalid="ignore"):
         snr = np.where(np.isfinite(weak[1]), weak[1], snr)
         noise = np.where(np.isfinite(snr) & (snr > 0), inten / snr, np.nan)
-    # Energy scale first: artefact energies are then compared on the true scale.
-    o, r, s, names = _scale_pairs(x, snr, w_det, reference)
+    dl = float(np.nanmedian(noise)) if np.any(np.isfinite(noise)) else 0.0
+    real_i = np.where(weak[0], 0.0, inten)  # noise maxima cause no artefacts
+
+    def artefacts_at(pos: np.ndarray) -> tuple[list, pl.DataFrame]:
+        a = predict_artefacts(
+            pos, real_i, inst, fwhm_obs_eV=w_obs, channel_eV=channel, min_intensity=dl
+        )
+        return a, label_peaks(pos, inten, noise, a)
+
+    arts, labels = artefacts_at(x)
+    # Energy scale from element lines only: artefact peaks (a Compton peak is
+    # broad and shifted) and noise maxima are left out of the pairs.
+    usable = ~weak[0]
+    usable[labels["peak"].to_numpy()] = False
+    snr_use = np.where(usable, snr, np.nan)
+    o, r, s, names = _scale_pairs(x, snr_use, w_det, reference)
     scale = fit_energy_scale(o, r, s, names)
     if scale.significant:
         x = scale.correct(x)
         scale = EnergyScale(**{**scale.__dict__, "applied": True})
-    dl = float(np.nanmedian(noise)) if np.any(np.isfinite(noise)) else 0.0
-    arts = predict_artefacts(
-        x, inten, inst, fwhm_obs_eV=w_obs, channel_eV=channel, min_intensity=dl
-    )
-    labels = label_peaks(x, inten, noise, arts)
+        arts, labels = artefacts_at(x)
     drop = weak[0].copy()
     new_i = np.array(inten, dtype=np.float64, copy=True)
     for row in labels.iter_rows(named=True):
