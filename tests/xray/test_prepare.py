@@ -83,7 +83,7 @@ def test_only_artefacts_is_one_clear_error():
 
 
 def test_reference_mask_drops_unexcitable_and_unmeasurable():
-    out, prep = prepare_energy_peaks(
+    _, prep = prepare_energy_peaks(
         PeakList(pl.DataFrame({"energy_eV": [6403.8], "intensity": [1.0]}), "energy", None), None
     )
     # Pb K-L3 74969 eV (edge 88 keV > 40 kV), Pb L3-M5 10551 eV, Mg K-L3 1254 eV

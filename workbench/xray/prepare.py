@@ -186,8 +186,8 @@ def _scale_pairs(
     is *confirmed* when its strongest line lying more than a FWHM away has
     an observed peak within half a FWHM (Kβ for Kα, Lβ for Lα). Each
     confirmed family gives a candidate pair: the peak's centre and where
-    the blend of that family's lines peaks at this resolution; :func:`_consistent` keeps the pairs one
-    scale explains.
+    the blend of that family's lines peaks at this resolution;
+    :func:`_consistent` keeps the pairs one scale explains.
     """
     if ref is None:
         return np.empty(0), np.empty(0), np.empty(0), ()
@@ -238,8 +238,9 @@ def _consistent(
 
     Every pair of candidate pairs (and every single pair, for an offset only)
     proposes a scale; the proposal explaining the most pairs within
-    max(3σ, 20 eV; unresolved blends shift centroids by ~10 eV) wins (ties: the smaller summed residual), if it explains
-    at least two more peaks than the unchanged scale. Only its inliers
+    max(3σ, 20 eV; unresolved blends shift centroids by 10–20 eV) wins
+    (ties: the smaller summed residual), if it explains at least two more
+    peaks than the unchanged scale. Only its inliers
     are kept, one per observed peak, and only when they are at least three
     on at least two different peaks: a single coincidence must not move the
     whole spectrum.
