@@ -182,8 +182,18 @@ def build_report(result: MatchResult) -> dict[str, Any]:
     xray = dict(result.xray) if result.xray else None
     if xray is not None:  # X-ray physics (workbench.xray): artefacts, instrument, exclusions
         warnings.extend(xray.pop("warnings", []))
-        # No plasma temperature or LTE on an X-ray energy axis.
-        warnings = [w for w in warnings if w["kind"] not in ("temperature", "lte")]
+        # No plasma temperature or LTE on an X-ray energy axis; overlaps in eV
+        # of detector resolution, energies to 1 eV.
+        from workbench.xray import Instrument
+        from workbench.xray.detector import fwhm_eV
+        from workbench.xray.wording import xrf_message
+
+        inst = Instrument.from_dict(xray["instrument"])
+        warnings = [
+            w | {"message": xrf_message(str(w["message"]), lambda e: fwhm_eV(e, inst))}
+            for w in warnings
+            if w["kind"] not in ("temperature", "lte")
+        ]
     warnings.sort(key=lambda w: (str(w["kind"]), str(w["message"])))
 
     levels = {

@@ -8,6 +8,8 @@ no temperature or LTE wording on an energy axis.
 
 from __future__ import annotations
 
+import math
+import re
 from typing import Any
 
 __all__ = [
@@ -16,6 +18,7 @@ __all__ = [
     "format_energy_eV",
     "instrument_line",
     "overlap_text",
+    "xrf_message",
 ]
 
 _KIND_WORDS = {
@@ -31,7 +34,7 @@ def format_energy_eV(energy_eV: float | None) -> str:
     """An energy to 1 eV with its unit (``"10551 eV"``); ``"–"`` when missing."""
     if energy_eV is None or energy_eV != energy_eV:
         return "–"
-    return f"{energy_eV:.0f} eV"
+    return f"{math.floor(energy_eV + 0.5)} eV"
 
 
 def family_label(element: str, family: str | None) -> str:
@@ -46,7 +49,8 @@ def overlap_text(separation_eV: float, fwhm_eV: float) -> str:
     """
     state = "unresolved" if abs(separation_eV) < fwhm_eV else "resolved"
     return (
-        f"{abs(separation_eV):.0f} eV apart; {state} at this detector (FWHM {fwhm_eV:.0f} eV here)"
+        f"{abs(separation_eV):.0f} eV apart; {state} at this detector, "
+        f"whose FWHM is {fwhm_eV:.0f} eV here"
     )
 
 
@@ -68,3 +72,36 @@ def artefact_lines(xray: dict[str, Any]) -> list[str]:
         note = "" if a["explained"] else " — exceeds the prediction; the excess is kept as evidence"
         out.append(f"  {format_energy_eV(a['observed_eV']):>9}  {kinds}: {a['origin']}{note}")
     return out
+
+
+_SEPARATION = re.compile(r"separation ([0-9.]+) eV; separating them needs R ≥ [0-9,]+")
+_DECIMAL_EV = re.compile(r"(?<![0-9.])([0-9]{3,6})\.[0-9]+(?=( eV|,| and| [A-Z]| \())")
+
+
+def xrf_message(message: str, fwhm_at: Any) -> str:
+    """Rewrite an engine message in XRF terms.
+
+    Overlaps become "N eV apart; resolved/unresolved at this detector, whose
+    FWHM is M eV here" instead of a resolving power, and energies are shown to 1 eV.
+
+    Parameters
+    ----------
+    message : str
+        The message as the engine wrote it.
+    fwhm_at : callable
+        Detector FWHM (eV) at an energy (eV), e.g.
+        ``lambda e: float(fwhm_eV(e, instrument))``.
+
+    Returns
+    -------
+    str
+    """
+    energies = [float(m.group(1)) for m in _DECIMAL_EV.finditer(message)]
+    at = energies[0] if energies else 6000.0
+
+    def _sep(m: re.Match[str]) -> str:
+        return overlap_text(float(m.group(1)), float(fwhm_at(at)))
+
+    text = _SEPARATION.sub(_sep, message)
+    # Half-up rounding (4466.5 → 4467), as tables print.
+    return _DECIMAL_EV.sub(lambda m: str(math.floor(float(m.group(0)) + 0.5)), text)
