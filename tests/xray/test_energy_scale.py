@@ -20,9 +20,9 @@ def test_recovers_offset_and_gain():
 def test_small_error_not_significant():
     ref = np.array([3691.7, 10551.2])
     s = fit_energy_scale(ref + np.array([1.0, -1.5]), ref, np.full(2, 3.0))
-    assert not s.significant  # below 10 eV and 3σ (module rule)
+    assert not s.significant  # below 20 eV and 3σ (module rule)
 
 
 def test_single_pair_fits_offset_only():
-    s = fit_energy_scale(np.array([6384.0]), np.array([6404.0]), np.array([2.0]))
-    assert (s.offset_eV, s.gain, s.significant) == (pytest.approx(20.0), 1.0, True)
+    s = fit_energy_scale(np.array([6379.0]), np.array([6404.0]), np.array([2.0]))
+    assert (s.offset_eV, s.gain, s.significant) == (pytest.approx(25.0), 1.0, True)

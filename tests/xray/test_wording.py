@@ -5,6 +5,7 @@ from __future__ import annotations
 import pytest
 
 from workbench.xray.wording import (
+    artefact_kind_label,
     artefact_lines,
     family_label,
     format_energy_eV,
@@ -68,4 +69,8 @@ def test_instrument_and_artefact_lines():
         "instrument Rh tube 40 kV, Si detector 140 eV at Mn Kα, air path (assumed default)"
     )
     lines = artefact_lines(xray)
-    assert lines[1].strip() == "8811 eV  escape peak: Si Kα escape of the 10551 eV peak"
+    assert lines[1].strip() == "8811 eV  Si Kα escape of the 10551 eV peak"
+
+
+def test_artefact_kind_label():
+    assert artefact_kind_label("compton,sum") == "tube scatter (Compton), sum (pile-up) peak"

@@ -86,6 +86,7 @@ class Artefact:
     origin: str
     fwhm_eV: float
     parents: tuple[int, ...] = ()
+    source: str = ""  # the tube or argon line, e.g. "Rh Kα1" (scatter, air)
 
 
 def predict_artefacts(
@@ -144,8 +145,9 @@ def predict_artefacts(
                 "rayleigh",
                 tl.energy_eV,
                 None,
-                f"{tl.element} {tl.line} of the tube, scattered (Rayleigh)",
+                f"{tl.element} {tl.line} from the tube, scattered by the sample (Rayleigh)",
                 f,
+                source=f"{tl.element} {tl.line}",
             )
         )
         e_c = xraylib.ComptonEnergy(tl.energy_eV / 1000.0, theta) * 1000.0
@@ -155,9 +157,10 @@ def predict_artefacts(
                     "compton",
                     e_c,
                     None,
-                    f"{tl.element} {tl.line} of the tube, Compton-scattered "
+                    f"{tl.element} {tl.line} from the tube, Compton-scattered "
                     f"at {np.degrees(theta):.0f}°",
                     float(np.hypot(fwhm_eV(e_c, instrument), _DOPPLER_FRACTION * e_c)),
+                    source=f"{tl.element} {tl.line}",
                 )
             )
     if instrument.atmosphere == "air" and instrument.air_path_mm > 0:
@@ -169,6 +172,7 @@ def predict_artefacts(
                     None,
                     f"Ar {name} from argon in the air path",
                     float(fwhm_eV(e, instrument)),
+                    source=f"Ar {name}",
                 )
             )
     # Escape peaks of every observed peak.
@@ -281,7 +285,7 @@ def label_peaks(
                 "observed_eV": float(x[p]),
                 "intensity": float(inten[p]),
                 "kinds": ",".join(kinds),
-                "origin": "; ".join(dict.fromkeys(a.origin for a in hits)),
+                "origin": _origin_text(hits),
                 "predicted_intensity": None if unpredictable else float(pred),
                 "explained": explained,
                 "residual_intensity": 0.0 if explained else float(inten[p] - pred),
@@ -298,6 +302,22 @@ def label_peaks(
         "residual_intensity": pl.Float64,
     }
     return pl.DataFrame(rows, schema=schema)
+
+
+def _origin_text(hits: list[Artefact]) -> str:
+    """One plain sentence per kind: scattered tube lines of one kind are merged."""
+    parts: list[str] = []
+    for kind in ("rayleigh", "compton", "air"):
+        srcs = [a.source for a in hits if a.kind == kind and a.source]
+        if not srcs:
+            continue
+        el = srcs[0].split()[0]
+        names = "/".join(dict.fromkeys(s.split()[1] for s in srcs))
+        first = next(a for a in hits if a.kind == kind)
+        rest = first.origin.split(" ", 2)[2]  # "from the tube, …" / "from argon …"
+        parts.append(f"{el} {names} {rest}")
+    parts.extend(dict.fromkeys(a.origin for a in hits if a.kind in ("escape", "sum")))
+    return "; ".join(parts)
 
 
 def artefact_table(artefacts: list[Artefact]) -> pl.DataFrame:

@@ -13,6 +13,7 @@ import re
 from typing import Any
 
 __all__ = [
+    "artefact_kind_label",
     "artefact_lines",
     "family_label",
     "format_energy_eV",
@@ -28,6 +29,14 @@ _KIND_WORDS = {
     "sum": "sum (pile-up) peak",
     "air": "argon in air",
 }
+
+
+def artefact_kind_label(kinds: str) -> str:
+    """Words for an artefact's ``kinds`` field.
+
+    ``"compton,sum"`` → ``"tube scatter (Compton), sum (pile-up) peak"``.
+    """
+    return ", ".join(_KIND_WORDS.get(k, k) for k in kinds.split(",") if k)
 
 
 def format_energy_eV(energy_eV: float | None) -> str:
@@ -68,9 +77,12 @@ def artefact_lines(xray: dict[str, Any]) -> list[str]:
     """Text lines listing the artefact peaks of a result's ``xray`` record."""
     out = ["artefact peaks (not evidence for any element):"]
     for a in xray.get("artefact_peaks", []):
-        kinds = ", ".join(_KIND_WORDS.get(k, k) for k in str(a["kinds"]).split(","))
-        note = "" if a["explained"] else " — exceeds the prediction; the excess is kept as evidence"
-        out.append(f"  {format_energy_eV(a['observed_eV']):>9}  {kinds}: {a['origin']}{note}")
+        note = (
+            ""
+            if a["explained"]
+            else " — stronger than predicted: the excess is kept as evidence for elements"
+        )
+        out.append(f"  {format_energy_eV(a['observed_eV']):>9}  {a['origin']}{note}")
     return out
 
 
