@@ -110,7 +110,7 @@ SCENARIOS: dict[str, DemoScenario] = {
         resolving_power=None,
         fwhm=160.0,
         noise_sigma=0.01,
-        seed=502,
+        seed=5020,  # one of the seeds whose draw reads cleanly (see the report of issue 10)
         filename="NRFL-2026-0502_item1_XRF.csv",
         header="# SYNTHETIC DEMO SPECTRUM - INVENTED DATA, NOT A MEASUREMENT\n"
         "# instrument: demo handheld XRF (invented), Rh tube 40 kV, 60 s live time\n"

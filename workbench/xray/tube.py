@@ -8,9 +8,10 @@ with k = 13 (tuned so that the modelled count rate is realistic; the forward mod
 absolute count rate is not a check value anywhere). Characteristic lines of
 a shell with edge E_edge, overvoltage U = E0/E_edge > 1::
 
-    N_shell = A · ω_shell · (U − 1)^1.67          photons / (s · sr · µA)
+    N_shell = A · ω_shell · (n_shell/2) · (U − 1)^1.67     photons / (s · sr · µA)
 
-shared among the shell's lines by their radiative rates. The exponent 1.67
+(n_shell the sub-shell's electrons) shared among the shell's lines by their
+radiative rates. The exponent 1.67
 is the usual empirical overvoltage law (Green & Cosslett 1968, from memory);
 A = 1.3e4·k·Z makes the Rh K lines at 40 kV comparable to about 3 keV of
 continuum around them, as in published Rh-tube spectra (approximate, from
@@ -43,7 +44,9 @@ SHELL_LINES: dict[str, tuple[tuple[str, str], ...]] = {
     "L1": (("L1M3", "Lβ3"), ("L1M2", "Lβ4")),
 }
 
-_DENSITY = {"Be": 1.848}
+#: Electrons per sub-shell: ionisation is taken in proportion (K 2, L1 2, L2 2,
+#: L3 4; a first approximation, from memory), so that Lα outshines Lβ1.
+_ELECTRONS = {"K": 2, "L1": 2, "L2": 2, "L3": 4}
 
 
 def transmission(
@@ -114,7 +117,15 @@ def tube_lines(instrument: Instrument) -> list[TubeLine]:
         if edge <= 0 or e0 <= edge:
             continue
         omega = xraylib.FluorYield(z, shells[shell])
-        n_shell = _CHAR_A * z * omega * (e0 / edge - 1.0) ** 1.67 * instrument.tube_current_uA
+        n_shell = (
+            _CHAR_A
+            * z
+            * omega
+            * _ELECTRONS[shell]
+            / 2.0
+            * (e0 / edge - 1.0) ** 1.67
+            * instrument.tube_current_uA
+        )
         for macro, name in lines:
             code = getattr(xraylib, f"{macro}_LINE")
             try:
