@@ -16,6 +16,7 @@ from workbench.datamodel import Spectrum
 from workbench.matching import MatchParameters, match_peaks
 from workbench.peaks import find_peaks
 from workbench.refdata import load_set
+from workbench.xray.detector import snip_iterations_for
 from workbench.xray.forward import ForwardSpectrum, Layer, forward_model
 from workbench.xray.instrument import Instrument
 
@@ -85,7 +86,7 @@ def run_case(name: str, fwhm: float, seed: int) -> tuple[ForwardSpectrum, dict]:
         # scipy warns "some peaks have a width of 0" on single-channel Poisson
         # spikes (a peaks-module issue reported to the lead); not an XRF matter.
         warnings.simplefilter("ignore", PeakPropertyWarning)
-        peaks = find_peaks(spec)
+        peaks = find_peaks(spec, snip_iterations=snip_iterations_for(inst, 10.0))
     peaks.extra.setdefault("x_range", (float(spec.x[0]), float(spec.x[-1])))
     rep = match_peaks(peaks, [load_set("xray")], MatchParameters(instrument=inst)).report()
     return fs, rep

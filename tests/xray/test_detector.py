@@ -64,3 +64,11 @@ def test_efficiency_limits():
     assert eff[1] > 0.9
     assert eff[0] < eff[1]
     assert eff[2] < 0.1
+
+
+@pytest.mark.parametrize(("fwhm_mn", "channel", "expected"), [(140.0, 10.0, 21), (180.0, 20.0, 14)])
+def test_snip_window_matches_detector(fwhm_mn, channel, expected):
+    from workbench.xray.detector import snip_iterations_for
+
+    # 1.5 × FWHM / channel width, rounded (module rule).
+    assert snip_iterations_for(replace(Instrument(), fwhm_MnKa_eV=fwhm_mn), channel) == expected
