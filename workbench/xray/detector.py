@@ -178,4 +178,4 @@ def snip_iterations_for(instrument: Instrument, channel_eV: float) -> int:
     side keeps a peak's wings in and follows the continuum (common practice,
     no source; measured on the forward model in tests/xray).
     """
-    return max(3, int(round(1.5 * instrument.fwhm_MnKa_eV / float(channel_eV))))
+    return max(3, round(1.5 * instrument.fwhm_MnKa_eV / float(channel_eV)))
