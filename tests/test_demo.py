@@ -21,3 +21,15 @@ def test_white_ground_flags_titanium_white_for_1850():
     # Titanium white was not available in 1850 (commercial from ~1916-1921; from memory,
     # as labelled in reference_sets/materials/pigments.csv).
     assert any("titanium" in a.lower() for a in report["anachronisms"])
+
+
+def test_white_ground_calls_only_its_recipe_and_names_the_artefacts():
+    rep = analyse_input(demo_file("white_pigment"), name="xrf.csv").report
+    recipe = {"Pb", "Zn", "Ti", "Ca", "Fe", "O", "C", "H"}  # invented (workbench.demo)
+    called = {el["element"] for el in rep["elements"] if el["verdict_level"] >= 2}
+    assert called <= recipe, called - recipe
+    assert {"Pb", "Zn", "Ti", "Ca", "Fe"} <= called
+    origins = " ".join(a["origin"] for a in rep["xray"]["artefact_peaks"])
+    # Rh tube scatter and argon from air are named as such, never as elements.
+    assert "Rh Kα1" in origins and "argon in the air path" in origins
+    assert not any(w["kind"] in ("temperature", "lte") for w in rep["warnings"])

@@ -121,3 +121,25 @@ def test_match_does_not_import_the_front_end(paint_chip, tmp_path):
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip().splitlines()[-1] == "False False"
+
+
+def test_match_with_instrument_file(tmp_path, capsysbinary):
+    spec = tmp_path / "xrf.csv"
+    spec.write_bytes(demo_file("white_pigment"))  # invented demo spectrum
+    inst = tmp_path / "handheld.json"
+    inst.write_text(json.dumps({"anode": "Rh", "tube_kV": 40, "fwhm_MnKa_eV": 150}))
+    assert main(["match", str(spec), "--instrument", str(inst), "--json", "-"]) == 0
+    rep = json.loads(capsysbinary.readouterr().out)
+    assert rep["parameters"]["instrument"]["fwhm_MnKa_eV"] == 150
+    assert rep["parameters"]["instrument"]["name"] == "handheld"
+    assert rep["xray"]["instrument_assumed"] is False
+
+
+def test_match_with_bad_instrument_file_is_one_clear_error(tmp_path, capsys):
+    spec = tmp_path / "xrf.csv"
+    spec.write_bytes(demo_file("white_pigment"))  # invented demo spectrum
+    inst = tmp_path / "bad.json"
+    inst.write_text('{"tube_kv": 40}')
+    assert main(["match", str(spec), "--instrument", str(inst)]) == 2
+    err = capsys.readouterr().err
+    assert "unknown instrument setting(s): tube_kv" in err and "Traceback" not in err

@@ -62,6 +62,13 @@ def add_engine_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--kind", choices=["peak_list", "spectrum"], help="force how INPUT is read")
     p.add_argument("--min-snr", type=float, help="peak-finding threshold for raw spectra (σ)")
     p.add_argument("--lab-dir", type=Path, help="directory holding lab reference sets")
+    p.add_argument(
+        "--instrument",
+        type=Path,
+        metavar="FILE",
+        help="XRF instrument description (JSON: anode, tube_kV, detector, fwhm_MnKa_eV, "
+        "atmosphere, ...); saved with the result (default: a silicon-drift unit, Rh 40 kV)",
+    )
 
 
 def params_from_args(args: argparse.Namespace):
@@ -81,7 +88,13 @@ def params_from_args(args: argparse.Namespace):
     elements = None
     if args.elements:
         elements = tuple(sorted({e.strip() for e in args.elements.split(",") if e.strip()}))
+    instrument = None
+    if getattr(args, "instrument", None) is not None:
+        from workbench.xray import load_instrument
+
+        instrument = load_instrument(args.instrument)
     return MatchParameters(
+        instrument=instrument,
         tolerance=tol,
         temperature_K=args.temperature_K,
         elements=elements,

@@ -116,6 +116,8 @@ class MatchParameters:
     exclude_elements : tuple of str
         Elements left out (default :data:`RARE_RADIOACTIVE`); ignored for
         elements named in ``elements``.
+    instrument : workbench.xray.Instrument or None
+        XRF instrument for an energy axis (the documented default when ``None``).
     """
 
     tolerance: ToleranceSpec = field(default_factory=ToleranceSpec)
@@ -134,6 +136,7 @@ class MatchParameters:
     share_ratio: float = 0.2
     max_ion: int | None = 2
     exclude_elements: tuple[str, ...] = RARE_RADIOACTIVE
+    instrument: Any = None
 
     def __post_init__(self) -> None:
         t = self.temperature_K
@@ -173,6 +176,7 @@ class MatchResult:
     scale: ScaleCheck
     parameters: MatchParameters
     lte: dict[str, object] | None = None
+    xray: dict[str, Any] | None = None
 
     def report(self) -> dict[str, Any]:
         """The result as the versioned JSON-ready dictionary."""
@@ -322,10 +326,22 @@ def match_peaks(
             f"the peak list holds {peaks.mode} lines but the match was asked in {params.mode} mode",
             f"use --mode {peaks.mode}, or find the peaks again in {params.mode} mode",
         )
-    obs = _observed(peaks, params)
     index = build_index(
         sets, peaks.axis, peaks.medium, params.elements, params.max_ion, params.exclude_elements
     )
+    xray = None
+    if peaks.axis == "energy" and not peaks.extra.get("xray_prepared"):
+        # X-ray physics (workbench.xray): artefact peaks out, detector-resolution
+        # widths in, energy scale checked; unexcitable lines dropped below.
+        from workbench.xray.prepare import prepare_energy_peaks
+
+        ref_species = np.asarray(index.species_names, dtype=object)[index.species]
+        peaks, xray = prepare_energy_peaks(
+            peaks,
+            params.instrument,
+            (ref_species, index.position, index.rel_intensity * index.subshell_weight),
+        )
+    obs = _observed(peaks, params)
     x_range = peaks.extra.get("x_range") if isinstance(peaks.extra, dict) else None
     if x_range:
         lo, hi = float(x_range[0]), float(x_range[1])
@@ -333,6 +349,9 @@ def match_peaks(
         lo = float(np.min(obs.position - obs.half_window))
         hi = float(np.max(obs.position + obs.half_window))
     in_range = (index.position >= lo) & (index.position <= hi)
+    if xray is not None:
+        el_line = np.asarray(index.species_element, dtype=object)[index.species]
+        in_range &= xray.reference_mask(el_line, index.transition, index.position)
 
     working_T = params.temperature_K or (
         params.default_temperature_K if params.mode == "emission" else 5800.0
@@ -371,6 +390,7 @@ def match_peaks(
             scale.message + " (applied)",
         )
         inner.peaks = peaks
+        inner.xray = xray.to_dict() | {"warnings": xray.warnings} if xray else inner.xray
         return inner
 
     assignments = assign_peaks(obs, ev_pass, params.share_ratio)
@@ -392,6 +412,7 @@ def match_peaks(
         scale=scale,
         parameters=params,
         lte=lte,
+        xray=xray.to_dict() | {"warnings": xray.warnings} if xray else None,
     )
 
 

@@ -179,6 +179,21 @@ def build_report(result: MatchResult) -> dict[str, Any]:
 
     warnings = list(result.warnings)
     warnings.extend(_other_warnings(result, u))
+    xray = dict(result.xray) if result.xray else None
+    if xray is not None:  # X-ray physics (workbench.xray): artefacts, instrument, exclusions
+        warnings.extend(xray.pop("warnings", []))
+        # No plasma temperature or LTE on an X-ray energy axis; overlaps in eV
+        # of detector resolution, energies to 1 eV.
+        from workbench.xray import Instrument
+        from workbench.xray.detector import fwhm_eV
+        from workbench.xray.wording import xrf_message
+
+        inst = Instrument.from_dict(xray["instrument"])
+        warnings = [
+            w | {"message": xrf_message(str(w["message"]), lambda e: fwhm_eV(e, inst))}
+            for w in warnings
+            if w["kind"] not in ("temperature", "lte")
+        ]
     warnings.sort(key=lambda w: (str(w["kind"]), str(w["message"])))
 
     levels = {
@@ -218,6 +233,7 @@ def build_report(result: MatchResult) -> dict[str, Any]:
         "elements": elements,
         "lines": lines,
         "warnings": warnings,
+        "xray": xray,
         "summary": {
             "n_peaks": int(pos_obs.size),
             "n_assigned": statuses.count("assigned"),
@@ -293,17 +309,23 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
         f"{inp['n_peaks']} lines",
         "reference " + ", ".join(f"{s['id']} {s['version']}" for s in report["reference_sets"]),
     ]
-    t = report["temperature"]
-    est = t.get("estimate") or {}
-    t_line = f"temperature {t['working_temperature_K']:.0f} K"
-    if est.get("temperature_K"):
-        t_line += (
-            f" (Boltzmann plot of {est['species']}: {est['temperature_K']:.0f} ± "
-            f"{est['uncertainty_K']:.0f} K, R² {est['r_squared']:.3f})"
-        )
-    elif t.get("given_K"):
-        t_line += " (given)"
-    out.append(t_line)
+    xray = report.get("xray")
+    if xray:
+        from workbench.xray.wording import instrument_line
+
+        out.append(instrument_line(xray))
+    else:
+        t = report["temperature"]
+        est = t.get("estimate") or {}
+        t_line = f"temperature {t['working_temperature_K']:.0f} K"
+        if est.get("temperature_K"):
+            t_line += (
+                f" (Boltzmann plot of {est['species']}: {est['temperature_K']:.0f} ± "
+                f"{est['uncertainty_K']:.0f} K, R² {est['r_squared']:.3f})"
+            )
+        elif t.get("given_K"):
+            t_line += " (given)"
+        out.append(t_line)
     out.append("")
     out.append(
         f"{'species':<10} {'verdict':<14} {'score':>5} {'strong':>7} {'uniq':>4} "
@@ -317,7 +339,8 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
             if shown_rejected > max_rejected:
                 continue
         best = sorted(el["matched_lines"], key=lambda m: -(m["expected_rel"] or 0))[:3]
-        lines = ", ".join(f"{m[f'reference_{u}']:.3f}" for m in best)
+        fmt = ".0f" if u == "eV" else ".3f"  # X-ray energies to 1 eV
+        lines = ", ".join(f"{m[f'reference_{u}']:{fmt}}" for m in best)
         out.append(
             f"{el['species']:<10} {el['verdict']:<14} {el['score']:>5.2f} "
             f"{el['n_strong_found']:>3}/{el['n_strong_in_range']:<3} "
@@ -330,10 +353,16 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
         out.append("warnings:")
         for w in report["warnings"]:
             out.append(f"  [{w['kind']}] {w['message']}")
+    if xray and xray.get("artefact_peaks"):
+        from workbench.xray.wording import artefact_lines
+
+        out.append("")
+        out.extend(artefact_lines(xray))
     un = [ln for ln in report["lines"] if ln["status"] == "unassigned"]
     if un:
         out.append("")
-        shown = ", ".join(f"{ln[f'observed_{u}']:.4f}" for ln in un[:20])
+        pos_fmt = ".0f" if u == "eV" else ".4f"
+        shown = ", ".join(f"{ln[f'observed_{u}']:{pos_fmt}}" for ln in un[:20])
         more = f" (+{len(un) - 20} more)" if len(un) > 20 else ""
         out.append(f"unassigned lines ({u}): {shown}{more}")
     s = report["summary"]

@@ -1,0 +1,97 @@
+"""The engine's X-ray preparation on forward-model spectra and hand-made peak lists."""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+import polars as pl
+import pytest
+
+from tests.xray.cases import CASES, instrument
+from workbench.datamodel import PeakList, Spectrum
+from workbench.errors import ValueRangeError
+from workbench.peaks import find_peaks
+from workbench.refdata import load_set
+from workbench.xray.forward import forward_model
+from workbench.xray.prepare import prepare_energy_peaks
+
+
+def _reference():
+    from workbench.matching.engine import build_index
+
+    idx = build_index([load_set("xray")], "energy", None)
+    sp = np.asarray(idx.species_names, dtype=object)[idx.species]
+    return sp, idx.position, idx.rel_intensity * idx.subshell_weight
+
+
+def _peaks(case, inst, seed=20261202):
+    fs = forward_model(CASES[case], inst, rng=np.random.default_rng(seed))
+    k = fs.energy_eV >= 1000.0
+    spec = Spectrum(fs.energy_eV[k], fs.counts[k], "energy", None)
+    pk = find_peaks(spec)
+    pk.extra.setdefault("x_range", (float(spec.x[0]), float(spec.x[-1])))
+    return pk
+
+
+@pytest.mark.filterwarnings("ignore::scipy.signal._peak_finding_utils.PeakPropertyWarning")
+@pytest.mark.parametrize(("offset", "applied"), [(40.0, True), (0.0, False)])
+def test_energy_scale_found_and_applied_only_when_significant(offset, applied):
+    measured_on = instrument(140.0)
+    true = replace(measured_on, energy_offset_eV=offset)  # E_true = offset + E_shown
+    out, prep = prepare_energy_peaks(_peaks("leaded_brass", true), measured_on, _reference())
+    sc = prep.scale
+    assert sc.applied is applied
+    if applied:
+        # The modelled offset is recovered within its uncertainty budget: blends
+        # shift centroids by ~20 eV (forward model vs Elam intensities).
+        assert sc.offset_eV + (sc.gain - 1.0) * 8000.0 == pytest.approx(offset, abs=20.0)
+        # Cu Kα is then where xraylib puts it (8047.8 / 8027.8 eV Kα1/Kα2).
+        cu = out.positions[np.argmin(np.abs(out.positions - 8040.0))]
+        assert cu == pytest.approx(8041.0, abs=15.0)
+
+
+@pytest.mark.filterwarnings("ignore::scipy.signal._peak_finding_utils.PeakPropertyWarning")
+def test_tolerance_follows_detector_resolution():
+    inst = instrument(130.0)
+    out, _ = prepare_energy_peaks(_peaks("soil", inst), inst)
+    w = out.table["fwhm_eV"].to_numpy()
+    # FWHM rises with energy as √(noise² + 2.355²·F·ε·E) (Fano statistics).
+    order = np.argsort(out.positions)
+    assert np.all(np.diff(w[order]) > 0)
+
+
+def test_tube_scatter_peak_is_not_evidence_and_argon_is_labelled():
+    # A hand-made list: Fe Kα/Kβ, Ar Kα from air, Rh Kα Rayleigh (xraylib 4.3 energies).
+    e = np.array([2957.7, 6403.8, 7058.0, 20216.1])
+    peaks = PeakList(
+        pl.DataFrame({"energy_eV": e, "intensity": [300.0, 5000.0, 700.0, 900.0]}), "energy", None
+    )
+    out, prep = prepare_energy_peaks(peaks, None)
+    assert out.positions.tolist() == pytest.approx([6403.8, 7058.0])
+    kinds = dict(zip(prep.labels["peak"].to_list(), prep.labels["kinds"].to_list(), strict=True))
+    # Rh Lβ3 (2916 eV) scatter also lies within half a FWHM of Ar Kα (xraylib 4.3).
+    assert "air" in kinds[0] and kinds[3] == "rayleigh" and set(kinds) == {0, 3}
+    assert prep.assumed and prep.warnings[0]["kind"] == "instrument_assumed"
+
+
+def test_only_artefacts_is_one_clear_error():
+    peaks = PeakList(pl.DataFrame({"energy_eV": [20216.1], "intensity": [900.0]}), "energy", None)
+    with pytest.raises(ValueRangeError) as exc:
+        prepare_energy_peaks(peaks, None)
+    assert "no element lines" in exc.value.remedy
+
+
+def test_reference_mask_drops_unexcitable_and_unmeasurable():
+    _, prep = prepare_energy_peaks(
+        PeakList(pl.DataFrame({"energy_eV": [6403.8], "intensity": [1.0]}), "energy", None), None
+    )
+    # Pb K-L3 74969 eV (edge 88 keV > 40 kV), Pb L3-M5 10551 eV, Mg K-L3 1254 eV
+    # (not measurable through 10 mm of air), Fe K-L3 6404 eV (xraylib 4.3).
+    keep = prep.reference_mask(
+        np.array(["Pb", "Pb", "Mg", "Fe"], dtype=object),
+        np.array(["K-L3", "L3-M5", "K-L3", "K-L3"], dtype=object),
+        np.array([74969.4, 10551.5, 1253.6, 6403.8]),
+    )
+    assert keep.tolist() == [False, True, False, True]
+    assert "Pb K" in prep.not_excited and "Mg K" in prep.not_measurable

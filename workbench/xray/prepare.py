@@ -1,0 +1,422 @@
+"""What the matching engine asks of the X-ray physics on an energy axis.
+
+:func:`prepare_energy_peaks` takes the observed peak list and the instrument
+and returns
+
+* the peaks that may be evidence for an element: artefact peaks (tube
+  scatter, escape, pile-up sum, argon in air) that do not clearly exceed
+  their prediction are taken out, and those that do keep only the excess;
+* the detector FWHM at each peak in the ``fwhm_eV`` column, so that the
+  engine's default window (half the FWHM) follows the detector resolution
+  instead of a fixed 50 eV (the measured width is kept as
+  ``fwhm_measured_eV``);
+* positions corrected by the energy-scale check when the correction is
+  significant (:mod:`workbench.xray.energy_scale`);
+* an :class:`XrayPreparation` whose :meth:`~XrayPreparation.reference_mask`
+  drops reference lines that the tube cannot excite or the beam path does
+  not let through, and whose :meth:`~XrayPreparation.to_dict` goes into the
+  result (instrument, artefact labels, energy scale, exclusions, warnings).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import polars as pl
+
+from workbench.datamodel import FWHM_COLUMN, PeakList
+from workbench.errors import ValueRangeError
+from workbench.xray.artefacts import artefact_table, label_peaks, predict_artefacts
+from workbench.xray.detector import fwhm_eV
+from workbench.xray.energy_scale import EnergyScale, fit_energy_scale
+from workbench.xray.excitation import excitable, measurable
+from workbench.xray.instrument import DEFAULT_INSTRUMENT, Instrument
+
+__all__ = ["XrayPreparation", "prepare_energy_peaks"]
+
+_DEFAULT_CHANNEL_EV = 10.0  # 4096 channels over 40 keV (common practice, no source)
+
+
+@dataclass
+class XrayPreparation:
+    """The X-ray physics applied to one peak list (see the module docstring)."""
+
+    instrument: Instrument
+    assumed: bool
+    labels: pl.DataFrame
+    predicted: pl.DataFrame
+    scale: EnergyScale
+    not_excited: list[str] = field(default_factory=list)
+    not_measurable: list[str] = field(default_factory=list)
+    warnings: list[dict[str, object]] = field(default_factory=list)
+
+    def reference_mask(
+        self, element: np.ndarray, transition: np.ndarray, energy_eV: np.ndarray
+    ) -> np.ndarray:
+        """Per reference line, whether this instrument can excite and measure it.
+
+        Parameters
+        ----------
+        element : numpy.ndarray of str
+            Element of each line.
+        transition : numpy.ndarray of str
+            IUPAC transition (``"L3-M5"``, ``"M4,5-N6,7"``); its initial level
+            decides the edge.
+        energy_eV : numpy.ndarray
+            Line energies.
+
+        Returns
+        -------
+        numpy.ndarray of bool
+        """
+        levels = [str(t).split("-")[0].split(",")[0] if t else "" for t in transition]
+        levels = [lv if lv else "?" for lv in levels]
+        exc = excitable(list(element), levels, self.instrument)
+        mea = measurable(energy_eV, self.instrument)
+        fam = np.array([lv[:1] for lv in levels], dtype=object)
+        el = np.asarray(element, dtype=object)
+        self.not_excited = sorted({f"{e} {f}" for e, f in zip(el[~exc], fam[~exc], strict=True)})
+        lost = ~mea & exc
+        # A K family none of whose lines is measurable: the light elements
+        # (an L or M family of a heavier element is measured by its K or L lines).
+        fams = {f"{e} {f}" for e, f in zip(el, fam, strict=True) if f == "K"}
+        ok = {f"{e} {f}" for e, f in zip(el[mea & exc], fam[mea & exc], strict=True)}
+        self.not_measurable = sorted(
+            {f"{e} {f}" for e, f in zip(el[lost], fam[lost], strict=True)} & (fams - ok)
+        )
+        return exc & mea
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready record for the result (``xray`` key)."""
+        inst = self.instrument.to_dict()
+        return {
+            "instrument": inst,
+            "instrument_assumed": self.assumed,
+            "artefact_peaks": self.labels.to_dicts(),
+            "n_artefacts_predicted": self.predicted.height,
+            "energy_scale": self.scale.to_dict(),
+            "not_excited": self.not_excited,
+            "not_measurable": self.not_measurable,
+            "not_measurable_note": _measurable_note(self.instrument),
+        }
+
+
+def _measurable_note(instrument: Instrument) -> str:
+    grid = np.arange(500.0, 5000.0, 10.0)
+    ok = measurable(grid, instrument)
+    first = float(grid[np.argmax(ok)]) if ok.any() else float("nan")
+    return (
+        f"lines below about {first:.0f} eV are not measurable in {instrument.atmosphere} "
+        f"with this detector (light elements)"
+    )
+
+
+def _channel_width(peaks: PeakList) -> float:
+    extra = peaks.extra if isinstance(peaks.extra, dict) else {}
+    base, xr = extra.get("baseline"), extra.get("x_range")
+    if base is not None and xr is not None and np.size(base) > 1:
+        return float((float(xr[1]) - float(xr[0])) / (np.size(base) - 1))
+    return _DEFAULT_CHANNEL_EV
+
+
+#: Peaks below this significance under counting statistics are dropped
+#: (the usual 3σ detection limit of XRF; common practice, no source).
+MIN_COUNTING_SIGMA: float = 3.0
+
+
+def _not_significant(
+    peaks: PeakList, x: np.ndarray, inten: np.ndarray, fwhm: np.ndarray, channel: float
+) -> tuple[np.ndarray, np.ndarray]:
+    """Peaks that counting statistics or the detector resolution cannot support.
+
+    XRF spectra are counts: a peak's significance is N/√(N + 2B), with N its
+    net counts within ±FWHM (Gaussian: 0.98 · 1.0645 · height · FWHM per
+    channel width) and B the baseline counts under it (counted twice: it is
+    itself estimated). Used only when the peak finder's baseline is at hand
+    and non-negative (a raw spectrum of counts). Independently, a maximum
+    within 0.85 FWHM of a stronger one is a noise split: two Gaussians of
+    equal width give two maxima only when more than 2σ = 0.85 FWHM apart.
+
+    Returns
+    -------
+    (drop, significance) : bool array and float array (NaN where not computed)
+    """
+    sig = np.full(x.size, np.nan)
+    drop = np.zeros(x.size, dtype=bool)
+    extra = peaks.extra if isinstance(peaks.extra, dict) else {}
+    w_obs = (
+        peaks.table[FWHM_COLUMN["energy"]].cast(pl.Float64).fill_null(np.nan).to_numpy()
+        if FWHM_COLUMN["energy"] in peaks.table.columns
+        else np.full(x.size, np.nan)
+    )
+    # No real peak is narrower than the detector response: a maximum under
+    # half the detector FWHM wide is a noise spike.
+    drop |= np.isfinite(w_obs) & (w_obs < 0.5 * fwhm)
+    width = np.where(np.isfinite(w_obs) & (w_obs > 0), np.minimum(w_obs, 2.0 * fwhm), fwhm)
+    base, xr = extra.get("baseline"), extra.get("x_range")
+    if base is not None and xr is not None and np.size(base) > 1 and np.min(base) >= 0:
+        grid = np.linspace(float(xr[0]), float(xr[1]), np.size(base))
+        b = np.interp(x, grid, np.asarray(base, dtype=np.float64))
+        n = 0.98 * 1.0645 * np.clip(np.nan_to_num(inten), 0.0, None) * width / channel
+        bg = b * 2.0 * width / channel
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sig = np.where(n + bg > 0, n / np.sqrt(n + 2.0 * bg), 0.0)
+        drop |= sig < MIN_COUNTING_SIGMA
+    order = np.argsort(-np.nan_to_num(inten, nan=0.0), kind="stable")
+    kept: list[int] = []
+    for p in order:
+        if drop[p]:
+            continue
+        if any(abs(x[p] - x[q]) < 0.85 * fwhm[p] for q in kept):
+            drop[p] = True
+            continue
+        kept.append(int(p))
+    return drop, sig
+
+
+def _scale_pairs(
+    x: np.ndarray, snr: np.ndarray, fwhm: np.ndarray, ref: Any
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, tuple[str, ...]]:
+    """Strong peaks explained by exactly one confirmed line family.
+
+    A family (``"Fe K"``) is a candidate for a peak with SNR ≥ 30 when one of
+    its main lines (≥ 0.5 of the family's strongest) lies within half the FWHM, and
+    is *confirmed* when its strongest line lying more than a FWHM away has
+    an observed peak within half a FWHM (Kβ for Kα, Lβ for Lα). Each
+    confirmed family gives a candidate pair: the peak's centre and where
+    the blend of that family's lines peaks at this resolution;
+    :func:`_consistent` keeps the pairs one scale explains.
+    """
+    if ref is None:
+        return np.empty(0), np.empty(0), np.empty(0), ()
+    r_sp, r_e, r_rel = ref
+    # Relative intensities are fractions of each initial level's emission;
+    # put them on a scale where each family's strongest line is 1.
+    r_rel = np.nan_to_num(np.asarray(r_rel, dtype=np.float64))
+    names, inv = np.unique(np.asarray(r_sp, dtype=str), return_inverse=True)
+    top = np.zeros(names.size)
+    np.maximum.at(top, inv, r_rel)
+    r_rel = np.where(top[inv] > 0, r_rel / top[inv], 0.0)
+    obs, refs, sig, names = [], [], [], []
+    for p in np.flatnonzero(np.nan_to_num(snr) >= 30.0):
+        half = 0.5 * fwhm[p]
+        cands = set(r_sp[(np.abs(r_e - x[p]) <= half) & (r_rel >= 0.5)])
+        confirmed = []
+        for sp in sorted(cands):
+            mine = r_sp == sp
+            far = mine & (np.abs(r_e - x[p]) > fwhm[p]) & (r_rel >= 0.1)
+            if not far.any():
+                continue
+            e_other = r_e[far][np.argmax(r_rel[far])]
+            if np.min(np.abs(x - e_other)) <= 0.5 * float(np.interp(e_other, x, fwhm)):
+                confirmed.append(sp)
+        sigma = fwhm[p] / 2.3548
+        for fam in confirmed:
+            # Where the blend of this family's lines peaks: start at its main
+            # line and shift to the Gaussian-weighted mean of its lines
+            # (mean shift; converges to the blend's maximum in a few steps).
+            mine = (r_sp == fam) & (np.abs(r_e - x[p]) <= 2.0 * fwhm[p]) & (r_rel >= 0.01)
+            main = mine & (r_rel >= 0.5) & (np.abs(r_e - x[p]) <= half)
+            centroid = float(r_e[main][np.argmax(r_rel[main])])
+            for _ in range(10):
+                wgt = r_rel[mine] * np.exp(-0.5 * ((r_e[mine] - centroid) / sigma) ** 2)
+                centroid = float(np.sum(wgt * r_e[mine]) / np.sum(wgt))
+            n_counts = max(float(snr[p]) ** 2, 1.0)
+            obs.append(x[p])
+            refs.append(centroid)
+            sig.append(np.hypot(fwhm[p] / (2.355 * np.sqrt(n_counts)), 2.0))
+            names.append(f"{fam} {centroid:.0f} eV")
+    return _consistent(np.array(obs), np.array(refs), np.array(sig), names)
+
+
+def _consistent(
+    o: np.ndarray, r: np.ndarray, s: np.ndarray, names: list[str]
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, tuple[str, ...]]:
+    """The largest set of pairs that one offset-and-gain line explains.
+
+    Every pair of candidate pairs (and every single pair, for an offset only)
+    proposes a scale; the proposal explaining the most pairs within
+    max(3σ, 20 eV; unresolved blends shift centroids by 10–20 eV) wins
+    (ties: the smaller summed residual), if it explains at least two more
+    peaks than the unchanged scale. Only its inliers
+    are kept, one per observed peak, and only when they are at least three
+    on at least two different peaks: a single coincidence must not move the
+    whole spectrum.
+    """
+    n = o.size
+    if n < 3:
+        return np.empty(0), np.empty(0), np.empty(0), ()
+    tol = np.maximum(3.0 * s, 20.0)
+    best: tuple[int, float, np.ndarray] | None = None
+    models = [(0.0, 1.0)] + [(float(r[i] - o[i]), 1.0) for i in range(n)]
+    for i in range(n):
+        for j in range(i + 1, n):
+            if abs(o[i] - o[j]) >= 1000.0:
+                g = (r[i] - r[j]) / (o[i] - o[j])
+                if 0.98 <= g <= 1.02:
+                    models.append((float(r[i] - g * o[i]), float(g)))
+    null: tuple[int, float, np.ndarray] | None = None
+    for off, g in models:
+        res = np.abs(r - (off + g * o))
+        inl = res <= tol
+        key = (int(np.unique(o[inl]).size), -float(np.sum(res[inl])))
+        if null is None:
+            null = (key[0], key[1], inl)  # the calibrated scale (offset 0, gain 1)
+        if best is None or key > (best[0], best[1]):
+            best = (key[0], key[1], inl)
+    assert best is not None and null is not None
+    # Occam: the instrument's own calibration stands unless another scale
+    # explains at least two more peaks (chance alignments explain one).
+    inl = best[2] if best[0] >= null[0] + 2 else null[2]
+    # One pair per observed peak: the one closest to the winning line.
+    keep = []
+    for peak in np.unique(o[inl]):
+        cand = np.flatnonzero(inl & (o == peak))
+        keep.append(int(cand[0]))
+    keep_a = np.array(keep, dtype=int)
+    if keep_a.size < 3:
+        return np.empty(0), np.empty(0), np.empty(0), ()
+    return o[keep_a], r[keep_a], s[keep_a], tuple(names[k] for k in keep_a)
+
+
+def prepare_energy_peaks(
+    peaks: PeakList,
+    instrument: Instrument | None,
+    reference: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None,
+) -> tuple[PeakList, XrayPreparation]:
+    """Apply the X-ray physics to an energy-axis peak list (see the module docstring).
+
+    Parameters
+    ----------
+    peaks : PeakList
+        Observed peaks on an energy axis (eV).
+    instrument : Instrument or None
+        The instrument; the documented default (with a warning) when ``None``.
+    reference : (species label, energy_eV, rel_intensity) arrays, optional
+        Reference lines for the energy-scale check; no check without them.
+
+    Returns
+    -------
+    (PeakList, XrayPreparation)
+    """
+    assumed = instrument is None
+    inst = instrument or DEFAULT_INSTRUMENT
+    if peaks.extra.get("xray_prepared") if isinstance(peaks.extra, dict) else False:
+        raise ValueRangeError(
+            "this peak list was already prepared for X-ray matching",
+            "pass the original peak list",
+        )
+    t = peaks.table
+    col = peaks.position_column
+    x = peaks.positions
+    inten = peaks.intensities
+    snr = (
+        t["snr"].cast(pl.Float64).fill_null(np.nan).to_numpy()
+        if "snr" in t.columns
+        else np.full(x.size, np.nan)
+    )
+    with np.errstate(divide="ignore", invalid="ignore"):
+        noise = np.where(np.isfinite(snr) & (snr > 0), inten / snr, np.nan)
+    fcol = FWHM_COLUMN["energy"]
+    w_obs = (
+        t[fcol].cast(pl.Float64).fill_null(np.nan).to_numpy()
+        if fcol in t.columns
+        else np.full(x.size, np.nan)
+    )
+    w_det = fwhm_eV(x, inst)
+    channel = _channel_width(peaks)
+    weak = _not_significant(peaks, x, inten, w_det, channel)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        snr = np.where(np.isfinite(weak[1]), weak[1], snr)
+        noise = np.where(np.isfinite(snr) & (snr > 0), inten / snr, np.nan)
+    dl = float(np.nanmedian(noise)) if np.any(np.isfinite(noise)) else 0.0
+    real_i = np.where(weak[0], 0.0, inten)  # noise maxima cause no artefacts
+
+    def artefacts_at(pos: np.ndarray) -> tuple[list, pl.DataFrame]:
+        a = predict_artefacts(
+            pos, real_i, inst, fwhm_obs_eV=w_obs, channel_eV=channel, min_intensity=dl
+        )
+        return a, label_peaks(pos, inten, noise, a)
+
+    arts, labels = artefacts_at(x)
+    # Energy scale from element lines only: artefact peaks (a Compton peak is
+    # broad and shifted) and noise maxima are left out of the pairs.
+    usable = ~weak[0]
+    usable[labels["peak"].to_numpy()] = False
+    snr_use = np.where(usable, snr, np.nan)
+    o, r, s, names = _scale_pairs(x, snr_use, w_det, reference)
+    scale = fit_energy_scale(o, r, s, names)
+    if scale.significant:
+        x = scale.correct(x)
+        scale = EnergyScale(**{**scale.__dict__, "applied": True})
+        arts, labels = artefacts_at(x)
+    drop = weak[0].copy()
+    new_i = np.array(inten, dtype=np.float64, copy=True)
+    for row in labels.iter_rows(named=True):
+        if row["explained"]:
+            drop[row["peak"]] = True
+        else:
+            new_i[row["peak"]] = row["residual_intensity"]
+    labels = labels.filter(~pl.col("peak").is_in(np.flatnonzero(weak[0]).tolist()))
+    if drop.all():
+        raise ValueRangeError(
+            "every peak is explained as tube scatter, escape, pile-up sum or argon from air",
+            "there are no element lines to match; check the measurement (blank or no sample?)",
+        )
+    new = t.with_columns(
+        pl.Series(col, x),
+        pl.Series("intensity", new_i),
+        pl.Series("fwhm_measured_eV", w_obs),
+        pl.Series(fcol, fwhm_eV(x, inst)),
+    )
+    if "snr" in t.columns:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            new = new.with_columns(pl.Series("snr", np.where(noise > 0, new_i / noise, snr)))
+    new = new.filter(pl.Series(~drop))
+    extra = dict(peaks.extra) if isinstance(peaks.extra, dict) else {}
+    extra["xray_prepared"] = True
+    if "baseline" in extra:  # per-channel array: not needed downstream, and large
+        extra.pop("baseline")
+        extra["channel_eV"] = channel
+    out = PeakList(new, peaks.axis, peaks.medium, peaks.source, peaks.mode, extra)
+    prep = XrayPreparation(inst, assumed, labels, artefact_table(arts), scale)
+    if assumed:
+        prep.warnings.append(
+            {
+                "kind": "instrument_assumed",
+                "message": "no instrument description was given: assumed a silicon-drift unit "
+                f"with a {inst.anode} tube at {inst.tube_kV:g} kV, {inst.fwhm_MnKa_eV:g} eV FWHM "
+                f"at Mn Kα and an {inst.atmosphere} path; give --instrument FILE for yours",
+                "elements": [],
+                "lines": [],
+            }
+        )
+    n_art = int(labels["explained"].sum()) if labels.height else 0
+    if n_art:
+        kinds = sorted(
+            {k for ks in labels.filter(pl.col("explained"))["kinds"] for k in ks.split(",")}
+        )
+        prep.warnings.append(
+            {
+                "kind": "artefact_peaks",
+                "message": f"{n_art} peak(s) are instrument artefacts ({', '.join(kinds)}) and are "
+                "not used as evidence for any element; see the artefact list",
+                "elements": [],
+                "lines": [],
+            }
+        )
+    if scale.applied:
+        prep.warnings.append(
+            {
+                "kind": "energy_scale",
+                "message": f"energy scale corrected by {scale.max_correction_eV:+.0f} eV at most "
+                f"(offset {scale.offset_eV:+.1f} ± {scale.offset_uncertainty_eV:.1f} eV, gain "
+                f"{scale.gain:.5f}) from {scale.n_pairs} unambiguous strong line(s); "
+                "recalibrate the instrument",
+                "elements": [],
+                "lines": [],
+            }
+        )
+    return out, prep
