@@ -1,0 +1,55 @@
+"""Run the product on a real spectrum: its own peak finding, then its own matching."""
+
+from __future__ import annotations
+
+from workbench.matching.analyse import analyse_peaks
+from workbench.matching.engine import MatchParameters
+from workbench.peaks import find_peaks
+
+from tests.realdata.loader import RealSpectrum
+
+__all__ = ["element_classes", "run_real"]
+
+_ORDER = {"established": 3, "probable": 2, "possible": 1, "not supported": 0}
+
+
+def run_real(rs: RealSpectrum, params: MatchParameters | None = None):
+    """Peak finding + matching with the product's defaults (as ``analyse_input`` does)."""
+    params = params or MatchParameters(mode=rs.mode)
+    peaks = find_peaks(rs.spectrum, mode=rs.mode)
+    peaks.extra.setdefault("x_range", (float(rs.spectrum.x[0]), float(rs.spectrum.x[-1])))
+    return analyse_peaks(peaks, None, params, spectrum=rs.spectrum)
+
+
+def element_classes(report: dict) -> dict[str, str]:
+    """Best class per element over its species (ion stages)."""
+    best: dict[str, int] = {}
+    for sp in report["elements"]:
+        el = sp["element"]
+        best[el] = max(best.get(el, 0), _ORDER[sp["verdict"]])
+    names = {v: k for k, v in _ORDER.items()}
+    return {el: names[lv] for el, lv in best.items()}
+
+
+def lines_shown(rs: RealSpectrum, tol_nm: float = 0.01) -> dict[str, list[float]]:
+    """Pipeline-identified lines that only one of the lamp's elements explains, per element.
+
+    A line identified by the spectrum's own pipeline (Goodman ``GSP_A*``, pypeit
+    ``yfit``) is credited to an expected element when that element has a line
+    in the shipped optical set within ``tol_nm`` (0.01 nm: the pipelines' own
+    fit residuals are below this) and no other expected element has.
+    """
+    import numpy as np
+
+    from workbench.matching.engine import build_index
+    from workbench.refdata import load_set
+
+    index = build_index([load_set("optical")], "wavelength", rs.spectrum.medium)
+    el = np.array(index.species_element, dtype=object)[index.species]
+    out: dict[str, list[float]] = {e: [] for e in rs.expected}
+    for w in rs.identified_nm:
+        lo, hi = np.searchsorted(index.position, [w - tol_nm, w + tol_nm])
+        near = {e for e in el[lo:hi] if e in out}
+        if len(near) == 1:
+            out[near.pop()].append(round(float(w), 4))
+    return out
