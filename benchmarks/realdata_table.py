@@ -43,9 +43,7 @@ def main() -> None:
                 f"{e}({len(shown[e]) if e in shown else '?'}):{SHORT[cls.get(e, 'not supported')]}"
                 for e in rs.expected
             )
-            false = sorted(
-                (e, c) for e, c in cls.items() if e not in rs.expected and ORDER[c] >= 2
-            )
+            false = sorted((e, c) for e, c in cls.items() if e not in rs.expected and ORDER[c] >= 2)
             fs = " ".join(f"{e}:{SHORT[c]}" for e, c in false) or "none"
             npk = outcome.peaks.table.height
             print(f"{name:40s} peaks {npk:4d}  expected {exp:44s} false>=prob {fs}  ({dt:.2f}s)")

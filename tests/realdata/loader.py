@@ -28,7 +28,16 @@ __all__ = ["HELD_OUT", "TUNE", "RealSpectrum", "all_names", "load"]
 
 DATA = Path(__file__).resolve().parents[1] / "data" / "realspectra"
 
-_GAS = {"He": "He", "Ne": "Ne", "Ar": "Ar", "Hg": "Hg", "Kr": "Kr", "Xe": "Xe", "Cu": "Cu", "Fe": "Fe"}
+_GAS = {
+    "He": "He",
+    "Ne": "Ne",
+    "Ar": "Ar",
+    "Hg": "Hg",
+    "Kr": "Kr",
+    "Xe": "Xe",
+    "Cu": "Cu",
+    "Fe": "Fe",
+}
 
 
 @dataclass
@@ -99,7 +108,13 @@ def _pypeit(path: Path) -> RealSpectrum:
         "emission",
         tuple(ions),
         np.sort(np.asarray(d["yfit"], dtype=float)) / 10.0,
-        {"fitc": d["fitc"], "xfit": d["xfit"], "yfit": d["yfit"], "fmin": d["fmin"], "fmax": d["fmax"]},
+        {
+            "fitc": d["fitc"],
+            "xfit": d["xfit"],
+            "yfit": d["yfit"],
+            "fmin": d["fmin"],
+            "fmax": d["fmax"],
+        },
     )
 
 
@@ -127,8 +142,12 @@ def _path(name: str) -> Path:
 
 def all_names() -> list[str]:
     """Every real spectrum, by file stem."""
-    return sorted(p.stem for sub in ("goodman", "pypeit", "pvlib") for p in (DATA / sub).glob("*.*")
-                  if p.suffix in (".fits", ".json", ".csv"))
+    return sorted(
+        p.stem
+        for sub in ("goodman", "pypeit", "pvlib")
+        for p in (DATA / sub).glob("*.*")
+        if p.suffix in (".fits", ".json", ".csv")
+    )
 
 
 def _is_tune(name: str) -> bool:

@@ -1,0 +1,77 @@
+"""Joint explanation: shared peaks are decided globally, strongest explanation first.
+
+Species are ranked by net evidence (:mod:`workbench.matching.scoring`), best
+first. Walking down the ranking, a species' found group whose peak is
+already *claimed* by a better-ranked species of another element (one called
+"probable" or better) is *explained* there when that species' predicted
+intensity at the peak is at least ``EXPLAIN_FRACTION`` of the observed
+intensity (any claim counts for a peak list without intensities). An
+explained group is counted neither for nor against the lower species (its
+intensity is not re-spent), and the species is re-evaluated. If it is still
+"probable" or better, it claims its own found groups' peaks in turn.
+
+So a species cannot be established on lines a far better supported species
+explains (Ca II H at 396.85 nm in the Sun is not evidence for Dy II), while
+two species that truly share a peak keep their unique lines. The report
+lists, per species, which better species explained some of its groups.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from workbench.matching.evidence import EvidencePass, ObservedLines
+from workbench.matching.reference import ReferenceIndex
+from workbench.matching.scoring import evaluate
+
+__all__ = ["EXPLAIN_FRACTION", "explain_jointly"]
+
+#: Part of the observed intensity a better species must predict to explain a peak.
+EXPLAIN_FRACTION: float = 0.3
+
+
+def explain_jointly(
+    ev_pass: EvidencePass,
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    *,
+    sigma_dex: float,
+    strong_fraction: float,
+) -> None:
+    """Re-evaluate every species in place with peaks explained by better species removed."""
+    n_obs = obs.position.size
+    claim_pred = np.full(n_obs, -np.inf)
+    claim_sp = np.full(n_obs, -1, dtype=np.int64)
+    claim_el = np.full(n_obs, "", dtype=object)
+    with_int = np.isfinite(obs.intensity)
+    ranked = sorted(ev_pass.evidence.values(), key=lambda v: (-v.net_evidence_dex, v.label))
+    for ev in ranked:
+        g = ev.groups
+        found = g["found"]
+        pk = np.where(found, g["peak"], 0)
+        claimed = found & (claim_sp[pk] >= 0) & (claim_el[pk] != ev.element)
+        if np.any(claimed):
+            enough = np.where(
+                with_int[pk] & ev.missing_evidence,
+                claim_pred[pk] >= EXPLAIN_FRACTION * np.where(with_int[pk], obs.intensity[pk], 0),
+                True,
+            )
+            expl = claimed & enough
+            if np.any(expl):
+                g["explained"] = expl
+                ev.explained_by = sorted({index.species_names[int(c)] for c in claim_sp[pk[expl]]})
+                evaluate(
+                    ev,
+                    detection_limit=obs.detection_limit,
+                    sigma_dex=sigma_dex,
+                    n_tried=ev_pass.n_species_tried,
+                    strong_fraction=strong_fraction,
+                )
+        if ev.level >= 2:
+            own = found & ~g["explained"]
+            p = pk[own]
+            pred = g["predicted"][own]
+            better = pred > claim_pred[p]
+            claim_pred[p[better]] = pred[better]
+            claim_sp[p[better]] = ev.code
+            claim_el[p[better]] = ev.element
