@@ -2,9 +2,8 @@
 
 from __future__ import annotations
 
-from workbench.matching.analyse import analyse_peaks
+from workbench.matching.analyse import analyse_spectrum
 from workbench.matching.engine import MatchParameters
-from workbench.peaks import find_peaks
 
 from tests.realdata.loader import RealSpectrum
 
@@ -16,9 +15,7 @@ _ORDER = {"established": 3, "probable": 2, "possible": 1, "not supported": 0}
 def run_real(rs: RealSpectrum, params: MatchParameters | None = None):
     """Peak finding + matching with the product's defaults (as ``analyse_input`` does)."""
     params = params or MatchParameters(mode=rs.mode)
-    peaks = find_peaks(rs.spectrum, mode=rs.mode)
-    peaks.extra.setdefault("x_range", (float(rs.spectrum.x[0]), float(rs.spectrum.x[-1])))
-    return analyse_peaks(peaks, None, params, spectrum=rs.spectrum)
+    return analyse_spectrum(rs.spectrum, None, params)
 
 
 def element_classes(report: dict) -> dict[str, str]:

@@ -61,6 +61,7 @@ from workbench.matching.interference import (
 )
 from workbench.matching.joint import explain_jointly
 from workbench.matching.reference import ReferenceIndex
+from workbench.matching.priors import prior_dex
 from workbench.matching.response import ResponseFit, fit_response
 from workbench.matching.scoring import PROBABLE_DEX
 from workbench.matching.sourcemodels import SOURCE_MODELS, get_model, model_strengths
@@ -68,6 +69,7 @@ from workbench.matching.temperature import TemperatureEstimate, estimate_tempera
 from workbench.matching.tolerance import ToleranceSpec
 
 __all__ = [
+    "BAND_WIDTH_FACTOR",
     "CALIBRATION_FRACTION",
     "MAX_CANDIDATE_PAIRS",
     "RARE_RADIOACTIVE",
@@ -82,6 +84,10 @@ __all__ = [
 #: seconds; 10,000 peaks against the whole optical set at λ/5000 give ~0.4
 #: million. A wider window is refused at once (common practice, no source).
 MAX_CANDIDATE_PAIRS: int = 5_000_000
+#: In an absorption spectrum, a dip wider than this many times the median
+#: FWHM of the spectrum's dips is a band (molecular, e.g. telluric O2/H2O,
+#: or a blend), not one atomic line: it is labelled and not used as evidence.
+BAND_WIDTH_FACTOR: float = 3.0
 #: A scale error is applied by default when it exceeds this part of the
 #: median half-window (and 3 standard uncertainties).
 CALIBRATION_FRACTION: float = 0.25
@@ -149,6 +155,8 @@ class MatchParameters:
         ``False``: never.
     source_model : str
         ``"auto"`` or one of :data:`~workbench.matching.sourcemodels.SOURCE_MODELS`.
+    abundance_prior : {"none", "crustal", "solar"}
+        Prior odds from element abundances (:mod:`~workbench.matching.priors`).
     electron_density_per_cm3 : float or None
         For the McWhirter check; unknown when ``None``.
     share_ratio : float
@@ -176,10 +184,12 @@ class MatchParameters:
     max_ion: int | None = 2
     exclude_elements: tuple[str, ...] = RARE_RADIOACTIVE
     source_model: str = "auto"
+    abundance_prior: str = "none"
 
     def __post_init__(self) -> None:
         if self.source_model != "auto":
             get_model(self.source_model)
+        prior_dex(self.abundance_prior, "H")  # one clear error for an unknown prior
         t = self.temperature_K
         if t is not None and not (500.0 <= t <= 100_000.0):
             raise ValueRangeError(
@@ -292,6 +302,10 @@ def _observed(
     fwhm = (
         t[fwhm_col].cast(pl.Float64).fill_null(np.nan).to_numpy() if fwhm_col in t.columns else None
     )
+    spacing = peaks.extra.get("sample_spacing") if isinstance(peaks.extra, dict) else None
+    if fwhm is not None and spacing is not None and np.shape(spacing) == fwhm.shape:
+        # A line is at least two samples wide: undersampled widths are floored.
+        fwhm = np.where(np.isfinite(fwhm), np.maximum(fwhm, 2.0 * np.asarray(spacing)), fwhm)
     spec = params.tolerance.resolve(peaks.axis, fwhm)
     if tolerance_per_peak is not None:
         tol = np.asarray(tolerance_per_peak, dtype=np.float64)
@@ -300,8 +314,17 @@ def _observed(
                 "tolerance_per_peak must give one positive half-window per peak",
                 "pass an array as long as the peak list, in the axis unit",
             )
+        resolution = 2.0 * tol
     else:
         tol = spec.half_window(x, fwhm)
+        # The resolution element (≈ FWHM) the window stands for: lines closer
+        # than this are one resolvable group (workbench.matching.groups).
+        if spec.kind == "fwhm":
+            resolution = tol / spec.value
+        elif spec.kind == "resolving_power":
+            resolution = tol / spec.factor
+        else:
+            resolution = tol
     sat = (
         t["saturated"].fill_null(False).to_numpy().astype(bool)
         if "saturated" in t.columns
@@ -343,7 +366,12 @@ def _observed(
                     "give 0-based indices of peaks in the list",
                 )
             excl[idx.astype(np.int64)] = True
+    curve = None
+    nc = peaks.extra.get("noise_curve") if isinstance(peaks.extra, dict) else None
+    if dl is not None and nc is not None:
+        curve = (np.asarray(nc[0], dtype=float), params.detection_snr * np.asarray(nc[1]))
     return ObservedLines(
+        detection_curve=curve,
         position=x,
         intensity=inten,
         half_window=tol,
@@ -351,7 +379,21 @@ def _observed(
         detection_limit=dl,
         tolerance=spec,
         excluded=excl,
+        resolution=resolution,
     )
+
+
+def _broad_dips(peaks: PeakList, params: MatchParameters) -> np.ndarray | None:
+    """Absorption dips wider than BAND_WIDTH_FACTOR × the median FWHM (bands, not lines)."""
+    col = FWHM_COLUMN[peaks.axis]
+    if params.mode != "absorption" or col not in peaks.table.columns or peaks.table.height < 5:
+        return None
+    w = peaks.table[col].cast(pl.Float64).fill_null(np.nan).to_numpy()
+    ok = np.isfinite(w) & (w > 0)
+    if np.sum(ok) < 5:
+        return None
+    broad = ok & (w > BAND_WIDTH_FACTOR * float(np.median(w[ok])))
+    return broad if np.any(broad) else None
 
 
 def _check_pair_budget(obs: ObservedLines, index: ReferenceIndex, in_range: np.ndarray) -> None:
@@ -395,6 +437,7 @@ def _first_pass(
         min_rel_intensity=params.min_rel_intensity,
         competitor_min_rel=params.competitor_min_rel,
         sigma_dex=SOURCE_MODELS[model].sigma_dex,
+        abundance_prior=params.abundance_prior,
     )
     return strengths, first
 
@@ -409,28 +452,30 @@ def _second_pass(
     first: EvidencePass,
 ) -> tuple[EvidencePass, ResponseFit]:
     sigma = SOURCE_MODELS[model].sigma_dex
-    response = fit_response(obs, first) if index.axis == "wavelength" else ResponseFit()
-    resp_lines = 10.0 ** response.log10_at(index.position) if response.degree else None
-    second = gather_evidence(
-        obs,
-        index,
-        strengths,
-        in_range,
+    kw = dict(
         strong_fraction=params.strong_fraction,
         min_rel_intensity=params.min_rel_intensity,
         competitor_min_rel=params.competitor_min_rel,
         sigma_dex=sigma,
-        response=resp_lines,
         plausible=_plausible(first),
         n_species_tried=first.n_species_tried,
+        abundance_prior=params.abundance_prior,
     )
+    second = gather_evidence(obs, index, strengths, in_range, **kw)
+    # The response is fitted on the second pass (competition among plausible
+    # species only, so that well-identified species have unique groups), then
+    # the pass is repeated with it.
+    response = fit_response(obs, second) if index.axis == "wavelength" else ResponseFit()
+    if response.degree:
+        resp_lines = 10.0 ** response.log10_at(index.position)
+        second = gather_evidence(obs, index, strengths, in_range, response=resp_lines, **kw)
     explain_jointly(second, obs, index, sigma_dex=sigma, strong_fraction=params.strong_fraction)
     return second, response
 
 
-def _median_pattern(ev_pass: EvidencePass) -> float | None:
-    rs = [ev.pattern_r for ev in ev_pass.evidence.values() if ev.pattern_r is not None]
-    return float(np.median(rs)) if rs else None
+def _total_evidence(ev_pass: EvidencePass) -> float:
+    """Σ max(net evidence, 0) over species: how well the model explains the spectrum."""
+    return float(sum(max(ev.net_evidence_dex, 0.0) for ev in ev_pass.evidence.values()))
 
 
 def _choose_model(
@@ -454,12 +499,9 @@ def _choose_model(
     if not np.any(np.isfinite(obs.intensity)):
         return "lte-plasma", "auto: no intensities to compare models", st_l, first_l
     st_d, first_d = _first_pass(obs, index, params, "discharge-lamp", temperature_K, in_range)
-    r_l, r_d = _median_pattern(first_l), _median_pattern(first_d)
-    why = (
-        f"auto: median intensity-pattern correlation {r_d if r_d is not None else float('nan'):.2f}"
-        f" (discharge-lamp) vs {r_l if r_l is not None else float('nan'):.2f} (lte-plasma)"
-    )
-    if r_d is not None and (r_l is None or r_d > r_l):
+    e_l, e_d = _total_evidence(first_l), _total_evidence(first_d)
+    why = f"auto: total net evidence {e_d:.1f} dex (discharge-lamp) vs {e_l:.1f} dex (lte-plasma)"
+    if e_d > e_l:
         return "discharge-lamp", why, st_d, first_d
     return "lte-plasma", why, st_l, first_l
 
@@ -553,6 +595,26 @@ def match_peaks(
             }
         )
         peaks = deduped
+    labels = dict(peak_labels or {})
+    broad = _broad_dips(peaks, params)
+    if broad is not None:
+        ex = np.zeros(peaks.table.height, dtype=bool)
+        if excluded_peaks is not None:
+            e0 = np.asarray(excluded_peaks)
+            ex[e0 if e0.dtype == bool else e0.astype(np.int64)] = True
+        excluded_peaks = ex | broad
+        for i in np.flatnonzero(broad).tolist():
+            labels.setdefault(i, "broad dip (molecular band or blend): not used as evidence")
+        notes.append(
+            {
+                "kind": "broad_dips",
+                "message": f"{int(broad.sum())} dip(s) wider than {BAND_WIDTH_FACTOR:g}× the "
+                "median width were treated as bands (molecular, e.g. telluric O2/H2O, or "
+                "blends) and not used as evidence for any element",
+                "elements": [],
+                "lines": [],
+            }
+        )
     obs = _observed(peaks, params, tolerance_per_peak, excluded_peaks)
     index = build_index(
         sets, peaks.axis, peaks.medium, params.elements, params.max_ion, params.exclude_elements
@@ -619,7 +681,7 @@ def match_peaks(
             replace(params, apply_calibration=False),
             tolerance_per_peak=tolerance_per_peak,
             excluded_peaks=excluded_peaks,
-            peak_labels=peak_labels,
+            peak_labels=labels,
         )
         how = "asked" if params.apply_calibration else "significant, applied by default"
         inner.scale = ScaleCheck(
@@ -663,7 +725,7 @@ def match_peaks(
         },
         response=response,
         notes=notes,
-        peak_labels=dict(peak_labels or {}),
+        peak_labels=labels,
     )
 
 

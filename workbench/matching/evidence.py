@@ -33,6 +33,7 @@ import numpy as np
 
 from workbench.matching.candidates import CandidatePairs, find_candidates
 from workbench.matching.groups import resolvable_groups
+from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import SpeciesEvidence, evaluate
 
@@ -50,6 +51,15 @@ class ObservedLines:
     detection_limit: float | None  # intensity units; None when intensities are unknown
     tolerance: object = None  # the resolved ToleranceSpec
     excluded: np.ndarray | None = None  # bool: artefact peaks (escape, sum, ...) not to match
+    resolution: np.ndarray | None = None  # resolution element (≈ FWHM) per peak; None = window
+    detection_curve: tuple[np.ndarray, np.ndarray] | None = None  # (x, limit) where it varies
+
+    def detection_limit_at(self, x: np.ndarray) -> np.ndarray:
+        """Detection limit at positions ``x`` (the scalar limit where no curve is known)."""
+        if self.detection_curve is not None:
+            cx, cy = self.detection_curve
+            return np.interp(x, cx, cy)
+        return np.full(np.shape(x), self.detection_limit, dtype=float)
 
 
 @dataclass
@@ -100,6 +110,7 @@ def gather_evidence(
     response: np.ndarray | None = None,
     plausible: set[int] | None = None,
     n_species_tried: int | None = None,
+    abundance_prior: str = "none",
 ) -> EvidencePass:
     """Collect the evidence of every species with at least one candidate.
 
@@ -125,6 +136,8 @@ def gather_evidence(
     n_species_tried : int, optional
         Species tried, for the multiple-testing correction; by default the
         number of species with at least one candidate in this pass.
+    abundance_prior : str
+        ``none``, ``crustal`` or ``solar`` (:mod:`workbench.matching.priors`).
 
     Returns
     -------
@@ -138,8 +151,8 @@ def gather_evidence(
     usable_idx = usable_idx[np.lexsort((index.position[usable_idx], index.species[usable_idx]))]
     u_pos = index.position[usable_idx]
     u_sp = index.species[usable_idx]
-    u_tol = np.interp(u_pos, obs.position, obs.half_window)
-    gid = resolvable_groups(u_sp, u_pos, u_tol)
+    res = obs.resolution if obs.resolution is not None else obs.half_window
+    gid = resolvable_groups(u_sp, u_pos, np.interp(u_pos, obs.position, res))
     n_groups = int(gid[-1]) + 1 if gid.size else 0
     line_group = np.full(index.n_lines, -1, dtype=np.int64)
     line_group[usable_idx] = gid
@@ -261,10 +274,11 @@ def gather_evidence(
                 # their ratio). The median of found lines alone is biased high:
                 # only the lines that came out bright were found.
                 unseen = known & ~fnd & (pred_unit > 0)
+                dl_u = obs.detection_limit_at(g_pos[sl])
                 for _ in range(4):
-                    cens = unseen & (ev.scale * pred_unit >= obs.detection_limit)
+                    cens = unseen & (ev.scale * pred_unit >= dl_u)
                     new_scale = float(
-                        np.median(np.concatenate([ratios, obs.detection_limit / pred_unit[cens]]))
+                        np.median(np.concatenate([ratios, dl_u[cens] / pred_unit[cens]]))
                     )
                     if new_scale == ev.scale:
                         break
@@ -273,9 +287,10 @@ def gather_evidence(
             m = good & uniq
             ev.pattern_r = _pearson(np.log(I_p[m]), np.log(pred_unit[m]))
         with_int = has_int and ev.scale is not None
+        dl_g = obs.detection_limit_at(g_pos[sl]) if with_int else None
         if with_int:
             predicted = ev.scale * pred_unit
-            visible = known & (predicted >= obs.detection_limit)
+            visible = known & (predicted >= dl_g)
         else:
             predicted = np.where(known, G, 0.0)
             visible = known & (G >= strong_fraction)
@@ -313,10 +328,12 @@ def gather_evidence(
             "line": g_line[sl],
             "rep": g_rep[sl],
             "explained": np.zeros(G.size, dtype=bool),
+            "dl": dl_g,
         }
         ev.n_groups_in_range = int(G.size)
         ev.n_strong_in_range = int(np.sum(known & (G >= strong_fraction)))
         ev.missing_evidence = bool(with_int)
+        ev.prior_dex = prior_dex(abundance_prior, ev.element)
         sel = order_l[la:lb]
         lines, first = np.unique(ref[sel], return_index=True)
         ev.found_lines = lines.tolist()

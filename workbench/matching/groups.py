@@ -1,8 +1,10 @@
 """Resolvable groups: lines of one species that the instrument cannot tell apart count once.
 
 Lines of a species are sorted by position; consecutive lines closer than the
-match half-window at that position (the tolerance in force) fall into one
-group, and chains of such lines join. A group is one piece of evidence:
+resolution element at that position (the FWHM the tolerance in force stands
+for: the measured FWHM for ``fwhm`` windows, x/R for ``resolving_power``,
+the half-window itself for ``fixed``, twice the given half-window for
+per-peak tolerances) fall into one group, and chains of such lines join. A group is one piece of evidence:
 
 * found when any of its lines has an observed peak in its window;
 * its predicted strength is the sum of its lines' strengths (an unresolved
@@ -36,7 +38,7 @@ def resolvable_groups(
     position : numpy.ndarray
         Line position (ascending within each species).
     half_window : numpy.ndarray
-        Match half-window at each line's position (axis unit).
+        Resolution element at each line's position (axis unit).
 
     Returns
     -------

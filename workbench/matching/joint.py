@@ -10,6 +10,12 @@ explained group is counted neither for nor against the lower species (its
 intensity is not re-spent), and the species is re-evaluated. If it is still
 "probable" or better, it claims its own found groups' peaks in turn.
 
+Uniqueness is decided in the same walk: a found group counts as unique when
+no other plausible species competes for its peak (the pass's own rule), or
+when no better-ranked species of another element called "probable" or
+better has a line there: a species ranked below cannot take a peak away
+from a better one.
+
 So a species cannot be established on lines a far better supported species
 explains (Ca II H at 396.85 nm in the Sun is not evidence for Dy II), while
 two species that truly share a peak keep their unique lines. The report
@@ -43,13 +49,23 @@ def explain_jointly(
     claim_pred = np.full(n_obs, -np.inf)
     claim_sp = np.full(n_obs, -1, dtype=np.int64)
     claim_el = np.full(n_obs, "", dtype=object)
+    # Element of the best-ranked "probable"-or-better species that has a
+    # found group at each peak ("" = none yet).
+    touch_el = np.full(n_obs, "", dtype=object)
     with_int = np.isfinite(obs.intensity)
     ranked = sorted(ev_pass.evidence.values(), key=lambda v: (-v.net_evidence_dex, v.label))
     for ev in ranked:
         g = ev.groups
         found = g["found"]
         pk = np.where(found, g["peak"], 0)
+        # Unique in the joint sense: no better-ranked supported species of
+        # another element has a line at the peak.
+        jointly_unique = found & ((touch_el[pk] == "") | (touch_el[pk] == ev.element))
+        changed = bool(np.any(jointly_unique & ~g["unique"]))
+        if changed:
+            g["unique"] = g["unique"] | jointly_unique
         claimed = found & (claim_sp[pk] >= 0) & (claim_el[pk] != ev.element)
+        expl = np.zeros_like(found)
         if np.any(claimed):
             enough = np.where(
                 with_int[pk] & ev.missing_evidence,
@@ -57,18 +73,22 @@ def explain_jointly(
                 True,
             )
             expl = claimed & enough
-            if np.any(expl):
-                g["explained"] = expl
-                ev.explained_by = sorted({index.species_names[int(c)] for c in claim_sp[pk[expl]]})
-                evaluate(
-                    ev,
-                    detection_limit=obs.detection_limit,
-                    sigma_dex=sigma_dex,
-                    n_tried=ev_pass.n_species_tried,
-                    strong_fraction=strong_fraction,
-                )
+        if np.any(expl) or changed:
+            g["explained"] = expl
+            ev.explained_by = sorted({index.species_names[int(c)] for c in claim_sp[pk[expl]]})
+            evaluate(
+                ev,
+                detection_limit=obs.detection_limit,
+                sigma_dex=sigma_dex,
+                n_tried=ev_pass.n_species_tried,
+                strong_fraction=strong_fraction,
+            )
+        own = found & ~g["explained"]
         if ev.level >= 2:
-            own = found & ~g["explained"]
+            t = pk[own]
+            t = t[touch_el[t] == ""]
+            touch_el[t] = ev.element
+        if ev.level >= 2:
             p = pk[own]
             pred = g["predicted"][own]
             better = pred > claim_pred[p]

@@ -33,7 +33,9 @@ missing-line penalty
     have been seen. Without intensities or a detection limit the penalty is
     not available and the report says so.
 net evidence (decades)
-    ``E = −log10(p_corr) + Σ penalties``.
+    ``E = −log10(p_corr) + Σ penalties + prior``, the prior being the
+    optional abundance prior's log-odds (:mod:`workbench.matching.priors`;
+    0 with the default ``none``).
 
 Verdict classes, strongest first (``verdict_level``); "found groups" are
 groups with a peak, not explained by a better species:
@@ -125,6 +127,7 @@ class SpeciesEvidence:
     missing_penalty_dex: float = 0.0
     net_evidence_dex: float = 0.0
     missing_evidence: bool = False
+    prior_dex: float = 0.0
     n_groups_found: int = 0
     n_groups_matched: int = 0
     n_groups_counted: int = 0
@@ -177,11 +180,15 @@ def evaluate(
     pred = g["predicted"]
     penalty = 0.0
     if ev.missing_evidence and detection_limit and np.any(missing):
-        z = (np.log10(detection_limit) - np.log10(pred[missing])) / sigma_dex
+        dl = g.get("dl")
+        dl = dl[missing] if dl is not None else detection_limit
+        z = (np.log10(dl) - np.log10(pred[missing])) / sigma_dex
         p_miss = LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
         penalty = float(np.sum(np.log10(p_miss)))
     ev.missing_penalty_dex = penalty
-    ev.net_evidence_dex = float(-np.log10(max(ev.chance_probability_corrected, 1e-300)) + penalty)
+    ev.net_evidence_dex = float(
+        -np.log10(max(ev.chance_probability_corrected, 1e-300)) + penalty + ev.prior_dex
+    )
     m_order = np.argsort(-pred[missing], kind="stable")
     ev.missing_lines = g["rep"][missing][m_order].tolist()
     ev.missing_predicted = pred[missing][m_order].tolist()
