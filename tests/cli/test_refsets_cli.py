@@ -96,3 +96,75 @@ def test_import_lab(tmp_path, capsys):
         == 3
     )
     assert "line 2" in capsys.readouterr().err
+
+
+def test_verify_covers_the_components_table(capsys):
+    assert main(["refsets", "verify", "--json"]) == 0
+    files = [f["file"] for f in json.loads(capsys.readouterr().out)["files"]]
+    assert "sets/optical_components.parquet" in files
+
+
+def test_components_of_ba_ii_4934(capsys):
+    # Ba II 493.41 nm air (NIST ASD, from memory): one row, eleven Gaia-ESO components
+    assert (
+        main(
+            [
+                "refsets",
+                "show",
+                "optical",
+                "--element",
+                "Ba",
+                "--ion",
+                "2",
+                "--range-nm",
+                "493.53",
+                "493.56",
+                "--json",
+            ]
+        )
+        == 0
+    )
+    lines = json.loads(capsys.readouterr().out)["lines"]
+    assert len(lines) == 1 and lines[0]["n_components"] == 11
+    line_id = lines[0]["line_id"]
+    assert main(["refsets", "components", line_id, "--json"]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["line"]["line_id"] == line_id and len(out["components"]) == 11
+    assert {c["isotope"] for c in out["components"]} == {
+        "134Ba",
+        "135Ba",
+        "136Ba",
+        "137Ba",
+        "138Ba",
+    }
+    assert main(["refsets", "components", line_id]) == 0
+    text = capsys.readouterr().out
+    assert "11 component(s)" in text and "138Ba" in text
+
+
+def test_components_of_a_single_row_and_an_unknown_id(capsys):
+    # Pb I 405.781 nm air (NIST ASD, from memory) is listed once by its sources
+    assert (
+        main(
+            [
+                "refsets",
+                "show",
+                "optical",
+                "--element",
+                "Pb",
+                "--ion",
+                "1",
+                "--range-nm",
+                "405.89",
+                "405.90",
+                "--json",
+            ]
+        )
+        == 0
+    )
+    line_id = json.loads(capsys.readouterr().out)["lines"][0]["line_id"]
+    assert main(["refsets", "components", line_id]) == 0
+    assert "no components" in capsys.readouterr().out
+    assert main(["refsets", "components", "optical:Xx:1:1.0"]) == 2
+    err = capsys.readouterr().err
+    assert "optical:Xx:1:1.0" in err and "refsets show" in err

@@ -31,7 +31,7 @@ def test_default_root_is_the_checkout():
 
 def test_manifest_lists_every_data_file_and_hashes_match():
     manifest = read_manifest(ROOT)
-    entries = [*manifest["sets"], *manifest["atomic"], *manifest["other"]]
+    entries = [*manifest["sets"], *manifest["components"], *manifest["atomic"], *manifest["other"]]
     listed = {e["file"] for e in entries}
     assert _data_files() == listed
     for e in entries:

@@ -7,7 +7,7 @@ from scipy import constants as sc
 
 from workbench.physics.airvac import vacuum_to_air_nm
 from workbench.physics.units import HC_EV_NM
-from workbench.refdata import CANONICAL_SCHEMA, load_set
+from workbench.refdata import CANONICAL_SCHEMA, COMPONENT_SCHEMA, load_components, load_set
 
 ELEMENTS_36 = (
     "H He Li C N O Na Mg Al Si K Ca Ti Cr Mn Fe Co Ni Cu Zn As Sr Zr Ag Cd Sn Sb Ba Au Hg "
@@ -55,9 +55,8 @@ KEY_LINES = [
 @pytest.mark.parametrize(("element", "ion", "wavelength_nm"), KEY_LINES)
 def test_key_line_present(table, element, ion, wavelength_nm):
     found = _near(table, element, ion, wavelength_nm)
-    assert found.height >= 1
-    # the element-average (non-isotope) line is there, not only isotope components
-    assert found.filter(~pl.col("notes").fill_null("").str.contains("isotope")).height >= 1
+    # one row per transition: isotope/hyperfine components are blended into it
+    assert found.height == 1
 
 
 def test_as_189_vacuum_line_kept(table):
@@ -189,3 +188,150 @@ def test_hydrogen_like_set(optical):
     assert ha.height >= 3
     opt_h = _near(optical.table, "H", 1, 656.28, tol=0.03)
     assert opt_h.height == ha.height
+
+
+# --------------------------------------------------------------------------- one row per transition
+
+
+@pytest.fixture(scope="module")
+def components():
+    return load_components("optical")
+
+
+def test_ba_ii_4934_is_one_row_with_its_gaia_eso_components(table, components):
+    # Ba II 493.41 nm air (NIST ASD, from memory); the Gaia-ESO list splits it into
+    # hyperfine and isotope components (134Ba-138Ba) within 0.008 nm
+    rows = _near(table, "Ba", 2, 493.4077, tol=0.02)
+    assert rows.height == 1
+    r = rows.row(0, named=True)
+    comps = components.filter(pl.col("blend_id") == r["line_id"])
+    assert r["n_components"] == comps.height == 11
+    assert set(comps["source_id"]) == {"ges2022"}
+    assert set(comps["isotope"]) == {"134Ba", "135Ba", "136Ba", "137Ba", "138Ba"}
+    # the Gaia-ESO list gives each isotope's components with the gf of the pure
+    # isotope: per isotope they add up to log gf = -0.157 (the shipped components)
+    for _iso, part in comps.group_by("isotope"):
+        assert math.log10((10 ** part["log_gf"]).sum()) == pytest.approx(-0.157, abs=0.003)
+    # natural abundance of 138Ba 71.70 % (IUPAC/CIAAW, from memory)
+    x138 = comps.filter(pl.col("isotope") == "138Ba")["isotope_fraction"][0]
+    assert x138 == pytest.approx(0.717, abs=0.001)
+    # summed gf = Σ x·gf over the shipped components, every one of them summed
+    assert comps["in_blend"].all()
+    expect = (comps["isotope_fraction"] * 10 ** comps["log_gf"]).sum()
+    assert comps["weight_gf"].sum() == pytest.approx(expect, rel=1e-12)
+    # Morton (2000) gives the whole line log gf = -0.159 and is kept (higher
+    # precedence); the Gaia-ESO blend agrees within 0.005 dex
+    assert r["source_id"] == "morton00" and r["alt_sources"] == "ges2022"
+    assert math.log10(expect) == pytest.approx(r["log_gf"], abs=0.005)
+    # the blend's intensity-weighted position lies within the components' span
+    w = comps["weight_gf"].to_numpy()
+    lam = float((w * comps["wavelength_vac_nm"].to_numpy()).sum() / w.sum())
+    assert abs(lam - r["wavelength_vac_nm"]) <= r["wavelength_spread_nm"] + 1e-12
+
+
+def test_mg_i_2852_is_one_row_with_the_alternative_recorded(table, components):
+    # Mg I 285.2127 nm air (NIST ASD, from memory): Morton 2003 gives it for the
+    # natural mixture (285.2125) and for 24Mg (285.21255), 25Mg and 26Mg
+    rows = _near(table, "Mg", 1, 285.2127, tol=0.005)
+    assert rows.height == 1
+    r = rows.row(0, named=True)
+    assert r["source_id"] == "morton03"
+    assert r["n_sources"] == 2 and r["alt_sources"] == "verner96"
+    assert r["wavelength_spread_nm"] is not None and r["log_A_spread_dex"] is not None
+    comps = components.filter(pl.col("blend_id") == r["line_id"]).sort("kind")
+    assert comps["kind"].to_list() == ["isotope", "isotope", "isotope", "natural"]
+    assert set(comps["isotope"].drop_nulls()) == {"24Mg", "25Mg", "26Mg"}
+    # the natural-mixture row is the line; the isotope rows are kept, not summed
+    assert comps.filter(pl.col("kind") == "isotope")["in_blend"].not_().all()
+    assert r["log_gf"] == pytest.approx(0.263, abs=1e-9)  # Morton 2003 Table 2
+
+
+@pytest.mark.parametrize(("element", "ion"), [("Mg", 2), ("Cu", 1), ("Li", 1), ("Nd", 2)])
+def test_no_isotope_component_left_as_a_line(table, element, ion):
+    rows = table.filter((pl.col("element") == element) & (pl.col("ion") == ion))
+    assert not rows["notes"].fill_null("").str.contains("not merged").any()
+
+
+def test_blended_rows_equal_the_sum_of_their_components(table, components):
+    # for every line kept from the source that blended it, log gf and wavelength
+    # are the x·gf sum and x·gf-weighted mean of its summed components
+    summed = components.filter(pl.col("in_blend") & pl.col("weight_gf").is_not_null())
+    agg = summed.group_by("blend_id", "source_id").agg(
+        pl.col("weight_gf").sum().alias("w"),
+        (
+            (pl.col("weight_gf") * pl.col("wavelength_vac_nm")).sum() / pl.col("weight_gf").sum()
+        ).alias("lam"),
+        (pl.col("kind") == "natural").any().alias("has_natural"),
+    )
+    joined = table.join(agg, left_on=["line_id", "source_id"], right_on=["blend_id", "source_id"])
+    joined = joined.filter(~pl.col("has_natural") & pl.col("log_gf").is_not_null())
+    assert joined.height > 1500
+    assert np.allclose(joined["log_gf"], np.log10(joined["w"].to_numpy()), atol=1e-9, rtol=0)
+    assert np.allclose(joined["wavelength_vac_nm"], joined["lam"], atol=1e-9, rtol=0)
+
+
+def test_components_table_is_keyed_by_the_blended_lines(table, components):
+    assert list(components.columns) == list(COMPONENT_SCHEMA)
+    ids = set(table["line_id"])
+    assert set(components["blend_id"]) <= ids
+    counts = components.group_by("blend_id").len()
+    joined = table.join(counts, left_on="line_id", right_on="blend_id", how="left")
+    # n_components = rows in the components table; a row its sources list once has
+    # none there (a lone isotope row, e.g. 139La, is a one-component blend)
+    assert (joined["n_components"] == joined["len"].fill_null(1)).all()
+    assert (joined.filter(pl.col("n_components") > 1)["len"] > 1).all()
+    assert components["wavelength_vac_nm"].is_not_null().all()
+
+
+def test_no_two_rows_describe_the_same_transition(table):
+    """No two rows of one element+ion within the merge tolerance are one transition.
+
+    Rows are taken as the same transition when they lie within 0.005 nm (the
+    cross-source tolerance), their g_k agree (or one is unknown) and their
+    lower-level energies agree within 0.01 eV (both known).
+    """
+    t = table.sort("element", "ion", "wavelength_vac_nm")
+    lam = t["wavelength_vac_nm"].to_numpy()
+    key = (t["element"] + ":" + t["ion"].cast(pl.String)).to_numpy()
+    gu = t["g_upper"].to_numpy(allow_copy=True)
+    el = t["E_lower_eV"].to_numpy(allow_copy=True)
+    src = t["source_id"].to_list()
+    alt = t["alt_sources"].fill_null("").to_list()
+    label = t["transition"].to_list()
+    cross, same_source = [], []
+    for i in range(len(lam)):
+        j = i + 1
+        while j < len(lam) and key[j] == key[i] and lam[j] - lam[i] <= 0.005:
+            g_ok = np.isnan(gu[i]) or np.isnan(gu[j]) or gu[i] == gu[j]
+            e_ok = not np.isnan(el[i]) and not np.isnan(el[j]) and abs(el[i] - el[j]) <= 0.01
+            if g_ok and e_ok:
+                if src[i] != src[j]:
+                    cross.append((i, j))
+                elif label[i] is not None and label[i] == label[j]:
+                    same_source.append((key[i], round(float(el[i]), 3)))
+            j += 1
+    # across sources: only where that source's row for this place was already merged
+    # into the other (the source lists two transitions there)
+    for i, j in cross:
+        assert src[j] in alt[i] or src[i] in alt[j], (t["line_id"][i], t["line_id"][j])
+    # within one source, identical labels remain only where the Gaia-ESO list leaves
+    # the lower level's J out of the label and the two J levels agree to 0.001 eV:
+    # Sc I 3d4s(1D)4p 2P* (3.057 eV; the pairs keep a constant 1.6-1.9 cm⁻¹
+    # offset from 470 to 549 nm, i.e. two lower levels), Li I 3d 2D (3.879 eV)
+    # and Ca I 3d4p 3F* (4.441 eV), each with its own damping data in the list
+    assert set(same_source) <= {("Sc:1", 3.057), ("Li:1", 3.879), ("Ca:1", 4.441)}
+
+
+# Rows per element in data version 2026.12.1 (the optical set before blending,
+# git 598942b): the blend removes component and duplicate rows, never adds any.
+ROWS_2026_12_1 = {"Ba": 146, "Mg": 361, "Fe": 30191, "Ti": 8209, "Cu": 1207, "Mn": 5323, "Co": 5152}
+
+
+def test_row_counts_per_element_before_and_after(table, capsys):
+    after = dict(table.group_by("element").len().iter_rows())
+    with capsys.disabled():
+        print("\nelement  2026.12.1  now")
+        for el, before in ROWS_2026_12_1.items():
+            print(f"{el:<7} {before:>9} {after[el]:>5}")
+    for el, before in ROWS_2026_12_1.items():
+        assert after[el] < before, el

@@ -38,6 +38,15 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--json", action="store_true", help="print JSON")
     p.set_defaults(func=_show)
 
+    p = sub.add_parser(
+        "components", help="hyperfine/isotope components of one blended line (high resolution)"
+    )
+    p.add_argument("line_id", metavar="LINE_ID", help="line_id of the blended line (see show)")
+    p.add_argument("--set", dest="set_id", default="optical", help="set (default optical)")
+    p.add_argument("--root", metavar="DIR", help="reference collection (default: shipped one)")
+    p.add_argument("--json", action="store_true", help="print JSON")
+    p.set_defaults(func=_components)
+
     p = sub.add_parser("verify", help="check every file against its SHA-256 (exit 3 on mismatch)")
     _add_common(p)
     p.add_argument("--json", action="store_true", help="print JSON")
@@ -121,13 +130,57 @@ def _show(args: argparse.Namespace) -> int:
                 f"{r['siegbahn'] or '':<8} {r['rel_intensity'] or 0:>8.4f}"
             )
         return 0
-    print(f"{'air_nm':>10} {'vac_nm':>10} {'el':<3} {'ion':>3} {'A_ki/s':>10} {'source':<22}")
+    print(
+        f"{'air_nm':>10} {'vac_nm':>10} {'el':<3} {'ion':>3} {'A_ki/s':>10} "
+        f"{'source':<22} {'comp':>4}  line_id"
+    )
     for r in t.iter_rows(named=True):
         air = f"{r['wavelength_air_nm']:.4f}" if r["wavelength_air_nm"] is not None else "-"
         a = f"{r['A_ki_per_s']:.3g}" if r["A_ki_per_s"] is not None else "-"
+        n = r.get("n_components")
         print(
             f"{air:>10} {r['wavelength_vac_nm']:>10.4f} {r['element']:<3} "
-            f"{r['ion'] if r['ion'] is not None else '-':>3} {a:>10} {r['source_id']:<22}"
+            f"{r['ion'] if r['ion'] is not None else '-':>3} {a:>10} {r['source_id']:<22} "
+            f"{n if n is not None else '-':>4}  {r['line_id']}"
+        )
+    return 0
+
+
+def _components(args: argparse.Namespace) -> int:
+    from workbench.errors import InputError
+    from workbench.refdata import load_components, load_set
+
+    rs = load_set(args.set_id, _root(args))
+    line = rs.table.filter(rs.table["line_id"] == args.line_id)
+    if line.height == 0:
+        raise InputError(
+            f"no line {args.line_id!r} in set {args.set_id!r}",
+            f"list line ids with `workbench refsets show {args.set_id} --element X`",
+        )
+    comps = load_components(args.set_id, _root(args), line_id=args.line_id)
+    row = line.row(0, named=True)
+    if args.json:
+        _dump({"set": rs.provenance(), "line": row, "components": comps.to_dicts()})
+        return 0
+    print(
+        f"{args.line_id}: {row['element']} {row['ion']}, vac {row['wavelength_vac_nm']:.5f} nm, "
+        f"log gf {row['log_gf'] if row['log_gf'] is not None else '-'}, "
+        f"{comps.height} component(s)"
+    )
+    if comps.height == 0:
+        print("listed as one row by its source(s): no components")
+        return 0
+    print(
+        f"{'vac_nm':>11} {'log_gf':>7} {'isotope':<8} {'fraction':>8} {'weight_gf':>10} "
+        f"{'summed':<6} source"
+    )
+    for c in comps.iter_rows(named=True):
+        lg = f"{c['log_gf']:.3f}" if c["log_gf"] is not None else "-"
+        x = f"{c['isotope_fraction']:.4f}" if c["isotope_fraction"] is not None else "-"
+        w = f"{c['weight_gf']:.4g}" if c["weight_gf"] is not None else "-"
+        print(
+            f"{c['wavelength_vac_nm']:>11.5f} {lg:>7} {c['isotope'] or '-':<8} {x:>8} {w:>10} "
+            f"{'yes' if c['in_blend'] else 'no':<6} {c['source_id']}"
         )
     return 0
 

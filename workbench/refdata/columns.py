@@ -3,13 +3,18 @@
 Every set (optical, X-ray, computed hydrogen-like, lab sets) has exactly these
 columns in this order; a value that does not apply or is unknown is null,
 never zero.
+
+``n_components`` (data version 2026.12.2 on) is the number of hyperfine or
+isotope components a line of the ``optical`` set was blended from (1 for a
+line listed as one row; the components are in ``optical_components``, see
+:mod:`workbench.refdata.blend`); null in sets that do not blend.
 """
 
 from __future__ import annotations
 
 import polars as pl
 
-__all__ = ["CANONICAL_SCHEMA", "conform", "empty_table"]
+__all__ = ["ADDED_COLUMNS", "CANONICAL_SCHEMA", "conform", "empty_table"]
 
 #: Column name → polars dtype, in the canonical order.
 CANONICAL_SCHEMA: dict[str, pl.DataType] = {
@@ -37,7 +42,12 @@ CANONICAL_SCHEMA: dict[str, pl.DataType] = {
     "wavelength_spread_nm": pl.Float64(),
     "log_A_spread_dex": pl.Float64(),
     "notes": pl.String(),
+    "n_components": pl.Int32(),
 }
+
+#: Columns added to the canonical set after data version 2026.12.1, at its end. A
+#: table saved before (a lab set) lacks them and is read with them as nulls.
+ADDED_COLUMNS: tuple[str, ...] = ("n_components",)
 
 
 def empty_table() -> pl.DataFrame:

@@ -14,10 +14,11 @@ from workbench.errors import (
     ManifestError,
     UnknownReferenceSetError,
 )
-from workbench.refdata.columns import CANONICAL_SCHEMA
+from workbench.refdata.blend import COMPONENT_SCHEMA
+from workbench.refdata.columns import ADDED_COLUMNS, CANONICAL_SCHEMA, conform
 from workbench.refdata.manifest import REBUILD_HINT, default_root, read_manifest, sha256_file
 
-__all__ = ["LAB_MANIFEST_NAME", "ReferenceSet", "load_set"]
+__all__ = ["LAB_MANIFEST_NAME", "ReferenceSet", "load_components", "load_set"]
 
 #: Manifest file of a lab-set directory.
 LAB_MANIFEST_NAME = "lab_manifest.json"
@@ -72,7 +73,9 @@ class ReferenceSet:
 _CACHE: dict[tuple[str, str, int], pl.DataFrame] = {}
 
 
-def _read_table(path: Path, expected_sha256: str, what: str) -> pl.DataFrame:
+def _read_table(
+    path: Path, expected_sha256: str, what: str, columns: dict | None = None
+) -> pl.DataFrame:
     if not path.is_file():
         raise DataIntegrityError(f"reference file {path} for {what} is missing", REBUILD_HINT)
     stat = path.stat()
@@ -93,6 +96,15 @@ def _read_table(path: Path, expected_sha256: str, what: str) -> pl.DataFrame:
         raise DataIntegrityError(
             f"{path} cannot be read as Parquet ({exc})", REBUILD_HINT
         ) from None
+    if columns is not None:
+        if list(table.columns) != list(columns):
+            raise ManifestError(f"{path} does not have the expected columns", REBUILD_HINT)
+        _CACHE[key] = table
+        return table
+    legacy = [c for c in CANONICAL_SCHEMA if c not in ADDED_COLUMNS]
+    if list(table.columns) == legacy:
+        # a lab set saved before the newer columns existed: add them as nulls
+        table = conform(table)
     if list(table.columns) != list(CANONICAL_SCHEMA):
         raise ManifestError(f"{path} does not have the canonical line-table columns", REBUILD_HINT)
     _CACHE[key] = table
@@ -181,3 +193,48 @@ def load_set(set_id: str, root: Path | None = None, lab_dir: Path | None = None)
         f"no reference set {set_id!r}",
         f"use one of: {', '.join(known)} (lab sets need --lab-dir)",
     )
+
+
+def load_components(
+    set_id: str = "optical", root: Path | None = None, *, line_id: str | None = None
+) -> pl.DataFrame:
+    """Load the hyperfine/isotope components of a set's blended lines (hash-checked).
+
+    Parameters
+    ----------
+    set_id : str
+        The set whose blended lines are wanted (only ``"optical"`` has components).
+    root : pathlib.Path, optional
+        Collection directory; :func:`~workbench.refdata.manifest.default_root` when omitted.
+    line_id : str, optional
+        Only the components of this blended line (``blend_id == line_id``).
+
+    Returns
+    -------
+    polars.DataFrame
+        Columns of :data:`~workbench.refdata.blend.COMPONENT_SCHEMA`, keyed by
+        ``blend_id`` (the ``line_id`` of the blended line in the set). A line
+        with ``n_components == 1`` has no rows here.
+
+    Raises
+    ------
+    UnknownReferenceSetError
+        The collection has no components table for that set.
+    DataIntegrityError
+        The file is missing or its hash does not match.
+    """
+    root = Path(root) if root is not None else default_root()
+    manifest = read_manifest(root)
+    entries = {e.get("parent_set"): e for e in manifest.get("components", [])}
+    if set_id not in entries:
+        raise UnknownReferenceSetError(
+            f"reference set {set_id!r} has no components table",
+            f"use one of: {', '.join(sorted(str(k) for k in entries)) or '(none)'}",
+        )
+    entry = entries[set_id]
+    table = _read_table(
+        root / entry["file"], entry["sha256"], f"components of {set_id!r}", COMPONENT_SCHEMA
+    )
+    if line_id is not None:
+        table = table.filter(pl.col("blend_id") == line_id)
+    return table

@@ -85,7 +85,7 @@ def read_manifest(root: Path | None = None) -> dict[str, Any]:
     Returns
     -------
     dict
-        The manifest (``data_version``, ``sets``, ``atomic``).
+        The manifest (``data_version``, ``sets``, ``components``, ``atomic``).
 
     Raises
     ------
@@ -112,6 +112,7 @@ def read_manifest(root: Path | None = None) -> dict[str, Any]:
         if missing:
             raise ManifestError(f"{path}: set entry {n} lacks {', '.join(missing)}", REBUILD_HINT)
     manifest.setdefault("atomic", [])
+    manifest.setdefault("components", [])
     return manifest
 
 
@@ -184,7 +185,13 @@ def verify_sets(root: Path | None = None) -> list[dict[str, Any]]:
     root = Path(root) if root is not None else default_root()
     manifest = read_manifest(root)
     results = []
-    for entry in [*manifest["sets"], *manifest["atomic"], *manifest.get("other", [])]:
+    entries = [
+        *manifest["sets"],
+        *manifest.get("components", []),
+        *manifest["atomic"],
+        *manifest.get("other", []),
+    ]
+    for entry in entries:
         path = root / entry["file"]
         if not path.is_file():
             actual, status = None, "missing"
