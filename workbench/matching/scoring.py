@@ -26,9 +26,13 @@ missing-line penalty
     For each group that should be seen and has no peak, log10 of the
     probability of not seeing it given the model:
     Φ((log10 DL − log10 predicted) / σ), σ the source model's uncertainty in
-    decades (:mod:`workbench.matching.sourcemodels`), floored at −3 decades
-    per group (no single line, however sure the model, outweighs everything
-    else: real sources have filters, blends and response edges). A missing
+    decades (:mod:`workbench.matching.sourcemodels`), with a loss
+    probability ε = 0.2 (:data:`LOSS_PROBABILITY`):
+    P(not seen | present) = ε + (1 − ε)·Φ(z). ε is the chance that a line
+    of a species that is there is lost for reasons outside the model
+    (unresolved blend, filter or response edge, self-absorption, a wrong
+    tabulated intensity), so one surely-visible missing line costs at most
+    log10 0.2 = −0.7 decades and many such lines add up. A missing
     line counts against the species in proportion to how surely it should
     have been seen. Without intensities or a detection limit the penalty is
     not available and the report says so.
@@ -50,7 +54,7 @@ groups with a peak, not explained by a better species:
     E ≥ 1.5, at least 2 found groups counted in ``p``, at least 1 unique.
     This is the cap for peak lists without intensities.
 1 ``possible``
-    at least one found group and E ≥ −2 (some support, not outweighed by
+    at least one found group and E ≥ −1 (some support, not outweighed by
     missing lines). Includes species whose lines are all shared or
     explained by others.
 0 ``not supported``
@@ -58,9 +62,9 @@ groups with a peak, not explained by a better species:
     sees what was considered and why it was rejected.
 
 The score (0–1) orders species within a class: ``max(E, 0) / (max(E, 0) + 3)``.
-The thresholds (3, 1.5, −2 decades; floor −3 per group) were fixed before
-the real-spectra tune set was run and not changed by it (see
-``docs/evidence-model.md``).
+The thresholds (3, 1.5 decades) were fixed before the real spectra were run;
+the loss probability 0.2 and the "possible" floor −1 were chosen on the
+tune set only (see ``docs/evidence-model.md``).
 """
 
 from __future__ import annotations
@@ -90,7 +94,7 @@ VERDICTS: dict[int, str] = {3: "established", 2: "probable", 1: "possible", 0: "
 #: Net evidence needed for "established" / "probable" / "possible" (decades).
 ESTABLISHED_DEX: float = 3.0
 PROBABLE_DEX: float = 1.5
-POSSIBLE_DEX: float = -2.0
+POSSIBLE_DEX: float = -1.0
 #: Probability that a line of a species that IS present is lost for reasons
 #: outside the source model (unresolved blend with a stronger neighbour,
 #: filter or response edge, self-absorption, a wrong tabulated intensity).
