@@ -26,7 +26,7 @@ def test_match_json_stdout_is_deterministic(paint_chip, capsysbinary):
     second = capsysbinary.readouterr().out
     assert first == second
     rep = json.loads(first)
-    assert rep["schema_version"] == 1
+    assert rep["schema_version"] == 2  # bumped by issue 9 (docs/result-schema.md)
     assert rep["input"]["medium"] == "air"
     levels = {el["species"]: el["verdict_level"] for el in rep["elements"]}
     # The invented paint chip was synthesised with Ti II and Ba II (workbench.demo).
