@@ -74,9 +74,8 @@ def _goodman(path: Path) -> RealSpectrum:
     coef = [hd[f"GSP_C{i:03d}"] for i in range(int(hd["GSP_ORDR"]) + 1)]
     pix = np.arange(y.size, dtype=np.float64)
     wav_A = np.polynomial.chebyshev.chebval(pix, coef)
-    ident = np.array(
-        [float(hd[k]) for k in hd if k.startswith("GSP_A") and k[5:].isdigit() and hd[k]]
-    )
+    ident = np.array([float(hd[k]) for k in hd if re.fullmatch(r"GSP_A\d+", k)])
+    ident = ident[ident > 0]  # 0 = a pipeline line that was not identified
     tag = path.stem.split("_")[-1]
     spec = Spectrum(wav_A / 10.0, y, "wavelength", "air", _source(path), "counts")
     ident_pix = np.array([float(hd[k]) for k in hd if re.fullmatch(r"GSP_P\d+", k)])

@@ -173,6 +173,11 @@ def gather_evidence(
     g_first_line = np.unique(gid[strongest], return_index=True)[1]
     g_rep[gid[strongest][g_first_line]] = usable_idx[strongest][g_first_line]
     g_tol = np.interp(g_pos, obs.position, obs.half_window)
+    # Extent of each group (lines are sorted within it): a chain of close lines
+    # is easier to hit by chance, so its window is its span plus the tolerance.
+    g_first_i = np.flatnonzero(np.diff(np.concatenate(([-1], gid))) != 0)
+    g_last_i = np.append(g_first_i[1:] - 1, gid.size - 1) if gid.size else g_first_i
+    g_span = u_pos[g_last_i] - u_pos[g_first_i] if gid.size else np.zeros(0)
     if response is None:
         g_resp = np.ones(n_groups)
     else:
@@ -323,7 +328,7 @@ def gather_evidence(
             "visible": visible,
             "masked": masked,
             "predicted": predicted,
-            "p_line": 1.0 - np.exp(-rho * 2.0 * g_tol[sl]),
+            "p_line": 1.0 - np.exp(-rho * (2.0 * g_tol[sl] + g_span[sl])),
             "position": g_pos[sl],
             "line": g_line[sl],
             "rep": g_rep[sl],

@@ -4,10 +4,7 @@ Lines of a species are sorted by position; consecutive lines closer than the
 resolution element at that position (the FWHM the tolerance in force stands
 for: the measured FWHM for ``fwhm`` windows, x/R for ``resolving_power``,
 the half-window itself for ``fixed``, twice the given half-window for
-per-peak tolerances) fall into one group, and chains of such lines join;
-a chain longer than one resolution element (dense species) is cut into
-pieces of one resolution element, so a group never covers more than the
-instrument blends. A group is one piece of evidence:
+per-peak tolerances) fall into one group, and chains of such lines join. A group is one piece of evidence:
 
 * found when any of its lines has an observed peak in its window;
 * its predicted strength is the sum of its lines' strengths (an unresolved
@@ -56,15 +53,4 @@ def resolvable_groups(
         same_species = species[1:] == species[:-1]
         close = np.diff(position) <= np.maximum(half_window[1:], half_window[:-1])
         new[1:] = ~(same_species & close)
-    # A chain of close lines (a dense species: Fe I, Th I, rare earths) is cut
-    # into pieces no wider than one resolution element from the chain's first
-    # line, so that a group never covers more than the instrument blends.
-    chain = np.cumsum(new) - 1
-    first = np.flatnonzero(new)
-    start = position[first][chain]
-    width = np.maximum(half_window[first][chain], 1e-300)
-    piece = np.floor((position - start) / width).astype(np.int64)
-    key_new = np.ones(n, dtype=bool)
-    if n > 1:
-        key_new[1:] = (chain[1:] != chain[:-1]) | (piece[1:] != piece[:-1])
-    return np.cumsum(key_new) - 1
+    return np.cumsum(new) - 1

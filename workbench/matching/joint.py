@@ -72,7 +72,13 @@ def explain_jointly(
                 claim_pred[pk] >= EXPLAIN_FRACTION * np.where(with_int[pk], obs.intensity[pk], 0),
                 True,
             )
-            expl = claimed & enough
+            # A peak both species predict at a comparable height is a blend and
+            # counts for both; it is explained away only when this species
+            # itself would account for little of it.
+            own_pred = np.where(np.isfinite(g["predicted"]), g["predicted"], 0.0)
+            obs_i = np.where(with_int[pk], obs.intensity[pk], np.inf)
+            own_small = (own_pred < EXPLAIN_FRACTION * obs_i) | (not ev.missing_evidence)
+            expl = claimed & enough & own_small
         if np.any(expl) or changed:
             g["explained"] = expl
             ev.explained_by = sorted({index.species_names[int(c)] for c in claim_sp[pk[expl]]})

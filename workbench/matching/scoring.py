@@ -14,7 +14,9 @@ groups that should be seen
 chance probability ``p``
     Binomial probability that at least ``k`` of the ``n`` groups that should
     be seen would have a peak in their window by coincidence, with per-group
-    probability 1 − exp(−2ρ·tol), ρ the density of observed peaks at least
+    probability 1 − exp(−ρ·(2·tol + span)) (span: the group's extent, so a
+    long chain of close lines pays for being easy to hit), ρ the density of
+    observed peaks at least
     30 % as intense as the prediction (all peaks without intensities). This
     is what keeps a species with few listed lines from "fitting" a dense
     spectrum.
@@ -186,7 +188,9 @@ def evaluate(
     if ev.missing_evidence and detection_limit and np.any(missing):
         dl = g.get("dl")
         dl = dl[missing] if dl is not None else detection_limit
-        z = (np.log10(dl) - np.log10(pred[missing])) / sigma_dex
+        with np.errstate(divide="ignore"):
+            z = (np.log10(dl) - np.log10(pred[missing])) / sigma_dex
+        z = np.nan_to_num(z, nan=0.0, posinf=np.inf, neginf=-np.inf)
         p_miss = LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
         penalty = float(np.sum(np.log10(p_miss)))
     ev.missing_penalty_dex = penalty
