@@ -18,8 +18,8 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from tests.realdata.loader import HELD_OUT, TUNE, load  # noqa: E402
-from tests.realdata.run import element_classes, lines_shown, run_real  # noqa: E402
+from tests.realdata.loader import HELD_OUT, TUNE, load
+from tests.realdata.run import element_classes, lines_shown, run_real
 
 ORDER = {"established": 3, "probable": 2, "possible": 1, "not supported": 0}
 SHORT = {"established": "EST", "probable": "prob", "possible": "poss", "not supported": "-"}

@@ -2,10 +2,9 @@
 
 from __future__ import annotations
 
+from tests.realdata.loader import RealSpectrum
 from workbench.matching.analyse import analyse_spectrum
 from workbench.matching.engine import MatchParameters
-
-from tests.realdata.loader import RealSpectrum
 
 __all__ = ["element_classes", "run_real"]
 

@@ -166,7 +166,7 @@ def test_astm_fraunhofer_elements_at_least_probable(element, prior):
 
 @pytest.mark.parametrize("prior", ["none", "solar"])
 def test_astm_nothing_established_on_a_telluric_band(prior):
-    rs, outcome = _run("ASTMG173", prior)
+    _, outcome = _run("ASTMG173", prior)
     peaks = outcome.peaks
     x = peaks.positions
     tell = np.zeros(x.size, dtype=bool)

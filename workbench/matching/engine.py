@@ -60,8 +60,8 @@ from workbench.matching.interference import (
     interference_warnings,
 )
 from workbench.matching.joint import explain_jointly
-from workbench.matching.reference import ReferenceIndex
 from workbench.matching.priors import prior_dex
+from workbench.matching.reference import ReferenceIndex
 from workbench.matching.response import ResponseFit, fit_response
 from workbench.matching.scoring import PROBABLE_DEX
 from workbench.matching.sourcemodels import SOURCE_MODELS, get_model, model_strengths

@@ -4,7 +4,10 @@ Lines of a species are sorted by position; consecutive lines closer than the
 resolution element at that position (the FWHM the tolerance in force stands
 for: the measured FWHM for ``fwhm`` windows, x/R for ``resolving_power``,
 the half-window itself for ``fixed``, twice the given half-window for
-per-peak tolerances) fall into one group, and chains of such lines join. A group is one piece of evidence:
+per-peak tolerances) fall into one group, and chains of such lines join.
+A chain is easier to hit by chance, so the chance probability uses its span
+plus the window (:mod:`workbench.matching.scoring`). A group is one piece
+of evidence:
 
 * found when any of its lines has an observed peak in its window;
 * its predicted strength is the sum of its lines' strengths (an unresolved

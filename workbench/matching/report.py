@@ -349,7 +349,8 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
     if sm:
         out.append(
             f"source model {sm.get('name')} (σ {sm.get('sigma_dex')} dex; {sm.get('chosen_by')}); "
-            f"abundance prior {em.get('abundance_prior')}; {em.get('n_species_tried')} species tried"
+            f"abundance prior {em.get('abundance_prior')}; "
+            f"{em.get('n_species_tried')} species tried"
         )
     cal = report.get("calibration") or {}
     if cal.get("applied"):
