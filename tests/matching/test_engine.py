@@ -8,6 +8,7 @@ import pytest
 from scipy import constants as sc
 
 from tests.matching.invented import FakeSet, invented_table, peaks_from
+from workbench.datamodel import PeakList
 from workbench.errors import ValueRangeError
 from workbench.matching import MatchParameters, ToleranceSpec, match_peaks, result_json
 from workbench.matching.expected import GF_TO_GA, expected_strengths
@@ -196,3 +197,70 @@ def test_report_has_schema_fields(invented_set):
     ):
         assert key in el
     assert rep["input"]["medium"] == "vacuum"
+
+
+# --- Issue 9/11: input robustness and guard rails -------------------------------
+
+
+@pytest.fixture(scope="module")
+def optical_set():
+    from workbench.refdata import load_set
+
+    return load_set("optical")
+
+
+def test_peak_outside_reference_range_gives_a_clean_result(optical_set):
+    # One line at 1001 nm: the shipped optical set ends at 1000 nm (its manifest title).
+    peaks = PeakList(pl.DataFrame({"wavelength_nm": [1001.0]}), "wavelength", "air")
+    rep = match_peaks(peaks, [optical_set]).report()
+    assert [e for e in rep["elements"] if e["verdict_level"] >= 1] == []
+    assert any(w["kind"] == "out_of_reference_range" for w in rep["warnings"])
+
+
+def test_a_million_identical_rows_are_merged(optical_set):
+    n = 1_000_000
+    t = pl.DataFrame({"wavelength_nm": np.full(n, 393.366), "intensity": np.full(n, 5.0)})
+    rep = match_peaks(PeakList(t, "wavelength", "air"), [optical_set]).report()
+    assert rep["input"]["n_peaks"] == 1
+    assert any(w["kind"] == "duplicate_peaks" for w in rep["warnings"])
+
+
+def test_too_wide_tolerance_is_refused_at_once(optical_set):
+    # ±5000 nm compares every peak with every line (issue 9: 15 minutes, 15 GB).
+    peaks = PeakList(
+        pl.DataFrame({"wavelength_nm": np.linspace(300.0, 700.0, 200)}), "wavelength", "air"
+    )
+    params = MatchParameters(tolerance=ToleranceSpec("fixed", 5000.0))
+    with pytest.raises(ValueRangeError, match="pairs would be compared"):
+        match_peaks(peaks, [optical_set], params)
+
+
+def test_three_calcium_lines_give_calcium_and_nothing_above_possible(optical_set):
+    # Ca II K 393.366, Ca II H 396.847, Ca I 422.673 nm (air; NIST ASD, from memory).
+    peaks = PeakList(
+        pl.DataFrame({"wavelength_nm": [393.366, 396.847, 422.673]}), "wavelength", "air"
+    )
+    rep = match_peaks(peaks, [optical_set]).report()
+    lv = {e["species"]: e["verdict_level"] for e in rep["elements"]}
+    assert max(lv.get("Ca I", 0), lv.get("Ca II", 0)) >= 1
+    assert all(v <= 1 for s, v in lv.items() if not s.startswith("Ca "))
+    # No intensities: missing-line evidence unavailable, so at most "probable".
+    assert max(lv.values()) <= 2
+    assert any(w["kind"] == "no_missing_line_evidence" for w in rep["warnings"])
+
+
+def test_tolerance_per_peak_and_excluded_peaks(invented_set):
+    pos, e = _lines_of(invented_set, "Qa I")
+    peaks = peaks_from(pos + 0.001, 1000 * e)
+    tol = np.full(pos.size, 0.02)
+    rep = match_peaks(
+        peaks,
+        [invented_set],
+        _params(),
+        tolerance_per_peak=tol,
+        excluded_peaks=[0],
+        peak_labels={0: "artefact (test)"},
+    ).report()
+    first = rep["lines"][0]
+    assert first["label"] == "artefact (test)" and first["n_candidates"] == 0
+    assert rep["lines"][1]["tolerance_nm"] == pytest.approx(0.02)

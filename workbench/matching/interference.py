@@ -64,7 +64,7 @@ def _predicted_at_peaks(ev_pass: EvidencePass, n_obs: int) -> dict[int, np.ndarr
     order = np.argsort(ev_pass.pair_species, kind="stable")
     sp = ev_pass.pair_species[order]
     codes, starts = np.unique(sp, return_index=True)
-    ends = np.append(starts[1:], sp.size)
+    ends = np.append(starts[1:], sp.size) if starts.size else starts
     for code, a, b in zip(codes.tolist(), starts.tolist(), ends.tolist(), strict=True):
         if code not in ev_pass.evidence:
             continue
