@@ -450,6 +450,7 @@ def _second_pass(
     in_range: np.ndarray,
     strengths: np.ndarray,
     first: EvidencePass,
+    response: ResponseFit | None = None,
 ) -> tuple[EvidencePass, ResponseFit]:
     sigma = SOURCE_MODELS[model].sigma_dex
     kw = dict(
@@ -461,14 +462,19 @@ def _second_pass(
         n_species_tried=first.n_species_tried,
         abundance_prior=params.abundance_prior,
     )
-    second = gather_evidence(obs, index, strengths, in_range, **kw)
-    # The response is fitted on the second pass (competition among plausible
-    # species only, so that well-identified species have unique groups), then
-    # the pass is repeated with it.
-    response = fit_response(obs, second) if index.axis == "wavelength" else ResponseFit()
+    second: EvidencePass | None = None
+    if response is None:
+        second = gather_evidence(obs, index, strengths, in_range, **kw)
+        # The response is fitted on the second pass (competition among
+        # plausible species only, so that well-identified species have unique
+        # groups), then the pass is repeated with it. A re-run at a new
+        # temperature reuses the response already fitted.
+        response = fit_response(obs, second) if index.axis == "wavelength" else ResponseFit()
     if response.degree:
         resp_lines = 10.0 ** response.log10_at(index.position)
         second = gather_evidence(obs, index, strengths, in_range, response=resp_lines, **kw)
+    elif second is None:
+        second = gather_evidence(obs, index, strengths, in_range, **kw)
     explain_jointly(second, obs, index, sigma_dex=sigma, strong_fraction=params.strong_fraction)
     return second, response
 
@@ -661,7 +667,9 @@ def match_peaks(
         ):
             working_T = float(t_est)
             strengths, first = _first_pass(obs, index, params, model, working_T, in_range)
-            ev_pass, response = _second_pass(obs, index, params, model, in_range, strengths, first)
+            ev_pass, response = _second_pass(
+                obs, index, params, model, in_range, strengths, first, response
+            )
 
     unit = "nm" if peaks.axis == "wavelength" else "eV"
     o, r = _scale_pairs(obs, ev_pass, index, params.strong_fraction)

@@ -92,9 +92,18 @@ def _range_max(padded: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray
 
 
 def _pearson(a: np.ndarray, b: np.ndarray) -> float | None:
-    if a.size < 3 or np.ptp(a) == 0 or np.ptp(b) == 0:
+    if a.size < 3:
         return None
-    return float(np.corrcoef(a, b)[0, 1])
+    da, db = a - a.mean(), b - b.mean()
+    den = float(np.sqrt(np.dot(da, da) * np.dot(db, db)))
+    return float(np.dot(da, db) / den) if den > 0 else None
+
+
+def _median(a: np.ndarray) -> float:
+    """Median of a small 1-D array (np.median's overhead dominates at this size)."""
+    s = np.sort(a)
+    n = s.size
+    return float(0.5 * (s[(n - 1) // 2] + s[n // 2]))
 
 
 def gather_evidence(
@@ -272,7 +281,7 @@ def gather_evidence(
         use = good & uniq if np.any(good & uniq) else good
         if np.any(use):
             ratios = I_p[use] / pred_unit[use]
-            ev.scale = float(np.median(ratios))
+            ev.scale = _median(ratios)
             if has_int:
                 # Censored median: groups that should be seen at this scale but
                 # have no peak enter at the detection limit (an upper bound of
@@ -282,9 +291,7 @@ def gather_evidence(
                 dl_u = obs.detection_limit_at(g_pos[sl])
                 for _ in range(4):
                     cens = unseen & (ev.scale * pred_unit >= dl_u)
-                    new_scale = float(
-                        np.median(np.concatenate([ratios, dl_u[cens] / pred_unit[cens]]))
-                    )
+                    new_scale = _median(np.concatenate([ratios, dl_u[cens] / pred_unit[cens]]))
                     if new_scale == ev.scale:
                         break
                     ev.scale = new_scale
