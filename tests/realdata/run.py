@@ -6,7 +6,7 @@ from tests.realdata.loader import RealSpectrum
 from workbench.matching.analyse import analyse_spectrum
 from workbench.matching.engine import MatchParameters
 
-__all__ = ["element_classes", "run_real"]
+__all__ = ["element_classes", "extra_unexplained", "lines_shown", "run_real"]
 
 _ORDER = {"established": 3, "probable": 2, "possible": 1, "not supported": 0}
 
@@ -49,3 +49,39 @@ def lines_shown(rs: RealSpectrum, tol_nm: float = 0.01) -> dict[str, list[float]
         if len(near) == 1:
             out[near.pop()].append(round(float(w), 4))
     return out
+
+
+def extra_unexplained(rs: RealSpectrum, outcome, species_report: dict) -> list[float]:
+    """Matched peaks of a non-lamp species where no lamp element has a line of note.
+
+    "Of note": a candidate line of a lamp element at that peak with predicted
+    strength ≥ 0.05 of its species' strongest (the engine's own competitor
+    threshold, ``MatchParameters.competitor_min_rel``) or of unknown strength.
+    Peaks at a line the spectrum's own pipeline identified count as lamp
+    lines. Two or more remaining peaks: an impurity shown present; fewer: shown absent
+    (its support is the lamp's own lines), so a call at "probable" or above
+    is a false call.
+    """
+    import numpy as np
+
+    res = outcome.result
+    ep = res.evidence
+    el = np.array(res.index.species_element, dtype=object)[ep.pair_species]
+    e = ep.strengths[ep.pairs.ref]
+    of_note = np.isin(el, list(rs.expected)) & (~np.isfinite(e) | (e >= 0.05))
+    lamp_peaks = set(ep.pairs.obs[of_note].tolist())
+    # Peaks at a line the spectrum's own pipeline identified (as a lamp line,
+    # including lines our optical set lacks, e.g. Ar II) are lamp lines too.
+    tol = res.observed.half_window
+    ident = np.sort(rs.identified_nm)
+    for p in range(tol.size):
+        x = res.observed.position[p]
+        lo, hi = np.searchsorted(ident, [x - tol[p], x + tol[p]])
+        if hi > lo:
+            lamp_peaks.add(p)
+    out = {
+        round(m["observed_nm"], 3)
+        for m in species_report["matched_lines"]
+        if m["peak_index"] not in lamp_peaks
+    }
+    return sorted(out)

@@ -36,7 +36,7 @@ import numpy as np
 import pytest
 
 from tests.realdata.loader import HELD_OUT, TUNE, load
-from tests.realdata.run import element_classes, lines_shown, run_real
+from tests.realdata.run import element_classes, extra_unexplained, lines_shown, run_real
 from workbench.matching import MatchParameters
 from workbench.matching.engine import match_peaks
 from workbench.refdata import load_set
@@ -77,25 +77,8 @@ def _clear(name: str) -> list[str]:
 
 
 def _extra_unexplained(name: str, species_report: dict) -> list[float]:
-    """Matched peaks of a non-lamp species where no lamp element has a line of note.
-
-    "Of note": a candidate line of a lamp element at that peak with predicted
-    strength ≥ 0.05 of its species' strongest (the engine's own competitor
-    threshold, ``MatchParameters.competitor_min_rel``) or of unknown strength.
-    """
     rs, outcome = _run(name)
-    res = outcome.result
-    ep = res.evidence
-    el = np.array(res.index.species_element, dtype=object)[ep.pair_species]
-    e = ep.strengths[ep.pairs.ref]
-    of_note = np.isin(el, list(rs.expected)) & (~np.isfinite(e) | (e >= 0.05))
-    lamp_peaks = set(ep.pairs.obs[of_note].tolist())
-    out = {
-        round(m["observed_nm"], 3)
-        for m in species_report["matched_lines"]
-        if m["peak_index"] not in lamp_peaks
-    }
-    return sorted(out)
+    return extra_unexplained(rs, outcome, species_report)
 
 
 @pytest.mark.parametrize("name", [n for n in TUNE + HELD_OUT if "PYPIT" in n])
