@@ -121,3 +121,24 @@ def test_match_does_not_import_the_front_end(paint_chip, tmp_path):
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip().splitlines()[-1] == "False False"
+
+
+def test_match_evidence_model_options(paint_chip, capsysbinary):
+    # Issue 9 options reach the engine and are recorded in the result.
+    args = ["match", str(paint_chip), "--json", "-", "--no-calibration"]
+    args += ["--source-model", "lte-plasma", "--abundance-prior", "crustal"]
+    args += ["--saturation-level", "1e9"]
+    assert main(args) == 0
+    rep = json.loads(capsysbinary.readouterr().out)
+    assert rep["parameters"]["apply_calibration"] is False
+    assert rep["calibration"]["applied"] is False
+    assert rep["evidence_model"]["source_model"]["name"] == "lte-plasma"
+    assert rep["evidence_model"]["abundance_prior"] == "crustal"
+    assert rep["input"]["peak_finding"]["saturation_level"] == 1e9
+
+
+def test_too_wide_window_is_one_clear_error(paint_chip, capsys):
+    # ±5000 nm would compare every peak with every line: refused at once (exit 2).
+    assert main(["match", str(paint_chip), "--tolerance-nm", "5000"]) == 2
+    err = capsys.readouterr().err
+    assert "pairs would be compared" in err and "Traceback" not in err
