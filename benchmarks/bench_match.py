@@ -6,9 +6,9 @@ Run: ``uv run --extra test python benchmarks/bench_match.py``
    pure-Python loop (bisect per peak) and pandas ``merge_asof`` (nearest only).
 2. The full engine (evidence passes, temperature, warnings) on the same peaks,
    and on a 5,000-line dense absorption spectrum, each beside the PREVIOUS
-   engine (the code of commit ``BASELINE_COMMIT``, before issue 9, extracted
-   with ``git archive`` into a temporary folder and run in a subprocess on the
-   same inputs and the same reference data).
+   engine (the code and reference data of commit ``BASELINE_COMMIT``, before
+   issue 9, extracted with ``git archive`` into a temporary folder and run in
+   a subprocess on the same peaks).
 3. ``workbench match`` end to end on a 20,000-point spectrum (a subprocess),
    and whether the web front end was imported.
 """
@@ -40,6 +40,8 @@ ROOT = Path(__file__).resolve().parents[1]
 
 _TIMER = """
 import sys, time, numpy as np, polars as pl
+import workbench
+assert not workbench.__file__.startswith(sys.argv[2]), workbench.__file__
 from workbench.datamodel import PeakList, Spectrum
 from workbench.matching import MatchParameters, ToleranceSpec, match_peaks
 from workbench.refdata import load_set
@@ -63,7 +65,7 @@ def old_engine_seconds(x, inten, mode: str, R: float) -> float | None:
     """Time the previous engine on the same peaks (None when git is unavailable)."""
     with tempfile.TemporaryDirectory() as d:
         tar = subprocess.run(
-            ["git", "-C", str(ROOT), "archive", BASELINE_COMMIT, "workbench"],
+            ["git", "-C", str(ROOT), "archive", BASELINE_COMMIT, "workbench", "reference_sets"],
             capture_output=True,
             check=False,
         )
@@ -72,15 +74,19 @@ def old_engine_seconds(x, inten, mode: str, R: float) -> float | None:
         subprocess.run(["tar", "-x", "-C", d], input=tar.stdout, check=True)
         data = Path(d) / "in.npz"
         np.savez(data, x=x, i=inten, mode=mode, R=R)
+        # cwd = the extracted tree, so that "import workbench" finds the old
+        # code and not the working copy; the old engine reads the reference
+        # data of its own commit (the current sets have a column it predates).
         out = subprocess.run(
-            [sys.executable, "-c", _TIMER, str(data)],
+            [sys.executable, "-c", _TIMER, str(data), str(ROOT)],
             capture_output=True,
             text=True,
+            cwd=d,
             env=os.environ
             | {
                 "PYTHONPATH": d,
                 "PYTHONWARNINGS": "ignore",
-                "WORKBENCH_REFERENCE_SETS": str(ROOT / "reference_sets"),
+                "WORKBENCH_REFERENCE_SETS": str(Path(d) / "reference_sets"),
             },
             check=True,
         ).stdout
