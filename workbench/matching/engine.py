@@ -64,7 +64,12 @@ from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.response import ResponseFit, fit_response
 from workbench.matching.scoring import PROBABLE_DEX
-from workbench.matching.sourcemodels import SOURCE_MODELS, get_model, model_strengths
+from workbench.matching.sourcemodels import (
+    SOURCE_MODELS,
+    get_model,
+    model_sigma,
+    model_strengths,
+)
 from workbench.matching.temperature import TemperatureEstimate, estimate_temperature
 from workbench.matching.tolerance import ToleranceSpec
 
@@ -438,6 +443,7 @@ def _first_pass(
         competitor_min_rel=params.competitor_min_rel,
         sigma_dex=SOURCE_MODELS[model].sigma_dex,
         abundance_prior=params.abundance_prior,
+        sigma_lines=model_sigma(index, model),
     )
     return strengths, first
 
@@ -461,6 +467,7 @@ def _second_pass(
         plausible=_plausible(first),
         n_species_tried=first.n_species_tried,
         abundance_prior=params.abundance_prior,
+        sigma_lines=model_sigma(index, model),
     )
     second: EvidencePass | None = None
     if response is None:

@@ -120,6 +120,7 @@ def gather_evidence(
     plausible: set[int] | None = None,
     n_species_tried: int | None = None,
     abundance_prior: str = "none",
+    sigma_lines: np.ndarray | None = None,
 ) -> EvidencePass:
     """Collect the evidence of every species with at least one candidate.
 
@@ -147,6 +148,9 @@ def gather_evidence(
         number of species with at least one candidate in this pass.
     abundance_prior : str
         ``none``, ``crustal`` or ``solar`` (:mod:`workbench.matching.priors`).
+    sigma_lines : numpy.ndarray, optional
+        Per-line uncertainty (dex) where it differs from ``sigma_dex``
+        (:func:`workbench.matching.sourcemodels.model_sigma`).
 
     Returns
     -------
@@ -339,6 +343,9 @@ def gather_evidence(
             "position": g_pos[sl],
             "line": g_line[sl],
             "rep": g_rep[sl],
+            "sigma": (
+                sigma_lines[g_rep[sl]] if sigma_lines is not None else np.full(G.size, sigma_dex)
+            ),
             "explained": np.zeros(G.size, dtype=bool),
             "dl": dl_g,
         }

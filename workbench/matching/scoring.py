@@ -189,7 +189,8 @@ def evaluate(
         dl = g.get("dl")
         dl = dl[missing] if dl is not None else detection_limit
         with np.errstate(divide="ignore"):
-            z = (np.log10(dl) - np.log10(pred[missing])) / sigma_dex
+            sig = g["sigma"][missing] if "sigma" in g else sigma_dex
+            z = (np.log10(dl) - np.log10(pred[missing])) / sig
         z = np.nan_to_num(z, nan=0.0, posinf=np.inf, neginf=-np.inf)
         p_miss = LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
         penalty = float(np.sum(np.log10(p_miss)))

@@ -31,7 +31,8 @@ species under ``lte-plasma`` (σ = 0.35 dex) than under ``discharge-lamp``
     are put on that scale by the median offset over lines that have both
     (at least three), and are "strength unknown" otherwise; a species with
     only atomic data in range (Fe I in the shipped set) uses Boltzmann at the
-    lamp excitation temperature :data:`LAMP_EXCITATION_K` as a weak prior.
+    lamp excitation temperature :data:`LAMP_EXCITATION_K` as a weak prior,
+    with a wider uncertainty (:data:`LAMP_PRIOR_SIGMA`, 1.2 dex).
     σ = 0.8 dex: tabulated
     lamp intensities differ from one lamp, current and detector to the next
     by factors of 3–10 (from memory; the issue's 0.3–1.3 decades).
@@ -80,7 +81,7 @@ from workbench.errors import ValueRangeError
 from workbench.matching.expected import atomic_log_strength
 from workbench.matching.reference import ReferenceIndex
 
-__all__ = ["SOURCE_MODELS", "SourceModel", "get_model", "model_strengths"]
+__all__ = ["SOURCE_MODELS", "SourceModel", "get_model", "model_sigma", "model_strengths"]
 
 
 @dataclass(frozen=True)
@@ -110,6 +111,10 @@ ABSORPTION_SATURATION: float = 10**-1.5
 #: excitation temperatures of roughly 3000–5000 K (from memory); 4000 K was
 #: chosen on the tune set (Goodman 1200M2–M5 Fe/Cu lamps).
 LAMP_EXCITATION_K: float = 4000.0
+#: Uncertainty (dex) of a line predicted under ``discharge-lamp`` from the
+#: Boltzmann prior alone (no tabulated intensity): a weak prior, wider than
+#: the tabulated lines' 0.8 dex (chosen on the tune set).
+LAMP_PRIOR_SIGMA: float = 1.2
 #: Lines with both kinds of strength needed to put one kind on the other's scale.
 MIN_CALIBRATION_LINES: int = 3
 
@@ -225,3 +230,17 @@ def model_strengths(
     else:
         log_e = _one_scale(log_atomic, log_src, index, in_range)
     return _normalise(log_e, index, in_range)
+
+
+def model_sigma(index: ReferenceIndex, model: str) -> np.ndarray:
+    """Uncertainty (dex) of each line's predicted log-intensity under ``model``.
+
+    The model's σ for every line, except under ``discharge-lamp``, where a
+    line without a tabulated intensity (predicted from the Boltzmann prior)
+    has :data:`LAMP_PRIOR_SIGMA`.
+    """
+    sigma = np.full(index.n_lines, get_model(model).sigma_dex)
+    if model == "discharge-lamp":
+        tabulated = np.isfinite(index.rel_intensity) & (index.rel_intensity > 0)
+        sigma = np.where(tabulated, sigma, LAMP_PRIOR_SIGMA)
+    return sigma
