@@ -26,7 +26,7 @@ def test_match_json_stdout_is_deterministic(paint_chip, capsysbinary):
     second = capsysbinary.readouterr().out
     assert first == second
     rep = json.loads(first)
-    assert rep["schema_version"] == 1
+    assert rep["schema_version"] == 2  # bumped by issue 9 (docs/result-schema.md)
     assert rep["input"]["medium"] == "air"
     levels = {el["species"]: el["verdict_level"] for el in rep["elements"]}
     # The invented paint chip was synthesised with Ti II and Ba II (workbench.demo).
@@ -143,3 +143,24 @@ def test_match_with_bad_instrument_file_is_one_clear_error(tmp_path, capsys):
     assert main(["match", str(spec), "--instrument", str(inst)]) == 2
     err = capsys.readouterr().err
     assert "unknown instrument setting(s): tube_kv" in err and "Traceback" not in err
+
+
+def test_match_evidence_model_options(paint_chip, capsysbinary):
+    # Issue 9 options reach the engine and are recorded in the result.
+    args = ["match", str(paint_chip), "--json", "-", "--no-calibration"]
+    args += ["--source-model", "lte-plasma", "--abundance-prior", "crustal"]
+    args += ["--saturation-level", "1e9"]
+    assert main(args) == 0
+    rep = json.loads(capsysbinary.readouterr().out)
+    assert rep["parameters"]["apply_calibration"] is False
+    assert rep["calibration"]["applied"] is False
+    assert rep["evidence_model"]["source_model"]["name"] == "lte-plasma"
+    assert rep["evidence_model"]["abundance_prior"] == "crustal"
+    assert rep["input"]["peak_finding"]["saturation_level"] == 1e9
+
+
+def test_too_wide_window_is_one_clear_error(paint_chip, capsys):
+    # ±5000 nm would compare every peak with every line: refused at once (exit 2).
+    assert main(["match", str(paint_chip), "--tolerance-nm", "5000"]) == 2
+    err = capsys.readouterr().err
+    assert "pairs would be compared" in err and "Traceback" not in err

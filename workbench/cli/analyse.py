@@ -38,14 +38,14 @@ def run(args: argparse.Namespace) -> int:
 
     from workbench import __version__
     from workbench.casefile import CaseStore
-    from workbench.cli.match import params_from_args
+    from workbench.cli.match import params_from_args, peak_options_from_args
     from workbench.matching import analyse_input, summary_text
 
     params = params_from_args(args)
     with CaseStore.open(args.store) as store:
         m = store.get_measurement(args.measurement_id)
         data = store.file_bytes(m.sha256)
-        peak_options = {"min_snr": args.min_snr} if args.min_snr else None
+        peak_options = peak_options_from_args(args)
         outcome = analyse_input(
             data,
             name=m.filename,

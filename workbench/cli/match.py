@@ -10,7 +10,7 @@ import argparse
 import sys
 from pathlib import Path
 
-__all__ = ["add_engine_options", "params_from_args", "register"]
+__all__ = ["add_engine_options", "params_from_args", "peak_options_from_args", "register"]
 
 
 def add_engine_options(p: argparse.ArgumentParser) -> None:
@@ -48,10 +48,41 @@ def add_engine_options(p: argparse.ArgumentParser) -> None:
         help="excitation temperature (default: estimate by Boltzmann plot)",
     )
     p.add_argument("--elements", metavar="Fe,Cu,...", help="consider only these elements")
-    p.add_argument(
+    cal = p.add_mutually_exclusive_group()
+    cal.add_argument(
         "--apply-calibration",
-        action="store_true",
-        help="correct positions by the estimated scale shift/stretch before matching",
+        dest="calibration",
+        action="store_const",
+        const=True,
+        help="always correct positions by the estimated scale shift/stretch "
+        "(default: only when it is significant)",
+    )
+    cal.add_argument(
+        "--no-calibration",
+        dest="calibration",
+        action="store_const",
+        const=False,
+        help="never correct positions by the estimated scale error (it is still reported)",
+    )
+    p.add_argument(
+        "--source-model",
+        choices=["auto", "lte-plasma", "discharge-lamp", "absorption", "x-ray"],
+        default="auto",
+        help="what emitted or absorbed the light (default: chosen from the data; see "
+        "docs/evidence-model.md)",
+    )
+    p.add_argument(
+        "--abundance-prior",
+        choices=["none", "crustal", "solar"],
+        default="none",
+        help="prior odds from element abundances (default none)",
+    )
+    p.add_argument(
+        "--saturation-level",
+        type=float,
+        metavar="LEVEL",
+        help="raw signal level at which the detector saturates; such peaks are flagged and "
+        "kept out of intensity evidence",
     )
     p.add_argument(
         "--electron-density",
@@ -99,9 +130,21 @@ def params_from_args(args: argparse.Namespace):
         temperature_K=args.temperature_K,
         elements=elements,
         mode=args.mode,
-        apply_calibration=args.apply_calibration,
+        apply_calibration=args.calibration,
         electron_density_per_cm3=args.electron_density,
+        source_model=args.source_model,
+        abundance_prior=args.abundance_prior,
     )
+
+
+def peak_options_from_args(args: argparse.Namespace) -> dict[str, float] | None:
+    """Peak-finding options for raw spectra from parsed options (None for defaults)."""
+    opts: dict[str, float] = {}
+    if args.min_snr:
+        opts["min_snr"] = args.min_snr
+    if args.saturation_level is not None:
+        opts["saturation_level"] = args.saturation_level
+    return opts or None
 
 
 def register(sub: argparse._SubParsersAction) -> None:
@@ -131,7 +174,7 @@ def run(args: argparse.Namespace) -> int:
     if not args.input.is_file():
         raise InputError(f"input file {str(args.input)!r} does not exist", "check the path")
     params = params_from_args(args)
-    peak_options = {"min_snr": args.min_snr} if args.min_snr else None
+    peak_options = peak_options_from_args(args)
     outcome = analyse_input(
         args.input,
         name=args.input.name,

@@ -16,7 +16,14 @@ from workbench.datamodel import PeakList, Spectrum
 from workbench.matching.engine import MatchParameters, MatchResult, match_peaks
 from workbench.matching.report import result_json
 
-__all__ = ["DEFAULT_SETS", "AnalysisOutcome", "analyse_input", "analyse_peaks"]
+__all__ = [
+    "DEFAULT_SETS",
+    "AnalysisOutcome",
+    "analyse_input",
+    "analyse_peaks",
+    "analyse_spectrum",
+    "peaks_from_spectrum",
+]
 
 #: Reference sets used when none are chosen, by axis.
 DEFAULT_SETS: dict[str, tuple[str, ...]] = {"wavelength": ("optical",), "energy": ("xray",)}
@@ -104,7 +111,6 @@ def analyse_input(
     AnalysisOutcome
     """
     from workbench.io import read_any
-    from workbench.peaks import find_peaks
 
     params = params or MatchParameters()
     kw: dict[str, Any] = {"name": name, "unit": unit, "medium": medium}
@@ -114,10 +120,7 @@ def analyse_input(
     spectrum: Spectrum | None = None
     if isinstance(data, Spectrum):
         spectrum = data
-        peaks = find_peaks(data, mode=params.mode, **(peak_options or {}))
-        # The spectrum's own span bounds where lines could have been seen (and
-        # so where a strong line can be "missing"), not just the peaks' span.
-        peaks.extra.setdefault("x_range", (float(data.x[0]), float(data.x[-1])))
+        peaks = peaks_from_spectrum(data, params.mode, _peak_options(data, params, peak_options))
     else:
         peaks = data
         if peaks.mode != params.mode:
@@ -126,3 +129,101 @@ def analyse_input(
             )
     outcome = analyse_peaks(peaks, set_ids, params, spectrum=spectrum, lab_dir=lab_dir)
     return outcome
+
+
+def _peak_options(
+    spectrum: Spectrum, params: MatchParameters, peak_options: dict[str, Any] | None
+) -> dict[str, Any]:
+    """Peak-finding options, with the SNIP window matched to the detector on an energy axis.
+
+    The default SNIP window (40 samples) is far wider than an XRF peak: it
+    clips the curved continuum (scatter, pile-up) and leaves Poisson bumps
+    standing as peaks. On an energy axis the window follows the detector's
+    FWHM (:func:`workbench.xray.detector.snip_iterations_for`) unless the
+    caller set one.
+    """
+    opts = dict(peak_options or {})
+    if spectrum.axis == "energy" and "snip_iterations" not in opts and spectrum.x.size >= 2:
+        import numpy as np
+
+        from workbench.xray import DEFAULT_INSTRUMENT
+        from workbench.xray.detector import snip_iterations_for
+
+        channel_eV = float(np.median(np.diff(np.asarray(spectrum.x, dtype=float))))
+        if channel_eV > 0:
+            inst = params.instrument or DEFAULT_INSTRUMENT
+            opts["snip_iterations"] = snip_iterations_for(inst, channel_eV)
+    return opts
+
+
+def peaks_from_spectrum(
+    spectrum: Spectrum, mode: str = "emission", peak_options: dict[str, Any] | None = None
+) -> PeakList:
+    """Peak finding as every face does it, with what the engine needs from the spectrum.
+
+    The spectrum's span bounds where lines could have been seen (and so where
+    a line can be "missing"); the local sample spacing at each peak floors its
+    width at two samples (a line cannot be narrower than the sampling allows,
+    and peak finders underestimate widths of undersampled lines).
+    """
+    import numpy as np
+
+    from workbench.peaks import find_peaks
+
+    peaks = find_peaks(spectrum, mode=mode, **(peak_options or {}))
+    peaks.extra.setdefault("x_range", (float(spectrum.x[0]), float(spectrum.x[-1])))
+    if spectrum.x.size >= 2:
+        spacing = np.gradient(np.asarray(spectrum.x, dtype=float))
+        peaks.extra["sample_spacing"] = np.interp(peaks.positions, spectrum.x, spacing)
+    base = peaks.extra.get("baseline")
+    sigma = peaks.extra.get("noise_sigma")
+    if (
+        mode == "absorption"
+        and isinstance(base, np.ndarray)
+        and sigma
+        and peaks.extra.get("intensity_unit") != "fraction of continuum"
+        and peaks.table.height
+    ):
+        # The peak finder keeps raw depths when the continuum is not positive
+        # everywhere (e.g. sunlight below 300 nm); depths are made fractions of
+        # the local continuum where it is positive, so that every line is
+        # predicted on one scale (unknown where the continuum is not positive).
+        import polars as pl
+
+        b = np.interp(peaks.positions, spectrum.x, base)
+        depth = peaks.intensities
+        frac = np.where(b > 0, depth / np.where(b > 0, b, 1.0), np.nan)
+        table = peaks.table.with_columns(pl.Series("intensity", frac))
+        peaks = PeakList(
+            table, peaks.axis, peaks.medium, peaks.source, peaks.mode, dict(peaks.extra)
+        )
+        peaks.extra["intensity_unit"] = "fraction of continuum"
+    if (
+        mode == "absorption"
+        and peaks.extra.get("intensity_unit") == "fraction of continuum"
+        and isinstance(base, np.ndarray)
+        and sigma
+    ):
+        # Depths are fractions of the continuum, so the noise in depth units is
+        # σ / continuum: where the continuum is faint (e.g. below 320 nm in
+        # ground-level sunlight) no dip could have been seen.
+        with np.errstate(divide="ignore"):
+            curve = np.where(base > 0, float(sigma) / base, np.inf)
+        peaks.extra["noise_curve"] = (np.asarray(spectrum.x, dtype=float), curve)
+    return peaks
+
+
+def analyse_spectrum(
+    spectrum: Spectrum,
+    set_ids: Sequence[str] | None = None,
+    params: MatchParameters | None = None,
+    *,
+    peak_options: dict[str, Any] | None = None,
+    lab_dir: Path | None = None,
+) -> AnalysisOutcome:
+    """Find peaks in an already-read spectrum and match them (as :func:`analyse_input` does)."""
+    params = params or MatchParameters()
+    peaks = peaks_from_spectrum(
+        spectrum, params.mode, _peak_options(spectrum, params, peak_options)
+    )
+    return analyse_peaks(peaks, set_ids, params, spectrum=spectrum, lab_dir=lab_dir)

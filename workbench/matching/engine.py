@@ -2,20 +2,40 @@
 
 Flow of :func:`match_peaks`:
 
-1. Tolerance per observed line (:mod:`~workbench.matching.tolerance`).
-2. Reference lines in the observed range, expected strengths at the working
-   temperature (:mod:`~workbench.matching.expected`).
-3. Evidence pass 1, all species competing; pass 2, competition restricted
-   to species with real support in pass 1 — "probable" or better, or
-   "possible" with a chance probability ≤ 0.01 and no missing strong line
-   (:mod:`~workbench.matching.evidence`).
-4. Emission without a given temperature: a Boltzmann-plot estimate from the
-   best-identified species; when it differs from the working value by more
-   than 10 %, steps 2–3 are repeated once at the estimate.
-5. Wavelength-scale check from unambiguous strong matches; applied (and
-   steps 2–4 repeated on corrected positions) only when asked.
+1. Input checks: identical rows are merged (one peak per position, the
+   highest intensity kept; said in the warnings); tolerance per observed
+   line (:mod:`~workbench.matching.tolerance`, or ``tolerance_per_peak``);
+   the candidate search is refused at once when it would compare more than
+   :data:`MAX_CANDIDATE_PAIRS` pairs (a window far too wide).
+2. Reference lines in the observed range and the source model's predicted
+   strengths (:mod:`~workbench.matching.sourcemodels`); ``auto`` picks the
+   model from the data and says which.
+3. Evidence pass 1, all species competing, flat instrument response; a
+   shared response curve is fitted (:mod:`~workbench.matching.response`);
+   pass 2 with that response and competition restricted to species with
+   real support in pass 1 ("probable" or better, or "possible" with net
+   evidence ≥ the "probable" threshold); then the joint explanation
+   (:mod:`~workbench.matching.joint`). Evidence is counted per resolvable
+   group (:mod:`~workbench.matching.groups`); classes in
+   :mod:`~workbench.matching.scoring`.
+4. ``lte-plasma`` without a given temperature: a Boltzmann-plot estimate
+   from the best-identified species; when it differs from the working value
+   by more than 10 %, steps 2–3 are repeated once at the estimate.
+5. Wavelength-scale check from unambiguous strong matches. With
+   ``apply_calibration=None`` (the default) it is applied, and steps 2–4
+   repeated on corrected positions, when it is significant: a shift beyond
+   3 standard uncertainties and beyond a quarter of the median half-window
+   (:data:`CALIBRATION_FRACTION`), or a stretch whose 95 % interval
+   excludes zero and that moves the range ends by more than that quarter.
+   ``True`` always applies it, ``False`` never (``--no-calibration``).
 6. Peak assignment and interference warnings
    (:mod:`~workbench.matching.interference`).
+
+Energy axis (XRF): ``match_peaks`` takes ``tolerance_per_peak`` (detector
+resolution per peak, from an instrument description) and ``excluded_peaks``
+(artefact peaks: escape, sum, diffraction, tube lines) with
+``peak_labels``; excluded peaks are kept in the report, labelled, and never
+matched.
 
 Everything is deterministic: the same input and parameters give the same
 result, and :func:`workbench.matching.report.result_json` the same bytes.
@@ -34,17 +54,48 @@ from workbench.datamodel import FWHM_COLUMN, PeakList
 from workbench.errors import ValueRangeError
 from workbench.matching.calibration import ScaleCheck, estimate_scale
 from workbench.matching.evidence import EvidencePass, ObservedLines, gather_evidence
-from workbench.matching.expected import expected_strengths
 from workbench.matching.interference import (
     PeakAssignment,
     assign_peaks,
     interference_warnings,
 )
+from workbench.matching.joint import explain_jointly
+from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
+from workbench.matching.response import ResponseFit, fit_response
+from workbench.matching.scoring import PROBABLE_DEX
+from workbench.matching.sourcemodels import (
+    SOURCE_MODELS,
+    get_model,
+    model_sigma,
+    model_strengths,
+)
 from workbench.matching.temperature import TemperatureEstimate, estimate_temperature
 from workbench.matching.tolerance import ToleranceSpec
 
-__all__ = ["RARE_RADIOACTIVE", "MatchParameters", "MatchResult", "build_index", "match_peaks"]
+__all__ = [
+    "BAND_WIDTH_FACTOR",
+    "CALIBRATION_FRACTION",
+    "MAX_CANDIDATE_PAIRS",
+    "RARE_RADIOACTIVE",
+    "MatchParameters",
+    "MatchResult",
+    "build_index",
+    "match_peaks",
+]
+
+#: Most (peak, reference line) pairs the candidate search may compare. About
+#: 100 bytes per pair in the evidence pass: 5 million is ~0.5 GB and a few
+#: seconds; 10,000 peaks against the whole optical set at λ/5000 give ~0.4
+#: million. A wider window is refused at once (common practice, no source).
+MAX_CANDIDATE_PAIRS: int = 5_000_000
+#: In an absorption spectrum, a dip wider than this many times the median
+#: FWHM of the spectrum's dips is a band (molecular, e.g. telluric O2/H2O,
+#: or a blend), not one atomic line: it is labelled and not used as evidence.
+BAND_WIDTH_FACTOR: float = 3.0
+#: A scale error is applied by default when it exceeds this part of the
+#: median half-window (and 3 standard uncertainties).
+CALIBRATION_FRACTION: float = 0.25
 
 #: Elements left out unless asked for by name: no stable isotope and no
 #: place in ordinary casework samples (Tc, Pm, Po and heavier except Th and U).
@@ -98,15 +149,19 @@ class MatchParameters:
     min_rel_intensity : float
         Lines weaker than this fraction are ignored entirely.
     competitor_min_rel : float
-        A line must be at least this strong to compete for a peak.
-    missing_factor : float
-        A line is "missing" when predicted at ≥ this × the detection limit.
+        A resolvable group must be at least this strong to compete for a peak.
     detection_snr : float
         Detection limit = this × the noise level (from the peaks' SNR).
     estimate_temperature : bool
-        Estimate T by a Boltzmann plot when none is given.
-    apply_calibration : bool
-        Correct observed positions by the estimated scale error.
+        Estimate T by a Boltzmann plot when none is given (``lte-plasma``).
+    apply_calibration : bool or None
+        ``None`` (default): correct observed positions by the estimated scale
+        error when it is significant (see module docstring); ``True``: always;
+        ``False``: never.
+    source_model : str
+        ``"auto"`` or one of :data:`~workbench.matching.sourcemodels.SOURCE_MODELS`.
+    abundance_prior : {"none", "crustal", "solar"}
+        Prior odds from element abundances (:mod:`~workbench.matching.priors`).
     electron_density_per_cm3 : float or None
         For the McWhirter check; unknown when ``None``.
     share_ratio : float
@@ -128,17 +183,21 @@ class MatchParameters:
     strong_fraction: float = 0.1
     min_rel_intensity: float = 1e-3
     competitor_min_rel: float = 0.05
-    missing_factor: float = 3.0
     detection_snr: float = 3.0
     estimate_temperature: bool = True
-    apply_calibration: bool = False
+    apply_calibration: bool | None = None
     electron_density_per_cm3: float | None = None
     share_ratio: float = 0.2
     max_ion: int | None = 2
     exclude_elements: tuple[str, ...] = RARE_RADIOACTIVE
     instrument: Any = None
+    source_model: str = "auto"
+    abundance_prior: str = "none"
 
     def __post_init__(self) -> None:
+        if self.source_model != "auto":
+            get_model(self.source_model)
+        prior_dex(self.abundance_prior, "H")  # one clear error for an unknown prior
         t = self.temperature_K
         if t is not None and not (500.0 <= t <= 100_000.0):
             raise ValueRangeError(
@@ -177,6 +236,10 @@ class MatchResult:
     parameters: MatchParameters
     lte: dict[str, object] | None = None
     xray: dict[str, Any] | None = None
+    source_model: dict[str, object] = field(default_factory=dict)
+    response: ResponseFit = field(default_factory=ResponseFit)
+    notes: list[dict[str, object]] = field(default_factory=list)
+    peak_labels: dict[int, str] = field(default_factory=dict)
 
     def report(self) -> dict[str, Any]:
         """The result as the versioned JSON-ready dictionary."""
@@ -211,7 +274,28 @@ def build_index(
     return index
 
 
-def _observed(peaks: PeakList, params: MatchParameters) -> ObservedLines:
+def _dedupe(peaks: PeakList) -> tuple[PeakList, int]:
+    """Merge rows with identical positions (the most intense kept); return the count merged."""
+    x = peaks.positions
+    if x.size < 2 or not np.any(x[1:] == x[:-1]):
+        return peaks, 0
+    inten = np.where(np.isfinite(peaks.intensities), peaks.intensities, -np.inf)
+    order = np.lexsort((-inten, x))
+    first = np.unique(x[order], return_index=True)[1]
+    keep = np.sort(order[first])
+    table = peaks.table[keep]
+    return (
+        PeakList(table, peaks.axis, peaks.medium, peaks.source, peaks.mode, dict(peaks.extra)),
+        int(x.size - keep.size),
+    )
+
+
+def _observed(
+    peaks: PeakList,
+    params: MatchParameters,
+    tolerance_per_peak: np.ndarray | None = None,
+    excluded_peaks: np.ndarray | None = None,
+) -> ObservedLines:
     x = peaks.positions
     if x.size == 0:
         raise ValueRangeError("the peak list is empty", "give at least one observed line")
@@ -227,8 +311,29 @@ def _observed(peaks: PeakList, params: MatchParameters) -> ObservedLines:
     fwhm = (
         t[fwhm_col].cast(pl.Float64).fill_null(np.nan).to_numpy() if fwhm_col in t.columns else None
     )
+    spacing = peaks.extra.get("sample_spacing") if isinstance(peaks.extra, dict) else None
+    if fwhm is not None and spacing is not None and np.shape(spacing) == fwhm.shape:
+        # A line is at least two samples wide: undersampled widths are floored.
+        fwhm = np.where(np.isfinite(fwhm), np.maximum(fwhm, 2.0 * np.asarray(spacing)), fwhm)
     spec = params.tolerance.resolve(peaks.axis, fwhm)
-    tol = spec.half_window(x, fwhm)
+    if tolerance_per_peak is not None:
+        tol = np.asarray(tolerance_per_peak, dtype=np.float64)
+        if tol.shape != x.shape or not np.all(np.isfinite(tol) & (tol > 0)):
+            raise ValueRangeError(
+                "tolerance_per_peak must give one positive half-window per peak",
+                "pass an array as long as the peak list, in the axis unit",
+            )
+        resolution = 2.0 * tol
+    else:
+        tol = spec.half_window(x, fwhm)
+        # The resolution element (≈ FWHM) the window stands for: lines closer
+        # than this are one resolvable group (workbench.matching.groups).
+        if spec.kind == "fwhm":
+            resolution = tol / spec.value
+        elif spec.kind == "resolving_power":
+            resolution = tol / spec.factor
+        else:
+            resolution = tol
     sat = (
         t["saturated"].fill_null(False).to_numpy().astype(bool)
         if "saturated" in t.columns
@@ -252,36 +357,170 @@ def _observed(peaks: PeakList, params: MatchParameters) -> ObservedLines:
             "peak positions are not sorted",
             "sort the peak list by position (readers do this; a hand-built list must too)",
         )
+    excl = None
+    if excluded_peaks is not None:
+        excl = np.zeros(x.size, dtype=bool)
+        idx = np.asarray(excluded_peaks)
+        if idx.dtype == bool:
+            if idx.shape != x.shape:
+                raise ValueRangeError(
+                    "excluded_peaks as a mask must have one entry per peak",
+                    "pass a boolean array as long as the peak list, or peak indices",
+                )
+            excl = idx.copy()
+        else:
+            if idx.size and (idx.min() < 0 or idx.max() >= x.size):
+                raise ValueRangeError(
+                    "excluded_peaks holds an index outside the peak list",
+                    "give 0-based indices of peaks in the list",
+                )
+            excl[idx.astype(np.int64)] = True
+    curve = None
+    nc = peaks.extra.get("noise_curve") if isinstance(peaks.extra, dict) else None
+    if dl is not None and nc is not None:
+        curve = (np.asarray(nc[0], dtype=float), params.detection_snr * np.asarray(nc[1]))
     return ObservedLines(
-        position=x, intensity=inten, half_window=tol, saturated=sat, detection_limit=dl
+        detection_curve=curve,
+        position=x,
+        intensity=inten,
+        half_window=tol,
+        saturated=sat,
+        detection_limit=dl,
+        tolerance=spec,
+        excluded=excl,
+        resolution=resolution,
     )
 
 
-def _run_passes(
+def _broad_dips(peaks: PeakList, params: MatchParameters) -> np.ndarray | None:
+    """Absorption dips wider than BAND_WIDTH_FACTOR × the median FWHM (bands, not lines)."""
+    col = FWHM_COLUMN[peaks.axis]
+    if params.mode != "absorption" or col not in peaks.table.columns or peaks.table.height < 5:
+        return None
+    w = peaks.table[col].cast(pl.Float64).fill_null(np.nan).to_numpy()
+    ok = np.isfinite(w) & (w > 0)
+    if np.sum(ok) < 5:
+        return None
+    broad = ok & (w > BAND_WIDTH_FACTOR * float(np.median(w[ok])))
+    return broad if np.any(broad) else None
+
+
+def _check_pair_budget(obs: ObservedLines, index: ReferenceIndex, in_range: np.ndarray) -> None:
+    """Refuse at once a search that would compare more than MAX_CANDIDATE_PAIRS pairs."""
+    ref = index.position[in_range]
+    lo = np.searchsorted(ref, obs.position - obs.half_window, side="left")
+    hi = np.searchsorted(ref, obs.position + obs.half_window, side="right")
+    n_pairs = int(np.sum(hi - lo))
+    if n_pairs > MAX_CANDIDATE_PAIRS:
+        raise ValueRangeError(
+            f"the match window is so wide that {n_pairs:,} (peak, reference line) pairs would "
+            f"be compared (at most {MAX_CANDIDATE_PAIRS:,})",
+            "give a narrower tolerance (e.g. --resolving-power 5000 or --tolerance-nm 0.05), "
+            "fewer peaks, or restrict --elements",
+        )
+
+
+def _plausible(ev_pass: EvidencePass) -> set[int]:
+    return {
+        c
+        for c, ev in ev_pass.evidence.items()
+        if ev.level >= 2 or (ev.level >= 1 and ev.net_evidence_dex >= PROBABLE_DEX)
+    }
+
+
+def _first_pass(
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    params: MatchParameters,
+    model: str,
+    temperature_K: float,
+    in_range: np.ndarray,
+) -> tuple[np.ndarray, EvidencePass]:
+    strengths = model_strengths(index, model, temperature_K, in_range)
+    first = gather_evidence(
+        obs,
+        index,
+        strengths,
+        in_range,
+        strong_fraction=params.strong_fraction,
+        min_rel_intensity=params.min_rel_intensity,
+        competitor_min_rel=params.competitor_min_rel,
+        sigma_dex=SOURCE_MODELS[model].sigma_dex,
+        abundance_prior=params.abundance_prior,
+        sigma_lines=model_sigma(index, model),
+    )
+    return strengths, first
+
+
+def _second_pass(
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    params: MatchParameters,
+    model: str,
+    in_range: np.ndarray,
+    strengths: np.ndarray,
+    first: EvidencePass,
+    response: ResponseFit | None = None,
+) -> tuple[EvidencePass, ResponseFit]:
+    sigma = SOURCE_MODELS[model].sigma_dex
+    kw = dict(
+        strong_fraction=params.strong_fraction,
+        min_rel_intensity=params.min_rel_intensity,
+        competitor_min_rel=params.competitor_min_rel,
+        sigma_dex=sigma,
+        plausible=_plausible(first),
+        n_species_tried=first.n_species_tried,
+        abundance_prior=params.abundance_prior,
+        sigma_lines=model_sigma(index, model),
+    )
+    second: EvidencePass | None = None
+    if response is None:
+        second = gather_evidence(obs, index, strengths, in_range, **kw)
+        # The response is fitted on the second pass (competition among
+        # plausible species only, so that well-identified species have unique
+        # groups), then the pass is repeated with it. A re-run at a new
+        # temperature reuses the response already fitted.
+        response = fit_response(obs, second) if index.axis == "wavelength" else ResponseFit()
+    if response.degree:
+        resp_lines = 10.0 ** response.log10_at(index.position)
+        second = gather_evidence(obs, index, strengths, in_range, response=resp_lines, **kw)
+    elif second is None:
+        second = gather_evidence(obs, index, strengths, in_range, **kw)
+    explain_jointly(second, obs, index, sigma_dex=sigma, strong_fraction=params.strong_fraction)
+    return second, response
+
+
+def _total_evidence(ev_pass: EvidencePass) -> float:
+    """Σ max(net evidence, 0) over species: how well the model explains the spectrum."""
+    return float(sum(max(ev.net_evidence_dex, 0.0) for ev in ev_pass.evidence.values()))
+
+
+def _choose_model(
     obs: ObservedLines,
     index: ReferenceIndex,
     params: MatchParameters,
     temperature_K: float,
     in_range: np.ndarray,
-) -> EvidencePass:
-    strengths = expected_strengths(index, temperature_K, params.mode, in_range)
-    kw = dict(
-        strong_fraction=params.strong_fraction,
-        min_rel_intensity=params.min_rel_intensity,
-        competitor_min_rel=params.competitor_min_rel,
-        missing_factor=params.missing_factor,
-    )
-    first = gather_evidence(obs, index, strengths, in_range, **kw)
-    # Species that may compete for a peak in the second pass: those with real
-    # support, not every species that happens to have one line in some window
-    # (in a dense line list many do, and would make every line "shared").
-    plausible = {
-        c
-        for c, ev in first.evidence.items()
-        if ev.level >= 2
-        or (ev.level >= 1 and ev.chance_probability <= 0.01 and not ev.missing_strong)
-    }
-    return gather_evidence(obs, index, strengths, in_range, plausible=plausible, **kw)
+) -> tuple[str, str, np.ndarray, EvidencePass]:
+    """The source model (name, why) and its first pass."""
+    if params.source_model != "auto":
+        st, first = _first_pass(obs, index, params, params.source_model, temperature_K, in_range)
+        return params.source_model, "given", st, first
+    if index.axis == "energy":
+        st, first = _first_pass(obs, index, params, "x-ray", temperature_K, in_range)
+        return "x-ray", "auto: energy axis", st, first
+    if params.mode == "absorption":
+        st, first = _first_pass(obs, index, params, "absorption", temperature_K, in_range)
+        return "absorption", "auto: absorption spectrum", st, first
+    st_l, first_l = _first_pass(obs, index, params, "lte-plasma", temperature_K, in_range)
+    if not np.any(np.isfinite(obs.intensity)):
+        return "lte-plasma", "auto: no intensities to compare models", st_l, first_l
+    st_d, first_d = _first_pass(obs, index, params, "discharge-lamp", temperature_K, in_range)
+    e_l, e_d = _total_evidence(first_l), _total_evidence(first_d)
+    why = f"auto: total net evidence {e_d:.1f} dex (discharge-lamp) vs {e_l:.1f} dex (lte-plasma)"
+    if e_d > e_l:
+        return "discharge-lamp", why, st_d, first_d
+    return "lte-plasma", why, st_l, first_l
 
 
 def _scale_pairs(
@@ -300,8 +539,30 @@ def _scale_pairs(
     return np.array(o), np.array(r)
 
 
+def _significant(scale: ScaleCheck, obs: ObservedLines) -> bool:
+    """Whether a scale error is large enough to apply by default (module docstring)."""
+    if scale.shift is None:
+        return False
+    tol = float(np.median(obs.half_window))
+    limit = CALIBRATION_FRACTION * tol
+    if abs(scale.shift) > max(3.0 * (scale.shift_uncertainty or 0.0), limit):
+        return True
+    if scale.stretch and scale.stretch_interval and scale.centre is not None:
+        lo, hi = scale.stretch_interval
+        reach = float(np.max(np.abs(obs.position[[0, -1]] - scale.centre)))
+        if (lo > 0 or hi < 0) and abs(scale.stretch) * reach > limit:
+            return True
+    return False
+
+
 def match_peaks(
-    peaks: PeakList, sets: Sequence[Any], params: MatchParameters | None = None
+    peaks: PeakList,
+    sets: Sequence[Any],
+    params: MatchParameters | None = None,
+    *,
+    tolerance_per_peak: np.ndarray | None = None,
+    excluded_peaks: np.ndarray | Sequence[int] | None = None,
+    peak_labels: dict[int, str] | None = None,
 ) -> MatchResult:
     """Match observed lines against reference sets.
 
@@ -313,6 +574,13 @@ def match_peaks(
         Reference sets on the same axis as the peaks.
     params : MatchParameters, optional
         Settings; defaults when omitted.
+    tolerance_per_peak : numpy.ndarray, optional
+        Half-window per peak (axis unit), overriding ``params.tolerance``
+        (e.g. detector resolution at each energy, from an instrument model).
+    excluded_peaks : array of int or bool, optional
+        Peaks never matched (artefacts: escape, sum, diffraction peaks).
+    peak_labels : dict of int to str, optional
+        Label per peak index shown in the report (e.g. "Si escape of Fe Kα").
 
     Returns
     -------
@@ -326,11 +594,54 @@ def match_peaks(
             f"the peak list holds {peaks.mode} lines but the match was asked in {params.mode} mode",
             f"use --mode {peaks.mode}, or find the peaks again in {params.mode} mode",
         )
+    notes: list[dict[str, object]] = []
+    deduped, n_merged = _dedupe(peaks)
+    if n_merged:
+        if tolerance_per_peak is not None or excluded_peaks is not None or peak_labels:
+            raise ValueRangeError(
+                f"the peak list repeats {n_merged} position(s) and per-peak settings were given",
+                "remove the repeated rows before passing per-peak tolerances or labels",
+            )
+        notes.append(
+            {
+                "kind": "duplicate_peaks",
+                "message": f"{n_merged} row(s) repeated a position already in the list and were "
+                "merged (the most intense kept)",
+                "elements": [],
+                "lines": [],
+            }
+        )
+        peaks = deduped
+    labels = dict(peak_labels or {})
+    broad = _broad_dips(peaks, params)
+    if broad is not None:
+        ex = np.zeros(peaks.table.height, dtype=bool)
+        if excluded_peaks is not None:
+            e0 = np.asarray(excluded_peaks)
+            ex[e0 if e0.dtype == bool else e0.astype(np.int64)] = True
+        excluded_peaks = ex | broad
+        for i in np.flatnonzero(broad).tolist():
+            labels.setdefault(i, "broad dip (molecular band or blend): not used as evidence")
+        notes.append(
+            {
+                "kind": "broad_dips",
+                "message": f"{int(broad.sum())} dip(s) wider than {BAND_WIDTH_FACTOR:g}× the "
+                "median width were treated as bands (molecular, e.g. telluric O2/H2O, or "
+                "blends) and not used as evidence for any element",
+                "elements": [],
+                "lines": [],
+            }
+        )
     index = build_index(
         sets, peaks.axis, peaks.medium, params.elements, params.max_ion, params.exclude_elements
     )
     xray = None
-    if peaks.axis == "energy" and not peaks.extra.get("xray_prepared"):
+    if (
+        peaks.axis == "energy"
+        and not peaks.extra.get("xray_prepared")
+        and tolerance_per_peak is None
+        and excluded_peaks is None
+    ):
         # X-ray physics (workbench.xray): artefact peaks out, detector-resolution
         # widths in, energy scale checked; unexcitable lines dropped below.
         from workbench.xray.prepare import prepare_energy_peaks
@@ -341,7 +652,7 @@ def match_peaks(
             params.instrument,
             (ref_species, index.position, index.rel_intensity * index.subshell_weight),
         )
-    obs = _observed(peaks, params)
+    obs = _observed(peaks, params, tolerance_per_peak, excluded_peaks)
     x_range = peaks.extra.get("x_range") if isinstance(peaks.extra, dict) else None
     if x_range:
         lo, hi = float(x_range[0]), float(x_range[1])
@@ -352,13 +663,32 @@ def match_peaks(
     if xray is not None:
         el_line = np.asarray(index.species_element, dtype=object)[index.species]
         in_range &= xray.reference_mask(el_line, index.transition, index.position)
+    if not np.any(in_range):
+        unit = "nm" if peaks.axis == "wavelength" else "eV"
+        notes.append(
+            {
+                "kind": "out_of_reference_range",
+                "message": f"no reference line lies in the observed range {lo:g}–{hi:g} {unit}: "
+                "nothing can be identified (check the unit and the axis, or choose a reference "
+                "set that covers this range)",
+                "elements": [],
+                "lines": [],
+            }
+        )
+    _check_pair_budget(obs, index, in_range)
 
     working_T = params.temperature_K or (
         params.default_temperature_K if params.mode == "emission" else 5800.0
     )
-    ev_pass = _run_passes(obs, index, params, working_T, in_range)
+    model, why, strengths, first = _choose_model(obs, index, params, working_T, in_range)
+    ev_pass, response = _second_pass(obs, index, params, model, in_range, strengths, first)
     temperature: TemperatureEstimate | None = None
-    if params.mode == "emission" and params.temperature_K is None and params.estimate_temperature:
+    if (
+        model == "lte-plasma"
+        and params.mode == "emission"
+        and params.temperature_K is None
+        and params.estimate_temperature
+    ):
         temperature = estimate_temperature(obs, index, ev_pass)
         t_est = temperature.temperature_K
         if (
@@ -367,18 +697,32 @@ def match_peaks(
             and abs(t_est - working_T) > 0.1 * working_T
         ):
             working_T = float(t_est)
-            ev_pass = _run_passes(obs, index, params, working_T, in_range)
+            strengths, first = _first_pass(obs, index, params, model, working_T, in_range)
+            ev_pass, response = _second_pass(
+                obs, index, params, model, in_range, strengths, first, response
+            )
 
     unit = "nm" if peaks.axis == "wavelength" else "eV"
     o, r = _scale_pairs(obs, ev_pass, index, params.strong_fraction)
     scale = estimate_scale(o, r, unit, applied=False)
-    if params.apply_calibration and scale.shift is not None:
+    apply = params.apply_calibration
+    if apply is None:
+        apply = _significant(scale, obs)
+    if apply and scale.shift is not None:
         corrected = scale.correct(obs.position)
         new_table = peaks.table.with_columns(pl.Series(peaks.position_column, corrected))
         new_peaks = PeakList(
             new_table, peaks.axis, peaks.medium, peaks.source, peaks.mode, dict(peaks.extra)
         )
-        inner = match_peaks(new_peaks, sets, replace(params, apply_calibration=False))
+        inner = match_peaks(
+            new_peaks,
+            sets,
+            replace(params, apply_calibration=False),
+            tolerance_per_peak=tolerance_per_peak,
+            excluded_peaks=excluded_peaks,
+            peak_labels=labels,
+        )
+        how = "asked" if params.apply_calibration else "significant, applied by default"
         inner.scale = ScaleCheck(
             scale.n_pairs,
             scale.shift,
@@ -387,10 +731,11 @@ def match_peaks(
             scale.stretch_interval,
             scale.centre,
             True,
-            scale.message + " (applied)",
+            scale.message + f" ({how}; --no-calibration turns this off)",
         )
         inner.peaks = peaks
         inner.xray = xray.to_dict() | {"warnings": xray.warnings} if xray else inner.xray
+        inner.notes = notes + inner.notes
         return inner
 
     assignments = assign_peaks(obs, ev_pass, params.share_ratio)
@@ -413,6 +758,15 @@ def match_peaks(
         parameters=params,
         lte=lte,
         xray=xray.to_dict() | {"warnings": xray.warnings} if xray else None,
+        source_model={
+            "name": model,
+            "sigma_dex": SOURCE_MODELS[model].sigma_dex,
+            "description": SOURCE_MODELS[model].description,
+            "chosen_by": why,
+        },
+        response=response,
+        notes=notes,
+        peak_labels=labels,
     )
 
 

@@ -1,8 +1,28 @@
-"""Gather per-species evidence from candidate pairs (one pass of the engine).
+"""Gather per-species evidence from candidate pairs: groups, likelihood, chance (one pass).
 
-The pass is vectorised over pairs; the only Python loop is over the species
-that have at least one candidate (tens to a few hundred), each handled with
-slices of species-sorted arrays.
+Per species, the evidence is counted per *resolvable group*
+(:mod:`workbench.matching.groups`), never per reference line, and combined
+as in :mod:`workbench.matching.scoring`:
+
+* the species' intensity scale is the median of observed / predicted over
+  its found, unsaturated groups that no other competing species shares;
+  the prediction is the group's strength (:mod:`workbench.matching.sourcemodels`)
+  times the instrument response at its position
+  (:mod:`workbench.matching.response`);
+* a group *should be seen* when predicted at or above the detection limit
+  (with intensities), or when its strength is at least ``strong_fraction``
+  of the species' strongest (without intensities);
+* a group that should be seen and has no peak is *missing*, unless an
+  observed peak at least as strong as its prediction lies within three
+  half-windows (it may hide in that wing: *masked*, counted neither way);
+* the chance probability and the missing-line penalty are computed from
+  these (see :mod:`workbench.matching.scoring`).
+
+Everything is vectorised over pairs and groups; the only Python loop is over
+species with at least one candidate (tens to a few hundred), with slices of
+species-sorted arrays. Per-species group arrays are kept on the evidence
+(``SpeciesEvidence.groups``) so that the joint step
+(:mod:`workbench.matching.joint`) can re-evaluate a species cheaply.
 """
 
 from __future__ import annotations
@@ -10,11 +30,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special
 
 from workbench.matching.candidates import CandidatePairs, find_candidates
+from workbench.matching.groups import resolvable_groups
+from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
-from workbench.matching.scoring import SpeciesEvidence, decide_verdict, score_of
+from workbench.matching.scoring import SpeciesEvidence, evaluate
 
 __all__ = ["EvidencePass", "ObservedLines", "gather_evidence"]
 
@@ -29,6 +50,16 @@ class ObservedLines:
     saturated: np.ndarray  # bool
     detection_limit: float | None  # intensity units; None when intensities are unknown
     tolerance: object = None  # the resolved ToleranceSpec
+    excluded: np.ndarray | None = None  # bool: artefact peaks (escape, sum, ...) not to match
+    resolution: np.ndarray | None = None  # resolution element (≈ FWHM) per peak; None = window
+    detection_curve: tuple[np.ndarray, np.ndarray] | None = None  # (x, limit) where it varies
+
+    def detection_limit_at(self, x: np.ndarray) -> np.ndarray:
+        """Detection limit at positions ``x`` (the scalar limit where no curve is known)."""
+        if self.detection_curve is not None:
+            cx, cy = self.detection_curve
+            return np.interp(x, cx, cy)
+        return np.full(np.shape(x), self.detection_limit, dtype=float)
 
 
 @dataclass
@@ -38,10 +69,14 @@ class EvidencePass:
     evidence: dict[int, SpeciesEvidence]
     pairs: CandidatePairs  # ref indices are global (into the ReferenceIndex)
     pair_species: np.ndarray
-    pair_competes: np.ndarray  # bool: the pair's line is strong enough to compete
+    pair_competes: np.ndarray  # bool: the pair's group is strong enough to compete
     strengths: np.ndarray  # expected strength per reference line
     in_range: np.ndarray
     usable: np.ndarray
+    n_species_tried: int = 0
+    density: float = 0.0
+    span: float = 0.0
+    sorted_intensity: np.ndarray | None = None
 
 
 def _range_max(padded: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
@@ -57,9 +92,18 @@ def _range_max(padded: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray
 
 
 def _pearson(a: np.ndarray, b: np.ndarray) -> float | None:
-    if a.size < 3 or np.ptp(a) == 0 or np.ptp(b) == 0:
+    if a.size < 3:
         return None
-    return float(np.corrcoef(a, b)[0, 1])
+    da, db = a - a.mean(), b - b.mean()
+    den = float(np.sqrt(np.dot(da, da) * np.dot(db, db)))
+    return float(np.dot(da, db) / den) if den > 0 else None
+
+
+def _median(a: np.ndarray) -> float:
+    """Median of a small 1-D array (np.median's overhead dominates at this size)."""
+    s = np.sort(a)
+    n = s.size
+    return float(0.5 * (s[(n - 1) // 2] + s[n // 2]))
 
 
 def gather_evidence(
@@ -71,8 +115,12 @@ def gather_evidence(
     strong_fraction: float,
     min_rel_intensity: float,
     competitor_min_rel: float,
-    missing_factor: float,
+    sigma_dex: float,
+    response: np.ndarray | None = None,
     plausible: set[int] | None = None,
+    n_species_tried: int | None = None,
+    abundance_prior: str = "none",
+    sigma_lines: np.ndarray | None = None,
 ) -> EvidencePass:
     """Collect the evidence of every species with at least one candidate.
 
@@ -83,15 +131,26 @@ def gather_evidence(
     index : ReferenceIndex
         Reference lines.
     strengths : numpy.ndarray
-        Expected relative strength per reference line (NaN = unknown).
+        Predicted relative strength per reference line (NaN = unknown).
     in_range : numpy.ndarray of bool
         Reference lines inside the observed range.
-    strong_fraction, min_rel_intensity, competitor_min_rel, missing_factor : float
+    strong_fraction, min_rel_intensity, competitor_min_rel : float
         Thresholds (see :mod:`workbench.matching.scoring`).
+    sigma_dex : float
+        Uncertainty of the source model's predicted log-intensity (decades).
+    response : numpy.ndarray, optional
+        Relative instrument response per reference line (1 = flat).
     plausible : set of int, optional
         Species codes that may compete for a peak; all species when omitted
-        (first pass). The second pass restricts competition to species with
-        real support in the first (see :mod:`workbench.matching.engine`).
+        (first pass).
+    n_species_tried : int, optional
+        Species tried, for the multiple-testing correction; by default the
+        number of species with at least one candidate in this pass.
+    abundance_prior : str
+        ``none``, ``crustal`` or ``solar`` (:mod:`workbench.matching.priors`).
+    sigma_lines : numpy.ndarray, optional
+        Per-line uncertainty (dex) where it differs from ``sigma_dex``
+        (:func:`workbench.matching.sourcemodels.model_sigma`).
 
     Returns
     -------
@@ -100,164 +159,214 @@ def gather_evidence(
     e = strengths
     e_zero = np.where(np.isfinite(e), e, 0.0)
     usable = in_range & (~np.isfinite(e) | (e >= min_rel_intensity))
+    # Lines sorted by (species, position): groups are contiguous per species.
     usable_idx = np.flatnonzero(usable)
-    local = find_candidates(obs.position, obs.half_window, index.position[usable_idx])
-    ref = usable_idx[local.ref]
+    usable_idx = usable_idx[np.lexsort((index.position[usable_idx], index.species[usable_idx]))]
+    u_pos = index.position[usable_idx]
+    u_sp = index.species[usable_idx]
+    res = obs.resolution if obs.resolution is not None else obs.half_window
+    gid = resolvable_groups(u_sp, u_pos, np.interp(u_pos, obs.position, res))
+    n_groups = int(gid[-1]) + 1 if gid.size else 0
+    line_group = np.full(index.n_lines, -1, dtype=np.int64)
+    line_group[usable_idx] = gid
+    u_e = e_zero[usable_idx]
+    g_strength = np.bincount(gid, weights=u_e, minlength=n_groups)
+    g_known = np.bincount(gid, weights=np.isfinite(e[usable_idx]), minlength=n_groups) > 0
+    g_count = np.bincount(gid, minlength=n_groups)
+    g_pos = np.where(
+        g_strength > 0,
+        np.bincount(gid, weights=u_e * u_pos, minlength=n_groups) / np.maximum(g_strength, 1e-300),
+        np.bincount(gid, weights=u_pos, minlength=n_groups) / np.maximum(g_count, 1),
+    )
+    g_species = np.zeros(n_groups, dtype=np.int64)
+    g_species[gid] = u_sp
+    # Strongest line of each group: it stands for the group in the evidence.
+    strongest = np.lexsort((-u_e, gid))
+    g_rep = np.full(n_groups, -1, dtype=np.int64)
+    g_first_line = np.unique(gid[strongest], return_index=True)[1]
+    g_rep[gid[strongest][g_first_line]] = usable_idx[strongest][g_first_line]
+    g_tol = np.interp(g_pos, obs.position, obs.half_window)
+    # Extent of each group (lines are sorted within it): a chain of close lines
+    # is easier to hit by chance, so its window is its span plus the tolerance.
+    g_first_i = np.flatnonzero(np.diff(np.concatenate(([-1], gid))) != 0)
+    g_last_i = np.append(g_first_i[1:] - 1, gid.size - 1) if gid.size else g_first_i
+    g_span = u_pos[g_last_i] - u_pos[g_first_i] if gid.size else np.zeros(0)
+    if response is None:
+        g_resp = np.ones(n_groups)
+    else:
+        g_resp = np.bincount(gid, weights=response[usable_idx] * np.maximum(u_e, 1e-300))
+        g_resp = g_resp / np.bincount(gid, weights=np.maximum(u_e, 1e-300), minlength=n_groups)
+
+    # Candidate pairs over usable lines (sorted by position for the search).
+    by_pos = np.argsort(index.position[usable_idx], kind="stable")
+    search_idx = usable_idx[by_pos]
+    local = find_candidates(obs.position, obs.half_window, index.position[search_idx])
+    ref = search_idx[local.ref]
+    if obs.excluded is not None and np.any(obs.excluded):
+        keep = ~obs.excluded[local.obs]
+        local = CandidatePairs(obs=local.obs[keep], ref=local.ref[keep], delta=local.delta[keep])
+        ref = ref[keep]
     pairs = CandidatePairs(obs=local.obs, ref=ref, delta=local.delta)
     sp = index.species[ref]
-    e_pair = e[ref]
-    competes = ~np.isfinite(e_pair) | (e_pair >= competitor_min_rel)
+    grp = line_group[ref]
+    competes = ~g_known[grp] | (g_strength[grp] >= competitor_min_rel)
     if plausible is not None:
         competes &= np.isin(sp, np.fromiter(plausible, dtype=np.int64, count=len(plausible)))
 
-    # Distinct competing species per peak: unique (peak, species) among competing pairs.
     n_obs = obs.position.size
     comp_keys = np.unique(pairs.obs[competes].astype(np.int64) * index.n_species + sp[competes])
-    comp_peak = comp_keys // index.n_species
-    n_comp = np.bincount(comp_peak, minlength=n_obs)
+    n_comp = np.bincount(comp_keys // index.n_species, minlength=n_obs)
 
-    def competes_at(peaks_: np.ndarray, code_: int) -> np.ndarray:
-        # Is (peak, code) among the competing keys? Binary search in the sorted keys.
-        q = peaks_.astype(np.int64) * index.n_species + code_
-        pos = np.searchsorted(comp_keys, q)
-        pos = np.minimum(pos, max(comp_keys.size - 1, 0))
-        return comp_keys[pos] == q if comp_keys.size else np.zeros(q.size, dtype=bool)
+    # Best peak per group: smallest |delta| among the group's pairs.
+    order = np.lexsort((np.abs(pairs.delta), grp))
+    g_first, first_at = np.unique(grp[order], return_index=True)
+    g_peak = np.full(n_groups, -1, dtype=np.int64)
+    g_peak[g_first] = pairs.obs[order[first_at]]
+    g_line = np.full(n_groups, -1, dtype=np.int64)  # the line nearest its peak
+    g_line[g_first] = pairs.ref[order[first_at]]
+    found = g_peak >= 0
+    pk = np.where(found, g_peak, 0)
+    key = pk.astype(np.int64) * index.n_species + g_species
+    pos_k = np.minimum(np.searchsorted(comp_keys, key), max(comp_keys.size - 1, 0))
+    own = (comp_keys[pos_k] == key) if comp_keys.size else np.zeros(n_groups, dtype=bool)
+    g_unique = found & (n_comp[pk] - own.astype(np.int64) == 0)
 
-    # Sort pairs by species once; slice per species.
-    order = np.lexsort((np.abs(pairs.delta), ref, sp))
-    sp_sorted = sp[order]
-    species_present, starts = np.unique(sp_sorted, return_index=True)
-    ends = np.append(starts[1:], sp_sorted.size)
-
-    # In-range lines per species, for the expected-but-missing logic.
-    in_idx = np.flatnonzero(in_range)
-    in_sp = index.species[in_idx]
-    in_order = np.argsort(in_sp, kind="stable")
-    in_idx = in_idx[in_order]
-    in_sp = in_sp[in_order]
-
-    # Density of observed peaks, for the chance-coincidence probability.
+    # Peak density and comparable-strength look-up for the chance probability.
     span = float(obs.position[-1] - obs.position[0]) + 2.0 * float(np.median(obs.half_window))
     density = n_obs / span if span > 0 else 0.0
     sorted_intensity = np.sort(obs.intensity[np.isfinite(obs.intensity)])
-    # Intensities with a trailing sentinel, for vectorised window maxima.
     intensity_padded = np.append(
         np.where(np.isfinite(obs.intensity), obs.intensity, -np.inf), -np.inf
     )
+    has_int = obs.detection_limit is not None and sorted_intensity.size > 0
+
+    species_present = np.unique(sp)
+    n_tried = int(n_species_tried or species_present.size)
+    g_start = np.searchsorted(g_species, species_present, side="left")
+    g_end = np.searchsorted(g_species, species_present, side="right")
+    # Reference lines per species (all in range, usable or not): report counts.
+    in_counts = np.bincount(index.species[in_range], minlength=index.n_species)
+
+    # Found lines per species for the report: every (line, best peak) pair of the species.
+    order_l = np.lexsort((np.abs(pairs.delta), ref, sp))
+    sp_sorted = sp[order_l]
+    l_start = np.searchsorted(sp_sorted, species_present, side="left")
+    l_end = np.searchsorted(sp_sorted, species_present, side="right")
 
     evidence: dict[int, SpeciesEvidence] = {}
-    for code, a, b in zip(species_present, starts, ends, strict=True):
-        code = int(code)
-        sel = order[a:b]
-        p_obs = pairs.obs[sel]
-        p_ref = ref[sel]
-        # Best peak per reference line: first occurrence after sorting by |delta|.
-        lines, first = np.unique(p_ref, return_index=True)
-        best_peak = p_obs[first]
-        lo, hi = np.searchsorted(in_sp, [code, code + 1])
-        sp_lines = in_idx[lo:hi]
-        e_lines = e[sp_lines]
+    for code, ga, gb, la, lb in zip(
+        species_present.tolist(),
+        g_start.tolist(),
+        g_end.tolist(),
+        l_start.tolist(),
+        l_end.tolist(),
+        strict=True,
+    ):
+        sl = slice(ga, gb)
+        G = g_strength[sl]
+        known = g_known[sl]
+        fnd = found[sl]
+        peak = g_peak[sl]
+        uniq = g_unique[sl]
+        resp = g_resp[sl]
+        I_p = np.where(fnd, obs.intensity[np.where(fnd, peak, 0)], np.nan)
+        sat = np.where(fnd, obs.saturated[np.where(fnd, peak, 0)], False)
         ev = SpeciesEvidence(
             code=code,
             label=index.species_names[code],
             element=index.species_element[code],
             ion=index.species_ion[code],
             family=index.species_family[code],
-            n_lines_in_range=int(sp_lines.size),
-            n_strong_in_range=int(np.sum(e_lines >= strong_fraction)),
+            n_lines_in_range=int(in_counts[code]),
         )
-        e_found = e[lines]
-        # A line is unique when no other competing species has a candidate at its peak.
-        own_competes = competes_at(best_peak, code)
-        others = n_comp[best_peak] - own_competes.astype(np.int64)
-        unique = others == 0
-        ev.found_lines = lines.tolist()
-        ev.found_peaks = best_peak.tolist()
-        ev.unique_lines = lines[unique].tolist()
-        ev.shared_lines = lines[~unique].tolist()
-        # Counts are of distinct observed peaks: two lines of one species inside
-        # one unresolved peak are one piece of evidence, not two.
-        ev.n_strong_found = int(np.unique(best_peak[e_found >= strong_fraction]).size)
-        ev.n_unique_peaks = int(np.unique(best_peak[unique]).size)
-
-        # Intensity scale: observed / expected at each matched peak (all of this
-        # species' lines in a peak's window are summed: a blend).
-        pk_all, inv = np.unique(p_obs, return_inverse=True)
-        e_p = np.bincount(inv, weights=e_zero[p_ref], minlength=pk_all.size)
-        peak_unique = n_comp[pk_all] - competes_at(pk_all, code) == 0
-        I_p = obs.intensity[pk_all]
-        good = np.isfinite(I_p) & (I_p > 0) & (e_p > 0) & ~obs.saturated[pk_all]
-        use = good & peak_unique if np.any(good & peak_unique) else good
+        # Scale from found, unsaturated, known groups (unique ones when there are any).
+        pred_unit = G * resp
+        good = fnd & known & np.isfinite(I_p) & (I_p > 0) & ~sat & (pred_unit > 0)
+        use = good & uniq if np.any(good & uniq) else good
         if np.any(use):
-            ev.scale = float(np.median(I_p[use] / e_p[use]))
-        if np.sum(good & peak_unique) >= 3:
-            m = good & peak_unique
-            ev.pattern_r = _pearson(np.log(I_p[m]), np.log(e_p[m]))
-
-        found_mask = np.isin(sp_lines, lines)
-        finite = np.isfinite(e_lines)
-        if ev.scale is not None and obs.detection_limit is not None:
-            predicted = ev.scale * np.where(finite, e_lines, 0.0)
-            visible = predicted >= missing_factor * obs.detection_limit
+            ratios = I_p[use] / pred_unit[use]
+            ev.scale = _median(ratios)
+            if has_int:
+                # Censored median: groups that should be seen at this scale but
+                # have no peak enter at the detection limit (an upper bound of
+                # their ratio). The median of found lines alone is biased high:
+                # only the lines that came out bright were found.
+                unseen = known & ~fnd & (pred_unit > 0)
+                dl_u = obs.detection_limit_at(g_pos[sl])
+                for _ in range(4):
+                    cens = unseen & (ev.scale * pred_unit >= dl_u)
+                    new_scale = _median(np.concatenate([ratios, dl_u[cens] / pred_unit[cens]]))
+                    if new_scale == ev.scale:
+                        break
+                    ev.scale = new_scale
+        if np.sum(good & uniq) >= 3:
+            m = good & uniq
+            ev.pattern_r = _pearson(np.log(I_p[m]), np.log(pred_unit[m]))
+        with_int = has_int and ev.scale is not None
+        dl_g = obs.detection_limit_at(g_pos[sl]) if with_int else None
+        if with_int:
+            predicted = ev.scale * pred_unit
+            visible = known & (predicted >= dl_g)
         else:
-            predicted = np.where(finite, e_lines, 0.0)
-            visible = e_lines >= strong_fraction
-        missing = visible & ~found_mask & finite
-        if np.any(missing):
-            # A line without its own peak may be hidden in the wing of a stronger
-            # neighbour (peak finders resolve shoulders poorly): not "missing"
-            # when an observed peak at least as strong as predicted lies within
-            # 3 half-windows.
-            cand = sp_lines[missing]
-            xc = index.position[cand]
-            w = 3.0 * np.interp(xc, obs.position, obs.half_window)
+            predicted = np.where(known, G, 0.0)
+            visible = known & (G >= strong_fraction)
+        masked = np.zeros_like(fnd)
+        cand = visible & ~fnd
+        if with_int and np.any(cand):
+            xc = g_pos[sl][cand]
+            w = 3.0 * g_tol[sl][cand]
             lo_i = np.searchsorted(obs.position, xc - w, side="left")
             hi_i = np.searchsorted(obs.position, xc + w, side="right")
-            strongest = (
-                _range_max(intensity_padded, lo_i, hi_i)
-                if obs.detection_limit is not None
-                else np.full(cand.size, -np.inf)
+            masked[np.flatnonzero(cand)] = (
+                _range_max(intensity_padded, lo_i, hi_i) >= predicted[cand]
             )
-            masked_local = strongest >= predicted[missing]
-            masked = np.zeros_like(missing)
-            masked[np.flatnonzero(missing)[masked_local]] = True
-            ev.masked_lines = sp_lines[masked].tolist()
-            missing &= ~masked
-            visible &= ~masked
-        miss_order = np.argsort(-predicted[missing], kind="stable")
-        ev.missing_lines = sp_lines[missing][miss_order].tolist()
-        ev.missing_predicted = predicted[missing][miss_order].tolist()
-        # Chance coincidence: with peaks scattered at this density, each strong
-        # line would have a peak in its window with p = 1 - exp(-ρ·2·tol).
-        strong_mask = finite & (e_lines >= strong_fraction)
-        if ev.masked_lines:
-            strong_mask &= ~np.isin(sp_lines, ev.masked_lines)
-        n_strong = int(np.sum(strong_mask))
-        k_strong = int(np.sum(strong_mask & found_mask))
-        if n_strong and k_strong:
-            tol_l = np.interp(index.position[sp_lines[strong_mask]], obs.position, obs.half_window)
-            rho = np.full(tol_l.size, density)
-            if ev.scale is not None and sorted_intensity.size:
-                # Only peaks of comparable strength (≥ 30 % of the prediction)
-                # could pass for the line: a strong line is rarely matched by
-                # chance when strong peaks are few.
-                thr = 0.3 * ev.scale * e_lines[strong_mask]
-                n_ge = sorted_intensity.size - np.searchsorted(sorted_intensity, thr, "left")
-                rho = n_ge / span
-            p = float(np.mean(1.0 - np.exp(-rho * 2.0 * tol_l)))
-            # P(X ≥ k) for X ~ Binomial(n, p) is the regularised incomplete
-            # beta function I_p(k, n − k + 1).
-            ev.chance_probability = float(special.betainc(k_strong, n_strong - k_strong + 1, p))
-        ev.missing_strong = [i for i in ev.missing_lines if e[i] >= strong_fraction]
-        denom_mask = finite & (visible | found_mask)
-        denom = float(np.sum(e_lines[denom_mask]))
-        if denom > 0:
-            ev.found_fraction = float(np.sum(e_lines[denom_mask & found_mask]) / denom)
+        # Density of peaks comparable in strength (≥ 30 % of the prediction)
+        # per group: a strong line is rarely matched by chance when strong
+        # peaks are few.
+        if with_int:
+            n_ge = sorted_intensity.size - np.searchsorted(
+                sorted_intensity, 0.3 * predicted, "left"
+            )
+            rho = n_ge / span
         else:
-            # No strength information: presence alone caps the call at "possible".
-            ev.found_fraction = 0.5 if lines.size else 0.0
-        ev.level = decide_verdict(ev)
-        ev.score = score_of(ev)
+            rho = np.full(G.size, density)
+        ev.groups = {
+            "strength": G,
+            "known": known,
+            "found": fnd,
+            "peak": peak,
+            "unique": uniq,
+            "visible": visible,
+            "masked": masked,
+            "predicted": predicted,
+            "p_line": 1.0 - np.exp(-rho * (2.0 * g_tol[sl] + g_span[sl])),
+            "position": g_pos[sl],
+            "line": g_line[sl],
+            "rep": g_rep[sl],
+            "sigma": (
+                sigma_lines[g_rep[sl]] if sigma_lines is not None else np.full(G.size, sigma_dex)
+            ),
+            "explained": np.zeros(G.size, dtype=bool),
+            "dl": dl_g,
+        }
+        ev.n_groups_in_range = int(G.size)
+        ev.n_strong_in_range = int(np.sum(known & (G >= strong_fraction)))
+        ev.missing_evidence = bool(with_int)
+        ev.prior_dex = prior_dex(abundance_prior, ev.element)
+        sel = order_l[la:lb]
+        lines, first = np.unique(ref[sel], return_index=True)
+        ev.found_lines = lines.tolist()
+        ev.found_peaks = pairs.obs[sel][first].tolist()
+        line_unique = g_unique[line_group[lines]]
+        ev.unique_lines = lines[line_unique].tolist()
+        ev.shared_lines = lines[~line_unique].tolist()
+        evaluate(
+            ev,
+            detection_limit=obs.detection_limit,
+            sigma_dex=sigma_dex,
+            n_tried=n_tried,
+            strong_fraction=strong_fraction,
+        )
         evidence[code] = ev
     return EvidencePass(
         evidence=evidence,
@@ -267,4 +376,8 @@ def gather_evidence(
         strengths=e,
         in_range=in_range,
         usable=usable,
+        n_species_tried=n_tried,
+        density=density,
+        span=span,
+        sorted_intensity=sorted_intensity,
     )

@@ -28,7 +28,7 @@ from scipy import constants as sc
 
 from workbench.matching.reference import ReferenceIndex
 
-__all__ = ["GF_TO_GA", "expected_strengths", "strength_method"]
+__all__ = ["GF_TO_GA", "atomic_log_strength", "expected_strengths", "strength_method"]
 
 #: g_k·A_ki = GF_TO_GA · gf / λ[Å]² (s⁻¹): 8π²e²/(m_e c) in Gaussian units, i.e. 6.6702e15.
 GF_TO_GA: float = 8 * np.pi**2 * sc.e**2 / (4 * np.pi * sc.epsilon_0 * sc.m_e * sc.c) * 1e20
@@ -52,6 +52,35 @@ def strength_method(index: ReferenceIndex) -> np.ndarray:
     atomic = (has_gA | has_gf) & has_energy & np.isfinite(lam)
     source = ~atomic & np.isfinite(index.rel_intensity) & (index.rel_intensity > 0)
     return np.where(atomic, "atomic", np.where(source, "source", "none"))
+
+
+def atomic_log_strength(index: ReferenceIndex, temperature_K: float, mode: str) -> np.ndarray:
+    """Natural log of the (unnormalised) strength from atomic data; NaN without it.
+
+    Emission: ln(gA/λ) − E_k/kT; absorption: ln(gf·λ²) − E_i/kT (weak-line limit).
+    """
+    kT = _K_B_EV * float(temperature_K)
+    lam_nm = index.wavelength_vac_nm
+    lam_A = lam_nm * 10.0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        gA = np.where(
+            np.isfinite(index.g_upper) & np.isfinite(index.A_ki_per_s),
+            index.g_upper * index.A_ki_per_s,
+            GF_TO_GA * 10.0**index.log_gf / lam_A**2,
+        )
+        gf = np.where(np.isfinite(index.log_gf), 10.0**index.log_gf, gA * lam_A**2 / GF_TO_GA)
+        photon_eV = sc.h * sc.c / sc.e / (lam_nm * 1e-9)
+        E_up = np.where(
+            np.isfinite(index.E_upper_eV), index.E_upper_eV, index.E_lower_eV + photon_eV
+        )
+        E_lo = np.where(
+            np.isfinite(index.E_lower_eV), index.E_lower_eV, index.E_upper_eV - photon_eV
+        )
+        if mode == "absorption":
+            log_s = np.log(gf) + 2 * np.log(lam_nm) - E_lo / kT
+        else:
+            log_s = np.log(gA) - np.log(lam_nm) - E_up / kT
+    return np.where(strength_method(index) == "atomic", log_s, np.nan)
 
 
 def expected_strengths(
@@ -82,27 +111,7 @@ def expected_strengths(
     n = index.n_lines
     if in_range is None:
         in_range = np.ones(n, dtype=bool)
-    kT = _K_B_EV * float(temperature_K)
-    lam_nm = index.wavelength_vac_nm
-    lam_A = lam_nm * 10.0
-    with np.errstate(divide="ignore", invalid="ignore"):
-        gA = np.where(
-            np.isfinite(index.g_upper) & np.isfinite(index.A_ki_per_s),
-            index.g_upper * index.A_ki_per_s,
-            GF_TO_GA * 10.0**index.log_gf / lam_A**2,
-        )
-        gf = np.where(np.isfinite(index.log_gf), 10.0**index.log_gf, gA * lam_A**2 / GF_TO_GA)
-        photon_eV = sc.h * sc.c / sc.e / (lam_nm * 1e-9)
-        E_up = np.where(
-            np.isfinite(index.E_upper_eV), index.E_upper_eV, index.E_lower_eV + photon_eV
-        )
-        E_lo = np.where(
-            np.isfinite(index.E_lower_eV), index.E_lower_eV, index.E_upper_eV - photon_eV
-        )
-        if mode == "absorption":
-            log_s = np.log(gf) + 2 * np.log(lam_nm) - E_lo / kT
-        else:
-            log_s = np.log(gA) - np.log(lam_nm) - E_up / kT
+    log_s = atomic_log_strength(index, temperature_K, mode)
     method = strength_method(index)
     log_s = np.where(method == "atomic", log_s, np.nan)
     if index.axis == "energy":

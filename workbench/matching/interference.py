@@ -57,10 +57,25 @@ def _zero_nan(v):
 def _predicted_at_peaks(ev_pass: EvidencePass, n_obs: int) -> dict[int, np.ndarray]:
     """Sum of expected strength per (species, peak), as dense arrays for plausible species."""
     out: dict[int, np.ndarray] = {}
-    e = np.nan_to_num(ev_pass.strengths[ev_pass.pairs.ref], nan=0.0)
-    for code in ev_pass.evidence:
-        m = ev_pass.pair_species == code
-        out[code] = np.bincount(ev_pass.pairs.obs[m], weights=e[m], minlength=n_obs)
+    raw = ev_pass.strengths[ev_pass.pairs.ref]
+    known = np.isfinite(raw)
+    e = np.where(known, raw, 0.0)
+    # One pass over pairs sorted by species instead of one mask per species.
+    order = np.argsort(ev_pass.pair_species, kind="stable")
+    sp = ev_pass.pair_species[order]
+    codes, starts = np.unique(sp, return_index=True)
+    ends = np.append(starts[1:], sp.size) if starts.size else starts
+    for code, a, b in zip(codes.tolist(), starts.tolist(), ends.tolist(), strict=True):
+        if code not in ev_pass.evidence:
+            continue
+        sel = order[a:b]
+        obs_i = ev_pass.pairs.obs[sel]
+        total = np.bincount(obs_i, weights=e[sel], minlength=n_obs)
+        n_known = np.bincount(obs_i, weights=known[sel], minlength=n_obs)
+        n_any = np.bincount(obs_i, minlength=n_obs)
+        # Only lines of unknown strength at a peak: the prediction is unknown
+        # (NaN), so the species may share the peak; it is never ruled out as 0.
+        out[code] = np.where((n_any > 0) & (n_known == 0), np.nan, total)
     return out
 
 
@@ -85,7 +100,7 @@ def assign_peaks(
 
         def predicted(c: int, p: int = p) -> float:
             ev = plausible[c]
-            e = float(sums[c][p])
+            e = float(sums[c][p]) if c in sums else float("nan")
             return e * ev.scale if ev.scale is not None else float("nan")
 
         def key(c: int, p: int = p) -> tuple:

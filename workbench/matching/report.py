@@ -2,7 +2,10 @@
 
 Top-level keys: ``schema_version``, ``software_version``, ``data_version``,
 ``input``, ``parameters``, ``reference_sets``, ``calibration``,
-``temperature``, ``elements``, ``lines``, ``warnings``, ``summary``. Position
+``temperature``, ``evidence_model``, ``elements``, ``lines``, ``warnings``,
+``summary``. Schema 2 (issue 9) added ``evidence_model`` and the per-species
+evidence fields (groups, net evidence, corrected chance probability,
+missing-line penalty, prior, explained-by). Position
 keys carry the axis unit in their names (``observed_nm``/``reference_nm``/
 ``delta_nm`` on a wavelength axis, ``observed_eV``/… on an energy axis); the
 medium is in ``input.medium``. The full field list is in
@@ -32,7 +35,7 @@ if TYPE_CHECKING:
 
 __all__ = ["SCHEMA_VERSION", "build_report", "canonical", "result_json", "summary_text"]
 
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 _MAX_CANDIDATES = 8
 
 
@@ -136,6 +139,15 @@ def build_report(result: MatchResult) -> dict[str, Any]:
                 "n_missing_strong": len(ev.missing_strong),
                 "n_masked": len(ev.masked_lines),
                 "chance_probability": _num(ev.chance_probability),
+                "chance_probability_corrected": _num(ev.chance_probability_corrected),
+                "net_evidence_dex": round(ev.net_evidence_dex, 4),
+                "missing_penalty_dex": round(ev.missing_penalty_dex, 4),
+                "prior_dex": round(ev.prior_dex, 4),
+                "missing_evidence_available": ev.missing_evidence,
+                "n_groups_in_range": ev.n_groups_in_range,
+                "n_groups_expected": ev.n_groups_expected,
+                "n_groups_found": ev.n_groups_found,
+                "explained_by": list(ev.explained_by),
                 "pattern_r": _num(ev.pattern_r) if ev.pattern_r is not None else None,
                 "intensity_scale": _num(ev.scale) if ev.scale is not None else None,
                 "matched_lines": matched,
@@ -171,6 +183,7 @@ def build_report(result: MatchResult) -> dict[str, Any]:
                 "intensity": _num(obs.intensity[p]),
                 f"tolerance_{u}": _num(obs.half_window[p]),
                 "status": asg.status,
+                "label": result.peak_labels.get(p),
                 "assigned_to": [names[c] for c in asg.species],
                 "n_candidates": len(by_peak.get(p, [])),
                 "candidates": cands,
@@ -178,6 +191,7 @@ def build_report(result: MatchResult) -> dict[str, Any]:
         )
 
     warnings = list(result.warnings)
+    warnings.extend(result.notes)
     warnings.extend(_other_warnings(result, u))
     xray = dict(result.xray) if result.xray else None
     if xray is not None:  # X-ray physics (workbench.xray): artefacts, instrument, exclusions
@@ -230,6 +244,13 @@ def build_report(result: MatchResult) -> dict[str, Any]:
             "estimate": result.temperature.to_dict() if result.temperature else None,
             "lte": result.lte,
         },
+        "evidence_model": {
+            "source_model": dict(result.source_model),
+            "instrument_response": result.response.to_dict(),
+            "n_species_tried": int(ev_pass.n_species_tried),
+            "abundance_prior": result.parameters.abundance_prior,
+            "missing_line_evidence": bool(obs.detection_limit is not None),
+        },
         "elements": elements,
         "lines": lines,
         "warnings": warnings,
@@ -271,6 +292,25 @@ def _other_warnings(result: MatchResult, u: str) -> list[dict[str, object]]:
                     "lines": [],
                 }
             )
+    if result.observed.detection_limit is None:
+        out.append(
+            {
+                "kind": "no_missing_line_evidence",
+                "message": "the peak list has no intensities: missing-line evidence was not "
+                "available, so no element can be called 'established' (at most 'probable')",
+                "elements": [],
+                "lines": [],
+            }
+        )
+    if sc.applied:
+        out.append(
+            {
+                "kind": "scale_corrected",
+                "message": f"{sc.message}: observed positions were corrected before matching",
+                "elements": [],
+                "lines": [],
+            }
+        )
     lte = result.lte
     if lte is not None and lte.get("satisfied") is not True:
         out.append({"kind": "lte", "message": str(lte["message"]), "elements": [], "lines": []})
@@ -326,9 +366,20 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
         elif t.get("given_K"):
             t_line += " (given)"
         out.append(t_line)
+    em = report.get("evidence_model") or {}
+    sm = em.get("source_model") or {}
+    if sm:
+        out.append(
+            f"source model {sm.get('name')} (σ {sm.get('sigma_dex')} dex; {sm.get('chosen_by')}); "
+            f"abundance prior {em.get('abundance_prior')}; "
+            f"{em.get('n_species_tried')} species tried"
+        )
+    cal = report.get("calibration") or {}
+    if cal.get("applied"):
+        out.append(f"scale corrected: {cal.get('message')}")
     out.append("")
     out.append(
-        f"{'species':<10} {'verdict':<14} {'score':>5} {'strong':>7} {'uniq':>4} "
+        f"{'species':<10} {'verdict':<14} {'E/dex':>6} {'groups':>7} {'uniq':>4} "
         f"{'miss':>4}  best lines ({u})"
     )
     rejected = [el for el in report["elements"] if el["verdict_level"] == 0]
@@ -342,8 +393,8 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
         fmt = ".0f" if u == "eV" else ".3f"  # X-ray energies to 1 eV
         lines = ", ".join(f"{m[f'reference_{u}']:{fmt}}" for m in best)
         out.append(
-            f"{el['species']:<10} {el['verdict']:<14} {el['score']:>5.2f} "
-            f"{el['n_strong_found']:>3}/{el['n_strong_in_range']:<3} "
+            f"{el['species']:<10} {el['verdict']:<14} {el['net_evidence_dex']:>6.1f} "
+            f"{el['n_groups_found']:>3}/{el['n_groups_expected']:<3} "
             f"{el['n_unique_found']:>4} {el['n_missing_strong']:>4}  {lines}"
         )
     if len(rejected) > max_rejected:

@@ -1,0 +1,171 @@
+"""Test-side loader: real measured spectra → ``Spectrum`` (wavelength in nm, medium stated).
+
+The files are in ``tests/data/realspectra/`` (sources, hashes and licences in
+its ``manifest.json``). The product has no FITS reader and needs none: this
+loader is test code, using astropy (present in the test environment via
+specutils) for the Goodman FITS files.
+
+Each spectrum carries the lines its own pipeline identified (``identified_nm``,
+same medium as the spectrum), used to say which lines show each element.
+
+Split (issue 9, "generalisation, not fit"): constants are chosen on ``TUNE``
+only; ``HELD_OUT`` is reported separately and never used while tuning.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from workbench.datamodel import InputSource, Spectrum
+
+__all__ = ["HELD_OUT", "TUNE", "RealSpectrum", "all_names", "load"]
+
+DATA = Path(__file__).resolve().parents[1] / "data" / "realspectra"
+
+_GAS = {
+    "He": "He",
+    "Ne": "Ne",
+    "Ar": "Ar",
+    "Hg": "Hg",
+    "Kr": "Kr",
+    "Xe": "Xe",
+    "Cu": "Cu",
+    "Fe": "Fe",
+}
+
+
+@dataclass
+class RealSpectrum:
+    """One real spectrum, ready for the product's peak finding and matching."""
+
+    name: str
+    spectrum: Spectrum
+    mode: str
+    expected: tuple[str, ...]  # elements the source holds (file name / pipeline ions)
+    identified_nm: np.ndarray  # lines the pipeline identified (same medium)
+    notes: dict[str, object] = field(default_factory=dict)
+
+
+def _source(path: Path) -> InputSource:
+    raw = path.read_bytes()
+    return InputSource(path.name, hashlib.sha256(raw).hexdigest(), len(raw), "spectrum", "test")
+
+
+def _lamp_elements(tag: str) -> tuple[str, ...]:
+    # "CuHeAr" -> (Cu, He, Ar): the lamp's cathode metal and fill gases, from the file name.
+    return tuple(sorted(set(re.findall(r"[A-Z][a-z]", tag)) & set(_GAS)))
+
+
+def _goodman(path: Path) -> RealSpectrum:
+    from astropy.io import fits
+
+    with fits.open(path) as hdul:
+        hd = hdul[0].header
+        y = np.asarray(hdul[0].data, dtype=np.float64)
+    # Goodman pipeline: Chebyshev1D on the raw 0-based pixel index, in Å, air
+    # (keywords GSP_FUNC / GSP_ORDR / GSP_C*; checked against GSP_P*/GSP_A* in the tests).
+    assert hd["GSP_FUNC"] == "Chebyshev1D"
+    coef = [hd[f"GSP_C{i:03d}"] for i in range(int(hd["GSP_ORDR"]) + 1)]
+    pix = np.arange(y.size, dtype=np.float64)
+    wav_A = np.polynomial.chebyshev.chebval(pix, coef)
+    ident = np.array([float(hd[k]) for k in hd if re.fullmatch(r"GSP_A\d+", k)])
+    ident = ident[ident > 0]  # 0 = a pipeline line that was not identified
+    tag = path.stem.split("_")[-1]
+    spec = Spectrum(wav_A / 10.0, y, "wavelength", "air", _source(path), "counts")
+    ident_pix = np.array([float(hd[k]) for k in hd if re.fullmatch(r"GSP_P\d+", k)])
+    return RealSpectrum(
+        path.stem,
+        spec,
+        "emission",
+        _lamp_elements(tag),
+        np.sort(ident) / 10.0,
+        {"coef": coef, "identified_pix": ident_pix},
+    )
+
+
+def _pypeit(path: Path) -> RealSpectrum:
+    d = json.loads(path.read_text())
+    if "spec" not in d:  # DEIMOS: one slit keyed "0"
+        d = d["0"]
+    y = np.asarray(d["spec"], dtype=np.float64)
+    assert d["function"] == "legendre"
+    # pypeit: x = pixel / (xnorm − 1), mapped from [fmin, fmax] to [−1, 1], Å, vacuum.
+    xn = np.arange(y.size) / (float(d["xnorm"]) - 1.0)
+    u = 2.0 * (xn - d["fmin"]) / (d["fmax"] - d["fmin"]) - 1.0
+    wav_A = np.polynomial.legendre.legval(u, d["fitc"])
+    ions = sorted({re.sub(r"I+$", "", s) for s in d["ions"]})
+    spec = Spectrum(wav_A / 10.0, y, "wavelength", "vacuum", _source(path), "counts")
+    return RealSpectrum(
+        path.stem,
+        spec,
+        "emission",
+        tuple(ions),
+        np.sort(np.asarray(d["yfit"], dtype=float)) / 10.0,
+        {
+            "fitc": d["fitc"],
+            "xfit": d["xfit"],
+            "yfit": d["yfit"],
+            "fmin": d["fmin"],
+            "fmax": d["fmax"],
+        },
+    )
+
+
+def _astm(path: Path) -> RealSpectrum:
+    rows = np.genfromtxt(path, delimiter=",", skip_header=2)
+    # "global tilt" column: ground-level sunlight, so both the solar Fraunhofer
+    # lines and the telluric O2 / H2O bands are in it.
+    x, y = rows[:, 0], rows[:, 2]
+    # The file does not state the medium; ASTM G173 is low resolution (0.5–1 nm
+    # steps), where the 0.1 nm air–vacuum difference is below the sampling; air is
+    # the usual convention of solar tables (from memory).
+    keep = (x >= 300.0) & (x <= 1000.0)
+    spec = Spectrum(x[keep], y[keep], "wavelength", "air", _source(path), "W m-2 nm-1")
+    return RealSpectrum(path.stem, spec, "absorption", ("Ca", "Fe", "H", "Mg", "Na"), np.array([]))
+
+
+def _path(name: str) -> Path:
+    for sub in ("goodman", "pypeit", "pvlib"):
+        for ext in (".fits", ".json", ".csv"):
+            p = DATA / sub / f"{name}{ext}"
+            if p.exists():
+                return p
+    raise FileNotFoundError(name)
+
+
+def all_names() -> list[str]:
+    """Every real spectrum, by file stem."""
+    return sorted(
+        p.stem
+        for sub in ("goodman", "pypeit", "pvlib")
+        for p in (DATA / sub).glob("*.*")
+        if p.suffix in (".fits", ".json", ".csv")
+    )
+
+
+def _is_tune(name: str) -> bool:
+    return (
+        any(f"_1200M{m}_" in name for m in (2, 3, 4, 5))
+        or name.startswith("kastr")
+        or name == "ASTMG173"
+    )
+
+
+TUNE: tuple[str, ...] = tuple(n for n in all_names() if _is_tune(n))
+HELD_OUT: tuple[str, ...] = tuple(n for n in all_names() if not _is_tune(n))
+
+
+def load(name: str) -> RealSpectrum:
+    """Load one real spectrum by file stem."""
+    p = _path(name)
+    if p.suffix == ".fits":
+        return _goodman(p)
+    if p.suffix == ".json":
+        return _pypeit(p)
+    return _astm(p)

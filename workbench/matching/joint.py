@@ -1,0 +1,103 @@
+"""Joint explanation: shared peaks are decided globally, strongest explanation first.
+
+Species are ranked by net evidence (:mod:`workbench.matching.scoring`), best
+first. Walking down the ranking, a species' found group whose peak is
+already *claimed* by a better-ranked species of another element (one called
+"probable" or better) is *explained* there when that species' predicted
+intensity at the peak is at least ``EXPLAIN_FRACTION`` of the observed
+intensity (any claim counts for a peak list without intensities). An
+explained group is counted neither for nor against the lower species (its
+intensity is not re-spent), and the species is re-evaluated. If it is still
+"probable" or better, it claims its own found groups' peaks in turn.
+
+Uniqueness is decided in the same walk: a found group counts as unique when
+no other plausible species competes for its peak (the pass's own rule), or
+when no better-ranked species of another element called "probable" or
+better has a line there: a species ranked below cannot take a peak away
+from a better one.
+
+So a species cannot be established on lines a far better supported species
+explains (Ca II H at 396.85 nm in the Sun is not evidence for Dy II), while
+two species that truly share a peak keep their unique lines. The report
+lists, per species, which better species explained some of its groups.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from workbench.matching.evidence import EvidencePass, ObservedLines
+from workbench.matching.reference import ReferenceIndex
+from workbench.matching.scoring import evaluate
+
+__all__ = ["EXPLAIN_FRACTION", "explain_jointly"]
+
+#: Part of the observed intensity a better species must predict to explain a peak.
+EXPLAIN_FRACTION: float = 0.3
+
+
+def explain_jointly(
+    ev_pass: EvidencePass,
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    *,
+    sigma_dex: float,
+    strong_fraction: float,
+) -> None:
+    """Re-evaluate every species in place with peaks explained by better species removed."""
+    n_obs = obs.position.size
+    claim_pred = np.full(n_obs, -np.inf)
+    claim_sp = np.full(n_obs, -1, dtype=np.int64)
+    claim_el = np.full(n_obs, "", dtype=object)
+    # Element of the best-ranked "probable"-or-better species that has a
+    # found group at each peak ("" = none yet).
+    touch_el = np.full(n_obs, "", dtype=object)
+    with_int = np.isfinite(obs.intensity)
+    ranked = sorted(ev_pass.evidence.values(), key=lambda v: (-v.net_evidence_dex, v.label))
+    for ev in ranked:
+        g = ev.groups
+        found = g["found"]
+        pk = np.where(found, g["peak"], 0)
+        # Unique in the joint sense: no better-ranked supported species of
+        # another element has a line at the peak.
+        jointly_unique = found & ((touch_el[pk] == "") | (touch_el[pk] == ev.element))
+        changed = bool(np.any(jointly_unique & ~g["unique"]))
+        if changed:
+            g["unique"] = g["unique"] | jointly_unique
+        claimed = found & (claim_sp[pk] >= 0) & (claim_el[pk] != ev.element)
+        expl = np.zeros_like(found)
+        if np.any(claimed):
+            enough = np.where(
+                with_int[pk] & ev.missing_evidence,
+                claim_pred[pk] >= EXPLAIN_FRACTION * np.where(with_int[pk], obs.intensity[pk], 0),
+                True,
+            )
+            # A peak both species predict at a comparable height is a blend and
+            # counts for both; it is explained away only when this species
+            # itself would account for little of it.
+            own_pred = np.where(np.isfinite(g["predicted"]), g["predicted"], 0.0)
+            obs_i = np.where(with_int[pk], obs.intensity[pk], np.inf)
+            own_small = (own_pred < EXPLAIN_FRACTION * obs_i) | (not ev.missing_evidence)
+            expl = claimed & enough & own_small
+        if np.any(expl) or changed:
+            g["explained"] = expl
+            ev.explained_by = sorted({index.species_names[int(c)] for c in claim_sp[pk[expl]]})
+            evaluate(
+                ev,
+                detection_limit=obs.detection_limit,
+                sigma_dex=sigma_dex,
+                n_tried=ev_pass.n_species_tried,
+                strong_fraction=strong_fraction,
+            )
+        own = found & ~g["explained"]
+        if ev.level >= 2:
+            t = pk[own]
+            t = t[touch_el[t] == ""]
+            touch_el[t] = ev.element
+        if ev.level >= 2:
+            p = pk[own]
+            pred = g["predicted"][own]
+            better = pred > claim_pred[p]
+            claim_pred[p[better]] = pred[better]
+            claim_sp[p[better]] = ev.code
+            claim_el[p[better]] = ev.element
