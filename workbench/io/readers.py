@@ -5,6 +5,13 @@ Every reader keeps the original bytes' SHA-256 and size in the result's
 (columns mapped, units, medium assumed, block chosen, order reversed). Bad
 input raises one error from :mod:`workbench.errors` naming the row or column
 and the fix; nothing is returned half-read.
+
+Delimited text is read by sniffing its head and parsing the bulk in one
+polars call (:mod:`workbench.io.fastcsv`); only when that refuses does the
+careful line parser run, to name the first bad row. Every number read must
+be finite and within ±:data:`MAX_ABS_VALUE`, so that later arithmetic
+(squares, sums) cannot overflow. The readers take an optional ``progress``
+callable ``progress(fraction, message)`` for the app's progress bar.
 """
 
 from __future__ import annotations
@@ -36,13 +43,25 @@ from workbench.io.columns import (
     parse_header,
 )
 from workbench.io.delimited import Table, numeric_column, parse_delimited
+from workbench.io.fastcsv import (
+    CAREFUL_MAX_BYTES,
+    SNIFF_BYTES,
+    FastTable,
+    NeedCarefulParser,
+    first_problem,
+    read_fast,
+)
 from workbench.io.jcamp import JcampBlock, jcamp_unit, looks_like_jcamp, parse_jcamp
 from workbench.io.source import DEFAULT_MAX_BYTES, RawInput, decode_text, load_source
 from workbench.physics.units import ENERGY_UNITS, WAVELENGTH_UNITS, normalise_unit
 
-__all__ = ["read_any", "read_peak_list", "read_spectrum", "sniff"]
+__all__ = ["MAX_ABS_VALUE", "Progress", "read_any", "read_peak_list", "read_spectrum", "sniff"]
 
 Source = bytes | str | os.PathLike[str]
+#: ``progress(fraction, message)``: called with 0 < fraction <= 1 as reading advances.
+Progress = Callable[[float, str], None]
+#: Largest magnitude accepted for any number read (its square stays finite).
+MAX_ABS_VALUE: float = 1e150
 _MIN_SPECTRUM_POINTS = 5
 _UNIT_COMMENT = re.compile(r"\b(?:x\s*)?units?\s*[:=]\s*([^\s,;]+)", re.IGNORECASE)
 
@@ -84,29 +103,79 @@ def _columns_from_table(table: Table) -> _Columns:
     )
 
 
+def _columns_from_fast(ft: FastTable, name: str) -> _Columns:
+    t = ft.head
+
+    def row_label(i: int) -> str:
+        return f"row {ft.line_of(i)}"
+
+    def get(index: int, label: str, allow_empty: bool):
+        values = ft.columns[index]
+        bad = ~np.isfinite(values)
+        if bad.any():
+            i = int(np.argmax(bad))
+            raise ValueRangeError(
+                f"{name}: {row_label(i)}, column {label!r} is '{values[i]}' (not a finite number)",
+                "remove the row or replace the value with a measured number",
+            )
+        return values, np.zeros(values.size, dtype=bool), None
+
+    details = {
+        "delimiter": t.delimiter_name,
+        "decimal_comma": t.decimal_comma,
+        "header_line": t.header_line,
+        "n_columns": t.n_columns,
+    }
+    return _Columns(
+        name=name,
+        headers=t.header,
+        n_rows=ft.n_rows,
+        get=get,
+        row_label=row_label,
+        comments=t.comments,
+        details=details,
+    )
+
+
+def _numeric_dtype(dtype: object) -> bool:
+    return bool(getattr(dtype, "is_numeric", lambda: False)()) and dtype != pl.Decimal
+
+
 def _columns_from_parquet(data: bytes, name: str) -> _Columns:
+    unreadable = FileFormatError(
+        f"{name} is not a readable Parquet file (damaged or not Parquet)",
+        "re-export the table as Parquet or CSV",
+    )
     try:
         df = pl.read_parquet(io.BytesIO(data))
-    except Exception as exc:  # polars raises several types for corrupt files
-        raise FileFormatError(
-            f"{name} is not a readable Parquet file ({type(exc).__name__})",
-            "re-export the table as Parquet or CSV",
-        ) from None
+    except BaseException as exc:  # a Rust panic (PanicException) is a BaseException
+        if isinstance(exc, KeyboardInterrupt | SystemExit):
+            raise
+        raise unreadable from None
     if df.height == 0:
         raise FileFormatError(f"{name} has columns but no rows", "give a table with data rows")
     headers = list(df.columns)
 
     def get(index: int, label: str, allow_empty: bool):
         col = df.get_column(headers[index])
-        try:
-            series = col.cast(pl.Float64, strict=True)
-        except Exception:
+        # Booleans, dates, durations, text, lists and structs cast to numbers
+        # without complaint (True -> 1, a date -> days): only numbers are numbers.
+        if not _numeric_dtype(col.dtype):
             raise FileFormatError(
                 f"{name}: column {label!r} is {col.dtype}, not numbers",
+                "store the column as floating-point or integer numbers",
+            )
+        try:
+            series = col.cast(pl.Float64, strict=True)
+            empty = series.is_null().to_numpy()
+            values = series.fill_null(np.nan).to_numpy().astype(np.float64)
+        except BaseException as exc:
+            if isinstance(exc, KeyboardInterrupt | SystemExit):
+                raise
+            raise FileFormatError(
+                f"{name}: column {label!r} ({col.dtype}) cannot be read as numbers",
                 "store the column as floating-point numbers",
             ) from None
-        empty = series.is_null().to_numpy()
-        values = series.fill_null(np.nan).to_numpy().astype(np.float64)
         if empty.any() and not allow_empty:
             i = int(np.argmax(empty))
             raise ValueRangeError(
@@ -236,7 +305,19 @@ def _width_to_canonical(width: np.ndarray, unit: str, positions_in_unit: np.ndar
     return width * WAVELENGTH_UNITS[unit]
 
 
+def _check_magnitude(values: np.ndarray, label: str, row_label, where: str) -> None:
+    with np.errstate(invalid="ignore"):
+        bad = np.abs(values) > MAX_ABS_VALUE
+    if bad.any():
+        i = int(np.argmax(bad))
+        raise ValueRangeError(
+            f"{where}: {row_label(i)}, {label!r} is {values[i]:g}, beyond ±{MAX_ABS_VALUE:g}",
+            "check the export (a spreadsheet overflow or a wrong column) and correct the value",
+        )
+
+
 def _check_positions(values: np.ndarray, label: str, row_label, where: str) -> None:
+    _check_magnitude(values, label, row_label, where)
     bad = values <= 0
     if bad.any():
         i = int(np.argmax(bad))
@@ -309,6 +390,7 @@ def _peak_list_from_columns(
             continue
         label = headers[choice.index]
         vals, empty, _ = cols.get(choice.index, label, True)
+        _check_magnitude(vals, label, cols.row_label, cols.name)
         role_unit = None
         if role == "fwhm":
             role_unit = _canon(choice.header.unit) if choice.header.unit else u
@@ -395,6 +477,7 @@ def _spectrum_from_xy(
                 f"{where}: {row_label(i)}, {label} is {arr[i]} (not a finite number)",
                 f"remove {row_label(i)} or replace the value",
             )
+    _check_magnitude(y, y_label, row_label, where)
     _check_positions(x, x_label, row_label, where)
     if check_units:
         check_unit_plausibility(x, u, f"{where} {x_label}")
@@ -590,6 +673,18 @@ def _jcamp_peak_list(b, raw, unit, medium, mode, check_units, notes) -> PeakList
             i = int(np.argmax(bad))
             raise ValueRangeError(f"{where}: {row_label(i)}, {label} is missing", "fix the table")
     _check_positions(b.x, "x", row_label, where)
+    _check_magnitude(b.y, "y", row_label, where)
+    if b.width is not None:
+        # The same rule as a width column in a table: finite and positive, or absent.
+        wbad = ~(np.isfinite(b.width) & (b.width > 0)) & ~np.isnan(b.width)
+        if wbad.any():
+            i = int(np.argmax(wbad))
+            raise ValueRangeError(
+                f"{where}: {row_label(i)}, width is {b.width[i]:g}; a width must be a "
+                "positive finite number",
+                f"correct {row_label(i)} or give '?' for an unknown width",
+            )
+        _check_magnitude(b.width, "width", row_label, where)
     if check_units:
         check_unit_plausibility(b.x, u, f"{where} peak table")
     data: dict[str, object] = {AXIS_COLUMN[axis]: _to_canonical(b.x, u), "intensity": b.y}
@@ -620,17 +715,72 @@ class _Parsed:
     table: Table | None = None
 
 
-def _parse(source: Source, name: str | None, max_bytes: int) -> _Parsed:
+def _report(progress: Progress | None, fraction: float, message: str) -> None:
+    if progress is not None:
+        progress(fraction, message)
+
+
+def _ascii_head(data: bytes) -> str:
+    # Labels of JCAMP-DX are ASCII: latin-1 decodes any byte, so detection never fails.
+    return data[:SNIFF_BYTES].removeprefix(b"\xef\xbb\xbf").decode("latin-1")
+
+
+def _parse(
+    source: Source, name: str | None, max_bytes: int, progress: Progress | None = None
+) -> _Parsed:
     raw = load_source(source, name=name, max_bytes=max_bytes)
+    _report(progress, 0.1, f"read {raw.size_bytes:,} bytes")
     if raw.data[:4] == b"PAR1":
-        return _Parsed(raw, "parquet", cols=_columns_from_parquet(raw.data, raw.name))
-    text, encoding = decode_text(raw.data, raw.name)
-    if looks_like_jcamp(text):
-        return _Parsed(raw, "jcamp-dx", encoding, blocks=parse_jcamp(text, raw.name))
-    table = parse_delimited(text, raw.name)
-    cols = _columns_from_table(table)
-    cols.details["n_columns"] = table.n_columns
-    return _Parsed(raw, "delimited", encoding, cols=cols, table=table)
+        parsed = _Parsed(raw, "parquet", cols=_columns_from_parquet(raw.data, raw.name))
+    elif raw.data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        # UTF-16 (rare): decode once, then treat the UTF-8 re-encoding like any file.
+        text, encoding = decode_text(raw.data, raw.name)
+        if looks_like_jcamp(text):
+            parsed = _Parsed(raw, "jcamp-dx", encoding, blocks=parse_jcamp(text, raw.name))
+        else:
+            parsed = _parse_delimited(text.encode("utf-8"), raw, encoding)
+    elif looks_like_jcamp(_ascii_head(raw.data)):
+        text, encoding = decode_text(raw.data, raw.name)
+        parsed = _Parsed(raw, "jcamp-dx", encoding, blocks=parse_jcamp(text, raw.name))
+    else:
+        parsed = _parse_delimited(raw.data, raw, None)
+    _report(progress, 0.8, "parsed")
+    return parsed
+
+
+def _parse_delimited(data: bytes, raw: RawInput, encoding: str | None) -> _Parsed:
+    try:
+        ft = read_fast(data, raw.name)
+    except NeedCarefulParser as exc:
+        if len(data) > CAREFUL_MAX_BYTES:
+            if exc.head is None:
+                raise FileFormatError(
+                    f"{raw.name} ({len(data):,} bytes) has a first line over "
+                    f"{SNIFF_BYTES:,} bytes, line breaks other than LF/CRLF, or an "
+                    "unusual text encoding",
+                    "save it as UTF-8 text with one row per line",
+                ) from None
+            raise first_problem(data, raw.name, exc.head) from None
+        text, enc = decode_text(data, raw.name)
+        table = parse_delimited(text, raw.name)
+        del text
+        cols = _columns_from_table(table)
+        cols.details["n_columns"] = table.n_columns
+        return _Parsed(raw, "delimited", encoding or enc, cols=cols, table=table)
+    # The bulk rows parsed as numbers, so they are ASCII: only the lines before
+    # them (header, comments) decide how the file was encoded.
+    enc = encoding or ("utf-8-sig" if data.startswith(b"\xef\xbb\xbf") else "utf-8")
+    if encoding is None and _not_utf8(data[: ft.offset]):
+        enc = "latin-1"
+    return _Parsed(raw, "delimited", enc, cols=_columns_from_fast(ft, raw.name), table=ft.head)
+
+
+def _not_utf8(data: bytes) -> bool:
+    try:
+        data.decode("utf-8")
+    except UnicodeDecodeError:
+        return True
+    return False
 
 
 def _guess_kind(parsed: _Parsed, block: int | str | None) -> tuple[str, str]:
@@ -680,6 +830,13 @@ def _build(parsed: _Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
         notes.append(
             f"delimiter: {t.delimiter_name}" + ("; decimal comma" if t.decimal_comma else "")
         )
+        if t.inner_comments:
+            shown = ", ".join(str(n) for n in t.inner_comments[:10])
+            more = f" and {len(t.inner_comments) - 10} more" if len(t.inner_comments) > 10 else ""
+            notes.append(
+                f"{len(t.inner_comments)} comment line(s) among the data rows skipped "
+                f"(line {shown}{more})"
+            )
     unit, medium, check = kw.get("unit"), kw.get("medium"), kw.get("check_units", True)
     if parsed.blocks is not None:
         b = _pick_block(parsed.blocks, kw.get("block"), parsed.raw.name, notes)
@@ -726,6 +883,7 @@ def read_peak_list(
     block: int | str | None = None,
     check_units: bool = True,
     max_bytes: int = DEFAULT_MAX_BYTES,
+    progress: Progress | None = None,
 ) -> PeakList:
     """Read a peak list (delimited text, pasted cells, Parquet or a JCAMP-DX peak table).
 
@@ -751,6 +909,8 @@ def read_peak_list(
         Refuse positions that look implausible in their stated unit.
     max_bytes : int
         Refuse larger inputs before reading them.
+    progress : callable, optional
+        ``progress(fraction, message)``, called as reading advances (last with 1.0).
 
     Returns
     -------
@@ -763,7 +923,7 @@ def read_peak_list(
     InputError
         One of its subclasses, naming the row or column and the fix.
     """
-    parsed = _parse(source, name, max_bytes)
+    parsed = _parse(source, name, max_bytes, progress)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -774,6 +934,7 @@ def read_peak_list(
     }
     result = _build(parsed, "peak_list", kw)
     assert isinstance(result, PeakList)
+    _report(progress, 1.0, f"read {result.table.height:,} peaks")
     return result
 
 
@@ -787,6 +948,7 @@ def read_spectrum(
     columns: dict[str, str] | None = None,
     check_units: bool = True,
     max_bytes: int = DEFAULT_MAX_BYTES,
+    progress: Progress | None = None,
 ) -> Spectrum:
     """Read a sampled spectrum (two-column text, JCAMP-DX or Parquet).
 
@@ -809,6 +971,8 @@ def read_spectrum(
         Refuse x values that look implausible in their stated unit.
     max_bytes : int
         Refuse larger inputs before reading them.
+    progress : callable, optional
+        ``progress(fraction, message)``, called as reading advances (last with 1.0).
 
     Returns
     -------
@@ -820,7 +984,7 @@ def read_spectrum(
     InputError
         One of its subclasses, naming the row or column and the fix.
     """
-    parsed = _parse(source, name, max_bytes)
+    parsed = _parse(source, name, max_bytes, progress)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -830,6 +994,7 @@ def read_spectrum(
     }
     result = _build(parsed, "spectrum", kw)
     assert isinstance(result, Spectrum)
+    _report(progress, 1.0, f"read {result.x.size:,} points")
     return result
 
 
@@ -845,6 +1010,7 @@ def read_any(
     columns: dict[str, str] | None = None,
     check_units: bool = True,
     max_bytes: int = DEFAULT_MAX_BYTES,
+    progress: Progress | None = None,
 ) -> PeakList | Spectrum:
     """Read a peak list or a spectrum, deciding which from the content.
 
@@ -861,7 +1027,7 @@ def read_any(
         A path, the file's bytes, or pasted text.
     kind : {"peak_list", "spectrum"}, optional
         Force the kind instead of detecting it.
-    name, unit, medium, mode, block, columns, check_units, max_bytes
+    name, unit, medium, mode, block, columns, check_units, max_bytes, progress
         As for :func:`read_peak_list` and :func:`read_spectrum`.
 
     Returns
@@ -871,7 +1037,7 @@ def read_any(
     """
     if kind not in (None, "peak_list", "spectrum"):
         raise ValueRangeError(f"unknown kind {kind!r}", "use 'peak_list' or 'spectrum'")
-    parsed = _parse(source, name, max_bytes)
+    parsed = _parse(source, name, max_bytes, progress)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -882,7 +1048,9 @@ def read_any(
     }
     if kind is None:
         kind, _ = _guess_kind(parsed, block)  # type: ignore[assignment]
-    return _build(parsed, kind, kw)  # type: ignore[arg-type]
+    result = _build(parsed, kind, kw)  # type: ignore[arg-type]
+    _report(progress, 1.0, "done")
+    return result
 
 
 def sniff(
