@@ -103,10 +103,6 @@ def split_line(line: str, delimiter: str) -> list[str]:
     FileFormatError
         For a cell longer than :data:`MAX_CELL_CHARS` or broken quoting.
     """
-    too_long = FileFormatError(
-        f"a cell is longer than {MAX_CELL_CHARS:,} characters",
-        "check the delimiter and quoting; a data cell holds one number",
-    )
     if delimiter == " ":
         cells = line.split()
     else:
@@ -114,14 +110,21 @@ def split_line(line: str, delimiter: str) -> list[str]:
             cells = next(csv.reader([line], delimiter=delimiter, skipinitialspace=True))
         except csv.Error as exc:
             if "field limit" in str(exc):
-                raise too_long from None
+                raise _too_long() from None
             raise FileFormatError(
                 f"the line cannot be split into cells ({exc})",
                 "check the quoting: every opening quote needs its closing quote",
             ) from None
     if len(line) > MAX_CELL_CHARS and max(map(len, cells), default=0) > MAX_CELL_CHARS:
-        raise too_long
+        raise _too_long()
     return cells
+
+
+def _too_long() -> FileFormatError:
+    return FileFormatError(
+        f"a cell is longer than {MAX_CELL_CHARS:,} characters",
+        "check the delimiter and quoting; a data cell holds one number",
+    )
 
 
 def _split_numbered(line: str, delimiter: str, name: str, number: int) -> list[str]:
