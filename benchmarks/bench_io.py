@@ -159,7 +159,9 @@ def main() -> None:
             env_new,
             runs,
         )
-        new, old = both("workbench peaks F --json OUT", ["peaks", str(big), "--json", str(tmp / "p.json")], True)
+        new, old = both(
+            "workbench peaks F --json OUT", ["peaks", str(big), "--json", str(tmp / "p.json")], True
+        )
         print(f"  ratio to bare polars: {new / bare:.2f}x (base: {old / bare:.2f}x)")
 
         print("\n2. start-up (target <= 0.3 s)")
@@ -175,10 +177,7 @@ def main() -> None:
         )
 
         print("\n4. library reader for the app on the 2,000,000-point CSV (target <= 3 s)")
-        code = (
-            "import sys; from workbench.io import read_spectrum; "
-            "read_spectrum(sys.argv[1])"
-        )
+        code = "import sys; from workbench.io import read_spectrum; read_spectrum(sys.argv[1])"
         measure(
             "python -c 'polars.read_csv(F)' [polars]",
             [py, "-c", f"import polars; polars.read_csv({str(huge)!r}, comment_prefix='#')"],

@@ -54,9 +54,6 @@ CAREFUL_MAX_BYTES: int = 32 * 1024 * 1024
 # the head, byte offsets and physical line numbers would disagree.
 _ODD_BREAKS = re.compile(rb"\r(?!\n)|[\x0b\x0c\x1c\x1d\x1e]|\xc2\x85|\xe2\x80[\xa8\xa9]")
 _BLANK_LINE = re.compile(rb"\n[ \t\r]*(?=\n)")
-# A line starting with a comment marker (";" is one unless it is the delimiter).
-_MARKERS = re.compile(rb"\n[ \t]*[#%;]")
-_MARKERS_SEMICOLON = re.compile(rb"\n[ \t]*[#%]")
 
 
 @dataclass
@@ -179,9 +176,8 @@ def _bulk(data: bytes, name: str, head: Table, cut: int) -> FastTable:
     raw_width = width + (1 if head.trailing_delimiter else 0)
     # Lines after the head that start with a comment marker: the careful parser
     # must see them (it notes them, or refuses a spreadsheet error).
-    marker = _MARKERS_SEMICOLON if head.delimiter == ";" else _MARKERS
-    if marker.search(data, max(cut - 1, 0)):
-        raise NeedCarefulParser("comment marker after the head")
+    # A comment line after the head needs no search: as a row it is not a number
+    # (or leaves cells empty), so the bulk parse below refuses it.
     if head.delimiter == " ":
         cols = _loadtxt(data, first_line, raw_width, head.decimal_comma)
         row_lines = None

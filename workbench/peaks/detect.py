@@ -11,8 +11,9 @@ Pipeline (all vectorised over the spectrum and over the peaks):
 2. Noise σ by the robust first-difference MAD (:mod:`workbench.peaks.noise`).
 3. Local maxima with height ≥ k·σ *and* prominence ≥ k·σ (k = ``min_snr``),
    by :mod:`workbench.peaks.extrema` (the definitions of
-   :func:`scipy.signal.find_peaks`, without importing ``scipy.signal``). Prominence alone would accept the largest noise
-   excursions, whose prominence over a long stretch of noise exceeds 5σ.
+   :func:`scipy.signal.find_peaks`, without importing ``scipy.signal``).
+   Prominence alone would accept the largest noise excursions, whose
+   prominence over a long stretch of noise exceeds 5σ.
 4. Sub-pixel centre by the three-point Gaussian (log-parabola) interpolation
    of Caruana et al. (1986): δ = ½(ln a − ln c)/(ln a − 2 ln b + ln c); a
    plain parabola on (a, b, c) when any of them is ≤ 0.
