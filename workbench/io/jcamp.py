@@ -359,7 +359,7 @@ def _decode_points(
         rest = _POINT_NUMBER.sub("", s)
         if rest.strip(" ,;\t"):
             raise FileFormatError(
-                f"{where}: line {number} of {what} holds {s!r}, which is not numbers",
+                f"{where}: line {number} of {what} holds {s[:60]!r}, which is not numbers",
                 "the table is corrupted; re-export the file",
             )
         values.extend(np.nan if v == "?" else float(v) for v in found)
@@ -505,9 +505,7 @@ def _build_block(block: dict, index: int, name: str, limit: int) -> JcampBlock:
                 f"{where}: line {line}: ##{label}={varlist} is not supported",
                 "use (XY..XY) or (XYW..XYW)",
             )
-        arr, point_lines = _decode_points(
-            lines, forms[form], labels, where, f"##{label}", limit
-        )
+        arr, point_lines = _decode_points(lines, forms[form], labels, where, f"##{label}", limit)
         x, y = arr[:, 0] * xfactor, arr[:, 1] * yfactor
         if form == "(XYW..XYW)":
             width = arr[:, 2] * xfactor
