@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import io
 import re
+import warnings
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 
@@ -194,18 +195,20 @@ def _loadtxt(data: bytes, first_line: int, width: int, decimal_comma: bool) -> l
     if decimal_comma:
         raise NeedCarefulParser("decimal comma with whitespace")
     try:
-        arr = np.loadtxt(
-            io.BytesIO(data),
-            dtype=np.float64,
-            comments=None,
-            delimiter=None,
-            skiprows=first_line - 1,
-            ndmin=2,
-            encoding="latin-1",
-        )
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")  # "input contained no data": refused below
+            arr = np.loadtxt(
+                io.BytesIO(data),
+                dtype=np.float64,
+                comments=None,
+                delimiter=None,
+                skiprows=first_line - 1,
+                ndmin=2,
+                encoding="latin-1",
+            )
     except (ValueError, UnicodeError) as exc:
         raise NeedCarefulParser(str(exc)) from None
-    if arr.shape[1] != width:
+    if arr.shape[0] == 0 or arr.shape[1] != width:
         raise NeedCarefulParser("column count")
     return [np.ascontiguousarray(arr[:, i]) for i in range(width)]
 

@@ -329,8 +329,10 @@ def _decode_xydata(
             f"{where}: decoded {len(ys)} points but ##NPOINTS={npoints}",
             "the file is truncated or its header is wrong; re-export the file",
         )
-    y = np.asarray(ys, dtype=np.float64) * yfactor
-    x = firstx + np.arange(npoints, dtype=np.float64) * deltax
+    # Factors may overflow a value to infinity: the readers refuse it, naming the point.
+    with np.errstate(over="ignore", invalid="ignore"):
+        y = np.asarray(ys, dtype=np.float64) * yfactor
+        x = firstx + np.arange(npoints, dtype=np.float64) * deltax
     if "FIRSTY" in labels and np.isfinite(y[0]):
         firsty = _float_label(labels, "FIRSTY", where)
         if abs(y[0] - firsty) > max(abs(yfactor), 1e-3 * abs(firsty)):
@@ -506,9 +508,10 @@ def _build_block(block: dict, index: int, name: str, limit: int) -> JcampBlock:
                 "use (XY..XY) or (XYW..XYW)",
             )
         arr, point_lines = _decode_points(lines, forms[form], labels, where, f"##{label}", limit)
-        x, y = arr[:, 0] * xfactor, arr[:, 1] * yfactor
-        if form == "(XYW..XYW)":
-            width = arr[:, 2] * xfactor
+        with np.errstate(over="ignore", invalid="ignore"):
+            x, y = arr[:, 0] * xfactor, arr[:, 1] * yfactor
+            if form == "(XYW..XYW)":
+                width = arr[:, 2] * xfactor
         kind = "xypoints" if label == "XYPOINTS" else "peaktable"
     return JcampBlock(
         index=index,
