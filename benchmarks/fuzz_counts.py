@@ -32,8 +32,8 @@ REPO = Path(__file__).resolve().parents[1]
 
 def _count(n_each: int) -> None:
     import numpy as np
+    from generators import delimited_case, jcamp_case, mutate, parquet_case
 
-    from tests.fuzz.generators import delimited_case, jcamp_case, mutate, parquet_case
     from workbench.cli import main
     from workbench.errors import InputError, WorkbenchError
     from workbench.io import read_any, read_peak_list, read_spectrum
@@ -106,12 +106,13 @@ def main() -> None:
     ap.add_argument("--child", help=argparse.SUPPRESS)
     opts = ap.parse_args()
     if opts.child:
-        sys.path[:0] = [opts.child, str(REPO)]  # old code first, this repo's generators
+        # The old code first; the generators of this checkout by their folder.
+        sys.path[:0] = [opts.child, str(REPO / "tests" / "fuzz")]
         resource.setrlimit(resource.RLIMIT_AS, (4 * 2**30, 4 * 2**30))
         _count(opts.n)
         return
     if not opts.base:
-        sys.path.insert(0, str(REPO))
+        sys.path[:0] = [str(REPO), str(REPO / "tests" / "fuzz")]
         _count(opts.n)
         return
     where = Path(tempfile.mkdtemp()) / "base"

@@ -129,6 +129,9 @@ def delimited_case(rng: np.random.Generator) -> bytes:
         cells += [_number(rng) for _ in range(n_cols - 1)]
         if hostile and rng.random() < 0.03:
             cells[int(rng.integers(0, len(cells)))] = str(rng.choice(HOSTILE_CELLS))
+        if hostile and rng.random() < 0.0005:  # issue 11 item 9: over csv's 131,072 limit
+            cells[-1] = '"' + "7" * 140_000 + '"'
+
         if hostile and rng.random() < 0.01:
             cells.append("9")  # ragged
         lines.append(delim.join(cells))
@@ -160,7 +163,10 @@ def jcamp_case(rng: np.random.Generator) -> bytes:
         f"##XUNITS={rng.choice(units)}",
     ]
     out.append("##YUNITS=COUNTS")
-    out += [f"##FIRSTX={value(first)}", f"##LASTX={value(last)}", f"##NPOINTS={value(npoints)}"]
+    npoints_text = value(npoints)
+    if hostile and rng.random() < 0.1:  # issue 11 item 9: a non-number or overflowing count
+        npoints_text = str(rng.choice(["nan", "1e400", "-3", "2.5", "inf"]))
+    out += [f"##FIRSTX={value(first)}", f"##LASTX={value(last)}", f"##NPOINTS={npoints_text}"]
     out += [f"##XFACTOR={value(1.0)}", f"##YFACTOR={value(1.0)}"]
     if kind == "xydata":
         out.append("##XYDATA=(X++(Y..Y))")
@@ -168,7 +174,9 @@ def jcamp_case(rng: np.random.Generator) -> bytes:
         per = 10
         step = (last - first) / max(npoints - 1, 1)
         for a in range(0, npoints, per):
-            if hostile and rng.random() < 0.2:  # an ASDF-like line of random tokens
+            if hostile and rng.random() < 0.01:  # issue 11 item 10: a DUP count bomb
+                out.append(f"{first + a * step:g} 1Z{rng.integers(10**6, 10**7)}")
+            elif hostile and rng.random() < 0.2:  # an ASDF-like line of random tokens
                 toks = "".join(rng.choice(list(_ASDF), size=int(rng.integers(1, 30))))
                 out.append(f"{first + a * step:g} {toks}")
             else:
