@@ -306,8 +306,8 @@ def _width_to_canonical(width: np.ndarray, unit: str, positions_in_unit: np.ndar
 
 
 def _check_magnitude(values: np.ndarray, label: str, row_label, where: str) -> None:
-    with np.errstate(invalid="ignore"):
-        bad = np.abs(values) > MAX_ABS_VALUE
+    # Two comparisons (boolean temporaries) instead of abs() (a float temporary).
+    bad = (values > MAX_ABS_VALUE) | (values < -MAX_ABS_VALUE)
     if bad.any():
         i = int(np.argmax(bad))
         raise ValueRangeError(
