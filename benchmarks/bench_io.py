@@ -53,8 +53,14 @@ _LAUNCHER = (
 
 def run_process(cmd: list[str], env: dict[str, str]) -> tuple[float, float, int]:
     """Run one process; return (seconds, peak RSS in MB, exit code)."""
+    # cwd: a neutral folder, since "python -c" puts the working directory first on
+    # sys.path, which would shadow PYTHONPATH (and so the baseline's code).
     r = subprocess.run(
-        [sys.executable, "-S", "-c", _LAUNCHER, *cmd], env=env, capture_output=True, text=True
+        [sys.executable, "-S", "-c", _LAUNCHER, *cmd],
+        env=env,
+        capture_output=True,
+        text=True,
+        cwd=tempfile.gettempdir(),
     )
     elapsed, maxrss_kb, code = r.stdout.split()
     if int(code) != 0:
@@ -141,7 +147,11 @@ def main() -> None:
         from workbench.demo import demo_file
 
         libs.write_bytes(demo_file("paint_chip"))
-        print(f"inputs: {big.stat().st_size / 1e6:.1f} MB, {huge.stat().st_size / 1e6:.1f} MB, ")
+        print(
+            f"inputs: 1M-point CSV {big.stat().st_size / 1e6:.1f} MB; 2M-point CSV "
+            f"{huge.stat().st_size / 1e6:.1f} MB; 100k absorption CSV "
+            f"{absorb.stat().st_size / 1e6:.1f} MB; demo LIBS {libs.stat().st_size / 1e3:.0f} kB"
+        )
 
         def both(label: str, args: list[str], heavy: bool = False) -> tuple[float, float]:
             cmd = [py, "-c", "from workbench.cli import main; raise SystemExit(main())", *args]
