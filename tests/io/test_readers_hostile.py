@@ -24,7 +24,6 @@ import workbench.io.readers as readers
 from workbench.datamodel import PeakList, Spectrum
 from workbench.errors import FileFormatError, InputError, ValueRangeError
 from workbench.io import read_any, read_peak_list, read_spectrum
-from workbench.io.fastcsv import NeedCarefulParser
 
 
 def _within(seconds: int, fn: Callable[[], object]) -> object:
@@ -221,6 +220,8 @@ def test_jcamp_peak_table_width_must_be_finite_positive(width):
 
 
 def _careful(monkeypatch, fn, data, **kw):
+    from workbench.io.fastcsv import NeedCarefulParser
+
     def refuse(data, name):
         raise NeedCarefulParser("forced")
 
