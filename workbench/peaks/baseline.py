@@ -147,8 +147,11 @@ def snip_baseline(
     else:
         v = arr.copy()
     windows = range(m, 0, -1) if decreasing else range(1, m + 1)
+    buf = np.empty(n)  # one scratch array for every window (no allocation per pass)
     for p in windows:
-        mid = 0.5 * (v[: -2 * p] + v[2 * p :])
+        mid = buf[: n - 2 * p]
+        np.add(v[: -2 * p], v[2 * p :], out=mid)
+        mid *= 0.5
         np.minimum(v[p:-p], mid, out=v[p:-p])
     return _lls_inverse(v) + offset if lls else v
 
@@ -216,5 +219,8 @@ def estimate_baseline(
         quiet = np.abs(resid - shift) <= 3.0 * s if s > 0 else np.ones(y.size, dtype=bool)
         if np.count_nonzero(quiet) < 10:
             break
-        shift = float(np.median(resid[quiet]))
+        new_shift = float(np.median(resid[quiet]))
+        if new_shift == shift:  # a fixed point: further rounds would repeat it exactly
+            break
+        shift = new_shift
     return base + shift
