@@ -80,6 +80,49 @@ def measure(label: str, cmd: list[str], env: dict[str, str], runs: int) -> float
     return med
 
 
+# Phases of `workbench match` inside one process; the old encoder (commit 598942b's
+# recursive converter + json.dumps) runs on the same report as the baseline.
+_PHASES = """
+import sys, time, json, math
+t0 = time.perf_counter()
+import numpy as np
+from workbench.io import read_any
+from workbench.peaks import find_peaks
+from workbench.matching import MatchParameters
+from workbench.matching.analyse import analyse_peaks
+from workbench.matching.report import result_json
+t1 = time.perf_counter()
+data = read_any(sys.argv[1])
+t2 = time.perf_counter()
+peaks = find_peaks(data, mode=sys.argv[2])
+peaks.extra.setdefault("x_range", (float(data.x[0]), float(data.x[-1])))
+t3 = time.perf_counter()
+out = analyse_peaks(peaks, None, MatchParameters(mode=sys.argv[2]))
+t4 = time.perf_counter()
+b = result_json(out.report)
+t5 = time.perf_counter()
+def old(o):
+    if isinstance(o, dict):
+        return {str(k): old(v) for k, v in o.items()}
+    if isinstance(o, list | tuple):
+        return [old(v) for v in o]
+    if isinstance(o, np.ndarray):
+        return [old(v) for v in o.tolist()]
+    if isinstance(o, bool | np.bool_):
+        return bool(o)
+    if isinstance(o, int | np.integer):
+        return int(o)
+    if isinstance(o, float | np.floating):
+        v = float(o)
+        return None if not math.isfinite(v) else float(f"{v:.10g}")
+    return o
+json.dumps(old(out.report), sort_keys=True, separators=(",", ":"), ensure_ascii=False,
+           allow_nan=False).encode()
+t6 = time.perf_counter()
+print(t1 - t0, t2 - t1, t3 - t2, t4 - t3 - (t5 - t4), t5 - t4, t6 - t5, len(b) / 1e6)
+"""
+
+
 def write_spectrum_csv(path: Path, n: int, seed: int, absorption: bool = False) -> None:
     """Write an invented n-point spectrum (wavelength nm, intensity) as CSV."""
     rng = np.random.default_rng(seed)
@@ -196,6 +239,31 @@ def main() -> None:
         measure("read_spectrum(F) [this branch]", [py, "-c", code, str(huge)], env_new, runs)
         if env_old is not None and base_runs:
             measure("read_spectrum(F) [base]", [py, "-c", code, str(huge)], env_old, base_runs)
+        print("\n5. where a match's time goes (one process each; median of the runs)")
+        for label, f, mode in (
+            ("demo LIBS", libs, "emission"),
+            ("100k absorption", absorb, "absorption"),
+        ):
+            rows = [
+                subprocess.run(
+                    [py, "-c", _PHASES, str(f), mode],
+                    env=env_new,
+                    capture_output=True,
+                    text=True,
+                    cwd=tempfile.gettempdir(),
+                ).stdout.split()
+                for _ in range(runs)
+            ]
+            cols = list(zip(*[[float(v) for v in r] for r in rows if len(r) == 7], strict=True))
+            names = ("imports", "read", "find peaks", "engine+report", "JSON", "JSON old", "MB")
+            med = {n: statistics.median(c) for n, c in zip(names, cols, strict=True)}
+            print(
+                f"  {label}: imports {med['imports']:.2f} s, read {med['read']:.3f} s, "
+                f"find peaks {med['find peaks']:.3f} s, "
+                f"engine+report {med['engine+report']:.2f} s, "
+                f"canonical JSON {med['JSON']:.3f} s (old encoder {med['JSON old']:.3f} s) "
+                f"for {med['MB']:.1f} MB"
+            )
     finally:
         if base is not None:
             subprocess.run(
