@@ -291,3 +291,25 @@ def test_progress_is_reported_up_to_one():
     seen: list[float] = []
     read_spectrum(_spectrum_csv(300).encode(), progress=lambda f, _m: seen.append(f))
     assert seen == sorted(seen) and seen[-1] == 1.0 and len(seen) >= 3
+
+
+def _with_blank_lines_and_nan(sep: str) -> bytes:
+    x = np.linspace(400.0, 500.0, 100)
+    rows = [f"{a:.3f}{sep}{2 + np.sin(a):.3f}" for a in x]
+    rows.insert(10, "")
+    rows.insert(20, "   ")
+    rows[50] = f"450.000{sep}nan"
+    head = "wavelength_nm" if sep.isspace() else "wavelength (nm)"
+    return (f"{head}{sep}intensity\n" + "\n".join(rows) + "\n\n").encode()
+
+
+@pytest.mark.parametrize("sep", ["   ", ","])
+def test_bulk_and_careful_name_the_same_row(monkeypatch, sep):
+    data = _with_blank_lines_and_nan(sep)
+    with pytest.raises(ValueRangeError) as fast:
+        read_spectrum(data)
+    with pytest.raises(ValueRangeError) as slow:
+        _careful(monkeypatch, read_spectrum, data)
+    # Header on line 1, rows[i] on line i + 2: rows[50] is line 52 (counted by hand).
+    assert "row 52" in fast.value.problem
+    assert fast.value.problem == slow.value.problem

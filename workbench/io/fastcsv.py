@@ -181,7 +181,12 @@ def _bulk(data: bytes, name: str, head: Table, cut: int) -> FastTable:
     # (or leaves cells empty), so the bulk parse below refuses it.
     if head.delimiter == " ":
         cols = _loadtxt(data, first_line, raw_width, head.decimal_comma)
+        # loadtxt skips blank lines silently: number the rows around them.
+        blank = _blank_lines(data, offset, first_line)
         row_lines = None
+        if blank.size:
+            lines = np.arange(first_line, first_line + cols[0].size + blank.size)
+            row_lines = np.setdiff1d(lines, blank, assume_unique=True)
     else:
         cols, row_lines = _polars(data, offset, first_line, head, raw_width)
     if head.trailing_delimiter:
@@ -189,6 +194,17 @@ def _bulk(data: bytes, name: str, head: Table, cut: int) -> FastTable:
             raise NeedCarefulParser("trailing cell not empty")
         cols = cols[:-1]
     return FastTable(head, cols, first_line, offset, row_lines)
+
+
+def _blank_lines(data: bytes, offset: int, first_line: int) -> np.ndarray:
+    """1-based numbers of the blank lines after ``offset`` (the data's start)."""
+    numbers: list[int] = []
+    line, pos = first_line, offset
+    for m in _BLANK_LINE.finditer(data, max(offset - 1, 0)):
+        line += data.count(b"\n", pos, m.start() + 1)
+        pos = m.start() + 1
+        numbers.append(line)
+    return np.asarray(numbers, dtype=np.int64)
 
 
 def _loadtxt(data: bytes, first_line: int, width: int, decimal_comma: bool) -> list[np.ndarray]:
