@@ -20,7 +20,7 @@ import numpy as np
 import polars as pl
 import pytest
 
-import workbench.io.readers as readers
+import workbench.io.tabular as tabular
 from workbench.datamodel import PeakList, Spectrum
 from workbench.errors import FileFormatError, InputError, ValueRangeError
 from workbench.io import read_any, read_peak_list, read_spectrum
@@ -225,7 +225,7 @@ def _careful(monkeypatch, fn, data, **kw):
     def refuse(data, name):
         raise NeedCarefulParser("forced")
 
-    monkeypatch.setattr(readers, "read_fast", refuse)
+    monkeypatch.setattr(tabular, "read_fast", refuse)
     try:
         return fn(data, **kw)
     finally:

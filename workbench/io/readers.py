@@ -16,11 +16,7 @@ callable ``progress(fraction, message)`` for the app's progress bar.
 
 from __future__ import annotations
 
-import io
-import os
 import re
-from collections.abc import Callable
-from dataclasses import dataclass, field
 from typing import Literal
 
 import numpy as np
@@ -42,163 +38,24 @@ from workbench.io.columns import (
     medium_from_text,
     parse_header,
 )
-from workbench.io.delimited import Table, numeric_column, parse_delimited
-from workbench.io.fastcsv import (
-    CAREFUL_MAX_BYTES,
-    SNIFF_BYTES,
-    FastTable,
-    NeedCarefulParser,
-    first_problem,
-    read_fast,
+from workbench.io.jcamp import JcampBlock, jcamp_unit
+from workbench.io.source import DEFAULT_MAX_BYTES, RawInput
+from workbench.io.tabular import (
+    Columns,
+    Parsed,
+    Progress,
+    Source,
+    parse_source,
+    report_progress,
 )
-from workbench.io.jcamp import JcampBlock, jcamp_unit, looks_like_jcamp, parse_jcamp
-from workbench.io.source import DEFAULT_MAX_BYTES, RawInput, decode_text, load_source
 from workbench.physics.units import ENERGY_UNITS, WAVELENGTH_UNITS, normalise_unit
 
 __all__ = ["MAX_ABS_VALUE", "Progress", "read_any", "read_peak_list", "read_spectrum", "sniff"]
 
-Source = bytes | str | os.PathLike[str]
-#: ``progress(fraction, message)``: called with 0 < fraction <= 1 as reading advances.
-Progress = Callable[[float, str], None]
 #: Largest magnitude accepted for any number read (its square stays finite).
 MAX_ABS_VALUE: float = 1e150
 _MIN_SPECTRUM_POINTS = 5
 _UNIT_COMMENT = re.compile(r"\b(?:x\s*)?units?\s*[:=]\s*([^\s,;]+)", re.IGNORECASE)
-
-
-# --------------------------------------------------------------------------- columns
-
-
-@dataclass
-class _Columns:
-    """Columns of any tabular input, with row labels for messages."""
-
-    name: str
-    headers: list[str] | None
-    n_rows: int
-    get: Callable[[int, str, bool], tuple[np.ndarray, np.ndarray, str | None]]
-    row_label: Callable[[int], str]
-    comments: list[str] = field(default_factory=list)
-    fmt: str = "delimited"
-    details: dict[str, object] = field(default_factory=dict)
-
-
-def _columns_from_table(table: Table) -> _Columns:
-    def get(index: int, label: str, allow_empty: bool):
-        return numeric_column(table, index, label, allow_empty=allow_empty)
-
-    details = {
-        "delimiter": table.delimiter_name,
-        "decimal_comma": table.decimal_comma,
-        "header_line": table.header_line,
-    }
-    return _Columns(
-        name=table.name,
-        headers=table.header,
-        n_rows=len(table.rows),
-        get=get,
-        row_label=lambda i: f"row {table.line_numbers[i]}",
-        comments=table.comments,
-        details=details,
-    )
-
-
-def _columns_from_fast(ft: FastTable, name: str) -> _Columns:
-    t = ft.head
-
-    def row_label(i: int) -> str:
-        return f"row {ft.line_of(i)}"
-
-    def get(index: int, label: str, allow_empty: bool):
-        values = ft.columns[index]
-        bad = ~np.isfinite(values)
-        if bad.any():
-            i = int(np.argmax(bad))
-            raise ValueRangeError(
-                f"{name}: {row_label(i)}, column {label!r} is '{values[i]}' (not a finite number)",
-                "remove the row or replace the value with a measured number",
-            )
-        return values, np.zeros(values.size, dtype=bool), None
-
-    details = {
-        "delimiter": t.delimiter_name,
-        "decimal_comma": t.decimal_comma,
-        "header_line": t.header_line,
-        "n_columns": t.n_columns,
-    }
-    return _Columns(
-        name=name,
-        headers=t.header,
-        n_rows=ft.n_rows,
-        get=get,
-        row_label=row_label,
-        comments=t.comments,
-        details=details,
-    )
-
-
-def _numeric_dtype(dtype: object) -> bool:
-    return bool(getattr(dtype, "is_numeric", lambda: False)()) and dtype != pl.Decimal
-
-
-def _columns_from_parquet(data: bytes, name: str) -> _Columns:
-    unreadable = FileFormatError(
-        f"{name} is not a readable Parquet file (damaged or not Parquet)",
-        "re-export the table as Parquet or CSV",
-    )
-    try:
-        df = pl.read_parquet(io.BytesIO(data))
-    except BaseException as exc:  # a Rust panic (PanicException) is a BaseException
-        if isinstance(exc, KeyboardInterrupt | SystemExit):
-            raise
-        raise unreadable from None
-    if df.height == 0:
-        raise FileFormatError(f"{name} has columns but no rows", "give a table with data rows")
-    headers = list(df.columns)
-
-    def get(index: int, label: str, allow_empty: bool):
-        col = df.get_column(headers[index])
-        # Booleans, dates, durations, text, lists and structs cast to numbers
-        # without complaint (True -> 1, a date -> days): only numbers are numbers.
-        if not _numeric_dtype(col.dtype):
-            raise FileFormatError(
-                f"{name}: column {label!r} is {col.dtype}, not numbers",
-                "store the column as floating-point or integer numbers",
-            )
-        try:
-            series = col.cast(pl.Float64, strict=True)
-            empty = series.is_null().to_numpy()
-            values = series.fill_null(np.nan).to_numpy().astype(np.float64)
-        except BaseException as exc:
-            if isinstance(exc, KeyboardInterrupt | SystemExit):
-                raise
-            raise FileFormatError(
-                f"{name}: column {label!r} ({col.dtype}) cannot be read as numbers",
-                "store the column as floating-point numbers",
-            ) from None
-        if empty.any() and not allow_empty:
-            i = int(np.argmax(empty))
-            raise ValueRangeError(
-                f"{name}: data row {i + 1}, column {label!r} is empty (null)",
-                "fill the value or drop the row",
-            )
-        bad = ~np.isfinite(values) & ~empty
-        if bad.any():
-            i = int(np.argmax(bad))
-            raise ValueRangeError(
-                f"{name}: data row {i + 1}, column {label!r} is {values[i]} (not a finite number)",
-                "remove the row or replace the value with a measured number",
-            )
-        return values, empty, None
-
-    return _Columns(
-        name=name,
-        headers=headers,
-        n_rows=df.height,
-        get=get,
-        row_label=lambda i: f"data row {i + 1}",
-        fmt="parquet",
-    )
 
 
 # --------------------------------------------------------------------------- unit and medium
@@ -343,7 +200,7 @@ def _source(raw: RawInput, kind: str, fmt: str, notes: list[str]) -> InputSource
 
 
 def _peak_list_from_columns(
-    cols: _Columns,
+    cols: Columns,
     raw: RawInput,
     *,
     unit: str | None,
@@ -430,11 +287,11 @@ def _peak_list_from_columns(
     )
 
 
-def _n_columns(cols: _Columns) -> int:
+def _n_columns(cols: Columns) -> int:
     return int(cols.details.get("n_columns", 2))
 
 
-def _check_widths(vals: np.ndarray, empty: np.ndarray, label: str, cols: _Columns) -> None:
+def _check_widths(vals: np.ndarray, empty: np.ndarray, label: str, cols: Columns) -> None:
     bad = (vals <= 0) & ~empty
     if bad.any():
         i = int(np.argmax(bad))
@@ -513,7 +370,7 @@ def _spectrum_from_xy(
 
 
 def _spectrum_from_columns(
-    cols: _Columns,
+    cols: Columns,
     raw: RawInput,
     *,
     unit: str | None,
@@ -705,85 +562,7 @@ def _jcamp_peak_list(b, raw, unit, medium, mode, check_units, notes) -> PeakList
 # --------------------------------------------------------------------------- detection
 
 
-@dataclass
-class _Parsed:
-    raw: RawInput
-    fmt: str
-    encoding: str | None = None
-    cols: _Columns | None = None
-    blocks: list[JcampBlock] | None = None
-    table: Table | None = None
-
-
-def _report(progress: Progress | None, fraction: float, message: str) -> None:
-    if progress is not None:
-        progress(fraction, message)
-
-
-def _ascii_head(data: bytes) -> str:
-    # Labels of JCAMP-DX are ASCII: latin-1 decodes any byte, so detection never fails.
-    return data[:SNIFF_BYTES].removeprefix(b"\xef\xbb\xbf").decode("latin-1")
-
-
-def _parse(
-    source: Source, name: str | None, max_bytes: int, progress: Progress | None = None
-) -> _Parsed:
-    raw = load_source(source, name=name, max_bytes=max_bytes)
-    _report(progress, 0.1, f"read {raw.size_bytes:,} bytes")
-    if raw.data[:4] == b"PAR1":
-        parsed = _Parsed(raw, "parquet", cols=_columns_from_parquet(raw.data, raw.name))
-    elif raw.data.startswith((b"\xff\xfe", b"\xfe\xff")):
-        # UTF-16 (rare): decode once, then treat the UTF-8 re-encoding like any file.
-        text, encoding = decode_text(raw.data, raw.name)
-        if looks_like_jcamp(text):
-            parsed = _Parsed(raw, "jcamp-dx", encoding, blocks=parse_jcamp(text, raw.name))
-        else:
-            parsed = _parse_delimited(text.encode("utf-8"), raw, encoding)
-    elif looks_like_jcamp(_ascii_head(raw.data)):
-        text, encoding = decode_text(raw.data, raw.name)
-        parsed = _Parsed(raw, "jcamp-dx", encoding, blocks=parse_jcamp(text, raw.name))
-    else:
-        parsed = _parse_delimited(raw.data, raw, None)
-    _report(progress, 0.8, "parsed")
-    return parsed
-
-
-def _parse_delimited(data: bytes, raw: RawInput, encoding: str | None) -> _Parsed:
-    try:
-        ft = read_fast(data, raw.name)
-    except NeedCarefulParser as exc:
-        if len(data) > CAREFUL_MAX_BYTES:
-            if exc.head is None:
-                raise FileFormatError(
-                    f"{raw.name} ({len(data):,} bytes) has a first line over "
-                    f"{SNIFF_BYTES:,} bytes, line breaks other than LF/CRLF, or an "
-                    "unusual text encoding",
-                    "save it as UTF-8 text with one row per line",
-                ) from None
-            raise first_problem(data, raw.name, exc.head) from None
-        text, enc = decode_text(data, raw.name)
-        table = parse_delimited(text, raw.name)
-        del text
-        cols = _columns_from_table(table)
-        cols.details["n_columns"] = table.n_columns
-        return _Parsed(raw, "delimited", encoding or enc, cols=cols, table=table)
-    # The bulk rows parsed as numbers, so they are ASCII: only the lines before
-    # them (header, comments) decide how the file was encoded.
-    enc = encoding or ("utf-8-sig" if data.startswith(b"\xef\xbb\xbf") else "utf-8")
-    if encoding is None and _not_utf8(data[: ft.offset]):
-        enc = "latin-1"
-    return _Parsed(raw, "delimited", enc, cols=_columns_from_fast(ft, raw.name), table=ft.head)
-
-
-def _not_utf8(data: bytes) -> bool:
-    try:
-        data.decode("utf-8")
-    except UnicodeDecodeError:
-        return True
-    return False
-
-
-def _guess_kind(parsed: _Parsed, block: int | str | None) -> tuple[str, str]:
+def _guess_kind(parsed: Parsed, block: int | str | None) -> tuple[str, str]:
     if parsed.blocks is not None:
         b = _pick_block(parsed.blocks, block, parsed.raw.name, [])
         if b.kind == "peaktable":
@@ -821,7 +600,7 @@ def _guess_kind(parsed: _Parsed, block: int | str | None) -> tuple[str, str]:
     return "peak_list", "positions are irregularly spaced"
 
 
-def _build(parsed: _Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
+def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
     notes: list[str] = []
     if parsed.encoding not in (None, "utf-8"):
         notes.append(f"decoded as {parsed.encoding}")
@@ -923,7 +702,7 @@ def read_peak_list(
     InputError
         One of its subclasses, naming the row or column and the fix.
     """
-    parsed = _parse(source, name, max_bytes, progress)
+    parsed = parse_source(source, name, max_bytes, progress)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -934,7 +713,7 @@ def read_peak_list(
     }
     result = _build(parsed, "peak_list", kw)
     assert isinstance(result, PeakList)
-    _report(progress, 1.0, f"read {result.table.height:,} peaks")
+    report_progress(progress, 1.0, f"read {result.table.height:,} peaks")
     return result
 
 
@@ -984,7 +763,7 @@ def read_spectrum(
     InputError
         One of its subclasses, naming the row or column and the fix.
     """
-    parsed = _parse(source, name, max_bytes, progress)
+    parsed = parse_source(source, name, max_bytes, progress)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -994,7 +773,7 @@ def read_spectrum(
     }
     result = _build(parsed, "spectrum", kw)
     assert isinstance(result, Spectrum)
-    _report(progress, 1.0, f"read {result.x.size:,} points")
+    report_progress(progress, 1.0, f"read {result.x.size:,} points")
     return result
 
 
@@ -1037,7 +816,7 @@ def read_any(
     """
     if kind not in (None, "peak_list", "spectrum"):
         raise ValueRangeError(f"unknown kind {kind!r}", "use 'peak_list' or 'spectrum'")
-    parsed = _parse(source, name, max_bytes, progress)
+    parsed = parse_source(source, name, max_bytes, progress)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -1049,7 +828,7 @@ def read_any(
     if kind is None:
         kind, _ = _guess_kind(parsed, block)  # type: ignore[assignment]
     result = _build(parsed, kind, kw)  # type: ignore[arg-type]
-    _report(progress, 1.0, "done")
+    report_progress(progress, 1.0, "done")
     return result
 
 
@@ -1075,7 +854,7 @@ def sniff(
         ``delimiter``, ``decimal_comma`` and ``mapping`` (header → role and
         score); for JCAMP-DX the list of ``blocks``.
     """
-    parsed = _parse(source, name, max_bytes)
+    parsed = parse_source(source, name, max_bytes)
     kind, reason = _guess_kind(parsed, None)
     out: dict[str, object] = {
         "name": parsed.raw.name,
