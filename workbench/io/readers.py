@@ -16,7 +16,6 @@ callable ``progress(fraction, message)`` for the app's progress bar.
 
 from __future__ import annotations
 
-import re
 from typing import Literal
 
 import numpy as np
@@ -39,6 +38,17 @@ from workbench.io.columns import (
     parse_header,
 )
 from workbench.io.jcamp import JcampBlock, jcamp_unit
+from workbench.io.resolve import (
+    MAX_ABS_VALUE,
+    canonical_unit,
+    check_magnitude,
+    check_positions,
+    comment_media,
+    resolve_medium,
+    resolve_unit,
+    to_canonical,
+    width_to_canonical,
+)
 from workbench.io.source import DEFAULT_MAX_BYTES, RawInput
 from workbench.io.tabular import (
     Columns,
@@ -48,141 +58,11 @@ from workbench.io.tabular import (
     parse_source,
     report_progress,
 )
-from workbench.physics.units import ENERGY_UNITS, WAVELENGTH_UNITS, normalise_unit
+from workbench.physics.units import normalise_unit
 
 __all__ = ["MAX_ABS_VALUE", "Progress", "read_any", "read_peak_list", "read_spectrum", "sniff"]
 
-#: Largest magnitude accepted for any number read (its square stays finite).
-MAX_ABS_VALUE: float = 1e150
 _MIN_SPECTRUM_POINTS = 5
-_UNIT_COMMENT = re.compile(r"\b(?:x\s*)?units?\s*[:=]\s*([^\s,;]+)", re.IGNORECASE)
-
-
-# --------------------------------------------------------------------------- unit and medium
-
-
-def _resolve_unit(
-    explicit: str | None,
-    header_unit: str | None,
-    cell_unit: str | None,
-    comments: list[str],
-    where: str,
-    notes: list[str],
-) -> str:
-    if explicit is not None:
-        unit = normalise_unit(explicit)
-        stated = header_unit or cell_unit
-        if stated is not None and _canon(stated) not in (None, unit):
-            notes.append(f"unit {unit} given explicitly overrides {stated!r} stated in the file")
-        return unit
-    for stated in (header_unit, cell_unit):
-        if stated is not None:
-            return normalise_unit(stated)
-    for c in comments:
-        m = _UNIT_COMMENT.search(c)
-        if m:
-            unit = normalise_unit(m.group(1).strip("()[]"))
-            notes.append(f"unit {unit} taken from comment line {c!r}")
-            return unit
-    raise UnitError(
-        f"{where}: the unit of the positions is not stated",
-        "put it in the header, e.g. 'wavelength (nm)' or 'energy (keV)', or pass --unit",
-    )
-
-
-def _canon(unit: str) -> str | None:
-    try:
-        return normalise_unit(unit)
-    except UnitError:
-        return None
-
-
-def _resolve_medium(
-    axis: str,
-    unit: str,
-    explicit: str | None,
-    stated: list[tuple[str | None, str]],
-    where: str,
-    notes: list[str],
-) -> str | None:
-    if explicit is not None and explicit not in ("air", "vacuum"):
-        raise ValueRangeError(f"unknown medium {explicit!r}", "use 'air' or 'vacuum'")
-    if axis == "energy":
-        if explicit is not None:
-            notes.append(f"medium {explicit!r} ignored: an energy axis has no medium")
-        return None
-    found = [(m, src) for m, src in stated if m is not None]
-    for m, src in found:
-        if m == "ambiguous":
-            raise UnitError(
-                f"{where}: {src} names both air and vacuum",
-                "state one medium, or pass --medium air|vacuum",
-            )
-    if unit == "cm-1":
-        if explicit == "air" or any(m == "air" for m, _ in found):
-            raise UnitError(
-                f"{where}: wavenumbers (cm-1) are vacuum quantities but the medium says air",
-                "drop the air medium; wavenumbers convert to vacuum wavelengths",
-            )
-        notes.append("wavenumbers converted to vacuum wavelengths")
-        return "vacuum"
-    if explicit is not None:
-        if found and found[0][0] != explicit:
-            notes.append(f"medium {explicit} given explicitly overrides {found[0][1]}")
-        return explicit
-    media = {m for m, _ in found}
-    if len(media) > 1:
-        raise UnitError(
-            f"{where}: the file states both air and vacuum ({', '.join(s for _, s in found)})",
-            "correct the file, or pass --medium air|vacuum",
-        )
-    if found:
-        notes.append(f"medium {found[0][0]} from {found[0][1]}")
-        return found[0][0]
-    notes.append("medium not stated; assumed air")
-    return "air"
-
-
-def _comment_media(comments: list[str] | tuple[str, ...]) -> list[tuple[str | None, str]]:
-    return [(medium_from_text(c), f"comment {c!r}") for c in comments if medium_from_text(c)]
-
-
-def _to_canonical(values: np.ndarray, unit: str) -> np.ndarray:
-    from workbench.physics.units import energy_to_eV, wavelength_to_nm
-
-    return energy_to_eV(values, unit) if unit in ENERGY_UNITS else wavelength_to_nm(values, unit)
-
-
-def _width_to_canonical(width: np.ndarray, unit: str, positions_in_unit: np.ndarray) -> np.ndarray:
-    if unit in ENERGY_UNITS:
-        return width * ENERGY_UNITS[unit]
-    if unit == "cm-1":
-        # dλ = 1e7 / ν̃² dν̃ (nm per cm-1): a width in wavenumbers at its line.
-        return width * 1e7 / positions_in_unit**2
-    return width * WAVELENGTH_UNITS[unit]
-
-
-def _check_magnitude(values: np.ndarray, label: str, row_label, where: str) -> None:
-    # Two comparisons (boolean temporaries) instead of abs() (a float temporary).
-    bad = (values > MAX_ABS_VALUE) | (values < -MAX_ABS_VALUE)
-    if bad.any():
-        i = int(np.argmax(bad))
-        raise ValueRangeError(
-            f"{where}: {row_label(i)}, {label!r} is {values[i]:g}, beyond ±{MAX_ABS_VALUE:g}",
-            "check the export (a spreadsheet overflow or a wrong column) and correct the value",
-        )
-
-
-def _check_positions(values: np.ndarray, label: str, row_label, where: str) -> None:
-    _check_magnitude(values, label, row_label, where)
-    bad = values <= 0
-    if bad.any():
-        i = int(np.argmax(bad))
-        raise ValueRangeError(
-            f"{where}: {row_label(i)}, column {label!r} is {values[i]:g}; positions must be "
-            "positive",
-            f"remove {row_label(i)} or correct its value",
-        )
 
 
 # --------------------------------------------------------------------------- peak lists
@@ -228,14 +108,14 @@ def _peak_list_from_columns(
     pos = mapping["position"]
     pos_label = headers[pos.index]
     values, _, cell_unit = cols.get(pos.index, pos_label, False)
-    u = _resolve_unit(unit, pos.header.unit, cell_unit, cols.comments, cols.name, notes)
+    u = resolve_unit(unit, pos.header.unit, cell_unit, cols.comments, cols.name, notes)
     axis = axis_for(u, pos.header.name)
-    stated = [(pos.header.medium, f"header {pos_label!r}"), *_comment_media(cols.comments)]
-    med = _resolve_medium(axis, u, medium, stated, cols.name, notes)
-    _check_positions(values, pos_label, cols.row_label, cols.name)
+    stated = [(pos.header.medium, f"header {pos_label!r}"), *comment_media(cols.comments)]
+    med = resolve_medium(axis, u, medium, stated, cols.name, notes)
+    check_positions(values, pos_label, cols.row_label, cols.name)
     if check_units:
         check_unit_plausibility(values, u, f"{cols.name} column {pos_label!r}")
-    canonical = _to_canonical(values, u)
+    canonical = to_canonical(values, u)
     data: dict[str, object] = {AXIS_COLUMN[axis]: canonical}
     extra_map: dict[str, object] = {
         pos_label: {"role": "position", "score": pos.score, "unit": u},
@@ -247,10 +127,10 @@ def _peak_list_from_columns(
             continue
         label = headers[choice.index]
         vals, empty, _ = cols.get(choice.index, label, True)
-        _check_magnitude(vals, label, cols.row_label, cols.name)
+        check_magnitude(vals, label, cols.row_label, cols.name)
         role_unit = None
         if role == "fwhm":
-            role_unit = _canon(choice.header.unit) if choice.header.unit else u
+            role_unit = canonical_unit(choice.header.unit) if choice.header.unit else u
             if role_unit is None or axis_for(role_unit) != axis:
                 raise UnitError(
                     f"{cols.name}: column {label!r} has unit {choice.header.unit!r}, which is "
@@ -259,7 +139,7 @@ def _peak_list_from_columns(
                 )
             _check_widths(vals, empty, label, cols)
             with np.errstate(invalid="ignore"):
-                vals = _width_to_canonical(vals, role_unit, values)
+                vals = width_to_canonical(vals, role_unit, values)
             col_name = FWHM_COLUMN[axis]
         else:
             col_name = role
@@ -334,11 +214,11 @@ def _spectrum_from_xy(
                 f"{where}: {row_label(i)}, {label} is {arr[i]} (not a finite number)",
                 f"remove {row_label(i)} or replace the value",
             )
-    _check_magnitude(y, y_label, row_label, where)
-    _check_positions(x, x_label, row_label, where)
+    check_magnitude(y, y_label, row_label, where)
+    check_positions(x, x_label, row_label, where)
     if check_units:
         check_unit_plausibility(x, u, f"{where} {x_label}")
-    xc = _to_canonical(x, u)
+    xc = to_canonical(x, u)
     d = np.diff(xc)
     if not np.all(d > 0):
         if np.all(d < 0):
@@ -412,10 +292,10 @@ def _spectrum_from_columns(
             notes.append("no header row: column 1 read as x, column 2 as y")
     x, _, cell_unit = cols.get(xi, x_label, False)
     y, _, _ = cols.get(yi, y_label, False)
-    u = _resolve_unit(unit, header_unit, cell_unit, cols.comments, cols.name, notes)
+    u = resolve_unit(unit, header_unit, cell_unit, cols.comments, cols.name, notes)
     axis = axis_for(u, name)
-    stated = [(header_medium, f"header {x_label!r}"), *_comment_media(cols.comments)]
-    med = _resolve_medium(axis, u, medium, stated, cols.name, notes)
+    stated = [(header_medium, f"header {x_label!r}"), *comment_media(cols.comments)]
+    med = resolve_medium(axis, u, medium, stated, cols.name, notes)
     notes.append(f"x from {x_label!r} (unit {u}), y from {y_label!r}")
     return _spectrum_from_xy(
         x,
@@ -478,8 +358,8 @@ def _jcamp_context(b: JcampBlock, unit: str | None, medium: str | None, name: st
     stated: list[tuple[str | None, str]] = [
         (medium_from_text(v), f"##{k}={v}") for k, v in b.labels.items() if "MEDIUM" in k
     ]
-    stated += _comment_media(b.comments)
-    med = _resolve_medium(axis, u, medium, stated, name, notes)
+    stated += comment_media(b.comments)
+    med = resolve_medium(axis, u, medium, stated, name, notes)
     return where, u, axis, med
 
 
@@ -529,8 +409,8 @@ def _jcamp_peak_list(b, raw, unit, medium, mode, check_units, notes) -> PeakList
         if bad.any():
             i = int(np.argmax(bad))
             raise ValueRangeError(f"{where}: {row_label(i)}, {label} is missing", "fix the table")
-    _check_positions(b.x, "x", row_label, where)
-    _check_magnitude(b.y, "y", row_label, where)
+    check_positions(b.x, "x", row_label, where)
+    check_magnitude(b.y, "y", row_label, where)
     if b.width is not None:
         # The same rule as a width column in a table: finite and positive, or absent.
         wbad = ~(np.isfinite(b.width) & (b.width > 0)) & ~np.isnan(b.width)
@@ -541,12 +421,12 @@ def _jcamp_peak_list(b, raw, unit, medium, mode, check_units, notes) -> PeakList
                 "positive finite number",
                 f"correct {row_label(i)} or give '?' for an unknown width",
             )
-        _check_magnitude(b.width, "width", row_label, where)
+        check_magnitude(b.width, "width", row_label, where)
     if check_units:
         check_unit_plausibility(b.x, u, f"{where} peak table")
-    data: dict[str, object] = {AXIS_COLUMN[axis]: _to_canonical(b.x, u), "intensity": b.y}
+    data: dict[str, object] = {AXIS_COLUMN[axis]: to_canonical(b.x, u), "intensity": b.y}
     if b.width is not None:
-        data[FWHM_COLUMN[axis]] = _width_to_canonical(b.width, u, b.x)
+        data[FWHM_COLUMN[axis]] = width_to_canonical(b.width, u, b.x)
     table = pl.DataFrame(data).sort(AXIS_COLUMN[axis])
     notes.append(f"peak table: {b.x.size} peaks (unit {u})")
     return PeakList(
