@@ -134,9 +134,10 @@ def _split_numbered(line: str, delimiter: str, name: str, number: int) -> list[s
         raise FileFormatError(f"{name}: row {number}: {exc.problem}", exc.remedy) from None
 
 
-def is_spreadsheet_error(stripped_line: str) -> bool:
-    """Whether a line starts with a spreadsheet error value such as ``#VALUE!``."""
-    return _SPREADSHEET_ERROR.match(stripped_line) is not None
+def is_spreadsheet_error(stripped_line: str) -> str | None:
+    """The spreadsheet error value (``#VALUE!``, ``#N/A``, ...) a line starts with, or None."""
+    m = _SPREADSHEET_ERROR.match(stripped_line)
+    return m.group(0) if m else None
 
 
 def looks_numeric_cell(cell: str) -> bool:
@@ -212,10 +213,10 @@ def parse_delimited(text: str, name: str) -> Table:
         if not stripped:
             continue
         if stripped[0] in "#%":
-            if stripped[0] == "#" and is_spreadsheet_error(stripped):
+            code = is_spreadsheet_error(stripped) if stripped[0] == "#" else None
+            if code:
                 raise FileFormatError(
-                    f"{name}: row {number} starts with the spreadsheet error "
-                    f"{stripped.split(',')[0].split(';')[0].split()[0][:20]!r}",
+                    f"{name}: row {number} starts with the spreadsheet error {code!r}",
                     "fix the formula in the spreadsheet, or delete the row, and export again",
                 )
             comments.append(stripped.lstrip("#%").strip())

@@ -313,9 +313,10 @@ def first_problem(data: bytes, name: str, head: Table) -> InputError:
         s = line.strip()
         if not s:
             continue
-        if is_spreadsheet_error(s):
+        code = is_spreadsheet_error(s)
+        if code:
             return FileFormatError(
-                f"{name}: row {number} starts with the spreadsheet error {s.split()[0]!r}",
+                f"{name}: row {number} starts with the spreadsheet error {code!r}",
                 "fix the formula in the spreadsheet, or delete the row, and export again",
             )
         if s[0] in markers:
