@@ -99,3 +99,25 @@ def test_small_quantised_signals_agree(values: list[int], wlen: int) -> None:
         e_left, e_right = _scipy_widths(s, got, level, lb, rb)
         np.testing.assert_allclose(left, e_left, atol=1e-12)
         np.testing.assert_allclose(right, e_right, atol=1e-12)
+
+
+def test_peak_finding_imports_neither_scipy_signal_nor_stats():
+    # Issue 14: importing scipy.signal (and with it scipy.stats) cost more than
+    # the whole search on a million points. A fresh process shows what is loaded.
+    import subprocess
+    import sys
+
+    code = (
+        "import sys, numpy as np\n"
+        "from workbench.datamodel import Spectrum\n"
+        "from workbench.peaks import find_peaks\n"
+        "x = np.linspace(400.0, 500.0, 2000)\n"
+        "y = 10 + 100 * np.exp(-0.5 * ((x - 450.0) / 0.2) ** 2)\n"
+        "y += np.random.default_rng(20261202).normal(0, 1, x.size)\n"
+        "p = find_peaks(Spectrum(x, y, 'wavelength', 'air'))\n"
+        "print(p.table.height, [m for m in ('scipy.signal', 'scipy.stats', 'scipy.ndimage')"
+        " if m in sys.modules])\n"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.split(maxsplit=1)[1].strip() == "[]"
+    assert int(out.stdout.split()[0]) >= 1  # the 100-count line at 450 nm is found

@@ -247,10 +247,15 @@ def parse_header(text: str) -> HeaderInfo:
 
 
 def _role_score(name: str) -> tuple[str, float]:
-    from rapidfuzz import fuzz, process
-
     if not name:
         return "none", 0.0
+    # Exact synonyms first (the loop below would return the same on reaching
+    # them): common headers then never load rapidfuzz.
+    for role, synonyms in _SYNONYMS.items():
+        if name in synonyms:
+            return role, 100.0
+    from rapidfuzz import fuzz, process
+
     best_role, best = "none", 0.0
     for role, synonyms in _SYNONYMS.items():
         if name in synonyms:
