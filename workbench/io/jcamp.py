@@ -25,7 +25,9 @@ from __future__ import annotations
 
 import math
 import re
+from array import array
 from dataclasses import dataclass, field
+from itertools import repeat
 
 import numpy as np
 
@@ -252,8 +254,9 @@ def _decode_xydata(
                 "correct ##FIRSTX, ##LASTX, ##NPOINTS or ##DELTAX",
             )
     x_tol = max(abs(deltax), abs(xfactor)) * (1 + 1e-9)
-    ys: list[float] = []
-    lines_of: list[int] = []
+    # Compact arrays (8 bytes a value) instead of lists of float objects (32).
+    ys = array("d")
+    lines_of = array("q")
     last: float | None = None
     ended_in_dif = False
     prev_number = 0
@@ -319,7 +322,7 @@ def _decode_xydata(
                 "re-export the file",
             )
         ys.extend(line_ys)
-        lines_of.extend([number] * len(line_ys))
+        lines_of.extend(repeat(number, len(line_ys)))
         if line_ys or toks[1:]:
             ended_in_dif = mode == "dif"
         last = cur
@@ -331,7 +334,7 @@ def _decode_xydata(
         )
     # Factors may overflow a value to infinity: the readers refuse it, naming the point.
     with np.errstate(over="ignore", invalid="ignore"):
-        y = np.asarray(ys, dtype=np.float64) * yfactor
+        y = np.frombuffer(ys, dtype=np.float64) * yfactor
         x = firstx + np.arange(npoints, dtype=np.float64) * deltax
     if "FIRSTY" in labels and np.isfinite(y[0]):
         firsty = _float_label(labels, "FIRSTY", where)
@@ -340,7 +343,7 @@ def _decode_xydata(
                 f"{where}: first ordinate {y[0]:g} disagrees with ##FIRSTY={firsty:g}",
                 "check ##YFACTOR and ##FIRSTY; re-export the file",
             )
-    return x, y, np.asarray(lines_of, dtype=np.int64)
+    return x, y, np.frombuffer(lines_of, dtype=np.int64).copy()
 
 
 def _decode_points(
