@@ -66,3 +66,13 @@ def test_large_file_without_usable_head_is_refused(monkeypatch):
     monkeypatch.setattr(tabular, "CAREFUL_MAX_BYTES", 0)
     with pytest.raises(FileFormatError, match="line breaks other than LF/CRLF"):
         read_peak_list(GOOD.replace(b"\n", b"\r"))
+
+
+def test_long_preamble_widens_the_head():
+    # 100 kB of instrument metadata before the table (more than the first 64 KiB).
+    preamble = b"".join(b"# setting %d = %d\n" % (i, i) for i in range(6000))
+    assert len(preamble) > 65_536
+    ft = read_fast(preamble + GOOD, "p.csv")
+    np.testing.assert_array_equal(ft.columns[0], [400.5, 401.5, 402.5])
+    # 6000 comment lines, then GOOD's comment and header: data on line 6003.
+    assert ft.first_data_line == 6003

@@ -39,6 +39,7 @@ from workbench.io.source import decode_text
 
 __all__ = [
     "CAREFUL_MAX_BYTES",
+    "MAX_SNIFF_BYTES",
     "SNIFF_BYTES",
     "FastTable",
     "NeedCarefulParser",
@@ -48,6 +49,8 @@ __all__ = [
 
 #: Bytes read by the careful parser to decide the layout.
 SNIFF_BYTES: int = 65_536
+#: The head may grow to this when a long preamble hides the table.
+MAX_SNIFF_BYTES: int = 4 * 1024 * 1024
 #: Largest input the careful (line-by-line) parser may take whole.
 CAREFUL_MAX_BYTES: int = 32 * 1024 * 1024
 
@@ -112,12 +115,12 @@ class NeedCarefulParser(Exception):
         self.head = head
 
 
-def _head(data: bytes, name: str) -> tuple[str, int]:
+def _head(data: bytes, name: str, size: int) -> tuple[str, int]:
     """Decode the head (cut at the last line end) and return it with its byte length."""
-    if len(data) <= SNIFF_BYTES:
+    if len(data) <= size:
         cut = len(data)
     else:
-        cut = data.rfind(b"\n", 0, SNIFF_BYTES) + 1
+        cut = data.rfind(b"\n", 0, size) + 1
         if cut <= 0:
             raise NeedCarefulParser("no line end in the head")
     head = data[:cut]
@@ -160,8 +163,21 @@ def read_fast(data: bytes, name: str) -> FastTable:
         When the bulk parser cannot take the input (the caller then uses the
         careful parser or :func:`first_problem`).
     """
-    text, cut = _head(data, name)
-    head = parse_delimited(text, name)
+    size = SNIFF_BYTES
+    while True:
+        text, cut = _head(data, name, size)
+        try:
+            head = parse_delimited(text, name)
+            break
+        except InputError as exc:
+            # Only a head without data rows may be a long preamble; any other
+            # error (a ragged row, a spreadsheet error) is the file's own.
+            if cut >= len(data) or "no data rows" not in exc.problem:
+                raise
+            if size >= MAX_SNIFF_BYTES:
+                raise NeedCarefulParser("no table in the head") from None
+            # A long preamble (instrument metadata) can hide the data: look further.
+            size *= 8
     try:
         return _bulk(data, name, head, cut)
     except NeedCarefulParser as exc:

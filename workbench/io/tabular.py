@@ -24,6 +24,7 @@ from workbench.errors import FileFormatError, ValueRangeError
 from workbench.io.delimited import Table, numeric_column, parse_delimited
 from workbench.io.fastcsv import (
     CAREFUL_MAX_BYTES,
+    MAX_SNIFF_BYTES,
     SNIFF_BYTES,
     FastTable,
     NeedCarefulParser,
@@ -268,10 +269,10 @@ def _parse_delimited(data: bytes, raw: RawInput, encoding: str | None) -> Parsed
         if len(data) > CAREFUL_MAX_BYTES:
             if exc.head is None:
                 raise FileFormatError(
-                    f"{raw.name} ({len(data):,} bytes) has a first line over "
-                    f"{SNIFF_BYTES:,} bytes, line breaks other than LF/CRLF, or an "
-                    "unusual text encoding",
-                    "save it as UTF-8 text with one row per line",
+                    f"{raw.name} ({len(data):,} bytes) has no readable table in its first "
+                    f"{MAX_SNIFF_BYTES // 2**20} MiB, a first line over {SNIFF_BYTES:,} "
+                    "bytes, line breaks other than LF/CRLF, or an unusual text encoding",
+                    "save it as UTF-8 text with one row per line and a short preamble",
                 ) from None
             raise first_problem(data, raw.name, exc.head) from None
         text, enc = decode_text(data, raw.name)
