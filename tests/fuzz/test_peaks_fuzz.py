@@ -63,3 +63,14 @@ def test_seeded_extreme_spectra(make, mode):
                 find_peaks(spectrum, mode=mode, baseline=baseline)
             except InputError:
                 pass
+
+
+def test_subnormal_noise_gives_finite_snr():
+    # Found by the hypothesis test above: one subnormal sample makes σ subnormal,
+    # and height/σ overflowed (RuntimeWarning). 2.2250738585072014e-308 is the
+    # smallest normal double (IEEE 754 binary64); 2.2e-309 is below it.
+    y = np.zeros(64)
+    y[1:32:2] = 1.0
+    y[25] = 2.22507386e-309
+    peaks = find_peaks(Spectrum(_X, y, "wavelength", "air"), baseline=None)
+    assert np.all(np.isfinite(peaks.table["snr"].to_numpy()))

@@ -276,13 +276,17 @@ def find_peaks(
         centre = _plateau_centres(y, x, idx, left_ips, right_ips, saturated, centre, prm)
     cum = np.concatenate(([0.0], np.cumsum(0.5 * (s_measure[1:] + s_measure[:-1]) * np.diff(x))))
     area = np.interp(centre + fwhm, x, cum) - np.interp(centre - fwhm, x, cum)
+    # A σ at the floating-point floor (subnormal) makes height/σ overflow: such
+    # an SNR is "as large as a double can say", not infinity.
+    with np.errstate(over="ignore"):
+        snr = np.minimum(height_detect / sigma, np.finfo(np.float64).max)
     table = pl.DataFrame(
         {
             pos_col: centre,
             "intensity": height,
             fwhm_col: fwhm,
             "area": area,
-            "snr": height_detect / sigma,
+            "snr": snr,
             "saturated": saturated,
         }
     )
