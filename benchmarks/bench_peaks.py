@@ -67,6 +67,13 @@ def main() -> None:
 
     t_vec, (idx, _) = best_of(lambda: scipy_find_peaks(s, height=thr, prominence=thr, wlen=201))
     print(f"vectorised detection only (scipy find_peaks, same array): {t_vec:.4f} s, {idx.size}")
+    from workbench.peaks.extrema import select_peaks
+
+    t_own, own = best_of(lambda: select_peaks(s, thr, thr, 201))
+    print(
+        f"workbench.peaks.extrema.select_peaks (same array): {t_own:.4f} s, "
+        f"{own['peaks'].size} ({t_own / t_vec:.2f}x scipy)"
+    )
     t_loop, found = best_of(lambda: python_loop_maxima(s_list, thr), repeat=1)
     print(
         f"pure-Python local-maximum loop (detection only, no baseline/refinement): "

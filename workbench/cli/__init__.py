@@ -40,14 +40,45 @@ COMMAND_MODULES: tuple[str, ...] = (
 )
 
 
+def _manifest_version_quick() -> str | None:
+    """``data_version`` read straight from the manifest, or None if anything is unusual.
+
+    Importing :mod:`workbench.refdata` loads polars, scipy and the physics
+    package (most of a second), far more than printing a version needs. The
+    paths are those of :func:`workbench.refdata.manifest.default_root`; when
+    this quick look fails, the full loader runs and gives its own message.
+    """
+    import json
+    import os
+    from pathlib import Path
+
+    import workbench
+
+    env = os.environ.get("WORKBENCH_REFERENCE_SETS")
+    package = Path(workbench.__file__).resolve().parent
+    roots = [Path(env)] if env else [package.parent / "reference_sets", package / "_reference_sets"]
+    for root in roots:
+        try:
+            manifest = json.loads((root / "manifest.json").read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            continue
+        ok = isinstance(manifest, dict) and isinstance(manifest.get("sets"), list)
+        version = manifest.get("data_version") if ok else None
+        return version if isinstance(version, str) else None
+    return None
+
+
 def _version_text() -> str:
     from workbench import __version__
-    from workbench.refdata.manifest import data_version
 
-    try:
-        data = data_version()
-    except Exception as exc:  # the version line must print even with broken data
-        data = f"unavailable ({exc})"
+    data = _manifest_version_quick()
+    if data is None:
+        from workbench.refdata.manifest import data_version
+
+        try:
+            data = data_version()
+        except Exception as exc:  # the version line must print even with broken data
+            data = f"unavailable ({exc})"
     return f"workbench {__version__}\nreference data {data}"
 
 

@@ -38,16 +38,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.set_defaults(func=_handle)
 
 
-def _fmt(value: object) -> object:
-    if isinstance(value, float):
-        return float(f"{value:.10g}")
-    return value
-
-
 def _handle(args: argparse.Namespace) -> int:
-    import json
     import sys
 
+    from workbench import canonjson
     from workbench.datamodel import PeakList
     from workbench.io import read_any
     from workbench.peaks import find_peaks
@@ -69,7 +63,8 @@ def _handle(args: argparse.Namespace) -> int:
         )
         shown_as_read = False
     source = peaks.source
-    rows = [{k: _fmt(v) for k, v in row.items()} for row in peaks.table.iter_rows(named=True)]
+    # Numbers follow the one canonical rule (10 significant digits, NaN -> null).
+    rows = peaks.table.to_dicts()
     result = {
         "source": source.to_dict() if source is not None else None,
         "axis": peaks.axis,
@@ -78,17 +73,17 @@ def _handle(args: argparse.Namespace) -> int:
         "input_was_peak_list": shown_as_read,
         "peaks": rows,
         "peak_finding": peaks.extra.get("peak_finding"),
-        "noise_sigma": _fmt(peaks.extra.get("noise_sigma")),
+        "noise_sigma": peaks.extra.get("noise_sigma"),
         "intensity_unit": peaks.extra.get("intensity_unit"),
     }
     if args.json:
-        text = json.dumps(result, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
+        data_out = canonjson.dumps(result, indent=2) + b"\n"
         if args.json == "-":
-            sys.stdout.write(text)
+            sys.stdout.buffer.write(data_out)
             return 0
         from workbench.fileio import write_bytes_atomic
 
-        write_bytes_atomic(args.json, text.encode("utf-8"))
+        write_bytes_atomic(args.json, data_out)
         print(f"wrote {len(rows)} peaks to {args.json}")
         return 0
     _print_table(peaks, shown_as_read)

@@ -173,9 +173,31 @@ def _strip_medium(name: str) -> tuple[str, str | None]:
         medium = "vacuum"
     if "air" in words:
         medium = "ambiguous" if medium else "air"
-    cleaned = _MEDIUM_WORDS.sub(" ", name)
-    cleaned = re.sub(r"\b(in)\b\s*$", " ", cleaned)
+    cleaned = _MEDIUM_WORDS.sub(" ", name).rstrip()
+    # A trailing word "in" ("wavelength in"), tested without a regex anchored at
+    # the end, which would rescan the tail from every earlier "in".
+    if cleaned.endswith("in") and (len(cleaned) == 2 or not cleaned[-3].isalnum()):
+        if len(cleaned) == 2 or cleaned[-3] != "_":
+            cleaned = cleaned[:-2] + " "
     return cleaned, medium
+
+
+def _trailing_bracket(body: str) -> tuple[int, str] | None:
+    r"""Where a final bracketed part starts and what it holds: ``"a (nm)"`` -> (2, "nm").
+
+    The leftmost opening bracket after the last inner closing bracket, as the
+    pattern ``[([{]([^)\]}]*)[)\]}]\s*$`` would find it, but in linear time.
+    """
+    s = body.rstrip()
+    if not s or s[-1] not in ")]}":
+        return None
+    end = len(s) - 1
+    after = max(s.rfind(c, 0, end) for c in ")]}") + 1
+    openers = [i for i in (s.find(c, after, end) for c in "([{") if i >= 0]
+    if not openers:
+        return None
+    start = min(openers)
+    return start, s[start + 1 : end]
 
 
 def parse_header(text: str) -> HeaderInfo:
@@ -198,12 +220,13 @@ def parse_header(text: str) -> HeaderInfo:
     low = raw.lower().replace(" ", "")
     if low in ("s/n", "s/nratio"):
         return HeaderInfo(raw, "s/n", None, None)
-    m = re.search(r"[\(\[\{]([^\)\]\}]*)[\)\]\}]\s*$", body)
+    m = _trailing_bracket(body)
     if m:
-        parts = [p.strip() for p in re.split(r"[,;]", m.group(1)) if p.strip()]
+        start, inside = m
+        parts = [p.strip() for p in re.split(r"[,;]", inside) if p.strip()]
         media = [p for p in parts if _MEDIUM_WORDS.fullmatch(p)]
         rest = [p for p in parts if not _MEDIUM_WORDS.fullmatch(p)]
-        body = body[: m.start()] + " " + " ".join(media)
+        body = body[:start] + " " + " ".join(media)
         unit = " ".join(rest) or None
     elif "/" in body:
         head, _, tail = body.rpartition("/")
@@ -224,10 +247,15 @@ def parse_header(text: str) -> HeaderInfo:
 
 
 def _role_score(name: str) -> tuple[str, float]:
-    from rapidfuzz import fuzz, process
-
     if not name:
         return "none", 0.0
+    # Exact synonyms first (the loop below would return the same on reaching
+    # them): common headers then never load rapidfuzz.
+    for role, synonyms in _SYNONYMS.items():
+        if name in synonyms:
+            return role, 100.0
+    from rapidfuzz import fuzz, process
+
     best_role, best = "none", 0.0
     for role, synonyms in _SYNONYMS.items():
         if name in synonyms:

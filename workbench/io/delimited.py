@@ -19,12 +19,28 @@ import numpy as np
 
 from workbench.errors import FileFormatError, UnitError, ValueRangeError
 
-__all__ = ["Table", "numeric_column", "parse_delimited"]
+__all__ = [
+    "Table",
+    "is_spreadsheet_error",
+    "looks_numeric_cell",
+    "numeric_column",
+    "parse_delimited",
+    "split_line",
+]
 
 _NUMBER = re.compile(r"^[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?$")
-_NUMBER_WITH_UNIT = re.compile(
-    r"^\s*([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*([^\d\s.+-][^\d]*)?\s*$"
+# A leading number and whatever follows it; the rest is checked without a regex
+# so that a long run of spaces cannot make the match backtrack quadratically.
+_LEADING_NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?")
+_DIGIT = re.compile(r"\d")
+# Error values Excel and LibreOffice write into a cell whose formula failed.
+_SPREADSHEET_ERROR = re.compile(
+    r"#(?:N/A|DIV/0!|VALUE!|REF!|NAME\?|NUM!|NULL!|SPILL!|CALC!|FIELD!|BLOCKED!|"
+    r"CONNECT!|BUSY!|UNKNOWN!|GETTING_DATA|ERR:\d+|NV)",
+    re.IGNORECASE,
 )
+#: Longest cell accepted (characters); csv's own limit is 131,072.
+MAX_CELL_CHARS = 100_000
 _DECIMAL_COMMA = re.compile(r"^\s*[+-]?\d*,\d+(?:[eE][+-]?\d+)?\s*$")
 _DELIMITER_NAMES = {"\t": "tab", ";": "semicolon", ",": "comma", " ": "whitespace"}
 
@@ -51,6 +67,10 @@ class Table:
         Whether ``,`` was read as the decimal separator.
     comments : list of str
         Comment lines (without their marker), for medium and unit hints.
+    inner_comments : list of int
+        Line numbers of comment lines found among the data rows (skipped).
+    trailing_delimiter : bool
+        Whether every row ended in a delimiter (the empty last cell was dropped).
     """
 
     name: str
@@ -61,6 +81,8 @@ class Table:
     delimiter: str
     decimal_comma: bool
     comments: list[str] = field(default_factory=list)
+    inner_comments: list[int] = field(default_factory=list)
+    trailing_delimiter: bool = False
 
     @property
     def n_columns(self) -> int:
@@ -73,10 +95,66 @@ class Table:
         return _DELIMITER_NAMES[self.delimiter]
 
 
-def _split(line: str, delimiter: str) -> list[str]:
+def split_line(line: str, delimiter: str) -> list[str]:
+    """Split one line into cells (quotes honoured; runs of whitespace for ``" "``).
+
+    Raises
+    ------
+    FileFormatError
+        For a cell longer than :data:`MAX_CELL_CHARS` or broken quoting.
+    """
     if delimiter == " ":
-        return line.split()
-    return next(csv.reader([line], delimiter=delimiter, skipinitialspace=True))
+        cells = line.split()
+    else:
+        try:
+            cells = next(csv.reader([line], delimiter=delimiter, skipinitialspace=True))
+        except csv.Error as exc:
+            if "field limit" in str(exc):
+                raise _too_long() from None
+            raise FileFormatError(
+                f"the line cannot be split into cells ({exc})",
+                "check the quoting: every opening quote needs its closing quote",
+            ) from None
+    if len(line) > MAX_CELL_CHARS and max(map(len, cells), default=0) > MAX_CELL_CHARS:
+        raise _too_long()
+    return cells
+
+
+def _too_long() -> FileFormatError:
+    return FileFormatError(
+        f"a cell is longer than {MAX_CELL_CHARS:,} characters",
+        "check the delimiter and quoting; a data cell holds one number",
+    )
+
+
+def _split_numbered(line: str, delimiter: str, name: str, number: int) -> list[str]:
+    try:
+        return split_line(line, delimiter)
+    except FileFormatError as exc:
+        raise FileFormatError(f"{name}: row {number}: {exc.problem}", exc.remedy) from None
+
+
+def is_spreadsheet_error(stripped_line: str) -> str | None:
+    """The spreadsheet error value (``#VALUE!``, ``#N/A``, ...) a line starts with, or None."""
+    m = _SPREADSHEET_ERROR.match(stripped_line)
+    return m.group(0) if m else None
+
+
+def looks_numeric_cell(cell: str) -> bool:
+    """Whether a stripped cell is a number, NaN/inf, or a number followed by a unit."""
+    return _is_number(cell, False) or _split_unit(cell) is not None
+
+
+def _split_unit(cell: str) -> tuple[float, str | None] | None:
+    """``"656.3 nm"`` -> (656.3, "nm"); ``"656.3"`` -> (656.3, None); else None."""
+    c = cell.strip()
+    m = _LEADING_NUMBER.match(c)
+    if m is None:
+        return None
+    rest = c[m.end() :].strip()
+    if rest and (rest[0] in ".+-" or _DIGIT.search(rest)):
+        return None
+    return float(m.group(0)), rest or None
 
 
 def _choose_delimiter(lines: list[str]) -> str:
@@ -128,13 +206,21 @@ def parse_delimited(text: str, name: str) -> Table:
         number of cells than the header (the message names the row).
     """
     comments: list[str] = []
+    comment_lines: list[int] = []
     lines: list[tuple[int, str]] = []
     for number, line in enumerate(text.splitlines(), start=1):
         stripped = line.strip()
         if not stripped:
             continue
         if stripped[0] in "#%":
+            code = is_spreadsheet_error(stripped) if stripped[0] == "#" else None
+            if code:
+                raise FileFormatError(
+                    f"{name}: row {number} starts with the spreadsheet error {code!r}",
+                    "fix the formula in the spreadsheet, or delete the row, and export again",
+                )
             comments.append(stripped.lstrip("#%").strip())
+            comment_lines.append(number)
             continue
         lines.append((number, line.rstrip("\r\n")))
     if not lines:
@@ -146,14 +232,19 @@ def parse_delimited(text: str, name: str) -> Table:
         for number, line in lines:
             if line.lstrip().startswith(";"):
                 comments.append(line.lstrip().lstrip(";").strip())
+                comment_lines.append(number)
             else:
                 keep.append((number, line))
         lines = keep
         if not lines:
             raise FileFormatError(f"{name} has no data rows", "give a header row and data rows")
-    cells = [(number, [c.strip() for c in _split(line, delimiter)]) for number, line in lines]
+    cells = [
+        (number, [c.strip() for c in _split_numbered(line, delimiter, name, number)])
+        for number, line in lines
+    ]
     # Spreadsheets often leave a trailing delimiter; drop an empty last cell everywhere.
-    if delimiter != " " and all(c and c[-1] == "" for _, c in cells):
+    trailing = delimiter != " " and all(c and c[-1] == "" for _, c in cells)
+    if trailing:
         cells = [(n, c[:-1]) for n, c in cells]
     decimal_comma = False
     if delimiter != ",":
@@ -191,6 +282,7 @@ def parse_delimited(text: str, name: str) -> Table:
     rows = [row for _, row in cells]
     if decimal_comma:
         rows = [[c.replace(",", ".") for c in row] for row in rows]
+    first_data = cells[0][0]
     return Table(
         name=name,
         header=header,
@@ -200,6 +292,8 @@ def parse_delimited(text: str, name: str) -> Table:
         delimiter=delimiter,
         decimal_comma=decimal_comma,
         comments=comments,
+        inner_comments=[n for n in comment_lines if n > first_data],
+        trailing_delimiter=trailing,
     )
 
 
@@ -280,7 +374,7 @@ def _slow_parse(table: Table, col: list[str], label: str) -> tuple[np.ndarray, s
         if cell == "":
             out[i] = np.nan
             continue
-        m = _NUMBER_WITH_UNIT.match(cell)
+        m = _split_unit(cell)
         if m is None:
             word = cell.strip().lower()
             if word in ("nan", "inf", "-inf", "+inf", "infinity"):
@@ -288,11 +382,10 @@ def _slow_parse(table: Table, col: list[str], label: str) -> tuple[np.ndarray, s
                 continue
             raise FileFormatError(
                 f"{table.name}: row {table.line_numbers[i]}, column {label!r} holds "
-                f"{cell!r}, which is not a number",
+                f"{cell[:40]!r}, which is not a number",
                 "correct the cell (decimal point or decimal comma, no text)",
             )
-        out[i] = float(m.group(1))
-        cell_unit = (m.group(2) or "").strip() or None
+        out[i], cell_unit = m
         if cell_unit is None:
             plain_row = plain_row or table.line_numbers[i]
         elif unit is None:

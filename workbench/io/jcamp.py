@@ -23,14 +23,30 @@ compressed forms require.
 
 from __future__ import annotations
 
+import math
 import re
+from array import array
 from dataclasses import dataclass, field
+from itertools import repeat
 
 import numpy as np
 
 from workbench.errors import FileFormatError, UnitError
 
-__all__ = ["JcampBlock", "jcamp_unit", "looks_like_jcamp", "parse_jcamp"]
+__all__ = [
+    "MIN_POINT_LIMIT",
+    "POINTS_PER_CHAR",
+    "JcampBlock",
+    "jcamp_unit",
+    "looks_like_jcamp",
+    "max_points",
+    "parse_jcamp",
+]
+
+#: Points allowed per character of the file (see :func:`max_points`).
+POINTS_PER_CHAR: int = 16
+#: Points always allowed, however small the file.
+MIN_POINT_LIMIT: int = 1_000_000
 
 _LDR = re.compile(r"^\s*##([^=]*)=(.*)$")
 _TOKEN = re.compile(
@@ -151,11 +167,40 @@ def _float_label(labels: dict[str, str], key: str, where: str, default: float | 
             )
         return default
     try:
-        return float(text.strip().split()[0])
+        value = float(text.strip().split()[0])
     except ValueError:
+        value = math.nan
+    if not math.isfinite(value):
         raise FileFormatError(
-            f"{where}: ##{key}={text.strip()!r} is not a number", "correct the value"
-        ) from None
+            f"{where}: ##{key}={text.strip()[:40]!r} is not a finite number", "correct the value"
+        )
+    return value
+
+
+def max_points(text_length: int) -> int:
+    """Most points a JCAMP-DX text of this length may declare or decode to.
+
+    Compressed (DIF/DUP) data hold a few points per character; allowing
+    :data:`POINTS_PER_CHAR` per character (at least :data:`MIN_POINT_LIMIT`)
+    bounds the memory a small hostile file can claim.
+    """
+    return max(MIN_POINT_LIMIT, POINTS_PER_CHAR * text_length)
+
+
+def _npoints(labels: dict[str, str], where: str, limit: int) -> int:
+    value = _float_label(labels, "NPOINTS", where)
+    if value != int(value) or value < 0:
+        raise FileFormatError(
+            f"{where}: ##NPOINTS={labels['NPOINTS'].strip()[:40]!r} is not a whole number",
+            "correct ##NPOINTS to the number of points",
+        )
+    if value > limit:
+        raise FileFormatError(
+            f"{where}: ##NPOINTS={int(value):,} is more than a file of this size can hold "
+            f"(limit {limit:,})",
+            "correct ##NPOINTS, or re-export the spectrum without compression",
+        )
+    return int(value)
 
 
 def _tokens(line: str, number: int, where: str) -> list[tuple[str, float]]:
@@ -190,11 +235,11 @@ def _tokens(line: str, number: int, where: str) -> list[tuple[str, float]]:
 
 
 def _decode_xydata(
-    data_lines: list[tuple[int, str]], labels: dict[str, str], where: str
+    data_lines: list[tuple[int, str]], labels: dict[str, str], where: str, limit: int
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     firstx = _float_label(labels, "FIRSTX", where)
     lastx = _float_label(labels, "LASTX", where)
-    npoints = int(_float_label(labels, "NPOINTS", where))
+    npoints = _npoints(labels, where, limit)
     xfactor = _float_label(labels, "XFACTOR", where, 1.0)
     yfactor = _float_label(labels, "YFACTOR", where, 1.0)
     if npoints < 2:
@@ -209,8 +254,9 @@ def _decode_xydata(
                 "correct ##FIRSTX, ##LASTX, ##NPOINTS or ##DELTAX",
             )
     x_tol = max(abs(deltax), abs(xfactor)) * (1 + 1e-9)
-    ys: list[float] = []
-    lines_of: list[int] = []
+    # Compact arrays (8 bytes a value) instead of lists of float objects (32).
+    ys = array("d")
+    lines_of = array("q")
     last: float | None = None
     ended_in_dif = False
     prev_number = 0
@@ -245,6 +291,13 @@ def _decode_xydata(
                         f"{where}: line {number}: a DUP count has nothing to repeat",
                         "the data are corrupted; re-export the file",
                     )
+                # Refuse before expanding: a DUP count can claim any number of points.
+                if len(ys) + len(line_ys) + val - 1 > npoints + 1:
+                    raise FileFormatError(
+                        f"{where}: line {number}: a DUP count of {val:.0f} makes more points "
+                        f"than ##NPOINTS={npoints}",
+                        "the compressed data are corrupted; re-export the file",
+                    )
                 for _ in range(int(val) - 1):
                     if mode == "dif":
                         cur = cur + delta
@@ -269,7 +322,7 @@ def _decode_xydata(
                 "re-export the file",
             )
         ys.extend(line_ys)
-        lines_of.extend([number] * len(line_ys))
+        lines_of.extend(repeat(number, len(line_ys)))
         if line_ys or toks[1:]:
             ended_in_dif = mode == "dif"
         last = cur
@@ -279,8 +332,10 @@ def _decode_xydata(
             f"{where}: decoded {len(ys)} points but ##NPOINTS={npoints}",
             "the file is truncated or its header is wrong; re-export the file",
         )
-    y = np.asarray(ys, dtype=np.float64) * yfactor
-    x = firstx + np.arange(npoints, dtype=np.float64) * deltax
+    # Factors may overflow a value to infinity: the readers refuse it, naming the point.
+    with np.errstate(over="ignore", invalid="ignore"):
+        y = np.frombuffer(ys, dtype=np.float64) * yfactor
+        x = firstx + np.arange(npoints, dtype=np.float64) * deltax
     if "FIRSTY" in labels and np.isfinite(y[0]):
         firsty = _float_label(labels, "FIRSTY", where)
         if abs(y[0] - firsty) > max(abs(yfactor), 1e-3 * abs(firsty)):
@@ -288,11 +343,16 @@ def _decode_xydata(
                 f"{where}: first ordinate {y[0]:g} disagrees with ##FIRSTY={firsty:g}",
                 "check ##YFACTOR and ##FIRSTY; re-export the file",
             )
-    return x, y, np.asarray(lines_of, dtype=np.int64)
+    return x, y, np.frombuffer(lines_of, dtype=np.int64).copy()
 
 
 def _decode_points(
-    data_lines: list[tuple[int, str]], nvars: int, labels: dict[str, str], where: str, what: str
+    data_lines: list[tuple[int, str]],
+    nvars: int,
+    labels: dict[str, str],
+    where: str,
+    what: str,
+    limit: int,
 ) -> tuple[np.ndarray, np.ndarray]:
     values: list[float] = []
     lines_of: list[int] = []
@@ -304,7 +364,7 @@ def _decode_points(
         rest = _POINT_NUMBER.sub("", s)
         if rest.strip(" ,;\t"):
             raise FileFormatError(
-                f"{where}: line {number} of {what} holds {s!r}, which is not numbers",
+                f"{where}: line {number} of {what} holds {s[:60]!r}, which is not numbers",
                 "the table is corrupted; re-export the file",
             )
         values.extend(np.nan if v == "?" else float(v) for v in found)
@@ -316,7 +376,7 @@ def _decode_points(
         )
     arr = np.asarray(values, dtype=np.float64).reshape(-1, nvars)
     if "NPOINTS" in labels:
-        n = int(_float_label(labels, "NPOINTS", where))
+        n = _npoints(labels, where, max(limit, arr.shape[0]))
         if n != arr.shape[0]:
             raise FileFormatError(
                 f"{where}: {what} has {arr.shape[0]} points but ##NPOINTS={n}",
@@ -394,7 +454,7 @@ def parse_jcamp(text: str, name: str) -> list[JcampBlock]:
         if label == "END":
             block = stack.pop()
             if block["tables"]:
-                done.append(_build_block(block, len(done), name))
+                done.append(_build_block(block, len(done), name, max_points(len(text))))
             continue
         if label in ("XYDATA", "XYPOINTS", "PEAKTABLE"):
             current_table = (label, value, number)
@@ -427,7 +487,7 @@ def parse_jcamp(text: str, name: str) -> list[JcampBlock]:
     return done
 
 
-def _build_block(block: dict, index: int, name: str) -> JcampBlock:
+def _build_block(block: dict, index: int, name: str, limit: int) -> JcampBlock:
     where = f"{name} block {index + 1} ({block['title']!r})"
     labels = block["labels"]
     label, varlist, line, lines = block["tables"][0]
@@ -441,7 +501,7 @@ def _build_block(block: dict, index: int, name: str) -> JcampBlock:
                 f"{where}: line {line}: ##XYDATA={varlist} is not supported",
                 "export as ##XYDATA=(X++(Y..Y))",
             )
-        x, y, point_lines = _decode_xydata(lines, labels, where)
+        x, y, point_lines = _decode_xydata(lines, labels, where, limit)
         kind = "xydata"
     else:
         forms = {"(XY..XY)": 2, "(XYW..XYW)": 3, "(XYM..XYM)": 3}
@@ -450,10 +510,11 @@ def _build_block(block: dict, index: int, name: str) -> JcampBlock:
                 f"{where}: line {line}: ##{label}={varlist} is not supported",
                 "use (XY..XY) or (XYW..XYW)",
             )
-        arr, point_lines = _decode_points(lines, forms[form], labels, where, f"##{label}")
-        x, y = arr[:, 0] * xfactor, arr[:, 1] * yfactor
-        if form == "(XYW..XYW)":
-            width = arr[:, 2] * xfactor
+        arr, point_lines = _decode_points(lines, forms[form], labels, where, f"##{label}", limit)
+        with np.errstate(over="ignore", invalid="ignore"):
+            x, y = arr[:, 0] * xfactor, arr[:, 1] * yfactor
+            if form == "(XYW..XYW)":
+                width = arr[:, 2] * xfactor
         kind = "xypoints" if label == "XYPOINTS" else "peaktable"
     return JcampBlock(
         index=index,

@@ -5,15 +5,17 @@ Every reader keeps the original bytes' SHA-256 and size in the result's
 (columns mapped, units, medium assumed, block chosen, order reversed). Bad
 input raises one error from :mod:`workbench.errors` naming the row or column
 and the fix; nothing is returned half-read.
+
+Delimited text is read by sniffing its head and parsing the bulk in one
+polars call (:mod:`workbench.io.fastcsv`); only when that refuses does the
+careful line parser run, to name the first bad row. Every number read must
+be finite and within ±:data:`MAX_ABS_VALUE`, so that later arithmetic
+(squares, sums) cannot overflow. The readers take an optional ``progress``
+callable ``progress(fraction, message)`` for the app's progress bar.
 """
 
 from __future__ import annotations
 
-import io
-import os
-import re
-from collections.abc import Callable
-from dataclasses import dataclass, field
 from typing import Literal
 
 import numpy as np
@@ -35,216 +37,32 @@ from workbench.io.columns import (
     medium_from_text,
     parse_header,
 )
-from workbench.io.delimited import Table, numeric_column, parse_delimited
-from workbench.io.jcamp import JcampBlock, jcamp_unit, looks_like_jcamp, parse_jcamp
-from workbench.io.source import DEFAULT_MAX_BYTES, RawInput, decode_text, load_source
-from workbench.physics.units import ENERGY_UNITS, WAVELENGTH_UNITS, normalise_unit
+from workbench.io.jcamp import JcampBlock, jcamp_unit
+from workbench.io.resolve import (
+    MAX_ABS_VALUE,
+    canonical_unit,
+    check_magnitude,
+    check_positions,
+    comment_media,
+    resolve_medium,
+    resolve_unit,
+    to_canonical,
+    width_to_canonical,
+)
+from workbench.io.source import DEFAULT_MAX_BYTES, RawInput
+from workbench.io.tabular import (
+    Columns,
+    Parsed,
+    Progress,
+    Source,
+    parse_source,
+    report_progress,
+)
+from workbench.physics.units import normalise_unit
 
-__all__ = ["read_any", "read_peak_list", "read_spectrum", "sniff"]
+__all__ = ["MAX_ABS_VALUE", "Progress", "read_any", "read_peak_list", "read_spectrum", "sniff"]
 
-Source = bytes | str | os.PathLike[str]
 _MIN_SPECTRUM_POINTS = 5
-_UNIT_COMMENT = re.compile(r"\b(?:x\s*)?units?\s*[:=]\s*([^\s,;]+)", re.IGNORECASE)
-
-
-# --------------------------------------------------------------------------- columns
-
-
-@dataclass
-class _Columns:
-    """Columns of any tabular input, with row labels for messages."""
-
-    name: str
-    headers: list[str] | None
-    n_rows: int
-    get: Callable[[int, str, bool], tuple[np.ndarray, np.ndarray, str | None]]
-    row_label: Callable[[int], str]
-    comments: list[str] = field(default_factory=list)
-    fmt: str = "delimited"
-    details: dict[str, object] = field(default_factory=dict)
-
-
-def _columns_from_table(table: Table) -> _Columns:
-    def get(index: int, label: str, allow_empty: bool):
-        return numeric_column(table, index, label, allow_empty=allow_empty)
-
-    details = {
-        "delimiter": table.delimiter_name,
-        "decimal_comma": table.decimal_comma,
-        "header_line": table.header_line,
-    }
-    return _Columns(
-        name=table.name,
-        headers=table.header,
-        n_rows=len(table.rows),
-        get=get,
-        row_label=lambda i: f"row {table.line_numbers[i]}",
-        comments=table.comments,
-        details=details,
-    )
-
-
-def _columns_from_parquet(data: bytes, name: str) -> _Columns:
-    try:
-        df = pl.read_parquet(io.BytesIO(data))
-    except Exception as exc:  # polars raises several types for corrupt files
-        raise FileFormatError(
-            f"{name} is not a readable Parquet file ({type(exc).__name__})",
-            "re-export the table as Parquet or CSV",
-        ) from None
-    if df.height == 0:
-        raise FileFormatError(f"{name} has columns but no rows", "give a table with data rows")
-    headers = list(df.columns)
-
-    def get(index: int, label: str, allow_empty: bool):
-        col = df.get_column(headers[index])
-        try:
-            series = col.cast(pl.Float64, strict=True)
-        except Exception:
-            raise FileFormatError(
-                f"{name}: column {label!r} is {col.dtype}, not numbers",
-                "store the column as floating-point numbers",
-            ) from None
-        empty = series.is_null().to_numpy()
-        values = series.fill_null(np.nan).to_numpy().astype(np.float64)
-        if empty.any() and not allow_empty:
-            i = int(np.argmax(empty))
-            raise ValueRangeError(
-                f"{name}: data row {i + 1}, column {label!r} is empty (null)",
-                "fill the value or drop the row",
-            )
-        bad = ~np.isfinite(values) & ~empty
-        if bad.any():
-            i = int(np.argmax(bad))
-            raise ValueRangeError(
-                f"{name}: data row {i + 1}, column {label!r} is {values[i]} (not a finite number)",
-                "remove the row or replace the value with a measured number",
-            )
-        return values, empty, None
-
-    return _Columns(
-        name=name,
-        headers=headers,
-        n_rows=df.height,
-        get=get,
-        row_label=lambda i: f"data row {i + 1}",
-        fmt="parquet",
-    )
-
-
-# --------------------------------------------------------------------------- unit and medium
-
-
-def _resolve_unit(
-    explicit: str | None,
-    header_unit: str | None,
-    cell_unit: str | None,
-    comments: list[str],
-    where: str,
-    notes: list[str],
-) -> str:
-    if explicit is not None:
-        unit = normalise_unit(explicit)
-        stated = header_unit or cell_unit
-        if stated is not None and _canon(stated) not in (None, unit):
-            notes.append(f"unit {unit} given explicitly overrides {stated!r} stated in the file")
-        return unit
-    for stated in (header_unit, cell_unit):
-        if stated is not None:
-            return normalise_unit(stated)
-    for c in comments:
-        m = _UNIT_COMMENT.search(c)
-        if m:
-            unit = normalise_unit(m.group(1).strip("()[]"))
-            notes.append(f"unit {unit} taken from comment line {c!r}")
-            return unit
-    raise UnitError(
-        f"{where}: the unit of the positions is not stated",
-        "put it in the header, e.g. 'wavelength (nm)' or 'energy (keV)', or pass --unit",
-    )
-
-
-def _canon(unit: str) -> str | None:
-    try:
-        return normalise_unit(unit)
-    except UnitError:
-        return None
-
-
-def _resolve_medium(
-    axis: str,
-    unit: str,
-    explicit: str | None,
-    stated: list[tuple[str | None, str]],
-    where: str,
-    notes: list[str],
-) -> str | None:
-    if explicit is not None and explicit not in ("air", "vacuum"):
-        raise ValueRangeError(f"unknown medium {explicit!r}", "use 'air' or 'vacuum'")
-    if axis == "energy":
-        if explicit is not None:
-            notes.append(f"medium {explicit!r} ignored: an energy axis has no medium")
-        return None
-    found = [(m, src) for m, src in stated if m is not None]
-    for m, src in found:
-        if m == "ambiguous":
-            raise UnitError(
-                f"{where}: {src} names both air and vacuum",
-                "state one medium, or pass --medium air|vacuum",
-            )
-    if unit == "cm-1":
-        if explicit == "air" or any(m == "air" for m, _ in found):
-            raise UnitError(
-                f"{where}: wavenumbers (cm-1) are vacuum quantities but the medium says air",
-                "drop the air medium; wavenumbers convert to vacuum wavelengths",
-            )
-        notes.append("wavenumbers converted to vacuum wavelengths")
-        return "vacuum"
-    if explicit is not None:
-        if found and found[0][0] != explicit:
-            notes.append(f"medium {explicit} given explicitly overrides {found[0][1]}")
-        return explicit
-    media = {m for m, _ in found}
-    if len(media) > 1:
-        raise UnitError(
-            f"{where}: the file states both air and vacuum ({', '.join(s for _, s in found)})",
-            "correct the file, or pass --medium air|vacuum",
-        )
-    if found:
-        notes.append(f"medium {found[0][0]} from {found[0][1]}")
-        return found[0][0]
-    notes.append("medium not stated; assumed air")
-    return "air"
-
-
-def _comment_media(comments: list[str] | tuple[str, ...]) -> list[tuple[str | None, str]]:
-    return [(medium_from_text(c), f"comment {c!r}") for c in comments if medium_from_text(c)]
-
-
-def _to_canonical(values: np.ndarray, unit: str) -> np.ndarray:
-    from workbench.physics.units import energy_to_eV, wavelength_to_nm
-
-    return energy_to_eV(values, unit) if unit in ENERGY_UNITS else wavelength_to_nm(values, unit)
-
-
-def _width_to_canonical(width: np.ndarray, unit: str, positions_in_unit: np.ndarray) -> np.ndarray:
-    if unit in ENERGY_UNITS:
-        return width * ENERGY_UNITS[unit]
-    if unit == "cm-1":
-        # dλ = 1e7 / ν̃² dν̃ (nm per cm-1): a width in wavenumbers at its line.
-        return width * 1e7 / positions_in_unit**2
-    return width * WAVELENGTH_UNITS[unit]
-
-
-def _check_positions(values: np.ndarray, label: str, row_label, where: str) -> None:
-    bad = values <= 0
-    if bad.any():
-        i = int(np.argmax(bad))
-        raise ValueRangeError(
-            f"{where}: {row_label(i)}, column {label!r} is {values[i]:g}; positions must be "
-            "positive",
-            f"remove {row_label(i)} or correct its value",
-        )
 
 
 # --------------------------------------------------------------------------- peak lists
@@ -262,7 +80,7 @@ def _source(raw: RawInput, kind: str, fmt: str, notes: list[str]) -> InputSource
 
 
 def _peak_list_from_columns(
-    cols: _Columns,
+    cols: Columns,
     raw: RawInput,
     *,
     unit: str | None,
@@ -290,14 +108,14 @@ def _peak_list_from_columns(
     pos = mapping["position"]
     pos_label = headers[pos.index]
     values, _, cell_unit = cols.get(pos.index, pos_label, False)
-    u = _resolve_unit(unit, pos.header.unit, cell_unit, cols.comments, cols.name, notes)
+    u = resolve_unit(unit, pos.header.unit, cell_unit, cols.comments, cols.name, notes)
     axis = axis_for(u, pos.header.name)
-    stated = [(pos.header.medium, f"header {pos_label!r}"), *_comment_media(cols.comments)]
-    med = _resolve_medium(axis, u, medium, stated, cols.name, notes)
-    _check_positions(values, pos_label, cols.row_label, cols.name)
+    stated = [(pos.header.medium, f"header {pos_label!r}"), *comment_media(cols.comments)]
+    med = resolve_medium(axis, u, medium, stated, cols.name, notes)
+    check_positions(values, pos_label, cols.row_label, cols.name)
     if check_units:
         check_unit_plausibility(values, u, f"{cols.name} column {pos_label!r}")
-    canonical = _to_canonical(values, u)
+    canonical = to_canonical(values, u)
     data: dict[str, object] = {AXIS_COLUMN[axis]: canonical}
     extra_map: dict[str, object] = {
         pos_label: {"role": "position", "score": pos.score, "unit": u},
@@ -309,9 +127,10 @@ def _peak_list_from_columns(
             continue
         label = headers[choice.index]
         vals, empty, _ = cols.get(choice.index, label, True)
+        check_magnitude(vals, label, cols.row_label, cols.name)
         role_unit = None
         if role == "fwhm":
-            role_unit = _canon(choice.header.unit) if choice.header.unit else u
+            role_unit = canonical_unit(choice.header.unit) if choice.header.unit else u
             if role_unit is None or axis_for(role_unit) != axis:
                 raise UnitError(
                     f"{cols.name}: column {label!r} has unit {choice.header.unit!r}, which is "
@@ -320,7 +139,7 @@ def _peak_list_from_columns(
                 )
             _check_widths(vals, empty, label, cols)
             with np.errstate(invalid="ignore"):
-                vals = _width_to_canonical(vals, role_unit, values)
+                vals = width_to_canonical(vals, role_unit, values)
             col_name = FWHM_COLUMN[axis]
         else:
             col_name = role
@@ -348,11 +167,11 @@ def _peak_list_from_columns(
     )
 
 
-def _n_columns(cols: _Columns) -> int:
+def _n_columns(cols: Columns) -> int:
     return int(cols.details.get("n_columns", 2))
 
 
-def _check_widths(vals: np.ndarray, empty: np.ndarray, label: str, cols: _Columns) -> None:
+def _check_widths(vals: np.ndarray, empty: np.ndarray, label: str, cols: Columns) -> None:
     bad = (vals <= 0) & ~empty
     if bad.any():
         i = int(np.argmax(bad))
@@ -395,10 +214,11 @@ def _spectrum_from_xy(
                 f"{where}: {row_label(i)}, {label} is {arr[i]} (not a finite number)",
                 f"remove {row_label(i)} or replace the value",
             )
-    _check_positions(x, x_label, row_label, where)
+    check_magnitude(y, y_label, row_label, where)
+    check_positions(x, x_label, row_label, where)
     if check_units:
         check_unit_plausibility(x, u, f"{where} {x_label}")
-    xc = _to_canonical(x, u)
+    xc = to_canonical(x, u)
     d = np.diff(xc)
     if not np.all(d > 0):
         if np.all(d < 0):
@@ -430,7 +250,7 @@ def _spectrum_from_xy(
 
 
 def _spectrum_from_columns(
-    cols: _Columns,
+    cols: Columns,
     raw: RawInput,
     *,
     unit: str | None,
@@ -472,10 +292,10 @@ def _spectrum_from_columns(
             notes.append("no header row: column 1 read as x, column 2 as y")
     x, _, cell_unit = cols.get(xi, x_label, False)
     y, _, _ = cols.get(yi, y_label, False)
-    u = _resolve_unit(unit, header_unit, cell_unit, cols.comments, cols.name, notes)
+    u = resolve_unit(unit, header_unit, cell_unit, cols.comments, cols.name, notes)
     axis = axis_for(u, name)
-    stated = [(header_medium, f"header {x_label!r}"), *_comment_media(cols.comments)]
-    med = _resolve_medium(axis, u, medium, stated, cols.name, notes)
+    stated = [(header_medium, f"header {x_label!r}"), *comment_media(cols.comments)]
+    med = resolve_medium(axis, u, medium, stated, cols.name, notes)
     notes.append(f"x from {x_label!r} (unit {u}), y from {y_label!r}")
     return _spectrum_from_xy(
         x,
@@ -538,8 +358,8 @@ def _jcamp_context(b: JcampBlock, unit: str | None, medium: str | None, name: st
     stated: list[tuple[str | None, str]] = [
         (medium_from_text(v), f"##{k}={v}") for k, v in b.labels.items() if "MEDIUM" in k
     ]
-    stated += _comment_media(b.comments)
-    med = _resolve_medium(axis, u, medium, stated, name, notes)
+    stated += comment_media(b.comments)
+    med = resolve_medium(axis, u, medium, stated, name, notes)
     return where, u, axis, med
 
 
@@ -589,12 +409,24 @@ def _jcamp_peak_list(b, raw, unit, medium, mode, check_units, notes) -> PeakList
         if bad.any():
             i = int(np.argmax(bad))
             raise ValueRangeError(f"{where}: {row_label(i)}, {label} is missing", "fix the table")
-    _check_positions(b.x, "x", row_label, where)
+    check_positions(b.x, "x", row_label, where)
+    check_magnitude(b.y, "y", row_label, where)
+    if b.width is not None:
+        # The same rule as a width column in a table: finite and positive, or absent.
+        wbad = ~(np.isfinite(b.width) & (b.width > 0)) & ~np.isnan(b.width)
+        if wbad.any():
+            i = int(np.argmax(wbad))
+            raise ValueRangeError(
+                f"{where}: {row_label(i)}, width is {b.width[i]:g}; a width must be a "
+                "positive finite number",
+                f"correct {row_label(i)} or give '?' for an unknown width",
+            )
+        check_magnitude(b.width, "width", row_label, where)
     if check_units:
         check_unit_plausibility(b.x, u, f"{where} peak table")
-    data: dict[str, object] = {AXIS_COLUMN[axis]: _to_canonical(b.x, u), "intensity": b.y}
+    data: dict[str, object] = {AXIS_COLUMN[axis]: to_canonical(b.x, u), "intensity": b.y}
     if b.width is not None:
-        data[FWHM_COLUMN[axis]] = _width_to_canonical(b.width, u, b.x)
+        data[FWHM_COLUMN[axis]] = width_to_canonical(b.width, u, b.x)
     table = pl.DataFrame(data).sort(AXIS_COLUMN[axis])
     notes.append(f"peak table: {b.x.size} peaks (unit {u})")
     return PeakList(
@@ -610,30 +442,7 @@ def _jcamp_peak_list(b, raw, unit, medium, mode, check_units, notes) -> PeakList
 # --------------------------------------------------------------------------- detection
 
 
-@dataclass
-class _Parsed:
-    raw: RawInput
-    fmt: str
-    encoding: str | None = None
-    cols: _Columns | None = None
-    blocks: list[JcampBlock] | None = None
-    table: Table | None = None
-
-
-def _parse(source: Source, name: str | None, max_bytes: int) -> _Parsed:
-    raw = load_source(source, name=name, max_bytes=max_bytes)
-    if raw.data[:4] == b"PAR1":
-        return _Parsed(raw, "parquet", cols=_columns_from_parquet(raw.data, raw.name))
-    text, encoding = decode_text(raw.data, raw.name)
-    if looks_like_jcamp(text):
-        return _Parsed(raw, "jcamp-dx", encoding, blocks=parse_jcamp(text, raw.name))
-    table = parse_delimited(text, raw.name)
-    cols = _columns_from_table(table)
-    cols.details["n_columns"] = table.n_columns
-    return _Parsed(raw, "delimited", encoding, cols=cols, table=table)
-
-
-def _guess_kind(parsed: _Parsed, block: int | str | None) -> tuple[str, str]:
+def _guess_kind(parsed: Parsed, block: int | str | None) -> tuple[str, str]:
     if parsed.blocks is not None:
         b = _pick_block(parsed.blocks, block, parsed.raw.name, [])
         if b.kind == "peaktable":
@@ -671,7 +480,7 @@ def _guess_kind(parsed: _Parsed, block: int | str | None) -> tuple[str, str]:
     return "peak_list", "positions are irregularly spaced"
 
 
-def _build(parsed: _Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
+def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
     notes: list[str] = []
     if parsed.encoding not in (None, "utf-8"):
         notes.append(f"decoded as {parsed.encoding}")
@@ -680,6 +489,13 @@ def _build(parsed: _Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
         notes.append(
             f"delimiter: {t.delimiter_name}" + ("; decimal comma" if t.decimal_comma else "")
         )
+        if t.inner_comments:
+            shown = ", ".join(str(n) for n in t.inner_comments[:10])
+            more = f" and {len(t.inner_comments) - 10} more" if len(t.inner_comments) > 10 else ""
+            notes.append(
+                f"{len(t.inner_comments)} comment line(s) among the data rows skipped "
+                f"(line {shown}{more})"
+            )
     unit, medium, check = kw.get("unit"), kw.get("medium"), kw.get("check_units", True)
     if parsed.blocks is not None:
         b = _pick_block(parsed.blocks, kw.get("block"), parsed.raw.name, notes)
@@ -726,6 +542,7 @@ def read_peak_list(
     block: int | str | None = None,
     check_units: bool = True,
     max_bytes: int = DEFAULT_MAX_BYTES,
+    progress: Progress | None = None,
 ) -> PeakList:
     """Read a peak list (delimited text, pasted cells, Parquet or a JCAMP-DX peak table).
 
@@ -751,6 +568,8 @@ def read_peak_list(
         Refuse positions that look implausible in their stated unit.
     max_bytes : int
         Refuse larger inputs before reading them.
+    progress : callable, optional
+        ``progress(fraction, message)``, called as reading advances (last with 1.0).
 
     Returns
     -------
@@ -763,7 +582,7 @@ def read_peak_list(
     InputError
         One of its subclasses, naming the row or column and the fix.
     """
-    parsed = _parse(source, name, max_bytes)
+    parsed = parse_source(source, name, max_bytes, progress)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -774,6 +593,7 @@ def read_peak_list(
     }
     result = _build(parsed, "peak_list", kw)
     assert isinstance(result, PeakList)
+    report_progress(progress, 1.0, f"read {result.table.height:,} peaks")
     return result
 
 
@@ -787,6 +607,7 @@ def read_spectrum(
     columns: dict[str, str] | None = None,
     check_units: bool = True,
     max_bytes: int = DEFAULT_MAX_BYTES,
+    progress: Progress | None = None,
 ) -> Spectrum:
     """Read a sampled spectrum (two-column text, JCAMP-DX or Parquet).
 
@@ -809,6 +630,8 @@ def read_spectrum(
         Refuse x values that look implausible in their stated unit.
     max_bytes : int
         Refuse larger inputs before reading them.
+    progress : callable, optional
+        ``progress(fraction, message)``, called as reading advances (last with 1.0).
 
     Returns
     -------
@@ -820,7 +643,7 @@ def read_spectrum(
     InputError
         One of its subclasses, naming the row or column and the fix.
     """
-    parsed = _parse(source, name, max_bytes)
+    parsed = parse_source(source, name, max_bytes, progress)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -830,6 +653,7 @@ def read_spectrum(
     }
     result = _build(parsed, "spectrum", kw)
     assert isinstance(result, Spectrum)
+    report_progress(progress, 1.0, f"read {result.x.size:,} points")
     return result
 
 
@@ -845,6 +669,7 @@ def read_any(
     columns: dict[str, str] | None = None,
     check_units: bool = True,
     max_bytes: int = DEFAULT_MAX_BYTES,
+    progress: Progress | None = None,
 ) -> PeakList | Spectrum:
     """Read a peak list or a spectrum, deciding which from the content.
 
@@ -861,7 +686,7 @@ def read_any(
         A path, the file's bytes, or pasted text.
     kind : {"peak_list", "spectrum"}, optional
         Force the kind instead of detecting it.
-    name, unit, medium, mode, block, columns, check_units, max_bytes
+    name, unit, medium, mode, block, columns, check_units, max_bytes, progress
         As for :func:`read_peak_list` and :func:`read_spectrum`.
 
     Returns
@@ -871,7 +696,7 @@ def read_any(
     """
     if kind not in (None, "peak_list", "spectrum"):
         raise ValueRangeError(f"unknown kind {kind!r}", "use 'peak_list' or 'spectrum'")
-    parsed = _parse(source, name, max_bytes)
+    parsed = parse_source(source, name, max_bytes, progress)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -882,7 +707,9 @@ def read_any(
     }
     if kind is None:
         kind, _ = _guess_kind(parsed, block)  # type: ignore[assignment]
-    return _build(parsed, kind, kw)  # type: ignore[arg-type]
+    result = _build(parsed, kind, kw)  # type: ignore[arg-type]
+    report_progress(progress, 1.0, "done")
+    return result
 
 
 def sniff(
@@ -907,7 +734,7 @@ def sniff(
         ``delimiter``, ``decimal_comma`` and ``mapping`` (header → role and
         score); for JCAMP-DX the list of ``blocks``.
     """
-    parsed = _parse(source, name, max_bytes)
+    parsed = parse_source(source, name, max_bytes)
     kind, reason = _guess_kind(parsed, None)
     out: dict[str, object] = {
         "name": parsed.raw.name,

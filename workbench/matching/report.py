@@ -22,12 +22,11 @@ give byte-identical output.
 
 from __future__ import annotations
 
-import json
-import math
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from workbench import canonjson
 from workbench.matching.scoring import VERDICTS
 
 if TYPE_CHECKING:
@@ -40,37 +39,16 @@ _MAX_CANDIDATES = 8
 
 
 def canonical(obj: Any) -> Any:
-    """Convert to plain JSON types with reproducible floats (10 significant digits)."""
-    if isinstance(obj, dict):
-        return {str(k): canonical(v) for k, v in obj.items()}
-    if isinstance(obj, list | tuple):
-        return [canonical(v) for v in obj]
-    if isinstance(obj, np.ndarray):
-        return [canonical(v) for v in obj.tolist()]
-    if isinstance(obj, bool | np.bool_):
-        return bool(obj)
-    if isinstance(obj, int | np.integer):
-        return int(obj)
-    if isinstance(obj, float | np.floating):
-        v = float(obj)
-        if not math.isfinite(v):
-            return None
-        return float(f"{v:.10g}")
-    return obj
+    """Convert to plain JSON types with reproducible floats (10 significant digits).
+
+    The number rule is :mod:`workbench.canonjson`'s (one rule for every result).
+    """
+    return canonjson.normalise(obj)
 
 
 def result_json(report: dict[str, Any], indent: int | None = None) -> bytes:
-    """Canonical JSON bytes of a report."""
-    seps = (",", ":") if indent is None else (",", ": ")
-    text = json.dumps(
-        canonical(report),
-        sort_keys=True,
-        separators=seps,
-        ensure_ascii=False,
-        allow_nan=False,
-        indent=indent,
-    )
-    return text.encode("utf-8")
+    """Canonical JSON bytes of a report (:func:`workbench.canonjson.dumps`)."""
+    return canonjson.dumps(report, indent=indent)
 
 
 def _num(v: float) -> float | None:

@@ -147,10 +147,24 @@ def snip_baseline(
     else:
         v = arr.copy()
     windows = range(m, 0, -1) if decreasing else range(1, m + 1)
+    buf = np.empty(n)  # one scratch array for every window (no allocation per pass)
     for p in windows:
-        mid = 0.5 * (v[: -2 * p] + v[2 * p :])
+        mid = buf[: n - 2 * p]
+        np.add(v[: -2 * p], v[2 * p :], out=mid)
+        mid *= 0.5
         np.minimum(v[p:-p], mid, out=v[p:-p])
     return _lls_inverse(v) + offset if lls else v
+
+
+def _boxcar5(y: np.ndarray) -> np.ndarray:
+    """Five-point moving mean, ends padded with the end values.
+
+    What ``scipy.ndimage.uniform_filter1d(y, 5, mode="nearest")`` computes,
+    summed directly (no running sum), without importing scipy.ndimage.
+    """
+    p = np.pad(y, 2, mode="edge")
+    n = y.size
+    return (p[0:n] + p[1 : n + 1] + p[2 : n + 2] + p[3 : n + 3] + p[4 : n + 4]) / 5.0
 
 
 def estimate_baseline(
@@ -191,9 +205,7 @@ def estimate_baseline(
     if method == "snip":
         # Clipping follows the lower envelope of the noise; a short boxcar first
         # makes that envelope (and so the baseline) far less ragged.
-        from scipy.ndimage import uniform_filter1d
-
-        smooth = uniform_filter1d(np.asarray(y, dtype=np.float64), size=5, mode="nearest")
+        smooth = _boxcar5(np.asarray(y, dtype=np.float64))
         base = snip_baseline(smooth, iterations=snip_iterations, lls=snip_lls)
     elif method == "als":
         base = als_baseline(y, lam=als_lam, p=als_p, n_iter=als_n_iter)
@@ -207,5 +219,8 @@ def estimate_baseline(
         quiet = np.abs(resid - shift) <= 3.0 * s if s > 0 else np.ones(y.size, dtype=bool)
         if np.count_nonzero(quiet) < 10:
             break
-        shift = float(np.median(resid[quiet]))
+        new_shift = float(np.median(resid[quiet]))
+        if new_shift == shift:  # a fixed point: further rounds would repeat it exactly
+            break
+        shift = new_shift
     return base + shift

@@ -9,14 +9,17 @@ Pipeline (all vectorised over the spectrum and over the peaks):
    positive), so their intensity is a fraction of the continuum and their
    area an equivalent width.
 2. Noise σ by the robust first-difference MAD (:mod:`workbench.peaks.noise`).
-3. :func:`scipy.signal.find_peaks` with height ≥ k·σ *and* prominence ≥ k·σ
-   (k = ``min_snr``). Prominence alone would accept the largest noise
-   excursions, whose prominence over a long stretch of noise exceeds 5σ.
+3. Local maxima with height ≥ k·σ *and* prominence ≥ k·σ (k = ``min_snr``),
+   by :mod:`workbench.peaks.extrema` (the definitions of
+   :func:`scipy.signal.find_peaks`, without importing ``scipy.signal``).
+   Prominence alone would accept the largest noise excursions, whose
+   prominence over a long stretch of noise exceeds 5σ.
 4. Sub-pixel centre by the three-point Gaussian (log-parabola) interpolation
    of Caruana et al. (1986): δ = ½(ln a − ln c)/(ln a − 2 ln b + ln c); a
    plain parabola on (a, b, c) when any of them is ≤ 0.
-5. FWHM from interpolated half-maximum crossings (:func:`scipy.signal.peak_widths`
-   at half the interpolated height), area as the integral of the
+5. FWHM from interpolated half-maximum crossings
+   (:func:`~workbench.peaks.extrema.half_height_crossings` at half the
+   interpolated height, bounded by the peak's bases), area as the integral of the
    baseline-subtracted signal over centre ± FWHM, SNR = height / σ, and a
    saturation flag (top flat at the spectrum's maximum for ≥ 2 points, or
    reaching ``saturation_level``).
@@ -32,6 +35,7 @@ import polars as pl
 from workbench.datamodel import AXIS_COLUMN, FWHM_COLUMN, PeakList, Spectrum
 from workbench.errors import InsufficientDataError, ValueRangeError
 from workbench.peaks.baseline import estimate_baseline
+from workbench.peaks.extrema import half_height_crossings, select_peaks
 from workbench.peaks.noise import noise_sigma
 
 __all__ = ["PeakFindingParameters", "find_peaks", "refine_centres"]
@@ -177,9 +181,6 @@ def find_peaks(
     InsufficientDataError
         If the spectrum has fewer than 5 points.
     """
-    from scipy.signal import find_peaks as scipy_find_peaks
-    from scipy.signal import peak_widths
-
     if parameters is None:
         parameters = PeakFindingParameters(
             mode=mode,
@@ -243,7 +244,8 @@ def find_peaks(
     else:
         threshold = prm.min_snr * sigma
         wlen = prm.prominence_window_px | 1
-        idx, props = scipy_find_peaks(s, height=threshold, prominence=threshold, wlen=wlen)
+        props = select_peaks(s, threshold, threshold, wlen)
+        idx = props["peaks"]
     if idx.size == 0:
         table = pl.DataFrame(
             {
@@ -260,14 +262,11 @@ def find_peaks(
     fidx, height = refine_centres(s_measure, idx)
     grid = np.arange(n, dtype=np.float64)
     centre = np.interp(fidx, grid, x)
-    # peak_widths measures at s[peak] − rel_height·prominence; choosing the
-    # "prominence" 2·s[peak] − h puts the line at h/2, the interpolated half maximum.
+    # Widths at h/2, the interpolated half maximum (the level scipy's peak_widths
+    # would use with rel_height 0.5 and "prominence" max(2·s[peak] − h, 1e-300)).
     prom = np.maximum(2.0 * s_measure[idx] - height, 1e-300)
-    _, _, left_ips, right_ips = peak_widths(
-        s_measure,
-        idx,
-        rel_height=0.5,
-        prominence_data=(prom, props["left_bases"], props["right_bases"]),
+    left_ips, right_ips = half_height_crossings(
+        s_measure, idx, s_measure[idx] - 0.5 * prom, props["left_bases"], props["right_bases"]
     )
     x_left = np.interp(left_ips, grid, x)
     x_right = np.interp(right_ips, grid, x)
@@ -277,13 +276,17 @@ def find_peaks(
         centre = _plateau_centres(y, x, idx, left_ips, right_ips, saturated, centre, prm)
     cum = np.concatenate(([0.0], np.cumsum(0.5 * (s_measure[1:] + s_measure[:-1]) * np.diff(x))))
     area = np.interp(centre + fwhm, x, cum) - np.interp(centre - fwhm, x, cum)
+    # A σ at the floating-point floor (subnormal) makes height/σ overflow: such
+    # an SNR is "as large as a double can say", not infinity.
+    with np.errstate(over="ignore"):
+        snr = np.minimum(height_detect / sigma, np.finfo(np.float64).max)
     table = pl.DataFrame(
         {
             pos_col: centre,
             "intensity": height,
             fwhm_col: fwhm,
             "area": area,
-            "snr": height_detect / sigma,
+            "snr": snr,
             "saturated": saturated,
         }
     )

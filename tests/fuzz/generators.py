@@ -1,0 +1,290 @@
+"""Seeded generators of hostile reader inputs (delimited text, JCAMP-DX, Parquet).
+
+Plain functions of a ``numpy.random.Generator``, so the same seed gives the
+same inputs on every machine, and the harness can be run against any commit
+of the readers (``run_case`` takes the reader as an argument).
+"""
+
+from __future__ import annotations
+
+import io
+import time
+import traceback
+import tracemalloc
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+
+__all__ = [
+    "HOSTILE_CELLS",
+    "Outcome",
+    "delimited_case",
+    "jcamp_case",
+    "mutate",
+    "parquet_case",
+    "run_case",
+]
+
+# Cells a spreadsheet, an instrument or an attacker might write (common practice, no source).
+HOSTILE_CELLS: tuple[str, ...] = (
+    "",
+    " ",
+    "nan",
+    "NaN",
+    "inf",
+    "-inf",
+    "Infinity",
+    "1e400",
+    "-1e400",
+    "1e300",
+    "-1e300",
+    "1.7976931348623157e308",
+    "5e-324",
+    "-0",
+    "0",
+    "abc",
+    "#VALUE!",
+    "#N/A",
+    "#DIV/0!",
+    "%",
+    "12,5",
+    "1.2.3",
+    "0x1F",
+    "1_000",
+    '"',
+    '""',
+    "656.3 nm",
+    "656.3 Å",
+    "656.3nm",
+    "٣٤",
+    "１２",
+    "∞",
+    "1e",
+    "e5",
+    "+",
+    "-",
+    ".",
+    "1" + " " * 2000 + "1",
+    "(" * 500,
+    "\x00",
+    "\t",
+)
+_HEADERS: tuple[str, ...] = (
+    "wavelength (nm)",
+    "Wavelength [A]",
+    "λ/Å",
+    "energy (keV)",
+    "Energy/eV",
+    "wavenumber cm-1",
+    "wl_nm",
+    "x",
+    "channel",
+    "intensity",
+    "counts",
+    "Intensität",
+    "fwhm (nm)",
+    "area",
+    "S/N",
+    "snr",
+    "",
+    "((((",
+    "wavelength (air, nm)",
+    "wavelength (vac) (nm)",
+    "wavelength in in in",
+    "#",
+    "a,b",
+    "position (pm)",
+)
+_DELIMS = (",", ";", "\t", " ", "  ", "|")
+
+
+def _number(rng: np.random.Generator) -> str:
+    v = float(rng.choice([rng.uniform(100, 1000), rng.normal(0, 1e3), rng.uniform(1, 40)]))
+    fmt = rng.choice(["{:.4f}", "{:g}", "{:.3e}", "{:.0f}"])
+    return str(fmt).format(v)
+
+
+def delimited_case(rng: np.random.Generator) -> bytes:
+    """A delimited table, mostly well formed, with a few hostile twists."""
+    hostile = rng.random() < 0.4  # else a well-formed table (both must be handled)
+    n_cols = int(rng.choice([1, 2, 3, 4] if hostile else [2, 2, 3, 4]))
+    delim = str(rng.choice(_DELIMS if hostile else _DELIMS[:4]))
+    lines: list[str] = []
+    if rng.random() < 0.3:
+        lines.append(str(rng.choice(["# medium: air", "% vacuum", "; unit: nm", "# x units: nm"])))
+    if rng.random() < 0.8:
+        if hostile:
+            lines.append(delim.join(str(rng.choice(_HEADERS)) for _ in range(n_cols)))
+        else:
+            good = ["wavelength (nm)", "intensity", "fwhm (nm)", "snr"][:n_cols]
+            lines.append(delim.join(good if delim.strip() else [g.replace(" ", "_") for g in good]))
+    n_rows = int(rng.choice([0, 1, 3, 20, 60, 300] if hostile else [3, 20, 60, 300]))
+    spectrum = rng.random() < 0.5
+    x0 = float(rng.uniform(300, 700))
+    step = float(rng.choice([0.01, 0.1, -0.1, 0.0] if hostile else [0.01, 0.1, -0.1]))
+    for i in range(n_rows):
+        position = _number(rng) if hostile else f"{rng.uniform(200, 900):.4f}"
+        cells = [f"{x0 + i * step:.4f}" if spectrum else position]
+        cells += [_number(rng) for _ in range(n_cols - 1)]
+        if hostile and rng.random() < 0.03:
+            cells[int(rng.integers(0, len(cells)))] = str(rng.choice(HOSTILE_CELLS))
+        if hostile and rng.random() < 0.0005:  # issue 11 item 9: over csv's 131,072 limit
+            cells[-1] = '"' + "7" * 140_000 + '"'
+
+        if hostile and rng.random() < 0.01:
+            cells.append("9")  # ragged
+        lines.append(delim.join(cells))
+        if hostile and rng.random() < 0.01:
+            lines.append(str(rng.choice(["", "   ", "#VALUE!,1", "% skipped", "#"])))
+    text = str(rng.choice(["\n", "\r\n", "\r"] if hostile else ["\n", "\r\n"])).join(lines)
+    text += "\n"
+    encoding = str(rng.choice(["utf-8", "utf-8", "utf-8", "utf-8-sig", "latin-1", "utf-16"]))
+    return text.encode(encoding, errors="replace")
+
+
+_ASDF = "0123456789.+- @ABCDEFGHIabcdefghi%JKLMNOPQRjklmnopqrSTUVWXYZs?,;"
+
+
+def jcamp_case(rng: np.random.Generator) -> bytes:
+    """A JCAMP-DX file: XYDATA (ASDF), XYPOINTS or a PEAK TABLE, with hostile labels."""
+    kind = str(rng.choice(["xydata", "xypoints", "peaktable"]))
+    hostile = rng.random() < 0.4
+    units = ["NANOMETERS", "1/CM", "EV", "HZ", ""] if hostile else ["NANOMETERS"]
+    npoints = int(rng.choice([2, 5, 20, 100] if hostile else [5, 20, 100]))
+    first, last = float(rng.uniform(300, 500)), float(rng.uniform(500, 900))
+
+    def value(v: float) -> str:
+        return str(rng.choice(HOSTILE_CELLS)) if hostile and rng.random() < 0.1 else f"{v:g}"
+
+    out = [
+        "##TITLE=fuzz",
+        "##JCAMP-DX=5.01",
+        f"##XUNITS={rng.choice(units)}",
+    ]
+    out.append("##YUNITS=COUNTS")
+    npoints_text = value(npoints)
+    if hostile and rng.random() < 0.1:  # issue 11 item 9: a non-number or overflowing count
+        npoints_text = str(rng.choice(["nan", "1e400", "-3", "2.5", "inf"]))
+    out += [f"##FIRSTX={value(first)}", f"##LASTX={value(last)}", f"##NPOINTS={npoints_text}"]
+    out += [f"##XFACTOR={value(1.0)}", f"##YFACTOR={value(1.0)}"]
+    if kind == "xydata":
+        out.append("##XYDATA=(X++(Y..Y))")
+        ys = np.round(rng.normal(100, 20, npoints)).astype(int)
+        per = 10
+        step = (last - first) / max(npoints - 1, 1)
+        for a in range(0, npoints, per):
+            if hostile and rng.random() < 0.01:  # issue 11 item 10: a DUP count bomb
+                out.append(f"{first + a * step:g} 1Z{rng.integers(10**6, 10**7)}")
+            elif hostile and rng.random() < 0.2:  # an ASDF-like line of random tokens
+                toks = "".join(rng.choice(list(_ASDF), size=int(rng.integers(1, 30))))
+                out.append(f"{first + a * step:g} {toks}")
+            else:
+                out.append(f"{first + a * step:g} " + " ".join(str(v) for v in ys[a : a + per]))
+    else:
+        form = str(rng.choice(["(XY..XY)", "(XYW..XYW)"]))
+        out.append(f"##{'XYPOINTS' if kind == 'xypoints' else 'PEAK TABLE'}={form}")
+        nv = 3 if "W" in form else 2
+        for i in range(npoints):
+            vals = [first + i, float(rng.uniform(1, 100)), float(rng.uniform(0.01, 1))][:nv]
+            out.append(" ".join(value(v) for v in vals))
+    if not hostile or rng.random() < 0.8:
+        out.append("##END=")
+    return ("\n".join(out) + "\n").encode()
+
+
+def parquet_case(rng: np.random.Generator) -> bytes:
+    """A small Parquet table with a numeric or non-numeric intensity column."""
+    import polars as pl
+
+    n = int(rng.choice([0, 3, 60]))
+    pos = np.sort(rng.uniform(300, 800, n))
+    kinds = {
+        "float": lambda: pl.Series("intensity", rng.uniform(0, 100, n)),
+        "int": lambda: pl.Series("intensity", rng.integers(0, 100, n)),
+        "bool": lambda: pl.Series("intensity", rng.random(n) < 0.5),
+        "str": lambda: pl.Series("intensity", [str(v) for v in range(n)]),
+        "null": lambda: pl.Series("intensity", [None] * n, dtype=pl.Float64),
+        "nan": lambda: pl.Series("intensity", np.full(n, np.nan)),
+        "list": lambda: pl.Series("intensity", [[float(v)] for v in range(n)]),
+        "huge": lambda: pl.Series("intensity", np.full(n, 1e308)),
+    }
+    kind = str(rng.choice(list(kinds)))
+    header = str(rng.choice(["wavelength (nm)", "energy (keV)", "x", "pixel"]))
+    df = pl.DataFrame([pl.Series(header, pos), kinds[kind]()])
+    buf = io.BytesIO()
+    df.write_parquet(buf)
+    return buf.getvalue()
+
+
+def mutate(data: bytes, rng: np.random.Generator) -> bytes:
+    """Flip bits, truncate, duplicate or splice hostile text into valid bytes."""
+    b = bytearray(data)
+    for _ in range(int(rng.integers(1, 4))):
+        op = int(rng.integers(0, 5))
+        if not b:
+            break
+        at = int(rng.integers(0, len(b)))
+        if op == 0:
+            b[at] ^= 1 << int(rng.integers(0, 8))
+        elif op == 1:
+            del b[at:]
+        elif op == 2:
+            b[at:at] = str(rng.choice(HOSTILE_CELLS)).encode("utf-8")
+        elif op == 3:
+            end = min(len(b), at + int(rng.integers(1, 200)))
+            b[at:at] = b[at:end]
+        else:
+            b[at:at] = rng.integers(0, 256, int(rng.integers(1, 16)), dtype=np.uint8).tobytes()
+    return bytes(b)
+
+
+@dataclass
+class Outcome:
+    """Counts and worst cases of a fuzz run."""
+
+    inputs: int = 0
+    read: int = 0
+    refused: int = 0
+    tracebacks: list[str] = field(default_factory=list)
+    worst_seconds_per_mb: float = 0.0
+    worst_seconds: float = 0.0
+    worst_memory_over_bound: float = 0.0  # peak / (4 x size + 16 MiB); <= 1 is within bound
+
+
+def run_case(
+    read: Callable[[bytes], object],
+    data: bytes,
+    expected: tuple[type[BaseException], ...],
+    outcome: Outcome,
+    *,
+    trace_memory: bool = False,
+) -> None:
+    """Run one input; a result or an ``expected`` error is fine, anything else is kept."""
+    outcome.inputs += 1
+    if trace_memory:
+        tracemalloc.start()
+    t0 = time.perf_counter()
+    try:
+        read(data)
+        outcome.read += 1
+    except expected:
+        outcome.refused += 1
+    except BaseException as exc:
+        if isinstance(exc, KeyboardInterrupt):
+            raise
+        outcome.tracebacks.append(
+            f"{type(exc).__name__}: {str(exc)[:200]} <- {data[:80]!r}\n"
+            + "".join(traceback.format_tb(exc.__traceback__)[-2:])
+        )
+    finally:
+        elapsed = time.perf_counter() - t0
+        if trace_memory:
+            _, peak = tracemalloc.get_traced_memory()
+            tracemalloc.stop()
+            bound = 4 * len(data) + 16 * 2**20
+            outcome.worst_memory_over_bound = max(outcome.worst_memory_over_bound, peak / bound)
+    outcome.worst_seconds = max(outcome.worst_seconds, elapsed)
+    outcome.worst_seconds_per_mb = max(
+        outcome.worst_seconds_per_mb, elapsed / max(len(data) / 1e6, 1.0)
+    )
