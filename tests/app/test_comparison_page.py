@@ -181,22 +181,24 @@ def test_elements_from_the_latest_analysis_of_the_demo_xrf_case(tmp_path, monkey
     from streamlit.testing.v1 import AppTest
 
     from tests.app.conftest import MAIN
-    from workbench.app import _services as sv
+    from workbench.app import inputs, store_access
     from workbench.casefile.store import CaseStore
     from workbench.demo import seed_demo_case
+    from workbench.matching import MatchParameters, ToleranceSpec
+    from workbench.matching.analyse import analyse_peaks
+    from workbench.matching.presentation import MatchView, element_levels
 
     root = tmp_path / "store"
     with CaseStore.open(root) as store:
         seeded = seed_demo_case(store)
         mid = seeded["measurements"]["NRFL-2026-0502"]
         m = store.get_measurement(mid)
-        got = sv.load_input(store.file_bytes(m.sha256), m.filename)
-        params = sv.build_parameters(
-            tolerance_kind="fwhm", tolerance_value=0.5, temperature_K=None, mode="emission"
-        )
-        outcome = sv.run_matching(got.peaks, ["xray"], params, spectrum=got.spectrum)
-        sv.save_analysis(store, mid, outcome, {"note": "test"}, ANALYST)
-    levels = sv.element_levels(outcome.report)
+        got = inputs.load_input(store.file_bytes(m.sha256), m.filename)
+        params = MatchParameters(tolerance=ToleranceSpec("fwhm", 0.5))
+        outcome = analyse_peaks(got.peaks, ["xray"], params, spectrum=got.spectrum)
+        view = MatchView.from_outcome(outcome)
+        store_access.save_analysis(store, mid, view, {"note": "test"}, ANALYST)
+    levels = element_levels(outcome.report)
     monkeypatch.setenv("WORKBENCH_STORE", str(root))
     at = AppTest.from_file(MAIN, default_timeout=120)
     at.run()

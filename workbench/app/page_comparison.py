@@ -12,8 +12,8 @@ import json
 
 import streamlit as st
 
-from workbench.app import _services as sv
-from workbench.app import _ui
+from workbench.app import _ui, forms, inputs, store_access
+from workbench.matching import presentation as pr
 
 st.title("Comparison")
 root = _ui.store_root()
@@ -52,7 +52,7 @@ def _show_comparison(d: dict) -> None:
     else:
         st.warning(text + " (no criterion could be applied)")
     for reason in d["overall"]["distinguishing"]:
-        st.caption("• " + sv.md_escape(reason))
+        st.caption("• " + _ui.plain(reason))
     el = d["elements"]
     st.markdown("**Elements**")
     if el["evaluated"]:
@@ -64,9 +64,9 @@ def _show_comparison(d: dict) -> None:
             ],
             hide_index=True,
         )  # fmt: skip
-        st.caption(sv.md_escape(el.get("note", "")))
+        st.caption(_ui.plain(el.get("note", "")))
     else:
-        st.caption("Not evaluated: " + sv.md_escape(el["reason"]) + ".")
+        st.caption("Not evaluated: " + _ui.plain(el["reason"]) + ".")
     st.markdown("**Line-intensity ratios**")
     if d["ratios"]:
         st.dataframe(
@@ -143,14 +143,14 @@ def _known_tab(store) -> None:
         }.get,
         key="cmp_where",
     )
-    coll_root = sv.collections_root(where, root)
+    coll_root = forms.collections_root(where, root)
     rows = list_collections(coll_root)
     usable = [r for r in rows if "error" not in r]
     for r in rows:
         if "error" in r:
-            st.error(f"Collection {sv.md_escape(r['id'])} is unusable: " + sv.md_escape(r["error"]))
+            st.error(f"Collection {_ui.plain(r['id'])} is unusable: " + _ui.plain(r["error"]))
     if not usable:
-        st.info(f"No collection in {sv.md_escape(coll_root)}.")
+        st.info(f"No collection in {_ui.plain(coll_root)}.")
         return
     coll_id = c2.selectbox(
         "Collection",
@@ -226,14 +226,14 @@ def _known_tab(store) -> None:
                     raise InputError("no questioned measurement chosen", "choose at least one")
                 for mid in chosen_ids:
                     m = store.get_measurement(mid)
-                    got = sv.load_input(store.file_bytes(m.sha256), m.filename)
+                    got = inputs.load_input(store.file_bytes(m.sha256), m.filename)
                     questioned.append(got.peaks)
             elif source == "upload":
                 if not uploads:
                     raise InputError("no questioned file uploaded", "upload one file per replicate")
-                questioned = [sv.load_input(u.getvalue(), u.name).peaks for u in uploads]
+                questioned = [inputs.load_input(u.getvalue(), u.name).peaks for u in uploads]
             else:
-                questioned = [sv.load_input(pasted.encode("utf-8"), "<pasted>").peaks]
+                questioned = [inputs.load_input(pasted.encode("utf-8"), "<pasted>").peaks]
             axis = questioned[0].axis
             value = float(tol_value) or (
                 _DEFAULT_TOL[axis] if tol_kind == "fixed" else 5000.0 if axis == "wavelength"
@@ -253,16 +253,16 @@ def _known_tab(store) -> None:
                         "elements from an analysis need a stored questioned measurement",
                         "choose stored measurements, or type the elements",
                     )
-                a = sv.latest_analysis(store, number, chosen_ids)
+                a = store_access.latest_analysis(store, number, chosen_ids)
                 if a is None:
                     raise InputError(
                         "no saved analysis of the chosen measurement(s)",
                         "save an analysis of it first, or type the elements",
                     )
-                q_elements = sv.analysis_report(a)
+                q_elements = store_access.analysis_report(a)
             common = {
                 "tolerance": tolerance,
-                "ratios": sv.parse_ratios(ratios_txt, ratio_medium),
+                "ratios": forms.parse_ratios(ratios_txt, ratio_medium),
                 "rule": rule,
                 "k": float(k),
                 "floor_rsd": float(floor_rsd),
@@ -279,7 +279,7 @@ def _known_tab(store) -> None:
     if d is not None:
         st.divider()
         if d["kind"] == "questioned-vs-collection comparison":
-            st.subheader(f"Against every known sample of {sv.md_escape(d['collection'])}")
+            st.subheader(f"Against every known sample of {_ui.plain(d['collection'])}")
             st.caption(
                 "Ranked by line overlap, which only orders the list; the outcome of each row "
                 "comes from the element and ratio criteria."
@@ -326,16 +326,16 @@ def _materials_tab(store) -> None:
     )
     elements_arg = None
     if m_source == "analysis":
-        a = sv.latest_analysis(store, number) if number else None
+        a = store_access.latest_analysis(store, number) if number else None
         if a is None:
             st.info("No saved analysis in this case: type the elements instead.")
         else:
-            levels = sv.element_levels(sv.analysis_report(a))
+            levels = pr.element_levels(store_access.analysis_report(a))
             seen = [e for e, v in levels.items() if v["level"] >= 1]
             present = [e for e, v in levels.items() if v["level"] >= 2]
             st.caption(
-                f"Analysis #{a.id} of item {sv.md_escape(a.item_number)} "
-                f"({sv.md_escape(a.created_at)}). Elements called probable or better are "
+                f"Analysis #{a.id} of item {_ui.plain(a.item_number)} "
+                f"({_ui.plain(a.created_at)}). Elements called probable or better are "
                 "chosen; add a 'possible' one only after checking its lines."
             )
             elements_arg = st.multiselect(
@@ -356,7 +356,7 @@ def _materials_tab(store) -> None:
 
             if not elements_arg:
                 raise InputError("no elements given", "choose or type the detected elements")
-            rep = candidate_materials(elements_arg, sv.parse_year(year_txt))
+            rep = candidate_materials(elements_arg, forms.parse_year(year_txt))
             st.session_state["mat_result"] = rep.to_dict()
 
     r = st.session_state.get("mat_result")
@@ -367,7 +367,7 @@ def _materials_tab(store) -> None:
             f"{r['claimed_year'] if r['claimed_year'] is not None else 'not given'}"
         )
         for flag in r["anachronisms"]:
-            st.error("Possible anachronism: " + sv.md_escape(flag))
+            st.error("Possible anachronism: " + _ui.plain(flag))
         if r["candidates"]:
             st.dataframe(
                 [
@@ -397,7 +397,7 @@ def _materials_tab(store) -> None:
 
 
 tab_known, tab_materials = st.tabs(["Questioned vs known", "Elements to materials"])
-with tab_known, _ui.shown_errors(), sv.open_store(root) as store:
+with tab_known, _ui.shown_errors(), store_access.open_store(root) as store:
     _known_tab(store)
-with tab_materials, _ui.shown_errors(), sv.open_store(root) as store:
+with tab_materials, _ui.shown_errors(), store_access.open_store(root) as store:
     _materials_tab(store)

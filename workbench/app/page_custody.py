@@ -4,8 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from workbench.app import _display, _ui
-from workbench.app import _services as sv
+from workbench.app import _ui, figures, store_access
 
 st.title("Items & custody")
 root = _ui.store_root()
@@ -16,10 +15,10 @@ if not number:
 
 KINDS = ("transferred", "sealed", "opened", "returned", "note", "correction", "disposed")
 
-with _ui.shown_errors(), sv.open_store(root) as store:
-    st.caption("Case " + sv.md_escape(number))
+with _ui.shown_errors(), store_access.open_store(root) as store:
+    st.caption("Case " + _ui.plain(number))
     items = store.list_items(number)
-    status = sv.chain_status(store, number)
+    status = store_access.chain_status(store, number)
     if status["ok"]:
         st.success("Chain of custody verified: every event hash, link and rule checks out.")
     else:
@@ -81,7 +80,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                     received_from=received_from or None,
                     note=note or None,
                 )
-                st.success("Registered " + sv.md_escape(rec.label))
+                st.success("Registered " + _ui.plain(rec.label))
                 st.rerun()
 
     with tab_event:
@@ -127,7 +126,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
             events += [e.to_dict() for e in store.custody_events(i, own_only=True)]
         if events:
             broken = {k: v["seq"] for k, v in status["items"].items() if k and v["seq"] is not None}
-            st.plotly_chart(_display.timeline_figure(events, broken), key="timeline")
+            st.plotly_chart(figures.timeline_figure(events, broken), key="timeline")
             pick = st.selectbox("Show the full history of", [i.item_number for i in items])
             hist = store.custody_events((number, pick))
             st.dataframe(

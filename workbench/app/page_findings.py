@@ -4,15 +4,14 @@ from __future__ import annotations
 
 import streamlit as st
 
-from workbench.app import _services as sv
-from workbench.app import _ui
+from workbench.app import _ui, store_access
 
 st.title("Findings")
 root = _ui.store_root()
 number = _ui.current_case()
 _ui.cautions()
 
-with _ui.shown_errors(), sv.open_store(root) as store:
+with _ui.shown_errors(), store_access.open_store(root) as store:
     tab_issue, tab_keys, tab_verify = st.tabs(["Draft and sign", "Signing keys", "Verify a sheet"])
 
     with tab_keys:
@@ -47,7 +46,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                 rec = store.register_analyst(name, role, pair.public_key_pem)
                 st.session_state["new_private_key"] = pair.private_key_pem
                 st.session_state["new_key_fingerprint"] = rec.fingerprint
-                st.success("Registered key " + sv.md_escape(rec.fingerprint))
+                st.success("Registered key " + _ui.plain(rec.fingerprint))
         if st.session_state.get("new_private_key"):
             st.warning(
                 "Download the private key now and keep it safe: the store keeps only the public "
@@ -107,10 +106,10 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                     lab = {"name": lab_name}
                     if lab_acc:
                         lab["accreditation"] = lab_acc
-                    made_from = sv.draft_key(aid, fp, lab, notes, limitations)
+                    made_from = store_access.draft_key(aid, fp, lab, notes, limitations)
                     if st.button("Preview draft", key="preview"):
                         with _ui.shown_errors():
-                            content = sv.draft_sheet(
+                            content = store_access.draft_sheet(
                                 store, aid, lab=lab, analyst_fingerprint=fp, notes=notes,
                                 limitations=limitations,
                             )  # fmt: skip
@@ -185,7 +184,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                     if issued is not None:
                         st.success(
                             f"Issued findings sheet #{issued.record.id}, signed by "
-                            f"{sv.md_escape(issued.record.analyst)}."
+                            f"{_ui.plain(issued.record.analyst)}."
                         )
                         stem = f"findings-{issued.record.case_number}-{issued.record.id}"
                         c1, c2, c3, c4 = st.columns(4)
@@ -230,7 +229,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                         store, v_pdf.getvalue(), v_json.getvalue(), v_rec.getvalue()
                     )
                     st.success(
-                        f"VALID: signed by {sv.md_escape(res.signer)} at {res.signed_at} "
+                        f"VALID: signed by {_ui.plain(res.signer)} at {res.signed_at} "
                         f"with key {res.key_fingerprint[:19]}…"
                     )
                     st.text("\n".join("✓ " + c for c in res.checks))
