@@ -230,3 +230,42 @@ def test_a_bad_year_is_refused(app):
     assert not app.exception
     assert any("not a whole number" in t and "Fix" in t for t in _texts(app.error))
     assert "mat_result" not in app.session_state
+
+
+def test_a_collection_is_created_on_the_page_and_user_text_never_becomes_markdown(app, store_root):
+    # Issue 11 item 12: a material name became a live link and an outside image request.
+    from workbench.compare import add_exemplar, store_collections_root
+
+    _open(app)
+    assert app.radio(key="cmp_where").value == "store"
+    assert any("No collection" in t for t in _texts(app.info))  # says what to do
+    app.text_input(key="new_coll_id").input("glass-2026")
+    app.text_input(key="new_coll_title").input("Invented glass exemplars")
+    next(b for b in app.button if b.label == "Create collection").click().run()
+    assert not app.exception
+    assert any("Created collection glass" in t for t in _texts(app.success))
+    hostile = "[click](http://evil.example) ![x](http://evil.example/x.png) <b>bold</b>"
+    # The file uploader cannot be driven by AppTest: the sample is added with the same
+    # library call the page's form makes.
+    add_exemplar(
+        store_collections_root(store_root), "glass-2026", "K-01",
+        [data for _, data in _q_files()], material=hostile,
+    )  # fmt: skip
+    app.run()
+    app.selectbox(key="cmp_collection").set_value("glass-2026").run()
+    app.selectbox(key="cmp_exemplar").set_value("K-01").run()
+    app.radio(key="cmp_source").set_value("paste").run()
+    app.text_area(key="cmp_paste").input(_q_files()[0][1].decode()).run()
+    app.button(key="cmp_run").click().run()
+    assert not app.exception
+    rendered = [
+        str(e.value)
+        for kind in ("markdown", "caption", "warning", "info", "error", "success", "subheader")
+        for e in getattr(app, kind)
+    ]
+    rendered += [str(e.label) for e in app.expander]  # fmt: skip
+    shown = [t for t in rendered if "evil" in t]
+    assert shown  # the name is shown ...
+    for t in shown:  # ... but never as a link, an image or HTML
+        assert "](http" not in t and "<b>" not in t, t
+        assert r"\[click\]\(http" in t

@@ -34,6 +34,50 @@ def test_cases_page_lists_searches_and_creates(app, store_root):
     assert app.session_state["case_number"] == "TEST-2026-0002"
 
 
+@pytest.mark.parametrize("bad", ["<b>X</b>", "A/B"])  # both accepted before (issue 13)
+def test_a_case_number_outside_the_pattern_is_refused_with_the_rule(app, store_root, bad):
+    inputs = app.text_input
+    inputs[1].input(bad)
+    inputs[2].input("Invented case")
+    inputs[3].input("Invented Unit")
+    next(b for b in app.button if b.label == "Create case").click().run()
+    assert not app.exception
+    errors = _texts(app.error)
+    assert any("case number" in t and "letters and digits" in t for t in errors), errors
+    from workbench.casefile.store import CaseStore
+
+    with CaseStore.open(store_root) as store:
+        assert [c.case_number for c in store.list_cases()] == [CASE]  # nothing created
+
+
+def test_an_item_is_registered_at_the_picked_lab_time(app, store_root, monkeypatch):
+    import datetime as dt
+
+    # A fixed IANA zone (tz database): 2026-11-03 10:15 in Europe/Berlin is 09:15 UTC.
+    monkeypatch.setenv("WORKBENCH_LAB_TZ", "Europe/Berlin")
+    app.switch_page("page_custody.py").run()
+    labels = {t.label: t for t in app.text_input}
+    labels["Item number"].input("2/3")
+    labels["Description"].input("Invented envelope")
+    labels["Received by (becomes the holder)"].input(ANALYST)
+    labels["Received from (required for a new item)"].input("Courier (invented)")
+    next(b for b in app.button if b.label == "Register").click().run()
+    assert any("item number" in t and "'/'" in t for t in _texts(app.error))  # refused
+    labels = {t.label: t for t in app.text_input}
+    labels["Item number"].input("2")
+    labels["Description"].input("Invented envelope")
+    labels["Received by (becomes the holder)"].input(ANALYST)
+    labels["Received from (required for a new item)"].input("Courier (invented)")
+    app.datetime_input(key="item_at").set_value(dt.datetime(2026, 11, 3, 10, 15))
+    next(b for b in app.button if b.label == "Register").click().run()
+    assert not app.exception and not app.error, _texts(app.error)
+    from workbench.casefile.store import CaseStore
+
+    with CaseStore.open(store_root) as store:
+        (event,) = store.custody_events((CASE, "2"))
+        assert event.at.startswith("2026-11-03T09:15:00")
+
+
 def test_custody_page_records_an_event_and_shows_the_verified_chain(app, store_root):
     app.switch_page("page_custody.py").run()
     assert any("verified" in t for t in _texts(app.success))

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from workbench.app import _ui, store_access
+from workbench.app import _ui, forms, store_access
 
 st.title("Cases")
 root = _ui.store_root()
@@ -55,13 +55,17 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
     with right:
         st.subheader("New case")
         with st.form("new_case", clear_on_submit=True):
-            number = st.text_input("Case number", placeholder="LAB-2026-0001")
+            number = st.text_input(
+                "Case number",
+                placeholder="LAB-2026-0001",
+                help="Letters and digits in groups joined by single '-', '.' or '_'.",
+            )
             title = st.text_input("Title")
             party = st.text_input("Requesting party")
             submitted = st.form_submit_button("Create case")
         if submitted:
             with _ui.shown_errors():
-                rec = store.create_case(number, title, party)
+                rec = store.create_case(forms.check_case_number(number), title, party)
                 st.success("Case created: " + _ui.plain(rec.case_number))
                 _ui.choose_case(rec.case_number)
 

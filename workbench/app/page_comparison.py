@@ -40,9 +40,10 @@ def _show_comparison(d: dict) -> None:
     """One questioned-vs-known result (the library's dict)."""
     known = d["known"]
     outcome = d["overall"]["outcome"]
+    # Sample ids and material names are user text: shown literally, never as Markdown.
     text = (
-        f"Questioned item against {known['exemplar']} "
-        f"({known['material'] or 'material not recorded'}): **{outcome.upper()}**"
+        f"Questioned item against {_ui.plain(known['exemplar'])} "
+        f"({_ui.plain(known['material'] or 'material not recorded')}): **{outcome.upper()}**"
     )
     # Neutral colours on purpose: neither outcome is good or bad news in itself.
     if outcome == "distinguishable":
@@ -88,6 +89,48 @@ def _show_comparison(d: dict) -> None:
         f"(range {sim['min_line_overlap']:.3f}–{sim['max_line_overlap']:.3f}); log-intensity "
         f"correlation {'n/a' if agree is None else f'{agree:.3f}'}."
     )
+
+
+def _manage_collections(coll_root, *, expanded: bool) -> None:
+    """Create a collection in this store and add known samples (replicate peak lists) to it."""
+    from workbench.compare import add_exemplar, create_collection
+
+    with st.expander("Create a collection or add a known sample", expanded=expanded):
+        with st.form("new_collection", clear_on_submit=True):
+            c1, c2 = st.columns([1, 2])
+            new_id = c1.text_input("Collection id (e.g. glass-2026)", key="new_coll_id")
+            new_title = c2.text_input("Title", key="new_coll_title")
+            make = st.form_submit_button("Create collection")
+        if make:
+            with _ui.shown_errors():
+                coll_id = forms.check_collection_id(new_id)
+                create_collection(coll_root, coll_id, new_title)
+                st.success(f"Created collection {_ui.plain(coll_id)}.")
+        existing = [r["id"] for r in list_collections(coll_root) if "error" not in r]
+        if not existing:
+            return
+        with st.form("new_exemplar", clear_on_submit=True):
+            c1, c2, c3 = st.columns(3)
+            target = c1.selectbox("Add to collection", existing, key="new_ex_coll")
+            ex_id = c2.text_input("Known sample id (e.g. K-01)", key="new_ex_id")
+            material = c3.text_input("Material (optional)", key="new_ex_material")
+            files = st.file_uploader(
+                "Replicate peak lists of the known sample (one file each)",
+                accept_multiple_files=True,
+                key="new_ex_files",
+            )
+            add = st.form_submit_button("Add known sample")
+        if add:
+            with _ui.shown_errors():
+                from workbench.errors import InputError
+
+                if not files:
+                    raise InputError("no replicate file given", "upload one file per replicate")
+                add_exemplar(
+                    coll_root, target, forms.check_collection_id(ex_id),
+                    [f.getvalue() for f in files], material=material,
+                )  # fmt: skip
+                st.success(f"Added {_ui.plain(ex_id)} to {_ui.plain(target)}.")
 
 
 def _known_tab(store) -> None:
@@ -149,8 +192,13 @@ def _known_tab(store) -> None:
     for r in rows:
         if "error" in r:
             st.error(f"Collection {_ui.plain(r['id'])} is unusable: " + _ui.plain(r["error"]))
+    if where == "store":
+        _manage_collections(coll_root, expanded=not usable)
     if not usable:
-        st.info(f"No collection in {_ui.plain(coll_root)}.")
+        st.info(
+            f"No collection in {_ui.plain(coll_root)} yet: create one above (this store's "
+            "collections) and add known samples to it, or choose the shared collections."
+        )
         return
     coll_id = c2.selectbox(
         "Collection",
@@ -296,7 +344,7 @@ def _known_tab(store) -> None:
                 hide_index=True,
             )  # fmt: skip
             for ex_id, rep in d["reports"].items():
-                with st.expander(f"Details: {ex_id}"):
+                with st.expander(f"Details: {_ui.plain(ex_id)}"):
                     _show_comparison(rep)
         else:
             st.subheader("Outcome")

@@ -8,7 +8,7 @@ import numpy as np
 import pandas as pd
 import streamlit as st
 
-from workbench.app import _ui, figures, inputs, store_access
+from workbench.app import _ui, figures, forms, inputs, store_access
 
 st.title("Measurement")
 root = _ui.store_root()
@@ -143,8 +143,8 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
                     c3, c4 = st.columns(2)
                     instrument = c3.text_input("Instrument")
                     operator = c4.text_input("Operator")
-                    measured_at = st.text_input(
-                        "Measured at (UTC, e.g. 2026-11-21T14:30:00Z)", key="measured_at"
+                    measured_at = st.datetime_input(
+                        "Measured at (laboratory time)", value=forms.lab_now(), key="measured_at"
                     )
                     settings_txt = st.text_area("Instrument settings (JSON object)", "{}")
                     go = st.form_submit_button("Store measurement")
@@ -161,7 +161,7 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
                             ) from exc
                         rec = store.add_measurement(
                             (number, item), work.data, work.name, technique, instrument,
-                            settings, operator, measured_at,
+                            settings, operator, forms.lab_time(measured_at, "measurement time"),
                         )  # fmt: skip
                         st.session_state["work_measurement_id"] = rec.id
                         st.session_state["work_item"] = f"{number}/{item}"
