@@ -204,6 +204,8 @@ def test_findings_page_creates_key_signs_and_verifies(app, store_root):
     labels["Repeat the passphrase"].input("correct horse 1")
     next(b for b in app.button if b.label == "Create key").click().run()
     assert not app.exception and not app.error, _texts(app.error)
+    # AppTest cannot press a download button; the page's on_click callback sets this flag.
+    app.session_state["new_key_downloaded"] = True
     app.text_input(key="lab_name").input("Invented Test Laboratory").run()
     app.text_area(key="sheet_notes").input("Notes with <b>markup</b> kept literally").run()
     app.button(key="preview").click().run()
