@@ -305,14 +305,40 @@ def _results() -> None:
 
         for k, g in enumerate(first[:8]):
             _group(g, k)
+
         more = first[8:] + rest
         if more:
             label = f"{len(more)} more interference group(s)"
             if rest:
                 label += f" ({len(rest)} touching only possible or weaker calls)"
             with st.expander(label):
-                for k, g in enumerate(more, start=len(first[:8])):
-                    _group(g, k)
+                # One table and one picker instead of a button per group: cheap to redraw.
+                st.dataframe(
+                    _numbered(
+                        [
+                            {
+                                f"Observed ({u})": pr.format_position(g.position, u),
+                                "Species": ", ".join(g.species),
+                                "Overlap": "; ".join(
+                                    pr.overlap_text(warnings[i], u) for i in g.warning_indices
+                                ),
+                            }
+                            for g in more
+                        ]
+                    ),
+                    width="stretch",
+                )
+                pick = st.selectbox(
+                    "Show group",
+                    [None, *range(len(more))],
+                    format_func=lambda i: "–" if i is None else f"#{i + 1}",
+                    key="show_more",
+                )
+                if pick is not None and st.session_state.get("last_show_more") != pick:
+                    g = more[pick]
+                    st.session_state["focus"] = ("warning", g.warning_indices[0])
+                    st.session_state["tracks"] = list(g.species)
+                st.session_state["last_show_more"] = pick
 
     st.subheader("Observed and reference lines")
     all_species = [str(e["species"]) for e in report.get("elements") or []]
