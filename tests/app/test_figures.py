@@ -124,3 +124,13 @@ def test_timeline_marks_the_broken_event():
     note = next(t for t in fig.data if t.name == "note")
     assert list(note.marker.color) == ["#c0392b"]  # the broken event is drawn in red
     assert "&lt;script&gt;" in note.hovertext[0]
+
+
+def test_overlapping_interference_bands_are_drawn_once():
+    observed, refs = _sticks()
+    # Three invented spans, the first two overlapping: two bands, labels joined.
+    spans = [(499.9, 500.1, "A / B"), (500.0, 500.2, "A / C"), (600.0, 600.1, "D / E")]
+    fig = stick_figure(observed, refs, species=[], unit="nm", axis_title="x", interference=spans)
+    assert [(sh.x0, sh.x1) for sh in fig.layout.shapes] == [(499.9, 500.2), (600.0, 600.1)]
+    marks = next(t for t in fig.data if t.name == "interfering pair")
+    assert marks.hovertext[0] == "A / B<br>A / C"

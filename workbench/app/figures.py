@@ -193,6 +193,22 @@ def _scaled(pos: np.ndarray, h: np.ndarray, x_range: tuple[float, float] | None)
     return h / top if top > 0 else h
 
 
+def _merged(spans: Sequence[tuple[float, float, str]]) -> list[tuple[float, float, str]]:
+    """Overlapping bands joined into one, labels listed once.
+
+    Stacked translucent bands would otherwise darken the plot and hide the sticks.
+    """
+    out: list[tuple[float, float, list[str]]] = []
+    for lo, hi, label in sorted(spans, key=lambda s: (s[0], s[1])):
+        if out and lo <= out[-1][1]:
+            prev = out[-1]
+            labels = prev[2] if label in prev[2] else [*prev[2], label]
+            out[-1] = (prev[0], max(prev[1], hi), labels)
+        else:
+            out.append((lo, hi, [label]))
+    return [(lo, hi, "<br>".join(_esc(x) for x in labels)) for lo, hi, labels in out]
+
+
 def stick_figure(
     observed: Sequence[Mapping[str, Any]],
     references: Sequence[Mapping[str, Any]],
@@ -297,6 +313,7 @@ def stick_figure(
             }
         )  # fmt: skip
     shapes = []
+    interference = _merged(interference)
     if interference:
         # Bands across every panel (paper coordinates) and one legend entry for them all.
         shapes = [
@@ -309,7 +326,7 @@ def stick_figure(
                 "type": "scatter", "x": [(lo + hi) / 2.0 for lo, hi, _ in interference],
                 "y": [1.04] * len(interference), "mode": "markers", "name": "interfering pair",
                 "marker": {"symbol": "diamond-tall", "color": _INTERFERENCE_MARK, "size": 8},
-                "hovertext": [_esc(lbl) for *_, lbl in interference], "hoverinfo": "text",
+                "hovertext": [lbl for *_, lbl in interference], "hoverinfo": "text",
                 "xaxis": "x", "yaxis": "y",
             }
         )  # fmt: skip
@@ -317,7 +334,7 @@ def stick_figure(
     layout.update(
         {
             "xaxis": {"title": {"text": _esc(axis_title)}, "anchor": last, "showgrid": True,
-                      "gridcolor": "#eeeeee",
+                      "gridcolor": "#eeeeee", "tickformat": ",.0f" if unit == "eV" else None,
                       **({"range": [float(x_range[0]), float(x_range[1])]} if x_range else {})},
             "shapes": shapes,
             "height": height,

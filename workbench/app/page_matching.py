@@ -265,6 +265,7 @@ def _results() -> None:
         on_select="rerun",
         selection_mode="single-row",
         key="el_grid",
+        hide_index=False,
         height=min(38 + 35 * len(rows), 320),
         width="stretch",
     )

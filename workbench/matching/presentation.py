@@ -254,7 +254,7 @@ def element_rows(report: Mapping[str, Any], *, include_unsupported: bool) -> lis
                 "Unique lines": int(el["n_unique_found"]),
                 "Missing lines": len(el.get("missing_lines") or []),
                 "Shared lines": len(el.get("shared_lines") or []),
-                "Pattern r": None if el.get("pattern_r") is None else round(el["pattern_r"], 3),
+                "Pattern r": "–" if el.get("pattern_r") is None else f"{el['pattern_r']:.3f}",
                 f"Strongest matched ({u})": ", ".join(
                     format_position(m.get(f"reference_{u}"), u) for m in best[:3]
                 ),
