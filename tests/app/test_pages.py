@@ -148,6 +148,8 @@ def _finish_run(app):
     """Wait for the worker process of the run just started, then let the page pick it up."""
     import time
 
+    if "run" not in app.session_state:  # the same input and settings ran before (cache)
+        return
     handle = app.session_state["run"]
     deadline = time.monotonic() + 120
     while handle.poll() == "running":

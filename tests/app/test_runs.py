@@ -160,3 +160,17 @@ def test_an_engine_error_comes_back_as_one_workbench_error():
     )
     assert _wait(handle) == "failed"
     assert isinstance(handle.error, WorkbenchError) and "no-such-set" in str(handle.error)
+
+
+def test_the_result_cache_keys_on_input_and_every_setting_and_keeps_the_newest():
+    cache = runs.ResultCache(size=2)
+    a = runs.ResultCache.key("sha-a", {"engine": {"tolerance": 1}})  # invented values
+    b = runs.ResultCache.key("sha-a", {"engine": {"tolerance": 2}})
+    c = runs.ResultCache.key("sha-b", {"engine": {"tolerance": 1}})
+    assert len({a, b, c}) == 3  # any difference in input or settings is another run
+    assert a == runs.ResultCache.key("sha-a", {"engine": {"tolerance": 1}})
+    cache.put(a, "A")
+    cache.put(b, "B")
+    assert cache.get(a) == "A"  # now the newest
+    cache.put(c, "C")  # drops b, the oldest
+    assert cache.get(b) is None and cache.get(a) == "A" and cache.get(c) == "C"

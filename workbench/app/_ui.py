@@ -27,6 +27,7 @@ __all__ = [
     "guarded_step",
     "load_input_cached",
     "plain",
+    "result_cache",
     "shown_errors",
     "store_root",
 ]
@@ -123,3 +124,11 @@ def load_input_cached(data: bytes, name: str, options: tuple[tuple[str, Any], ..
     from workbench.app.inputs import load_input
 
     return load_input(data, name, **dict(options))
+
+
+@st.cache_resource
+def result_cache() -> Any:
+    """The server's :class:`workbench.app.runs.ResultCache` (one for all sessions)."""
+    from workbench.app.runs import ResultCache
+
+    return ResultCache()

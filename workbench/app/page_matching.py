@@ -165,12 +165,32 @@ def _settings() -> None:
                 source = _ui.load_input_cached(work.data, work.name, tuple(sorted(opts.items())))
             edits = st.session_state.get("peak_edits", [])
             peaks = apply_peak_edits(source.peaks, edits)
-            handle = runs.start_run(runs.RunRequest(peaks, tuple(set_ids), params, source.spectrum))
-            st.session_state["run"] = handle
-            st.session_state["run_parameters"] = runs.analysis_parameters(
+            parameters = runs.analysis_parameters(
                 params, source.options, table_rows(source.peaks.table), edits, set_ids
             )
+            key = runs.ResultCache.key(work.sha256, parameters)
+            cached = _ui.result_cache().get(key)
+            if cached is not None:  # the same input and settings ran before: no new run
+                _show_view(cached, parameters, key, "Shown from a run with the same settings.")
+            else:
+                handle = runs.start_run(
+                    runs.RunRequest(peaks, tuple(set_ids), params, source.spectrum)
+                )
+                st.session_state["run"] = handle
+                st.session_state["run_parameters"] = parameters
+                st.session_state["run_key"] = key
             st.rerun()
+
+
+def _show_view(view: pr.MatchView, parameters: dict, key: str, note: str) -> None:
+    """Make a finished run the page's result (and remember it for identical runs)."""
+    _ui.result_cache().put(key, view)
+    st.session_state["view"] = view
+    st.session_state["view_input_sha"] = work.sha256
+    st.session_state["outcome_parameters"] = parameters
+    st.session_state["run_note"] = note
+    for k in ("saved_analysis_id", "focus", "tracks", "el_grid", "last_grid_pick"):
+        st.session_state.pop(k, None)
 
 
 @st.fragment(run_every=0.5)
@@ -190,12 +210,12 @@ def _run_status() -> None:
         return
     st.session_state.pop("run", None)
     if state == "done":
-        st.session_state["view"] = handle.view
-        st.session_state["view_input_sha"] = work.sha256
-        st.session_state["outcome_parameters"] = st.session_state.pop("run_parameters", None)
-        st.session_state["run_note"] = f"Matched in {handle.elapsed_s:.1f} s."
-        for k in ("saved_analysis_id", "focus", "tracks", "el_grid"):
-            st.session_state.pop(k, None)
+        _show_view(
+            handle.view,
+            st.session_state.pop("run_parameters", None),
+            st.session_state.pop("run_key", ""),
+            f"Matched in {handle.elapsed_s:.1f} s.",
+        )
     elif handle.error is not None:
         st.session_state["run_error"] = str(handle.error)
     st.rerun(scope="app")

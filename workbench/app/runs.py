@@ -29,6 +29,7 @@ from workbench.errors import InputError, ValueRangeError, WorkbenchError
 
 __all__ = [
     "TOLERANCE_FIELDS",
+    "ResultCache",
     "RunHandle",
     "RunRequest",
     "ToleranceField",
@@ -175,6 +176,49 @@ def analysis_parameters(
         "reading": dict(read_options),
         "peak_table": table,
     }
+
+
+class ResultCache:
+    """The last few finished runs, by what defines them (shared by the app's sessions).
+
+    The key is the input's SHA-256 with :func:`analysis_parameters` (engine
+    settings, reference sets, reading options, peak-table digest and edits),
+    so a repeated run of the same input with the same settings is shown at
+    once instead of being matched again.
+    """
+
+    def __init__(self, size: int = 8) -> None:
+        from collections import OrderedDict
+        from threading import Lock
+
+        self._items: OrderedDict[str, Any] = OrderedDict()
+        self._size = int(size)
+        self._lock = Lock()
+
+    @staticmethod
+    def key(input_sha256: str, parameters: Mapping[str, Any]) -> str:
+        """The cache key of a run (SHA-256 of the canonical JSON of what defines it)."""
+        import hashlib
+        import json
+
+        text = json.dumps([input_sha256, parameters], sort_keys=True, default=str)
+        return hashlib.sha256(text.encode()).hexdigest()
+
+    def get(self, key: str) -> Any:
+        """The view stored under ``key``, or None."""
+        with self._lock:
+            view = self._items.get(key)
+            if view is not None:
+                self._items.move_to_end(key)
+            return view
+
+    def put(self, key: str, view: Any) -> None:
+        """Keep ``view`` under ``key``, dropping the oldest beyond the size."""
+        with self._lock:
+            self._items[key] = view
+            self._items.move_to_end(key)
+            while len(self._items) > self._size:
+                self._items.popitem(last=False)
 
 
 # ----------------------------------------------------------------------------- worker
