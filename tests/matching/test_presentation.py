@@ -119,3 +119,77 @@ def test_reference_lines_from_a_saved_report_are_rescaled_per_species():
     refs = pr.report_reference_lines(_report(), ["Qa I", "Zz I"])
     assert [(r["position"], r["expected_rel"]) for r in refs] == [(300.0, 1.0), (320.0, 0.5)]
     assert {r["species"] for r in refs} == {"Qa I"} and refs[0]["ion_stage"] == "I"
+
+
+def _groups_report() -> dict:
+    # Invented report fragment (schema-1 layout): two warnings on one observed line,
+    # one on another, one reference-only pair; Qa I probable, the rest weaker.
+    return {
+        "input": {"unit": "nm", "axis": "wavelength"},
+        "elements": [
+            {"species": "Qa I", "verdict_level": 2},
+            {"species": "Qb I", "verdict_level": 1},
+            {"species": "Qc I", "verdict_level": 0},
+        ],
+        "warnings": [
+            {"kind": "unresolved_overlap", "message": "m0", "observed": 400.0,
+             "elements": ["Qb I", "Qc I"], "positions": [399.99, 400.01]},
+            {"kind": "unresolved_overlap", "message": "m1", "observed": 500.0,
+             "elements": ["Qa I", "Qb I"], "positions": [499.99, 500.01]},
+            {"kind": "unresolved_overlap", "message": "m2", "observed": 500.0,
+             "elements": ["Qa I", "Qc I"], "positions": [499.99, 500.02]},
+            {"kind": "lte", "message": "n"},
+            {"kind": "reference_overlap", "message": "m3", "observed": None,
+             "elements": ["Qb I", "Qc I"], "positions": [600.0, 600.05]},
+        ],
+    }  # fmt: skip
+
+
+def test_interferences_are_grouped_by_observed_line_probable_first():
+    groups = pr.interference_groups(_groups_report())
+    assert [g.position for g in groups] == [500.0, 400.0, None]
+    first = groups[0]
+    assert first.touches_probable and first.warning_indices == (1, 2)
+    assert first.species == ("Qa I", "Qb I", "Qc I")
+    assert not any(g.touches_probable for g in groups[1:])
+
+
+def test_a_warning_names_the_species_its_show_draws():
+    assert pr.warning_species(_groups_report(), 2) == ["Qa I", "Qc I"]
+    assert pr.warning_species(_groups_report(), 99) == []
+
+
+@pytest.mark.parametrize(
+    "value, unit, shown",
+    [(4512.2, "eV", "4,512"), (250.689695, "nm", "250.6897"), (None, "nm", "–")],
+)
+def test_positions_are_shown_to_1_eV_or_0_0001_nm(value, unit, shown):
+    # Display rule of issue 10/13: energies to 1 eV, wavelengths to 0.0001 nm.
+    assert pr.format_position(value, unit) == shown
+
+
+def test_axis_titles_state_quantity_medium_and_unit():
+    assert pr.axis_title("wavelength", "nm", "air") == "wavelength in air (nm)"
+    assert pr.axis_title("wavelength", "nm", "vacuum") == "wavelength in vacuum (nm)"
+    assert pr.axis_title("energy", "eV", None) == "photon energy (eV)"
+
+
+@pytest.mark.slow
+def test_an_xrf_result_is_shown_in_eV_with_families_and_no_temperature():
+    # The invented XRF demo (workbench/demo.py: Pb L, Zn K, Ti K, ... on an energy axis).
+    from workbench.demo import demo_file
+    from workbench.matching import analyse_input
+
+    report = analyse_input(demo_file("white_pigment"), name="white.csv").report
+    summary = pr.result_summary(report)
+    assert summary.working_temperature_K is None and not summary.temperature_estimated
+    assert "no excitation temperature" in summary.temperature_text
+    assert all(kind not in ("temperature", "lte") for _, kind, _ in pr.other_warnings(report))
+    rows = pr.element_rows(report, include_unsupported=False)
+    assert rows[0]["Species"] == "Pb L"  # a family label
+    shown = rows[0]["Strongest matched (eV)"].split(", ")
+    assert shown and all("." not in v for v in shown)  # whole electronvolts
+    overlap = [w for w in report["warnings"] if w["kind"] in pr.INTERFERENCE_KINDS]
+    assert overlap
+    text = pr.overlap_text(overlap[0], "eV")
+    assert "eV apart" in text and "R ≥" not in text

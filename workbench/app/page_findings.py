@@ -118,6 +118,10 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
             )
 
     with tab_issue:
+        # Technical review and the analyst's decisions (accept / reject an element call or
+        # a line assignment) belong between choosing the analysis and previewing the draft,
+        # once the findings library provides them: this page will only call that API and
+        # show its records, the draft then carries them.
         if not number:
             st.info("Choose a case first.")
         else:
