@@ -30,6 +30,7 @@ __all__ = [
     "result_cache",
     "shown_errors",
     "store_root",
+    "warm_workers",
 ]
 
 #: The app's own wording of the standing cautions (the sheet prints the library's).
@@ -132,3 +133,14 @@ def result_cache() -> Any:
     from workbench.app.runs import ResultCache
 
     return ResultCache()
+
+
+@st.cache_resource
+def warm_workers() -> bool:
+    """Start the engine's fork server in the background, once per app server."""
+    import threading
+
+    from workbench.app.runs import warm_up
+
+    threading.Thread(target=warm_up, name="workbench-warm-up", daemon=True).start()
+    return True

@@ -12,6 +12,7 @@ from workbench.app import _ui, store_access
 st.set_page_config(page_title="Line-matching workbench", page_icon="🔬", layout="wide")
 
 root = _ui.store_root()
+_ui.warm_workers()
 
 pages = [
     st.Page("page_cases.py", title="Cases", icon=":material/folder_open:", default=True),

@@ -193,7 +193,7 @@ def _show_view(view: pr.MatchView, parameters: dict, key: str, note: str) -> Non
         st.session_state.pop(k, None)
 
 
-@st.fragment(run_every=0.5)
+@st.fragment(run_every=0.25)
 def _run_status() -> None:
     """Progress, elapsed time and Cancel of the run in its worker process."""
     handle = st.session_state.get("run")

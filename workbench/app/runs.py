@@ -38,6 +38,7 @@ __all__ = [
     "check_tolerance",
     "start_run",
     "tolerance_rules",
+    "warm_up",
 ]
 
 
@@ -239,8 +240,8 @@ def _worker(conn: Any, request: RunRequest) -> None:
     try:
         import os
 
-        # Interactive requests of every session come first: the run yields the CPU.
-        os.nice(10)
+        # Interactive requests of every session come first: the run yields some CPU.
+        os.nice(5)
         conn.send(("stage", 0.15, "loading the reference sets"))
         from workbench.matching.analyse import analyse_peaks
         from workbench.matching.presentation import MatchView
@@ -363,6 +364,14 @@ def _context() -> Any:
     ctx = mp.get_context("forkserver")
     ctx.set_forkserver_preload(_PRELOAD)
     return ctx
+
+
+def warm_up() -> None:
+    """Start the fork server now (it imports the engine once), so the first run is quick."""
+    from multiprocessing import forkserver
+
+    _context()
+    forkserver.ensure_running()
 
 
 def start_run(request: RunRequest) -> RunHandle:
