@@ -153,3 +153,30 @@ def test_a_saved_analysis_reopens_read_only_in_a_fresh_session(app, store_root):
     assert "reopened" not in fresh.session_state
     with CaseStore.open(store_root) as store:
         assert len(store.list_analyses(CASE)) == n_before  # nothing written by viewing
+
+
+def test_a_long_run_shows_progress_and_is_cancelled_from_the_page(app):
+    import numpy as np
+
+    # 3000 invented random lines at R = 500: tens of seconds of matching (measured).
+    rng = np.random.default_rng(20261202)
+    x = np.sort(rng.uniform(200.0, 900.0, 3000))
+    pasted = "wavelength_nm,intensity\n" + "".join(
+        f"{a:.4f},{b:.1f}\n" for a, b in zip(x, rng.uniform(1.0, 1000.0, x.size), strict=True)
+    )
+    app.switch_page("page_measurement.py").run()
+    app.text_area(key="paste").input(pasted).run()
+    app.button(key="read_paste").click().run()
+    app.switch_page("page_matching.py").run()
+    app.selectbox(key="run_rule_wavelength").set_value("resolving_power").run()
+    app.number_input(key="run_tol_wavelength_resolving_power").set_value(500.0).run()
+    app.button(key="run_go").click().run()
+    assert not app.exception
+    handle = app.session_state["run"]
+    assert handle.poll() == "running"
+    assert any("elapsed" in str(p.proto.text) for p in app.get("progress"))
+    app.button(key="run_cancel").click().run()
+    assert not app.exception
+    assert handle.state == "cancelled" and not handle.process.is_alive()
+    assert "run" not in app.session_state and "view" not in app.session_state
+    assert any("Run cancelled after" in t for t in _texts(app.caption))

@@ -177,6 +177,7 @@ def _settings() -> None:
                     runs.RunRequest(peaks, tuple(set_ids), params, source.spectrum)
                 )
                 st.session_state["run"] = handle
+                st.session_state.pop("run_ended", None)
                 st.session_state["run_parameters"] = parameters
                 st.session_state["run_key"] = key
             st.rerun()
@@ -193,20 +194,27 @@ def _show_view(view: pr.MatchView, parameters: dict, key: str, note: str) -> Non
         st.session_state.pop(k, None)
 
 
+def _cancel_run() -> None:
+    """Cancel button callback (runs before any rerun, so a click is never lost)."""
+    handle = st.session_state.pop("run", None)
+    if handle is not None:
+        handle.cancel()
+        st.session_state["run_note"] = f"Run cancelled after {handle.elapsed_s:.1f} s."
+    st.session_state["run_ended"] = True
+
+
 @st.fragment(run_every=0.25)
 def _run_status() -> None:
     """Progress, elapsed time and Cancel of the run in its worker process."""
     handle = st.session_state.get("run")
     if handle is None:
+        if st.session_state.pop("run_ended", False):
+            st.rerun(scope="app")  # show the outcome of the cancel in the whole page
         return
     state = handle.poll()
     if state == "running":
         st.progress(handle.fraction, text=f"{handle.stage} — {handle.elapsed_s:.1f} s elapsed")
-        if st.button("Cancel the run", key="run_cancel"):
-            handle.cancel()
-            st.session_state.pop("run", None)
-            st.session_state["run_note"] = f"Run cancelled after {handle.elapsed_s:.1f} s."
-            st.rerun(scope="app")
+        st.button("Cancel the run", key="run_cancel", on_click=_cancel_run)
         return
     st.session_state.pop("run", None)
     if state == "done":
