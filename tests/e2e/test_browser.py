@@ -188,9 +188,11 @@ def test_demo_case_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_p
         try:
             page = browser.new_page(viewport={"width": 1400, "height": 1000}, accept_downloads=True)
             page.set_default_timeout(60_000)
+            start = time.monotonic()
             page.goto(url)
             page.get_by_role("heading", name="Cases").first.wait_for()
             page.get_by_text(CASE).first.wait_for()
+            _timed("first page of a new session (no run)", start)
             page.get_by_role("heading", name=f"Overview: {CASE}").wait_for()
             _idle(page)
             _shot(page, "cases", publish=True)

@@ -72,6 +72,9 @@ elif work is None:
 
 # ----------------------------------------------------------------------------- settings and run
 
+#: Seconds the page waits for a run before showing progress instead (the run is in a worker).
+QUICK_RUN_S = 2.5
+
 
 @st.fragment
 def _settings() -> None:
@@ -176,10 +179,19 @@ def _settings() -> None:
                 handle = runs.start_run(
                     runs.RunRequest(peaks, tuple(set_ids), params, source.spectrum)
                 )
-                st.session_state["run"] = handle
-                st.session_state.pop("run_ended", None)
-                st.session_state["run_parameters"] = parameters
-                st.session_state["run_key"] = key
+                # A quick run is shown at once; a longer one gets the progress display.
+                state = handle.wait(QUICK_RUN_S)
+                if state == "done":
+                    _show_view(
+                        handle.view, parameters, key, f"Matched in {handle.elapsed_s:.1f} s."
+                    )
+                elif state == "failed":
+                    raise handle.error  # type: ignore[misc]
+                else:
+                    st.session_state["run"] = handle
+                    st.session_state.pop("run_ended", None)
+                    st.session_state["run_parameters"] = parameters
+                    st.session_state["run_key"] = key
             st.rerun()
 
 

@@ -327,6 +327,17 @@ class RunHandle:
             self._finish()
         return self.state
 
+    def wait(self, timeout_s: float) -> str:
+        """Poll until the run ends or ``timeout_s`` passed; return the state.
+
+        Lets a page show a quick run at once (one redraw) and fall back to the
+        progress display only for longer runs; the engine still runs in the worker.
+        """
+        deadline = time.monotonic() + float(timeout_s)
+        while self.poll() == "running" and time.monotonic() < deadline:
+            time.sleep(0.02)
+        return self.state
+
     def cancel(self) -> None:
         """Stop the worker (nothing was written); the state becomes ``cancelled``."""
         if self.state == "running":
