@@ -181,22 +181,24 @@ def test_elements_from_the_latest_analysis_of_the_demo_xrf_case(tmp_path, monkey
     from streamlit.testing.v1 import AppTest
 
     from tests.app.conftest import MAIN
-    from workbench.app import _services as sv
+    from workbench.app import inputs, store_access
     from workbench.casefile.store import CaseStore
     from workbench.demo import seed_demo_case
+    from workbench.matching import MatchParameters, ToleranceSpec
+    from workbench.matching.analyse import analyse_peaks
+    from workbench.matching.presentation import MatchView, element_levels
 
     root = tmp_path / "store"
     with CaseStore.open(root) as store:
         seeded = seed_demo_case(store)
         mid = seeded["measurements"]["NRFL-2026-0502"]
         m = store.get_measurement(mid)
-        got = sv.load_input(store.file_bytes(m.sha256), m.filename)
-        params = sv.build_parameters(
-            tolerance_kind="fwhm", tolerance_value=0.5, temperature_K=None, mode="emission"
-        )
-        outcome = sv.run_matching(got.peaks, ["xray"], params, spectrum=got.spectrum)
-        sv.save_analysis(store, mid, outcome, {"note": "test"}, ANALYST)
-    levels = sv.element_levels(outcome.report)
+        got = inputs.load_input(store.file_bytes(m.sha256), m.filename)
+        params = MatchParameters(tolerance=ToleranceSpec("fwhm", 0.5))
+        outcome = analyse_peaks(got.peaks, ["xray"], params, spectrum=got.spectrum)
+        view = MatchView.from_outcome(outcome)
+        store_access.save_analysis(store, mid, view, {"note": "test"}, ANALYST)
+    levels = element_levels(outcome.report)
     monkeypatch.setenv("WORKBENCH_STORE", str(root))
     at = AppTest.from_file(MAIN, default_timeout=120)
     at.run()
@@ -228,3 +230,42 @@ def test_a_bad_year_is_refused(app):
     assert not app.exception
     assert any("not a whole number" in t and "Fix" in t for t in _texts(app.error))
     assert "mat_result" not in app.session_state
+
+
+def test_a_collection_is_created_on_the_page_and_user_text_never_becomes_markdown(app, store_root):
+    # Issue 11 item 12: a material name became a live link and an outside image request.
+    from workbench.compare import add_exemplar, store_collections_root
+
+    _open(app)
+    assert app.radio(key="cmp_where").value == "store"
+    assert any("No collection" in t for t in _texts(app.info))  # says what to do
+    app.text_input(key="new_coll_id").input("glass-2026")
+    app.text_input(key="new_coll_title").input("Invented glass exemplars")
+    next(b for b in app.button if b.label == "Create collection").click().run()
+    assert not app.exception
+    assert any("Created collection glass" in t for t in _texts(app.success))
+    hostile = "[click](http://evil.example) ![x](http://evil.example/x.png) <b>bold</b>"
+    # The file uploader cannot be driven by AppTest: the sample is added with the same
+    # library call the page's form makes.
+    add_exemplar(
+        store_collections_root(store_root), "glass-2026", "K-01",
+        [data for _, data in _q_files()], material=hostile,
+    )  # fmt: skip
+    app.run()
+    app.selectbox(key="cmp_collection").set_value("glass-2026").run()
+    app.selectbox(key="cmp_exemplar").set_value("K-01").run()
+    app.radio(key="cmp_source").set_value("paste").run()
+    app.text_area(key="cmp_paste").input(_q_files()[0][1].decode()).run()
+    app.button(key="cmp_run").click().run()
+    assert not app.exception
+    rendered = [
+        str(e.value)
+        for kind in ("markdown", "caption", "warning", "info", "error", "success", "subheader")
+        for e in getattr(app, kind)
+    ]
+    rendered += [str(e.label) for e in app.expander]  # fmt: skip
+    shown = [t for t in rendered if "evil" in t]
+    assert shown  # the name is shown ...
+    for t in shown:  # ... but never as a link, an image or HTML
+        assert "](http" not in t and "<b>" not in t, t
+        assert r"\[click\]\(http" in t

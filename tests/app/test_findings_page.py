@@ -28,7 +28,32 @@ def _saved_analysis_and_key(app) -> None:
     labels["Repeat the passphrase"].input(PASSPHRASE)
     next(b for b in app.button if b.label == "Create key").click().run()
     assert not app.exception and not app.error, _texts(app.error)
+    # AppTest cannot press a download button; the page's on_click callback sets this flag.
+    app.session_state["new_key_downloaded"] = True
     app.text_input(key="lab_name").input("Invented Test Laboratory").run()
+
+
+def test_a_new_key_cannot_sign_before_it_is_downloaded_and_the_passphrase_is_cleared(
+    app, store_root
+):
+    _saved_analysis_and_key(app)
+    app.session_state["new_key_downloaded"] = False  # as after "Create key"
+    app.run()
+    assert any("cannot sign until it has been downloaded" in t for t in _texts(app.warning))
+    app.button(key="preview").click().run()
+    app.text_input(key="passphrase").input(PASSPHRASE).run()
+    app.button(key="sign").click().run()
+    assert not app.exception
+    assert any("has not been downloaded" in t for t in _texts(app.error))
+    assert app.text_input(key="passphrase").value == ""  # the secret left the field
+    assert "issued" not in app.session_state
+    app.session_state["new_key_downloaded"] = True  # what the download button's callback sets
+    app.run()
+    app.text_input(key="passphrase").input(PASSPHRASE).run()
+    app.button(key="sign").click().run()
+    assert not app.error, _texts(app.error)
+    assert app.session_state["issued"].record.id == 1
+    assert app.text_input(key="passphrase").value == ""  # cleared after success too
 
 
 def test_a_key_not_matching_the_chosen_analyst_is_refused_through_the_app(app, store_root):

@@ -3,7 +3,12 @@
 The store is seeded with :func:`workbench.demo.seed_demo_case` (invented cases
 NRFL-2026-0417, a paint chip with a LIBS spectrum, and NRFL-2026-0502); the test
 uploads the paint-chip spectrum, reads the stored measurement, runs the matching,
-saves the analysis, creates a key, signs a sheet and verifies the downloaded files.
+saves the analysis, creates a key, signs a sheet and verifies the downloaded files;
+a second test checks the refusal of a 5000 nm half-window and cancels a long run
+while another browser context keeps using the app.
+
+Timings (match, row select, tab switch, save) are printed, never asserted
+(run with ``-s`` to see them).
 
 Runs when /usr/bin/chromium exists (Debian package ``chromium``); with
 ``WORKBENCH_REQUIRE_BROWSER=1`` a missing browser fails instead of skipping.
@@ -56,11 +61,15 @@ def _seed(root: Path) -> dict:
         return seed_demo_case(store)
 
 
-@pytest.fixture
-def app_url(tmp_path):
+TIMINGS: dict[str, float] = {}
+
+
+@pytest.fixture(scope="module")
+def app_url(tmp_path_factory):
     _require_browser()
     from workbench.app.launch import app_command
 
+    tmp_path = tmp_path_factory.mktemp("e2e")
     root = tmp_path / "store"
     seeded = _seed(root)
     assert CASE in seeded["cases"]
@@ -84,6 +93,10 @@ def app_url(tmp_path):
             time.sleep(0.5)
         yield url, root
     finally:
+        if TIMINGS:
+            print("\nbrowser timings (seconds, printed not asserted):")
+            for name, value in TIMINGS.items():
+                print(f"  {name:32s} {value:6.2f}")
         proc.terminate()
         try:
             proc.wait(timeout=15)
@@ -93,7 +106,7 @@ def app_url(tmp_path):
 
 
 def _shot(page, name: str, publish: bool = False, focus=None) -> None:
-    """Screenshot the page; ``focus`` (a locator) is scrolled to the top of the view first."""
+    """Screenshot the viewport; ``focus`` (a locator) is scrolled to the top of the view first."""
     ARTIFACTS.mkdir(parents=True, exist_ok=True)
     path = ARTIFACTS / f"{name}.png"
     if focus is not None:
@@ -133,6 +146,26 @@ def _fill(page, label: str, value: str, *, in_form: bool = False) -> None:
     _idle(page)
 
 
+def _timed(name: str, start: float) -> None:
+    TIMINGS[name] = time.monotonic() - start
+
+
+def _launch(p):
+    return p.chromium.launch(
+        executable_path=str(CHROMIUM),
+        args=["--no-sandbox", "--disable-gpu", "--disable-background-networking",
+              "--disable-component-update", "--disable-sync", "--no-first-run"],
+    )  # fmt: skip
+
+
+def _select_grid_row(page, row: int) -> None:
+    """Click the selection cell of a row (1-based) of the first data grid on the page."""
+    grid = page.get_by_test_id("stDataFrame").first
+    box = grid.bounding_box()
+    # Glide data grid: a 35 px header, then 35 px rows; the selection column is at the left.
+    page.mouse.click(box["x"] + 14, box["y"] + 35 + 35 * (row - 1) + 17)
+
+
 def _upload(page, label: str, path: Path) -> None:
     widget = page.get_by_test_id("stFileUploader").filter(has_text=label)
     widget.locator("input[type=file]").set_input_files(str(path))
@@ -151,17 +184,15 @@ def test_demo_case_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_p
     chip.write_bytes(demo_file("paint_chip"))
     chip_sha = hashlib.sha256(chip.read_bytes()).hexdigest()
     with sync_playwright() as p:
-        browser = p.chromium.launch(
-            executable_path=str(CHROMIUM),
-            args=["--no-sandbox", "--disable-gpu", "--disable-background-networking",
-                  "--disable-component-update", "--disable-sync", "--no-first-run"],
-        )  # fmt: skip
+        browser = _launch(p)
         try:
             page = browser.new_page(viewport={"width": 1400, "height": 1000}, accept_downloads=True)
             page.set_default_timeout(60_000)
+            start = time.monotonic()
             page.goto(url)
             page.get_by_role("heading", name="Cases").first.wait_for()
             page.get_by_text(CASE).first.wait_for()
+            _timed("first page of a new session (no run)", start)
             page.get_by_role("heading", name=f"Overview: {CASE}").wait_for()
             _idle(page)
             _shot(page, "cases", publish=True)
@@ -192,20 +223,42 @@ def test_demo_case_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_p
                 focus=page.get_by_text("How the file was read"),
             )  # fmt: skip
 
-            # Match (shipped optical set, defaults) and save.
+            # Match (shipped optical set, defaults): results first, then the tracks.
             _nav(page, "Line matching")
+            start = time.monotonic()
             page.get_by_role("button", name="Run matching").click()
             page.get_by_role("heading", name="Element calls").wait_for(timeout=120_000)
-            page.get_by_role("heading", name="Observed and reference lines").wait_for()
+            _timed("match LIBS (demo paint chip)", start)
             _idle(page)
-            _shot(page, "matching-warnings")
+            page.evaluate("() => document.querySelector('[data-testid=stMain]')?.scrollTo(0, 0)")
+            page.wait_for_timeout(300)
+            ARTIFACTS.mkdir(parents=True, exist_ok=True)
+            page.screenshot(path=str(ARTIFACTS / "matching-first-viewport.png"))
+            grid = page.get_by_test_id("stDataFrame").first
+            box = grid.bounding_box()
+            # The element calls are on the first screen: the grid starts above the fold.
+            assert box is not None and box["y"] + 80 < page.viewport_size["height"], box
+            shutil.copyfile(ARTIFACTS / "matching-first-viewport.png", SCREENSHOTS / "matching.png")
+            start = time.monotonic()
+            _select_grid_row(page, 1)  # the first call (Ba II on the invented chip)
+            page.get_by_text("Matched lines of").wait_for()
+            _timed("row select (element grid)", start)
+            _idle(page)
+            start = time.monotonic()
+            page.get_by_role("tab", name="Unassigned and shared lines").click()
+            page.get_by_role("tabpanel").filter(has_text="Status").first.wait_for()
+            _timed("tab switch (results tabs)", start)
+            page.get_by_role("tab", name="Evidence").click()
             _shot(
-                page, "matching", publish=True,
+                page, "matching-tracks", publish=True,
                 focus=page.get_by_role("heading", name="Observed and reference lines"),
             )  # fmt: skip
             _fill(page, "Analyst (your name)", ANALYST)
+            start = time.monotonic()
             page.get_by_role("button", name="Save analysis to the case").click()
             page.get_by_text("Saved as analysis #1").wait_for()
+            _timed("save analysis", start)
+            _idle(page)
 
             # Key, sheet, signature.
             _nav(page, "Findings")
@@ -215,6 +268,11 @@ def test_demo_case_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_p
             _fill(page, "Repeat the passphrase", PASSPHRASE, in_form=True)
             page.get_by_role("button", name="Create key").click()
             page.get_by_text("Registered key").wait_for()
+            _idle(page)
+            # A key created in the browser signs only after it has been downloaded.
+            with page.expect_download() as dl:
+                page.get_by_role("button", name="Download private key (PEM)").click()
+            assert b"ENCRYPTED PRIVATE KEY" in Path(dl.value.path()).read_bytes()
             _idle(page)
             page.get_by_role("tab", name="Draft and sign").click()
             _fill(page, "Laboratory", "Northbridge Regional Forensic Laboratory (invented)")
@@ -261,6 +319,25 @@ def test_demo_case_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_p
             page.get_by_text("Possible anachronism").first.wait_for()
             _idle(page)
             _shot(page, "comparison", publish=True)
+
+            # The XRF case: energies, X-ray families, no temperature section.
+            page.get_by_test_id("stSidebar").get_by_test_id("stSelectbox").click()
+            page.get_by_role("option", name="NRFL-2026-0502").click()
+            _idle(page)
+            _nav(page, "Measurement")
+            page.get_by_role("button", name="Read stored measurement").click()
+            page.get_by_text("Stored measurement #2 of NRFL-2026-0502/1").wait_for()
+            _idle(page)
+            _nav(page, "Line matching")
+            start = time.monotonic()
+            page.get_by_role("button", name="Run matching").click()
+            page.get_by_role("heading", name="Element calls").wait_for(timeout=120_000)
+            _timed("match XRF (demo white ground)", start)
+            _idle(page)
+            page.get_by_text("photon energy (eV)").first.wait_for()  # the axis title
+            assert page.get_by_text("Working temperature").count() == 0
+            tracks = page.get_by_role("heading", name="Observed and reference lines")
+            _shot(page, "matching-xrf", publish=True, focus=tracks)
         except Exception:
             _shot(page, "failure")
             raise
@@ -281,3 +358,84 @@ def test_demo_case_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_p
     called = {f["element"] for f in content["findings"] if f["verdict_level"] >= 2}
     # The invented paint chip was synthesised with Ti, Ba, Ca, Fe, Cr, Si, Mg (workbench/demo.py).
     assert {"Ti", "Ba", "Ca"} <= called
+
+
+def test_a_wide_window_is_refused_and_a_long_run_cancels_while_another_session_works(app_url):
+    import numpy as np
+    from playwright.sync_api import sync_playwright
+
+    url, _root = app_url
+    # 3000 invented random lines: at R = 500 the engine needs tens of seconds (measured
+    # on the development machine), long enough to cancel.
+    rng = np.random.default_rng(20261202)
+    x = np.sort(rng.uniform(200.0, 900.0, 3000))
+    pasted = "wavelength_nm,intensity\n" + "".join(
+        f"{a:.4f},{b:.1f}\n" for a, b in zip(x, rng.uniform(1.0, 1000.0, x.size), strict=True)
+    )
+    with sync_playwright() as p:
+        browser = _launch(p)
+        try:
+            first = browser.new_context(viewport={"width": 1400, "height": 1000})
+            page = first.new_page()
+            page.set_default_timeout(60_000)
+            page.goto(url)
+            page.get_by_role("heading", name="Cases").first.wait_for()
+            _idle(page)
+            _nav(page, "Measurement")
+            page.get_by_role("tab", name="Paste from a spreadsheet").click()
+            area = page.get_by_label("Paste cells copied from a spreadsheet (with the header row)")
+            area.fill(pasted)
+            area.press("Control+Enter")
+            _idle(page)
+            page.get_by_role("button", name="Read pasted table").click()
+            page.get_by_text("How the file was read").wait_for()
+            _idle(page)
+            _nav(page, "Line matching")
+
+            # The setting that hung the server in issue 13: a fixed half-window of 5000 nm.
+            page.get_by_label("Tolerance rule").click()
+            page.get_by_role("option", name="Fixed half-window (nm)").click()
+            _idle(page)
+            _fill(page, "Fixed half-window (nm)", "5000")
+            start = time.monotonic()
+            page.get_by_role("button", name="Run matching").click()
+            page.get_by_text("outside the accepted range").wait_for(timeout=10_000)
+            _timed("refusal of a 5000 nm half-window", start)
+            assert page.get_by_text("elapsed").count() == 0  # no run was started
+            _shot(page, "refusal")
+
+            # A long but legitimate run (R = 500), cancelled while another session works.
+            page.get_by_label("Tolerance rule").click()
+            page.get_by_role("option", name="Resolving power R (window = λ/R)").click()
+            _idle(page)
+            _fill(page, "Resolving power R (window = λ/R)", "500")
+            page.get_by_role("button", name="Run matching").click()
+            page.get_by_text("elapsed").first.wait_for(timeout=30_000)
+            _shot(page, "run-in-progress")
+
+            second = browser.new_context(viewport={"width": 1200, "height": 900})
+            other = second.new_page()
+            other.set_default_timeout(30_000)
+            start = time.monotonic()
+            other.goto(url)
+            other.get_by_role("heading", name="Cases").first.wait_for()
+            other.get_by_text(CASE).first.wait_for()
+            _timed("other session: first page during a run", start)
+            start = time.monotonic()
+            other.get_by_test_id("stSidebarNav").get_by_role("link", name="Items & custody").click()
+            other.get_by_text("Chain of custody verified").wait_for()
+            _timed("other session: next page during a run", start)
+            # The first session's run is still going while the other was served.
+            assert page.get_by_text("elapsed").count() >= 1
+
+            page.get_by_role("button", name="Cancel the run").click()
+            page.get_by_text("Run cancelled after").wait_for(timeout=15_000)
+            _idle(page)
+            assert page.get_by_role("heading", name="Element calls").count() == 0
+            other.goto(url)
+            other.get_by_role("heading", name="Cases").first.wait_for()  # still serving
+        except Exception:
+            _shot(page, "failure-cancel")
+            raise
+        finally:
+            browser.close()

@@ -1,4 +1,10 @@
-"""Streamlit-side helpers shared by the pages: store location, case choice, errors, cautions."""
+"""Streamlit-side helpers shared by the pages: store location, case choice, errors, text.
+
+User text is never rendered as Markdown or HTML: every message box, caption
+or label that carries text a user typed (or a file or collection holds) goes
+through :func:`plain`, which escapes every Markdown-active character, or is
+shown with ``st.text`` / a table.
+"""
 
 from __future__ import annotations
 
@@ -6,10 +12,11 @@ import contextlib
 import sys
 from collections.abc import Iterator
 from pathlib import Path
+from typing import Any
 
 import streamlit as st
 
-from workbench.app import _services as sv
+from workbench.app import store_access
 from workbench.errors import WorkbenchError
 
 __all__ = [
@@ -18,8 +25,12 @@ __all__ = [
     "choose_case",
     "current_case",
     "guarded_step",
+    "load_input_cached",
+    "plain",
+    "result_cache",
     "shown_errors",
     "store_root",
+    "warm_workers",
 ]
 
 #: The app's own wording of the standing cautions (the sheet prints the library's).
@@ -32,22 +43,40 @@ CAUTIONS: tuple[str, ...] = (
     "safety procedures and with the interlocks in place.",
 )
 
+_MD_ACTIVE = frozenset("\\`*_{}[]()<>#+-.!|~$:&")
+
+
+def plain(text: Any) -> str:
+    """Escape every Markdown/HTML-active character so user text shows literally.
+
+    Links (``[a](http://x)``, bare ``http://x``), images, emphasis, headings,
+    HTML tags and LaTeX (``$…$``) all lose their meaning; newlines are kept
+    as spaces so one value cannot start a new block.
+    """
+    out = []
+    for ch in "" if text is None else str(text):
+        if ch in "\r\n":
+            out.append(" ")
+        else:
+            out.append("\\" + ch if ch in _MD_ACTIVE else ch)
+    return "".join(out)
+
 
 def store_root() -> Path:
     """The case store of this session: chosen once, from --store, $WORKBENCH_STORE or default."""
     if "store_root" not in st.session_state:
-        arg = sv.store_root_from_argv(sys.argv[1:])
-        st.session_state["store_root"] = str(sv.resolve_root(arg))
+        arg = store_access.store_root_from_argv(sys.argv[1:])
+        st.session_state["store_root"] = str(store_access.resolve_root(arg))
     return Path(st.session_state["store_root"])
 
 
 @contextlib.contextmanager
 def shown_errors() -> Iterator[None]:
-    """Show a workbench error as a red box with its remedy instead of a traceback."""
+    """Show a workbench error as a box with its remedy instead of a traceback."""
     try:
         yield
     except WorkbenchError as exc:
-        st.error(sv.md_escape(str(exc)), icon=":material/error:")
+        st.error(plain(str(exc)), icon=":material/error:")
 
 
 @contextlib.contextmanager
@@ -60,10 +89,10 @@ def guarded_step(step: str) -> Iterator[None]:
     try:
         yield
     except WorkbenchError as exc:
-        st.error(sv.md_escape(str(exc)), icon=":material/error:")
+        st.error(plain(str(exc)), icon=":material/error:")
     except Exception as exc:  # a lab user gets a message, not a traceback
         st.error(
-            sv.md_escape(
+            plain(
                 f"{step} failed unexpectedly ({type(exc).__name__}: {exc}); nothing was stored. "
                 "Fix: report this to the workbench maintainers with the case number"
             ),
@@ -76,9 +105,9 @@ def current_case() -> str | None:
     return st.session_state.get("case_number")
 
 
-def cautions() -> None:
+def cautions(expanded: bool = False) -> None:
     """Show the standing cautions."""
-    with st.expander("Cautions — read before relying on any result", expanded=True):
+    with st.expander("Cautions — read before relying on any result", expanded=expanded):
         for c in CAUTIONS:
             st.caption("• " + c)
 
@@ -88,3 +117,30 @@ def choose_case(case_number: str) -> None:
     st.session_state["pending_case"] = case_number
     st.session_state["case_number"] = case_number
     st.rerun()
+
+
+@st.cache_data(max_entries=4, show_spinner="Reading the input…")
+def load_input_cached(data: bytes, name: str, options: tuple[tuple[str, Any], ...]) -> Any:
+    """:func:`workbench.app.inputs.load_input`, cached per bytes and options (reruns reuse it)."""
+    from workbench.app.inputs import load_input
+
+    return load_input(data, name, **dict(options))
+
+
+@st.cache_resource
+def result_cache() -> Any:
+    """The server's :class:`workbench.app.runs.ResultCache` (one for all sessions)."""
+    from workbench.app.runs import ResultCache
+
+    return ResultCache()
+
+
+@st.cache_resource
+def warm_workers() -> bool:
+    """Start the engine's fork server in the background, once per app server."""
+    import threading
+
+    from workbench.app.runs import warm_up
+
+    threading.Thread(target=warm_up, name="workbench-warm-up", daemon=True).start()
+    return True

@@ -7,12 +7,12 @@ from __future__ import annotations
 
 import streamlit as st
 
-from workbench.app import _services as sv
-from workbench.app import _ui
+from workbench.app import _ui, store_access
 
 st.set_page_config(page_title="Line-matching workbench", page_icon="🔬", layout="wide")
 
 root = _ui.store_root()
+_ui.warm_workers()
 
 pages = [
     st.Page("page_cases.py", title="Cases", icon=":material/folder_open:", default=True),
@@ -27,7 +27,7 @@ nav = st.navigation(pages)
 with st.sidebar:
     st.caption("Case store")
     st.code(str(root), language=None)
-    with _ui.shown_errors(), sv.open_store(root) as store:
+    with _ui.shown_errors(), store_access.open_store(root) as store:
         numbers = [c.case_number for c in store.list_cases()]
     if numbers:
         # A page asks for another case by setting "pending_case" and rerunning;

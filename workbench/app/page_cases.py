@@ -4,13 +4,12 @@ from __future__ import annotations
 
 import streamlit as st
 
-from workbench.app import _services as sv
-from workbench.app import _ui
+from workbench.app import _ui, forms, store_access
 
 st.title("Cases")
 root = _ui.store_root()
 
-with _ui.shown_errors(), sv.open_store(root) as store:
+with _ui.shown_errors(), store_access.open_store(root) as store:
     cases = store.list_cases()
     left, right = st.columns([3, 2])
     with left:
@@ -56,24 +55,28 @@ with _ui.shown_errors(), sv.open_store(root) as store:
     with right:
         st.subheader("New case")
         with st.form("new_case", clear_on_submit=True):
-            number = st.text_input("Case number", placeholder="LAB-2026-0001")
+            number = st.text_input(
+                "Case number",
+                placeholder="LAB-2026-0001",
+                help="Letters and digits in groups joined by single '-', '.' or '_'.",
+            )
             title = st.text_input("Title")
             party = st.text_input("Requesting party")
             submitted = st.form_submit_button("Create case")
         if submitted:
             with _ui.shown_errors():
-                rec = store.create_case(number, title, party)
-                st.success("Case created: " + sv.md_escape(rec.case_number))
+                rec = store.create_case(forms.check_case_number(number), title, party)
+                st.success("Case created: " + _ui.plain(rec.case_number))
                 _ui.choose_case(rec.case_number)
 
     number = _ui.current_case()
     if number:
         st.divider()
         case = store.get_case(number)
-        st.subheader("Overview: " + sv.md_escape(case.case_number))
+        st.subheader("Overview: " + _ui.plain(case.case_number))
         st.text(f"{case.title}\nRequested by {case.requesting_party}; status {case.status}")
         items = store.list_items(number)
-        status = sv.chain_status(store, number)
+        status = store_access.chain_status(store, number)
         if status["ok"]:
             st.success(f"Custody chains and records of this case verify ({len(items)} items).")
         else:

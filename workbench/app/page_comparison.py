@@ -12,8 +12,8 @@ import json
 
 import streamlit as st
 
-from workbench.app import _services as sv
-from workbench.app import _ui
+from workbench.app import _ui, forms, inputs, store_access
+from workbench.matching import presentation as pr
 
 st.title("Comparison")
 root = _ui.store_root()
@@ -40,9 +40,10 @@ def _show_comparison(d: dict) -> None:
     """One questioned-vs-known result (the library's dict)."""
     known = d["known"]
     outcome = d["overall"]["outcome"]
+    # Sample ids and material names are user text: shown literally, never as Markdown.
     text = (
-        f"Questioned item against {known['exemplar']} "
-        f"({known['material'] or 'material not recorded'}): **{outcome.upper()}**"
+        f"Questioned item against {_ui.plain(known['exemplar'])} "
+        f"({_ui.plain(known['material'] or 'material not recorded')}): **{outcome.upper()}**"
     )
     # Neutral colours on purpose: neither outcome is good or bad news in itself.
     if outcome == "distinguishable":
@@ -52,7 +53,7 @@ def _show_comparison(d: dict) -> None:
     else:
         st.warning(text + " (no criterion could be applied)")
     for reason in d["overall"]["distinguishing"]:
-        st.caption("• " + sv.md_escape(reason))
+        st.caption("• " + _ui.plain(reason))
     el = d["elements"]
     st.markdown("**Elements**")
     if el["evaluated"]:
@@ -64,9 +65,9 @@ def _show_comparison(d: dict) -> None:
             ],
             hide_index=True,
         )  # fmt: skip
-        st.caption(sv.md_escape(el.get("note", "")))
+        st.caption(_ui.plain(el.get("note", "")))
     else:
-        st.caption("Not evaluated: " + sv.md_escape(el["reason"]) + ".")
+        st.caption("Not evaluated: " + _ui.plain(el["reason"]) + ".")
     st.markdown("**Line-intensity ratios**")
     if d["ratios"]:
         st.dataframe(
@@ -88,6 +89,48 @@ def _show_comparison(d: dict) -> None:
         f"(range {sim['min_line_overlap']:.3f}–{sim['max_line_overlap']:.3f}); log-intensity "
         f"correlation {'n/a' if agree is None else f'{agree:.3f}'}."
     )
+
+
+def _manage_collections(coll_root, *, expanded: bool) -> None:
+    """Create a collection in this store and add known samples (replicate peak lists) to it."""
+    from workbench.compare import add_exemplar, create_collection
+
+    with st.expander("Create a collection or add a known sample", expanded=expanded):
+        with st.form("new_collection", clear_on_submit=True):
+            c1, c2 = st.columns([1, 2])
+            new_id = c1.text_input("Collection id (e.g. glass-2026)", key="new_coll_id")
+            new_title = c2.text_input("Title", key="new_coll_title")
+            make = st.form_submit_button("Create collection")
+        if make:
+            with _ui.shown_errors():
+                coll_id = forms.check_collection_id(new_id)
+                create_collection(coll_root, coll_id, new_title)
+                st.success(f"Created collection {_ui.plain(coll_id)}.")
+        existing = [r["id"] for r in list_collections(coll_root) if "error" not in r]
+        if not existing:
+            return
+        with st.form("new_exemplar", clear_on_submit=True):
+            c1, c2, c3 = st.columns(3)
+            target = c1.selectbox("Add to collection", existing, key="new_ex_coll")
+            ex_id = c2.text_input("Known sample id (e.g. K-01)", key="new_ex_id")
+            material = c3.text_input("Material (optional)", key="new_ex_material")
+            files = st.file_uploader(
+                "Replicate peak lists of the known sample (one file each)",
+                accept_multiple_files=True,
+                key="new_ex_files",
+            )
+            add = st.form_submit_button("Add known sample")
+        if add:
+            with _ui.shown_errors():
+                from workbench.errors import InputError
+
+                if not files:
+                    raise InputError("no replicate file given", "upload one file per replicate")
+                add_exemplar(
+                    coll_root, target, forms.check_collection_id(ex_id),
+                    [f.getvalue() for f in files], material=material,
+                )  # fmt: skip
+                st.success(f"Added {_ui.plain(ex_id)} to {_ui.plain(target)}.")
 
 
 def _known_tab(store) -> None:
@@ -143,14 +186,19 @@ def _known_tab(store) -> None:
         }.get,
         key="cmp_where",
     )
-    coll_root = sv.collections_root(where, root)
+    coll_root = forms.collections_root(where, root)
     rows = list_collections(coll_root)
     usable = [r for r in rows if "error" not in r]
     for r in rows:
         if "error" in r:
-            st.error(f"Collection {sv.md_escape(r['id'])} is unusable: " + sv.md_escape(r["error"]))
+            st.error(f"Collection {_ui.plain(r['id'])} is unusable: " + _ui.plain(r["error"]))
+    if where == "store":
+        _manage_collections(coll_root, expanded=not usable)
     if not usable:
-        st.info(f"No collection in {sv.md_escape(coll_root)}.")
+        st.info(
+            f"No collection in {_ui.plain(coll_root)} yet: create one above (this store's "
+            "collections) and add known samples to it, or choose the shared collections."
+        )
         return
     coll_id = c2.selectbox(
         "Collection",
@@ -226,14 +274,14 @@ def _known_tab(store) -> None:
                     raise InputError("no questioned measurement chosen", "choose at least one")
                 for mid in chosen_ids:
                     m = store.get_measurement(mid)
-                    got = sv.load_input(store.file_bytes(m.sha256), m.filename)
+                    got = inputs.load_input(store.file_bytes(m.sha256), m.filename)
                     questioned.append(got.peaks)
             elif source == "upload":
                 if not uploads:
                     raise InputError("no questioned file uploaded", "upload one file per replicate")
-                questioned = [sv.load_input(u.getvalue(), u.name).peaks for u in uploads]
+                questioned = [inputs.load_input(u.getvalue(), u.name).peaks for u in uploads]
             else:
-                questioned = [sv.load_input(pasted.encode("utf-8"), "<pasted>").peaks]
+                questioned = [inputs.load_input(pasted.encode("utf-8"), "<pasted>").peaks]
             axis = questioned[0].axis
             value = float(tol_value) or (
                 _DEFAULT_TOL[axis] if tol_kind == "fixed" else 5000.0 if axis == "wavelength"
@@ -253,16 +301,16 @@ def _known_tab(store) -> None:
                         "elements from an analysis need a stored questioned measurement",
                         "choose stored measurements, or type the elements",
                     )
-                a = sv.latest_analysis(store, number, chosen_ids)
+                a = store_access.latest_analysis(store, number, chosen_ids)
                 if a is None:
                     raise InputError(
                         "no saved analysis of the chosen measurement(s)",
                         "save an analysis of it first, or type the elements",
                     )
-                q_elements = sv.analysis_report(a)
+                q_elements = store_access.analysis_report(a)
             common = {
                 "tolerance": tolerance,
-                "ratios": sv.parse_ratios(ratios_txt, ratio_medium),
+                "ratios": forms.parse_ratios(ratios_txt, ratio_medium),
                 "rule": rule,
                 "k": float(k),
                 "floor_rsd": float(floor_rsd),
@@ -279,7 +327,7 @@ def _known_tab(store) -> None:
     if d is not None:
         st.divider()
         if d["kind"] == "questioned-vs-collection comparison":
-            st.subheader(f"Against every known sample of {sv.md_escape(d['collection'])}")
+            st.subheader(f"Against every known sample of {_ui.plain(d['collection'])}")
             st.caption(
                 "Ranked by line overlap, which only orders the list; the outcome of each row "
                 "comes from the element and ratio criteria."
@@ -296,7 +344,7 @@ def _known_tab(store) -> None:
                 hide_index=True,
             )  # fmt: skip
             for ex_id, rep in d["reports"].items():
-                with st.expander(f"Details: {ex_id}"):
+                with st.expander(f"Details: {_ui.plain(ex_id)}"):
                     _show_comparison(rep)
         else:
             st.subheader("Outcome")
@@ -326,16 +374,16 @@ def _materials_tab(store) -> None:
     )
     elements_arg = None
     if m_source == "analysis":
-        a = sv.latest_analysis(store, number) if number else None
+        a = store_access.latest_analysis(store, number) if number else None
         if a is None:
             st.info("No saved analysis in this case: type the elements instead.")
         else:
-            levels = sv.element_levels(sv.analysis_report(a))
+            levels = pr.element_levels(store_access.analysis_report(a))
             seen = [e for e, v in levels.items() if v["level"] >= 1]
             present = [e for e, v in levels.items() if v["level"] >= 2]
             st.caption(
-                f"Analysis #{a.id} of item {sv.md_escape(a.item_number)} "
-                f"({sv.md_escape(a.created_at)}). Elements called probable or better are "
+                f"Analysis #{a.id} of item {_ui.plain(a.item_number)} "
+                f"({_ui.plain(a.created_at)}). Elements called probable or better are "
                 "chosen; add a 'possible' one only after checking its lines."
             )
             elements_arg = st.multiselect(
@@ -356,7 +404,7 @@ def _materials_tab(store) -> None:
 
             if not elements_arg:
                 raise InputError("no elements given", "choose or type the detected elements")
-            rep = candidate_materials(elements_arg, sv.parse_year(year_txt))
+            rep = candidate_materials(elements_arg, forms.parse_year(year_txt))
             st.session_state["mat_result"] = rep.to_dict()
 
     r = st.session_state.get("mat_result")
@@ -367,7 +415,7 @@ def _materials_tab(store) -> None:
             f"{r['claimed_year'] if r['claimed_year'] is not None else 'not given'}"
         )
         for flag in r["anachronisms"]:
-            st.error("Possible anachronism: " + sv.md_escape(flag))
+            st.error("Possible anachronism: " + _ui.plain(flag))
         if r["candidates"]:
             st.dataframe(
                 [
@@ -397,7 +445,7 @@ def _materials_tab(store) -> None:
 
 
 tab_known, tab_materials = st.tabs(["Questioned vs known", "Elements to materials"])
-with tab_known, _ui.shown_errors(), sv.open_store(root) as store:
+with tab_known, _ui.shown_errors(), store_access.open_store(root) as store:
     _known_tab(store)
-with tab_materials, _ui.shown_errors(), sv.open_store(root) as store:
+with tab_materials, _ui.shown_errors(), store_access.open_store(root) as store:
     _materials_tab(store)

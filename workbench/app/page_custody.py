@@ -4,8 +4,7 @@ from __future__ import annotations
 
 import streamlit as st
 
-from workbench.app import _display, _ui
-from workbench.app import _services as sv
+from workbench.app import _ui, figures, forms, store_access
 
 st.title("Items & custody")
 root = _ui.store_root()
@@ -16,10 +15,10 @@ if not number:
 
 KINDS = ("transferred", "sealed", "opened", "returned", "note", "correction", "disposed")
 
-with _ui.shown_errors(), sv.open_store(root) as store:
-    st.caption("Case " + sv.md_escape(number))
+with _ui.shown_errors(), store_access.open_store(root) as store:
+    st.caption("Case " + _ui.plain(number))
     items = store.list_items(number)
-    status = sv.chain_status(store, number)
+    status = store_access.chain_status(store, number)
     if status["ok"]:
         st.success("Chain of custody verified: every event hash, link and rule checks out.")
     else:
@@ -54,7 +53,9 @@ with _ui.shown_errors(), sv.open_store(root) as store:
         st.subheader("Register an item or sub-sample")
         with st.form("new_item", clear_on_submit=True):
             c1, c2 = st.columns(2)
-            item_number = c1.text_input("Item number")
+            item_number = c1.text_input(
+                "Item number", help="Letters and digits, e.g. 1, 1a, 2.3 (no spaces or '/')."
+            )
             parent = c2.selectbox(
                 "Sub-sample of (leave empty for a new item)",
                 [""] + [i.item_number for i in items],
@@ -67,12 +68,15 @@ with _ui.shown_errors(), sv.open_store(root) as store:
             seals = c5.text_input("Seal numbers (comma-separated)")
             location = c6.text_input("Storage location")
             note = st.text_input("Note (optional)")
+            received_at = st.datetime_input(
+                "Received at (laboratory time)", value=forms.lab_now(), key="item_at"
+            )
             add = st.form_submit_button("Register")
         if add:
             with _ui.shown_errors():
                 rec = store.add_item(
                     number,
-                    item_number,
+                    forms.check_item_number(item_number),
                     description,
                     parent_item=parent or None,
                     seal_numbers=[s.strip() for s in seals.split(",") if s.strip()],
@@ -80,8 +84,9 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                     received_by=received_by,
                     received_from=received_from or None,
                     note=note or None,
+                    at=forms.lab_time(received_at, "time received"),
                 )
-                st.success("Registered " + sv.md_escape(rec.label))
+                st.success("Registered " + _ui.plain(rec.label))
                 st.rerun()
 
     with tab_event:
@@ -104,6 +109,9 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                     "Corrects event # (corrections only)", min_value=0, step=1, value=0
                 )
                 note = st.text_area("Note")
+                event_at = st.datetime_input(
+                    "When (laboratory time)", value=forms.lab_now(), key="event_at"
+                )
                 record = st.form_submit_button("Record event")
             if record:
                 with _ui.shown_errors():
@@ -117,6 +125,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                         seal_number=seal_number or None,
                         note=note or None,
                         corrects=int(corrects) if kind == "correction" and corrects else None,
+                        at=forms.lab_time(event_at, "event time"),
                     )
                     st.success(f"Recorded event #{ev.seq} ({ev.kind}).")
                     st.rerun()
@@ -127,7 +136,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
             events += [e.to_dict() for e in store.custody_events(i, own_only=True)]
         if events:
             broken = {k: v["seq"] for k, v in status["items"].items() if k and v["seq"] is not None}
-            st.plotly_chart(_display.timeline_figure(events, broken), key="timeline")
+            st.plotly_chart(figures.timeline_figure(events, broken), key="timeline")
             pick = st.selectbox("Show the full history of", [i.item_number for i in items])
             hist = store.custody_events((number, pick))
             st.dataframe(

@@ -4,15 +4,67 @@ from __future__ import annotations
 
 import streamlit as st
 
-from workbench.app import _services as sv
-from workbench.app import _ui
+from workbench.app import _ui, store_access
+from workbench.errors import WorkbenchError
 
 st.title("Findings")
 root = _ui.store_root()
 number = _ui.current_case()
 _ui.cautions()
 
-with _ui.shown_errors(), sv.open_store(root) as store:
+
+def _sign(root, aid: int, made_from: tuple, key_up) -> None:
+    """Sign the previewed draft (a button callback: it runs before the page is drawn).
+
+    Running as a callback lets it empty the passphrase field after every attempt,
+    successful or not, so the secret never stays on screen.
+    """
+    passphrase = st.session_state.get("passphrase", "")
+    st.session_state["passphrase"] = ""
+    draft = st.session_state.get("draft")
+    try:
+        from workbench.errors import InputError, KeyFileError
+        from workbench.findings.issue import sign_and_store_sheet
+
+        if draft is None:
+            raise InputError("no draft to sign", "press 'Preview draft' and check it first")
+        if st.session_state.get("draft_made_from") != made_from:
+            raise InputError(
+                "the analysis, analyst, laboratory, notes or limitations changed after the "
+                "draft was previewed",
+                "press 'Preview draft' again and check the new draft",
+            )
+        pem = key_up.getvalue() if key_up is not None else None
+        if not pem and st.session_state.get("new_private_key"):
+            if not st.session_state.get("new_key_downloaded"):
+                raise KeyFileError(
+                    "the key created in this session has not been downloaded yet",
+                    "download the private key on the Signing keys tab and keep it safe first",
+                )
+            pem = st.session_state["new_private_key"]
+        if not pem:
+            raise KeyFileError("no private key given", "upload the analyst's private key PEM")
+        with store_access.open_store(root) as store:
+            issued = sign_and_store_sheet(
+                store, aid, draft, private_key_pem=pem, passphrase=passphrase
+            )
+        st.session_state["issued"] = issued
+        for k in ("draft", "draft_pdf", "draft_made_from"):
+            st.session_state.pop(k, None)
+    except WorkbenchError as exc:
+        st.session_state["sign_error"] = str(exc)
+    except Exception as exc:  # a lab user gets a message, not a traceback
+        st.session_state["sign_error"] = (
+            f"Signing the sheet failed unexpectedly ({type(exc).__name__}: {exc}); nothing "
+            "was stored. Fix: report this to the workbench maintainers with the case number"
+        )
+
+
+def _key_downloaded() -> None:
+    st.session_state["new_key_downloaded"] = True
+
+
+with _ui.shown_errors(), store_access.open_store(root) as store:
     tab_issue, tab_keys, tab_verify = st.tabs(["Draft and sign", "Signing keys", "Verify a sheet"])
 
     with tab_keys:
@@ -46,22 +98,30 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                 pair = generate_key_pair(p1)
                 rec = store.register_analyst(name, role, pair.public_key_pem)
                 st.session_state["new_private_key"] = pair.private_key_pem
+                st.session_state["new_key_downloaded"] = False
                 st.session_state["new_key_fingerprint"] = rec.fingerprint
-                st.success("Registered key " + sv.md_escape(rec.fingerprint))
+                st.success("Registered key " + _ui.plain(rec.fingerprint))
         if st.session_state.get("new_private_key"):
-            st.warning(
-                "Download the private key now and keep it safe: the store keeps only the public "
-                "key. It is encrypted with the passphrase."
-            )
+            if not st.session_state.get("new_key_downloaded"):
+                st.warning(
+                    "Download the private key now and keep it safe: the store keeps only the "
+                    "public key, and the key cannot sign until it has been downloaded. It is "
+                    "encrypted with the passphrase."
+                )
             st.download_button(
                 "Download private key (PEM)",
                 st.session_state["new_private_key"],
                 file_name="signing-key.pem",
                 mime="application/x-pem-file",
                 key="dl_private_key",
+                on_click=_key_downloaded,
             )
 
     with tab_issue:
+        # Technical review and the analyst's decisions (accept / reject an element call or
+        # a line assignment) belong between choosing the analysis and previewing the draft,
+        # once the findings library provides them: this page will only call that API and
+        # show its records, the draft then carries them.
         if not number:
             st.info("Choose a case first.")
         else:
@@ -107,10 +167,10 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                     lab = {"name": lab_name}
                     if lab_acc:
                         lab["accreditation"] = lab_acc
-                    made_from = sv.draft_key(aid, fp, lab, notes, limitations)
+                    made_from = store_access.draft_key(aid, fp, lab, notes, limitations)
                     if st.button("Preview draft", key="preview"):
                         with _ui.shown_errors():
-                            content = sv.draft_sheet(
+                            content = store_access.draft_sheet(
                                 store, aid, lab=lab, analyst_fingerprint=fp, notes=notes,
                                 limitations=limitations,
                             )  # fmt: skip
@@ -149,43 +209,24 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                         "Private key (PEM); a key created in this session is used if none is given",
                         key="key_upload",
                     )
-                    passphrase = st.text_input("Passphrase", type="password", key="passphrase")
+                    st.text_input("Passphrase", type="password", key="passphrase")
                     st.caption(
                         "The previewed draft is what gets signed, with its issue time; change "
-                        "anything above and preview again before signing."
+                        "anything above and preview again before signing. The passphrase "
+                        "field is emptied after every attempt."
                     )
-                    if st.button("Sign and issue the sheet", type="primary", key="sign"):
-                        with _ui.guarded_step("Signing the sheet"), st.spinner("Signing…"):
-                            from workbench.errors import InputError, KeyFileError
-                            from workbench.findings.issue import sign_and_store_sheet
-
-                            if draft is None:
-                                raise InputError(
-                                    "no draft to sign", "press 'Preview draft' and check it first"
-                                )
-                            if st.session_state.get("draft_made_from") != made_from:
-                                raise InputError(
-                                    "the analysis, analyst, laboratory, notes or limitations "
-                                    "changed after the draft was previewed",
-                                    "press 'Preview draft' again and check the new draft",
-                                )
-                            pem = key_up.getvalue() if key_up is not None else None
-                            pem = pem or st.session_state.get("new_private_key")
-                            if not pem:
-                                raise KeyFileError(
-                                    "no private key given", "upload the analyst's private key PEM"
-                                )
-                            issued = sign_and_store_sheet(
-                                store, aid, draft, private_key_pem=pem, passphrase=passphrase
-                            )
-                            st.session_state["issued"] = issued
-                            for k in ("draft", "draft_pdf", "draft_made_from"):
-                                st.session_state.pop(k, None)
+                    st.button(
+                        "Sign and issue the sheet", type="primary", key="sign",
+                        on_click=_sign, args=(root, aid, made_from, key_up),
+                    )  # fmt: skip
+                    if st.session_state.get("sign_error"):
+                        st.error(_ui.plain(st.session_state.pop("sign_error")),
+                                 icon=":material/error:")  # fmt: skip
                     issued = st.session_state.get("issued")
                     if issued is not None:
                         st.success(
                             f"Issued findings sheet #{issued.record.id}, signed by "
-                            f"{sv.md_escape(issued.record.analyst)}."
+                            f"{_ui.plain(issued.record.analyst)}."
                         )
                         stem = f"findings-{issued.record.case_number}-{issued.record.id}"
                         c1, c2, c3, c4 = st.columns(4)
@@ -230,7 +271,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                         store, v_pdf.getvalue(), v_json.getvalue(), v_rec.getvalue()
                     )
                     st.success(
-                        f"VALID: signed by {sv.md_escape(res.signer)} at {res.signed_at} "
+                        f"VALID: signed by {_ui.plain(res.signer)} at {res.signed_at} "
                         f"with key {res.key_fingerprint[:19]}…"
                     )
                     st.text("\n".join("✓ " + c for c in res.checks))

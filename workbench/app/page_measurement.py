@@ -8,8 +8,7 @@ import numpy as np
 import pandas as pd
 import streamlit as st
 
-from workbench.app import _display, _ui
-from workbench.app import _services as sv
+from workbench.app import _ui, figures, forms, inputs, store_access
 
 st.title("Measurement")
 root = _ui.store_root()
@@ -19,15 +18,28 @@ TECHNIQUES = ("LIBS", "spark OES", "ICP-OES", "XRF", "absorption", "other")
 
 
 def _read(data: bytes, name: str, measurement_id: int | None, item: str | None) -> None:
+    # Whatever was on screen belongs to the previous input: drop it first, so a read
+    # error never leaves the old input (or its results) looking current.
+    for k in (
+        "work",
+        "work_measurement_id",
+        "work_item",
+        "view",
+        "view_input_sha",
+        "outcome_parameters",
+        "saved_analysis_id",
+        "focus",
+        "tracks",
+        "run_note",
+    ):
+        st.session_state.pop(k, None)  # fmt: skip
+    st.session_state["peak_edits"] = []
     opts = st.session_state.get("read_options", {})
-    work = sv.load_input(data, name, **opts)
+    work = _ui.load_input_cached(data, name, tuple(sorted(opts.items())))
     st.session_state["work"] = work
     st.session_state["work_measurement_id"] = measurement_id
     st.session_state["work_item"] = item
     st.session_state["editor_generation"] = st.session_state.get("editor_generation", 0) + 1
-    st.session_state["peak_edits"] = []
-    st.session_state.pop("outcome", None)
-    st.session_state.pop("saved_analysis_id", None)
 
 
 with st.expander("Reading options", expanded=False):
@@ -48,7 +60,7 @@ with st.expander("Reading options", expanded=False):
         "min_snr": float(min_snr),
     }
 
-with _ui.shown_errors(), sv.open_store(root) as store:
+with _ui.shown_errors(), store_access.open_store(root) as store:
     items = store.list_items(number) if number else []
     measurements = store.list_measurements(number) if number else []
     src_stored, src_upload, src_paste = st.tabs(
@@ -94,7 +106,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
 
     peaks = work.peaks
     unit_txt = "nm" if peaks.axis == "wavelength" else "eV"
-    st.subheader("Input: " + sv.md_escape(work.name))
+    st.subheader("Input: " + _ui.plain(work.name))
     medium_txt = peaks.medium or "n/a (energy axis)"
     st.text(
         f"SHA-256 {work.sha256}\n{peaks.axis} axis in {unit_txt}, medium {medium_txt}, "
@@ -104,7 +116,7 @@ with _ui.shown_errors(), sv.open_store(root) as store:
     with st.expander("How the file was read (column mapping, units, assumptions)", expanded=True):
         for note in work.notes:
             if "assum" in note.lower():
-                st.warning(sv.md_escape(note))
+                st.warning(_ui.plain(note))
             else:
                 st.text("• " + note)
         if work.mapping:
@@ -131,8 +143,8 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                     c3, c4 = st.columns(2)
                     instrument = c3.text_input("Instrument")
                     operator = c4.text_input("Operator")
-                    measured_at = st.text_input(
-                        "Measured at (UTC, e.g. 2026-11-21T14:30:00Z)", key="measured_at"
+                    measured_at = st.datetime_input(
+                        "Measured at (laboratory time)", value=forms.lab_now(), key="measured_at"
                     )
                     settings_txt = st.text_area("Instrument settings (JSON object)", "{}")
                     go = st.form_submit_button("Store measurement")
@@ -149,15 +161,13 @@ with _ui.shown_errors(), sv.open_store(root) as store:
                             ) from exc
                         rec = store.add_measurement(
                             (number, item), work.data, work.name, technique, instrument,
-                            settings, operator, measured_at,
+                            settings, operator, forms.lab_time(measured_at, "measurement time"),
                         )  # fmt: skip
                         st.session_state["work_measurement_id"] = rec.id
                         st.session_state["work_item"] = f"{number}/{item}"
                         st.success(f"Stored as measurement #{rec.id}.")
     else:
-        st.success(
-            f"Stored measurement #{mid} of {sv.md_escape(st.session_state.get('work_item'))}."
-        )
+        st.success(f"Stored measurement #{mid} of {_ui.plain(st.session_state.get('work_item'))}.")
 
     if work.spectrum is not None:
         sp = work.spectrum
@@ -165,14 +175,14 @@ with _ui.shown_errors(), sv.open_store(root) as store:
         py = np.interp(px, sp.x, sp.y) if px.size else px
         base = peaks.extra.get("baseline") if isinstance(peaks.extra, dict) else None
         st.plotly_chart(
-            _display.spectrum_figure(
+            figures.spectrum_figure(
                 sp.x, sp.y, unit=unit_txt, peaks_x=px, peaks_y=py, baseline=base,
                 y_label=sp.y_label,
             ),
             key="spectrum_preview",
         )  # fmt: skip
         st.caption(
-            f"{sp.x.size:,} points; the plot shows at most {2 * _display.DEFAULT_BUCKETS:,} "
+            f"{sp.x.size:,} points; the plot shows at most {2 * figures.DEFAULT_BUCKETS:,} "
             "(minimum and maximum per pixel). Peak finding and matching use every point."
         )
 
@@ -181,14 +191,14 @@ with _ui.shown_errors(), sv.open_store(root) as store:
         "Add, delete or correct rows. The original table and every edit (old and new value) "
         "are kept with the analysis when it is saved."
     )
-    original = sv.table_rows(peaks.table)
+    original = inputs.table_rows(peaks.table)
     frame = pd.DataFrame(original, columns=list(peaks.table.columns))
     key = f"peak_editor_{st.session_state.get('editor_generation', 0)}"
     st.data_editor(frame, num_rows="dynamic", key=key, hide_index=False)
-    edits = sv.peak_edits(original, st.session_state.get(key))
+    edits = inputs.peak_edits(original, st.session_state.get(key))
     st.session_state["peak_edits"] = edits
     with _ui.shown_errors():
-        edited = sv.apply_peak_edits(peaks, edits)
+        edited = inputs.apply_peak_edits(peaks, edits)
         st.caption(f"{len(edits)} edit(s); {edited.table.height} lines go to matching.")
     if edits:
         st.dataframe(

@@ -1,11 +1,11 @@
-"""Tests of workbench/app/_display.py: display decimation and figure builders."""
+"""Tests of workbench/app/figures.py: display decimation and figure builders."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from workbench.app._display import decimate_minmax, stick_figure, timeline_figure
+from workbench.app.figures import decimate_minmax, stick_figure, timeline_figure
 from workbench.errors import ValueRangeError
 
 
@@ -63,20 +63,54 @@ def test_bad_input_is_refused_with_a_workbench_error():
         decimate_minmax(np.arange(3.0), np.arange(3.0), n_buckets=0)
 
 
-def test_stick_figure_mirrors_references_below_the_axis_and_escapes_text():
-    observed = [{"position": 500.0, "height": 1.0, "status": "assigned", "assigned_to": "Qa I"}]
+def _sticks():
+    # Invented positions and heights.
+    observed = [
+        {"position": 500.0, "height": 0.2, "status": "assigned", "assigned_to": "Qa I"},
+        {"position": 600.0, "height": 1.0, "status": "assigned", "assigned_to": "Zz I"},
+    ]
     refs = [
-        {"species": "<b>Qa I</b>", "ion_stage": "I", "position": 500.01, "expected_rel": 0.8,
+        {"species": "<b>Qa I</b>", "ion_stage": "I", "position": 500.01, "expected_rel": 0.4,
          "line_id": "t:1", "transition": None},
+        {"species": "<b>Qa I</b>", "ion_stage": "I", "position": 650.0, "expected_rel": 1.0,
+         "line_id": "t:2", "transition": None},
+        {"species": "Zz I", "ion_stage": "I", "position": 600.0, "expected_rel": 1.0,
+         "line_id": "t:3", "transition": None},
     ]  # fmt: skip
-    fig = stick_figure(observed, refs, unit="nm", interference=[(499.9, 500.1, "x<y")],
-                       x_range=(499.0, 501.0))  # fmt: skip
-    ref_markers = [t for t in fig.data if t.name == "<b>Qa I</b>" and t.mode == "markers"]
-    assert list(ref_markers[0].y) == [-0.8]  # mirrored: expected 0.8 drawn at −0.8
-    assert "&lt;b&gt;Qa I&lt;/b&gt;" in ref_markers[0].hovertext[0]  # user text escaped
-    assert "<b>" not in ref_markers[0].hovertext[0]
+    return observed, refs
+
+
+def test_stick_figure_draws_one_labelled_track_per_species_below_the_observed_panel():
+    observed, refs = _sticks()
+    fig = stick_figure(
+        observed, refs, species=["<b>Qa I</b>", "Zz I"], unit="nm",
+        axis_title="wavelength in air (nm)", interference=[(499.9, 500.1, "x<y")],
+    )  # fmt: skip
+    names = {t.name for t in fig.data}
+    assert {"observed", "<b>Qa I</b>", "Zz I", "interfering pair"} <= names
+    axes = {t.name: t.yaxis for t in fig.data}
+    assert axes["observed"] == "y" and axes["<b>Qa I</b>"] == "y2" and axes["Zz I"] == "y3"
+    assert fig.layout.yaxis2.title.text == "&lt;b&gt;Qa I&lt;/b&gt;"  # track label, escaped
+    assert fig.layout.xaxis.title.text == "wavelength in air (nm)"  # quantity, medium, unit
+    assert fig.layout.xaxis.anchor == "y3"  # drawn below the last track
+    legend = [t.name for t in fig.data if t.showlegend is not False]
+    assert legend == ["observed", "interfering pair"]  # its own legend entry
+    track = next(t for t in fig.data if t.name == "<b>Qa I</b>")
+    assert "<b>" not in track.hovertext[0]
+
+
+def test_sticks_are_rescaled_to_the_visible_range():
+    observed, refs = _sticks()
+    fig = stick_figure(
+        observed, refs, species=["<b>Qa I</b>"], unit="nm", axis_title="x",
+        x_range=(499.0, 501.0),
+    )  # fmt: skip
+    obs = next(t for t in fig.data if t.name == "observed")
+    ref = next(t for t in fig.data if t.name == "<b>Qa I</b>")
+    # In view only the 500 nm sticks: each becomes the tallest (0.2/0.2 and 0.4/0.4);
+    # sticks are drawn as (0, h, gap) triples.
+    assert list(obs.y)[1::3] == [1.0, 5.0] and list(ref.y)[1::3] == [1.0, 2.5]
     assert tuple(fig.layout.xaxis.range) == (499.0, 501.0)
-    assert len(fig.layout.shapes) == 2  # one interference band + the zero line
 
 
 def test_timeline_marks_the_broken_event():
@@ -90,3 +124,13 @@ def test_timeline_marks_the_broken_event():
     note = next(t for t in fig.data if t.name == "note")
     assert list(note.marker.color) == ["#c0392b"]  # the broken event is drawn in red
     assert "&lt;script&gt;" in note.hovertext[0]
+
+
+def test_overlapping_interference_bands_are_drawn_once():
+    observed, refs = _sticks()
+    # Three invented spans, the first two overlapping: two bands, labels joined.
+    spans = [(499.9, 500.1, "A / B"), (500.0, 500.2, "A / C"), (600.0, 600.1, "D / E")]
+    fig = stick_figure(observed, refs, species=[], unit="nm", axis_title="x", interference=spans)
+    assert [(sh.x0, sh.x1) for sh in fig.layout.shapes] == [(499.9, 500.2), (600.0, 600.1)]
+    marks = next(t for t in fig.data if t.name == "interfering pair")
+    assert marks.hovertext[0] == "A / B<br>A / C"

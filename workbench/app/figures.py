@@ -1,4 +1,4 @@
-"""Display-only helpers for the app: decimation for plotting and plotly figures.
+"""Figures of the app (display only): decimation for plotting and plotly figures.
 
 Nothing here changes data used for computation. :func:`decimate_minmax`
 thins a long spectrum for the screen only (the engine and peak finder always
@@ -33,7 +33,8 @@ DEFAULT_BUCKETS: int = 2000
 # Our own palette (colour-blind-safe hues after Okabe & Ito 2008; common practice).
 _OBSERVED = "#1b1b1b"
 _REF_COLOURS = ("#0072b2", "#d55e00", "#009e73", "#cc79a7", "#e69f00", "#56b4e9", "#7f6d00")
-_INTERFERENCE_FILL = "rgba(213, 94, 0, 0.18)"
+_INTERFERENCE_FILL = "rgba(120, 120, 120, 0.16)"
+_INTERFERENCE_MARK = "#6b4c9a"  # not one of the species colours
 _BROKEN = "#c0392b"
 
 
@@ -99,12 +100,13 @@ def decimate_minmax(
     return x[picked], y[picked]
 
 
-def _stick_xy(pos: np.ndarray, height: np.ndarray) -> tuple[list, list]:
-    xs: list[float | None] = []
-    ys: list[float | None] = []
-    for p, h in zip(pos.tolist(), height.tolist(), strict=True):
-        xs += [p, p, None]
-        ys += [0.0, h, None]
+def _stick_xy(pos: np.ndarray, height: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Sticks as one polyline: (p, 0) → (p, h) then a NaN gap, for every position."""
+    p = np.asarray(pos, dtype=np.float64)
+    h = np.asarray(height, dtype=np.float64)
+    xs = np.repeat(p, 3)
+    ys = np.column_stack([np.zeros_like(h), h, np.full_like(h, np.nan)]).ravel()
+    xs[2::3] = np.nan
     return xs, ys
 
 
@@ -117,6 +119,7 @@ def spectrum_figure(
     peaks_y: np.ndarray | None = None,
     baseline: np.ndarray | None = None,
     y_label: str = "intensity",
+    x_label: str | None = None,
     n_buckets: int = DEFAULT_BUCKETS,
 ) -> Any:
     """Spectrum preview (decimated for display) with detected peaks marked.
@@ -133,6 +136,8 @@ def spectrum_figure(
         Baseline on the same grid as ``x`` (decimated the same way).
     y_label : str
         Y axis title.
+    x_label : str, optional
+        X axis title naming quantity, medium and unit (default ``position (unit)``).
     n_buckets : int
         Display buckets.
 
@@ -166,7 +171,7 @@ def spectrum_figure(
             )
         )
     fig.update_layout(
-        xaxis_title=f"position ({unit})",
+        xaxis_title=_esc(x_label or f"position ({unit})"),
         yaxis_title=_esc(y_label),
         height=380,
         margin={"l": 60, "r": 20, "t": 30, "b": 50},
@@ -175,15 +180,50 @@ def spectrum_figure(
     return fig
 
 
+def _visible(pos: np.ndarray, x_range: tuple[float, float] | None) -> np.ndarray:
+    if x_range is None:
+        return np.ones(pos.shape, dtype=bool)
+    return (pos >= float(x_range[0])) & (pos <= float(x_range[1]))
+
+
+def _scaled(pos: np.ndarray, h: np.ndarray, x_range: tuple[float, float] | None) -> np.ndarray:
+    """Heights rescaled to the tallest stick in the visible range (all when nothing is visible)."""
+    vis = _visible(pos, x_range)
+    top = float(np.max(h[vis])) if np.any(vis) else 0.0
+    return h / top if top > 0 else h
+
+
+def _merged(spans: Sequence[tuple[float, float, str]]) -> list[tuple[float, float, str]]:
+    """Overlapping bands joined into one, labels listed once.
+
+    Stacked translucent bands would otherwise darken the plot and hide the sticks.
+    """
+    out: list[tuple[float, float, list[str]]] = []
+    for lo, hi, label in sorted(spans, key=lambda s: (s[0], s[1])):
+        if out and lo <= out[-1][1]:
+            prev = out[-1]
+            labels = prev[2] if label in prev[2] else [*prev[2], label]
+            out[-1] = (prev[0], max(prev[1], hi), labels)
+        else:
+            out.append((lo, hi, [label]))
+    return [(lo, hi, "<br>".join(_esc(x) for x in labels)) for lo, hi, labels in out]
+
+
 def stick_figure(
     observed: Sequence[Mapping[str, Any]],
     references: Sequence[Mapping[str, Any]],
     *,
+    species: Sequence[str],
     unit: str,
+    axis_title: str,
     interference: Sequence[tuple[float, float, str]] = (),
     x_range: tuple[float, float] | None = None,
 ) -> Any:
-    """Observed lines above the axis and chosen species' reference lines mirrored below.
+    """Observed sticks on top and one thin labelled track per chosen species, shared x axis.
+
+    Heights in every panel are rescaled to the tallest stick inside
+    ``x_range`` (the visible range), so a zoomed view is never flattened by
+    a strong line outside it.
 
     Parameters
     ----------
@@ -193,105 +233,118 @@ def stick_figure(
     references : sequence of mapping
         One per reference line: ``species``, ``ion_stage``, ``position``,
         ``expected_rel`` (0–1), ``line_id``, ``transition``.
+    species : sequence of str
+        The tracks to draw, in order (one per species, even if it has no line
+        in view).
     unit : str
-        Axis unit (``"nm"`` or ``"eV"``).
+        Position unit (``"nm"`` or ``"eV"``), for hover text.
+    axis_title : str
+        X axis title naming quantity, medium and unit.
     interference : sequence of (lo, hi, label)
-        Position spans to shade (interfering pairs).
+        Position spans of interfering pairs (marked in every panel).
     x_range : (float, float), optional
-        Initial zoom.
+        The visible range.
 
     Returns
     -------
     plotly.graph_objects.Figure
+        Trace names: ``observed``, one ``<species>`` per track, ``interfering pair``.
     """
     import plotly.graph_objects as go
 
-    fig = go.Figure()
-    for lo, hi, label in interference:
-        fig.add_vrect(x0=lo, x1=hi, fillcolor=_INTERFERENCE_FILL, line_width=0, layer="below")
-        fig.add_trace(
-            go.Scatter(
-                x=[(lo + hi) / 2.0],
-                y=[1.08],
-                mode="markers",
-                marker={"symbol": "diamond", "color": "#d55e00", "size": 9},
-                name="interference",
-                showlegend=False,
-                hovertext=[_esc(label)],
-                hoverinfo="text",
-            )
-        )
+    tracks = list(dict.fromkeys(str(s) for s in species))
+    fmt = ".0f" if unit == "eV" else ".4f"
+    # One x axis shared by every panel; each panel is a y axis with its own domain
+    # (built as plain dicts in one go: per-subplot updates are slow in plotly).
+    # Panel sizes in pixels (observed 190, each track 44, gaps 8), as domain fractions.
+    height = 270 + 52 * len(tracks)
+    plot_px = float(height - 80)
+    gap, track_h = 8 / plot_px, 44 / plot_px
+    bottom = (52 * len(tracks)) / plot_px
+    layout: dict[str, Any] = {
+        "yaxis": {"domain": [bottom, 1.0], "range": [0, 1.08], "title": {"text": "observed"},
+                  "fixedrange": True},
+    }  # fmt: skip
+    data: list[dict[str, Any]] = []
+
+    def _hover(rows_text: list[str]) -> np.ndarray:
+        return np.repeat(np.array(rows_text, dtype=object), 3) if rows_text else np.array([])
+
     if observed:
         pos = np.array([float(o["position"]) for o in observed])
-        h = np.array([float(o["height"]) for o in observed])
+        h = _scaled(pos, np.array([float(o["height"]) for o in observed]), x_range)
         xs, ys = _stick_xy(pos, h)
-        fig.add_trace(
-            go.Scatter(
-                x=xs, y=ys, mode="lines", line={"color": _OBSERVED, "width": 1.6},
-                name="observed", hoverinfo="skip",
-            )
-        )  # fmt: skip
-        fig.add_trace(
-            go.Scatter(
-                x=pos,
-                y=h,
-                mode="markers",
-                marker={"color": _OBSERVED, "size": 5},
-                showlegend=False,
-                name="observed",
-                hovertext=[
-                    f"observed {o['position']:.4f} {unit}<br>relative height {o['height']:.3f}"
-                    f"<br>{_esc(o.get('status'))}: {_esc(o.get('assigned_to') or '-')}"
+        data.append(
+            {
+                "type": "scatter", "x": xs, "y": ys, "mode": "lines", "name": "observed",
+                "line": {"color": _OBSERVED, "width": 1.5}, "hoverinfo": "text",
+                "hovertext": _hover([
+                    f"observed {o['position']:{fmt}} {unit}<br>{_esc(o.get('status'))}: "
+                    f"{_esc(o.get('assigned_to') or '-')}"
                     for o in observed
-                ],
-                hoverinfo="text",
-            )
-        )
-    species = sorted({str(r["species"]) for r in references})
-    for k, sp in enumerate(species):
+                ]),
+                "xaxis": "x", "yaxis": "y",
+            }
+        )  # fmt: skip
+    for k, sp in enumerate(tracks):
+        axis = f"y{k + 2}"
+        hi = bottom - gap - k * (track_h + gap)
+        layout[f"yaxis{k + 2}"] = {
+            "domain": [max(hi - track_h, 0.0), hi], "range": [0, 1.1], "showticklabels": False,
+            "fixedrange": True, "title": {"text": _esc(sp), "standoff": 4, "font": {
+                "size": 12, "color": _REF_COLOURS[k % len(_REF_COLOURS)]}},
+        }  # fmt: skip
         rows = [r for r in references if str(r["species"]) == sp]
         pos = np.array([float(r["position"]) for r in rows])
-        h = -np.array([float(r["expected_rel"]) for r in rows])
-        colour = _REF_COLOURS[k % len(_REF_COLOURS)]
+        h = _scaled(pos, np.array([float(r["expected_rel"]) for r in rows]), x_range)
         xs, ys = _stick_xy(pos, h)
-        fig.add_trace(
-            go.Scatter(
-                x=xs, y=ys, mode="lines", line={"color": colour, "width": 1.4},
-                name=f"{sp} (reference)", legendgroup=sp, hoverinfo="skip",
-            )
-        )  # fmt: skip
-        fig.add_trace(
-            go.Scatter(
-                x=pos,
-                y=h,
-                mode="markers",
-                marker={"color": colour, "size": 5},
-                legendgroup=sp,
-                showlegend=False,
-                name=sp,
-                hovertext=[
-                    f"{_esc(r['species'])} (ion stage {_esc(r.get('ion_stage'))})"
-                    f"<br>λ/E {float(r['position']):.4f} {unit}"
+        data.append(
+            {
+                "type": "scatter", "x": xs, "y": ys, "mode": "lines", "name": sp,
+                "line": {"color": _REF_COLOURS[k % len(_REF_COLOURS)], "width": 1.4},
+                "showlegend": False, "hoverinfo": "text",
+                "hovertext": _hover([
+                    f"{_esc(r['species'])} {float(r['position']):{fmt}} {unit}"
                     f"<br>expected relative intensity {float(r['expected_rel']):.3f}"
                     f"<br>{_esc(r.get('line_id'))} {_esc(r.get('transition') or '')}"
                     for r in rows
-                ],
-                hoverinfo="text",
-            )
-        )
-    fig.add_hline(y=0.0, line={"color": "#666666", "width": 1})
-    fig.update_layout(
-        xaxis_title=f"position ({unit})",
-        yaxis_title="observed (up) / expected reference (down), relative",
-        yaxis={"range": [-1.15, 1.15]},
-        height=460,
-        margin={"l": 60, "r": 20, "t": 30, "b": 50},
-        legend={"orientation": "h", "y": 1.1},
-        hovermode="closest",
-    )
-    if x_range is not None:
-        fig.update_xaxes(range=[float(x_range[0]), float(x_range[1])])
-    return fig
+                ]),
+                "xaxis": "x", "yaxis": axis,
+            }
+        )  # fmt: skip
+    shapes = []
+    interference = _merged(interference)
+    if interference:
+        # Bands across every panel (paper coordinates) and one legend entry for them all.
+        shapes = [
+            {"type": "rect", "xref": "x", "yref": "paper", "x0": lo, "x1": hi, "y0": 0,
+             "y1": 1, "fillcolor": _INTERFERENCE_FILL, "line": {"width": 0}, "layer": "below"}
+            for lo, hi, _ in interference
+        ]  # fmt: skip
+        data.append(
+            {
+                "type": "scatter", "x": [(lo + hi) / 2.0 for lo, hi, _ in interference],
+                "y": [1.04] * len(interference), "mode": "markers", "name": "interfering pair",
+                "marker": {"symbol": "diamond-tall", "color": _INTERFERENCE_MARK, "size": 8},
+                "hovertext": [lbl for *_, lbl in interference], "hoverinfo": "text",
+                "xaxis": "x", "yaxis": "y",
+            }
+        )  # fmt: skip
+    last = f"y{len(tracks) + 1}" if tracks else "y"
+    layout.update(
+        {
+            "xaxis": {"title": {"text": _esc(axis_title)}, "anchor": last, "showgrid": True,
+                      "gridcolor": "#eeeeee", "tickformat": ",.0f" if unit == "eV" else None,
+                      **({"range": [float(x_range[0]), float(x_range[1])]} if x_range else {})},
+            "shapes": shapes,
+            "height": height,
+            "margin": {"l": 80, "r": 20, "t": 30, "b": 50},
+            "legend": {"orientation": "h", "y": 1.06, "x": 0},
+            "hovermode": "closest",
+            "plot_bgcolor": "#ffffff",
+        }
+    )  # fmt: skip
+    return go.Figure({"data": data, "layout": layout})
 
 
 def timeline_figure(

@@ -1,0 +1,73 @@
+"""Tests of workbench/app/inputs.py: the edit record and the one reader call."""
+
+from __future__ import annotations
+
+import polars as pl
+import pytest
+
+from workbench.app import inputs as sv
+from workbench.datamodel import PeakList
+from workbench.errors import ValueRangeError
+
+
+def _peaks() -> PeakList:
+    table = pl.DataFrame(
+        {"wavelength_nm": [300.0, 400.0, 500.0], "intensity": [10.0, 20.0, None]}
+    )  # invented values
+    return PeakList(table, "wavelength", "air")
+
+
+def test_editor_state_becomes_an_explicit_edit_list_with_old_and_new_values():
+    original = sv.table_rows(_peaks().table)
+    state = {
+        "edited_rows": {0: {"intensity": 11.0}, 2: {"intensity": 30.0}, 1: {"intensity": 20.0}},
+        "added_rows": [{"wavelength_nm": 450.0, "intensity": 5.0}, {}],
+        "deleted_rows": [2],
+    }
+    edits = sv.peak_edits(original, state)
+    # Row 2's "change" to its own value is no edit; row 3 is deleted so its change is dropped;
+    # the empty added row is ignored (bookkeeping rules of peak_edits; common practice).
+    assert edits == [
+        {"action": "changed", "row": 1, "column": "intensity", "old": 10.0, "new": 11.0},
+        {"action": "deleted", "row": 3, "old": {"wavelength_nm": 500.0, "intensity": None}},
+        {"action": "added", "new": {"wavelength_nm": 450.0, "intensity": 5.0}},
+    ]
+
+
+def test_applying_edits_gives_the_corrected_sorted_list():
+    peaks = _peaks()
+    edits = sv.peak_edits(
+        sv.table_rows(peaks.table),
+        {"edited_rows": {0: {"wavelength_nm": 310.0}}, "added_rows":
+         [{"wavelength_nm": 350.0, "intensity": 1.0}], "deleted_rows": [1]},
+    )  # fmt: skip
+    out = sv.apply_peak_edits(peaks, edits)
+    assert out.table["wavelength_nm"].to_list() == [310.0, 350.0, 500.0]  # sorted after edits
+    assert out.medium == "air" and out.axis == "wavelength"
+    assert out.extra["peak_edits"] == 3
+    assert peaks.table["wavelength_nm"].to_list() == [300.0, 400.0, 500.0]  # original untouched
+
+
+def test_no_edits_returns_the_same_list():
+    peaks = _peaks()
+    assert sv.apply_peak_edits(peaks, []) is peaks
+
+
+@pytest.mark.parametrize("bad", [None, "abc", -5.0, 0.0])
+def test_a_bad_position_is_refused_naming_the_row(bad):
+    peaks = _peaks()
+    edits = [{"action": "changed", "row": 2, "column": "wavelength_nm", "old": 400.0, "new": bad}]
+    with pytest.raises(ValueRangeError, match="row 2"):
+        sv.apply_peak_edits(peaks, edits)
+
+
+def test_an_added_row_without_position_is_named():
+    edits = [{"action": "added", "new": {"intensity": 3.0}}]
+    with pytest.raises(ValueRangeError, match="added row 1"):
+        sv.apply_peak_edits(_peaks(), edits)
+
+
+def test_deleting_everything_is_refused():
+    edits = [{"action": "deleted", "row": i, "old": {}} for i in (1, 2, 3)]
+    with pytest.raises(ValueRangeError, match="every peak"):
+        sv.apply_peak_edits(_peaks(), edits)

@@ -1,0 +1,595 @@
+"""Shaping a match result for display: plain rows, sticks, tracks and groups.
+
+Everything here reads a result (the schema-1 report, and the engine's
+:class:`~workbench.matching.engine.MatchResult` when it is at hand) and
+returns plain Python values that any face can draw: the app's tables and
+figures, a report writer, a notebook. Nothing decides anything: verdicts,
+windows and warnings are the engine's; this module only selects, groups,
+orders and formats them.
+
+:class:`MatchView` is the picklable bundle a worker process hands back to
+the app after a run (the report, its exact JSON bytes and the reference
+lines of every listed species), so no live engine object has to cross a
+process boundary.
+
+On an energy axis (X-ray fluorescence) positions are shown to 1 eV and
+species are X-ray families (``Pb L``, ``Ti K``); on a wavelength axis to
+0.0001 nm with the medium named. The X-ray display helpers of
+``workbench.xray`` were not on this branch; :func:`format_position` and
+:func:`axis_title` are the small stand-ins.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any, TypedDict
+
+import numpy as np
+
+__all__ = [
+    "INTERFERENCE_KINDS",
+    "PROBABLE_LEVEL",
+    "InterferenceGroup",
+    "MatchView",
+    "ObservedStick",
+    "ReferenceLine",
+    "ResultSummary",
+    "axis_title",
+    "boltzmann_fit_line",
+    "element_levels",
+    "element_rows",
+    "evidence_rows",
+    "format_position",
+    "interference_groups",
+    "interference_spans",
+    "observed_sticks",
+    "other_warnings",
+    "overlap_text",
+    "reference_lines",
+    "report_reference_lines",
+    "result_summary",
+    "unassigned_rows",
+    "warning_species",
+    "zoom_range",
+]
+
+#: Warning kinds that are interferences (grouped by observed line, marked on the plot).
+INTERFERENCE_KINDS: frozenset[str] = frozenset({"unresolved_overlap", "reference_overlap"})
+
+#: Verdict level from which a call is "probable or better" (engine's levels 0–3).
+PROBABLE_LEVEL: int = 2
+
+
+class ObservedStick(TypedDict):
+    """One observed line as a stick: position, height relative to the strongest (0–1)."""
+
+    position: float
+    height: float
+    status: str
+    assigned_to: str
+
+
+class ReferenceLine(TypedDict):
+    """One reference line of a species with its expected strength relative to the species' top."""
+
+    species: str
+    ion_stage: str
+    position: float
+    expected_rel: float
+    line_id: str
+    transition: str | None
+
+
+@dataclass(frozen=True)
+class InterferenceGroup:
+    """Interference warnings that concern one observed line (or one reference pair).
+
+    Attributes
+    ----------
+    position : float or None
+        The observed line they concern (``None`` for pairs of reference lines).
+    species : tuple of str
+        Every species named, sorted.
+    warning_indices : tuple of int
+        Positions of the warnings in ``report["warnings"]`` (0-based).
+    messages : tuple of str
+        The engine's messages, in the same order.
+    touches_probable : bool
+        Whether any named species is called probable or better.
+    """
+
+    position: float | None
+    species: tuple[str, ...]
+    warning_indices: tuple[int, ...]
+    messages: tuple[str, ...]
+    touches_probable: bool
+
+
+@dataclass(frozen=True)
+class ResultSummary:
+    """The few facts shown above everything else after a run."""
+
+    unit: str
+    axis: str
+    medium: str | None
+    n_peaks: int
+    n_assigned: int
+    n_shared: int
+    n_unassigned: int
+    by_verdict: dict[str, list[str]]
+    working_temperature_K: float | None
+    temperature_estimated: bool
+    temperature_text: str
+    calibration_text: str
+    calibration_applied: bool
+
+
+@dataclass(frozen=True)
+class MatchView:
+    """A finished run ready for display (picklable; no engine objects).
+
+    Attributes
+    ----------
+    report : dict
+        The schema-1 result record.
+    json_bytes : bytes
+        Its canonical JSON exactly as stored and signed.
+    references : tuple of ReferenceLine
+        Reference lines of every species the report lists (from the engine's
+        evidence when the run was live, from the report when re-opened).
+    """
+
+    report: dict[str, Any]
+    json_bytes: bytes
+    references: tuple[ReferenceLine, ...] = field(default=())
+
+    @classmethod
+    def from_outcome(cls, outcome: Any) -> MatchView:
+        """Bundle an :class:`~workbench.matching.analyse.AnalysisOutcome` for display."""
+        species = [str(el["species"]) for el in outcome.report.get("elements") or []]
+        refs = reference_lines(outcome.result, species)
+        return cls(outcome.report, bytes(outcome.json_bytes), tuple(refs))
+
+    @classmethod
+    def from_report(cls, report: Mapping[str, Any], json_bytes: bytes) -> MatchView:
+        """A stored result (reference lines as the report lists them)."""
+        species = [str(el["species"]) for el in report.get("elements") or []]
+        return cls(dict(report), bytes(json_bytes), tuple(report_reference_lines(report, species)))
+
+    def references_of(self, species: Sequence[str]) -> list[ReferenceLine]:
+        """Reference lines of the given species only."""
+        wanted = set(species)
+        return [r for r in self.references if r["species"] in wanted]
+
+
+# ----------------------------------------------------------------------------- formatting
+
+
+def format_position(value: float | None, unit: str) -> str:
+    """A position as shown: energies to 1 eV, wavelengths to 0.0001 nm; ``–`` when missing."""
+    if value is None or not isinstance(value, int | float) or not math.isfinite(value):
+        return "–"
+    if unit == "eV":
+        return f"{value:,.0f}"
+    return f"{value:.4f}"
+
+
+def axis_title(axis: str, unit: str, medium: str | None) -> str:
+    """Axis title naming quantity, medium and unit (``wavelength in air (nm)``)."""
+    if axis == "energy":
+        return f"photon energy ({unit})"
+    where = f" in {medium}" if medium else " (medium not stated)"
+    return f"wavelength{where} ({unit})"
+
+
+# ----------------------------------------------------------------------------- summary and grid
+
+
+def result_summary(report: Mapping[str, Any]) -> ResultSummary:
+    """The facts for the summary line: counts by verdict, temperature, scale check."""
+    inp = report["input"]
+    s = report["summary"]
+    t = report.get("temperature") or {}
+    est = t.get("estimate") or {}
+    energy = inp.get("axis") == "energy"
+    working = t.get("working_temperature_K")
+    estimated = bool(est.get("temperature_K"))
+    if energy:
+        temp_text = "no excitation temperature on an energy axis (X-ray lines)"
+    elif estimated:
+        temp_text = (
+            f"{est['temperature_K']:,.0f} ± {est['uncertainty_K']:,.0f} K estimated from "
+            f"{est['n_lines']} {est['species']} lines (Boltzmann plot, R² "
+            f"{est['r_squared']:.2f}), used for expected intensities"
+        )
+    elif t.get("given_K"):
+        temp_text = f"{float(t['given_K']):,.0f} K as given"
+    else:
+        temp_text = f"{float(working or 0):,.0f} K assumed (no estimate from these data)"
+    cal = report.get("calibration") or {}
+    applied = bool(cal.get("applied"))
+    if not cal:
+        cal_text = "scale not checked"
+    elif applied:
+        cal_text = "scale correction applied"
+    else:
+        cal_text = "scale checked, no correction applied"
+    return ResultSummary(
+        unit=str(inp["unit"]),
+        axis=str(inp.get("axis")),
+        medium=inp.get("medium"),
+        n_peaks=int(s["n_peaks"]),
+        n_assigned=int(s["n_assigned"]),
+        n_shared=int(s["n_shared"]),
+        n_unassigned=int(s["n_unassigned"]),
+        by_verdict={k: list(v) for k, v in (s.get("by_verdict") or {}).items()},
+        working_temperature_K=None if energy else (float(working) if working else None),
+        temperature_estimated=estimated and not energy,
+        temperature_text=temp_text,
+        calibration_text=cal_text,
+        calibration_applied=applied,
+    )
+
+
+def element_rows(report: Mapping[str, Any], *, include_unsupported: bool) -> list[dict[str, Any]]:
+    """Element grid rows with human column headers (units in the headers).
+
+    Rows keep the engine's order (strongest verdict first). The hidden key
+    ``species`` of each row is the first column so a selection maps back.
+    """
+    u = report["input"]["unit"]
+    out: list[dict[str, Any]] = []
+    for el in report.get("elements") or []:
+        if not include_unsupported and el["verdict_level"] <= 0:
+            continue
+        best = sorted(el.get("matched_lines") or [], key=lambda m: -(m.get("expected_rel") or 0))
+        out.append(
+            {
+                "Species": el["species"],
+                "Verdict": el["verdict"],
+                "Score": round(float(el["score"]), 3),
+                "Strong lines found": f"{el['n_strong_found']} of {el['n_strong_in_range']}",
+                "Unique lines": int(el["n_unique_found"]),
+                "Missing lines": len(el.get("missing_lines") or []),
+                "Shared lines": len(el.get("shared_lines") or []),
+                "Pattern r": "–" if el.get("pattern_r") is None else f"{el['pattern_r']:.3f}",
+                f"Strongest matched ({u})": ", ".join(
+                    format_position(m.get(f"reference_{u}"), u) for m in best[:3]
+                ),
+            }
+        )
+    return out
+
+
+def evidence_rows(
+    report: Mapping[str, Any], species: str
+) -> tuple[list[dict[str, Any]], list[dict[str, Any]]]:
+    """Matched and missing lines of one species with human headers."""
+    u = report["input"]["unit"]
+    el = next((e for e in report.get("elements") or [] if e["species"] == species), None)
+    if el is None:
+        return [], []
+    matched = [
+        {
+            f"Observed ({u})": format_position(m.get(f"observed_{u}"), u),
+            f"Reference ({u})": format_position(m.get(f"reference_{u}"), u),
+            f"Difference ({u})": (
+                f"{m.get(f'delta_{u}'):+.0f}" if u == "eV" else f"{m.get(f'delta_{u}'):+.4f}"
+            ),
+            "Expected relative intensity": _round(m.get("expected_rel")),
+            "Observed relative intensity": _round(m.get("observed_rel")),
+            "Shared with another species": "yes" if m.get("shared") else "no",
+            "Line": m.get("line_id") or "",
+        }
+        for m in el.get("matched_lines") or []
+    ]
+    missing = [
+        {
+            f"Reference ({u})": format_position(m.get(f"reference_{u}"), u),
+            "Expected relative intensity": _round(m.get("expected_rel")),
+            "Line": m.get("line_id") or "",
+        }
+        for m in el.get("missing_lines") or []
+    ]
+    return matched, missing
+
+
+def unassigned_rows(report: Mapping[str, Any]) -> list[dict[str, Any]]:
+    """Observed lines not assigned to exactly one species, with human headers."""
+    u = report["input"]["unit"]
+    return [
+        {
+            f"Observed ({u})": format_position(ln[f"observed_{u}"], u),
+            "Status": ln["status"],
+            "Assigned to": ", ".join(ln.get("assigned_to") or []) or "–",
+            "Candidates in window": int(ln.get("n_candidates") or 0),
+        }
+        for ln in report.get("lines") or []
+        if ln["status"] != "assigned"
+    ]
+
+
+def _round(v: Any, nd: int = 3) -> float | None:
+    return round(float(v), nd) if isinstance(v, int | float) and math.isfinite(v) else None
+
+
+def element_levels(report: Mapping[str, Any]) -> dict[str, dict[str, Any]]:
+    """Best verdict per element: ``{symbol: {"level", "verdict", "species"}}``, by symbol.
+
+    An element seen in several ion stages (or X-ray families) keeps its
+    strongest verdict and lists every species.
+    """
+    out: dict[str, dict[str, Any]] = {}
+    for el in report.get("elements") or []:
+        sym = el.get("element")
+        level = el.get("verdict_level")
+        if not isinstance(sym, str) or not isinstance(level, int | float):
+            continue
+        cur = out.setdefault(sym, {"level": level, "verdict": el.get("verdict"), "species": []})
+        cur["species"].append(el.get("species") or sym)
+        if level > cur["level"]:
+            cur["level"], cur["verdict"] = level, el.get("verdict")
+    return dict(sorted(out.items()))
+
+
+# ----------------------------------------------------------------------------- warnings
+
+
+def _warning_positions(w: Mapping[str, Any], u: str) -> list[float]:
+    pos = [float(p) for p in (w.get("positions") or []) if isinstance(p, int | float)]
+    for key in ("observed", f"observed_{u}"):
+        if isinstance(w.get(key), int | float):
+            pos.append(float(w[key]))
+    return [p for p in pos if math.isfinite(p)]
+
+
+def interference_groups(report: Mapping[str, Any]) -> list[InterferenceGroup]:
+    """Interference warnings grouped by the observed line they concern.
+
+    Groups touching a species called probable or better come first, then by
+    position; a reference-only overlap (no observed line) is its own group.
+    """
+    levels = {e["species"]: int(e["verdict_level"]) for e in report.get("elements") or []}
+    groups: dict[Any, dict[str, Any]] = {}
+    for k, w in enumerate(report.get("warnings") or []):
+        if w.get("kind") not in INTERFERENCE_KINDS:
+            continue
+        obs = w.get("observed")
+        key: Any = round(float(obs), 9) if isinstance(obs, int | float) else ("pair", k)
+        g = groups.setdefault(key, {"pos": obs, "species": set(), "idx": [], "msg": []})
+        g["species"].update(str(s) for s in w.get("elements") or [])
+        g["idx"].append(k)
+        g["msg"].append(str(w.get("message", "")))
+    out = []
+    for g in groups.values():
+        pos = float(g["pos"]) if isinstance(g["pos"], int | float) else None
+        sp = tuple(sorted(g["species"]))
+        touches = any(levels.get(s, 0) >= PROBABLE_LEVEL for s in sp)
+        out.append(InterferenceGroup(pos, sp, tuple(g["idx"]), tuple(g["msg"]), touches))
+    big = math.inf
+    out.sort(key=lambda g: (not g.touches_probable, g.position if g.position is not None else big))
+    return out
+
+
+def overlap_text(warning: Mapping[str, Any], unit: str) -> str:
+    """One line for an interference warning, positions and separation in the axis unit."""
+    sp = " / ".join(str(s) for s in warning.get("elements") or []) or "two species"
+    pos = [format_position(p, unit) for p in warning.get("positions") or []]
+    where = " and ".join(pos) + f" {unit}" if pos else ""
+    sep = warning.get("separation")
+    gap = f", {format_position(sep, unit)} {unit} apart" if isinstance(sep, int | float) else ""
+    need = warning.get("resolving_power_needed")
+    res = ""
+    if unit != "eV" and isinstance(need, int | float) and math.isfinite(need):
+        res = f" (separating them needs R ≥ {need:,.0f})"
+    return f"{sp}: lines at {where}{gap}{res}".replace(": lines at  ", ": ")
+
+
+def other_warnings(report: Mapping[str, Any]) -> list[tuple[int, str, str]]:
+    """Non-interference warnings as ``(index, kind, message)``; none about temperature on XRF."""
+    energy = report["input"].get("axis") == "energy"
+    out = []
+    for k, w in enumerate(report.get("warnings") or []):
+        kind = str(w.get("kind"))
+        if kind in INTERFERENCE_KINDS or (energy and kind in ("temperature", "lte")):
+            continue
+        out.append((k, kind, str(w.get("message", ""))))
+    return out
+
+
+def warning_species(report: Mapping[str, Any], warning_index: int) -> list[str]:
+    """The species a warning names (the tracks its "Show" draws)."""
+    warnings = report.get("warnings") or []
+    if not 0 <= warning_index < len(warnings):
+        return []
+    return sorted(str(s) for s in warnings[warning_index].get("elements") or [])
+
+
+def interference_spans(report: Mapping[str, Any]) -> list[tuple[float, float, str]]:
+    """Position spans of the interference warnings, padded by the median match window."""
+    u = report["input"]["unit"]
+    lines = report.get("lines") or []
+    tol = [ln.get(f"tolerance_{u}") for ln in lines if ln.get(f"tolerance_{u}")]
+    pad = float(np.median(tol)) if tol else 0.0
+    spans = []
+    for w in report.get("warnings") or []:
+        if w.get("kind") not in INTERFERENCE_KINDS:
+            continue
+        pos = _warning_positions(w, u)
+        if pos:
+            label = " / ".join(str(s) for s in w.get("elements") or [])
+            spans.append((min(pos) - pad, max(pos) + pad, label))
+    return spans
+
+
+def zoom_range(
+    report: Mapping[str, Any], *, species: str | None = None, warning_index: int | None = None
+) -> tuple[float, float] | None:
+    """X range showing one species' matched and missing lines, or one warning's lines."""
+    u = report["input"]["unit"]
+    pos: list[float] = []
+    if species is not None:
+        for el in report.get("elements") or []:
+            if el["species"] == species:
+                pos += [float(m[f"reference_{u}"]) for m in el.get("matched_lines") or []]
+                pos += [float(m[f"observed_{u}"]) for m in el.get("matched_lines") or []]
+                pos += [float(m[f"reference_{u}"]) for m in el.get("missing_lines") or []]
+    if warning_index is not None:
+        warnings = report.get("warnings") or []
+        if 0 <= warning_index < len(warnings):
+            pos += _warning_positions(warnings[warning_index], u)
+            lines = report.get("lines") or []
+            tol = [ln.get(f"tolerance_{u}") for ln in lines if ln.get(f"tolerance_{u}")]
+            if tol and pos:
+                # A warning's lines sit within one window: show a few windows around them.
+                pad = 4.0 * float(np.median(tol))
+                pos += [min(pos) - pad, max(pos) + pad]
+    pos = [p for p in pos if math.isfinite(p)]
+    if not pos:
+        return None
+    lo, hi = min(pos), max(pos)
+    pad = max(0.05 * (hi - lo), 2e-4 * max(abs(hi), 1e-9), 1e-6)
+    if hi - lo < 1e-3 * max(abs(hi), 1e-9):
+        pad = max(pad, 2e-3 * max(abs(hi), 1e-9))
+    return lo - pad, hi + pad
+
+
+# ----------------------------------------------------------------------------- sticks
+
+
+def observed_sticks(report: Mapping[str, Any]) -> list[ObservedStick]:
+    """Observed lines as sticks (height = intensity / strongest; 1 when unknown)."""
+    u = report["input"]["unit"]
+    lines = report.get("lines") or []
+    inten = [ln.get("intensity") for ln in lines]
+    finite = [abs(v) for v in inten if isinstance(v, int | float) and math.isfinite(v)]
+    top = max(finite) if finite else 0.0
+    out: list[ObservedStick] = []
+    for ln in lines:
+        v = ln.get("intensity")
+        ok = isinstance(v, int | float) and math.isfinite(v) and top > 0
+        out.append(
+            {
+                "position": float(ln[f"observed_{u}"]),
+                "height": float(abs(v) / top) if ok else 1.0,
+                "status": str(ln.get("status")),
+                "assigned_to": ", ".join(ln.get("assigned_to") or []),
+            }
+        )
+    return out
+
+
+def reference_lines(
+    result: Any, species: Sequence[str], min_rel: float = 0.01
+) -> list[ReferenceLine]:
+    """Reference lines of the chosen species in the observed range, with expected strengths.
+
+    Strengths are the engine's (``result.evidence.strengths``), normalised to
+    the strongest in-range line of each species.
+
+    Parameters
+    ----------
+    result : MatchResult
+        The engine's result.
+    species : sequence of str
+        Species labels (``"Fe I"``, ``"Pb L"``).
+    min_rel : float
+        Lines weaker than this fraction of the species' strongest are left out.
+
+    Returns
+    -------
+    list of ReferenceLine
+    """
+    idx = result.index
+    ev = result.evidence
+    names = list(idx.species_names)
+    code_of = {n: i for i, n in enumerate(names)}
+    base = ev.in_range & np.isfinite(ev.strengths)
+    out: list[ReferenceLine] = []
+    for sp in species:
+        code = code_of.get(sp)
+        if code is None:
+            continue
+        sel = base & (idx.species == code)
+        if not np.any(sel):
+            continue
+        top = float(np.max(ev.strengths[sel]))
+        if top <= 0:
+            continue
+        fam = idx.species_family[code]
+        stage = fam if fam else (sp.split(" ", 1)[1] if " " in sp else str(idx.species_ion[code]))
+        for i in np.flatnonzero(sel).tolist():
+            rel = float(ev.strengths[i]) / top
+            if rel < min_rel:
+                continue
+            out.append(
+                {
+                    "species": sp,
+                    "ion_stage": str(stage),
+                    "position": float(idx.position[i]),
+                    "expected_rel": rel,
+                    "line_id": str(idx.line_id[i]),
+                    "transition": idx.transition[i],
+                }
+            )
+    return out
+
+
+def report_reference_lines(
+    report: Mapping[str, Any], species: Sequence[str]
+) -> list[ReferenceLine]:
+    """Reference lines of the chosen species as a saved report lists them (matched + missing).
+
+    Same shape as :func:`reference_lines`; strengths are the report's
+    ``expected_rel`` rescaled to the strongest listed line of each species.
+    """
+    u = report["input"]["unit"]
+    out: list[ReferenceLine] = []
+    wanted = set(species)
+    for el in report.get("elements") or []:
+        sp = el.get("species")
+        if sp not in wanted:
+            continue
+        listed = list(el.get("matched_lines") or []) + list(el.get("missing_lines") or [])
+        rel = [m.get("expected_rel") for m in listed]
+        top = max((float(v) for v in rel if isinstance(v, int | float) and v > 0), default=0.0)
+        stage = el.get("family") or (sp.split(" ", 1)[1] if " " in sp else "")
+        seen: set[str] = set()
+        for m, r in zip(listed, rel, strict=True):
+            pos = m.get(f"reference_{u}")
+            key = str(m.get("line_id") or pos)
+            if not isinstance(pos, int | float) or key in seen:
+                continue
+            seen.add(key)
+            out.append(
+                {
+                    "species": str(sp),
+                    "ion_stage": str(stage),
+                    "position": float(pos),
+                    "expected_rel": float(r) / top if top and isinstance(r, int | float) else 1.0,
+                    "line_id": str(m.get("line_id") or ""),
+                    "transition": m.get("transition"),
+                }
+            )
+    return out
+
+
+def boltzmann_fit_line(report: Mapping[str, Any]) -> tuple[list[float], list[float]] | None:
+    """End points of the engine's fitted Boltzmann line over the range of its points.
+
+    The line is ``y = intercept + slope_per_eV · E`` with the engine's slope
+    and intercept (``temperature.estimate.plot``); nothing is fitted here.
+    ``None`` when the report carries no fit.
+    """
+    est = (report.get("temperature") or {}).get("estimate") or {}
+    plot = est.get("plot") or {}
+    x = [float(v) for v in plot.get("E_upper_eV") or []]
+    slope, intercept = plot.get("slope_per_eV"), plot.get("intercept")
+    if len(x) < 2 or not isinstance(slope, int | float) or not isinstance(intercept, int | float):
+        return None
+    if not (math.isfinite(slope) and math.isfinite(intercept)):
+        return None
+    x0, x1 = min(x), max(x)
+    return [x0, x1], [float(intercept) + float(slope) * x0, float(intercept) + float(slope) * x1]
