@@ -119,7 +119,7 @@ def build_parameters(
     temperature_K: float | None,
     mode: str,
     elements: Sequence[str] | None = None,
-    apply_calibration: bool = False,
+    apply_calibration: bool | None = None,
 ) -> Any:
     """MatchParameters from the page's controls, bounds checked first.
 
