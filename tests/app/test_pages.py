@@ -190,7 +190,7 @@ def test_matching_page_shows_calls_first_then_tracks_and_saves(app, store_root):
         assert a.parameters["peak_table"]["edits"] == []
         assert a.parameters["peak_table"]["n_rows"] == 7  # rows in PEAKS_CSV
         assert "original_rows" not in a.parameters["peak_table"]  # kept only with edits
-        assert json.loads(a.result_json)["schema_version"] == 1
+        assert json.loads(a.result_json)["schema_version"] == 2  # docs/result-schema.md
         assert store.verify(CASE).ok
 
 

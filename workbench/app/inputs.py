@@ -69,7 +69,7 @@ def load_input(
     LoadedInput
     """
     from workbench.io import read_any
-    from workbench.peaks import find_peaks
+    from workbench.matching.analyse import peaks_from_spectrum
 
     if not data:
         raise InputError(f"{name}: nothing to read (0 bytes)", "upload a file or paste a table")
@@ -79,14 +79,13 @@ def load_input(
     got = read_any(bytes(data), mode=mode, **kw)
     options = {"unit": unit or None, "medium": medium or None, "kind": kind or None, "mode": mode}
     if isinstance(got, Spectrum):
-        pk: dict[str, Any] = {"mode": mode}
+        pk: dict[str, Any] = {}
         if min_snr:
             pk["min_snr"] = float(min_snr)
             options["min_snr"] = float(min_snr)
-        peaks = find_peaks(got, **pk)
-        # As analyse_input does: the spectrum's span bounds where a line could have been
-        # seen (tests/app/test_inputs.py checks that the app and the CLI agree).
-        peaks.extra.setdefault("x_range", (float(got.x[0]), float(got.x[-1])))
+        # The same peak finding as analyse_input (tests/app/test_runs.py checks that the
+        # app and the CLI give the same bytes on the same file).
+        peaks = peaks_from_spectrum(got, mode, pk)
         notes = got.source.notes if got.source else ()
         return LoadedInput(bytes(data), name, options, peaks, got, tuple(notes), {})
     notes = got.source.notes if got.source else ()

@@ -120,7 +120,7 @@ def analyse_input(
     spectrum: Spectrum | None = None
     if isinstance(data, Spectrum):
         spectrum = data
-        peaks = peaks_from_spectrum(data, params.mode, _peak_options(data, params, peak_options))
+        peaks = peaks_from_spectrum(data, params.mode, peak_options, params.instrument)
     else:
         peaks = data
         if peaks.mode != params.mode:
@@ -132,7 +132,7 @@ def analyse_input(
 
 
 def _peak_options(
-    spectrum: Spectrum, params: MatchParameters, peak_options: dict[str, Any] | None
+    spectrum: Spectrum, instrument: Any, peak_options: dict[str, Any] | None
 ) -> dict[str, Any]:
     """Peak-finding options, with the SNIP window matched to the detector on an energy axis.
 
@@ -151,15 +151,21 @@ def _peak_options(
 
         channel_eV = float(np.median(np.diff(np.asarray(spectrum.x, dtype=float))))
         if channel_eV > 0:
-            inst = params.instrument or DEFAULT_INSTRUMENT
+            inst = instrument or DEFAULT_INSTRUMENT
             opts["snip_iterations"] = snip_iterations_for(inst, channel_eV)
     return opts
 
 
 def peaks_from_spectrum(
-    spectrum: Spectrum, mode: str = "emission", peak_options: dict[str, Any] | None = None
+    spectrum: Spectrum,
+    mode: str = "emission",
+    peak_options: dict[str, Any] | None = None,
+    instrument: Any = None,
 ) -> PeakList:
     """Peak finding as every face does it, with what the engine needs from the spectrum.
+
+    On an energy axis the SNIP window follows the detector (``instrument``,
+    the documented default when ``None``) unless ``peak_options`` sets one.
 
     The spectrum's span bounds where lines could have been seen (and so where
     a line can be "missing"); the local sample spacing at each peak floors its
@@ -170,7 +176,7 @@ def peaks_from_spectrum(
 
     from workbench.peaks import find_peaks
 
-    peaks = find_peaks(spectrum, mode=mode, **(peak_options or {}))
+    peaks = find_peaks(spectrum, mode=mode, **_peak_options(spectrum, instrument, peak_options))
     peaks.extra.setdefault("x_range", (float(spectrum.x[0]), float(spectrum.x[-1])))
     if spectrum.x.size >= 2:
         spacing = np.gradient(np.asarray(spectrum.x, dtype=float))
@@ -223,7 +229,5 @@ def analyse_spectrum(
 ) -> AnalysisOutcome:
     """Find peaks in an already-read spectrum and match them (as :func:`analyse_input` does)."""
     params = params or MatchParameters()
-    peaks = peaks_from_spectrum(
-        spectrum, params.mode, _peak_options(spectrum, params, peak_options)
-    )
+    peaks = peaks_from_spectrum(spectrum, params.mode, peak_options, params.instrument)
     return analyse_peaks(peaks, set_ids, params, spectrum=spectrum, lab_dir=lab_dir)
