@@ -41,7 +41,7 @@ EVIDENCE_LINES: int = 5
 #: Missing lines printed per element.
 MISSING_LINES: int = 4
 #: Interference rows printed per element.
-INTERFERENCE_ROWS: int = 3
+INTERFERENCE_ROWS: int = 2
 
 _OVERLAPS = ("unresolved_overlap", "reference_overlap")
 

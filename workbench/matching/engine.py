@@ -60,6 +60,7 @@ from workbench.matching.interference import (
     interference_warnings,
 )
 from workbench.matching.joint import explain_jointly
+from workbench.matching.pooling import pool_ion_stages
 from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.response import ResponseFit, fit_response
@@ -487,6 +488,8 @@ def _second_pass(
     elif second is None:
         second = gather_evidence(obs, index, strengths, in_range, **kw)
     explain_jointly(second, obs, index, sigma_dex=sigma, strong_fraction=params.strong_fraction)
+    if index.axis == "wavelength":
+        pool_ion_stages(second)
     return second, response
 
 

@@ -126,6 +126,10 @@ def build_report(result: MatchResult) -> dict[str, Any]:
                 "n_groups_expected": ev.n_groups_expected,
                 "n_groups_found": ev.n_groups_found,
                 "explained_by": list(ev.explained_by),
+                "pooled_with": list(ev.pooled_with),
+                "pooled_evidence_dex": None
+                if ev.pooled_evidence_dex is None
+                else round(ev.pooled_evidence_dex, 4),
                 "pattern_r": _num(ev.pattern_r) if ev.pattern_r is not None else None,
                 "intensity_scale": _num(ev.scale) if ev.scale is not None else None,
                 "matched_lines": matched,

@@ -146,6 +146,8 @@ class SpeciesEvidence:
     level: int = 0
     score: float = 0.0
     groups: dict[str, Any] = field(default_factory=dict, repr=False)
+    pooled_with: list[str] = field(default_factory=list)  # see workbench.matching.pooling
+    pooled_evidence_dex: float | None = None
 
     @property
     def verdict(self) -> str:

@@ -1,0 +1,118 @@
+"""Pooling the evidence of one element's ion stages (wavelength axis).
+
+Why: the verdict classes are given per species (Mg I, Mg II), but the
+question an examiner answers is per element, and an element's stages are
+not independent hypotheses — in a plasma where Mg II's resonance doublet is
+seen, Mg I 285.21 nm is expected too. Scored one by one, an element with a
+clean doublet in one stage and one clean line in the other never gathers
+enough evidence in either to pass the classes' thresholds, although the
+three lines together are very unlikely to be coincidences (the invented
+LIBS demo's Mg; Ca II H and K with Ca I 422.67 nm).
+
+Rule. For every element with at least two stages that each have at least
+one counted group (found, visible, not explained by a better species):
+
+* combined chance probability of the stages' coincidences, with Fisher's
+  method for two or more independent p-values
+  (``q = Πp_i``, ``p = q·Σ_{j<m} (−ln q)^j / j!``, exact for ``m``
+  uniform p-values; Fisher 1932, *Statistical Methods for Research
+  Workers*, §21.1 — from memory);
+* corrected for the number of *elements* tried (Šidák), since this is one
+  more test per element, not per species;
+* pooled net evidence = −log10(corrected p) + Σ the stages' missing-line
+  penalties + the element's prior (once);
+* the class rules of :mod:`workbench.matching.scoring` applied to the pooled
+  evidence with the stages' counted groups and unique peaks added up; each
+  stage that has a counted group of its own is raised to the pooled class
+  if that is higher (never lowered). A stage without a counted group of its
+  own is not raised: it is not seen.
+
+The pooled figures are reported per species (``pooled_with``,
+``pooled_evidence_dex``), so the raise is visible and can be checked.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import defaultdict
+
+import numpy as np
+
+from workbench.matching.evidence import EvidencePass
+from workbench.matching.scoring import (
+    ESTABLISHED_DEX,
+    POSSIBLE_DEX,
+    PROBABLE_DEX,
+    SpeciesEvidence,
+    score_of,
+)
+
+__all__ = ["fisher_combined", "pool_ion_stages"]
+
+
+def fisher_combined(p_values: list[float]) -> float:
+    """Fisher's combined probability for independent p-values (closed form).
+
+    Parameters
+    ----------
+    p_values : list of float
+        Independent p-values in (0, 1].
+
+    Returns
+    -------
+    float
+        P(product of m uniform variables ≤ the observed product).
+    """
+    q = float(np.prod(np.clip(p_values, 1e-300, 1.0)))
+    if q >= 1.0:
+        return 1.0
+    x = -math.log(q)
+    term, total = 1.0, 1.0
+    for j in range(1, len(p_values)):
+        term *= x / j
+        total += term
+    return float(min(1.0, q * total))
+
+
+def _level(e: float, k: int, unique: int, missing_evidence: bool) -> int:
+    if e >= ESTABLISHED_DEX and k >= 2 and unique >= 1 and missing_evidence:
+        return 3
+    if e >= PROBABLE_DEX and k >= 2 and unique >= 1:
+        return 2
+    if e >= POSSIBLE_DEX:
+        return 1
+    return 0
+
+
+def pool_ion_stages(ev_pass: EvidencePass) -> None:
+    """Raise ion stages of one element to their pooled class (in place; see module doc)."""
+    by_element: dict[str, list[SpeciesEvidence]] = defaultdict(list)
+    for ev in ev_pass.evidence.values():
+        if ev.ion is not None:
+            by_element[ev.element].append(ev)
+    n_elements = max(1, len(by_element))
+    for stages in by_element.values():
+        seen = [ev for ev in stages if ev.n_groups_counted >= 1 and ev.n_groups_matched >= 1]
+        if len(seen) < 2:
+            continue
+        p = fisher_combined([ev.chance_probability for ev in seen])
+        p_corr = float(-np.expm1(n_elements * np.log1p(-min(p, 1 - 1e-16))))
+        e = -math.log10(max(p_corr, 1e-300))
+        e += sum(ev.missing_penalty_dex for ev in seen) + max(ev.prior_dex for ev in seen)
+        k = sum(ev.n_groups_counted for ev in seen)
+        unique = sum(ev.n_unique_peaks for ev in seen)
+        level = _level(e, k, unique, all(ev.missing_evidence for ev in seen))
+        names = [ev.label for ev in seen]
+        for ev in seen:
+            ev.pooled_with = [n for n in names if n != ev.label]
+            ev.pooled_evidence_dex = e
+            if level > ev.level:
+                ev.level = level
+                ev.score = max(ev.score, score_of_value(e))
+
+
+def score_of_value(e: float) -> float:
+    """The score of :func:`workbench.matching.scoring.score_of` for a bare evidence value."""
+    probe = SpeciesEvidence(code=-1, label="", element="", ion=None, family=None)
+    probe.net_evidence_dex = e
+    return score_of(probe)
