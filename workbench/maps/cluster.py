@@ -158,7 +158,10 @@ class Runner:
             self._tick(done, total, label)
 
     def map(
-        self, fn: Callable[..., Any], items: Iterable[Any], on_result: Callable[[int, Any], None],
+        self,
+        fn: Callable[..., Any],
+        items: Iterable[Any],
+        on_result: Callable[[int, Any], None],
         label: str,
     ) -> None:
         """Apply ``fn`` to each item on the workers; ``on_result(i, value)`` as each finishes."""

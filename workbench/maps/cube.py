@@ -111,8 +111,9 @@ class Cube:
                 "give one energy per channel",
             )
         chunks = _pixel_chunks(arr.shape, arr.dtype.itemsize, chunk_mb)
-        return cls(da.from_array(arr, chunks=chunks), e, None, "memory", None, "file",
-                   pixel_size_um)
+        return cls(
+            da.from_array(arr, chunks=chunks), e, None, "memory", None, "file", pixel_size_um
+        )
 
 
 def _check_shape(shape: tuple[int, ...], what: str) -> None:
@@ -127,11 +128,15 @@ def _check_shape(shape: tuple[int, ...], what: str) -> None:
 
 def _check_energy(e: np.ndarray, what: str) -> np.ndarray:
     if e.ndim != 1 or e.size < 8:
-        raise ValueRangeError(f"the energy axis of {what} has shape {e.shape}",
-                              "give a 1-D energy axis with one value per channel")
+        raise ValueRangeError(
+            f"the energy axis of {what} has shape {e.shape}",
+            "give a 1-D energy axis with one value per channel",
+        )
     if not np.all(np.isfinite(e)) or not np.all(np.diff(e) > 0):
-        raise ValueRangeError(f"the energy axis of {what} is not finite and increasing",
-                              "check the calibration (offset and gain in eV)")
+        raise ValueRangeError(
+            f"the energy axis of {what} is not finite and increasing",
+            "check the calibration (offset and gain in eV)",
+        )
     return e
 
 
@@ -161,8 +166,13 @@ def cube_sha256(path: str | Path) -> str:
 # --- reading a region by path (runs inside Dask tasks) -------------------------
 
 
-def _read_region(fmt: str, path: str, dataset: str | None, order: tuple[int, int, int],
-                 region: tuple[slice, slice, slice]) -> np.ndarray:
+def _read_region(
+    fmt: str,
+    path: str,
+    dataset: str | None,
+    order: tuple[int, int, int],
+    region: tuple[slice, slice, slice],
+) -> np.ndarray:
     native = [slice(None)] * 3
     for out_axis, nat_axis in enumerate(order):
         native[nat_axis] = region[out_axis]
@@ -182,8 +192,14 @@ def _read_region(fmt: str, path: str, dataset: str | None, order: tuple[int, int
     return np.ascontiguousarray(np.transpose(np.asarray(block), order))
 
 
-def _load_block(fmt: str, path: str, dataset: str | None, order: tuple[int, int, int],
-                dtype: np.dtype, block_info: dict | None = None) -> np.ndarray:
+def _load_block(
+    fmt: str,
+    path: str,
+    dataset: str | None,
+    order: tuple[int, int, int],
+    dtype: np.dtype,
+    block_info: dict | None = None,
+) -> np.ndarray:
     loc = block_info[None]["array-location"]  # type: ignore[index]
     region = tuple(slice(a, b) for a, b in loc)
     return _read_region(fmt, path, dataset, order, region).astype(dtype, copy=False)  # type: ignore[arg-type]
@@ -200,8 +216,9 @@ def _units_factor(attrs: Any, name: str, default: float) -> float:
         return 1000.0 if name.endswith("keV") else default
     f = _UNIT_TO_EV.get(str(unit).strip().lower())
     if f is None:
-        raise FileFormatError(f"energy axis {name!r} has unit {unit!r}",
-                              "store the energy axis in eV or keV")
+        raise FileFormatError(
+            f"energy axis {name!r} has unit {unit!r}", "store the energy axis in eV or keV"
+        )
     return f
 
 
@@ -271,8 +288,10 @@ def _inspect(path: Path, fmt: str, dataset: str | None) -> dict[str, Any]:
         try:
             f = h5py.File(path, "r")
         except OSError as exc:
-            raise FileFormatError(f"{path.name} is not a readable HDF5 file ({exc})",
-                                  "give an HDF5, NeXus, Zarr or .npy cube") from exc
+            raise FileFormatError(
+                f"{path.name} is not a readable HDF5 file ({exc})",
+                "give an HDF5, NeXus, Zarr or .npy cube",
+            ) from exc
         with f:
             axes_names: list[str] = []
             group = None
@@ -288,19 +307,26 @@ def _inspect(path: Path, fmt: str, dataset: str | None) -> dict[str, Any]:
             if dataset is None:
                 cands = _h5_candidates(f)
                 if not cands:
-                    raise FileFormatError(f"{path.name} holds no 3-D numeric dataset",
-                                          "give a file with the cube as a 3-D dataset")
+                    raise FileFormatError(
+                        f"{path.name} holds no 3-D numeric dataset",
+                        "give a file with the cube as a 3-D dataset",
+                    )
                 if len(cands) > 1:
-                    raise InputError(f"{path.name} holds several 3-D datasets: {cands}",
-                                     "name the cube with --dataset PATH")
+                    raise InputError(
+                        f"{path.name} holds several 3-D datasets: {cands}",
+                        "name the cube with --dataset PATH",
+                    )
                 dataset = cands[0]
             if dataset not in f:
-                raise InputError(f"{path.name} has no dataset {dataset!r}",
-                                 "check the dataset path (h5ls lists them)")
+                raise InputError(
+                    f"{path.name} has no dataset {dataset!r}",
+                    "check the dataset path (h5ls lists them)",
+                )
             d = f[dataset]
             if not hasattr(d, "shape") or d.dtype.kind not in "uif":
-                raise FileFormatError(f"{path.name}:{dataset} is not a numeric dataset",
-                                      "name a numeric 3-D dataset")
+                raise FileFormatError(
+                    f"{path.name}:{dataset} is not a numeric dataset", "name a numeric 3-D dataset"
+                )
             info["shape"], info["dtype"] = tuple(d.shape), d.dtype
             _check_shape(info["shape"], f"{path.name}:{dataset}")
             parent = d.parent
@@ -334,8 +360,10 @@ def _inspect(path: Path, fmt: str, dataset: str | None) -> dict[str, Any]:
         try:
             node = zarr.open(str(path), mode="r")
         except Exception as exc:  # zarr raises several kinds for a non-store
-            raise FileFormatError(f"{path.name} is not a readable Zarr store ({exc})",
-                                  "give an HDF5, NeXus, Zarr or .npy cube") from exc
+            raise FileFormatError(
+                f"{path.name} is not a readable Zarr store ({exc})",
+                "give an HDF5, NeXus, Zarr or .npy cube",
+            ) from exc
         if isinstance(node, zarr.Array):
             arr, group = node, None
         else:
@@ -343,8 +371,10 @@ def _inspect(path: Path, fmt: str, dataset: str | None) -> dict[str, Any]:
             if dataset is None:
                 cands = [k for k, a in node.arrays() if a.ndim == 3]
                 if len(cands) != 1:
-                    raise InputError(f"{path.name} holds {len(cands)} 3-D arrays {cands}",
-                                     "name the cube with --dataset NAME")
+                    raise InputError(
+                        f"{path.name} holds {len(cands)} 3-D arrays {cands}",
+                        "name the cube with --dataset NAME",
+                    )
                 dataset = cands[0]
             arr = node[dataset]
         info["shape"], info["dtype"] = tuple(arr.shape), np.dtype(arr.dtype)
@@ -366,13 +396,15 @@ def _inspect(path: Path, fmt: str, dataset: str | None) -> dict[str, Any]:
         try:
             arr = np.load(path, mmap_mode="r")
         except (OSError, ValueError) as exc:
-            raise FileFormatError(f"{path.name} is not a readable .npy file ({exc})",
-                                  "save the cube with numpy.save") from exc
+            raise FileFormatError(
+                f"{path.name} is not a readable .npy file ({exc})", "save the cube with numpy.save"
+            ) from exc
         info["shape"], info["dtype"] = tuple(arr.shape), arr.dtype
         _check_shape(info["shape"], path.name)
         if arr.dtype.kind not in "uif":
-            raise FileFormatError(f"{path.name} holds {arr.dtype}, not numbers",
-                                  "save counts as integers or floats")
+            raise FileFormatError(
+                f"{path.name} holds {arr.dtype}, not numbers", "save counts as integers or floats"
+            )
         info["spectral_axis"] = 2
     info["dataset"] = dataset
     return info
@@ -388,8 +420,10 @@ def _format_of(path: Path) -> str:
         return "nexus"
     if suffix in (".h5", ".hdf5", ".hdf", ".he5"):
         return "hdf5"
-    raise FileFormatError(f"{path.name}: unknown cube format {suffix or '(no suffix)'!r}",
-                          "give .h5/.hdf5, .nxs (NeXus), .zarr or .npy")
+    raise FileFormatError(
+        f"{path.name}: unknown cube format {suffix or '(no suffix)'!r}",
+        "give .h5/.hdf5, .nxs (NeXus), .zarr or .npy",
+    )
 
 
 def open_cube(
@@ -463,8 +497,14 @@ def open_cube(
         )
     chunks = _pixel_chunks(out_shape, info["dtype"].itemsize, chunk_mb)
     data = da.map_blocks(
-        _load_block, fmt, str(p.resolve()), info["dataset"], order, info["dtype"],
-        chunks=da.core.normalize_chunks(chunks, out_shape), dtype=info["dtype"],
+        _load_block,
+        fmt,
+        str(p.resolve()),
+        info["dataset"],
+        order,
+        info["dtype"],
+        chunks=da.core.normalize_chunks(chunks, out_shape),
+        dtype=info["dtype"],
         meta=np.empty((0, 0, 0), dtype=info["dtype"]),
     )
     if mode == "in_memory":

@@ -185,23 +185,31 @@ def load_instrument(path: str | Path | None) -> Instrument:
     try:
         data = json.loads(p.read_text(encoding="utf-8"))
     except OSError as exc:
-        raise InputError(f"cannot read instrument description {p} ({exc.strerror})",
-                         "check the path") from exc
+        raise InputError(
+            f"cannot read instrument description {p} ({exc.strerror})", "check the path"
+        ) from exc
     except (UnicodeDecodeError, ValueError) as exc:
-        raise FileFormatError(f"instrument description {p} is not valid JSON ({exc})",
-                              "write it as one JSON object") from exc
+        raise FileFormatError(
+            f"instrument description {p} is not valid JSON ({exc})", "write it as one JSON object"
+        ) from exc
     if not isinstance(data, dict):
-        raise FileFormatError(f"instrument description {p} is not a JSON object",
-                              "write it as one JSON object of named values")
+        raise FileFormatError(
+            f"instrument description {p} is not a JSON object",
+            "write it as one JSON object of named values",
+        )
     known = {k: data[k] for k in _KNOWN if k in data}
     for key, value in known.items():
         if key == "name":
             continue
         if value is not None and (not isinstance(value, int | float) or not math.isfinite(value)):
-            raise ValueRangeError(f"instrument description {p}: {key} = {value!r} is not a number",
-                                  "give a finite number")
+            raise ValueRangeError(
+                f"instrument description {p}: {key} = {value!r} is not a number",
+                "give a finite number",
+            )
     if known.get("gain_eV_per_channel") is not None and known["gain_eV_per_channel"] <= 0:
-        raise ValueRangeError(f"instrument description {p}: gain_eV_per_channel must be > 0",
-                              "give the channel width in eV")
+        raise ValueRangeError(
+            f"instrument description {p}: gain_eV_per_channel must be > 0",
+            "give the channel width in eV",
+        )
     extra = {k: v for k, v in data.items() if k not in _KNOWN}
     return Instrument(**known, extra=extra)

@@ -124,7 +124,10 @@ def identify_spectrum(
     mp = MatchParameters(elements=tuple(sorted(params.elements)) if params.elements else None)
     opts = {"min_snr": params.min_snr} if params.min_snr else None
     outcome = analyse_input(
-        spectrum_csv(energy_eV, counts, name), name=name, params=mp, peak_options=opts,
+        spectrum_csv(energy_eV, counts, name),
+        name=name,
+        params=mp,
+        peak_options=opts,
         kind="spectrum",
     )
     return outcome.report, outcome.json_bytes
@@ -197,8 +200,9 @@ def run_maps(
     name = cube.path.name if cube.path else "cube"
     sum_report, sum_json = identify_spectrum(e, total, f"{name} sum spectrum", params)
     max_report, max_json = identify_spectrum(e, peak, f"{name} maximum-pixel spectrum", params)
-    candidates = sorted(_candidates(sum_report, params.verdicts)
-                        | _candidates(max_report, params.verdicts))
+    candidates = sorted(
+        _candidates(sum_report, params.verdicts) | _candidates(max_report, params.verdicts)
+    )
     timings["identify"] = time.perf_counter() - t0
 
     # 3. screening fit of the sum spectrum (Poisson weights of the sum itself).
@@ -211,8 +215,7 @@ def run_maps(
         x, s, _, _ = sm.solve(total[:, None])
         for k, sp in enumerate(tpl.families):
             ok = bool(x[k, 0] > params.detection_k * s[k, 0])
-            screening[sp] = {"sum_counts": float(x[k, 0]), "sigma": float(s[k, 0]),
-                             "detected": ok}
+            screening[sp] = {"sum_counts": float(x[k, 0]), "sigma": float(s[k, 0]), "detected": ok}
             if ok:
                 families.append(sp)
     timings["screen"] = time.perf_counter() - t0
@@ -238,14 +241,38 @@ def run_maps(
 
     runner.compute_each(
         [dask.delayed(FitModel.fit_block)(dmodel, blocks[i, j, 0]) for i, j in flat],
-        put, "pixel fit",
+        put,
+        "pixel fit",
     )
     timings["fit_pass"] = time.perf_counter() - t0
     info = {
-        "path": str(cube.path) if cube.path else None, "format": cube.format,
-        "dataset": cube.dataset, "shape": [ny, nx, nch], "dtype": str(cube.data.dtype),
-        "calibration_source": cube.calibration_source, "pixel_size_um": cube.pixel_size_um,
-        "energy_first_eV": float(e[0]), "energy_last_eV": float(e[-1]), "notes": cube.notes,
+        "path": str(cube.path) if cube.path else None,
+        "format": cube.format,
+        "dataset": cube.dataset,
+        "shape": [ny, nx, nch],
+        "dtype": str(cube.data.dtype),
+        "calibration_source": cube.calibration_source,
+        "pixel_size_um": cube.pixel_size_um,
+        "energy_first_eV": float(e[0]),
+        "energy_last_eV": float(e[-1]),
+        "notes": cube.notes,
     }
-    return MapResult(families, maps, sigma, roi, chi2, e, total, peak, sum_json, max_json,
-                     candidates, screening, params, instrument, info, runner.description, timings)
+    return MapResult(
+        families,
+        maps,
+        sigma,
+        roi,
+        chi2,
+        e,
+        total,
+        peak,
+        sum_json,
+        max_json,
+        candidates,
+        screening,
+        params,
+        instrument,
+        info,
+        runner.description,
+        timings,
+    )
