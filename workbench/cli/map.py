@@ -112,7 +112,9 @@ def run(args: argparse.Namespace) -> int:
     if args.rgb:
         rgb = tuple(s.strip() for s in args.rgb.split(","))
         if len(rgb) != 3:
-            raise InputError(f"--rgb needs three families, got {len(rgb)}", "e.g. 'Pb L,Hg L,Cu K'")
+            raise InputError(
+                f"--rgb needs three families, got {len(rgb)}", "give e.g. 'Pb L,Hg L,Cu K'"
+            )
     cube = open_cube(cube_path, instrument=instrument, dataset=args.dataset, chunk_mb=args.chunk_mb)
     params = MapParameters(elements=elements, min_snr=args.min_snr)
     with Runner(args.scheduler, n_workers=args.workers, progress=TextProgress()) as runner:

@@ -252,9 +252,14 @@ def _nexus_signal(f: Any) -> tuple[str, list[str], str] | None:
     for ename, entry in f.items():
         if not isinstance(entry, h5py.Group) or cls(entry) != "NXentry":
             continue
-        groups: list[tuple[str, Any]] = []
-        entry.visititems(lambda n, o: groups.append((n, o)) if isinstance(o, h5py.Group) else None)
-        for gname, g in [("", entry), *groups]:
+        groups: list[tuple[str, Any]] = [("", entry)]
+
+        def collect(n: str, o: Any, found: list[tuple[str, Any]] = groups) -> None:
+            if isinstance(o, h5py.Group):
+                found.append((n, o))
+
+        entry.visititems(collect)
+        for gname, g in groups:
             if cls(g) != "NXdata" or "signal" not in g.attrs:
                 continue
             sig = g.attrs["signal"]

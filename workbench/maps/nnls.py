@@ -42,7 +42,6 @@ def _support_solve(G: np.ndarray, B: np.ndarray, support: np.ndarray) -> np.ndar
     Each column's system is embedded in a k × k one (identity rows and columns
     off the support), so all columns go to one stacked ``numpy.linalg.solve``.
     """
-    k, n = B.shape
     out = np.zeros_like(B)
     eye = np.eye(k)
     for start in range(0, n, 2048):  # bounds the (n, k, k) stack to ~k²·16 kB
@@ -94,7 +93,6 @@ def nnls_batch(
     """
     G = np.asarray(G, dtype=np.float64)
     B = np.asarray(B, dtype=np.float64)
-    k, n = B.shape
     X = np.linalg.solve(G, B)
     converged = np.all(X >= 0, axis=0)
     todo = np.flatnonzero(~converged)

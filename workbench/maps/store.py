@@ -96,7 +96,7 @@ def preview_png(rgb: np.ndarray, pixel_size_um: float | None, title: str) -> byt
     draw.text((4, img.height + 2), title, fill="black")
     if pixel_size_um:
         length_um = _nice_length(nx * pixel_size_um / 4)
-        bar = int(round(length_um / pixel_size_um * scale))
+        bar = round(length_um / pixel_size_um * scale)
         y = img.height + 20
         draw.rectangle([4, y, 4 + bar, y + 4], fill="black")
         label = f"{length_um / 1000:g} mm" if length_um >= 1000 else f"{length_um:g} µm"

@@ -133,7 +133,7 @@ def _background_basis(energy_eV: np.ndarray, knot_spacing_eV: float) -> np.ndarr
     from scipy.interpolate import BSpline
 
     lo, hi = float(energy_eV[0]), float(energy_eV[-1])
-    n_int = max(int(round((hi - lo) / knot_spacing_eV)), 1)
+    n_int = max(round((hi - lo) / knot_spacing_eV), 1)
     inner = np.linspace(lo, hi, n_int + 1)
     k = 3
     t = np.concatenate([[lo] * k, inner, [hi] * k])
