@@ -42,6 +42,7 @@ def _support_solve(G: np.ndarray, B: np.ndarray, support: np.ndarray) -> np.ndar
     Each column's system is embedded in a k × k one (identity rows and columns
     off the support), so all columns go to one stacked ``numpy.linalg.solve``.
     """
+    k, n = B.shape
     out = np.zeros_like(B)
     eye = np.eye(k)
     for start in range(0, n, 2048):  # bounds the (n, k, k) stack to ~k²·16 kB
