@@ -17,10 +17,20 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from workbench.maps.nnls import nnls_batch, poisson_sigma
+from workbench.maps.nnls import nnls_batch
 from workbench.maps.templates import TemplateSet
 
-__all__ = ["FitModel", "roi_counts"]
+__all__ = ["FitModel", "poisson_sigma_matrix", "roi_counts"]
+
+
+def poisson_sigma_matrix(P: np.ndarray, A: np.ndarray) -> np.ndarray:
+    """``(P∘P) A``: with it, Var(x) = ((P∘P) A) x for Poisson counts ŷ = A x.
+
+    The same propagation as :func:`workbench.maps.nnls.poisson_sigma`
+    (JCGM 100:2008 §5.1), folded through the model so that it costs k² per
+    pixel instead of k × n_channels.
+    """
+    return (P * P) @ A
 
 
 def roi_counts(Y: np.ndarray, windows: list[tuple[int, int]]) -> np.ndarray:
@@ -86,22 +96,36 @@ class FitModel:
         G = AW @ A
         B = AW @ Y
         X, converged = nnls_batch(G, B)
-        Y_hat = A @ X
         P = np.linalg.solve(G, AW)
-        sigma = poisson_sigma(P, Y_hat)
+        # Ŷ = A X, so Σ_c P²_jc ŷ_c = ((P∘P) A) X: a k × k product instead of k × c × n.
+        sigma = np.sqrt(np.maximum(poisson_sigma_matrix(P, A) @ X, 0.0))
+        Y_hat = A @ X
         dof = max(Y.shape[0] - A.shape[1], 1)
-        chi2 = np.sum((Y - Y_hat) ** 2 / np.maximum(Y_hat, 1.0), axis=0) / dof
+        r = Y - Y_hat
+        r *= r
+        r /= np.maximum(Y_hat, 1.0, out=Y_hat)
+        chi2 = r.sum(axis=0) / dof
         return X, sigma, chi2, converged
 
-    def fit_block(self, block: np.ndarray) -> np.ndarray:
-        """Fit one chunk ``(ry, rx, n_channels)`` → ``(ry, rx, n_out)`` float32."""
+    def fit_block(self, block: np.ndarray, batch: int = 2048) -> np.ndarray:
+        """Fit one chunk ``(ry, rx, n_channels)`` → ``(ry, rx, n_out)`` float32.
+
+        Pixels are fitted ``batch`` at a time so that the float64 working
+        arrays stay near ``batch × n_channels × 8`` bytes (32 MB for 2,048
+        channels) whatever the chunk size.
+        """
         ry, rx, nch = block.shape
-        Y = block.reshape(ry * rx, nch).T.astype(np.float64)
+        flat = block.reshape(ry * rx, nch)
         nf = self.n_families
-        X, sigma, chi2, _ = self.solve(Y)
-        roi = roi_counts(Y, self.templates.roi_windows)
-        out = np.concatenate([X[:nf], sigma[:nf], roi, chi2[None]], axis=0)
-        return out.T.reshape(ry, rx, self.n_out).astype(np.float32)
+        out = np.empty((ry * rx, self.n_out), np.float32)
+        for start in range(0, ry * rx, batch):
+            Y = flat[start : start + batch].T.astype(np.float64)
+            X, sigma, chi2, _ = self.solve(Y)
+            roi = roi_counts(Y, self.templates.roi_windows)
+            out[start : start + batch] = np.concatenate(
+                [X[:nf], sigma[:nf], roi, chi2[None]], axis=0
+            ).T
+        return out.reshape(ry, rx, self.n_out)
 
 
 def _sum_max_block(block: np.ndarray) -> np.ndarray:
