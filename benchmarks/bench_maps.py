@@ -208,7 +208,8 @@ def main() -> None:
     ap.add_argument("--skip", default="", help="stages to skip, e.g. 'bc'")
     ap.add_argument("--tmp", type=Path, help="scratch directory (default: system temp)")
     args = ap.parse_args()
-    print(f"cores {os.cpu_count()}, memory {psutil.virtual_memory().total / 1e9:.1f} GB")
+    print(f"cores {os.cpu_count()}, memory {psutil.virtual_memory().total / 1e9:.1f} GB, "
+          f"load average {os.getloadavg()[0]:.1f} (other jobs share these cores)")
     with tempfile.TemporaryDirectory(dir=args.tmp) as t:
         tmp = Path(t)
         if "a" not in args.skip:
@@ -217,6 +218,7 @@ def main() -> None:
             stage_b(tmp, 1000 if args.full else args.size)
         if "c" not in args.skip:
             stage_c(tmp)
+    print(f"\nload average at the end {os.getloadavg()[0]:.1f}")
 
 
 if __name__ == "__main__":
