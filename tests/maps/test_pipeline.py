@@ -56,3 +56,15 @@ def test_local_cluster_with_two_workers_gives_the_same_maps(h5_cube, result):
         res = run_maps(cube, runner, instrument=INSTRUMENT)
     assert res.families == result.families
     np.testing.assert_allclose(res.maps, result.maps, rtol=1e-5, atol=1e-3)
+
+
+def test_background_only_cube_gives_no_map(energy_eV):
+    from tests.maps.conftest import NCH
+    from workbench.maps import Cube
+    from workbench.maps.synth import background_shape
+
+    rng = np.random.default_rng(20261202)
+    counts = rng.poisson(2000.0 * background_shape(energy_eV), size=(6, 7, NCH))
+    with Runner("threads") as runner:
+        res = run_maps(Cube.from_array(counts, energy_eV), runner, instrument=INSTRUMENT)
+    assert res.families == [] and res.maps.shape == (0, 6, 7)

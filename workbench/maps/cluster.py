@@ -59,6 +59,8 @@ class Runner:
         Per-worker memory limit of the LocalCluster (default: machine / workers).
     progress : callable, optional
         ``progress(done, total, label)``, called as results arrive.
+    connect_timeout_s : float
+        How long to try reaching a scheduler given by address.
     """
 
     def __init__(
@@ -69,12 +71,14 @@ class Runner:
         processes: bool = True,
         memory_limit: str | int | None = None,
         progress: Progress | None = None,
+        connect_timeout_s: float = 10.0,
     ) -> None:
         self.scheduler = scheduler
         self.n_workers = n_workers
         self.processes = processes
         self.memory_limit = memory_limit
         self.progress = progress
+        self.connect_timeout_s = connect_timeout_s
         self.client: Any = None
         self._cluster: Any = None
 
@@ -111,7 +115,7 @@ class Runner:
             self.client = Client(self._cluster)
         else:
             try:
-                self.client = Client(self.scheduler, timeout="10s")
+                self.client = Client(self.scheduler, timeout=f"{self.connect_timeout_s}s")
             except OSError as exc:
                 raise InputError(
                     f"cannot reach the Dask scheduler at {self.scheduler} ({exc})",
