@@ -110,7 +110,7 @@ class Runner:
                 threads_per_worker=1,
                 processes=self.processes,
                 memory_limit=mem,
-                dashboard_address=None,
+                dashboard_address=":0",  # any free port: never collide with another cluster
             )
             self.client = Client(self._cluster)
         else:
