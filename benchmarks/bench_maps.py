@@ -207,7 +207,7 @@ def stage_c(tmp: Path, n_files: int = 500) -> None:
     print(
         f"   batch, 2 workers          {t_par:7.1f} s wall ({n_files / t_par:.1f} spectra/s), "
         f"CPU {c_par / n_files * 1000:.0f} ms/spectrum on workers; ×{t_seq / t_par:.2f} wall "
-        f"(cluster start + warm-up {t_start:.1f} s + not counted)"
+        f"(cluster start {t_start:.1f} s and warm-up not counted)"
     )
 
 
