@@ -55,7 +55,9 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--dataset", metavar="PATH", help="dataset inside the file")
     p.add_argument("--elements", metavar="Pb,Hg,...", help="consider only these elements")
     p.add_argument("--min-snr", type=float, help="peak threshold for the sum spectra (σ)")
-    p.add_argument("--chunk-mb", type=float, default=32.0, help="largest chunk per task (MB)")
+    p.add_argument(
+        "--chunk-mb", type=float, help="largest chunk per task in MB (default 32; 1 for --demo)"
+    )
     p.add_argument(
         "--rgb", metavar="A,B,C", help="three families for rgb.png, e.g. 'Pb L,Hg L,Cu K'"
     )
@@ -115,7 +117,8 @@ def run(args: argparse.Namespace) -> int:
             raise InputError(
                 f"--rgb needs three families, got {len(rgb)}", "give e.g. 'Pb L,Hg L,Cu K'"
             )
-    cube = open_cube(cube_path, instrument=instrument, dataset=args.dataset, chunk_mb=args.chunk_mb)
+    chunk_mb = args.chunk_mb or (1.0 if args.demo else 32.0)
+    cube = open_cube(cube_path, instrument=instrument, dataset=args.dataset, chunk_mb=chunk_mb)
     params = MapParameters(elements=elements, min_snr=args.min_snr)
     with Runner(args.scheduler, n_workers=args.workers, progress=TextProgress()) as runner:
         result = run_maps(cube, runner, instrument=instrument, params=params)
@@ -139,7 +142,7 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         print_json(manifest)
         return 0
-    print(f"cube      {cube_path}  {' × '.join(map(str, cube.shape))}  ({runner.description})")
+    print(f"cube      {cube_path}  {' × '.join(map(str, cube.shape))}  ({result.runner})")
     print(f"found     {', '.join(result.candidates) or 'nothing'}")
     for sp, s in result.screening.items():
         state = "mapped" if s["detected"] else "below the detection screen, no map"
