@@ -52,7 +52,7 @@ def test_batch_equals_single_file_match_byte_for_byte(folder, tmp_path):
 def test_batch_on_a_local_cluster_gives_the_same_files(folder, tmp_path):
     with Runner("threads") as runner:
         run_batch([folder], runner, tmp_path / "a")
-    with Runner(None, n_workers=2, processes=False, memory_limit="1GB") as runner:
+    with Runner(None, n_workers=2, processes=False) as runner:
         run_batch([folder], runner, tmp_path / "b")
     for name in ("chip.csv.json", "ground.csv.json", "summary.csv"):
         assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes()

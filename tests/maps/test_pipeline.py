@@ -51,7 +51,7 @@ def test_elements_option_restricts_the_maps(h5_cube):
 
 def test_local_cluster_with_two_workers_gives_the_same_maps(h5_cube, result):
     cube = open_cube(h5_cube, chunk_mb=0.1)
-    with Runner(None, n_workers=2, processes=False, memory_limit="1GB") as runner:
+    with Runner(None, n_workers=2, processes=False) as runner:
         assert "2 worker(s)" in runner.description
         res = run_maps(cube, runner, instrument=INSTRUMENT)
     assert res.families == result.families

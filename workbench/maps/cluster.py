@@ -56,7 +56,8 @@ class Runner:
     processes : bool
         LocalCluster workers as processes (default) or threads.
     memory_limit : str or int, optional
-        Per-worker memory limit of the LocalCluster (default: machine / workers).
+        Per-worker memory limit of the LocalCluster (default: 80 % of the
+        machine / workers; none for thread workers, which share this process).
     progress : callable, optional
         ``progress(done, total, label)``, called as results arrive.
     connect_timeout_s : float
@@ -101,7 +102,11 @@ class Runner:
         if self.scheduler is None:
             n = self.n_workers or os.cpu_count() or 1
             mem = self.memory_limit
-            if mem is None:
+            if mem is None and not self.processes:
+                # Thread workers share this process: a per-worker limit would be
+                # checked against the whole process's memory and pause them.
+                mem = 0
+            elif mem is None:
                 from distributed.system import MEMORY_LIMIT
 
                 mem = int(MEMORY_LIMIT * 0.8 / n)
