@@ -72,5 +72,5 @@ def test_a_match_instrument_file_serves_the_map_pipeline(tmp_path):
 def test_a_bad_xray_setting_is_one_clear_error(tmp_path):
     path = tmp_path / "bad.json"
     path.write_text(json.dumps({"anode": "Rh", "tube_kV": "forty"}))
-    with pytest.raises(InputError, match="bad.json"):
+    with pytest.raises(InputError, match=r"bad\.json"):
         load_instrument(path)
