@@ -119,6 +119,32 @@ def choose_case(case_number: str) -> None:
     st.rerun()
 
 
+#: Session keys that belong to the current input and its results.
+INPUT_KEYS: tuple[str, ...] = (
+    "work",
+    "work_measurement_id",
+    "work_item",
+    "view",
+    "view_input_sha",
+    "outcome_parameters",
+    "saved_analysis_id",
+    "focus",
+    "tracks",
+    "run_note",
+)
+
+
+def clear_input() -> None:
+    """Forget the current input and everything computed from it.
+
+    Called before a new input is read, so that a read error never leaves the
+    old input (or its results) looking current.
+    """
+    for k in INPUT_KEYS:
+        st.session_state.pop(k, None)
+    st.session_state["peak_edits"] = []
+
+
 @st.cache_data(max_entries=4, show_spinner="Reading the input…")
 def load_input_cached(data: bytes, name: str, options: tuple[tuple[str, Any], ...]) -> Any:
     """:func:`workbench.app.inputs.load_input`, cached per bytes and options (reruns reuse it)."""

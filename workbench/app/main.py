@@ -21,6 +21,7 @@ pages = [
     st.Page("page_matching.py", title="Line matching", icon=":material/science:"),
     st.Page("page_findings.py", title="Findings", icon=":material/draw:"),
     st.Page("page_comparison.py", title="Comparison", icon=":material/compare:"),
+    st.Page("page_maps.py", title="Element maps", icon=":material/grid_on:"),
 ]
 nav = st.navigation(pages)
 

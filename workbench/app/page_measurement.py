@@ -18,22 +18,7 @@ TECHNIQUES = ("LIBS", "spark OES", "ICP-OES", "XRF", "absorption", "other")
 
 
 def _read(data: bytes, name: str, measurement_id: int | None, item: str | None) -> None:
-    # Whatever was on screen belongs to the previous input: drop it first, so a read
-    # error never leaves the old input (or its results) looking current.
-    for k in (
-        "work",
-        "work_measurement_id",
-        "work_item",
-        "view",
-        "view_input_sha",
-        "outcome_parameters",
-        "saved_analysis_id",
-        "focus",
-        "tracks",
-        "run_note",
-    ):
-        st.session_state.pop(k, None)  # fmt: skip
-    st.session_state["peak_edits"] = []
+    _ui.clear_input()
     opts = st.session_state.get("read_options", {})
     work = _ui.load_input_cached(data, name, tuple(sorted(opts.items())))
     st.session_state["work"] = work

@@ -36,6 +36,8 @@ COMMAND_MODULES: tuple[str, ...] = (
     "collection",
     "compare",
     "materials",
+    "map",
+    "batch",
     "app",
 )
 
