@@ -428,6 +428,11 @@ def _plausible(ev_pass: EvidencePass) -> set[int]:
     }
 
 
+def _is_xray(index: ReferenceIndex, model: str) -> bool:
+    """The X-ray rules of the evidence model apply: ``x-ray`` model on an energy axis."""
+    return model == "x-ray" and index.axis == "energy"
+
+
 def _first_pass(
     obs: ObservedLines,
     index: ReferenceIndex,
@@ -448,6 +453,7 @@ def _first_pass(
         sigma_dex=SOURCE_MODELS[model].sigma_dex,
         abundance_prior=params.abundance_prior,
         sigma_lines=model_sigma(index, model),
+        xray=_is_xray(index, model),
     )
     return strengths, first
 
@@ -472,6 +478,7 @@ def _second_pass(
         n_species_tried=first.n_species_tried,
         abundance_prior=params.abundance_prior,
         sigma_lines=model_sigma(index, model),
+        xray=_is_xray(index, model),
     )
     second: EvidencePass | None = None
     if response is None:

@@ -134,6 +134,8 @@ class SpeciesEvidence:
     net_evidence_dex: float = 0.0
     missing_evidence: bool = False
     prior_dex: float = 0.0
+    agreement_dex: float = 0.0
+    main_found: bool = True
     n_groups_found: int = 0
     n_groups_matched: int = 0
     n_groups_counted: int = 0
@@ -195,8 +197,15 @@ def evaluate(
         p_miss = LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
         penalty = float(np.sum(np.log10(p_miss)))
     ev.missing_penalty_dex = penalty
+    if "delta" in g:
+        ev.agreement_dex = xray_agreement(g, nset & found & g["unique"])
+        known_pred = np.where(g["known"], g["predicted"], -np.inf)
+        ev.main_found = bool(g["found"][int(np.argmax(known_pred))]) if known_pred.size else False
     ev.net_evidence_dex = float(
-        -np.log10(max(ev.chance_probability_corrected, 1e-300)) + penalty + ev.prior_dex
+        -np.log10(max(ev.chance_probability_corrected, 1e-300))
+        + penalty
+        + ev.prior_dex
+        + ev.agreement_dex
     )
     m_order = np.argsort(-pred[missing], kind="stable")
     ev.missing_lines = g["rep"][missing][m_order].tolist()
@@ -214,6 +223,48 @@ def evaluate(
     ev.score = score_of(ev)
 
 
+def _mixture_lr_dex(z: np.ndarray, sigma: np.ndarray, width: np.ndarray) -> np.ndarray:
+    """log10 of [(1 − ε)·width·φ(z)/σ + ε]: Gaussian agreement vs a uniform chance value."""
+    dens = np.exp(-0.5 * z * z) / (np.sqrt(2.0 * np.pi) * sigma)
+    return np.log10((1.0 - LOSS_PROBABILITY) * width * dens + LOSS_PROBABILITY)
+
+
+def xray_agreement(g: dict[str, Any], use: np.ndarray) -> float:
+    """Position and ratio agreement (decades) of found unique groups (X-ray only).
+
+    Position: per group, δ = observed − line with uncertainty σ_pos; a chance
+    peak falls anywhere in the window W (uniform), so the likelihood ratio is
+    (1 − ε)·W·φ(δ/σ)/σ + ε (ε = :data:`LOSS_PROBABILITY`, a peak displaced
+    by something outside the model). Ratio: per group beyond the anchor (the
+    one predicted strongest), r = log10(I/I_anchor) − log10(pred/pred_anchor)
+    with σ_r² = σ_model² + (0.434/SNR)² + (0.434/SNR_anchor)²; a chance peak's
+    height is uniform in log over ``log_range`` decades, so the ratio is
+    (1 − ε)·R·φ(r/σ_r)/σ_r + ε.
+    """
+    if not np.any(use):
+        return 0.0
+    total = float(
+        np.sum(
+            _mixture_lr_dex(
+                g["delta"][use] / g["sigma_pos"][use], g["sigma_pos"][use], g["window"][use]
+            )
+        )
+    )
+    inten = g["obs_intensity"]
+    ok = (
+        use & g["known"] & np.isfinite(inten) & (inten > 0) & ~g["saturated"] & (g["predicted"] > 0)
+    )
+    if np.sum(ok) >= 2 and g.get("dl") is not None:
+        idx = np.flatnonzero(ok)
+        a = idx[int(np.argmax(g["predicted"][idx]))]
+        rest = idx[idx != a]
+        snr = 3.0 * inten / g["dl"]
+        r = np.log10(inten[rest] / inten[a]) - np.log10(g["predicted"][rest] / g["predicted"][a])
+        sig = np.sqrt(g["sigma"][rest] ** 2 + (0.434 / snr[rest]) ** 2 + (0.434 / snr[a]) ** 2)
+        total += float(np.sum(_mixture_lr_dex(r / sig, sig, g["log_range"][rest])))
+    return total
+
+
 def decide_verdict(ev: SpeciesEvidence) -> int:
     """Apply the class rules of the module docstring; return the level."""
     if ev.n_groups_matched == 0:
@@ -224,7 +275,7 @@ def decide_verdict(ev: SpeciesEvidence) -> int:
         return 3
     if e >= PROBABLE_DEX and k >= 2 and ev.n_unique_peaks >= 1:
         return 2
-    if e >= POSSIBLE_DEX:
+    if e >= POSSIBLE_DEX and ev.main_found:
         return 1
     return 0
 
