@@ -164,6 +164,7 @@ def _xray_terms(
         "log_range": log_range,
         "obs_intensity": np.where(found, inten, np.nan),
         "saturated": np.where(found, obs.saturated[pk], False),
+        "snr": np.where(found, snr, 0.0),
     }
 
 
@@ -214,8 +215,8 @@ def gather_evidence(
         Per-line uncertainty (dex) where it differs from ``sigma_dex``
         (:func:`workbench.matching.sourcemodels.model_sigma`).
     xray : bool
-        The ``x-ray`` source model on an energy axis: the scale is the plain
-        median of found groups (no censoring) and each group carries what the
+        The ``x-ray`` source model on an energy axis: the scale is that of
+        the strongest found group (no median, no censoring) and each group carries what the
         agreement terms of :mod:`workbench.matching.scoring` need (offset of
         its peak from its strongest line, position uncertainty, window, the
         log-intensity range of chance peaks).
@@ -353,7 +354,13 @@ def gather_evidence(
         use = good & uniq if np.any(good & uniq) else good
         if np.any(use):
             ratios = I_p[use] / pred_unit[use]
-            ev.scale = _median(ratios)
+            if xray:
+                # X-ray: the family's strongest found line sets the scale; it
+                # is the best predicted and best measured, and a weak line on
+                # another element's peak cannot inflate it.
+                ev.scale = float(ratios[int(np.argmax(pred_unit[use]))])
+            else:
+                ev.scale = _median(ratios)
             if has_int and not xray:
                 # Censored median: groups that should be seen at this scale but
                 # have no peak enter at the detection limit (an upper bound of

@@ -30,10 +30,14 @@ from workbench.matching.evidence import EvidencePass, ObservedLines
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import evaluate
 
-__all__ = ["EXPLAIN_FRACTION", "explain_jointly"]
+__all__ = ["EXPLAIN_FRACTION", "XRAY_ACCOUNT_FRACTION", "explain_jointly"]
 
 #: Part of the observed intensity a better species must predict to explain a peak.
 EXPLAIN_FRACTION: float = 0.3
+#: X-ray: a better species whose prediction is at least this part of the
+#: observed height accounts for the whole peak within 2σ of the x-ray model
+#: (10^(−2 × 0.2 dex) ≈ 0.40; σ of ``workbench.matching.sourcemodels``).
+XRAY_ACCOUNT_FRACTION: float = 10.0 ** (-2.0 * 0.2)
 
 
 def explain_jointly(
@@ -78,6 +82,11 @@ def explain_jointly(
             own_pred = np.where(np.isfinite(g["predicted"]), g["predicted"], 0.0)
             obs_i = np.where(with_int[pk], obs.intensity[pk], np.inf)
             own_small = (own_pred < EXPLAIN_FRACTION * obs_i) | (not ev.missing_evidence)
+            if "delta" in g:
+                # X-ray: the better species' prediction alone accounts for the
+                # peak within 2σ of its model: no significant excess is left
+                # for this species, whatever it would predict itself.
+                own_small = own_small | (claim_pred[pk] >= XRAY_ACCOUNT_FRACTION * obs_i)
             expl = claimed & enough & own_small
         if np.any(expl) or changed:
             g["explained"] = expl

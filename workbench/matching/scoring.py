@@ -104,6 +104,19 @@ LOSS_PROBABILITY: float = 0.2
 #: Largest penalty one missing group can bring (decades): log10 of LOSS_PROBABILITY.
 MISSING_FLOOR_DEX: float = float(np.log10(LOSS_PROBABILITY))
 
+#: X-ray: probability that a significant peak left after the artefact
+#: labelling comes from outside the reference set and the artefact model
+#: (diffraction peak, unpredicted sum, unlisted line): common practice, no
+#: source (about one peak in twenty of a routine spectrum).
+XRAY_OUTSIDE_PROBABILITY: float = 0.05
+#: Evidence (decades) when a family's main line is the only plausible
+#: explanation of a significant peak: −log10 of that probability.
+XRAY_SOLE_DEX: float = float(-np.log10(XRAY_OUTSIDE_PROBABILITY))
+#: Peak significance (3·height / detection limit, i.e. height / noise) a
+#: sole explanation needs: 5σ, the usual discovery threshold for a peak that
+#: is surely not noise (common practice, no source).
+XRAY_SOLE_SNR: float = 5.0
+
 _LN10 = float(np.log(10.0))
 
 
@@ -135,6 +148,7 @@ class SpeciesEvidence:
     missing_evidence: bool = False
     prior_dex: float = 0.0
     agreement_dex: float = 0.0
+    xray: bool = False
     main_found: bool = True
     n_groups_found: int = 0
     n_groups_matched: int = 0
@@ -197,10 +211,12 @@ def evaluate(
         p_miss = LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
         penalty = float(np.sum(np.log10(p_miss)))
     ev.missing_penalty_dex = penalty
-    if "delta" in g:
+    ev.xray = "delta" in g
+    if ev.xray:
         ev.agreement_dex = xray_agreement(g, nset & found & g["unique"])
         known_pred = np.where(g["known"], g["predicted"], -np.inf)
-        ev.main_found = bool(g["found"][int(np.argmax(known_pred))]) if known_pred.size else False
+        main = int(np.argmax(known_pred)) if known_pred.size else -1
+        ev.main_found = bool(main >= 0 and g["found"][main] and not g["explained"][main])
     ev.net_evidence_dex = float(
         -np.log10(max(ev.chance_probability_corrected, 1e-300))
         + penalty
@@ -262,6 +278,14 @@ def xray_agreement(g: dict[str, Any], use: np.ndarray) -> float:
         r = np.log10(inten[rest] / inten[a]) - np.log10(g["predicted"][rest] / g["predicted"][a])
         sig = np.sqrt(g["sigma"][rest] ** 2 + (0.434 / snr[rest]) ** 2 + (0.434 / snr[a]) ** 2)
         total += float(np.sum(_mixture_lr_dex(r / sig, sig, g["log_range"][rest])))
+    known_pred = np.where(g["known"], g["predicted"], -np.inf)
+    main = int(np.argmax(known_pred))
+    if (
+        use[main]
+        and abs(g["delta"][main]) <= 2.0 * g["sigma_pos"][main]
+        and g["snr"][main] >= XRAY_SOLE_SNR
+    ):
+        total += XRAY_SOLE_DEX
     return total
 
 
@@ -274,6 +298,8 @@ def decide_verdict(ev: SpeciesEvidence) -> int:
     if e >= ESTABLISHED_DEX and k >= 2 and ev.n_unique_peaks >= 1 and ev.missing_evidence:
         return 3
     if e >= PROBABLE_DEX and k >= 2 and ev.n_unique_peaks >= 1:
+        return 2
+    if e >= PROBABLE_DEX and ev.xray and ev.main_found and k >= 1 and ev.n_unique_peaks >= 1:
         return 2
     if e >= POSSIBLE_DEX and ev.main_found:
         return 1
