@@ -115,7 +115,7 @@ XRAY_SOLE_DEX: float = float(-np.log10(XRAY_OUTSIDE_PROBABILITY))
 #: Peak significance (3·height / detection limit, i.e. height / noise) a
 #: sole explanation needs: 5σ, the usual discovery threshold for a peak that
 #: is surely not noise (common practice, no source).
-XRAY_SOLE_SNR: float = 5.0
+XRAY_SOLE_SNR: float = 10.0
 
 _LN10 = float(np.log(10.0))
 
