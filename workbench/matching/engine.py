@@ -433,6 +433,23 @@ def _is_xray(index: ReferenceIndex, model: str) -> bool:
     return model == "x-ray" and index.axis == "energy"
 
 
+def _family_ratio_for(params: MatchParameters):
+    """``(element, numerator, denominator) → ratio`` for the run's instrument (X-ray)."""
+    from workbench.xray.excitation import family_ratio
+    from workbench.xray.instrument import DEFAULT_INSTRUMENT
+
+    inst = params.instrument or DEFAULT_INSTRUMENT
+    cache: dict[tuple[str, str, str], float] = {}
+
+    def ratio(element: str, numerator: str, denominator: str) -> float:
+        key = (element, numerator, denominator)
+        if key not in cache:
+            cache[key] = family_ratio(element, numerator, denominator, inst)[0]
+        return cache[key]
+
+    return ratio
+
+
 def _first_pass(
     obs: ObservedLines,
     index: ReferenceIndex,
@@ -493,7 +510,14 @@ def _second_pass(
         second = gather_evidence(obs, index, strengths, in_range, response=resp_lines, **kw)
     elif second is None:
         second = gather_evidence(obs, index, strengths, in_range, **kw)
-    explain_jointly(second, obs, index, sigma_dex=sigma, strong_fraction=params.strong_fraction)
+    explain_jointly(
+        second,
+        obs,
+        index,
+        sigma_dex=sigma,
+        strong_fraction=params.strong_fraction,
+        family_ratio=_family_ratio_for(params) if _is_xray(index, model) else None,
+    )
     return second, response
 
 

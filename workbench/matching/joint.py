@@ -24,16 +24,22 @@ lists, per species, which better species explained some of its groups.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
 
 from workbench.matching.evidence import EvidencePass, ObservedLines
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import evaluate
 
-__all__ = ["EXPLAIN_FRACTION", "XRAY_ACCOUNT_FRACTION", "explain_jointly"]
+__all__ = ["EXPLAIN_FRACTION", "FAMILY_FACTOR", "XRAY_ACCOUNT_FRACTION", "explain_jointly"]
 
 #: Part of the observed intensity a better species must predict to explain a peak.
 EXPLAIN_FRACTION: float = 0.3
+#: X-ray: an observed family ratio within this factor of the predicted
+#: thin-sample ratio is consistent (``workbench.xray.excitation.
+#: FAMILY_RATIO_UNCERTAINTY``, matrix absorption; common practice, no source).
+FAMILY_FACTOR: float = 3.0
 #: X-ray: a better species whose prediction is at least this part of the
 #: observed height accounts for the whole peak within 2σ of the x-ray model
 #: (10^(−2 × 0.2 dex) ≈ 0.40; σ of ``workbench.matching.sourcemodels``).
@@ -47,8 +53,16 @@ def explain_jointly(
     *,
     sigma_dex: float,
     strong_fraction: float,
+    family_ratio: Callable[[str, str, str], float] | None = None,
 ) -> None:
-    """Re-evaluate every species in place with peaks explained by better species removed."""
+    """Re-evaluate every species in place with peaks explained by better species removed.
+
+    ``family_ratio(element, numerator, denominator)`` (X-ray only) gives the
+    predicted intensity ratio of two line families of one element; with it,
+    an established family supports the element's other families (module
+    docstring).
+    """
+    established: dict[str, tuple[str, float, float, float]] = {}
     n_obs = obs.position.size
     claim_pred = np.full(n_obs, -np.inf)
     claim_sp = np.full(n_obs, -1, dtype=np.int64)
@@ -88,6 +102,8 @@ def explain_jointly(
                 # for this species, whatever it would predict itself.
                 own_small = own_small | (claim_pred[pk] >= XRAY_ACCOUNT_FRACTION * obs_i)
             expl = claimed & enough & own_small
+        if family_ratio is not None and ev.family is not None:
+            changed |= _family_support(ev, established, family_ratio)
         if np.any(expl) or changed:
             g["explained"] = expl
             ev.explained_by = sorted({index.species_names[int(c)] for c in claim_sp[pk[expl]]})
@@ -99,6 +115,14 @@ def explain_jointly(
                 strong_fraction=strong_fraction,
             )
         own = found & ~g["explained"]
+        total = _family_total(ev)
+        if ev.level >= 3 and ev.family and total is not None and ev.element not in established:
+            established[ev.element] = (
+                ev.family,
+                total,
+                ev.net_evidence_dex - ev.family_dex,
+                _main_position(ev),
+            )
         if ev.level >= 2:
             t = pk[own]
             t = t[touch_el[t] == ""]
@@ -110,3 +134,53 @@ def explain_jointly(
             claim_pred[p[better]] = pred[better]
             claim_sp[p[better]] = ev.code
             claim_el[p[better]] = ev.element
+
+
+def _main_position(ev) -> float:
+    """Position of a family's main (strongest predicted, known) group."""
+    g = ev.groups
+    return float(g["position"][int(np.argmax(np.where(g["known"], g["predicted"], -np.inf)))])
+
+
+def _family_total(ev) -> float | None:
+    """Observed total of a family: its scale times the summed strength of its known groups."""
+    if ev.scale is None:
+        return None
+    g = ev.groups
+    return float(ev.scale * np.sum(np.where(g["known"], g["strength"], 0.0)))
+
+
+def _family_support(
+    ev,
+    established: dict[str, tuple[str, float, float, float]],
+    family_ratio: Callable[[str, str, str], float],
+) -> bool:
+    """Give ``ev`` the evidence of an established family of its element (X-ray).
+
+    The family is present if its element is (the physics links them); what
+    must agree is where and how strong it is: its main group found, and its
+    observed total, relative to the established family's, not more than
+    ``FAMILY_FACTOR`` × the predicted thin-sample ratio when it is the
+    lower-energy family (absorption in the sample only weakens it), not less
+    than the ratio / ``FAMILY_FACTOR`` when it is the higher-energy one.
+    Returns whether anything changed.
+    """
+    est = established.get(ev.element)
+    if est is None or est[0] == ev.family or not ev.main_found:
+        return False
+    fam, total_1, e_1, est_pos = est
+    total_2 = _family_total(ev)
+    if total_2 is None or total_1 <= 0:
+        return False
+    ratio = family_ratio(ev.element, ev.family, fam)
+    if not (np.isfinite(ratio) and ratio > 0):
+        return False
+    observed = total_2 / total_1
+    # Absorption in the sample weakens the lower-energy family, never
+    # strengthens it: only the other side of the ratio is bounded.
+    lower = _main_position(ev) < est_pos
+    if (observed > FAMILY_FACTOR * ratio) if lower else (observed < ratio / FAMILY_FACTOR):
+        return False
+    ev.family_dex = max(e_1, 0.0)
+    ev.family_support = f"{ev.element} {fam}"
+    return True

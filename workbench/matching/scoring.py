@@ -148,6 +148,8 @@ class SpeciesEvidence:
     missing_evidence: bool = False
     prior_dex: float = 0.0
     agreement_dex: float = 0.0
+    family_dex: float = 0.0
+    family_support: str | None = None
     xray: bool = False
     main_found: bool = True
     n_groups_found: int = 0
@@ -222,6 +224,7 @@ def evaluate(
         + penalty
         + ev.prior_dex
         + ev.agreement_dex
+        + ev.family_dex
     )
     m_order = np.argsort(-pred[missing], kind="stable")
     ev.missing_lines = g["rep"][missing][m_order].tolist()
