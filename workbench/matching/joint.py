@@ -71,6 +71,25 @@ def explain_jointly(
     # found group at each peak ("" = none yet).
     touch_el = np.full(n_obs, "", dtype=object)
     with_int = np.isfinite(obs.intensity)
+    if family_ratio is not None:
+        # Families already established before the walk support their
+        # element's other families first, so that those rank (and claim
+        # their peaks) accordingly.
+        for ev in sorted(ev_pass.evidence.values(), key=lambda v: (-v.net_evidence_dex, v.label)):
+            total = _family_total(ev)
+            if ev.level >= 3 and ev.family and total is not None:
+                established.setdefault(
+                    ev.element, (ev.family, total, ev.net_evidence_dex, _main_position(ev))
+                )
+        for ev in ev_pass.evidence.values():
+            if ev.family is not None and _family_support(ev, established, family_ratio):
+                evaluate(
+                    ev,
+                    detection_limit=obs.detection_limit,
+                    sigma_dex=sigma_dex,
+                    n_tried=ev_pass.n_species_tried,
+                    strong_fraction=strong_fraction,
+                )
     ranked = sorted(ev_pass.evidence.values(), key=lambda v: (-v.net_evidence_dex, v.label))
     for ev in ranked:
         g = ev.groups

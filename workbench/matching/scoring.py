@@ -97,6 +97,8 @@ VERDICTS: dict[int, str] = {3: "established", 2: "probable", 1: "possible", 0: "
 ESTABLISHED_DEX: float = 3.0
 PROBABLE_DEX: float = 1.5
 POSSIBLE_DEX: float = -1.0
+#: X-ray "possible" floor: net evidence for, not against (common practice, no source).
+XRAY_POSSIBLE_DEX: float = 0.0
 #: Probability that a line of a species that IS present is lost for reasons
 #: outside the source model (unresolved blend with a stronger neighbour,
 #: filter or response edge, self-absorption, a wrong tabulated intensity).
@@ -304,7 +306,9 @@ def decide_verdict(ev: SpeciesEvidence) -> int:
         return 2
     if e >= PROBABLE_DEX and ev.xray and ev.main_found and k >= 1 and ev.n_unique_peaks >= 1:
         return 2
-    if e >= POSSIBLE_DEX and ev.main_found:
+    if ev.xray:
+        return 1 if e >= XRAY_POSSIBLE_DEX and ev.main_found else 0
+    if e >= POSSIBLE_DEX:
         return 1
     return 0
 
