@@ -200,6 +200,8 @@ def _family_support(
     lower = _main_position(ev) < est_pos
     if (observed > FAMILY_FACTOR * ratio) if lower else (observed < ratio / FAMILY_FACTOR):
         return False
-    ev.family_dex = max(e_1, 0.0)
+    if ev.family_floor_dex == e_1:
+        return False
+    ev.family_floor_dex = e_1
     ev.family_support = f"{ev.element} {fam}"
     return True

@@ -151,6 +151,7 @@ class SpeciesEvidence:
     prior_dex: float = 0.0
     agreement_dex: float = 0.0
     family_dex: float = 0.0
+    family_floor_dex: float | None = None
     family_support: str | None = None
     xray: bool = False
     main_found: bool = True
@@ -221,13 +222,17 @@ def evaluate(
         known_pred = np.where(g["known"], g["predicted"], -np.inf)
         main = int(np.argmax(known_pred)) if known_pred.size else -1
         ev.main_found = bool(main >= 0 and g["found"][main] and not g["explained"][main])
-    ev.net_evidence_dex = float(
+    own = float(
         -np.log10(max(ev.chance_probability_corrected, 1e-300))
         + penalty
         + ev.prior_dex
         + ev.agreement_dex
-        + ev.family_dex
     )
+    # X-ray: a family is at least as certain as an established family of its
+    # element that predicts it (workbench.matching.joint); never more.
+    floor = ev.family_floor_dex
+    ev.family_dex = max(floor - own, 0.0) if floor is not None else 0.0
+    ev.net_evidence_dex = own + ev.family_dex
     m_order = np.argsort(-pred[missing], kind="stable")
     ev.missing_lines = g["rep"][missing][m_order].tolist()
     ev.missing_predicted = pred[missing][m_order].tolist()
