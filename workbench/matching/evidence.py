@@ -130,9 +130,12 @@ def _xray_terms(
     * ``delta``: observed peak − the group's strongest line (eV). The maximum
       of an unresolved blend sits between its strongest line and the
       strength-weighted mean, so that distance enters the uncertainty.
-    * ``sigma_pos``: √(calibration² + line² + blend² + centroid²), the
-      centroid term (FWHM/2.355)/SNR with SNR = 3·I/DL (DL = 3 × noise):
-      SNR ≤ √N, so this bounds the counting error of the centroid from above.
+    * ``sigma_pos``: √(calibration² + line² + blend² + peak²), the peak
+      term (FWHM/2.355)/√SNR with SNR = 3·I/DL (DL = 3 × noise, so SNR is
+      height / noise): the top of a noisy Gaussian peak wanders where the
+      peak is within about one noise unit of its maximum,
+      |x| ≲ σ·√(2/SNR) (derivation, no source), which for weak peaks is far
+      more than the centroid's counting error.
     * ``window``: width over which a chance peak would have been accepted
       (2·tolerance + group span).
     * ``log_range``: decades over which a chance peak's height may lie:
@@ -149,7 +152,7 @@ def _xray_terms(
         snr = np.where(np.isfinite(inten) & (inten > 0), 3.0 * inten / dl, 1.0)
     else:
         snr = np.ones(found.size)
-    sig_c = (res[pk] / 2.355) / np.maximum(snr, 1.0)
+    sig_c = (res[pk] / 2.355) / np.sqrt(np.maximum(snr, 1.0))
     blend = g["position"] - rep_pos
     sigma_pos = np.sqrt(XRAY_CALIBRATION_SIGMA_EV**2 + XRAY_LINE_SIGMA_EV**2 + blend**2 + sig_c**2)
     i_max = float(np.nanmax(obs.intensity)) if np.any(np.isfinite(obs.intensity)) else np.nan
