@@ -18,6 +18,12 @@ as in :mod:`workbench.matching.scoring`:
 * the chance probability and the missing-line penalty are computed from
   these (see :mod:`workbench.matching.scoring`).
 
+With the ``x-ray`` source model on an energy axis (``xray=True``) the scale
+is that of the family's strongest found group (the best predicted and best
+measured line; a weak line sitting on another element's peak cannot inflate
+it), and each group carries what the X-ray agreement terms of
+:mod:`workbench.matching.scoring` need (:func:`_xray_terms`).
+
 Everything is vectorised over pairs and groups; the only Python loop is over
 species with at least one candidate (tens to a few hundred), with slices of
 species-sorted arrays. Per-species group arrays are kept on the evidence
@@ -37,7 +43,13 @@ from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import SpeciesEvidence, evaluate
 
-__all__ = ["EvidencePass", "ObservedLines", "gather_evidence"]
+__all__ = [
+    "XRAY_CALIBRATION_SIGMA_EV",
+    "XRAY_LINE_SIGMA_EV",
+    "EvidencePass",
+    "ObservedLines",
+    "gather_evidence",
+]
 
 
 @dataclass(frozen=True)

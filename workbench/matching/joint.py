@@ -16,6 +16,23 @@ when no better-ranked species of another element called "probable" or
 better has a line there: a species ranked below cannot take a peak away
 from a better one.
 
+X-ray (``x-ray`` model on an energy axis) adds two rules:
+
+* amplitudes decide a shared peak: a group is explained also when the better
+  species' prediction is at least ``XRAY_ACCOUNT_FRACTION`` (10^(−2·0.2)
+  ≈ 0.40) of the observed height, i.e. it accounts for the whole peak within
+  2σ of the x-ray model, whatever this species would predict itself (Pb L
+  takes the Pb Lα/As Kα peak; As K keeps only its own Kβ);
+* an established family supports its element's other families: when the
+  other family's main group is found and its observed total intensity
+  (scale × summed group strengths) relative to the established family's is
+  not above ``FAMILY_FACTOR`` (3) × the thin-sample family ratio of
+  :func:`workbench.xray.excitation.family_ratio` when it is the lower-energy
+  family (absorption in the sample only weakens that one), or not below the
+  ratio / 3 when it is the higher-energy one, its net evidence is raised to
+  at least the established family's. Families established before the walk
+  do this first, so that the supported family ranks and claims its peaks.
+
 So a species cannot be established on lines a far better supported species
 explains (Ca II H at 396.85 nm in the Sun is not evidence for Dy II), while
 two species that truly share a peak keep their unique lines. The report

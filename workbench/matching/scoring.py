@@ -63,6 +63,44 @@ groups with a peak, not explained by a better species:
     anything weaker. Listed when candidates existed, so that the analyst
     sees what was considered and why it was rejected.
 
+X-ray rules (``x-ray`` source model on an energy axis only; optical results
+are untouched). Line energies are known to a few eV and the energy scale is
+checked (:mod:`workbench.xray.energy_scale`), and intra-family intensity
+ratios are predicted to about 0.2 dex, so closeness and ratio agreement are
+evidence a coincidence rarely produces. Added to E (decades):
+
+position agreement
+    per found, unique, counted group: log10[(1 − ε)·W·φ(δ/σ)/σ + ε], δ the
+    peak's offset from the group's strongest line, σ the position
+    uncertainty (:func:`workbench.matching.evidence._xray_terms`: residual
+    calibration 10 eV, tabulation 2 eV, unresolved-blend offset, and the
+    wandering of a noisy peak's maximum), W = 2·tolerance + span the width
+    over which a chance peak would have been accepted (uniform), ε the loss
+    probability (a peak displaced by something outside the model). At most
+    about +0.7, at least −0.7 per group.
+ratio agreement
+    per such group beyond the anchor (the one predicted strongest):
+    r = log10(I/I_anchor) − log10(pred/pred_anchor), σ_r² = σ_model² +
+    (0.434/SNR)² + (0.434/SNR_anchor)², a chance peak's height uniform in
+    log over R decades (from 30 % of the prediction to the highest peak):
+    log10[(1 − ε)·R·φ(r/σ_r)/σ_r + ε].
+sole explanation
+    +log10(1/0.05) = 1.3 when the family's main group is found, unique (no
+    plausible species competes for its peak), within 2σ of its line, on a
+    peak of at least 10σ: the peak must come from some line, and this is the
+    only plausible one; 0.05 (:data:`XRAY_OUTSIDE_PROBABILITY`) is the chance
+    that such a peak comes from outside the line table and artefact model.
+family support
+    an established family of the same element that predicts this family's
+    total intensity (:mod:`workbench.matching.joint`) makes E at least that
+    family's E (a floor, never more).
+
+Class changes on the energy axis: "probable" may rest on one found group
+when the main group is found and unique (single-group families such as
+Al K, Si K at EDS resolution); "possible" needs the main group found and not
+explained by a better species, and E ≥ 0 (:data:`XRAY_POSSIBLE_DEX`).
+"Established" still needs two found groups.
+
 The score (0–1) orders species within a class: ``max(E, 0) / (max(E, 0) + 3)``.
 The thresholds (3, 1.5 decades) were fixed before the real spectra were run;
 the loss probability 0.2 and the "possible" floor −1 were chosen on the
@@ -84,10 +122,15 @@ __all__ = [
     "POSSIBLE_DEX",
     "PROBABLE_DEX",
     "VERDICTS",
+    "XRAY_OUTSIDE_PROBABILITY",
+    "XRAY_POSSIBLE_DEX",
+    "XRAY_SOLE_DEX",
+    "XRAY_SOLE_SNR",
     "SpeciesEvidence",
     "decide_verdict",
     "evaluate",
     "score_of",
+    "xray_agreement",
 ]
 
 #: Verdict class names by level.
