@@ -429,6 +429,28 @@ def _plausible(ev_pass: EvidencePass) -> set[int]:
     }
 
 
+def _is_xray(index: ReferenceIndex, model: str) -> bool:
+    """The X-ray rules of the evidence model apply: ``x-ray`` model on an energy axis."""
+    return model == "x-ray" and index.axis == "energy"
+
+
+def _family_ratio_for(params: MatchParameters):
+    """``(element, numerator, denominator) → ratio`` for the run's instrument (X-ray)."""
+    from workbench.xray.excitation import family_ratio
+    from workbench.xray.instrument import DEFAULT_INSTRUMENT
+
+    inst = params.instrument or DEFAULT_INSTRUMENT
+    cache: dict[tuple[str, str, str], float] = {}
+
+    def ratio(element: str, numerator: str, denominator: str) -> float:
+        key = (element, numerator, denominator)
+        if key not in cache:
+            cache[key] = family_ratio(element, numerator, denominator, inst)[0]
+        return cache[key]
+
+    return ratio
+
+
 def _first_pass(
     obs: ObservedLines,
     index: ReferenceIndex,
@@ -449,6 +471,7 @@ def _first_pass(
         sigma_dex=SOURCE_MODELS[model].sigma_dex,
         abundance_prior=params.abundance_prior,
         sigma_lines=model_sigma(index, model),
+        xray=_is_xray(index, model),
     )
     return strengths, first
 
@@ -473,6 +496,7 @@ def _second_pass(
         n_species_tried=first.n_species_tried,
         abundance_prior=params.abundance_prior,
         sigma_lines=model_sigma(index, model),
+        xray=_is_xray(index, model),
     )
     second: EvidencePass | None = None
     if response is None:
@@ -487,7 +511,14 @@ def _second_pass(
         second = gather_evidence(obs, index, strengths, in_range, response=resp_lines, **kw)
     elif second is None:
         second = gather_evidence(obs, index, strengths, in_range, **kw)
-    explain_jointly(second, obs, index, sigma_dex=sigma, strong_fraction=params.strong_fraction)
+    explain_jointly(
+        second,
+        obs,
+        index,
+        sigma_dex=sigma,
+        strong_fraction=params.strong_fraction,
+        family_ratio=_family_ratio_for(params) if _is_xray(index, model) else None,
+    )
     if index.axis == "wavelength":
         pool_ion_stages(second)
     return second, response

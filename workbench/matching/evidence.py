@@ -18,6 +18,12 @@ as in :mod:`workbench.matching.scoring`:
 * the chance probability and the missing-line penalty are computed from
   these (see :mod:`workbench.matching.scoring`).
 
+With the ``x-ray`` source model on an energy axis (``xray=True``) the scale
+is that of the family's strongest found group (the best predicted and best
+measured line; a weak line sitting on another element's peak cannot inflate
+it), and each group carries what the X-ray agreement terms of
+:mod:`workbench.matching.scoring` need (:func:`_xray_terms`).
+
 Everything is vectorised over pairs and groups; the only Python loop is over
 species with at least one candidate (tens to a few hundred), with slices of
 species-sorted arrays. Per-species group arrays are kept on the evidence
@@ -37,7 +43,13 @@ from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import SpeciesEvidence, evaluate
 
-__all__ = ["EvidencePass", "ObservedLines", "gather_evidence"]
+__all__ = [
+    "XRAY_CALIBRATION_SIGMA_EV",
+    "XRAY_LINE_SIGMA_EV",
+    "EvidencePass",
+    "ObservedLines",
+    "gather_evidence",
+]
 
 
 @dataclass(frozen=True)
@@ -106,6 +118,71 @@ def _median(a: np.ndarray) -> float:
     return float(0.5 * (s[(n - 1) // 2] + s[n // 2]))
 
 
+#: Residual energy-scale error on an energy axis (eV, 1σ): the scale check
+#: applies a correction only beyond 20 eV (``workbench.xray.energy_scale.
+#: MIN_SIGNIFICANT_EV``), so an unapplied offset lies within about ±20 eV,
+#: taken as 2σ (common practice, no source).
+XRAY_CALIBRATION_SIGMA_EV: float = 10.0
+#: Uncertainty of tabulated X-ray line energies (eV, 1σ): Deslattes et al.,
+#: Rev. Mod. Phys. 75 (2003) 35 give K and L diagram lines to well under
+#: 1 eV; 2 eV allows for the Elam compilation's rounding (from memory).
+XRAY_LINE_SIGMA_EV: float = 2.0
+
+
+def _xray_terms(
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    g: dict,
+    tol: np.ndarray,
+    span: np.ndarray,
+    dl: np.ndarray | None,
+) -> dict[str, np.ndarray]:
+    """Per-group quantities for the X-ray agreement terms (``scoring``).
+
+    * ``delta``: observed peak − the group's strongest line (eV). The maximum
+      of an unresolved blend sits between its strongest line and the
+      strength-weighted mean, so that distance enters the uncertainty.
+    * ``sigma_pos``: √(calibration² + line² + blend² + peak²), the peak
+      term (FWHM/2.355)/√SNR with SNR = 3·I/DL (DL = 3 × noise, so SNR is
+      height / noise): the top of a noisy Gaussian peak wanders where the
+      peak is within about one noise unit of its maximum,
+      |x| ≲ σ·√(2/SNR) (derivation, no source), which for weak peaks is far
+      more than the centroid's counting error.
+    * ``window``: width over which a chance peak would have been accepted
+      (2·tolerance + group span).
+    * ``log_range``: decades over which a chance peak's height may lie:
+      from 30 % of the prediction (or the detection limit) to the highest
+      observed peak, at least 0.5.
+    """
+    found = g["found"]
+    pk = np.where(found, g["peak"], 0)
+    x_obs = obs.position[pk]
+    rep_pos = index.position[g["rep"]]
+    res = obs.resolution if obs.resolution is not None else 2.0 * obs.half_window
+    inten = obs.intensity[pk]
+    if dl is not None:
+        snr = np.where(np.isfinite(inten) & (inten > 0), 3.0 * inten / dl, 1.0)
+    else:
+        snr = np.ones(found.size)
+    sig_c = (res[pk] / 2.355) / np.sqrt(np.maximum(snr, 1.0))
+    blend = g["position"] - rep_pos
+    sigma_pos = np.sqrt(XRAY_CALIBRATION_SIGMA_EV**2 + XRAY_LINE_SIGMA_EV**2 + blend**2 + sig_c**2)
+    i_max = float(np.nanmax(obs.intensity)) if np.any(np.isfinite(obs.intensity)) else np.nan
+    floor = np.maximum(0.3 * g["predicted"], dl if dl is not None else 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        log_range = np.log10(i_max / floor)
+    log_range = np.where(np.isfinite(log_range), np.maximum(log_range, 0.5), 0.5)
+    return {
+        "delta": np.where(found, x_obs - rep_pos, np.nan),
+        "sigma_pos": sigma_pos,
+        "window": 2.0 * tol + span,
+        "log_range": log_range,
+        "obs_intensity": np.where(found, inten, np.nan),
+        "saturated": np.where(found, obs.saturated[pk], False),
+        "snr": np.where(found, snr, 0.0),
+    }
+
+
 def gather_evidence(
     obs: ObservedLines,
     index: ReferenceIndex,
@@ -121,6 +198,7 @@ def gather_evidence(
     n_species_tried: int | None = None,
     abundance_prior: str = "none",
     sigma_lines: np.ndarray | None = None,
+    xray: bool = False,
 ) -> EvidencePass:
     """Collect the evidence of every species with at least one candidate.
 
@@ -151,6 +229,12 @@ def gather_evidence(
     sigma_lines : numpy.ndarray, optional
         Per-line uncertainty (dex) where it differs from ``sigma_dex``
         (:func:`workbench.matching.sourcemodels.model_sigma`).
+    xray : bool
+        The ``x-ray`` source model on an energy axis: the scale is that of
+        the strongest found group (no median, no censoring) and each group carries what the
+        agreement terms of :mod:`workbench.matching.scoring` need (offset of
+        its peak from its strongest line, position uncertainty, window, the
+        log-intensity range of chance peaks).
 
     Returns
     -------
@@ -285,8 +369,14 @@ def gather_evidence(
         use = good & uniq if np.any(good & uniq) else good
         if np.any(use):
             ratios = I_p[use] / pred_unit[use]
-            ev.scale = _median(ratios)
-            if has_int:
+            if xray:
+                # X-ray: the family's strongest found line sets the scale; it
+                # is the best predicted and best measured, and a weak line on
+                # another element's peak cannot inflate it.
+                ev.scale = float(ratios[int(np.argmax(pred_unit[use]))])
+            else:
+                ev.scale = _median(ratios)
+            if has_int and not xray:
                 # Censored median: groups that should be seen at this scale but
                 # have no peak enter at the detection limit (an upper bound of
                 # their ratio). The median of found lines alone is biased high:
@@ -349,6 +439,8 @@ def gather_evidence(
             "explained": np.zeros(G.size, dtype=bool),
             "dl": dl_g,
         }
+        if xray:
+            ev.groups.update(_xray_terms(obs, index, ev.groups, g_tol[sl], g_span[sl], dl_g))
         ev.n_groups_in_range = int(G.size)
         ev.n_strong_in_range = int(np.sum(known & (G >= strong_fraction)))
         ev.missing_evidence = bool(with_int)

@@ -12,7 +12,9 @@ Assignment
 
 Warnings (kind)
     ``unresolved_overlap``
-        an observed peak has candidate lines of two or more plausible species.
+        an observed peak has candidate lines of two or more plausible species
+        (X-ray: or the main line of a species that a better one accounts for
+        on amplitudes, so that the analyst still sees the overlap).
     ``reference_overlap``
         a strong line of a species called "probable" or better lies within the
         window of a line of another plausible species ("possible" or better),
@@ -199,6 +201,40 @@ def interference_warnings(
                         peak=p,
                     )
                 )
+    # 1b. X-ray: a species whose main line a better one accounts for on
+    #     amplitudes (workbench.matching.joint) is not plausible, but the
+    #     analyst still sees the overlap and the lines that settle it.
+    for b_code, ev_b in sorted(ev_all.items()):
+        g_b = ev_b.groups
+        if ev_b.level >= 1 or not ev_b.xray or not ev_b.explained_by or "line" not in g_b:
+            continue
+        main = int(np.argmax(np.where(g_b["known"], g_b["predicted"], -np.inf)))
+        p = int(g_b["peak"][main])
+        if p < 0 or not g_b["explained"][main] or not assignments[p].species:
+            continue
+        a_code = assignments[p].species[0]
+        g_a = ev_all[a_code].groups
+        at_p = np.flatnonzero(g_a["found"] & (g_a["peak"] == p))
+        if at_p.size == 0:
+            continue
+        key = ("peak", p, min(a_code, b_code), max(a_code, b_code))
+        if key in seen:
+            continue
+        seen.add(key)
+        warnings.append(
+            _overlap_warning(
+                "unresolved_overlap",
+                index,
+                ev_all[a_code],
+                ev_b,
+                int(g_a["line"][at_p[0]]),
+                int(g_b["line"][main]),
+                e,
+                unit,
+                observed=float(obs.position[p]),
+                peak=p,
+            )
+        )
     # 2. Strong lines of identified species overlapping lines of other plausible
     #    candidates; one warning per species pair (the closest pair of lines),
     #    with the number of overlapping pairs.

@@ -16,6 +16,23 @@ when no better-ranked species of another element called "probable" or
 better has a line there: a species ranked below cannot take a peak away
 from a better one.
 
+X-ray (``x-ray`` model on an energy axis) adds two rules:
+
+* amplitudes decide a shared peak: a group is explained also when the better
+  species' prediction is at least ``XRAY_ACCOUNT_FRACTION`` (10^(−2·0.2)
+  ≈ 0.40) of the observed height, i.e. it accounts for the whole peak within
+  2σ of the x-ray model, whatever this species would predict itself (Pb L
+  takes the Pb Lα/As Kα peak; As K keeps only its own Kβ);
+* an established family supports its element's other families: when the
+  other family's main group is found and its observed total intensity
+  (scale × summed group strengths) relative to the established family's is
+  not above ``FAMILY_FACTOR`` (3) × the thin-sample family ratio of
+  :func:`workbench.xray.excitation.family_ratio` when it is the lower-energy
+  family (absorption in the sample only weakens that one), or not below the
+  ratio / 3 when it is the higher-energy one, its net evidence is raised to
+  at least the established family's. Families established before the walk
+  do this first, so that the supported family ranks and claims its peaks.
+
 So a species cannot be established on lines a far better supported species
 explains (Ca II H at 396.85 nm in the Sun is not evidence for Dy II), while
 two species that truly share a peak keep their unique lines. The report
@@ -24,16 +41,26 @@ lists, per species, which better species explained some of its groups.
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
 
 from workbench.matching.evidence import EvidencePass, ObservedLines
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import evaluate
 
-__all__ = ["EXPLAIN_FRACTION", "explain_jointly"]
+__all__ = ["EXPLAIN_FRACTION", "FAMILY_FACTOR", "XRAY_ACCOUNT_FRACTION", "explain_jointly"]
 
 #: Part of the observed intensity a better species must predict to explain a peak.
 EXPLAIN_FRACTION: float = 0.3
+#: X-ray: an observed family ratio within this factor of the predicted
+#: thin-sample ratio is consistent (``workbench.xray.excitation.
+#: FAMILY_RATIO_UNCERTAINTY``, matrix absorption; common practice, no source).
+FAMILY_FACTOR: float = 3.0
+#: X-ray: a better species whose prediction is at least this part of the
+#: observed height accounts for the whole peak within 2σ of the x-ray model
+#: (10^(−2 × 0.2 dex) ≈ 0.40; σ of ``workbench.matching.sourcemodels``).
+XRAY_ACCOUNT_FRACTION: float = 10.0 ** (-2.0 * 0.2)
 
 
 def explain_jointly(
@@ -43,8 +70,16 @@ def explain_jointly(
     *,
     sigma_dex: float,
     strong_fraction: float,
+    family_ratio: Callable[[str, str, str], float] | None = None,
 ) -> None:
-    """Re-evaluate every species in place with peaks explained by better species removed."""
+    """Re-evaluate every species in place with peaks explained by better species removed.
+
+    ``family_ratio(element, numerator, denominator)`` (X-ray only) gives the
+    predicted intensity ratio of two line families of one element; with it,
+    an established family supports the element's other families (module
+    docstring).
+    """
+    established: dict[str, tuple[str, float, float, float]] = {}
     n_obs = obs.position.size
     claim_pred = np.full(n_obs, -np.inf)
     claim_sp = np.full(n_obs, -1, dtype=np.int64)
@@ -53,6 +88,25 @@ def explain_jointly(
     # found group at each peak ("" = none yet).
     touch_el = np.full(n_obs, "", dtype=object)
     with_int = np.isfinite(obs.intensity)
+    if family_ratio is not None:
+        # Families already established before the walk support their
+        # element's other families first, so that those rank (and claim
+        # their peaks) accordingly.
+        for ev in sorted(ev_pass.evidence.values(), key=lambda v: (-v.net_evidence_dex, v.label)):
+            total = _family_total(ev)
+            if ev.level >= 3 and ev.family and total is not None:
+                established.setdefault(
+                    ev.element, (ev.family, total, ev.net_evidence_dex, _main_position(ev))
+                )
+        for ev in ev_pass.evidence.values():
+            if ev.family is not None and _family_support(ev, established, family_ratio):
+                evaluate(
+                    ev,
+                    detection_limit=obs.detection_limit,
+                    sigma_dex=sigma_dex,
+                    n_tried=ev_pass.n_species_tried,
+                    strong_fraction=strong_fraction,
+                )
     ranked = sorted(ev_pass.evidence.values(), key=lambda v: (-v.net_evidence_dex, v.label))
     for ev in ranked:
         g = ev.groups
@@ -78,7 +132,14 @@ def explain_jointly(
             own_pred = np.where(np.isfinite(g["predicted"]), g["predicted"], 0.0)
             obs_i = np.where(with_int[pk], obs.intensity[pk], np.inf)
             own_small = (own_pred < EXPLAIN_FRACTION * obs_i) | (not ev.missing_evidence)
+            if "delta" in g:
+                # X-ray: the better species' prediction alone accounts for the
+                # peak within 2σ of its model: no significant excess is left
+                # for this species, whatever it would predict itself.
+                own_small = own_small | (claim_pred[pk] >= XRAY_ACCOUNT_FRACTION * obs_i)
             expl = claimed & enough & own_small
+        if family_ratio is not None and ev.family is not None:
+            changed |= _family_support(ev, established, family_ratio)
         if np.any(expl) or changed:
             g["explained"] = expl
             ev.explained_by = sorted({index.species_names[int(c)] for c in claim_sp[pk[expl]]})
@@ -90,6 +151,14 @@ def explain_jointly(
                 strong_fraction=strong_fraction,
             )
         own = found & ~g["explained"]
+        total = _family_total(ev)
+        if ev.level >= 3 and ev.family and total is not None and ev.element not in established:
+            established[ev.element] = (
+                ev.family,
+                total,
+                ev.net_evidence_dex - ev.family_dex,
+                _main_position(ev),
+            )
         if ev.level >= 2:
             t = pk[own]
             t = t[touch_el[t] == ""]
@@ -101,3 +170,55 @@ def explain_jointly(
             claim_pred[p[better]] = pred[better]
             claim_sp[p[better]] = ev.code
             claim_el[p[better]] = ev.element
+
+
+def _main_position(ev) -> float:
+    """Position of a family's main (strongest predicted, known) group."""
+    g = ev.groups
+    return float(g["position"][int(np.argmax(np.where(g["known"], g["predicted"], -np.inf)))])
+
+
+def _family_total(ev) -> float | None:
+    """Observed total of a family: its scale times the summed strength of its known groups."""
+    if ev.scale is None:
+        return None
+    g = ev.groups
+    return float(ev.scale * np.sum(np.where(g["known"], g["strength"], 0.0)))
+
+
+def _family_support(
+    ev,
+    established: dict[str, tuple[str, float, float, float]],
+    family_ratio: Callable[[str, str, str], float],
+) -> bool:
+    """Give ``ev`` the evidence of an established family of its element (X-ray).
+
+    The family is present if its element is (the physics links them); what
+    must agree is where and how strong it is: its main group found, and its
+    observed total, relative to the established family's, not more than
+    ``FAMILY_FACTOR`` × the predicted thin-sample ratio when it is the
+    lower-energy family (absorption in the sample only weakens it), not less
+    than the ratio / ``FAMILY_FACTOR`` when it is the higher-energy one.
+    Returns whether anything changed.
+    """
+    est = established.get(ev.element)
+    if est is None or est[0] == ev.family or not ev.main_found:
+        return False
+    fam, total_1, e_1, est_pos = est
+    total_2 = _family_total(ev)
+    if total_2 is None or total_1 <= 0:
+        return False
+    ratio = family_ratio(ev.element, ev.family, fam)
+    if not (np.isfinite(ratio) and ratio > 0):
+        return False
+    observed = total_2 / total_1
+    # Absorption in the sample weakens the lower-energy family, never
+    # strengthens it: only the other side of the ratio is bounded.
+    lower = _main_position(ev) < est_pos
+    if (observed > FAMILY_FACTOR * ratio) if lower else (observed < ratio / FAMILY_FACTOR):
+        return False
+    if ev.family_floor_dex == e_1:
+        return False
+    ev.family_floor_dex = e_1
+    ev.family_support = f"{ev.element} {fam}"
+    return True

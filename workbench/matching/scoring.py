@@ -63,6 +63,44 @@ groups with a peak, not explained by a better species:
     anything weaker. Listed when candidates existed, so that the analyst
     sees what was considered and why it was rejected.
 
+X-ray rules (``x-ray`` source model on an energy axis only; optical results
+are untouched). Line energies are known to a few eV and the energy scale is
+checked (:mod:`workbench.xray.energy_scale`), and intra-family intensity
+ratios are predicted to about 0.2 dex, so closeness and ratio agreement are
+evidence a coincidence rarely produces. Added to E (decades):
+
+position agreement
+    per found, unique, counted group: log10[(1 − ε)·W·φ(δ/σ)/σ + ε], δ the
+    peak's offset from the group's strongest line, σ the position
+    uncertainty (:func:`workbench.matching.evidence._xray_terms`: residual
+    calibration 10 eV, tabulation 2 eV, unresolved-blend offset, and the
+    wandering of a noisy peak's maximum), W = 2·tolerance + span the width
+    over which a chance peak would have been accepted (uniform), ε the loss
+    probability (a peak displaced by something outside the model). At most
+    about +0.7, at least −0.7 per group.
+ratio agreement
+    per such group beyond the anchor (the one predicted strongest):
+    r = log10(I/I_anchor) − log10(pred/pred_anchor), σ_r² = σ_model² +
+    (0.434/SNR)² + (0.434/SNR_anchor)², a chance peak's height uniform in
+    log over R decades (from 30 % of the prediction to the highest peak):
+    log10[(1 − ε)·R·φ(r/σ_r)/σ_r + ε].
+sole explanation
+    +log10(1/0.05) = 1.3 when the family's main group is found, unique (no
+    plausible species competes for its peak), within 2σ of its line, on a
+    peak of at least 10σ: the peak must come from some line, and this is the
+    only plausible one; 0.05 (:data:`XRAY_OUTSIDE_PROBABILITY`) is the chance
+    that such a peak comes from outside the line table and artefact model.
+family support
+    an established family of the same element that predicts this family's
+    total intensity (:mod:`workbench.matching.joint`) makes E at least that
+    family's E (a floor, never more).
+
+Class changes on the energy axis: "probable" may rest on one found group
+when the main group is found and unique (single-group families such as
+Al K, Si K at EDS resolution); "possible" needs the main group found and not
+explained by a better species, and E ≥ 0 (:data:`XRAY_POSSIBLE_DEX`).
+"Established" still needs two found groups.
+
 The score (0–1) orders species within a class: ``max(E, 0) / (max(E, 0) + 3)``.
 The thresholds (3, 1.5 decades) were fixed before the real spectra were run;
 the loss probability 0.2 and the "possible" floor −1 were chosen on the
@@ -84,10 +122,15 @@ __all__ = [
     "POSSIBLE_DEX",
     "PROBABLE_DEX",
     "VERDICTS",
+    "XRAY_OUTSIDE_PROBABILITY",
+    "XRAY_POSSIBLE_DEX",
+    "XRAY_SOLE_DEX",
+    "XRAY_SOLE_SNR",
     "SpeciesEvidence",
     "decide_verdict",
     "evaluate",
     "score_of",
+    "xray_agreement",
 ]
 
 #: Verdict class names by level.
@@ -97,12 +140,27 @@ VERDICTS: dict[int, str] = {3: "established", 2: "probable", 1: "possible", 0: "
 ESTABLISHED_DEX: float = 3.0
 PROBABLE_DEX: float = 1.5
 POSSIBLE_DEX: float = -1.0
+#: X-ray "possible" floor: net evidence for, not against (common practice, no source).
+XRAY_POSSIBLE_DEX: float = 0.0
 #: Probability that a line of a species that IS present is lost for reasons
 #: outside the source model (unresolved blend with a stronger neighbour,
 #: filter or response edge, self-absorption, a wrong tabulated intensity).
 LOSS_PROBABILITY: float = 0.2
 #: Largest penalty one missing group can bring (decades): log10 of LOSS_PROBABILITY.
 MISSING_FLOOR_DEX: float = float(np.log10(LOSS_PROBABILITY))
+
+#: X-ray: probability that a significant peak left after the artefact
+#: labelling comes from outside the reference set and the artefact model
+#: (diffraction peak, unpredicted sum, unlisted line): common practice, no
+#: source (about one peak in twenty of a routine spectrum).
+XRAY_OUTSIDE_PROBABILITY: float = 0.05
+#: Evidence (decades) when a family's main line is the only plausible
+#: explanation of a significant peak: −log10 of that probability.
+XRAY_SOLE_DEX: float = float(-np.log10(XRAY_OUTSIDE_PROBABILITY))
+#: Peak significance (3·height / detection limit, i.e. height / noise) a
+#: sole explanation needs: 5σ, the usual discovery threshold for a peak that
+#: is surely not noise (common practice, no source).
+XRAY_SOLE_SNR: float = 10.0
 
 _LN10 = float(np.log(10.0))
 
@@ -134,6 +192,12 @@ class SpeciesEvidence:
     net_evidence_dex: float = 0.0
     missing_evidence: bool = False
     prior_dex: float = 0.0
+    agreement_dex: float = 0.0
+    family_dex: float = 0.0
+    family_floor_dex: float | None = None
+    family_support: str | None = None
+    xray: bool = False
+    main_found: bool = True
     n_groups_found: int = 0
     n_groups_matched: int = 0
     n_groups_counted: int = 0
@@ -197,9 +261,23 @@ def evaluate(
         p_miss = LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
         penalty = float(np.sum(np.log10(p_miss)))
     ev.missing_penalty_dex = penalty
-    ev.net_evidence_dex = float(
-        -np.log10(max(ev.chance_probability_corrected, 1e-300)) + penalty + ev.prior_dex
+    ev.xray = "delta" in g
+    if ev.xray:
+        ev.agreement_dex = xray_agreement(g, nset & found & g["unique"])
+        known_pred = np.where(g["known"], g["predicted"], -np.inf)
+        main = int(np.argmax(known_pred)) if known_pred.size else -1
+        ev.main_found = bool(main >= 0 and g["found"][main] and not g["explained"][main])
+    own = float(
+        -np.log10(max(ev.chance_probability_corrected, 1e-300))
+        + penalty
+        + ev.prior_dex
+        + ev.agreement_dex
     )
+    # X-ray: a family is at least as certain as an established family of its
+    # element that predicts it (workbench.matching.joint); never more.
+    floor = ev.family_floor_dex
+    ev.family_dex = max(floor - own, 0.0) if floor is not None else 0.0
+    ev.net_evidence_dex = own + ev.family_dex
     m_order = np.argsort(-pred[missing], kind="stable")
     ev.missing_lines = g["rep"][missing][m_order].tolist()
     ev.missing_predicted = pred[missing][m_order].tolist()
@@ -216,6 +294,56 @@ def evaluate(
     ev.score = score_of(ev)
 
 
+def _mixture_lr_dex(z: np.ndarray, sigma: np.ndarray, width: np.ndarray) -> np.ndarray:
+    """log10 of [(1 − ε)·width·φ(z)/σ + ε]: Gaussian agreement vs a uniform chance value."""
+    dens = np.exp(-0.5 * z * z) / (np.sqrt(2.0 * np.pi) * sigma)
+    return np.log10((1.0 - LOSS_PROBABILITY) * width * dens + LOSS_PROBABILITY)
+
+
+def xray_agreement(g: dict[str, Any], use: np.ndarray) -> float:
+    """Position and ratio agreement (decades) of found unique groups (X-ray only).
+
+    Position: per group, δ = observed − line with uncertainty σ_pos; a chance
+    peak falls anywhere in the window W (uniform), so the likelihood ratio is
+    (1 − ε)·W·φ(δ/σ)/σ + ε (ε = :data:`LOSS_PROBABILITY`, a peak displaced
+    by something outside the model). Ratio: per group beyond the anchor (the
+    one predicted strongest), r = log10(I/I_anchor) − log10(pred/pred_anchor)
+    with σ_r² = σ_model² + (0.434/SNR)² + (0.434/SNR_anchor)²; a chance peak's
+    height is uniform in log over ``log_range`` decades, so the ratio is
+    (1 − ε)·R·φ(r/σ_r)/σ_r + ε.
+    """
+    if not np.any(use):
+        return 0.0
+    total = float(
+        np.sum(
+            _mixture_lr_dex(
+                g["delta"][use] / g["sigma_pos"][use], g["sigma_pos"][use], g["window"][use]
+            )
+        )
+    )
+    inten = g["obs_intensity"]
+    ok = (
+        use & g["known"] & np.isfinite(inten) & (inten > 0) & ~g["saturated"] & (g["predicted"] > 0)
+    )
+    if np.sum(ok) >= 2 and g.get("dl") is not None:
+        idx = np.flatnonzero(ok)
+        a = idx[int(np.argmax(g["predicted"][idx]))]
+        rest = idx[idx != a]
+        snr = 3.0 * inten / g["dl"]
+        r = np.log10(inten[rest] / inten[a]) - np.log10(g["predicted"][rest] / g["predicted"][a])
+        sig = np.sqrt(g["sigma"][rest] ** 2 + (0.434 / snr[rest]) ** 2 + (0.434 / snr[a]) ** 2)
+        total += float(np.sum(_mixture_lr_dex(r / sig, sig, g["log_range"][rest])))
+    known_pred = np.where(g["known"], g["predicted"], -np.inf)
+    main = int(np.argmax(known_pred))
+    if (
+        use[main]
+        and abs(g["delta"][main]) <= 2.0 * g["sigma_pos"][main]
+        and g["snr"][main] >= XRAY_SOLE_SNR
+    ):
+        total += XRAY_SOLE_DEX
+    return total
+
+
 def decide_verdict(ev: SpeciesEvidence) -> int:
     """Apply the class rules of the module docstring; return the level."""
     if ev.n_groups_matched == 0:
@@ -226,6 +354,10 @@ def decide_verdict(ev: SpeciesEvidence) -> int:
         return 3
     if e >= PROBABLE_DEX and k >= 2 and ev.n_unique_peaks >= 1:
         return 2
+    if e >= PROBABLE_DEX and ev.xray and ev.main_found and k >= 1 and ev.n_unique_peaks >= 1:
+        return 2
+    if ev.xray:
+        return 1 if e >= XRAY_POSSIBLE_DEX and ev.main_found else 0
     if e >= POSSIBLE_DEX:
         return 1
     return 0
