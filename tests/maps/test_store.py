@@ -36,8 +36,8 @@ def test_store_previews_and_manifest(products, h5_cube):
         assert json.loads(f.attrs["families"]) == res.families
     assert manifest["cube"]["sha256"] == hashlib.sha256(h5_cube.read_bytes()).hexdigest()
     assert manifest["versions"]["reference_data"]
-    # The sum-spectrum record is the engine's schema-1 JSON.
-    assert json.loads((out / "sum_match.json").read_bytes())["schema_version"] == 1
+    # The sum-spectrum record is the engine's JSON (schema 2, docs/result-schema.md).
+    assert json.loads((out / "sum_match.json").read_bytes())["schema_version"] == 2
 
 
 @pytest.mark.parametrize(("limit", "kept"), [(1 << 30, "bytes"), (1000, "hash")])

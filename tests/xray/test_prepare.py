@@ -10,7 +10,7 @@ import pytest
 
 from tests.xray.cases import CASES, instrument
 from workbench.datamodel import PeakList, Spectrum
-from workbench.errors import ValueRangeError
+from workbench.errors import InsufficientDataError, ValueRangeError
 from workbench.peaks import find_peaks
 from workbench.refdata import load_set
 from workbench.xray.forward import forward_model
@@ -77,7 +77,7 @@ def test_tube_scatter_peak_is_not_evidence_and_argon_is_labelled():
 
 def test_only_artefacts_is_one_clear_error():
     peaks = PeakList(pl.DataFrame({"energy_eV": [20216.1], "intensity": [900.0]}), "energy", None)
-    with pytest.raises(ValueRangeError) as exc:
+    with pytest.raises(InsufficientDataError) as exc:
         prepare_energy_peaks(peaks, None)
     assert "no element lines" in exc.value.remedy
 

@@ -29,7 +29,7 @@ from typing import Any
 
 import numpy as np
 
-from workbench.errors import InputError
+from workbench.errors import InputError, InsufficientDataError
 from workbench.maps.cluster import Runner
 from workbench.maps.cube import Cube
 from workbench.maps.detector import Instrument
@@ -128,19 +128,26 @@ def identify_spectrum(
     match --instrument`` file), the engine uses them, as ``match`` would.
     """
     from workbench.matching import MatchParameters, analyse_input
+    from workbench.matching.report import result_json
 
     xray = instrument.xray_instrument() if instrument is not None else None
     mp = MatchParameters(
         elements=tuple(sorted(params.elements)) if params.elements else None, instrument=xray
     )
     opts = {"min_snr": params.min_snr} if params.min_snr else None
-    outcome = analyse_input(
-        spectrum_csv(energy_eV, counts, name),
-        name=name,
-        params=mp,
-        peak_options=opts,
-        kind="spectrum",
-    )
+    try:
+        outcome = analyse_input(
+            spectrum_csv(energy_eV, counts, name),
+            name=name,
+            params=mp,
+            peak_options=opts,
+            kind="spectrum",
+        )
+    except InsufficientDataError as exc:
+        # A blank or background-only region: nothing to identify is an outcome, not a
+        # failure of the map (the single-spectrum CLI reports it as an error).
+        report = {"spectrum": name, "elements": [], "note": str(exc)}
+        return report, result_json(report)
     return outcome.report, outcome.json_bytes
 
 

@@ -27,7 +27,7 @@ import numpy as np
 import polars as pl
 
 from workbench.datamodel import FWHM_COLUMN, PeakList
-from workbench.errors import ValueRangeError
+from workbench.errors import InsufficientDataError, ValueRangeError
 from workbench.xray.artefacts import artefact_table, label_peaks, predict_artefacts
 from workbench.xray.detector import fwhm_eV
 from workbench.xray.energy_scale import EnergyScale, fit_energy_scale
@@ -361,7 +361,7 @@ def prepare_energy_peaks(
             new_i[row["peak"]] = row["residual_intensity"]
     labels = labels.filter(~pl.col("peak").is_in(np.flatnonzero(weak[0]).tolist()))
     if drop.all():
-        raise ValueRangeError(
+        raise InsufficientDataError(
             "every peak is explained as tube scatter, escape, pile-up sum or argon from air",
             "there are no element lines to match; check the measurement (blank or no sample?)",
         )
