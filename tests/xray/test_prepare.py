@@ -10,7 +10,7 @@ import pytest
 
 from tests.xray.cases import CASES, instrument
 from workbench.datamodel import PeakList, Spectrum
-from workbench.errors import InsufficientDataError, ValueRangeError
+from workbench.errors import InsufficientDataError
 from workbench.peaks import find_peaks
 from workbench.refdata import load_set
 from workbench.xray.forward import forward_model
