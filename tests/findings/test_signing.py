@@ -346,3 +346,32 @@ def test_verify_with_store_refuses_untrusted_imported_key(signed):
     res = verify_sheet_with_store(trusted, PDF, JSON, signed.record)
     assert res.key_provenance.startswith("imported, trusted by Lab manager")
     assert res.to_dict()["key_provenance"] == res.key_provenance
+
+
+def test_wrong_passphrase_is_named_even_when_the_padding_happens_to_be_valid():
+    # A wrong passphrase on an encrypted PKCS#8 key fails the CBC padding check most of the
+    # time; about 1 in 256 passphrases pass it and fail in the ASN.1 parser instead. Both must
+    # read "wrong passphrase" (200 attempts: P(no parser failure) = (255/256)^200 ≈ 0.46, so
+    # the loop is also run until one such case has been seen, bounded at 5000 tries).
+    from cryptography.hazmat.primitives import serialization
+
+    from workbench.errors import KeyFileError
+    from workbench.findings.keys import generate_key_pair, load_private_key
+
+    pair = generate_key_pair("correct horse battery staple")
+    parser_failures = 0
+    for i in range(5000):
+        wrong = f"wrong-{i}"
+        try:
+            serialization.load_pem_private_key(pair.private_key_pem, password=wrong.encode())
+        except ValueError as exc:
+            if "decrypt" not in str(exc).lower():
+                parser_failures += 1
+                with pytest.raises(KeyFileError, match="wrong passphrase"):
+                    load_private_key(pair.private_key_pem, wrong)
+        if parser_failures and i >= 200:
+            break
+        if i < 200:
+            with pytest.raises(KeyFileError, match="wrong passphrase"):
+                load_private_key(pair.private_key_pem, wrong)
+    assert parser_failures >= 1

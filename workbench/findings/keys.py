@@ -228,7 +228,11 @@ def load_private_key(pem: bytes, passphrase: str, *, source: str = "private key"
         ) from exc
     except ValueError as exc:
         text = str(exc).lower()
-        if "password" in text or "decrypt" in text or "bad decrypt" in text:
+        # A wrong passphrase on an encrypted key usually fails the padding check
+        # ("bad decrypt"); about one time in 256 the padding happens to be valid
+        # and the garbage fails to parse as ASN.1 instead: still a wrong passphrase.
+        encrypted = b"ENCRYPTED PRIVATE KEY" in pem and secret is not None
+        if encrypted or "password" in text or "decrypt" in text:
             raise KeyFileError(
                 f"{source}: wrong passphrase", "give the passphrase chosen when the key was made"
             ) from exc
