@@ -94,3 +94,41 @@ def test_signing_needs_a_preview_and_an_unchanged_form(app, store_root):
 
     with CaseStore.open(store_root) as store:
         assert store.list_findings_sheets(CASE) == []
+
+
+def _decide(app, verb: str, target: str, reason: str) -> None:
+    app.selectbox(key="decision_verb").set_value(verb)
+    app.text_input(key="decision_target").input(target)
+    app.text_input(key="decision_reason").input(reason)
+    app.text_input(key="decision_analyst").input(ANALYST)
+    next(b for b in app.button if b.label == "Record the decision").click().run()
+    assert not app.exception and not app.error, _texts(app.error)
+
+
+def test_decisions_are_recorded_from_the_app_and_reach_the_signed_sheet(app, store_root):
+    import json
+
+    from workbench.casefile.store import CaseStore
+    from workbench.findings.decisions import list_decisions
+
+    _saved_analysis_and_key(app)
+    _decide(app, "reject", "Cu", "Cu lines also in the blank (invented reason)")
+    _decide(app, "reverse", "1", "blank re-measured: no Cu (invented reason)")
+    with CaseStore.open(store_root) as store:
+        (analysis,) = store.list_analyses(CASE)
+        got = [(d.seq, d.action, d.target, d.reverses) for d in list_decisions(store, analysis.id)]
+    assert got == [(1, "reject_element", "Cu", None), (2, "reverse", "decision 1", 1)]
+    # a bad decision is one clear error and nothing is stored
+    app.selectbox(key="decision_verb").set_value("reverse")
+    app.text_input(key="decision_target").input("first one")
+    app.text_input(key="decision_reason").input("typo (invented)")
+    app.text_input(key="decision_analyst").input(ANALYST)
+    next(b for b in app.button if b.label == "Record the decision").click().run()
+    assert any("needs a decision number" in t for t in _texts(app.error))
+    app.button(key="preview").click().run()
+    app.text_input(key="passphrase").input(PASSPHRASE).run()
+    app.button(key="sign").click().run()
+    assert not app.error, _texts(app.error)
+    issued = app.session_state["issued"]
+    sheet = json.loads(issued.json_bytes)
+    assert len(sheet["decisions"]) == 2  # both decisions, the reversal included, are signed

@@ -371,3 +371,12 @@ def test_verify_uses_the_review_on_record(reviewed, capsys):
     assert "reviewed and countersigned by Bjørn Łukasz" in capsys.readouterr().out
     assert main(["findings", "show", "1", "--json"]) == 0
     assert [r["outcome"] for r in json.loads(capsys.readouterr().out)["reviews"]] == ["approved"]
+
+
+def test_cli_decision_verbs_are_the_library_verbs():
+    # The CLI module imports only argparse at load time, so it spells the verbs out; they
+    # must stay the library's (workbench.findings.decisions.DECISION_VERBS), which the app uses.
+    from workbench.cli.findings_decisions import _ACTIONS
+    from workbench.findings.decisions import DECISION_VERBS
+
+    assert _ACTIONS == DECISION_VERBS

@@ -5,6 +5,7 @@ from __future__ import annotations
 import streamlit as st
 
 from workbench.app import _ui, store_access
+from workbench.app.decisions_panel import decisions_panel
 from workbench.errors import WorkbenchError
 
 st.title("Findings")
@@ -118,10 +119,8 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
             )
 
     with tab_issue:
-        # Technical review and the analyst's decisions (accept / reject an element call or
-        # a line assignment) belong between choosing the analysis and previewing the draft,
-        # once the findings library provides them: this page will only call that API and
-        # show its records, the draft then carries them.
+        # The analyst's decisions sit between choosing the analysis and previewing the
+        # draft (the draft carries them). Technical review: `workbench findings review`.
         if not number:
             st.info("Choose a case first.")
         else:
@@ -141,6 +140,7 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
                         if a.id == i
                     ),
                 )
+                decisions_panel(store, aid)
                 active = [a for a in store.list_analysts() if a.status == "active"]
                 if not active:
                     st.info("Register a signing key first (Signing keys tab).")

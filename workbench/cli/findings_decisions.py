@@ -23,6 +23,8 @@ from workbench.cli._options import print_json as _print_json
 
 __all__ = ["register_into"]
 
+#: The verbs of workbench.findings.decisions.DECISION_VERBS (spelled out: this module
+#: imports only argparse at load time; a test keeps the two equal).
 _ACTIONS = ("accept", "reject", "add", "show", "leave-off", "reverse")
 
 
@@ -77,59 +79,19 @@ def register_into(sub: argparse._SubParsersAction) -> None:
     p.set_defaults(func=_review)
 
 
-def _parse_line(text: str) -> dict:
-    from workbench.errors import InputError
-
-    pos, _, label = text.partition(":")
-    try:
-        value = float(pos)
-    except ValueError as exc:
-        raise InputError(
-            f"--line {text!r}: {pos!r} is not a number",
-            "give the observed position in the axis unit, e.g. --line 405.78:'Pb I 405.78'",
-        ) from exc
-    out: dict = {"position": value}
-    if label.strip():
-        out["label"] = label.strip()
-    return out
-
-
 def _decide(args: argparse.Namespace) -> int:
     from workbench.casefile import CaseStore
-    from workbench.errors import InputError
-    from workbench.findings.decisions import record_decision
+    from workbench.findings.decisions import decide
 
-    reverses = None
-    target = args.target
-    if args.action == "reverse":
-        try:
-            reverses = int(args.target)
-        except ValueError as exc:
-            raise InputError(
-                f"reverse needs a decision number, not {args.target!r}",
-                "list them with 'workbench findings decisions ANALYSIS_ID'",
-            ) from exc
-        action = "reverse"
-    elif args.action in ("accept", "reject"):
-        kind = "line" if "|" in target else "element"
-        action = f"{args.action}_{kind}"
-    else:
-        action = {"add": "add_element", "show": "show_on_sheet", "leave-off": "leave_off_sheet"}[
-            args.action
-        ]
-    lines = [_parse_line(x) for x in args.line]
-    if lines and action != "add_element":
-        raise InputError("--line is only for 'add'", "drop --line, or use 'add'")
     with CaseStore.open(args.store) as store:
-        rec = record_decision(
+        rec = decide(
             store,
             args.analysis_id,
-            action=action,
-            target=target,
+            args.action,
+            args.target,
             reason=args.reason,
             analyst=args.analyst,
-            lines=lines,
-            reverses=reverses,
+            line_texts=args.line,
         )
     if args.json:
         _print_json(rec.to_dict())

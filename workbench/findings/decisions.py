@@ -47,11 +47,14 @@ from workbench.errors import InputError, StoreIntegrityError
 __all__ = [
     "CONCLUDED_LEVEL",
     "DECISION_ACTIONS",
+    "DECISION_VERBS",
     "ElementCall",
     "check_sheet_decisions",
+    "decide",
     "effective_calls",
     "element_of",
     "list_decisions",
+    "parse_line_text",
     "record_decision",
     "stored_result",
     "with_species",
@@ -487,3 +490,93 @@ def check_sheet_decisions(store: Any, json_bytes: bytes) -> list[str]:
         if stored.get(int(d.get("seq", 0))) != d.get("record_hash"):
             problems.append(f"decision {d.get('seq')} on the sheet is not the one on record")
     return problems
+
+
+#: What an analyst says (CLI and app), each mapped to a stored action by :func:`decide`.
+DECISION_VERBS: tuple[str, ...] = ("accept", "reject", "add", "show", "leave-off", "reverse")
+
+
+def parse_line_text(text: str) -> dict[str, Any]:
+    """A hand-added line as typed: ``"405.78"`` or ``"405.78:Pb I 405.78"`` (axis unit).
+
+    Raises
+    ------
+    InputError
+        If the position is not a number.
+    """
+    pos, _, label = str(text).partition(":")
+    try:
+        value = float(pos)
+    except ValueError as exc:
+        raise InputError(
+            f"line {text!r}: {pos!r} is not a number",
+            "give the observed position in the axis unit, e.g. 405.78:Pb I 405.78",
+        ) from exc
+    if not math.isfinite(value):
+        raise InputError(f"line {text!r}: the position is not finite", "give a finite number")
+    out: dict[str, Any] = {"position": value}
+    if label.strip():
+        out["label"] = label.strip()
+    return out
+
+
+def decide(
+    store: Any,
+    analysis_id: int,
+    verb: str,
+    target: str,
+    *,
+    reason: str,
+    analyst: str,
+    line_texts: Sequence[str] = (),
+) -> DecisionRecord:
+    """Record what the analyst said, as the CLI and the app both say it.
+
+    ``accept``/``reject`` a species or element (``"Fe I"``, ``"Fe"``) or a line
+    assignment (``"Fe I|<line id>"``); ``add`` an element by hand with its
+    lines (``line_texts``, see :func:`parse_line_text`); ``show`` or
+    ``leave-off`` an element on the sheet; ``reverse`` decision number
+    ``target``. Every decision needs a reason.
+
+    Returns
+    -------
+    DecisionRecord
+        The stored decision.
+
+    Raises
+    ------
+    InputError
+        For an unknown verb, lines given to anything but ``add``, or a
+        ``reverse`` target that is not a decision number.
+    """
+    if verb not in DECISION_VERBS:
+        raise InputError(f"unknown decision {verb!r}", f"use one of {', '.join(DECISION_VERBS)}")
+    reverses = None
+    if verb == "reverse":
+        try:
+            reverses = int(str(target).strip())
+        except ValueError as exc:
+            raise InputError(
+                f"reverse needs a decision number, not {target!r}",
+                "give the number of the decision to take back (listed with the decisions)",
+            ) from exc
+        action = "reverse"
+    elif verb in ("accept", "reject"):
+        action = f"{verb}_{'line' if '|' in str(target) else 'element'}"
+    else:
+        action = {"add": "add_element", "show": "show_on_sheet", "leave-off": "leave_off_sheet"}[
+            verb
+        ]
+    lines = [parse_line_text(x) for x in line_texts if str(x).strip()]
+    if lines and action != "add_element":
+        raise InputError("lines are only for 'add'", "drop the lines, or use 'add'")
+    return record_decision(
+        store,
+        analysis_id,
+        action=action,
+        target=target,
+        reason=reason,
+        analyst=analyst,
+        lines=lines,
+        reverses=reverses,
+    )
