@@ -44,8 +44,8 @@ result, and :func:`workbench.matching.report.result_json` the same bytes.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import asdict, dataclass, field, replace
-from typing import Any, Literal
+from dataclasses import dataclass, field, replace
+from typing import Any
 
 import numpy as np
 import polars as pl
@@ -53,26 +53,26 @@ import polars as pl
 from workbench.datamodel import FWHM_COLUMN, PeakList
 from workbench.errors import ValueRangeError
 from workbench.matching.calibration import ScaleCheck, estimate_scale
-from workbench.matching.evidence import EvidencePass, ObservedLines, gather_evidence
+from workbench.matching.evidence import EvidencePass, ObservedLines
 from workbench.matching.interference import (
     PeakAssignment,
     assign_peaks,
     interference_warnings,
 )
-from workbench.matching.joint import explain_jointly
-from workbench.matching.pooling import pool_ion_stages
-from workbench.matching.priors import prior_dex
+from workbench.matching.params import (
+    BAND_WIDTH_FACTOR,
+    CALIBRATION_FRACTION,
+    MAX_CANDIDATE_PAIRS,
+    RARE_RADIOACTIVE,
+    MatchParameters,
+)
+from workbench.matching.passes import choose_model, first_pass, second_pass
 from workbench.matching.reference import ReferenceIndex
-from workbench.matching.response import ResponseFit, fit_response
-from workbench.matching.scoring import PROBABLE_DEX
+from workbench.matching.response import ResponseFit
 from workbench.matching.sourcemodels import (
     SOURCE_MODELS,
-    get_model,
-    model_sigma,
-    model_strengths,
 )
 from workbench.matching.temperature import TemperatureEstimate, estimate_temperature
-from workbench.matching.tolerance import ToleranceSpec
 
 __all__ = [
     "BAND_WIDTH_FACTOR",
@@ -84,141 +84,6 @@ __all__ = [
     "build_index",
     "match_peaks",
 ]
-
-#: Most (peak, reference line) pairs the candidate search may compare. About
-#: 100 bytes per pair in the evidence pass: 5 million is ~0.5 GB and a few
-#: seconds; 10,000 peaks against the whole optical set at λ/5000 give ~0.4
-#: million. A wider window is refused at once (common practice, no source).
-MAX_CANDIDATE_PAIRS: int = 5_000_000
-#: In an absorption spectrum, a dip wider than this many times the median
-#: FWHM of the spectrum's dips is a band (molecular, e.g. telluric O2/H2O,
-#: or a blend), not one atomic line: it is labelled and not used as evidence.
-BAND_WIDTH_FACTOR: float = 3.0
-#: A scale error is applied by default when it exceeds this part of the
-#: median half-window (and 3 standard uncertainties).
-CALIBRATION_FRACTION: float = 0.25
-
-#: Elements left out unless asked for by name: no stable isotope and no
-#: place in ordinary casework samples (Tc, Pm, Po and heavier except Th and U).
-#: Their many listed lines would otherwise compete for every peak
-#: (common practice, no source).
-RARE_RADIOACTIVE: tuple[str, ...] = (
-    "Tc",
-    "Pm",
-    "Po",
-    "At",
-    "Rn",
-    "Fr",
-    "Ra",
-    "Ac",
-    "Pa",
-    "Np",
-    "Pu",
-    "Am",
-    "Cm",
-    "Bk",
-    "Cf",
-    "Es",
-    "Fm",
-    "Md",
-    "No",
-    "Lr",
-)
-
-
-@dataclass(frozen=True)
-class MatchParameters:
-    """All settings of a match; recorded verbatim in every result.
-
-    Attributes
-    ----------
-    tolerance : ToleranceSpec
-        Match window.
-    temperature_K : float or None
-        Excitation temperature for expected intensities; ``None`` to start
-        from ``default_temperature_K`` and estimate it from the data.
-    default_temperature_K : float
-        Starting temperature (10 000 K is typical of LIBS and spark plasmas a
-        few µs after the pulse; common practice, no source).
-    elements : tuple of str or None
-        Restrict candidates to these element symbols.
-    mode : {"emission", "absorption"}
-        Line kind; must agree with the peak list.
-    strong_fraction : float
-        Lines at least this fraction of their species' strongest line in
-        range count as strong.
-    min_rel_intensity : float
-        Lines weaker than this fraction are ignored entirely.
-    competitor_min_rel : float
-        A resolvable group must be at least this strong to compete for a peak.
-    detection_snr : float
-        Detection limit = this × the noise level (from the peaks' SNR).
-    estimate_temperature : bool
-        Estimate T by a Boltzmann plot when none is given (``lte-plasma``).
-    apply_calibration : bool or None
-        ``None`` (default): correct observed positions by the estimated scale
-        error when it is significant (see module docstring); ``True``: always;
-        ``False``: never.
-    source_model : str
-        ``"auto"`` or one of :data:`~workbench.matching.sourcemodels.SOURCE_MODELS`.
-    abundance_prior : {"none", "crustal", "solar"}
-        Prior odds from element abundances (:mod:`~workbench.matching.priors`).
-    electron_density_per_cm3 : float or None
-        For the McWhirter check; unknown when ``None``.
-    share_ratio : float
-        A second species explains a peak too when predicted at ≥ this × the best.
-    max_ion : int or None
-        Highest ion stage considered (2 = I and II); ``None`` for all stages.
-    exclude_elements : tuple of str
-        Elements left out (default :data:`RARE_RADIOACTIVE`); ignored for
-        elements named in ``elements``.
-    instrument : workbench.xray.Instrument or None
-        XRF instrument for an energy axis (the documented default when ``None``).
-    """
-
-    tolerance: ToleranceSpec = field(default_factory=ToleranceSpec)
-    temperature_K: float | None = None
-    default_temperature_K: float = 10_000.0
-    elements: tuple[str, ...] | None = None
-    mode: Literal["emission", "absorption"] = "emission"
-    strong_fraction: float = 0.1
-    min_rel_intensity: float = 1e-3
-    competitor_min_rel: float = 0.05
-    detection_snr: float = 3.0
-    estimate_temperature: bool = True
-    apply_calibration: bool | None = None
-    electron_density_per_cm3: float | None = None
-    share_ratio: float = 0.2
-    max_ion: int | None = 2
-    exclude_elements: tuple[str, ...] = RARE_RADIOACTIVE
-    instrument: Any = None
-    source_model: str = "auto"
-    abundance_prior: str = "none"
-
-    def __post_init__(self) -> None:
-        if self.source_model != "auto":
-            get_model(self.source_model)
-        prior_dex(self.abundance_prior, "H")  # one clear error for an unknown prior
-        t = self.temperature_K
-        if t is not None and not (500.0 <= t <= 100_000.0):
-            raise ValueRangeError(
-                f"temperature {t:g} K is outside 500–100000 K",
-                "give the excitation temperature in kelvin (e.g. 9000)",
-            )
-        if self.mode not in ("emission", "absorption"):
-            raise ValueRangeError(f"unknown mode {self.mode!r}", "use emission or absorption")
-        for name in ("strong_fraction", "min_rel_intensity", "competitor_min_rel", "share_ratio"):
-            v = getattr(self, name)
-            if not 0.0 < v <= 1.0:
-                raise ValueRangeError(f"{name} must be in (0, 1], got {v!r}", "check settings")
-
-    def to_dict(self) -> dict[str, Any]:
-        """JSON-friendly form."""
-        d = asdict(self)
-        d["tolerance"] = self.tolerance.to_dict()
-        d["elements"] = list(self.elements) if self.elements else None
-        d["exclude_elements"] = list(self.exclude_elements)
-        return d
 
 
 @dataclass
@@ -421,142 +286,6 @@ def _check_pair_budget(obs: ObservedLines, index: ReferenceIndex, in_range: np.n
         )
 
 
-def _plausible(ev_pass: EvidencePass) -> set[int]:
-    return {
-        c
-        for c, ev in ev_pass.evidence.items()
-        if ev.level >= 2 or (ev.level >= 1 and ev.net_evidence_dex >= PROBABLE_DEX)
-    }
-
-
-def _is_xray(index: ReferenceIndex, model: str) -> bool:
-    """The X-ray rules of the evidence model apply: ``x-ray`` model on an energy axis."""
-    return model == "x-ray" and index.axis == "energy"
-
-
-def _family_ratio_for(params: MatchParameters):
-    """``(element, numerator, denominator) → ratio`` for the run's instrument (X-ray)."""
-    from workbench.xray.excitation import family_ratio
-    from workbench.xray.instrument import DEFAULT_INSTRUMENT
-
-    inst = params.instrument or DEFAULT_INSTRUMENT
-    cache: dict[tuple[str, str, str], float] = {}
-
-    def ratio(element: str, numerator: str, denominator: str) -> float:
-        key = (element, numerator, denominator)
-        if key not in cache:
-            cache[key] = family_ratio(element, numerator, denominator, inst)[0]
-        return cache[key]
-
-    return ratio
-
-
-def _first_pass(
-    obs: ObservedLines,
-    index: ReferenceIndex,
-    params: MatchParameters,
-    model: str,
-    temperature_K: float,
-    in_range: np.ndarray,
-) -> tuple[np.ndarray, EvidencePass]:
-    strengths = model_strengths(index, model, temperature_K, in_range)
-    first = gather_evidence(
-        obs,
-        index,
-        strengths,
-        in_range,
-        strong_fraction=params.strong_fraction,
-        min_rel_intensity=params.min_rel_intensity,
-        competitor_min_rel=params.competitor_min_rel,
-        sigma_dex=SOURCE_MODELS[model].sigma_dex,
-        abundance_prior=params.abundance_prior,
-        sigma_lines=model_sigma(index, model),
-        xray=_is_xray(index, model),
-    )
-    return strengths, first
-
-
-def _second_pass(
-    obs: ObservedLines,
-    index: ReferenceIndex,
-    params: MatchParameters,
-    model: str,
-    in_range: np.ndarray,
-    strengths: np.ndarray,
-    first: EvidencePass,
-    response: ResponseFit | None = None,
-) -> tuple[EvidencePass, ResponseFit]:
-    sigma = SOURCE_MODELS[model].sigma_dex
-    kw = dict(
-        strong_fraction=params.strong_fraction,
-        min_rel_intensity=params.min_rel_intensity,
-        competitor_min_rel=params.competitor_min_rel,
-        sigma_dex=sigma,
-        plausible=_plausible(first),
-        n_species_tried=first.n_species_tried,
-        abundance_prior=params.abundance_prior,
-        sigma_lines=model_sigma(index, model),
-        xray=_is_xray(index, model),
-    )
-    second: EvidencePass | None = None
-    if response is None:
-        second = gather_evidence(obs, index, strengths, in_range, **kw)
-        # The response is fitted on the second pass (competition among
-        # plausible species only, so that well-identified species have unique
-        # groups), then the pass is repeated with it. A re-run at a new
-        # temperature reuses the response already fitted.
-        response = fit_response(obs, second) if index.axis == "wavelength" else ResponseFit()
-    if response.degree:
-        resp_lines = 10.0 ** response.log10_at(index.position)
-        second = gather_evidence(obs, index, strengths, in_range, response=resp_lines, **kw)
-    elif second is None:
-        second = gather_evidence(obs, index, strengths, in_range, **kw)
-    explain_jointly(
-        second,
-        obs,
-        index,
-        sigma_dex=sigma,
-        strong_fraction=params.strong_fraction,
-        family_ratio=_family_ratio_for(params) if _is_xray(index, model) else None,
-    )
-    if index.axis == "wavelength":
-        pool_ion_stages(second)
-    return second, response
-
-
-def _total_evidence(ev_pass: EvidencePass) -> float:
-    """Σ max(net evidence, 0) over species: how well the model explains the spectrum."""
-    return float(sum(max(ev.net_evidence_dex, 0.0) for ev in ev_pass.evidence.values()))
-
-
-def _choose_model(
-    obs: ObservedLines,
-    index: ReferenceIndex,
-    params: MatchParameters,
-    temperature_K: float,
-    in_range: np.ndarray,
-) -> tuple[str, str, np.ndarray, EvidencePass]:
-    """The source model (name, why) and its first pass."""
-    if params.source_model != "auto":
-        st, first = _first_pass(obs, index, params, params.source_model, temperature_K, in_range)
-        return params.source_model, "given", st, first
-    if index.axis == "energy":
-        st, first = _first_pass(obs, index, params, "x-ray", temperature_K, in_range)
-        return "x-ray", "auto: energy axis", st, first
-    if params.mode == "absorption":
-        st, first = _first_pass(obs, index, params, "absorption", temperature_K, in_range)
-        return "absorption", "auto: absorption spectrum", st, first
-    st_l, first_l = _first_pass(obs, index, params, "lte-plasma", temperature_K, in_range)
-    if not np.any(np.isfinite(obs.intensity)):
-        return "lte-plasma", "auto: no intensities to compare models", st_l, first_l
-    st_d, first_d = _first_pass(obs, index, params, "discharge-lamp", temperature_K, in_range)
-    e_l, e_d = _total_evidence(first_l), _total_evidence(first_d)
-    why = f"auto: total net evidence {e_d:.1f} dex (discharge-lamp) vs {e_l:.1f} dex (lte-plasma)"
-    if e_d > e_l:
-        return "discharge-lamp", why, st_d, first_d
-    return "lte-plasma", why, st_l, first_l
-
-
 def _scale_pairs(
     obs: ObservedLines, ev_pass: EvidencePass, index: ReferenceIndex, strong_fraction: float
 ) -> tuple[np.ndarray, np.ndarray]:
@@ -714,8 +443,8 @@ def match_peaks(
     working_T = params.temperature_K or (
         params.default_temperature_K if params.mode == "emission" else 5800.0
     )
-    model, why, strengths, first = _choose_model(obs, index, params, working_T, in_range)
-    ev_pass, response = _second_pass(obs, index, params, model, in_range, strengths, first)
+    model, why, strengths, first = choose_model(obs, index, params, working_T, in_range)
+    ev_pass, response = second_pass(obs, index, params, model, in_range, strengths, first)
     temperature: TemperatureEstimate | None = None
     if (
         model == "lte-plasma"
@@ -731,8 +460,8 @@ def match_peaks(
             and abs(t_est - working_T) > 0.1 * working_T
         ):
             working_T = float(t_est)
-            strengths, first = _first_pass(obs, index, params, model, working_T, in_range)
-            ev_pass, response = _second_pass(
+            strengths, first = first_pass(obs, index, params, model, working_T, in_range)
+            ev_pass, response = second_pass(
                 obs, index, params, model, in_range, strengths, first, response
             )
 

@@ -1,0 +1,166 @@
+"""The evidence passes of one match: source-model choice, first and second pass.
+
+:func:`choose_model` runs a first pass per candidate source model and keeps
+the one that explains the spectrum best (``auto``); :func:`second_pass`
+repeats the evidence with competition among plausible species only, fits the
+shared instrument response, decides shared peaks jointly and pools an
+element's ion stages (:mod:`workbench.matching.pooling`). Called by
+:func:`workbench.matching.engine.match_peaks`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from workbench.matching.evidence import EvidencePass, ObservedLines, gather_evidence
+from workbench.matching.joint import explain_jointly
+from workbench.matching.params import MatchParameters
+from workbench.matching.pooling import pool_ion_stages
+from workbench.matching.reference import ReferenceIndex
+from workbench.matching.response import ResponseFit, fit_response
+from workbench.matching.scoring import PROBABLE_DEX
+from workbench.matching.sourcemodels import (
+    SOURCE_MODELS,
+    model_sigma,
+    model_strengths,
+)
+
+__all__ = ["choose_model", "first_pass", "second_pass"]
+
+
+def _plausible(ev_pass: EvidencePass) -> set[int]:
+    return {
+        c
+        for c, ev in ev_pass.evidence.items()
+        if ev.level >= 2 or (ev.level >= 1 and ev.net_evidence_dex >= PROBABLE_DEX)
+    }
+
+
+def _is_xray(index: ReferenceIndex, model: str) -> bool:
+    """The X-ray rules of the evidence model apply: ``x-ray`` model on an energy axis."""
+    return model == "x-ray" and index.axis == "energy"
+
+
+def _family_ratio_for(params: MatchParameters):
+    """``(element, numerator, denominator) → ratio`` for the run's instrument (X-ray)."""
+    from workbench.xray.excitation import family_ratio
+    from workbench.xray.instrument import DEFAULT_INSTRUMENT
+
+    inst = params.instrument or DEFAULT_INSTRUMENT
+    cache: dict[tuple[str, str, str], float] = {}
+
+    def ratio(element: str, numerator: str, denominator: str) -> float:
+        key = (element, numerator, denominator)
+        if key not in cache:
+            cache[key] = family_ratio(element, numerator, denominator, inst)[0]
+        return cache[key]
+
+    return ratio
+
+
+def first_pass(
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    params: MatchParameters,
+    model: str,
+    temperature_K: float,
+    in_range: np.ndarray,
+) -> tuple[np.ndarray, EvidencePass]:
+    """Expected strengths under ``model`` and the first evidence pass (all species compete)."""
+    strengths = model_strengths(index, model, temperature_K, in_range)
+    first = gather_evidence(
+        obs,
+        index,
+        strengths,
+        in_range,
+        strong_fraction=params.strong_fraction,
+        min_rel_intensity=params.min_rel_intensity,
+        competitor_min_rel=params.competitor_min_rel,
+        sigma_dex=SOURCE_MODELS[model].sigma_dex,
+        abundance_prior=params.abundance_prior,
+        sigma_lines=model_sigma(index, model),
+        xray=_is_xray(index, model),
+    )
+    return strengths, first
+
+
+def second_pass(
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    params: MatchParameters,
+    model: str,
+    in_range: np.ndarray,
+    strengths: np.ndarray,
+    first: EvidencePass,
+    response: ResponseFit | None = None,
+) -> tuple[EvidencePass, ResponseFit]:
+    """Second evidence pass: plausible species compete; response, joint explanation, pooling."""
+    sigma = SOURCE_MODELS[model].sigma_dex
+    kw = dict(
+        strong_fraction=params.strong_fraction,
+        min_rel_intensity=params.min_rel_intensity,
+        competitor_min_rel=params.competitor_min_rel,
+        sigma_dex=sigma,
+        plausible=_plausible(first),
+        n_species_tried=first.n_species_tried,
+        abundance_prior=params.abundance_prior,
+        sigma_lines=model_sigma(index, model),
+        xray=_is_xray(index, model),
+    )
+    second: EvidencePass | None = None
+    if response is None:
+        second = gather_evidence(obs, index, strengths, in_range, **kw)
+        # The response is fitted on the second pass (competition among
+        # plausible species only, so that well-identified species have unique
+        # groups), then the pass is repeated with it. A re-run at a new
+        # temperature reuses the response already fitted.
+        response = fit_response(obs, second) if index.axis == "wavelength" else ResponseFit()
+    if response.degree:
+        resp_lines = 10.0 ** response.log10_at(index.position)
+        second = gather_evidence(obs, index, strengths, in_range, response=resp_lines, **kw)
+    elif second is None:
+        second = gather_evidence(obs, index, strengths, in_range, **kw)
+    explain_jointly(
+        second,
+        obs,
+        index,
+        sigma_dex=sigma,
+        strong_fraction=params.strong_fraction,
+        family_ratio=_family_ratio_for(params) if _is_xray(index, model) else None,
+    )
+    if index.axis == "wavelength":
+        pool_ion_stages(second)
+    return second, response
+
+
+def _total_evidence(ev_pass: EvidencePass) -> float:
+    """Σ max(net evidence, 0) over species: how well the model explains the spectrum."""
+    return float(sum(max(ev.net_evidence_dex, 0.0) for ev in ev_pass.evidence.values()))
+
+
+def choose_model(
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    params: MatchParameters,
+    temperature_K: float,
+    in_range: np.ndarray,
+) -> tuple[str, str, np.ndarray, EvidencePass]:
+    """The source model (name, why) and its first pass."""
+    if params.source_model != "auto":
+        st, first = first_pass(obs, index, params, params.source_model, temperature_K, in_range)
+        return params.source_model, "given", st, first
+    if index.axis == "energy":
+        st, first = first_pass(obs, index, params, "x-ray", temperature_K, in_range)
+        return "x-ray", "auto: energy axis", st, first
+    if params.mode == "absorption":
+        st, first = first_pass(obs, index, params, "absorption", temperature_K, in_range)
+        return "absorption", "auto: absorption spectrum", st, first
+    st_l, first_l = first_pass(obs, index, params, "lte-plasma", temperature_K, in_range)
+    if not np.any(np.isfinite(obs.intensity)):
+        return "lte-plasma", "auto: no intensities to compare models", st_l, first_l
+    st_d, first_d = first_pass(obs, index, params, "discharge-lamp", temperature_K, in_range)
+    e_l, e_d = _total_evidence(first_l), _total_evidence(first_d)
+    why = f"auto: total net evidence {e_d:.1f} dex (discharge-lamp) vs {e_l:.1f} dex (lte-plasma)"
+    if e_d > e_l:
+        return "discharge-lamp", why, st_d, first_d
+    return "lte-plasma", why, st_l, first_l
