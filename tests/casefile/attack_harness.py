@@ -276,7 +276,7 @@ def _remanifest(entries: dict[str, bytes]) -> dict[str, bytes]:
     return {**entries, "manifest.json": mb, "manifest.sha256": (sha(mb) + "\n").encode()}
 
 
-def _rehash(records: dict) -> None:
+def rehash_records(records: dict) -> None:
     """A careful forger: recompute case, item and event hashes and links after an edit."""
     from workbench.casefile import GENESIS_HASH, event_hash
     from workbench.casefile.hashing import record_hash
@@ -324,7 +324,7 @@ def _edit(entries: dict[str, bytes], record: str, fn, rehash: bool = False) -> d
         records[record] = json.loads(entries[f"records/{record}.json"])
     fn(records[record])
     if rehash:
-        _rehash(records)
+        rehash_records(records)
     return {**entries, **{f"records/{n}.json": _dump(d) for n, d in records.items()}}
 
 

@@ -9,6 +9,7 @@ from pathlib import Path
 
 import pytest
 
+from tests.casefile.attack_harness import rehash_records
 from tests.casefile.helpers import add_signed_sheet, populate
 from workbench.casefile import CaseStore, export_bundle, import_bundle
 from workbench.casefile.hashing import canonical_json, sha256_hex
@@ -313,47 +314,11 @@ def test_zip_bomb_refused_before_anything_is_unpacked(bundle, tmp_path, monkeypa
     assert opened == []
 
 
-def _rehash(records: dict) -> None:
-    """Recompute the case, item and event hashes and links after an edit (a careful forger)."""
-    from workbench.casefile import GENESIS_HASH, event_hash
-    from workbench.casefile.hashing import record_hash
-    from workbench.casefile.records import CASE_HASH_FIELDS, ITEM_HASH_FIELDS
-
-    case = records["case"]
-    case["record_hash"] = record_hash(case, CASE_HASH_FIELDS)
-    prev = case["record_hash"]
-    for entry in case.get("status_log", []):
-        entry["prev_hash"] = prev
-        entry["hash"] = record_hash(entry, ("status", "at", "prev_hash"))
-        prev = entry["hash"]
-    item_hash = {}
-    for it in records["items"]:
-        it["record_hash"] = record_hash({**it, "case_hash": case["record_hash"]}, ITEM_HASH_FIELDS)
-        item_hash[it["item_number"]] = it["record_hash"]
-    links: dict[str, str] = {}
-    for it in records["items"]:
-        num = it["item_number"]
-        prev = links.get(num, GENESIS_HASH)
-        events = sorted(
-            (x for x in records["events"] if x["item_number"] == num), key=lambda x: x["seq"]
-        )
-        for n, ev in enumerate(events):
-            if n == 0:
-                ev["ref_hash"] = item_hash[num]
-            if ev["kind"] == "sub-sampled" and ev.get("ref_kind") == "sub-sample":
-                ev["ref_hash"] = item_hash[ev["ref_key"]]
-            ev["prev_hash"] = prev
-            ev["hash"] = event_hash(ev)
-            prev = ev["hash"]
-            if ev["kind"] == "sub-sampled" and ev.get("ref_kind") == "sub-sample":
-                links[ev["ref_key"]] = ev["hash"]
-
-
 def test_rehash_helper_is_faithful(bundle, tmp_path):
     # recomputing an untouched bundle changes nothing (common practice, no source)
     e = _entries(bundle)
     records = {n: json.loads(e[f"records/{n}.json"]) for n in ("case", "items", "events")}
-    _rehash(records)
+    rehash_records(records)
     assert all(canonical_json(records[n]) == e[f"records/{n}.json"] for n in records)
 
 
@@ -375,7 +340,7 @@ def test_fields_validated_as_on_direct_entry(bundle, tmp_path, record, edit, fie
     e = _entries(bundle)
     records = {n: json.loads(e[f"records/{n}.json"]) for n in ("case", "items", "events")}
     edit(records[record])
-    _rehash(records)
+    rehash_records(records)
     for n, data in records.items():
         e[f"records/{n}.json"] = canonical_json(data)
     bad = _write(tmp_path / "bad.zip", _remanifest(e))
