@@ -39,13 +39,7 @@ from collections import defaultdict
 import numpy as np
 
 from workbench.matching.evidence import EvidencePass
-from workbench.matching.scoring import (
-    ESTABLISHED_DEX,
-    POSSIBLE_DEX,
-    PROBABLE_DEX,
-    SpeciesEvidence,
-    score_of,
-)
+from workbench.matching.scoring import SpeciesEvidence, class_level, score_for
 
 __all__ = ["fisher_combined", "pool_ion_stages"]
 
@@ -74,16 +68,6 @@ def fisher_combined(p_values: list[float]) -> float:
     return float(min(1.0, q * total))
 
 
-def _level(e: float, k: int, unique: int, missing_evidence: bool) -> int:
-    if e >= ESTABLISHED_DEX and k >= 2 and unique >= 1 and missing_evidence:
-        return 3
-    if e >= PROBABLE_DEX and k >= 2 and unique >= 1:
-        return 2
-    if e >= POSSIBLE_DEX:
-        return 1
-    return 0
-
-
 def pool_ion_stages(ev_pass: EvidencePass) -> None:
     """Raise ion stages of one element to their pooled class (in place; see module doc)."""
     by_element: dict[str, list[SpeciesEvidence]] = defaultdict(list)
@@ -101,18 +85,11 @@ def pool_ion_stages(ev_pass: EvidencePass) -> None:
         e += sum(ev.missing_penalty_dex for ev in seen) + max(ev.prior_dex for ev in seen)
         k = sum(ev.n_groups_counted for ev in seen)
         unique = sum(ev.n_unique_peaks for ev in seen)
-        level = _level(e, k, unique, all(ev.missing_evidence for ev in seen))
+        level = class_level(e, k, unique, all(ev.missing_evidence for ev in seen))
         names = [ev.label for ev in seen]
         for ev in seen:
             ev.pooled_with = [n for n in names if n != ev.label]
             ev.pooled_evidence_dex = e
             if level > ev.level:
                 ev.level = level
-                ev.score = max(ev.score, score_of_value(e))
-
-
-def score_of_value(e: float) -> float:
-    """The score of :func:`workbench.matching.scoring.score_of` for a bare evidence value."""
-    probe = SpeciesEvidence(code=-1, label="", element="", ion=None, family=None)
-    probe.net_evidence_dex = e
-    return score_of(probe)
+                ev.score = max(ev.score, score_for(e))

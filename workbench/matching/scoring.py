@@ -127,8 +127,10 @@ __all__ = [
     "XRAY_SOLE_DEX",
     "XRAY_SOLE_SNR",
     "SpeciesEvidence",
+    "class_level",
     "decide_verdict",
     "evaluate",
+    "score_for",
     "score_of",
     "xray_agreement",
 ]
@@ -344,26 +346,55 @@ def xray_agreement(g: dict[str, Any], use: np.ndarray) -> float:
     return total
 
 
+def class_level(e: float, k: int, unique: int, missing_evidence: bool) -> int:
+    """The class rules of the module docstring for net evidence ``e`` (decades).
+
+    Parameters
+    ----------
+    e : float
+        Net evidence in decades.
+    k : int
+        Found groups counted in the chance probability.
+    unique : int
+        Unique peaks among them.
+    missing_evidence : bool
+        Whether missing-line evidence was available.
+
+    Returns
+    -------
+    int
+        The level (3 established … 0 not supported); the X-ray additions are
+        in :func:`decide_verdict`.
+    """
+    if e >= ESTABLISHED_DEX and k >= 2 and unique >= 1 and missing_evidence:
+        return 3
+    if e >= PROBABLE_DEX and k >= 2 and unique >= 1:
+        return 2
+    if e >= POSSIBLE_DEX:
+        return 1
+    return 0
+
+
 def decide_verdict(ev: SpeciesEvidence) -> int:
     """Apply the class rules of the module docstring; return the level."""
     if ev.n_groups_matched == 0:
         return 0
     e = ev.net_evidence_dex
     k = ev.n_groups_counted
-    if e >= ESTABLISHED_DEX and k >= 2 and ev.n_unique_peaks >= 1 and ev.missing_evidence:
-        return 3
-    if e >= PROBABLE_DEX and k >= 2 and ev.n_unique_peaks >= 1:
+    level = class_level(e, k, ev.n_unique_peaks, ev.missing_evidence)
+    if not ev.xray or level >= 2:
+        return level
+    if e >= PROBABLE_DEX and ev.main_found and k >= 1 and ev.n_unique_peaks >= 1:
         return 2
-    if e >= PROBABLE_DEX and ev.xray and ev.main_found and k >= 1 and ev.n_unique_peaks >= 1:
-        return 2
-    if ev.xray:
-        return 1 if e >= XRAY_POSSIBLE_DEX and ev.main_found else 0
-    if e >= POSSIBLE_DEX:
-        return 1
-    return 0
+    return 1 if e >= XRAY_POSSIBLE_DEX and ev.main_found else 0
 
 
 def score_of(ev: SpeciesEvidence) -> float:
     """Score in [0, 1] ordering species within a verdict class."""
-    e = max(ev.net_evidence_dex, 0.0)
+    return score_for(ev.net_evidence_dex)
+
+
+def score_for(e: float) -> float:
+    """Score in [0, 1] of net evidence ``e`` (decades): ``max(e, 0) / (max(e, 0) + 3)``."""
+    e = max(float(e), 0.0)
     return float(e / (e + 3.0))
