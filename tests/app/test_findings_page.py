@@ -132,3 +132,69 @@ def test_decisions_are_recorded_from_the_app_and_reach_the_signed_sheet(app, sto
     issued = app.session_state["issued"]
     sheet = json.loads(issued.json_bytes)
     assert len(sheet["decisions"]) == 2  # both decisions, the reversal included, are signed
+
+
+REVIEWER = "Cy Reviewer (invented)"
+
+
+def _issue_sheet(app) -> None:
+    _saved_analysis_and_key(app)
+    app.button(key="preview").click().run()
+    app.text_input(key="passphrase").input(PASSPHRASE).run()
+    app.button(key="sign").click().run()
+    assert not app.error, _texts(app.error)
+
+
+def _review(app, key_pem: bytes, passphrase: str, approve: bool, comments: str = "") -> None:
+    app.file_uploader(key="review_key").set_value(
+        [("reviewer.pem", key_pem, "application/x-pem-file")]
+    ).run()
+    app.text_input(key="review_passphrase").input(passphrase)
+    app.text_area(key="review_comments").input(comments)
+    app.button(key="review_approve" if approve else "review_return").click().run()
+    assert not app.exception
+    assert app.session_state["review_passphrase"] == ""  # the secret left the field
+
+
+def test_technical_review_from_the_app_refuses_self_review_then_countersigns(app, store_root):
+    """The review tab calls workbench.findings.review.review_sheet, as the CLI does."""
+    from workbench.casefile.decisions import list_reviews
+    from workbench.casefile.store import CaseStore
+    from workbench.findings import generate_key_pair
+    from workbench.findings.review import verify_review_with_store
+
+    _issue_sheet(app)
+    sheet_id = app.session_state["issued"].record.id
+    analyst_key = app.session_state["new_private_key"]
+    reviewer = generate_key_pair(PASSPHRASE)
+    with CaseStore.open(store_root) as store:
+        store.register_analyst(REVIEWER, "Reviewer", reviewer.public_key_pem)
+    app.run()
+    # the analyst cannot review their own sheet (refusal worded by workbench/findings/review.py)
+    _review(app, analyst_key, PASSPHRASE, approve=True)
+    assert any("cannot review their own analysis" in t for t in _texts(app.error))
+    # a return needs comments
+    _review(app, reviewer.private_key_pem, PASSPHRASE, approve=False)
+    assert any("needs the reviewer's comments" in t for t in _texts(app.error))
+    # a wrong passphrase is one clear error
+    _review(app, reviewer.private_key_pem, "not the passphrase", approve=True)
+    (err,) = _texts(app.error)  # one clear error, worded by workbench/findings/keys.py
+    assert "wrong passphrase" in err
+    with CaseStore.open(store_root) as store:
+        assert list_reviews(store, sheet_id) == []  # nothing stored by any refusal
+    _review(app, reviewer.private_key_pem, PASSPHRASE, approve=True)
+    assert not app.error, _texts(app.error)
+    assert any("approved and countersigned" in t for t in _texts(app.success))
+    out = app.session_state["review_outcome"]
+    with CaseStore.open(store_root) as store:
+        (rev,) = list_reviews(store, sheet_id)
+        assert (rev.outcome, rev.reviewer) == ("approved", REVIEWER)
+        issued = app.session_state["issued"]
+        res = verify_review_with_store(
+            store, issued.pdf_bytes, issued.json_bytes, issued.signature_record,
+            out.signature_record, review_raw=out.signature_raw,
+        )  # fmt: skip
+    assert res.signer == REVIEWER
+    assert "reviewer is not the analyst" in res.checks
+    # once approved, the form is gone: a second approval cannot be attempted from the app
+    assert not [b for b in app.button if b.key == "review_approve"]

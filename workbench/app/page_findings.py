@@ -6,6 +6,7 @@ import streamlit as st
 
 from workbench.app import _ui, store_access
 from workbench.app.decisions_panel import decisions_panel
+from workbench.app.review_panel import review_panel
 from workbench.errors import WorkbenchError
 
 st.title("Findings")
@@ -66,7 +67,12 @@ def _key_downloaded() -> None:
 
 
 with _ui.shown_errors(), store_access.open_store(root) as store:
-    tab_issue, tab_keys, tab_verify = st.tabs(["Draft and sign", "Signing keys", "Verify a sheet"])
+    tab_issue, tab_review, tab_keys, tab_verify = st.tabs(
+        ["Draft and sign", "Technical review", "Signing keys", "Verify a sheet"]
+    )
+
+    with tab_review:
+        review_panel(store, root, number)
 
     with tab_keys:
         analysts = store.list_analysts()
@@ -120,7 +126,7 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
 
     with tab_issue:
         # The analyst's decisions sit between choosing the analysis and previewing the
-        # draft (the draft carries them). Technical review: `workbench findings review`.
+        # draft (the draft carries them). The technical review has its own tab.
         if not number:
             st.info("Choose a case first.")
         else:
@@ -260,6 +266,10 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
         v_pdf = st.file_uploader("Sheet PDF", key="v_pdf")
         v_json = st.file_uploader("Sheet JSON", key="v_json")
         v_rec = st.file_uploader("Signature record (.sig.json)", key="v_rec")
+        v_rev = st.file_uploader(
+            "Reviewer's signature record (.review.sig.json), if the sheet was reviewed",
+            key="v_rev",
+        )
         if st.button("Verify", key="verify"):
             if v_pdf is None or v_json is None or v_rec is None:
                 st.error("Give all three files: the PDF, the JSON and the signature record.")
@@ -275,3 +285,15 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
                         f"with key {res.key_fingerprint[:19]}…"
                     )
                     st.text("\n".join("✓ " + c for c in res.checks))
+                    if v_rev is not None:
+                        from workbench.findings.review import verify_review_with_store
+
+                        rev = verify_review_with_store(
+                            store, v_pdf.getvalue(), v_json.getvalue(), v_rec.getvalue(),
+                            v_rev.getvalue(),
+                        )  # fmt: skip
+                        st.success(
+                            f"REVIEW VALID: countersigned by {_ui.plain(rev.signer)} at "
+                            f"{rev.signed_at} with key {rev.key_fingerprint[:19]}…"
+                        )
+                        st.text("\n".join("✓ " + c for c in rev.checks))
