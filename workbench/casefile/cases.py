@@ -13,6 +13,7 @@ from datetime import datetime
 
 from workbench.casefile.custody import status_entry
 from workbench.casefile.hashing import normalise_time, record_hash, utc_now
+from workbench.casefile.naming import check_case_number
 from workbench.casefile.records import CASE_HASH_FIELDS, CASE_STATUSES, CaseRecord, SearchHit
 from workbench.casefile.storebase import StoreBase, stored_json
 from workbench.casefile.validate import check_text as _text
@@ -38,7 +39,8 @@ class CaseRecords(StoreBase):
         Parameters
         ----------
         case_number : str
-            Unique case number.
+            Unique case number, following the naming rule of
+            :mod:`~workbench.casefile.naming` (e.g. ``NRFL-2026-0417``).
         title : str
             Short title.
         requesting_party : str
@@ -52,9 +54,18 @@ class CaseRecords(StoreBase):
         -------
         CaseRecord
             The new case.
+
+        Raises
+        ------
+        InputError
+            If the case number breaks the naming rule (one message naming the
+            offending characters and the rule); nothing is written.
+        CaseFileError
+            If the case already exists.
         """
-        number = _text(case_number, "case number", max_len=64)
-        assert number is not None
+        # The naming rule applies when a number is created, never when one is
+        # read: cases stored before the rule keep their numbers.
+        number = check_case_number(case_number)
         fields = {
             "case_number": number,
             "title": _text(title, "case title"),

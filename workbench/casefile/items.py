@@ -14,6 +14,7 @@ from datetime import datetime
 
 from workbench.casefile.chains import CustodyChains, ItemRef
 from workbench.casefile.hashing import record_hash, utc_now
+from workbench.casefile.naming import check_item_number
 from workbench.casefile.records import ITEM_HASH_FIELDS, ItemRecord
 from workbench.casefile.storebase import stored_json
 from workbench.casefile.validate import check_text as _text
@@ -80,7 +81,8 @@ class Items(CustodyChains):
         Parameters
         ----------
         case_number, item_number, description : str
-            Where it belongs, its number within the case, what it is.
+            Where it belongs, its number within the case (naming rule of
+            :mod:`~workbench.casefile.naming`, e.g. ``1``, ``1a``, ``2.3``), what it is.
         parent_item : str, optional
             Item number (same case) this is a sub-sample of.
         seal_numbers : sequence of str
@@ -103,14 +105,16 @@ class Items(CustodyChains):
             The item with its custody state. The ``received`` (or ``sub-sampled``,
             in both the parent's and the sub-sample's chains) custody event is
             written in the same transaction.
+
+        Raises
+        ------
+        InputError
+            If the item number breaks the naming rule (one message naming the
+            offending characters and the rule); nothing is written.
         """
         case = self._case_row(case_number)
-        number = _text(item_number, "item number", max_len=64)
-        assert number is not None
-        if "/" in number:
-            raise InputError(
-                f"item number {number!r} contains '/'", "use letters, digits, '.', '-' or '_'"
-            )
+        # The naming rule applies on creation only (see cases.create_case).
+        number = check_item_number(item_number)
         seals = tuple(_text(s, "seal number", max_len=64) for s in seal_numbers)
         for s in seals:
             if "," in str(s):
