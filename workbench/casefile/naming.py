@@ -15,6 +15,13 @@ Examples that pass: ``NRFL-2026-0417``, ``TEST_2026.001``; items ``1``,
 (markup), ``case 12`` (a space), ``-12`` (leading separator). Leading and
 trailing blanks are removed before the check. (A common laboratory
 convention; no source.)
+
+The store applies the rule where a number is created
+(:meth:`~workbench.casefile.store.CaseStore.create_case`,
+:meth:`~workbench.casefile.store.CaseStore.add_item`), so the CLI and the app
+refuse the same names with the same message. It is never applied when a
+number is read or a case is imported from a bundle: cases stored before the
+rule keep their numbers.
 """
 
 from __future__ import annotations
@@ -44,7 +51,11 @@ _RULE = "letters and digits in groups joined by single '-', '.' or '_' (e.g. {ex
 
 
 def _check(value: object, what: str, max_len: int, example: str) -> str:
-    if not isinstance(value, str) or not value.strip():
+    if value is not None and not isinstance(value, str):
+        raise InputError(
+            f"{what} must be text, got {type(value).__name__}", f"give it as text, e.g. {example}"
+        )
+    if value is None or not value.strip():
         raise InputError(f"{what} is empty", f"type a {what} such as {example}")
     text = value.strip()
     if len(text) > max_len:

@@ -15,9 +15,12 @@ enters every existing row in the ledger and every existing key in the key log
 as ``legacy`` (untrusted until a local administrator trusts it: a store
 written before version 3 did not record whether a key was imported).
 
-Every table is registered with the ledger here (:func:`register_table` with a
-function that names a row); a later migration that adds a table registers it
-the same way.
+Every table is registered with the ledger when this module is imported
+(:func:`~workbench.casefile.ledger_tables.register_store_tables`; the function
+that names a table's rows lives in :mod:`~workbench.casefile.ledger_tables`);
+a later migration that adds a table adds its entry there. The connection class
+(damage reported as :class:`~workbench.errors.StoreIntegrityError`) is in
+:mod:`~workbench.casefile.sqlconn`.
 
 Migration 4 adds the analyst's decisions and the technical reviews
 (:mod:`workbench.casefile.decisions`), both under the ledger.
@@ -29,9 +32,10 @@ import sqlite3
 import time
 from collections.abc import Callable
 from pathlib import Path
-from typing import Any
 
 from workbench.casefile import ledger
+from workbench.casefile.ledger_tables import register_store_tables
+from workbench.casefile.sqlconn import StoreConnection, is_busy
 from workbench.errors import CaseFileError, StoreIntegrityError
 
 __all__ = [
@@ -336,66 +340,6 @@ LEDGER_VERSION: int = 3
 SCHEMA_VERSION: int = MIGRATIONS[-1][0]
 
 
-_DAMAGE_WORDS = ("malformed", "not a database", "no such table", "no such column", "corrupt")
-
-
-def _damage(exc: sqlite3.DatabaseError) -> StoreIntegrityError | None:
-    """The StoreIntegrityError for an SQLite error that means a damaged or altered file."""
-    text = str(exc).lower()
-    if type(exc) is sqlite3.DatabaseError or any(w in text for w in _DAMAGE_WORDS):
-        return StoreIntegrityError(
-            f"the case-store database is damaged or was altered ({exc})",
-            "run 'workbench custody verify'; restore the store from a backup",
-        )
-    return None
-
-
-class _Cursor(sqlite3.Cursor):
-    """A cursor that reports a damaged database as StoreIntegrityError, not a traceback."""
-
-    def execute(self, sql: str, parameters: Any = ()) -> _Cursor:  # type: ignore[override]
-        try:
-            return super().execute(sql, parameters)
-        except sqlite3.DatabaseError as exc:
-            raise (_damage(exc) or exc) from exc
-
-    def fetchone(self) -> Any:
-        try:
-            return super().fetchone()
-        except sqlite3.DatabaseError as exc:
-            raise (_damage(exc) or exc) from exc
-
-    def fetchall(self) -> list[Any]:
-        try:
-            return super().fetchall()
-        except sqlite3.DatabaseError as exc:
-            raise (_damage(exc) or exc) from exc
-
-    def __next__(self) -> Any:
-        try:
-            return super().__next__()
-        except sqlite3.DatabaseError as exc:
-            raise (_damage(exc) or exc) from exc
-
-
-class StoreConnection(sqlite3.Connection):
-    """The store's connection: every statement runs through :class:`_Cursor`."""
-
-    def cursor(self, factory: Any = _Cursor) -> Any:  # type: ignore[override]
-        return super().cursor(factory)
-
-    def execute(self, sql: str, parameters: Any = ()) -> Any:  # type: ignore[override]
-        return self.cursor().execute(sql, parameters)
-
-
-def is_busy(exc: BaseException) -> bool:
-    """Return whether an SQLite error means 'locked by another writer, try again'."""
-    if not isinstance(exc, sqlite3.OperationalError):
-        return False
-    text = str(exc).lower()
-    return "locked" in text or "busy" in text
-
-
 def schema_version(conn: sqlite3.Connection) -> int:
     """Return the store's schema version (0 for an empty database)."""
     row = conn.execute(
@@ -542,68 +486,5 @@ def connect_readonly(db_path: Path) -> sqlite3.Connection:
     return conn
 
 
-# ---------------------------------------------------------------- ledger coverage
-def _one(conn: sqlite3.Connection, sql: str, args: tuple) -> Any:
-    r = conn.execute(sql, args).fetchone()
-    return r[0] if r else None
-
-
-def _item_label(conn: sqlite3.Connection, item_id: Any) -> str:
-    r = conn.execute(
-        "SELECT c.case_number, i.item_number FROM items i LEFT JOIN cases c ON c.id=i.case_id "
-        "WHERE i.id=?",
-        (item_id,),
-    ).fetchone()
-    if r is None:
-        return f"item id {item_id}"
-    return f"{r[0] if r[0] is not None else '?'}/{r[1]}"
-
-
-def _describe_item(conn: sqlite3.Connection, row: dict) -> str:
-    case = _one(conn, "SELECT case_number FROM cases WHERE id=?", (row["case_id"],))
-    return f"item {case if case is not None else '?'}/{row['item_number']} (id {row['id']})"
-
-
-def _describe_measurement(conn: sqlite3.Connection, row: dict) -> str:
-    return (
-        f"measurement {row['id']} of item {_item_label(conn, row['item_id'])} "
-        f"({row['filename']}, SHA-256 {str(row['sha256'])[:12]}…)"
-    )
-
-
-def _describe_analysis(conn: sqlite3.Connection, row: dict) -> str:
-    item = _one(conn, "SELECT item_id FROM measurements WHERE id=?", (row["measurement_id"],))
-    return (
-        f"analysis {row['id']} of measurement {row['measurement_id']} "
-        f"(item {_item_label(conn, item)})"
-    )
-
-
-def _describe_sheet(conn: sqlite3.Connection, row: dict) -> str:
-    return (
-        f"findings sheet {row['id']} of analysis {row['analysis_id']} "
-        f"(PDF SHA-256 {str(row['pdf_sha256'])[:12]}…, signed by {row['analyst']})"
-    )
-
-
-_DESCRIBE: dict[str, Callable[[sqlite3.Connection, dict], str]] = {
-    "schema_version": lambda c, r: f"schema version {r['version']}",
-    "cases": lambda c, r: f"case {r['case_number']} (id {r['id']})",
-    "items": _describe_item,
-    "custody_events": lambda c, r: (
-        f"custody event {_item_label(c, r['item_id'])} #{r['seq']} ({r['kind']}, id {r['id']})"
-    ),
-    "measurements": _describe_measurement,
-    "analyses": _describe_analysis,
-    "analysts": lambda c, r: f"analyst {r['name']} key {r['fingerprint']}",
-    "findings_sheets": _describe_sheet,
-    "key_events": lambda c, r: f"key event #{r['seq']} ({r['kind']} {r['fingerprint']})",
-    "analysis_decisions": lambda c, r: (
-        f"decision #{r['seq']} on analysis {r['analysis_id']} ({r['action']} {r['target']})"
-    ),
-    "sheet_reviews": lambda c, r: (
-        f"technical review of findings sheet {r['sheet_id']} ({r['outcome']} by {r['reviewer']})"
-    ),
-}
-for _table, _fn in _DESCRIBE.items():
-    ledger.register_table(_table, _fn)
+# Every table is registered with the ledger when the schema is imported.
+register_store_tables()

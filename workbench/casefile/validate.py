@@ -64,7 +64,7 @@ def _hex(rec: dict, key: str, where: str) -> None:
 
 
 def check_records(data: Any) -> None:
-    """Check a case's records (a :class:`~workbench.casefile.verify.CaseData`) field by field.
+    """Check a case's records (a :class:`~workbench.casefile.casedata.CaseData`) field by field.
 
     Raises
     ------

@@ -2,7 +2,8 @@
 
 * :mod:`~workbench.compare.collections` — named collections of measured known
   samples (exemplars with replicate peak lists), stored as hash-checked
-  directories.
+  directories (model in :mod:`~workbench.compare.exemplars`, loading in
+  :mod:`~workbench.compare.collection_load`).
 * :mod:`~workbench.compare.similarity` — intensity-weighted line overlap and
   log-intensity agreement between two peak lists (descriptive, for ranking).
 * :mod:`~workbench.compare.ratios` — chosen line-intensity ratios and the

@@ -6,9 +6,10 @@ units
     Wavelength, wavenumber, frequency and photon-energy conversions (CODATA).
 airvac
     Air ↔ vacuum wavelengths (IAU/Morton 2000 with exact inverse; Ciddor 1996).
-hydrogen
-    Hydrogen-like lines: Rydberg gross structure, Dirac fine structure and exact
-    nonrelativistic E1 rates; the ``hydrogen_like`` reference table.
+rydberg, dirac, e1rates, hydrogen
+    Hydrogen-like lines: species and Rydberg gross structure (``rydberg``), Dirac
+    levels and fine-structure components (``dirac``), exact nonrelativistic E1
+    rates (``e1rates``); the ``hydrogen_like`` reference table (``hydrogen``).
 boltzmann
     LTE relative line intensities and the Boltzmann-plot temperature.
 saha
