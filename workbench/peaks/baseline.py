@@ -15,8 +15,10 @@ SNIP
     vᵢ ← min(vᵢ, (vᵢ₋ₚ + vᵢ₊ₚ)/2) for p = 1 … m, optionally on the
     log-log-sqrt (LLS) transformed signal v = ln(ln(√(y+1)+1)+1), which
     compresses the dynamic range of counting spectra. Each pass is one
-    vectorised numpy operation over the whole array; the Python loop runs
-    over the m window sizes only. The default for long spectra.
+    vectorised numpy operation over a block of 64 Ki points (with a halo
+    that makes the result identical to passes over the whole array); the
+    Python loop runs over the blocks and the m window sizes only. The
+    default for long spectra.
 
 SNIP clips to the *lower envelope* of the noise, so its baseline sits a
 little below the noise centre. :func:`estimate_baseline` therefore runs SNIP
@@ -102,11 +104,66 @@ def als_baseline(
 
 
 def _lls(y: np.ndarray) -> np.ndarray:
-    return np.log(np.log(np.sqrt(y + 1.0) + 1.0) + 1.0)
+    """ln(ln(√(y+1)+1)+1) into a new array (the same operations as the formula, in place)."""
+    v = y + 1.0
+    np.sqrt(v, out=v)
+    v += 1.0
+    np.log(v, out=v)
+    v += 1.0
+    np.log(v, out=v)
+    return v
 
 
 def _lls_inverse(v: np.ndarray) -> np.ndarray:
-    return (np.exp(np.exp(v) - 1.0) - 1.0) ** 2 - 1.0
+    """(exp(exp(v)−1)−1)² − 1, overwriting ``v``."""
+    np.exp(v, out=v)
+    v -= 1.0
+    np.exp(v, out=v)
+    v -= 1.0
+    np.square(v, out=v)
+    v -= 1.0
+    return v
+
+
+#: Points per block of the blocked SNIP passes: 64 Ki doubles (512 KiB, with the
+#: scratch row 1 MiB) stay in a core's L2 cache through all the passes.
+_SNIP_BLOCK = 1 << 16
+
+
+def _clip_passes(v: np.ndarray, windows: list[int], buf: np.ndarray) -> None:
+    """Ryan's clipping vᵢ ← min(vᵢ, (vᵢ₋ₚ + vᵢ₊ₚ)/2) for each p in turn, in place."""
+    n = v.size
+    for p in windows:
+        mid = buf[: n - 2 * p]
+        np.add(v[: -2 * p], v[2 * p :], out=mid)
+        mid *= 0.5
+        np.minimum(v[p:-p], mid, out=v[p:-p])
+
+
+def _clip_blocked(v: np.ndarray, windows: list[int]) -> np.ndarray:
+    """:func:`_clip_passes` on a long array, block by block, with identical results.
+
+    After the passes with windows p₁ … pₖ a point depends only on the points
+    within Σp of it, so a block extended by that halo on each side (or up to
+    an end of the array, where the ends behave as in the whole array) gives
+    exactly the whole-array values for the block's own points. Each block is
+    processed in cache instead of streaming the whole array from memory once
+    per pass (about twice as fast on a million points).
+    """
+    n = v.size
+    halo = sum(windows)
+    if n <= _SNIP_BLOCK + 2 * halo:
+        _clip_passes(v, windows, np.empty(n))
+        return v
+    out = np.empty(n)
+    buf = np.empty(_SNIP_BLOCK + 2 * halo)
+    for start in range(0, n, _SNIP_BLOCK):
+        stop = min(start + _SNIP_BLOCK, n)
+        lo, hi = max(0, start - halo), min(n, stop + halo)
+        block = v[lo:hi].copy()
+        _clip_passes(block, windows, buf)
+        out[start:stop] = block[start - lo : stop - lo]
+    return out
 
 
 def snip_baseline(
@@ -143,17 +200,16 @@ def snip_baseline(
     offset = 0.0
     if lls:
         offset = min(0.0, float(arr.min()))
-        v = _lls(arr - offset)
+        # arr − 0.0 is arr exactly, so the subtraction (a copy) is needed only for an offset.
+        v = _lls(arr - offset if offset else arr)
     else:
         v = arr.copy()
-    windows = range(m, 0, -1) if decreasing else range(1, m + 1)
-    buf = np.empty(n)  # one scratch array for every window (no allocation per pass)
-    for p in windows:
-        mid = buf[: n - 2 * p]
-        np.add(v[: -2 * p], v[2 * p :], out=mid)
-        mid *= 0.5
-        np.minimum(v[p:-p], mid, out=v[p:-p])
-    return _lls_inverse(v) + offset if lls else v
+    windows = list(range(m, 0, -1) if decreasing else range(1, m + 1))
+    v = _clip_blocked(v, windows)
+    if lls:
+        v = _lls_inverse(v)
+        v += offset
+    return v
 
 
 def _boxcar5(y: np.ndarray) -> np.ndarray:
@@ -198,7 +254,7 @@ def estimate_baseline(
     numpy.ndarray
         The baseline.
     """
-    from workbench.peaks.noise import noise_sigma
+    from workbench.peaks.noise import median_overwrite, noise_sigma
 
     if method is None or method == "none":
         return np.zeros_like(y, dtype=np.float64)
@@ -214,12 +270,22 @@ def estimate_baseline(
     s = noise_sigma(y) if sigma is None else sigma
     resid = y - base
     shift = 0.0
+    scratch = np.empty_like(resid)  # |resid − shift|, reused every round
+    quiet = np.empty(resid.size, dtype=bool)
     # Iterate so the ±3σ window ends up centred on the noise, not on the clipped envelope.
     for _ in range(5):
-        quiet = np.abs(resid - shift) <= 3.0 * s if s > 0 else np.ones(y.size, dtype=bool)
-        if np.count_nonzero(quiet) < 10:
-            break
-        new_shift = float(np.median(resid[quiet]))
+        if s > 0:
+            np.subtract(resid, shift, out=scratch)
+            np.abs(scratch, out=scratch)
+            np.less_equal(scratch, 3.0 * s, out=quiet)
+            if np.count_nonzero(quiet) < 10:
+                break
+            # resid[quiet] is a fresh copy, free to reorder; it holds no NaN (NaN fails <=).
+            new_shift = median_overwrite(resid[quiet])
+        else:  # no usable σ (a noise-free signal): every point counts
+            if resid.size < 10:
+                break
+            new_shift = float(np.median(resid))
         if new_shift == shift:  # a fixed point: further rounds would repeat it exactly
             break
         shift = new_shift
