@@ -98,3 +98,38 @@ def test_baseline_shift_equals_plain_loop(label, y):
             break
         shift = new_shift
     assert np.array_equal(estimate_baseline(y, "snip"), base + shift), label
+
+
+@pytest.mark.parametrize(
+    ("shift", "t"),
+    [(0.0, 3.0), (0.1, 0.3), (-2.5, 1e-9), (1e6, 1e-3), (1e20, 1e-3), (-7.3e-300, 4.2), (5.0, 5.0)],
+)
+def test_band_ends_are_exact(shift, t):
+    # The band's ends pass the test |r − shift| <= t as numpy computes it, and
+    # the next doubles outside do not (brute force on the neighbours).
+    lo, hi = bl._band(shift, t)
+    inside = lambda r: bool(np.abs(np.float64(r) - shift) <= t)  # noqa: E731
+    assert inside(lo) and inside(hi)
+    assert not inside(np.nextafter(lo, -np.inf)) and not inside(np.nextafter(hi, np.inf))
+
+
+def test_baseline_shift_without_finite_band_falls_back_to_masking():
+    # σ so large that shift ± 3σ overflows: the masked path gives the plain loop's answer.
+    y = np.random.default_rng(SEED).normal(0.0, 1.0, 200)
+    resid = y - 0.5
+    assert bl._band(0.0, np.inf) is None
+    assert bl._noise_centre(resid, 1e308) == float(np.median(resid))
+
+
+def test_band_ends_exact_for_random_shifts_and_widths():
+    rng = np.random.default_rng(SEED)
+    shifts = rng.normal(0.0, 1.0, 300) * 10.0 ** rng.integers(-300, 300, 300)
+    widths = np.abs(rng.normal(0.0, 1.0, 300)) * 10.0 ** rng.integers(-300, 300, 300)
+    for shift, t in zip(shifts.tolist(), widths.tolist(), strict=True):
+        band = bl._band(shift, t)
+        if band is None:
+            continue
+        lo, hi = band
+        assert abs(lo - shift) <= t and abs(hi - shift) <= t
+        assert not abs(np.nextafter(lo, -np.inf) - shift) <= t
+        assert not abs(np.nextafter(hi, np.inf) - shift) <= t

@@ -30,6 +30,9 @@ line-free regions (our own correction; common practice, no source).
 
 from __future__ import annotations
 
+import math
+import struct
+
 import numpy as np
 from numpy.typing import ArrayLike
 
@@ -220,7 +223,12 @@ def _boxcar5(y: np.ndarray) -> np.ndarray:
     """
     p = np.pad(y, 2, mode="edge")
     n = y.size
-    return (p[0:n] + p[1 : n + 1] + p[2 : n + 2] + p[3 : n + 3] + p[4 : n + 4]) / 5.0
+    out = p[0:n] + p[1 : n + 1]  # summed left to right in place, as the formula would
+    out += p[2 : n + 2]
+    out += p[3 : n + 3]
+    out += p[4 : n + 4]
+    out /= 5.0
+    return out
 
 
 def estimate_baseline(
@@ -254,7 +262,7 @@ def estimate_baseline(
     numpy.ndarray
         The baseline.
     """
-    from workbench.peaks.noise import median_overwrite, noise_sigma
+    from workbench.peaks.noise import noise_sigma
 
     if method is None or method == "none":
         return np.zeros_like(y, dtype=np.float64)
@@ -268,25 +276,106 @@ def estimate_baseline(
     else:
         raise ValueRangeError(f"unknown baseline method {method!r}", "use 'snip', 'als' or none")
     s = noise_sigma(y) if sigma is None else sigma
-    resid = y - base
+    return base + _noise_centre(y - base, s)
+
+
+def _noise_centre(resid: np.ndarray, s: float) -> float:
+    """Median of the residuals within ±3σ of it, iterated (at most 5 rounds).
+
+    Each round takes the median of the points with ``|resid − shift| <= 3σ``
+    and makes it the new shift, so the window ends up centred on the noise,
+    not on the clipped envelope; a fixed point ends the rounds early.
+    """
+    from workbench.peaks.noise import median_overwrite
+
+    if not s > 0:  # no usable σ (a noise-free signal): every point counts
+        return float(np.median(resid)) if resid.size >= 10 else 0.0
+    t = 3.0 * s
+    # One sort replaces a mask, a copy and a selection per round: the points with
+    # |r − shift| <= t (computed as numpy computes it) are a contiguous run of the
+    # sorted residuals, so each round's median is an element of that run.
+    ordered = np.sort(resid)  # NaN sorts last and is never inside a (finite) band
     shift = 0.0
-    scratch = np.empty_like(resid)  # |resid − shift|, reused every round
-    quiet = np.empty(resid.size, dtype=bool)
-    # Iterate so the ±3σ window ends up centred on the noise, not on the clipped envelope.
     for _ in range(5):
-        if s > 0:
-            np.subtract(resid, shift, out=scratch)
-            np.abs(scratch, out=scratch)
-            np.less_equal(scratch, 3.0 * s, out=quiet)
+        band = _band(shift, t)
+        if band is not None:
+            i0 = int(np.searchsorted(ordered, band[0], side="left"))
+            count = int(np.searchsorted(ordered, band[1], side="right")) - i0
+            if count < 10:
+                break
+            k = i0 + count // 2
+            new_shift = (
+                float(ordered[k]) if count % 2 else float((ordered[k - 1] + ordered[k]) / 2.0)
+            )
+        else:  # bounds not found (|shift| or t near overflow): mask the residuals
+            quiet = np.abs(resid - shift) <= t
             if np.count_nonzero(quiet) < 10:
                 break
-            # resid[quiet] is a fresh copy, free to reorder; it holds no NaN (NaN fails <=).
-            new_shift = median_overwrite(resid[quiet])
-        else:  # no usable σ (a noise-free signal): every point counts
-            if resid.size < 10:
-                break
-            new_shift = float(np.median(resid))
+            new_shift = median_overwrite(resid[quiet])  # a fresh copy; NaN fails <=
         if new_shift == shift:  # a fixed point: further rounds would repeat it exactly
             break
         shift = new_shift
-    return base + shift
+    return shift
+
+
+def _band(shift: float, t: float) -> tuple[float, float] | None:
+    """Smallest and largest double r with ``|r − shift| <= t`` in floating point.
+
+    The rounded difference r − shift never decreases as r grows, so the
+    doubles passing the test form one interval. Its ends are found by
+    bisection over the doubles in order (their bit patterns as integers),
+    testing with the same arithmetic numpy uses (IEEE double subtraction).
+    None when shift ± t is not finite.
+    """
+    if not (math.isfinite(shift - t) and math.isfinite(shift + t)):
+        return None
+    hi = _last_true(lambda r: r - shift <= t, shift + t)
+    below = _last_true(lambda r: r - shift < -t, shift - t)
+    if hi is None or below is None:
+        return None
+    return _from_order(_order(below) + 1), hi
+
+
+_MAX_ORDER = 0x7FEFFFFFFFFFFFFF  # order of the largest finite double
+
+
+def _order(x: float) -> int:
+    """Position of a double among all doubles (−0.0 and 0.0 share position 0)."""
+    (bits,) = struct.unpack("<q", struct.pack("<d", x))
+    return bits if bits >= 0 else -(bits & 0x7FFFFFFFFFFFFFFF)
+
+
+def _from_order(k: int) -> float:
+    bits = k if k >= 0 else (-k) | -0x8000000000000000
+    return struct.unpack("<d", struct.pack("<q", bits))[0]
+
+
+def _last_true(pred, start: float) -> float | None:
+    """Largest finite double r with pred(r), for pred true up to a point and false above."""
+    k = _order(start)
+    step = 1
+    if pred(start):  # bracket upwards: good = last known true, bad = first known false
+        good = k
+        while True:
+            bad = good + step
+            if bad > _MAX_ORDER:
+                return None
+            if not pred(_from_order(bad)):
+                break
+            good, step = bad, step * 2
+    else:
+        bad = k
+        while True:
+            good = bad - step
+            if good < -_MAX_ORDER:
+                return None
+            if pred(_from_order(good)):
+                break
+            bad, step = good, step * 2
+    while bad - good > 1:
+        mid = (good + bad) // 2
+        if pred(_from_order(mid)):
+            good = mid
+        else:
+            bad = mid
+    return _from_order(good)
