@@ -133,3 +133,41 @@ def test_band_ends_exact_for_random_shifts_and_widths():
         assert abs(lo - shift) <= t and abs(hi - shift) <= t
         assert not abs(np.nextafter(lo, -np.inf) - shift) <= t
         assert not abs(np.nextafter(hi, np.inf) - shift) <= t
+
+
+def _plain_saturated_mask(y, mode, level):
+    if mode == "absorption":
+        flat = y == y.min()
+    elif level is not None:
+        return y >= level
+    else:
+        flat = y == y.max()
+    neighbour = np.zeros_like(flat)
+    neighbour[1:] |= flat[:-1]
+    neighbour[:-1] |= flat[1:]
+    return flat & neighbour
+
+
+@pytest.mark.parametrize("mode", ["emission", "absorption"])
+@pytest.mark.parametrize("level", [None, 3.0])
+def test_saturated_indices_equal_plain_mask(mode, level):
+    from workbench.peaks.detect import PeakFindingParameters, _saturated_indices
+
+    rng = np.random.default_rng(SEED)
+    prm = PeakFindingParameters(mode=mode, saturation_level=level)
+    for _ in range(300):
+        y = rng.integers(0, 5, int(rng.integers(5, 40))).astype(np.float64)
+        expected = np.flatnonzero(_plain_saturated_mask(y, mode, level))
+        assert np.array_equal(_saturated_indices(y, prm), expected)
+
+
+def test_local_maxima_at_least_equals_filtered_local_maxima():
+    from workbench.peaks.extrema import local_maxima, local_maxima_at_least
+
+    rng = np.random.default_rng(SEED)
+    for _ in range(1000):
+        # Small integer values: many plateaus, plateaus at the ends, ties with neighbours.
+        x = rng.integers(0, 4, int(rng.integers(0, 50))).astype(np.float64)
+        p = local_maxima(x)
+        for h in (-1.0, 0.0, 1.0, 2.5, 3.0, 4.0):
+            assert np.array_equal(local_maxima_at_least(x, h), p[x[p] >= h])
