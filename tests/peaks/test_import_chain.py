@@ -88,3 +88,30 @@ def test_hc_constant_is_codata_from_scipy():
     assert units.HC_EV_NM == sc.h * sc.c / sc.e * 1e9
     # The conversions use the same value: 1239.84198... eV·nm / 1239.84198... nm = 1 eV.
     assert units.wavelength_vac_nm_to_energy_eV([units.HC_EV_NM])[0] == 1.0
+
+
+def test_peaks_command_loads_only_its_own_command_module(tmp_path):
+    # main() registers only the named command's group when that module registers it.
+    src = tmp_path / "spectrum.csv"
+    _spectrum_csv(src)
+    code = (
+        "import sys\n"
+        "from workbench.cli import COMMAND_MODULES, main\n"
+        f"main(['peaks', {str(src)!r}, '--json', {str(tmp_path / 'p.json')!r}])\n"
+        "print(sorted(m for m in COMMAND_MODULES if 'workbench.cli.' + m in sys.modules))\n"
+    )
+    r = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert r.stdout.strip().splitlines()[-1] == "['peaks']"
+
+
+def test_one_group_parser_reads_arguments_as_the_full_parser_does():
+    from workbench.cli import build_parser
+
+    argv = ["peaks", "f.csv", "--mode", "absorption", "--min-snr", "4", "--baseline", "als"]
+    one, full = build_parser("peaks"), build_parser()
+    a, b = vars(one.parse_args(argv)), vars(full.parse_args(argv))
+    assert a.keys() == b.keys()
+    assert all(a[k] == b[k] for k in a if k != "func")
+    assert a["func"] is b["func"]
+    # A name that is no command module gets every group (argparse then reports it).
+    assert build_parser("no-such-command").format_help() == full.format_help()
