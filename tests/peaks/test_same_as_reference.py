@@ -64,12 +64,17 @@ def test_noise_sigma_of_nan_is_nan_as_before():
 
 
 @pytest.mark.parametrize("block", [64, 257, 1 << 16])
+@pytest.mark.parametrize("threads", [1, 4])
 @pytest.mark.parametrize("lls", [True, False])
 @pytest.mark.parametrize("decreasing", [False, True])
 @pytest.mark.parametrize(("label", "y"), list(_signals())[2:4])
-def test_blocked_snip_equals_whole_array_passes(monkeypatch, block, lls, decreasing, label, y):
-    # Small blocks force many block edges and halos that reach the array's ends.
+def test_blocked_snip_equals_whole_array_passes(
+    monkeypatch, block, threads, lls, decreasing, label, y
+):
+    # Small blocks force many block edges and halos that reach the array's ends;
+    # with threads the blocks are done in any order.
     monkeypatch.setattr(bl, "_SNIP_BLOCK", block)
+    monkeypatch.setattr(bl, "_SNIP_THREADS", threads)
     got = snip_baseline(y, iterations=40, lls=lls, decreasing=decreasing)
     expected = _plain_snip(y, 40, lls, decreasing)
     assert np.array_equal(got, expected), label
@@ -171,3 +176,16 @@ def test_local_maxima_at_least_equals_filtered_local_maxima():
         p = local_maxima(x)
         for h in (-1.0, 0.0, 1.0, 2.5, 3.0, 4.0):
             assert np.array_equal(local_maxima_at_least(x, h), p[x[p] >= h])
+
+
+def test_snip_threads_see_the_callers_errstate(monkeypatch):
+    # NaN with values below −1 makes LLS take the root of a negative number (an
+    # "invalid" floating-point event); the caller's np.errstate must reach the
+    # worker threads as it reached the single loop before (warnings are errors here).
+    monkeypatch.setattr(bl, "_SNIP_BLOCK", 64)
+    y = np.random.default_rng(SEED).normal(0.0, 1.0, 1000) - 5.0
+    y[500] = np.nan
+    with np.errstate(invalid="ignore"):
+        snip_baseline(y, iterations=10)
+    with np.errstate(invalid="raise"), pytest.raises(FloatingPointError):
+        snip_baseline(y, iterations=10)
