@@ -13,9 +13,11 @@ import numpy as np
 
 # Modules the peaks command has no use for, each of which cost start-up time:
 # scipy (scipy.constants alone loads scipy's array-API layer), the engine and
-# reference data, the case store, X-ray physics, the map pipeline and the app.
+# reference data, the case store, X-ray physics, the map pipeline and the app;
+# numpy.ma is loaded by np.percentile and by polars' numpy constructors.
 _NOT_ON_THE_PEAKS_PATH = (
     "scipy",
+    "numpy.ma",
     "rapidfuzz",
     "workbench.matching",
     "workbench.refdata",

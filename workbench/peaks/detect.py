@@ -288,14 +288,16 @@ def find_peaks(
     # an SNR is "as large as a double can say", not infinity.
     with np.errstate(over="ignore"):
         snr = np.minimum(height_detect / sigma, np.finfo(np.float64).max)
+    # Columns go to polars as Python lists (the same doubles): polars' numpy path
+    # imports numpy.ma (about 6 ms of a command's start-up) to look for masks.
     table = pl.DataFrame(
         {
-            pos_col: centre,
-            "intensity": height,
-            fwhm_col: fwhm,
-            "area": area,
-            "snr": snr,
-            "saturated": saturated,
+            pos_col: pl.Series(pos_col, centre.tolist(), dtype=pl.Float64),
+            "intensity": pl.Series("intensity", height.tolist(), dtype=pl.Float64),
+            fwhm_col: pl.Series(fwhm_col, fwhm.tolist(), dtype=pl.Float64),
+            "area": pl.Series("area", area.tolist(), dtype=pl.Float64),
+            "snr": pl.Series("snr", snr.tolist(), dtype=pl.Float64),
+            "saturated": pl.Series("saturated", saturated.tolist(), dtype=pl.Boolean),
         }
     )
     return PeakList(table, axis, spectrum.medium, spectrum.source, prm.mode, extra)  # type: ignore[arg-type]
