@@ -65,19 +65,32 @@ def _guess_kind(parsed: Parsed, block: int | str | None) -> tuple[str, str]:
     except InputError:
         return "peak_list", "position column could not be read as evenly spaced numbers"
     d = np.diff(x)
-    d = d[np.isfinite(d)]
+    finite = np.isfinite(d)
+    if not finite.all():
+        d = d[finite]
     # Mostly monotonic and evenly stepped means a sampled spectrum; a few bad steps
     # (a duplicated or out-of-order row) must still reach the spectrum checks, which
     # name the row, instead of silently becoming a peak list.
     if d.size:
         up, down = np.count_nonzero(d > 0), np.count_nonzero(d < 0)
-        steps = np.abs(d[d > 0] if up >= down else d[d < 0])
-        if max(up, down) >= 0.95 * d.size and steps.size:
-            # The 5th and 95th percentiles lie between the extremes, so steps within
-            # a factor of 3 of each other settle it without np.percentile (whose
-            # np.unique imports numpy.ma, ~20 ms); the percentiles decide otherwise.
-            if steps.max() < 3.0 * steps.min():
+        if max(up, down) >= 0.95 * d.size and max(up, down) > 0:
+            # The steps are |d| of the majority direction. The 5th and 95th percentiles
+            # lie between their extremes, so steps within a factor of 3 of each other
+            # settle it without np.percentile (whose np.unique imports numpy.ma,
+            # ~20 ms); the percentiles decide otherwise. All steps one way (the usual
+            # case) give the extremes from d itself, without copies.
+            steps = None
+            if up == d.size:
+                smallest, largest = d.min(), d.max()
+            elif down == d.size:
+                smallest, largest = -d.max(), -d.min()
+            else:
+                steps = np.abs(d[d > 0] if up >= down else d[d < 0])
+                smallest, largest = steps.min(), steps.max()
+            if largest < 3.0 * smallest:
                 return "spectrum", f"{cols.n_rows} evenly spaced rows"
+            if steps is None:
+                steps = np.abs(d)
             lo, hi = np.percentile(steps, [5.0, 95.0])
             if hi <= 3.0 * lo:
                 return "spectrum", f"{cols.n_rows} evenly spaced rows"
