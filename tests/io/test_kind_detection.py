@@ -54,3 +54,27 @@ def test_kind_follows_the_documented_rule(label, x):
         f"{a!r},{b!r}" for a, b in zip(x.tolist(), y.tolist(), strict=True)
     )
     assert sniff(text)["kind"] == _plain_rule(x), label
+
+
+@pytest.mark.parametrize("n_points", [100, 80_000])
+def test_sha256_is_that_of_the_bytes_small_or_hashed_in_a_thread(tmp_path, n_points):
+    # Inputs of 1 MiB or more are hashed in a thread while parsed (issue 14);
+    # the recorded SHA-256 must be that of the file's bytes either way (FIPS 180-4
+    # via hashlib is the oracle).
+    import hashlib
+
+    from workbench.io import read_any
+    from workbench.io.tabular import _HASH_IN_THREAD_BYTES
+
+    x = np.linspace(400.0, 500.0, n_points)
+    y = np.random.default_rng(SEED).uniform(1.0, 100.0, n_points)
+    path = tmp_path / "s.csv"
+    path.write_text(
+        "wavelength (nm),intensity\n"
+        + "\n".join(f"{a:.6f},{b:.6f}" for a, b in zip(x.tolist(), y.tolist(), strict=True))
+    )
+    data = path.read_bytes()
+    assert (len(data) >= _HASH_IN_THREAD_BYTES) == (n_points > 1000)
+    result = read_any(path)
+    assert result.source.sha256 == hashlib.sha256(data).hexdigest()
+    assert result.source.size_bytes == len(data)
