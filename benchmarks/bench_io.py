@@ -55,12 +55,13 @@ _LAUNCHER = (
     "fa = [(os.POSIX_SPAWN_OPEN, 1, os.devnull, os.O_WRONLY, 0)]\n"
     "pid = os.posix_spawn(sys.argv[1], sys.argv[1:], os.environ, file_actions=fa)\n"
     "_, status, usage = os.wait4(pid, 0)\n"
-    "print(time.perf_counter() - t, usage.ru_maxrss, os.waitstatus_to_exitcode(status))\n"
+    "print(time.perf_counter() - t, usage.ru_maxrss, os.waitstatus_to_exitcode(status),\n"
+    "      usage.ru_utime + usage.ru_stime)\n"
 )
 
 
-def run_process(cmd: list[str], env: dict[str, str]) -> tuple[float, float, int]:
-    """Run one process; return (seconds, peak RSS in MB, exit code)."""
+def run_process(cmd: list[str], env: dict[str, str]) -> tuple[float, float, int, float]:
+    """Run one process; return (seconds, peak RSS in MB, exit code, CPU seconds)."""
     # cwd: a neutral folder, since "python -c" puts the working directory first on
     # sys.path, which would shadow PYTHONPATH (and so the baseline's code).
     r = subprocess.run(
@@ -70,10 +71,10 @@ def run_process(cmd: list[str], env: dict[str, str]) -> tuple[float, float, int]
         text=True,
         cwd=tempfile.gettempdir(),
     )
-    elapsed, maxrss_kb, code = r.stdout.split()
+    elapsed, maxrss_kb, code, cpu = r.stdout.split()
     if int(code) != 0:
         print(f"    (exit {code}: {r.stderr.strip()[-300:]})")
-    return float(elapsed), int(maxrss_kb) / 1024.0, int(code)
+    return float(elapsed), int(maxrss_kb) / 1024.0, int(code), float(cpu)
 
 
 def measure(label: str, cmd: list[str], env: dict[str, str], runs: int) -> float:
@@ -81,7 +82,7 @@ def measure(label: str, cmd: list[str], env: dict[str, str], runs: int) -> float
     run_process(cmd, env)  # writes the .pyc files and warms the page cache
     times, mems = [], []
     for _ in range(runs):
-        t, m, _ = run_process(cmd, env)
+        t, m, _, _ = run_process(cmd, env)
         times.append(t)
         mems.append(m)
     med = statistics.median(times)
@@ -96,16 +97,24 @@ def measure_alternating(
     for _, cmd, env in commands:
         run_process(cmd, env)  # warm-up: .pyc files and page cache
     times: list[list[float]] = [[] for _ in commands]
+    cpus: list[list[float]] = [[] for _ in commands]
     mems: list[float] = [0.0 for _ in commands]
     for _ in range(runs):
         for k, (_, cmd, env) in enumerate(commands):
-            t, m, _ = run_process(cmd, env)
+            t, m, _, c = run_process(cmd, env)
             times[k].append(t)
+            cpus[k].append(c)
             mems[k] = max(mems[k], m)
     out = []
-    for (label, _, _), ts, mem in zip(commands, times, mems, strict=True):
+    for (label, _, _), ts, cs, mem in zip(commands, times, cpus, mems, strict=True):
         med = statistics.median(ts)
-        print(f"  {label:<46} {med:7.3f} s  (min {min(ts):.3f})  peak RSS {mem:7.0f} MB")
+        # CPU time (user + system, all threads) suffers less from a busy machine than
+        # wall time; polars' parallel parse makes it exceed wall time when quiet.
+        cpu = statistics.median(cs)
+        print(
+            f"  {label:<46} {med:7.3f} s  (min {min(ts):.3f})  cpu {cpu:.3f} s  "
+            f"peak RSS {mem:5.0f} MB"
+        )
         out.append((med, ts, mem))
     return out
 
