@@ -78,3 +78,17 @@ def test_sha256_is_that_of_the_bytes_small_or_hashed_in_a_thread(tmp_path, n_poi
     result = read_any(path)
     assert result.source.sha256 == hashlib.sha256(data).hexdigest()
     assert result.source.size_bytes == len(data)
+
+
+@pytest.mark.parametrize(("label", "x"), list(_axes()))
+def test_kind_rule_with_many_step_blocks(monkeypatch, label, x):
+    # Long axes are first checked block by block; tiny blocks put every case
+    # (a repeated row, a swap, a wide gap) across block boundaries.
+    from workbench.io import readers
+
+    monkeypatch.setattr(readers, "_STEP_BLOCK", 7)
+    y = np.random.default_rng(SEED).uniform(1.0, 100.0, x.size)
+    text = "wavelength (nm),intensity\n" + "\n".join(
+        f"{a!r},{b!r}" for a, b in zip(x.tolist(), y.tolist(), strict=True)
+    )
+    assert sniff(text)["kind"] == _plain_rule(x), label

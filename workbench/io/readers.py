@@ -64,6 +64,8 @@ def _guess_kind(parsed: Parsed, block: int | str | None) -> tuple[str, str]:
         x, _, _ = cols.get(xi, "x", True)
     except InputError:
         return "peak_list", "position column could not be read as evenly spaced numbers"
+    if _steps_even_one_way(x):
+        return "spectrum", f"{cols.n_rows} evenly spaced rows"
     d = np.diff(x)
     finite = np.isfinite(d)
     if not finite.all():
@@ -95,6 +97,37 @@ def _guess_kind(parsed: Parsed, block: int | str | None) -> tuple[str, str]:
             if hi <= 3.0 * lo:
                 return "spectrum", f"{cols.n_rows} evenly spaced rows"
     return "peak_list", "positions are irregularly spaced"
+
+
+#: Positions per block in :func:`_steps_even_one_way` (a cache-sized slice).
+_STEP_BLOCK = 1 << 16
+
+
+def _steps_even_one_way(x: np.ndarray) -> bool:
+    """True when every step of ``x`` is finite, one way, and within 3× of the others.
+
+    Such an axis is a spectrum under the rule of :func:`_guess_kind` (the
+    percentiles of the steps lie between their extremes); it is recognised
+    block by block, without the differences of a whole long axis in memory.
+    False means "not settled here", and the full rule decides.
+    """
+    n = x.size
+    if n < 2:
+        return False
+    lo = hi = None
+    sign = 0
+    for a in range(0, n - 1, _STEP_BLOCK):
+        d = np.diff(x[a : a + _STEP_BLOCK + 1])
+        if not np.isfinite(d).all():
+            return False
+        if sign == 0:
+            sign = 1 if d[0] > 0 else -1
+        if not (np.all(d > 0) if sign > 0 else np.all(d < 0)):
+            return False
+        b_lo, b_hi = (d.min(), d.max()) if sign > 0 else (-d.max(), -d.min())
+        lo = b_lo if lo is None else min(lo, b_lo)
+        hi = b_hi if hi is None else max(hi, b_hi)
+    return bool(hi < 3.0 * lo)
 
 
 def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:

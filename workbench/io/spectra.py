@@ -102,12 +102,14 @@ def spectrum_from_xy(
     if check_units:
         check_unit_plausibility(x, u, f"{where} {x_label}")
     xc = to_canonical(x, u)
-    d = np.diff(xc)
-    if not np.all(d > 0):
-        if np.all(d < 0):
+    # xc holds no NaN, so b − a > 0 exactly when b > a (a difference of unequal
+    # doubles is never rounded to zero): compare neighbours without the differences.
+    if not np.all(xc[1:] > xc[:-1]):
+        if np.all(xc[1:] < xc[:-1]):
             xc, y = xc[::-1].copy(), y[::-1].copy()
             notes.append("axis was in descending order; reversed")
         else:
+            d = np.diff(xc)
             increasing = np.count_nonzero(d > 0) >= np.count_nonzero(d < 0)
             bad = (d <= 0) if increasing else (d >= 0)
             i = int(np.argmax(bad)) + 1

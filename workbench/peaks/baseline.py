@@ -297,7 +297,8 @@ def estimate_baseline(
     else:
         raise ValueRangeError(f"unknown baseline method {method!r}", "use 'snip', 'als' or none")
     s = noise_sigma(y) if sigma is None else sigma
-    return base + _noise_centre(y - base, s)
+    base += _noise_centre(y - base, s)  # base is a fresh array of ours
+    return base
 
 
 def _noise_centre(resid: np.ndarray, s: float) -> float:
@@ -306,6 +307,8 @@ def _noise_centre(resid: np.ndarray, s: float) -> float:
     Each round takes the median of the points with ``|resid − shift| <= 3σ``
     and makes it the new shift, so the window ends up centred on the noise,
     not on the clipped envelope; a fixed point ends the rounds early.
+    ``resid`` is the caller's scratch array: it is sorted in place (every step
+    below depends on its values, not their order).
     """
     from workbench.peaks.noise import median_overwrite
 
@@ -315,7 +318,8 @@ def _noise_centre(resid: np.ndarray, s: float) -> float:
     # One sort replaces a mask, a copy and a selection per round: the points with
     # |r − shift| <= t (computed as numpy computes it) are a contiguous run of the
     # sorted residuals, so each round's median is an element of that run.
-    ordered = np.sort(resid)  # NaN sorts last and is never inside a (finite) band
+    resid.sort()  # NaN sorts last and is never inside a (finite) band
+    ordered = resid
     shift = 0.0
     for _ in range(5):
         band = _band(shift, t)

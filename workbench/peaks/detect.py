@@ -274,12 +274,14 @@ def find_peaks(
     saturated = _saturation(y, idx, left_ips, right_ips, prm)
     if saturated.any():
         centre = _plateau_centres(y, x, idx, left_ips, right_ips, saturated, centre, prm)
-    # Cumulative trapezoid integral, built in one array (the same sums as
-    # concatenate(([0], cumsum(0.5 * (s[1:] + s[:-1]) * diff(x))))).
+    # Cumulative trapezoid integral (the same sums as
+    # concatenate(([0], cumsum(0.5 * (s[1:] + s[:-1]) * diff(x))))), built in the
+    # index grid's array, no longer needed: fresh arrays of a million values cost
+    # page faults as well as arithmetic.
     trap = s_measure[1:] + s_measure[:-1]
     trap *= 0.5
-    trap *= np.diff(x)
-    cum = np.empty(n)
+    trap *= np.subtract(x[1:], x[:-1], out=grid[:-1])  # diff(x)
+    cum = grid
     cum[0] = 0.0
     np.cumsum(trap, out=cum[1:])
     del trap
