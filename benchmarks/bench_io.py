@@ -260,6 +260,7 @@ def main() -> None:
         big = tmp / "spectrum_1M.csv"
         write_spectrum_csv(big, 1_000_000, 20261202)
         if opts.peaks_only:
+            os.sync()  # see below
             peaks_only(big, tmp, env_new, env_old, runs)
             return
         huge = tmp / "spectrum_2M.csv"
@@ -271,6 +272,9 @@ def main() -> None:
         from workbench.demo import demo_file
 
         libs.write_bytes(demo_file("paint_chip"))
+        # Write the generated inputs out now: otherwise the fsync with which
+        # `workbench ... --json OUT` writes its result waits for ~60 MB of them.
+        os.sync()
         print(
             f"inputs: 1M-point CSV {big.stat().st_size / 1e6:.1f} MB; 2M-point CSV "
             f"{huge.stat().st_size / 1e6:.1f} MB; 100k absorption CSV "
