@@ -3,7 +3,7 @@
 Prints figures, asserts nothing. Run::
 
     uv run --extra test python benchmarks/bench_io.py [--runs 5] [--quick]
-        [--base-commit 598942b]
+        [--peaks-only] [--base-commit 598942b]
 
 Every figure is the median of ``--runs`` whole processes (a fresh Python each
 time, so imports count), with its peak resident memory (``ru_maxrss`` of
@@ -19,6 +19,14 @@ Inputs (invented, generated here with a fixed seed, deleted afterwards): a
 1,000,000-point two-column CSV (~21 MB), a 2,000,000-point CSV for the app
 reader, a 100,000-point absorption spectrum with ~5,000 dips, and the demo
 LIBS spectrum (:func:`workbench.demo.demo_file`).
+
+Bytecode: the children write and read their ``.pyc`` files in a temporary
+``PYTHONPYCACHEPREFIX`` (``PYTHONDONTWRITEBYTECODE`` is dropped for them) and
+each command runs once unmeasured first, so every measured process loads
+compiled modules as an installed package does, instead of compiling the
+workbench's sources afresh each time (about 45 ms). ``--peaks-only`` runs
+section 1 alone, alternating the bare-polars and ``workbench peaks`` runs so
+that a change of machine load falls on both, and prints the load average.
 """
 
 from __future__ import annotations
@@ -47,12 +55,13 @@ _LAUNCHER = (
     "fa = [(os.POSIX_SPAWN_OPEN, 1, os.devnull, os.O_WRONLY, 0)]\n"
     "pid = os.posix_spawn(sys.argv[1], sys.argv[1:], os.environ, file_actions=fa)\n"
     "_, status, usage = os.wait4(pid, 0)\n"
-    "print(time.perf_counter() - t, usage.ru_maxrss, os.waitstatus_to_exitcode(status))\n"
+    "print(time.perf_counter() - t, usage.ru_maxrss, os.waitstatus_to_exitcode(status),\n"
+    "      usage.ru_utime + usage.ru_stime)\n"
 )
 
 
-def run_process(cmd: list[str], env: dict[str, str]) -> tuple[float, float, int]:
-    """Run one process; return (seconds, peak RSS in MB, exit code)."""
+def run_process(cmd: list[str], env: dict[str, str]) -> tuple[float, float, int, float]:
+    """Run one process; return (seconds, peak RSS in MB, exit code, CPU seconds)."""
     # cwd: a neutral folder, since "python -c" puts the working directory first on
     # sys.path, which would shadow PYTHONPATH (and so the baseline's code).
     r = subprocess.run(
@@ -62,22 +71,57 @@ def run_process(cmd: list[str], env: dict[str, str]) -> tuple[float, float, int]
         text=True,
         cwd=tempfile.gettempdir(),
     )
-    elapsed, maxrss_kb, code = r.stdout.split()
+    elapsed, maxrss_kb, code, cpu = r.stdout.split()
     if int(code) != 0:
         print(f"    (exit {code}: {r.stderr.strip()[-300:]})")
-    return float(elapsed), int(maxrss_kb) / 1024.0, int(code)
+    return float(elapsed), int(maxrss_kb) / 1024.0, int(code), float(cpu)
 
 
 def measure(label: str, cmd: list[str], env: dict[str, str], runs: int) -> float:
-    """Print and return the median wall time of ``runs`` processes."""
+    """Print and return the median wall time of ``runs`` processes (after one warm-up)."""
+    run_process(cmd, env)  # writes the .pyc files and warms the page cache
     times, mems = [], []
     for _ in range(runs):
-        t, m, _ = run_process(cmd, env)
+        t, m, _, _ = run_process(cmd, env)
         times.append(t)
         mems.append(m)
     med = statistics.median(times)
     print(f"  {label:<46} {med:7.2f} s  (min {min(times):.2f})  peak RSS {max(mems):7.0f} MB")
     return med
+
+
+def measure_alternating(
+    commands: list[tuple[str, list[str], dict[str, str]]], runs: int
+) -> list[tuple[float, list[float], float]]:
+    """Run the commands in turn ``runs`` times; per command (median, times, peak MB)."""
+    for _, cmd, env in commands:
+        run_process(cmd, env)  # warm-up: .pyc files and page cache
+    times: list[list[float]] = [[] for _ in commands]
+    cpus: list[list[float]] = [[] for _ in commands]
+    mems: list[float] = [0.0 for _ in commands]
+    for _ in range(runs):
+        for k, (_, cmd, env) in enumerate(commands):
+            t, m, _, c = run_process(cmd, env)
+            times[k].append(t)
+            cpus[k].append(c)
+            mems[k] = max(mems[k], m)
+    out = []
+    for (label, _, _), ts, cs, mem in zip(commands, times, cpus, mems, strict=True):
+        med = statistics.median(ts)
+        # CPU time (user + system, all threads) suffers less from a busy machine than
+        # wall time; polars' parallel parse makes it exceed wall time when quiet.
+        cpu = statistics.median(cs)
+        print(
+            f"  {label:<46} {med:7.3f} s  (min {min(ts):.3f})  cpu {cpu:.3f} s  "
+            f"peak RSS {mem:5.0f} MB"
+        )
+        out.append((med, ts, mem))
+    return out
+
+
+def load_average() -> str:
+    """The 1-minute load average (``os.getloadavg``), for the record."""
+    return f"{os.getloadavg()[0]:.2f}"
 
 
 # Phases of `workbench match` inside one process; the old encoder (commit 598942b's
@@ -161,6 +205,34 @@ def base_worktree(commit: str, where: Path) -> Path | None:
     return where
 
 
+def peaks_only(
+    big: Path, tmp: Path, env_new: dict[str, str], env_old: dict[str, str] | None, runs: int
+) -> None:
+    """Section 1 alone: bare polars, this branch and the base, in alternation."""
+    py = sys.executable
+    cli = [py, "-c", "from workbench.cli import main; raise SystemExit(main())"]
+    peaks = [*cli, "peaks", str(big), "--json", str(tmp / "p.json")]
+    bare = [py, "-c", f"import polars; polars.read_csv({str(big)!r}, comment_prefix='#')"]
+    commands = [
+        ("python -c 'polars.read_csv(F)' [polars]", bare, env_new),
+        ("workbench peaks F --json OUT [this branch]", peaks, env_new),
+    ]
+    if env_old is not None:
+        commands.append(("workbench peaks F --json OUT [base]", peaks, env_old))
+    print(
+        "\n1. workbench peaks on the 1,000,000-point CSV, runs alternating "
+        f"(load average {load_average()})"
+    )
+    res = measure_alternating(commands, runs)
+    (bare_med, bare_ts, _), (new_med, new_ts, _) = res[0], res[1]
+    paired = statistics.median(n / b for n, b in zip(new_ts, bare_ts, strict=True))
+    line = f"  ratio to bare polars: {new_med / bare_med:.2f}x (paired runs: median {paired:.2f}x)"
+    if len(res) > 2:
+        line += f"; base: {res[2][0] / bare_med:.2f}x"
+    print(line)
+    print(f"  load average at the end: {load_average()}")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--runs", type=int, default=5)
@@ -169,11 +241,17 @@ def main() -> None:
     ap.add_argument(
         "--base-runs", type=int, default=3, help="runs of the (slow) old code on large files"
     )
+    ap.add_argument("--peaks-only", action="store_true", help="section 1 alone, runs alternating")
     opts = ap.parse_args()
     runs, base_runs = opts.runs, (0 if opts.quick else opts.base_runs)
     py = sys.executable
-    env_new = os.environ | {"PYTHONPATH": str(REPO), "PYTHONWARNINGS": "ignore"}
     tmp = Path(tempfile.mkdtemp(prefix="bench_io_"))
+    env_new = {k: v for k, v in os.environ.items() if k != "PYTHONDONTWRITEBYTECODE"}
+    env_new |= {
+        "PYTHONPATH": str(REPO),
+        "PYTHONWARNINGS": "ignore",
+        "PYTHONPYCACHEPREFIX": str(tmp / "pycache"),
+    }
     base = base_worktree(opts.base_commit, tmp / "base")
     env_old = env_new | {"PYTHONPATH": str(base)} if base else None
     try:
@@ -181,6 +259,10 @@ def main() -> None:
         print(f"baseline code: {opts.base_commit if base else 'unavailable'}")
         big = tmp / "spectrum_1M.csv"
         write_spectrum_csv(big, 1_000_000, 20261202)
+        if opts.peaks_only:
+            os.sync()  # see below
+            peaks_only(big, tmp, env_new, env_old, runs)
+            return
         huge = tmp / "spectrum_2M.csv"
         write_spectrum_csv(huge, 2_000_000, 20261203)
         absorb = tmp / "absorption_100k.csv"
@@ -190,6 +272,9 @@ def main() -> None:
         from workbench.demo import demo_file
 
         libs.write_bytes(demo_file("paint_chip"))
+        # Write the generated inputs out now: otherwise the fsync with which
+        # `workbench ... --json OUT` writes its result waits for ~60 MB of them.
+        os.sync()
         print(
             f"inputs: 1M-point CSV {big.stat().st_size / 1e6:.1f} MB; 2M-point CSV "
             f"{huge.stat().st_size / 1e6:.1f} MB; 100k absorption CSV "

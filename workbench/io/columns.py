@@ -430,12 +430,13 @@ def check_unit_plausibility(values: np.ndarray, unit: str, where: str) -> None:
     if values.size == 0:
         return
     u = normalise_unit(unit)
-    lo, hi, med = float(values.min()), float(values.max()), float(np.median(values))
+    lo, hi = float(values.min()), float(values.max())
     guess = None
     # Ranges: optical emission/absorption work is 100–1100 nm; XRF is 1–150 keV
-    # (common practice, no source).
+    # (common practice, no source). The median (a copy and a selection of every
+    # value) is taken only when the range leaves the question open.
     if u == "nm":
-        if lo >= 1000.0 and hi <= 12000.0 and med > 2000.0:
+        if lo >= 1000.0 and hi <= 12000.0 and float(np.median(values)) > 2000.0:
             guess = "angstrom"
         elif hi <= 2.5:
             guess = "um"

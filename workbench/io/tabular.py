@@ -12,6 +12,8 @@ for messages, whatever the format.
 
 from __future__ import annotations
 
+import dataclasses
+import hashlib
 import io
 import os
 from collections.abc import Callable
@@ -32,7 +34,7 @@ from workbench.io.fastcsv import (
     read_fast,
 )
 from workbench.io.jcamp import JcampBlock, looks_like_jcamp, parse_jcamp
-from workbench.io.source import RawInput, decode_text, load_source
+from workbench.io.source import BackgroundSha256, RawInput, decode_text, read_source
 
 __all__ = [
     "Columns",
@@ -242,7 +244,22 @@ def parse_source(
     InputError
         One of its subclasses, naming the row or column and the fix.
     """
-    raw = load_source(source, name=name, max_bytes=max_bytes)
+    label, data = read_source(source, name=name, max_bytes=max_bytes)
+    if len(data) < _HASH_IN_THREAD_BYTES:
+        raw = RawInput(label, data, hashlib.sha256(data).hexdigest())
+        return _parse_raw(raw, progress)
+    # A large input is hashed in a thread while it is parsed; the parse sees a
+    # record without the hash, replaced by the complete one before returning.
+    hasher = BackgroundSha256(data)
+    parsed = _parse_raw(RawInput(label, data, ""), progress)
+    return dataclasses.replace(parsed, raw=RawInput(label, data, hasher.hexdigest()))
+
+
+#: Inputs at least this large are hashed in a thread while they are parsed.
+_HASH_IN_THREAD_BYTES = 1 << 20
+
+
+def _parse_raw(raw: RawInput, progress: Progress | None) -> Parsed:
     report_progress(progress, 0.1, f"read {raw.size_bytes:,} bytes")
     if raw.data[:4] == b"PAR1":
         parsed = Parsed(raw, "parquet", cols=columns_from_parquet(raw.data, raw.name))

@@ -27,7 +27,13 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["half_height_crossings", "local_maxima", "peak_prominences", "select_peaks"]
+__all__ = [
+    "half_height_crossings",
+    "local_maxima",
+    "local_maxima_at_least",
+    "peak_prominences",
+    "select_peaks",
+]
 
 _CHUNK_CELLS = 2_000_000  # samples per walk matrix (16 MB of float64)
 
@@ -61,6 +67,48 @@ def local_maxima(x: np.ndarray) -> np.ndarray:
     inner = (v[1:-1] > v[:-2]) & (v[1:-1] > v[2:])
     k = np.flatnonzero(inner) + 1
     return ((starts[k] + ends[k]) // 2).astype(np.int64)
+
+
+def local_maxima_at_least(x: np.ndarray, height: float) -> np.ndarray:
+    """``local_maxima(x)`` restricted to the maxima with ``x >= height``, found faster.
+
+    A run of equal samples at or above ``height`` consists of samples at or
+    above it, so the runs that can be such maxima are found among those
+    samples alone (a few thousand of a million on a line spectrum) instead
+    of run-length encoding the whole signal. Same result as
+    ``p = local_maxima(x); p[x[p] >= height]``.
+
+    Parameters
+    ----------
+    x : numpy.ndarray
+        Finite 1-D signal.
+    height : float
+        Minimum height.
+
+    Returns
+    -------
+    numpy.ndarray
+        Increasing int64 indices.
+    """
+    x = np.asarray(x, dtype=np.float64)
+    n = x.size
+    if n < 3:
+        return np.empty(0, dtype=np.int64)
+    c = np.flatnonzero(x >= height)
+    if c.size == 0:
+        return np.empty(0, dtype=np.int64)
+    xc = x[c]
+    # Runs of equal samples among the candidates: consecutive indices, same value.
+    brk = np.flatnonzero((np.diff(c) != 1) | (xc[1:] != xc[:-1])) + 1
+    first = np.concatenate(([0], brk))
+    last = np.concatenate((brk - 1, [c.size - 1]))
+    starts, ends, v = c[first], c[last], xc[first]
+    # A run is a peak when both neighbouring samples (the neighbouring runs' values)
+    # are lower; runs touching an end of the signal never are.
+    inner = (starts > 0) & (ends < n - 1)
+    starts, ends, v = starts[inner], ends[inner], v[inner]
+    peak = (x[starts - 1] < v) & (x[ends + 1] < v)
+    return ((starts[peak] + ends[peak]) // 2).astype(np.int64)
 
 
 def _walk(
@@ -141,8 +189,7 @@ def select_peaks(x: np.ndarray, height: float, prominence: float, wlen: int) -> 
     dict
         ``peaks`` (indices) and ``prominences``, ``left_bases``, ``right_bases``.
     """
-    peaks = local_maxima(x)
-    peaks = peaks[x[peaks] >= height]
+    peaks = local_maxima_at_least(x, height)
     prom, lb, rb = peak_prominences(x, peaks, wlen)
     keep = prom >= prominence
     return {

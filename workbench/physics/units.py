@@ -3,6 +3,10 @@
 All constants are CODATA values from :mod:`scipy.constants`. Photon energy
 depends on the *vacuum* wavelength (E = h·c/λ_vac); functions that accept an
 air wavelength convert it with :mod:`workbench.physics.airvac` first.
+
+:mod:`scipy.constants` is imported where a constant is first used, not when
+this module is: importing it loads scipy's array-API layer (about 0.1 s),
+while the readers import this module only for its unit names.
 """
 
 from __future__ import annotations
@@ -11,7 +15,6 @@ from typing import Literal
 
 import numpy as np
 from numpy.typing import ArrayLike
-from scipy import constants as sc
 
 from workbench.errors import UnitError, ValueRangeError
 
@@ -37,8 +40,32 @@ __all__ = [
     "wavenumber_per_cm_to_wavelength_vac_nm",
 ]
 
-#: h·c/e in eV·nm (≈ 1239.842 eV·nm), from CODATA via scipy.constants.
-HC_EV_NM: float = sc.h * sc.c / sc.e * 1e9
+#: h·c/e in eV·nm (≈ 1239.842 eV·nm), from CODATA via scipy.constants. Declared
+#: here, computed by ``__getattr__`` below on first access.
+HC_EV_NM: float
+
+
+def _codata():
+    """The :mod:`scipy.constants` module (CODATA), imported on first use."""
+    from scipy import constants
+
+    return constants
+
+
+def _hc_ev_nm() -> float:
+    sc = _codata()
+    return sc.h * sc.c / sc.e * 1e9
+
+
+def __getattr__(name: str) -> float:
+    # HC_EV_NM is computed on first access so that importing this module does not
+    # import scipy.
+    if name == "HC_EV_NM":
+        value = _hc_ev_nm()
+        globals()[name] = value  # later look-ups find it without this function
+        return value
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
 
 #: Factor from wavelength unit to nanometres.
 WAVELENGTH_UNITS: dict[str, float] = {"nm": 1.0, "angstrom": 0.1, "um": 1e3, "pm": 1e-3}
@@ -161,12 +188,12 @@ def energy_to_eV(values: ArrayLike, unit: str) -> np.ndarray:
 
 def wavelength_vac_nm_to_energy_eV(wavelength_vac_nm: ArrayLike) -> np.ndarray:
     """Photon energy E = h·c/λ for vacuum wavelengths in nm."""
-    return HC_EV_NM / _positive(wavelength_vac_nm, "wavelength")
+    return _hc_ev_nm() / _positive(wavelength_vac_nm, "wavelength")
 
 
 def energy_eV_to_wavelength_vac_nm(energy_eV: ArrayLike) -> np.ndarray:
     """Vacuum wavelength λ = h·c/E in nm for photon energies in eV."""
-    return HC_EV_NM / _positive(energy_eV, "energy")
+    return _hc_ev_nm() / _positive(energy_eV, "energy")
 
 
 def wavelength_nm_to_energy_eV(
@@ -211,35 +238,42 @@ def wavenumber_per_cm_to_energy_eV(wavenumber_per_cm: ArrayLike) -> np.ndarray:
     arr = np.asarray(wavenumber_per_cm, dtype=np.float64)
     if not np.all(np.isfinite(arr)):
         raise ValueRangeError("wavenumber contains NaN or infinite values", "remove them")
+    sc = _codata()
     return arr * 100.0 * sc.h * sc.c / sc.e
 
 
 def energy_eV_to_wavenumber_per_cm(energy_eV: ArrayLike) -> np.ndarray:
     """Energy in cm⁻¹ from eV (inverse of :func:`wavenumber_per_cm_to_energy_eV`)."""
     arr = np.asarray(energy_eV, dtype=np.float64)
+    sc = _codata()
     return arr * sc.e / (100.0 * sc.h * sc.c)
 
 
 def wavelength_vac_nm_to_frequency_Hz(wavelength_vac_nm: ArrayLike) -> np.ndarray:
     """Frequency f = c/λ_vac in Hz."""
+    sc = _codata()
     return sc.c / (_positive(wavelength_vac_nm, "wavelength") * 1e-9)
 
 
 def frequency_Hz_to_wavelength_vac_nm(frequency_Hz: ArrayLike) -> np.ndarray:
     """Vacuum wavelength in nm from a frequency in Hz."""
+    sc = _codata()
     return sc.c / _positive(frequency_Hz, "frequency") * 1e9
 
 
 def energy_eV_to_frequency_Hz(energy_eV: ArrayLike) -> np.ndarray:
     """Frequency f = E/h in Hz for an energy in eV."""
+    sc = _codata()
     return _positive(energy_eV, "energy") * sc.e / sc.h
 
 
 def energy_eV_to_J(energy_eV: ArrayLike) -> np.ndarray:
     """Energy in joules from electronvolts."""
+    sc = _codata()
     return np.asarray(energy_eV, dtype=np.float64) * sc.e
 
 
 def energy_J_to_eV(energy_J: ArrayLike) -> np.ndarray:
     """Energy in electronvolts from joules."""
+    sc = _codata()
     return np.asarray(energy_J, dtype=np.float64) / sc.e
