@@ -127,7 +127,9 @@ def test_round_trip_keeps_decisions_review_and_verifies_in_the_other_store(sourc
     issued = source["issued"]
     files = (issued.pdf_bytes, issued.json_bytes, issued.signature_record)
     with CaseStore.open(dst) as d:
-        assert import_bundle(source["bundle"], d).status == "imported"
+        result = import_bundle(source["bundle"], d)
+        assert result.status == "imported"
+        assert (result.counts["decisions"], result.counts["reviews"]) == (4, 2)
         (analysis,) = d.list_analyses(CASE)
         (sheet,) = d.list_findings_sheets(CASE)
         assert analysis.id != issued.content["analysis"]["id"]  # ids differ in this store
@@ -170,7 +172,7 @@ def test_round_trip_through_the_cli(source, tmp_path, capsys):
     assert out.read_bytes() == source["bundle"].read_bytes()
     dst = str(_other_lab(tmp_path / "dst"))
     assert main(["bundle", "import", str(out), "--store", dst]) == 0
-    assert "imported" in capsys.readouterr().out
+    assert f"case {CASE}: imported (4 decisions, 2 reviews)" in capsys.readouterr().out
     pdf = str(source["pdf"])  # no review files beside it: the review on record is used
     assert not Path(pdf[:-4] + ".review.sig.json").exists()
     assert main(["findings", "verify", pdf, "--store", dst]) == 4  # keys not yet trusted
@@ -330,6 +332,7 @@ def test_tampered_decisions_and_reviews_refused_naming_the_record(source, tmp_pa
         ("reviews", lambda r: r[0].update(comments=""), "comments is empty"),
         ("reviews", lambda r: r[1].update(outcome="returned"), "carries no signature"),
         ("reviews", lambda r: r[0].update(reviewer=ZOE), "not the name registered"),
+        ("reviews", lambda r: r.insert(0, dict(r[0])), "appears twice"),
     ],
 )
 def test_fields_checked_as_on_direct_entry(source, tmp_path, record, edit, words):

@@ -229,6 +229,7 @@ def import_bundle(
         raise bad_bundle(path, "records/", f"verification failed: {b.describe()}")
     for entry, problem in decision_review_problems(data, files.get)[:1]:
         raise bad_bundle(path, entry, f"verification failed: {problem}")
+    counts = {**counts, "decisions": len(data.decisions), "reviews": len(data.reviews)}
     case_number = data.case["case_number"]
     exists = store.connection.execute(
         "SELECT 1 FROM cases WHERE case_number=?", (case_number,)

@@ -124,7 +124,9 @@ def check_decision_fields(data: BundleData) -> None:
     for d in data.decisions:
         where = decision_name(data, d)
         if not _is_hex(d.get("analysis_hash")) or d["analysis_hash"] not in analyses:
-            raise InputError(f"{where} is about an analysis the bundle does not carry", "")
+            raise InputError(
+                f"{where} is about an analysis the bundle does not carry", "export the case again"
+            )
         if not _is_int(d.get("seq")):
             raise InputError(f"{where} seq must be an integer", "export it again")
         if d.get("action") not in DECISION_ACTIONS:
@@ -135,44 +137,66 @@ def check_decision_fields(data: BundleData) -> None:
         if not isinstance(lines, list) or not all(isinstance(x, dict) for x in lines):
             raise InputError(f"{where} lines must be a list of objects", "export it again")
         if not _json_finite(lines):
-            raise InputError(f"{where} lines hold a value that is not finite JSON", "")
+            raise InputError(
+                f"{where} lines hold a value that is not finite JSON", "export the case again"
+            )
         if d.get("reverses") is not None and not _is_int(d["reverses"]):
-            raise InputError(f"{where} reverses must be a decision number", "")
+            raise InputError(f"{where} reverses must be a decision number", "export the case again")
         _time(d, "decided_at", where)
         for k in ("prev_hash", "record_hash"):
             if not _is_hex(d.get(k)):
                 raise InputError(f"{where} {k} is not a SHA-256 hex digest", "export it again")
     sheets = {f["record_hash"]: f for f in data.findings}
     approved: set[str] = set()
+    seen: set[Any] = set()
     for r in data.reviews:
         where = review_name(data, r)
+        if not isinstance(r.get("record_hash"), str) or r["record_hash"] in seen:
+            raise InputError(f"{where} appears twice", "export the case again")
+        seen.add(r["record_hash"])
         sheet = sheets.get(r.get("sheet_hash"))  # type: ignore[arg-type]
         if not _is_hex(r.get("sheet_hash")) or sheet is None:
-            raise InputError(f"{where} is of a findings sheet the bundle does not carry", "")
+            raise InputError(
+                f"{where} is of a findings sheet the bundle does not carry", "export the case again"
+            )
         fp = r.get("reviewer_fingerprint")
         reviewer = data.analysts.get(fp) if isinstance(fp, str) else None
         if reviewer is None:
-            raise InputError(f"{where}: the reviewer's key {fp!r} is not carried", "")
+            raise InputError(
+                f"{where}: the reviewer's key {fp!r} is not carried", "export the case again"
+            )
         _text(r, "reviewer", where)
         if r["reviewer"] != reviewer.get("name"):
-            raise InputError(f"{where}: reviewer is not the name registered to {fp}", "")
+            raise InputError(
+                f"{where}: reviewer is not the name registered to {fp}", "export the case again"
+            )
         if fp == sheet.get("analyst_fingerprint") or r["reviewer"] == sheet.get("analyst"):
-            raise InputError(f"{where}: the analyst cannot review their own analysis", "")
+            raise InputError(
+                f"{where}: the analyst cannot review their own analysis", "export the case again"
+            )
         if r.get("outcome") not in ("approved", "returned"):
             raise InputError(f"{where} outcome {r.get('outcome')!r}", "use approved or returned")
         _text(r, "comments", where, required=r["outcome"] == "returned")
         digests = (r.get("signature_sha256"), r.get("record_sha256"))
         if r["outcome"] == "approved" and not all(_is_hex(x) for x in digests):
-            raise InputError(f"{where}: an approval without its signature files", "")
+            raise InputError(
+                f"{where}: an approval without its signature files", "export the case again"
+            )
         if r["outcome"] == "returned" and digests != (None, None):
-            raise InputError(f"{where}: a returned sheet carries no signature", "")
+            raise InputError(
+                f"{where}: a returned sheet carries no signature", "export the case again"
+            )
         if r["sheet_hash"] in approved:
-            raise InputError(f"{where}: the sheet had already been approved", "")
+            raise InputError(
+                f"{where}: the sheet had already been approved", "export the case again"
+            )
         if r["outcome"] == "approved":
             approved.add(r["sheet_hash"])
         _time(r, "reviewed_at", where)
         if not _is_hex(r.get("record_hash")):
-            raise InputError(f"{where} record_hash is not a SHA-256 hex digest", "")
+            raise InputError(
+                f"{where} record_hash is not a SHA-256 hex digest", "export the case again"
+            )
 
 
 def _named_reviewer(json_bytes: bytes) -> str | None:
