@@ -428,3 +428,25 @@ def test_export_refuses_a_store_whose_decisions_are_broken(source, tmp_path):
     with CaseStore.open(src) as s, pytest.raises(StoreIntegrityError, match=r"decision #?2"):
         export_bundle(s, CASE, tmp_path / "out.zip")
     assert not (tmp_path / "out.zip").exists()
+
+
+@pytest.mark.parametrize(
+    ("record", "edit"),
+    [
+        ("reviews", lambda r: r[0].update(sheet_hash=["a"])),
+        ("reviews", lambda r: r[0].update(reviewer_fingerprint={"x": 1})),
+        ("reviews", lambda r: r[0].update(record_hash=[1])),
+        ("decisions", lambda r: r[0].update(analysis_hash={"x": 1}, seq=[1])),
+        ("decisions", lambda r: r[0].update(lines=[[1]])),
+        ("decisions", lambda r: r[0].clear()),
+    ],
+)
+def test_hostile_shapes_are_a_bundle_error_not_a_traceback(source, tmp_path, record, edit):
+    e = _entries(source["bundle"])
+    data = json.loads(e[f"records/{record}.json"])
+    edit(data)
+    e[f"records/{record}.json"] = json.dumps(data).encode()
+    bad = _write(tmp_path / "bad.zip", e)
+    with CaseStore.open(tmp_path / "dst") as d, pytest.raises(BundleError) as err:
+        import_bundle(bad, d)
+    assert "nothing was imported" in str(err.value)

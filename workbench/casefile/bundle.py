@@ -217,6 +217,8 @@ def import_bundle(
     except InputError as exc:
         entry = REVIEWS_ENTRY if exc.problem.startswith("review") else DECISIONS_ENTRY
         raise bad_bundle(path, entry, f"a field is not valid: {exc.problem}") from exc
+    except (KeyError, TypeError, ValueError, AttributeError) as exc:
+        raise bad_bundle(path, "records/", f"records malformed ({exc!r})") from exc
     referenced = file_hashes(records)
     for sha in sorted(set(files) - referenced):
         raise bad_bundle(path, f"files/{sha}", "file not referenced by any record")
@@ -227,7 +229,11 @@ def import_bundle(
     if breaks:
         b = breaks[0]
         raise bad_bundle(path, "records/", f"verification failed: {b.describe()}")
-    for entry, problem in decision_review_problems(data, files.get)[:1]:
+    try:
+        problems = decision_review_problems(data, files.get)
+    except (KeyError, TypeError, ValueError, AttributeError) as exc:
+        raise bad_bundle(path, "records/", f"records malformed ({exc!r})") from exc
+    for entry, problem in problems[:1]:
         raise bad_bundle(path, entry, f"verification failed: {problem}")
     counts = {**counts, "decisions": len(data.decisions), "reviews": len(data.reviews)}
     case_number = data.case["case_number"]

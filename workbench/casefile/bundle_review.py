@@ -154,8 +154,8 @@ def check_decision_fields(data: BundleData) -> None:
         if not isinstance(r.get("record_hash"), str) or r["record_hash"] in seen:
             raise InputError(f"{where} appears twice", "export the case again")
         seen.add(r["record_hash"])
-        sheet = sheets.get(r.get("sheet_hash"))  # type: ignore[arg-type]
-        if not _is_hex(r.get("sheet_hash")) or sheet is None:
+        sheet = sheets.get(r["sheet_hash"]) if _is_hex(r.get("sheet_hash")) else None
+        if sheet is None:
             raise InputError(
                 f"{where} is of a findings sheet the bundle does not carry", "export the case again"
             )
