@@ -168,7 +168,10 @@ def test_trust_and_list_show_provenance(env, capsys, tmp_path):
     assert main(["keys", "list"]) == 0
     assert "provenance: imported, untrusted" in capsys.readouterr().out
     assert main(["keys", "list", "--json"]) == 0
-    (a,) = json.loads(capsys.readouterr().out)
+    # the bundle carries the signer's key and (format 3) the returned review's reviewer's
+    listed = json.loads(capsys.readouterr().out)
+    assert len(listed) == 2 and all(not k["trusted"] for k in listed)
+    (a,) = [k for k in listed if k["fingerprint"] == sheet.analyst_fingerprint]
     rc = main(["keys", "trust", a["fingerprint"], "--by", "Ines Calder", "--reason", "by phone"])
     assert rc == 0
     assert "trusted by Ines Calder" in capsys.readouterr().out
@@ -177,5 +180,6 @@ def test_trust_and_list_show_provenance(env, capsys, tmp_path):
     # trusting twice is refused (exit 5, a store rule)
     assert main(["keys", "trust", a["fingerprint"], "--by", "X", "--reason", "y"]) == 5
     assert main(["keys", "log", "--json"]) == 0
-    assert [e["kind"] for e in json.loads(capsys.readouterr().out)] == ["imported", "trusted"]
+    kinds = [e["kind"] for e in json.loads(capsys.readouterr().out)]
+    assert kinds == ["imported", "imported", "trusted"]  # signer and reviewer, then the act
     assert main(["custody", "verify"]) == 0

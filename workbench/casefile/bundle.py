@@ -17,8 +17,25 @@ beside the store and moved into place only after the commit (a refusal
 removes them): all or nothing in both the database and ``files/``.
 
 Keys carried by a bundle (``records/analysts.json``: name, role, public key,
-fingerprint) arrive *imported* and untrusted; only a recorded act of a local
-administrator (``workbench keys trust``) makes them count in this store.
+fingerprint; the signers' and the reviewers') arrive *imported* and untrusted;
+only a recorded act of a local administrator (``workbench keys trust``) makes
+them count in this store.
+
+Format 3 also carries the analyst's decisions (``records/decisions.json``) and
+the technical reviews (``records/reviews.json``, the reviewers' signature
+files under ``files/``), so that a sheet moved to another lab keeps its
+countersignature and the decisions ``findings verify --store`` checks against
+(:mod:`~workbench.casefile.bundle_review`). On import they are held to the
+rules of direct entry, every decision chain is re-walked with the store's own
+code, every review is re-hashed and found in its ``reviewed`` custody event,
+the decisions printed on each signed sheet must be the ones carried, and each
+approval's signature files must verify against the reviewer's key in the
+bundle; a refusal names the record (``decision 2 on analysis 1a2b…``,
+``review by <name> of findings sheet 9f8e…``). Export runs the same checks
+and refuses a store whose decisions or reviews are broken. A version-2
+bundle (no decisions, no reviews) is still imported as before; a case that came
+in one with a ``reviewed`` custody event (its review left behind) and holds no
+decisions or reviews is exported as version 2 again, byte for byte as it came.
 """
 
 from __future__ import annotations
@@ -32,8 +49,11 @@ from typing import Any
 
 from workbench.casefile.bundle_format import (
     BUNDLE_FORMAT,
+    FORMAT_VERSION,
+    BundleData,
     bundle_entries,
     file_hashes,
+    load_bundle_data,
     records_of,
     zip_bytes,
 )
@@ -48,11 +68,17 @@ from workbench.casefile.bundle_read import (
     parse_entries,
     read_entries,
 )
+from workbench.casefile.bundle_review import (
+    DECISIONS_ENTRY,
+    REVIEWS_ENTRY,
+    check_decision_fields,
+    decision_review_problems,
+    insert_decisions_and_reviews,
+)
 from workbench.casefile.casecheck import check_case_data
-from workbench.casefile.casedata import CaseData, load_case_data
 from workbench.casefile.hashing import canonical_json, utc_now
 from workbench.casefile.validate import check_records
-from workbench.errors import CaseFileError, InputError
+from workbench.errors import CaseFileError, InputError, WorkbenchError
 
 __all__ = [
     "BUNDLE_FORMAT",
@@ -115,8 +141,19 @@ def export_bundle(store: Any, case_number: str, out_path: Path | str) -> Path:
             f"case {case_number} fails verification: {report.first_break.describe()}",
             "run 'workbench custody verify' and restore the store before exporting",
         )
-    data = load_case_data(store, store.get_case(case_number).case_number)
-    entries = bundle_entries(data, store.file_bytes)
+    data = load_bundle_data(store, store.get_case(case_number).case_number)
+    problems = decision_review_problems(data, _stored_file(store))
+    version = FORMAT_VERSION
+    if problems and _came_in_format_2(data, problems):
+        # Its reviews were left behind by the format-2 bundle it came in: pass it on as
+        # it came (format 2, the same bytes), never as a format-3 bundle missing reviews.
+        version = 2
+    elif problems:
+        raise StoreIntegrityError(
+            f"case {case_number}: {problems[0][1]}",
+            "restore the store from backup before exporting",
+        )
+    entries = bundle_entries(data, store.file_bytes, version)
     payload = zip_bytes(entries)
     out.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=".tmp-", suffix=".zip", dir=out.parent)
@@ -175,6 +212,13 @@ def import_bundle(
     except InputError as exc:
         raise bad_bundle(path, "records/", f"a field is not valid: {exc.problem}") from exc
     check_bundle_analysts(path, data)
+    try:
+        check_decision_fields(data)
+    except InputError as exc:
+        entry = REVIEWS_ENTRY if exc.problem.startswith("review") else DECISIONS_ENTRY
+        raise bad_bundle(path, entry, f"a field is not valid: {exc.problem}") from exc
+    except (KeyError, TypeError, ValueError, AttributeError) as exc:
+        raise bad_bundle(path, "records/", f"records malformed ({exc!r})") from exc
     referenced = file_hashes(records)
     for sha in sorted(set(files) - referenced):
         raise bad_bundle(path, f"files/{sha}", "file not referenced by any record")
@@ -185,13 +229,21 @@ def import_bundle(
     if breaks:
         b = breaks[0]
         raise bad_bundle(path, "records/", f"verification failed: {b.describe()}")
+    try:
+        problems = decision_review_problems(data, files.get)
+    except (KeyError, TypeError, ValueError, AttributeError) as exc:
+        raise bad_bundle(path, "records/", f"records malformed ({exc!r})") from exc
+    for entry, problem in problems[:1]:
+        raise bad_bundle(path, entry, f"verification failed: {problem}")
+    counts = {**counts, "decisions": len(data.decisions), "reviews": len(data.reviews)}
     case_number = data.case["case_number"]
     exists = store.connection.execute(
         "SELECT 1 FROM cases WHERE case_number=?", (case_number,)
     ).fetchone()
     if exists:
-        mine = records_of(load_case_data(store, case_number))
-        if canonical_json(mine) == canonical_json(records_of(data)):
+        version = data.format_version
+        mine = records_of(load_bundle_data(store, case_number), version)
+        if canonical_json(mine) == canonical_json(records_of(data, version)):
             return ImportResult(case_number, "already present", counts)
         raise CaseFileError(
             f"case {case_number} already exists in {store.root} and differs from the bundle",
@@ -217,7 +269,29 @@ def import_bundle(
     return ImportResult(case_number, "imported", counts)
 
 
-def _insert(conn: Any, data: CaseData, source: str) -> None:
+def _came_in_format_2(data: BundleData, problems: list[tuple[str, str]]) -> bool:
+    """Whether the only problem is 'reviewed' events whose reviews a format-2 import left out.
+
+    Such a case holds no decision or review at all: anything recorded since would
+    be lost in format 2, so it is refused instead.
+    """
+    dangling = all(entry == "records/events.json" for entry, _ in problems)
+    return dangling and not data.decisions and not data.reviews
+
+
+def _stored_file(store: Any) -> Any:
+    """``sha256 -> bytes or None`` over the store's files (None when missing)."""
+
+    def get(sha: str) -> bytes | None:
+        try:
+            return bytes(store.file_bytes(sha))
+        except WorkbenchError:
+            return None
+
+    return get
+
+
+def _insert(conn: Any, data: BundleData, source: str) -> None:
     from workbench.casefile import ledger
     from workbench.casefile.analysts import insert_imported_analyst
 
@@ -333,6 +407,7 @@ def _insert(conn: Any, data: CaseData, source: str) -> None:
         if conn.execute("SELECT 1 FROM analysts WHERE fingerprint=?", (fp,)).fetchone():
             continue  # already known here: its local provenance and trust stay as they are
         insert_imported_analyst(conn, {**a, "fingerprint": fp}, source, now)
+    sheet_ids: dict[str, int] = {}
     for f in data.findings:
         cur = conn.execute(
             "INSERT INTO findings_sheets (analysis_id, analyst_fingerprint, analyst, pdf_sha256, "
@@ -351,4 +426,6 @@ def _insert(conn: Any, data: CaseData, source: str) -> None:
                 f["record_hash"],
             ),
         )
+        sheet_ids[f["record_hash"]] = cur.lastrowid
         led("findings_sheets", cur.lastrowid)
+    insert_decisions_and_reviews(conn, data, analysis_ids, sheet_ids, led)

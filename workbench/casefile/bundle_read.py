@@ -5,8 +5,9 @@ names and zip bombs (declared sizes, each entry's compression ratio) before
 anything is unpacked, and never reads more than a header declares;
 :func:`parse_entries` checks the manifest, its hash, completeness both ways
 and every entry's hash; :func:`case_data_from_records` turns the records into
-:class:`~workbench.casefile.casedata.CaseData` for the same checks as ``custody
-verify``; :func:`check_bundle_analysts` checks each carried key against its
+:class:`~workbench.casefile.bundle_format.BundleData` for the same checks as
+``custody verify``; both bundle format versions 2 and 3 are read (2 carries no
+decisions or reviews); :func:`check_bundle_analysts` checks each carried key against its
 fingerprint. Every refusal is a :class:`~workbench.errors.BundleError` naming
 the entry (:func:`bad_bundle`).
 """
@@ -21,8 +22,13 @@ import zlib
 from pathlib import Path
 from typing import Any
 
-from workbench.casefile.bundle_format import BUNDLE_FORMAT, FORMAT_VERSION, NAME_OK, RECORDS
-from workbench.casefile.casedata import CaseData
+from workbench.casefile.bundle_format import (
+    BUNDLE_FORMAT,
+    NAME_OK,
+    READABLE_VERSIONS,
+    BundleData,
+    records_in,
+)
 from workbench.casefile.hashing import sha256_hex
 from workbench.errors import BundleError
 
@@ -157,9 +163,10 @@ def parse_entries(path: Path, entries: dict[str, bytes]) -> tuple[dict[str, Any]
         listed = {e["name"]: e for e in manifest["entries"]}
         if manifest["format"] != BUNDLE_FORMAT:
             raise ValueError(f"format {manifest['format']!r}")
-        if manifest["format_version"] != FORMAT_VERSION:
+        version = manifest["format_version"]
+        if isinstance(version, bool) or version not in READABLE_VERSIONS:
             raise ValueError(
-                f"format version {manifest['format_version']!r} is not {FORMAT_VERSION} (a "
+                f"format version {version!r} is not one of {READABLE_VERSIONS} (a "
                 "version-1 bundle carries no status log; export it again with this version)"
             )
     except (ValueError, KeyError, TypeError, UnicodeDecodeError, RecursionError) as exc:
@@ -182,8 +189,12 @@ def parse_entries(path: Path, entries: dict[str, bytes]) -> tuple[dict[str, Any]
             raise bad_bundle(path, name, "size differs from the manifest")
         if name.startswith("files/") and sha256_hex(data) != name[6:]:
             raise bad_bundle(path, name, "file content does not match its name")
-    records: dict[str, Any] = {}
-    for r in RECORDS:
+    records: dict[str, Any] = {"format_version": version}
+    wanted = records_in(version)
+    for name in sorted(n for n in listed if n.startswith("records/")):
+        if name[len("records/") : -len(".json")] not in wanted:
+            raise bad_bundle(path, name, f"not part of bundle format version {version}")
+    for r in wanted:
         name = f"records/{r}.json"
         if name not in entries:
             raise bad_bundle(path, name, "missing")
@@ -206,8 +217,8 @@ def parse_entries(path: Path, entries: dict[str, bytes]) -> tuple[dict[str, Any]
 
 def case_data_from_records(
     path: Path, records: dict[str, Any], files: dict[str, bytes]
-) -> CaseData:
-    """Return a bundle's records as :class:`CaseData` (structure checked, nothing verified yet)."""
+) -> BundleData:
+    """Return a bundle's records as :class:`BundleData` (structure checked, nothing verified)."""
     try:
         events: dict[str, list[dict[str, Any]]] = {i["item_number"]: [] for i in records["items"]}
         for e in records["events"]:
@@ -237,7 +248,7 @@ def case_data_from_records(
                     raise ValueError(f"a {group} record belongs to another case")
     except (KeyError, TypeError, ValueError, AttributeError) as exc:
         raise bad_bundle(path, "records/", f"records malformed ({exc})") from exc
-    return CaseData(
+    return BundleData(
         case=dict(records["case"]),
         items=[dict(i) for i in records["items"]],
         events=events,
@@ -245,10 +256,13 @@ def case_data_from_records(
         analyses=analyses,
         findings=[dict(f) for f in records["findings_sheets"]],
         analysts=analysts,
+        decisions=[dict(d) for d in records.get("decisions", [])],
+        reviews=[dict(r) for r in records.get("reviews", [])],
+        format_version=records["format_version"],
     )
 
 
-def check_bundle_analysts(path: Path, data: CaseData) -> None:
+def check_bundle_analysts(path: Path, data: BundleData) -> None:
     """Check that every carried public key matches its fingerprint."""
     from cryptography.hazmat.primitives import serialization
 

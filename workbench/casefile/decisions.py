@@ -47,6 +47,7 @@ __all__ = [
     "ReviewRecord",
     "add_review",
     "append_decision",
+    "check_decision_chain",
     "check_decisions",
     "get_review",
     "list_reviews",
@@ -251,16 +252,42 @@ def check_decisions(store: Any, analysis_id: int) -> list[str]:
         a broken link or a gap in the numbering); empty when all is intact.
     """
     a = store.get_analysis(int(analysis_id))
+    return check_decision_chain(stored_decisions(store, analysis_id), a.record_hash)
+
+
+def check_decision_chain(
+    decisions: Sequence[DecisionRecord | dict[str, Any]], analysis_hash: str
+) -> list[str]:
+    """Re-hash one analysis's decisions and walk their chain (a store's or a bundle's).
+
+    Parameters
+    ----------
+    decisions : sequence of DecisionRecord or dict
+        The decisions in ``seq`` order (dicts carry the fields of
+        :meth:`DecisionRecord.to_dict`; row ids are not needed).
+    analysis_hash : str
+        The ``record_hash`` of the analysis they are about.
+
+    Returns
+    -------
+    list of str
+        One sentence per problem, as :func:`check_decisions`.
+    """
     problems = []
     prev = GENESIS_HASH
-    for i, d in enumerate(stored_decisions(store, analysis_id), start=1):
-        if d.seq != i:
-            problems.append(f"decision {d.seq} follows decision {i - 1} (a decision is missing)")
-        if d.prev_hash != prev:
-            problems.append(f"decision {d.seq} does not link to the decision before it")
-        if record_hash(_hash_fields(d, a.record_hash), DECISION_HASH_FIELDS) != d.record_hash:
-            problems.append(f"decision {d.seq} was altered after it was recorded")
-        prev = d.record_hash
+    for i, d in enumerate(decisions, start=1):
+        rec = d.to_dict() if isinstance(d, DecisionRecord) else d
+        seq = rec["seq"]
+        if seq != i:
+            problems.append(f"decision {seq} follows decision {i - 1} (a decision is missing)")
+        if rec["prev_hash"] != prev:
+            problems.append(f"decision {seq} does not link to the decision before it")
+        if (
+            record_hash(_hash_fields(rec, analysis_hash), DECISION_HASH_FIELDS)
+            != rec["record_hash"]
+        ):
+            problems.append(f"decision {seq} was altered after it was recorded")
+        prev = rec["record_hash"]
     return problems
 
 

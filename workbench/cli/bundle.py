@@ -46,7 +46,10 @@ def _import(args: argparse.Namespace) -> int:
     with open_store(args) as s:
         result = import_bundle(args.bundle, s)
         untrusted = [a for a in s.list_analysts() if not a.trusted]
-    lines = [f"case {result.case_number}: {result.status}"]
+    carried = ""
+    if "decisions" in result.counts:  # format 3: say what travelled with the sheets
+        carried = f" ({result.counts['decisions']} decisions, {result.counts['reviews']} reviews)"
+    lines = [f"case {result.case_number}: {result.status}{carried}"]
     lines += [
         f"key {a.fingerprint} ({a.name}) is {a.provenance_text}: sheets it signed do not "
         "verify here until a local administrator runs 'workbench keys trust'"

@@ -480,6 +480,13 @@ def check_sheet_decisions(store: Any, json_bytes: bytes) -> list[str]:
         analysis_id = int(content["analysis"]["id"])
     except (UnicodeDecodeError, ValueError, KeyError, TypeError):
         return []  # not a sheet of this store's kind; the signature checks cover it
+    # A sheet moved to another store in a bundle keeps its analysis's hash, not its row id.
+    row = store.connection.execute(
+        "SELECT id FROM analyses WHERE record_hash=?",
+        (str(content["analysis"].get("record_hash")),),
+    ).fetchone()
+    if row is not None:
+        analysis_id = int(row[0])
     printed = [d for d in content.get("decisions") or [] if isinstance(d, Mapping)]
     try:
         problems = check_decisions(store, analysis_id)
