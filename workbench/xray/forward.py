@@ -53,6 +53,7 @@ __all__ = [
     "Layer",
     "family_yield",
     "forward_model",
+    "line_yields",
     "simulate_spectrum",
 ]
 
@@ -226,6 +227,47 @@ def family_yield(element: str, family: str, instrument: Instrument) -> float:
         det *= detector_efficiency(np.array([energy]), instrument)[0]
         total += float(np.sum(n_in * cs[k])) * det
     return total
+
+
+@lru_cache(maxsize=256)
+def line_yields(element: str, instrument: Instrument) -> dict[str, float]:
+    """Detected photons / s of each line of ``element`` from a thin film of unit areal density.
+
+    Per line (xraylib IUPAC name, e.g. ``"M5N7"``, ``"L3M5"``, ``"KL3"``):
+    Σ over the tube spectrum of photons × ``CS_FluorLine_Kissel_Cascade``
+    (photo-ionisation of the initial sub-shell by Kissel's cross-sections,
+    Coster–Kronig and radiative/non-radiative cascades from the deeper
+    shells, fluorescence yield, radiative rate; xraylib 4.3), times the
+    transmission of the path and the detector efficiency at the line. Lines
+    below 800 eV are left out (not measurable on a bench or handheld unit).
+    This is the same physics as the forward model, so the pattern of lines
+    within a family (L1/L2/L3 or M3/M4/M5 sub-shell weights, minor lines
+    such as Pb Mζ) follows the excitation instead of fixed weights.
+
+    Parameters
+    ----------
+    element : str
+        Element symbol.
+    instrument : Instrument
+        Tube, filter, path and detector.
+
+    Returns
+    -------
+    dict
+        IUPAC line name → detected photons / s (relative scale; empty for
+        an element xraylib does not know).
+    """
+    try:
+        e_in, n_in, _ = _primary(instrument)
+        lines, cs = _fluor_cs(element, e_in)
+    except ValueError:
+        return {}
+    if not lines:
+        return {}
+    energy = np.array([en for _, en in lines])
+    det = path_transmission(energy, instrument) * detector_efficiency(energy, instrument)
+    total = (cs @ n_in) * det
+    return {name: float(v) for (name, _), v in zip(lines, total, strict=True) if v > 0}
 
 
 def _depth_factor(chi: np.ndarray, rho_t: float | None) -> np.ndarray:
