@@ -34,81 +34,6 @@ def species_label(element: str, ion: int | None, family: str | None = None) -> s
     return f"{element} {roman(int(ion))}" if ion is not None else element
 
 
-# Fallback weights of the sub-shell families relative to L3 / M5, used only
-# for a line xraylib does not list (common practice, no source; varies with
-# excitation). Every line xraylib knows gets its weight from the excitation
-# physics instead (:func:`_xray_line_weights`).
-_XRAY_SUBSHELL_WEIGHT = {
-    "L1": 0.25,
-    "L2": 0.5,
-    "L3": 1.0,
-    "M1": 0.1,
-    "M2": 0.1,
-    "M3": 0.2,
-    "M4": 0.6,
-    "M5": 1.0,
-    "K": 1.0,
-}
-
-
-def _expand_levels(spec: str) -> list[str]:
-    """``"M4,5"`` → ``["M4", "M5"]``; ``"K"`` → ``["K"]``; ``"N6,7"`` → ``["N6", "N7"]``."""
-    head = spec.rstrip("0123456789,")
-    digits = spec[len(head) :]
-    return [head + d for d in digits.split(",") if d] if digits else [spec]
-
-
-def _xray_line_weights(
-    element: np.ndarray, transition: np.ndarray, initial: np.ndarray, rel: np.ndarray
-) -> np.ndarray:
-    """Per X-ray line, the factor that turns its tabulated intensity into detected photons.
-
-    The shipped table gives each line's share of its initial level's
-    emission (Elam et al. 2002). How much each initial level emits depends
-    on the excitation: photo-ionisation of each sub-shell, Coster–Kronig
-    transfer and cascades, fluorescence yields. These come from xraylib
-    through :func:`workbench.xray.forward.line_yields` (the default
-    instrument's Rh tube at 40 kV, air path and silicon-drift detector: the
-    index is shared by every run, and the pattern within one family changes
-    little between tubes; the x-ray model's 0.2 dex covers the rest). A line
-    is given its xraylib yield (summed over the sub-lines a combined name
-    such as ``M4,5-N2,3`` stands for), so that ``rel × weight`` is that
-    yield; a line xraylib does not list keeps its tabulated share times its
-    initial level's total xraylib yield, or the fixed fallback weight when
-    the level has none. Returned as the factor on ``rel``.
-    """
-    from workbench.xray.forward import line_yields
-    from workbench.xray.instrument import DEFAULT_INSTRUMENT
-
-    out = np.array(
-        [_XRAY_SUBSHELL_WEIGHT.get(str(v), 1.0) if v else 1.0 for v in initial], dtype=np.float64
-    )
-    for el in np.unique(element.astype(str)):
-        rows = np.flatnonzero(element == el)
-        yields = line_yields(el, DEFAULT_INSTRUMENT)
-        if not yields:
-            continue
-        top = max(yields.values())
-        level_total: dict[str, float] = {}
-        for name, y in yields.items():
-            lev = name[:1] if name[0] == "K" else name[:2]
-            level_total[lev] = level_total.get(lev, 0.0) + y
-        for i in rows:
-            tr = transition[i]
-            r = rel[i]
-            if not tr or "-" not in str(tr) or not (np.isfinite(r) and r > 0):
-                continue
-            ini, fin = str(tr).split("-", 1)
-            inis, fins = _expand_levels(ini), _expand_levels(fin)
-            y = sum(yields.get(a + b, 0.0) for a in inis for b in fins)
-            if y > 0:
-                out[i] = y / r / top
-                continue
-            lev_y = max((level_total.get(a, 0.0) for a in inis), default=0.0)
-            out[i] = lev_y / top if lev_y > 0 else out[i]
-    return out
-
-
 def _col(table: pl.DataFrame, name: str, dtype: Any = pl.Float64) -> np.ndarray:
     if name not in table.columns:
         if dtype == pl.Utf8:
@@ -140,7 +65,7 @@ class ReferenceIndex:
         Integer species code per line; ``species_names[code]`` is the label.
     subshell_weight : numpy.ndarray
         X-ray lines: factor on ``rel_intensity`` giving the line's detected
-        yield on one scale per element (:func:`_xray_line_weights`); 1 for
+        yield on one scale per element (:func:`workbench.xray.lines.line_weights`); 1 for
         optical lines.
     """
 
@@ -299,7 +224,9 @@ class ReferenceIndex:
         initial = _col(table, "initial_level", pl.Utf8)
         rel = _col(table, "rel_intensity")
         if axis == "energy":
-            weight = _xray_line_weights(
+            from workbench.xray.lines import line_weights
+
+            weight = line_weights(
                 np.array(table["element"].to_list(), dtype=object),
                 _col(table, "transition", pl.Utf8),
                 initial,
