@@ -3,7 +3,10 @@
 Spectra come from :mod:`workbench.xray.forward` (fundamental parameters from
 xraylib 4.3: Kissel photo-ionisation with cascades, Elam/Krause yields,
 DCS_Rayl/DCS_Compt scatter); peaks from :func:`workbench.peaks.find_peaks`;
-matching against the shipped ``xray`` set (Elam et al. 2002 via xraydb).
+matching against the shipped ``xray`` set (Elam et al. 2002 via xraydb), with
+line yields and the minor lines it lacks from xraylib (``workbench.xray.lines``).
+The table is printed per family and per element (``ELEMENTS`` lines: an
+element is called at the best level of its families, as the issue counts).
 
 Truth per spectrum: a line family is *present* when the model puts it above
 3σ on its main line, SNR = N/√(N + B) with N the family's counts within half

@@ -79,3 +79,24 @@ def test_line_unknown_to_xraylib_takes_its_level_total():
     assert w[1] * 0.8 == pytest.approx(yields["L3M5"] / top)
     # An element xraylib does not know keeps the fixed fallback weight.
     assert w[2] == FALLBACK_LEVEL_WEIGHT["L3"]
+
+
+def test_minor_lines_the_table_lacks_are_added_and_named():
+    from workbench.matching.engine import build_index
+
+    idx = build_index([load_set("xray")], "energy", None)
+    ids = set(idx.line_id.tolist())
+    # Pb M3-N1 (2173 eV) and M2-N4 (3119 eV) are real Pb M lines (xraylib 4.3
+    # LineEnergy/RadRate; 1500 and 2600 counts in the lead-white forward
+    # spectrum) that the Elam table does not list; without them their peaks
+    # went to Nb L and Cd L.
+    assert {"xraylib:Pb:M3-N1", "xraylib:Pb:M2-N4"} <= ids
+    # Pb M5-O3 (2401 eV) is 1.4 % of Mα but lies within one FWHM of Mα and
+    # Mβ: it makes no peak of its own and is left out.
+    assert "xraylib:Pb:M5-O3" not in ids
+    # A line the table has is never added twice (Pb M5-N6,7 covers M5N6, M5N7).
+    assert "xraylib:Pb:M5-N7" not in ids and "xray:Pb:M5-N6,7" in ids
+    prov = {p["id"]: p for p in idx.provenance}
+    assert (
+        prov["xraylib_minor_lines"]["version"] and len(prov["xraylib_minor_lines"]["sha256"]) == 64
+    )

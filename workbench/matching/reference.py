@@ -153,6 +153,21 @@ class ReferenceIndex:
                 )
             )
             provenance.append(s.provenance())
+            if axis == "energy" and "initial_level" in t.columns and t.height:
+                # X-ray: minor lines the table lacks, computed by xraylib
+                # (workbench.xray.lines), so that their peaks are explained
+                # by their own element; the result names them.
+                from workbench.xray.lines import supplement_lines
+
+                extra, prov = supplement_lines(t)
+                if extra.height:
+                    frames.append(
+                        extra.with_columns(
+                            pl.lit(prov["id"]).alias("_set_id"),
+                            pl.lit(len(frames)).alias("_set_order"),
+                        )
+                    )
+                    provenance.append(prov)
         table = pl.concat(frames, how="diagonal_relaxed")
         if axis == "wavelength":
             if medium == "air":

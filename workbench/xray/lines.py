@@ -23,7 +23,10 @@ Pb Mα in the lead-white test case), which the 0.2 dex does not always cover.
 
 from __future__ import annotations
 
+import hashlib
+
 import numpy as np
+import polars as pl
 
 __all__ = ["FALLBACK_LEVEL_WEIGHT", "expand_levels", "line_weights"]
 
@@ -120,3 +123,107 @@ def line_weights(
             if lev_y > 0:
                 out[i] = lev_y / top
     return out
+
+
+#: A line the table lacks is added when its yield is at least this part of
+#: its family's strongest (Pb M3-N1 is 0.5 % of Pb Mα in a thin film, 1.2 %
+#: in the lead-white test case; common practice, no source).
+SUPPLEMENT_MIN_FRACTION: float = 0.002
+
+#: ``source_id`` of the added lines (the package that computes them).
+SUPPLEMENT_SOURCE: str = "xraylib"
+
+
+def supplement_lines(table: pl.DataFrame) -> tuple[pl.DataFrame, dict[str, str]]:
+    """Lines xraylib lists that ``table`` lacks, in the table's columns, and their provenance.
+
+    Per element of ``table``: every xraylib line whose yield is at least
+    :data:`SUPPLEMENT_MIN_FRACTION` of its family's strongest (K, L or M),
+    that no table transition of the element covers, and that is not within
+    one detector FWHM (default instrument) of a line of its family ten times
+    stronger. ``rel_intensity`` is
+    the line's radiative rate (its share of the initial level, as in the
+    table), energies are xraylib's ``LineEnergy``, ``line_id`` is
+    ``xraylib:<element>:<transition>``.
+
+    Returns
+    -------
+    (polars.DataFrame, dict)
+        The added lines (possibly empty) and a provenance record (``id``,
+        ``version``, ``sha256`` of the added rows' text) for the result.
+    """
+    import xraylib
+
+    from workbench.xray.detector import fwhm_eV
+    from workbench.xray.forward import _element_lines
+    from workbench.xray.instrument import DEFAULT_INSTRUMENT
+
+    rows: list[dict[str, object]] = []
+    for el in sorted(set(table["element"].drop_nulls().to_list())):
+        yields = _yields(el)
+        if not yields:
+            continue
+        energy_of = {n: e for n, _, e in _element_lines(el)}
+        have: set[str] = set()
+        for tr in table.filter(pl.col("element") == el)["transition"].drop_nulls().to_list():
+            have |= _covered(str(tr))
+        fam_top: dict[str, float] = {}
+        for name, y in yields.items():
+            fam_top[name[0]] = max(fam_top.get(name[0], 0.0), y)
+        z = xraylib.SymbolToAtomicNumber(el)
+        for name, y in sorted(yields.items()):
+            if name in have or y < SUPPLEMENT_MIN_FRACTION * fam_top[name[0]]:
+                continue
+            # A minor line within one detector FWHM of a line of its family
+            # ten times stronger makes no peak of its own (it only widens that
+            # one), and listing it would chain resolvable groups together.
+            e_c = energy_of.get(name, np.nan)
+            w_c = float(fwhm_eV(np.array([e_c]), DEFAULT_INSTRUMENT)[0])
+            if any(
+                n[0] == name[0] and v >= 10.0 * y and abs(energy_of.get(n, np.inf) - e_c) <= w_c
+                for n, v in yields.items()
+            ):
+                continue
+            code = getattr(xraylib, f"{name}_LINE")
+            try:
+                energy = xraylib.LineEnergy(z, code) * 1000.0
+                rate = xraylib.RadRate(z, code)
+            except ValueError:
+                continue
+            ini, fin = _split(name)
+            rows.append(
+                {
+                    "line_id": f"xraylib:{el}:{ini}-{fin}",
+                    "element": el,
+                    "energy_eV": round(float(energy), 1),
+                    "transition": f"{ini}-{fin}",
+                    "initial_level": ini,
+                    "rel_intensity": float(rate),
+                    "source_id": SUPPLEMENT_SOURCE,
+                    "n_sources": 1,
+                    "notes": "minor line computed by xraylib (not in the Elam table)",
+                }
+            )
+    schema = {
+        "line_id": pl.Utf8,
+        "element": pl.Utf8,
+        "energy_eV": pl.Float64,
+        "transition": pl.Utf8,
+        "initial_level": pl.Utf8,
+        "rel_intensity": pl.Float64,
+        "source_id": pl.Utf8,
+        "n_sources": pl.Int32,
+        "notes": pl.Utf8,
+    }
+    out = pl.DataFrame(rows, schema=schema)
+    text = "\n".join(
+        f"{r['line_id']}\t{r['energy_eV']:.1f}\t{r['rel_intensity']:.6g}" for r in rows
+    )
+    prov = {
+        "id": "xraylib_minor_lines",
+        "version": str(getattr(xraylib, "__version__", "")),
+        "sha256": hashlib.sha256(text.encode("utf-8")).hexdigest(),
+        "rule": f"lines of at least {SUPPLEMENT_MIN_FRACTION:g} of their family's strongest "
+        "that the x-ray set lacks (workbench.xray.lines)",
+    }
+    return out, prov
