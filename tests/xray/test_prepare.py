@@ -95,3 +95,27 @@ def test_reference_mask_drops_unexcitable_and_unmeasurable():
     )
     assert keep.tolist() == [False, True, False, True]
     assert "Pb K" in prep.not_excited and "Mg K" in prep.not_measurable
+
+
+def test_weak_line_measured_narrow_is_kept_a_spike_is_not():
+    # Fe Kα with a well-measured width, a weak real line whose width noise made
+    # the peak finder measure at 40 % of the detector FWHM (as the Pb Lℓ peak
+    # of the GSR case at 180 eV: 98 eV against 240 eV), and a counting spike
+    # two channels wide (xraylib 4.3 energies for the lines; widths invented).
+    inst = instrument(180.0)
+    from workbench.xray.detector import fwhm_eV
+
+    w = fwhm_eV(np.array([6403.8, 9184.5, 7700.0]), inst)
+    peaks = PeakList(
+        pl.DataFrame(
+            {
+                "energy_eV": [6403.8, 7700.0, 9184.5],
+                "intensity": [5000.0, 150.0, 150.0],
+                "fwhm_eV": [float(w[0]), 20.0, 0.4 * float(w[1])],
+            }
+        ),
+        "energy",
+        None,
+    )
+    out, _ = prepare_energy_peaks(peaks, inst)
+    assert out.positions.tolist() == pytest.approx([6403.8, 9184.5])

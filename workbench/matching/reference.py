@@ -34,22 +34,6 @@ def species_label(element: str, ion: int | None, family: str | None = None) -> s
     return f"{element} {roman(int(ion))}" if ion is not None else element
 
 
-# Rough weights of the L sub-shell families relative to L3 under tube or
-# source excitation, used only to put L1/L2/L3 lines on one scale within an
-# element's L family (common practice, no source; varies with excitation).
-_XRAY_SUBSHELL_WEIGHT = {
-    "L1": 0.25,
-    "L2": 0.5,
-    "L3": 1.0,
-    "M1": 0.1,
-    "M2": 0.1,
-    "M3": 0.2,
-    "M4": 0.6,
-    "M5": 1.0,
-    "K": 1.0,
-}
-
-
 def _col(table: pl.DataFrame, name: str, dtype: Any = pl.Float64) -> np.ndarray:
     if name not in table.columns:
         if dtype == pl.Utf8:
@@ -79,6 +63,10 @@ class ReferenceIndex:
         Vacuum wavelength (NaN for X-ray lines); used by the physics.
     species : numpy.ndarray
         Integer species code per line; ``species_names[code]`` is the label.
+    subshell_weight : numpy.ndarray
+        X-ray lines: factor on ``rel_intensity`` giving the line's detected
+        yield on one scale per element (:func:`workbench.xray.lines.line_weights`); 1 for
+        optical lines.
     """
 
     axis: Literal["wavelength", "energy"]
@@ -165,6 +153,21 @@ class ReferenceIndex:
                 )
             )
             provenance.append(s.provenance())
+            if axis == "energy" and "initial_level" in t.columns and t.height:
+                # X-ray: minor lines the table lacks, computed by xraylib
+                # (workbench.xray.lines), so that their peaks are explained
+                # by their own element; the result names them.
+                from workbench.xray.lines import supplement_lines
+
+                extra, prov = supplement_lines(t)
+                if extra.height:
+                    frames.append(
+                        extra.with_columns(
+                            pl.lit(prov["id"]).alias("_set_id"),
+                            pl.lit(len(frames)).alias("_set_order"),
+                        )
+                    )
+                    provenance.append(prov)
         table = pl.concat(frames, how="diagonal_relaxed")
         if axis == "wavelength":
             if medium == "air":
@@ -234,7 +237,18 @@ class ReferenceIndex:
             species_label(e, None if f else i, f) for e, i, f in zip(el, ions, fams, strict=True)
         ]
         initial = _col(table, "initial_level", pl.Utf8)
-        weight = np.array([_XRAY_SUBSHELL_WEIGHT.get(str(v), 1.0) if v else 1.0 for v in initial])
+        rel = _col(table, "rel_intensity")
+        if axis == "energy":
+            from workbench.xray.lines import line_weights
+
+            weight = line_weights(
+                np.array(table["element"].to_list(), dtype=object),
+                _col(table, "transition", pl.Utf8),
+                initial,
+                rel,
+            )
+        else:
+            weight = np.ones(table.height)
         return cls(
             axis=axis,
             medium=medium if axis == "wavelength" else None,
@@ -253,7 +267,7 @@ class ReferenceIndex:
             E_upper_eV=_col(table, "E_upper_eV"),
             E_lower_eV=_col(table, "E_lower_eV"),
             log_gf=_col(table, "log_gf"),
-            rel_intensity=_col(table, "rel_intensity"),
+            rel_intensity=rel,
             subshell_weight=weight,
             line_id=np.array(table["line_id"].cast(pl.Utf8).to_list(), dtype=object),
             transition=_col(table, "transition", pl.Utf8),
