@@ -150,6 +150,27 @@ def _describe(ev: SpeciesEvidence, settle: dict[str, list[float]], unit: str) ->
     return f"{ev.label}: " + ("; ".join(parts) if parts else "no interference-free line in range")
 
 
+class _Settle:
+    """Settling lines and their description per species, computed once per warning run.
+
+    A species takes part in many warnings (hundreds in a dense spectrum); its
+    settling lines depend only on its evidence, so they are worked out once.
+    Each warning gets its own copy of the lists.
+    """
+
+    def __init__(self, index: ReferenceIndex, strengths: np.ndarray, unit: str) -> None:
+        self.index, self.strengths, self.unit = index, strengths, unit
+        self._cache: dict[int, tuple[dict[str, list[float]], str]] = {}
+
+    def __call__(self, ev: SpeciesEvidence) -> tuple[dict[str, list[float]], str]:
+        hit = self._cache.get(ev.code)
+        if hit is None:
+            settle = _settling_lines(ev, self.index, self.strengths)
+            hit = self._cache[ev.code] = (settle, _describe(ev, settle, self.unit))
+        settle, text = hit
+        return {"found": list(settle["found"]), "missing": list(settle["missing"])}, text
+
+
 def interference_warnings(
     obs: ObservedLines,
     index: ReferenceIndex,
@@ -165,9 +186,16 @@ def interference_warnings(
     pairs = ev_pass.pairs
     warnings: list[dict[str, object]] = []
     seen: set[tuple] = set()
+    settle = _Settle(index, e, unit)
+    # Pairs of each peak, in pair order (a stable sort; pairs come sorted by
+    # peak already, so this is usually the identity).
+    by_peak = np.argsort(pairs.obs, kind="stable")
+    bounds = np.searchsorted(pairs.obs[by_peak], np.arange(obs.position.size + 1), side="left")
     # 1. Peaks with candidates of two or more plausible species.
     for p, asg in enumerate(assignments):
-        sel = np.flatnonzero(pairs.obs == p) if asg.status == "shared" else np.array([], int)
+        if asg.status != "shared":
+            continue
+        sel = by_peak[bounds[p] : bounds[p + 1]]
         if sel.size == 0:
             continue
         # The strongest candidate line of each sharing species at this peak.
@@ -195,8 +223,8 @@ def interference_warnings(
                         ev_all[b],
                         ra,
                         rb,
-                        e,
                         unit,
+                        settle,
                         observed=float(obs.position[p]),
                         peak=p,
                     )
@@ -229,8 +257,8 @@ def interference_warnings(
                 ev_b,
                 int(g_a["line"][at_p[0]]),
                 int(g_b["line"][main]),
-                e,
                 unit,
+                settle,
                 observed=float(obs.position[p]),
                 peak=p,
             )
@@ -248,19 +276,36 @@ def interference_warnings(
     for code, ev in sorted(ev_all.items()):
         if ev.level < 2:
             continue
-        strong = [
-            i for i in ev.found_lines + ev.missing_lines if _zero_nan(e[i]) >= strong_fraction
+        lines = np.asarray(ev.found_lines + ev.missing_lines, dtype=np.int64)
+        e_l = e[lines]
+        strong = lines[np.where(np.isnan(e_l), 0.0, e_l) >= strong_fraction]
+        if strong.size == 0:
+            continue
+        # Every (strong line, other line within its window) pair at once.
+        x = index.position[strong]
+        tol = (
+            np.interp(x, obs.position, obs.half_window)
+            if obs.position.size
+            else np.zeros(strong.size)
+        )
+        lo = np.searchsorted(other_pos, x - tol)
+        hi = np.searchsorted(other_pos, x + tol + 1e-12)
+        counts = np.maximum(hi - lo, 0)
+        n = int(counts.sum())
+        if n == 0:
+            continue
+        k = np.repeat(np.arange(strong.size), counts)
+        j = other_idx[
+            np.repeat(lo, counts) + np.arange(n) - np.repeat(np.cumsum(counts) - counts, counts)
         ]
-        for i in strong:
-            x = index.position[i]
-            tol = float(np.interp(x, obs.position, obs.half_window)) if obs.position.size else 0.0
-            lo, hi = np.searchsorted(other_pos, [x - tol, x + tol + 1e-12])
-            for j in other_idx[lo:hi]:
-                s = int(index.species[j])
-                if s != code:
-                    by_pair.setdefault((code, s), []).append(
-                        (abs(x - index.position[j]), i, int(j))
-                    )
+        s_j = index.species[j]
+        keep = s_j != code
+        k, j, s_j = k[keep], j[keep], s_j[keep]
+        d = np.abs(x[k] - index.position[j])
+        for s_code, dd, ii, jj in zip(
+            s_j.tolist(), d.tolist(), strong[k].tolist(), j.tolist(), strict=True
+        ):
+            by_pair.setdefault((code, s_code), []).append((dd, ii, jj))
     for (code, s), found in sorted(by_pair.items()):
         labels = tuple(sorted([ev_all[code].label, ev_all[s].label]))
         if labels in reported:
@@ -274,8 +319,8 @@ def interference_warnings(
             ev_all[s],
             i,
             j,
-            e,
             unit,
+            settle,
             observed=None,
             peak=None,
         )
@@ -293,8 +338,8 @@ def _overlap_warning(
     ev_b: SpeciesEvidence,
     line_a: int,
     line_b: int,
-    e: np.ndarray,
     unit: str,
+    settle: _Settle,
     *,
     observed: float | None,
     peak: int | None,
@@ -303,15 +348,14 @@ def _overlap_warning(
     sep = abs(xa - xb)
     mean = 0.5 * (xa + xb)
     needed = mean / sep if sep > 0 else float("inf")
-    settle_a = _settling_lines(ev_a, index, e)
-    settle_b = _settling_lines(ev_b, index, e)
+    settle_a, describe_a = settle(ev_a)
+    settle_b, describe_b = settle(ev_b)
     where = f"observed line at {observed:.4f} {unit}: " if observed is not None else ""
     needed_txt = f"R ≥ {needed:,.0f}" if np.isfinite(needed) else "not separable (same position)"
     message = (
         f"{where}{ev_a.label} {xa:.4f} and {ev_b.label} {xb:.4f} {unit} are within the match "
         f"window (separation {sep:.4f} {unit}; separating them needs {needed_txt}). "
-        f"Settle with other lines — {_describe(ev_a, settle_a, unit)}; "
-        f"{_describe(ev_b, settle_b, unit)}."
+        f"Settle with other lines — {describe_a}; {describe_b}."
     )
     return {
         "kind": kind,
