@@ -56,8 +56,10 @@ def _zero_nan(v):
     )
 
 
-def _predicted_at_peaks(ev_pass: EvidencePass, n_obs: int) -> dict[int, np.ndarray]:
-    """Sum of expected strength per (species, peak), as dense arrays for plausible species."""
+def _predicted_at_peaks(
+    ev_pass: EvidencePass, n_obs: int, wanted: set[int] | dict[int, object]
+) -> dict[int, np.ndarray]:
+    """Sum of expected strength per (species, peak), as dense arrays for the ``wanted`` species."""
     out: dict[int, np.ndarray] = {}
     raw = ev_pass.strengths[ev_pass.pairs.ref]
     known = np.isfinite(raw)
@@ -68,7 +70,7 @@ def _predicted_at_peaks(ev_pass: EvidencePass, n_obs: int) -> dict[int, np.ndarr
     codes, starts = np.unique(sp, return_index=True)
     ends = np.append(starts[1:], sp.size) if starts.size else starts
     for code, a, b in zip(codes.tolist(), starts.tolist(), ends.tolist(), strict=True):
-        if code not in ev_pass.evidence:
+        if code not in wanted:
             continue
         sel = order[a:b]
         obs_i = ev_pass.pairs.obs[sel]
@@ -87,26 +89,35 @@ def assign_peaks(
     """Assign every observed peak (see module docstring)."""
     n_obs = obs.position.size
     plausible = {c: ev for c, ev in ev_pass.evidence.items() if ev.level >= 1}
-    sums = _predicted_at_peaks(ev_pass, n_obs)
-    pairs = ev_pass.pairs
-    cand_by_peak: dict[int, set[int]] = {}
-    for p, s in zip(pairs.obs.tolist(), ev_pass.pair_species.tolist(), strict=True):
-        if s in plausible:
-            cand_by_peak.setdefault(p, set()).add(s)
-    out: list[PeakAssignment] = []
-    for p in range(n_obs):
-        codes = cand_by_peak.get(p)
-        if not codes:
-            out.append(PeakAssignment("unassigned", []))
+    out = [PeakAssignment("unassigned", []) for _ in range(n_obs)]
+    sp = ev_pass.pair_species
+    if not plausible or sp.size == 0:
+        return out
+    # The plausible species with a candidate at each peak, as sorted (peak, species) keys.
+    codes = np.fromiter(sorted(plausible), dtype=np.int64, count=len(plausible))
+    m = np.isin(sp, codes)
+    n_sp = int(sp.max()) + 1
+    keys = np.unique(ev_pass.pairs.obs[m].astype(np.int64) * n_sp + sp[m])
+    peak_of = (keys // n_sp).tolist()
+    code_of = (keys % n_sp).tolist()
+    starts = np.flatnonzero(np.diff(keys // n_sp, prepend=-1) != 0).tolist()
+    ends = [*starts[1:], len(keys)]
+    sums = _predicted_at_peaks(ev_pass, n_obs, plausible)
+
+    def predicted(c: int, p: int) -> float:
+        ev = plausible[c]
+        e = float(sums[c][p]) if c in sums else float("nan")
+        return e * ev.scale if ev.scale is not None else float("nan")
+
+    for a, b in zip(starts, ends, strict=True):
+        p = peak_of[a]
+        if b - a == 1:
+            # One plausible candidate: nothing to rank or share.
+            out[p] = PeakAssignment("assigned", [code_of[a]])
             continue
 
-        def predicted(c: int, p: int = p) -> float:
-            ev = plausible[c]
-            e = float(sums[c][p]) if c in sums else float("nan")
-            return e * ev.scale if ev.scale is not None else float("nan")
-
         def key(c: int, p: int = p) -> tuple:
-            pred = predicted(c)
+            pred = predicted(c, p)
             return (
                 -plausible[c].level,
                 -(pred if np.isfinite(pred) else 0.0),
@@ -114,15 +125,15 @@ def assign_peaks(
                 plausible[c].label,
             )
 
-        ranked = sorted(codes, key=key)
+        ranked = sorted(code_of[a:b], key=key)
         best = ranked[0]
         sharing = [best]
-        pb = predicted(best)
+        pb = predicted(best, p)
         for c in ranked[1:]:
-            pc = predicted(c)
+            pc = predicted(c, p)
             if not (np.isfinite(pb) and np.isfinite(pc)) or pc >= share_ratio * pb:
                 sharing.append(c)
-        out.append(PeakAssignment("shared" if len(sharing) > 1 else "assigned", sharing))
+        out[p] = PeakAssignment("shared" if len(sharing) > 1 else "assigned", sharing)
     return out
 
 
