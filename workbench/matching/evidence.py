@@ -183,6 +183,28 @@ def _xray_terms(
     }
 
 
+_ORDERS: dict[int, tuple[ReferenceIndex, np.ndarray, np.ndarray]] = {}
+
+
+def _line_orders(index: ReferenceIndex) -> tuple[np.ndarray, np.ndarray]:
+    """All lines by (species, position) and by (position, species), once per index.
+
+    Both are stable (ties in the index's order), so that the usable lines of a
+    pass, taken in these orders, are what a stable sort of them would give.
+    """
+    hit = _ORDERS.get(id(index))
+    if hit is None or hit[0] is not index:
+        if len(_ORDERS) >= 16:
+            _ORDERS.pop(next(iter(_ORDERS)))
+        hit = (
+            index,
+            np.lexsort((index.position, index.species)),
+            np.lexsort((index.species, index.position)),
+        )
+        _ORDERS[id(index)] = hit
+    return hit[1], hit[2]
+
+
 def gather_evidence(
     obs: ObservedLines,
     index: ReferenceIndex,
@@ -244,8 +266,8 @@ def gather_evidence(
     e_zero = np.where(np.isfinite(e), e, 0.0)
     usable = in_range & (~np.isfinite(e) | (e >= min_rel_intensity))
     # Lines sorted by (species, position): groups are contiguous per species.
-    usable_idx = np.flatnonzero(usable)
-    usable_idx = usable_idx[np.lexsort((index.position[usable_idx], index.species[usable_idx]))]
+    by_species, by_position = _line_orders(index)
+    usable_idx = by_species[usable[by_species]]
     u_pos = index.position[usable_idx]
     u_sp = index.species[usable_idx]
     res = obs.resolution if obs.resolution is not None else obs.half_window
@@ -264,15 +286,16 @@ def gather_evidence(
     )
     g_species = np.zeros(n_groups, dtype=np.int64)
     g_species[gid] = u_sp
-    # Strongest line of each group: it stands for the group in the evidence.
-    strongest = np.lexsort((-u_e, gid))
-    g_rep = np.full(n_groups, -1, dtype=np.int64)
-    g_first_line = np.unique(gid[strongest], return_index=True)[1]
-    g_rep[gid[strongest][g_first_line]] = usable_idx[strongest][g_first_line]
     g_tol = np.interp(g_pos, obs.position, obs.half_window)
     # Extent of each group (lines are sorted within it): a chain of close lines
     # is easier to hit by chance, so its window is its span plus the tolerance.
     g_first_i = np.flatnonzero(np.diff(np.concatenate(([-1], gid))) != 0)
+    # Strongest line of each group (the first of equals): it stands for the
+    # group in the evidence.
+    g_rep = np.full(n_groups, -1, dtype=np.int64)
+    if gid.size:
+        at_max = np.flatnonzero(u_e == np.maximum.reduceat(u_e, g_first_i)[gid])
+        g_rep = usable_idx[at_max[np.diff(gid[at_max], prepend=-1) != 0]]
     g_last_i = np.append(g_first_i[1:] - 1, gid.size - 1) if gid.size else g_first_i
     g_span = u_pos[g_last_i] - u_pos[g_first_i] if gid.size else np.zeros(0)
     if response is None:
@@ -282,8 +305,7 @@ def gather_evidence(
         g_resp = g_resp / np.bincount(gid, weights=np.maximum(u_e, 1e-300), minlength=n_groups)
 
     # Candidate pairs over usable lines (sorted by position for the search).
-    by_pos = np.argsort(index.position[usable_idx], kind="stable")
-    search_idx = usable_idx[by_pos]
+    search_idx = by_position[usable[by_position]]
     local = find_candidates(obs.position, obs.half_window, index.position[search_idx])
     ref = search_idx[local.ref]
     if obs.excluded is not None and np.any(obs.excluded):
