@@ -353,30 +353,123 @@ def gather_evidence(
     # Reference lines per species (all in range, usable or not): report counts.
     in_counts = np.bincount(index.species[in_range], minlength=index.n_species)
 
-    # Found lines per species for the report: every (line, best peak) pair of the species.
+    # Found lines per species for the report: every (line, best peak) pair of
+    # the species (a line's first pair in (species, line, |delta|) order; a
+    # line belongs to one species, so a new line starts at every change).
     order_l = np.lexsort((np.abs(pairs.delta), ref, sp))
-    sp_sorted = sp[order_l]
-    l_start = np.searchsorted(sp_sorted, species_present, side="left")
-    l_end = np.searchsorted(sp_sorted, species_present, side="right")
+    ref_l = ref[order_l]
+    first_l = np.diff(ref_l, prepend=-1) != 0
+    f_lines = ref_l[first_l]
+    f_species = sp[order_l][first_l]
+    f_unique = g_unique[line_group[f_lines]]
+    f_lines_list = f_lines.tolist()
+    f_peaks_list = pairs.obs[order_l][first_l].tolist()
+    l_start = np.searchsorted(f_species, species_present, side="left")
+    l_end = np.searchsorted(f_species, species_present, side="right")
 
+    # Per-group quantities that do not depend on a species' scale, for all
+    # groups at once; the loops below take each species' slice.
+    I_all = np.where(found, obs.intensity[pk], np.nan)
+    sat_all = np.where(found, obs.saturated[pk], False)
+    pred_unit_all = g_strength * g_resp
+    good_all = found & g_known & np.isfinite(I_all) & (I_all > 0) & ~sat_all & (pred_unit_all > 0)
+    dl_all = obs.detection_limit_at(g_pos) if has_int else None
+    n_strong_cum = np.concatenate(([0], np.cumsum(g_known & (g_strength >= strong_fraction))))
+
+    # 1. The intensity scale (and pattern correlation) of each species.
+    scales: list[float | None] = []
+    patterns: list[float | None] = []
+    for ga, gb in zip(g_start.tolist(), g_end.tolist(), strict=True):
+        sl = slice(ga, gb)
+        I_p = I_all[sl]
+        pred_unit = pred_unit_all[sl]
+        good = good_all[sl]
+        good_uniq = good & g_unique[sl]
+        # Scale from found, unsaturated, known groups (unique ones when there are any).
+        use = good_uniq if np.any(good_uniq) else good
+        scale: float | None = None
+        if np.any(use):
+            ratios = I_p[use] / pred_unit[use]
+            if xray:
+                # X-ray: the family's strongest found line sets the scale; it
+                # is the best predicted and best measured, and a weak line on
+                # another element's peak cannot inflate it.
+                scale = float(ratios[int(np.argmax(pred_unit[use]))])
+            else:
+                scale = _median(ratios)
+            if has_int and not xray:
+                # Censored median: groups that should be seen at this scale but
+                # have no peak enter at the detection limit (an upper bound of
+                # their ratio). The median of found lines alone is biased high:
+                # only the lines that came out bright were found.
+                unseen = g_known[sl] & ~found[sl] & (pred_unit > 0)
+                dl_u = dl_all[sl]
+                for _ in range(4):
+                    cens = unseen & (scale * pred_unit >= dl_u)
+                    new_scale = _median(np.concatenate([ratios, dl_u[cens] / pred_unit[cens]]))
+                    if new_scale == scale:
+                        break
+                    scale = new_scale
+        scales.append(scale)
+        patterns.append(
+            _pearson(np.log(I_p[good_uniq]), np.log(pred_unit[good_uniq]))
+            if np.sum(good_uniq) >= 3
+            else None
+        )
+
+    # 2. What each group should show at its species' scale, for all groups at
+    #    once: predicted intensity (or relative strength without intensities),
+    #    visible, masked by a stronger neighbouring peak, chance per group.
+    with_scale = np.zeros(n_groups, dtype=bool)
+    g_scale = np.full(n_groups, np.nan)
+    if has_int:
+        for ga, gb, scale in zip(g_start.tolist(), g_end.tolist(), scales, strict=True):
+            if scale is not None:
+                with_scale[ga:gb] = True
+                g_scale[ga:gb] = scale
+    predicted_all = np.where(
+        with_scale, g_scale * pred_unit_all, np.where(g_known, g_strength, 0.0)
+    )
+    if dl_all is not None:
+        visible_all = g_known & np.where(
+            with_scale, predicted_all >= dl_all, g_strength >= strong_fraction
+        )
+    else:
+        visible_all = g_known & (g_strength >= strong_fraction)
+    masked_all = np.zeros(n_groups, dtype=bool)
+    cand = with_scale & visible_all & ~found
+    if np.any(cand):
+        xc = g_pos[cand]
+        w = 3.0 * g_tol[cand]
+        lo_i = np.searchsorted(obs.position, xc - w, side="left")
+        hi_i = np.searchsorted(obs.position, xc + w, side="right")
+        masked_all[cand] = _range_max(intensity_padded, lo_i, hi_i) >= predicted_all[cand]
+    # Density of peaks comparable in strength (≥ 30 % of the prediction)
+    # per group: a strong line is rarely matched by chance when strong
+    # peaks are few.
+    if has_int:
+        n_ge = sorted_intensity.size - np.searchsorted(
+            sorted_intensity, 0.3 * predicted_all, "left"
+        )
+        rho_all = np.where(with_scale, n_ge / span, density)
+    else:
+        rho_all = np.full(n_groups, density)
+    p_line_all = 1.0 - np.exp(-rho_all * (2.0 * g_tol + g_span))
+    sigma_all = sigma_lines[g_rep] if sigma_lines is not None else np.full(n_groups, sigma_dex)
+
+    # 3. The evidence of each species.
     evidence: dict[int, SpeciesEvidence] = {}
-    for code, ga, gb, la, lb in zip(
+    for code, ga, gb, la, lb, scale, pattern in zip(
         species_present.tolist(),
         g_start.tolist(),
         g_end.tolist(),
         l_start.tolist(),
         l_end.tolist(),
+        scales,
+        patterns,
         strict=True,
     ):
         sl = slice(ga, gb)
-        G = g_strength[sl]
-        known = g_known[sl]
-        fnd = found[sl]
-        peak = g_peak[sl]
-        uniq = g_unique[sl]
-        resp = g_resp[sl]
-        I_p = np.where(fnd, obs.intensity[np.where(fnd, peak, 0)], np.nan)
-        sat = np.where(fnd, obs.saturated[np.where(fnd, peak, 0)], False)
         ev = SpeciesEvidence(
             code=code,
             label=index.species_names[code],
@@ -385,93 +478,37 @@ def gather_evidence(
             family=index.species_family[code],
             n_lines_in_range=int(in_counts[code]),
         )
-        # Scale from found, unsaturated, known groups (unique ones when there are any).
-        pred_unit = G * resp
-        good = fnd & known & np.isfinite(I_p) & (I_p > 0) & ~sat & (pred_unit > 0)
-        use = good & uniq if np.any(good & uniq) else good
-        if np.any(use):
-            ratios = I_p[use] / pred_unit[use]
-            if xray:
-                # X-ray: the family's strongest found line sets the scale; it
-                # is the best predicted and best measured, and a weak line on
-                # another element's peak cannot inflate it.
-                ev.scale = float(ratios[int(np.argmax(pred_unit[use]))])
-            else:
-                ev.scale = _median(ratios)
-            if has_int and not xray:
-                # Censored median: groups that should be seen at this scale but
-                # have no peak enter at the detection limit (an upper bound of
-                # their ratio). The median of found lines alone is biased high:
-                # only the lines that came out bright were found.
-                unseen = known & ~fnd & (pred_unit > 0)
-                dl_u = obs.detection_limit_at(g_pos[sl])
-                for _ in range(4):
-                    cens = unseen & (ev.scale * pred_unit >= dl_u)
-                    new_scale = _median(np.concatenate([ratios, dl_u[cens] / pred_unit[cens]]))
-                    if new_scale == ev.scale:
-                        break
-                    ev.scale = new_scale
-        if np.sum(good & uniq) >= 3:
-            m = good & uniq
-            ev.pattern_r = _pearson(np.log(I_p[m]), np.log(pred_unit[m]))
-        with_int = has_int and ev.scale is not None
-        dl_g = obs.detection_limit_at(g_pos[sl]) if with_int else None
-        if with_int:
-            predicted = ev.scale * pred_unit
-            visible = known & (predicted >= dl_g)
-        else:
-            predicted = np.where(known, G, 0.0)
-            visible = known & (G >= strong_fraction)
-        masked = np.zeros_like(fnd)
-        cand = visible & ~fnd
-        if with_int and np.any(cand):
-            xc = g_pos[sl][cand]
-            w = 3.0 * g_tol[sl][cand]
-            lo_i = np.searchsorted(obs.position, xc - w, side="left")
-            hi_i = np.searchsorted(obs.position, xc + w, side="right")
-            masked[np.flatnonzero(cand)] = (
-                _range_max(intensity_padded, lo_i, hi_i) >= predicted[cand]
-            )
-        # Density of peaks comparable in strength (≥ 30 % of the prediction)
-        # per group: a strong line is rarely matched by chance when strong
-        # peaks are few.
-        if with_int:
-            n_ge = sorted_intensity.size - np.searchsorted(
-                sorted_intensity, 0.3 * predicted, "left"
-            )
-            rho = n_ge / span
-        else:
-            rho = np.full(G.size, density)
+        ev.scale = scale
+        ev.pattern_r = pattern
+        with_int = has_int and scale is not None
+        dl_g = dl_all[sl] if with_int else None
         ev.groups = {
-            "strength": G,
-            "known": known,
-            "found": fnd,
-            "peak": peak,
-            "unique": uniq,
-            "visible": visible,
-            "masked": masked,
-            "predicted": predicted,
-            "p_line": 1.0 - np.exp(-rho * (2.0 * g_tol[sl] + g_span[sl])),
+            "strength": g_strength[sl],
+            "known": g_known[sl],
+            "found": found[sl],
+            "peak": g_peak[sl],
+            "unique": g_unique[sl],
+            "visible": visible_all[sl],
+            "masked": masked_all[sl],
+            "predicted": predicted_all[sl],
+            "p_line": p_line_all[sl],
             "position": g_pos[sl],
             "line": g_line[sl],
             "rep": g_rep[sl],
-            "sigma": (
-                sigma_lines[g_rep[sl]] if sigma_lines is not None else np.full(G.size, sigma_dex)
-            ),
-            "explained": np.zeros(G.size, dtype=bool),
+            "sigma": sigma_all[sl],
+            "explained": np.zeros(gb - ga, dtype=bool),
             "dl": dl_g,
         }
         if xray:
             ev.groups.update(_xray_terms(obs, index, ev.groups, g_tol[sl], g_span[sl], dl_g))
-        ev.n_groups_in_range = int(G.size)
-        ev.n_strong_in_range = int(np.sum(known & (G >= strong_fraction)))
+        ev.n_groups_in_range = gb - ga
+        ev.n_strong_in_range = int(n_strong_cum[gb] - n_strong_cum[ga])
         ev.missing_evidence = bool(with_int)
         ev.prior_dex = prior_dex(abundance_prior, ev.element)
-        sel = order_l[la:lb]
-        lines, first = np.unique(ref[sel], return_index=True)
-        ev.found_lines = lines.tolist()
-        ev.found_peaks = pairs.obs[sel][first].tolist()
-        line_unique = g_unique[line_group[lines]]
+        line_unique = f_unique[la:lb]
+        lines = f_lines[la:lb]
+        ev.found_lines = f_lines_list[la:lb]
+        ev.found_peaks = f_peaks_list[la:lb]
         ev.unique_lines = lines[line_unique].tolist()
         ev.shared_lines = lines[~line_unique].tolist()
         evaluate(
