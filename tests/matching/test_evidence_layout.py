@@ -99,3 +99,48 @@ def test_layout_arrays_are_read_only(setup):
         ev.groups["found"][0] = True
     with pytest.raises(ValueError):
         ev_pass.pairs.obs[0] = 0
+
+
+def _scales_one_by_one(g_start, g_end, I_all, pred, good_all, gu_all, unseen_all, dl_all, xray):
+    """The per-species rule as the engine had it before it was vectorised (c8d81cb)."""
+    out = []
+    for ga, gb in zip(g_start, g_end, strict=True):
+        sl = slice(ga, gb)
+        good, gu, p = good_all[sl], gu_all[sl], pred[sl]
+        use = gu if np.any(gu) else good
+        scale = None
+        if np.any(use):
+            ratios = I_all[sl][use] / p[use]
+            scale = float(ratios[int(np.argmax(p[use]))]) if xray else evidence._median(ratios)
+            if dl_all is not None:
+                unseen, dl = unseen_all[sl], dl_all[sl]
+                for _ in range(4):
+                    cens = unseen & (scale * p >= dl)
+                    new = evidence._median(np.concatenate([ratios, dl[cens] / p[cens]]))
+                    if new == scale:
+                        break
+                    scale = new
+        out.append(scale)
+    return out
+
+
+@pytest.mark.parametrize("xray", [False, True])
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_species_scales_equal_the_per_species_rule(seed, xray):
+    # Random (invented) groups of 40 species, some with no usable group, some
+    # with ties; the vectorised scales must equal the per-species ones exactly.
+    rng = np.random.default_rng(seed)
+    counts = rng.integers(0, 30, 40)
+    g_end = np.cumsum(counts) + 5  # a gap of 5 groups of an absent species first
+    g_start = g_end - counts
+    n = int(g_end[-1]) + 3
+    I_all = np.round(rng.lognormal(2.0, 1.0, n), 1)
+    pred = np.round(rng.uniform(0.01, 1.0, n), 2)
+    good = rng.random(n) < 0.4
+    gu = good & (rng.random(n) < 0.5)
+    unseen = ~good & (rng.random(n) < 0.6)
+    dl = None if xray else np.full(n, 2.0)
+    got = evidence._species_scales(g_start, g_end, I_all, pred, good, gu, unseen, dl, xray)
+    want = _scales_one_by_one(g_start, g_end, I_all, pred, good, gu, unseen, dl, xray)
+    assert got == want
+    assert any(v is None for v in want) and any(v is not None for v in want)

@@ -183,6 +183,93 @@ def _xray_terms(
     }
 
 
+def _sorted_medians(v: np.ndarray, seg: np.ndarray, n_seg: int) -> np.ndarray:
+    """Median per segment of values sorted by (segment, value); NaN for an empty segment.
+
+    The same arithmetic as ``_median`` on each segment's values.
+    """
+    counts = np.bincount(seg, minlength=n_seg)
+    start = np.cumsum(counts) - counts
+    out = np.full(n_seg, np.nan)
+    has = counts > 0
+    lo = (start + (counts - 1) // 2)[has]
+    hi = (start + counts // 2)[has]
+    out[has] = 0.5 * (v[lo] + v[hi])
+    return out
+
+
+def _species_scales(
+    g_start: np.ndarray,
+    g_end: np.ndarray,
+    I_all: np.ndarray,
+    pred_unit_all: np.ndarray,
+    good_all: np.ndarray,
+    good_uniq_all: np.ndarray,
+    unseen_all: np.ndarray,
+    dl_all: np.ndarray | None,
+    xray: bool,
+) -> list[float | None]:
+    """Intensity scale per species (groups ``g_start[i]:g_end[i]``), None without a usable group.
+
+    The scale comes from found, unsaturated, known groups (``good``; the
+    unique ones when there are any): their observed / predicted ratio. With
+    ``dl_all`` (intensities known, not X-ray) it is a censored median, else
+    the median, or with ``xray`` the ratio of the strongest predicted group.
+    Worked out for all species at once (segment medians); the values are
+    those a per-species ``_median`` gives.
+    """
+    n_sp = g_start.size
+    counts = g_end - g_start
+    seg = np.repeat(np.arange(n_sp), counts)
+    if not np.any(counts):
+        return [None] * n_sp
+    # The groups of every species, species after species.
+    at = np.arange(int(counts.sum())) + np.repeat(g_start - (np.cumsum(counts) - counts), counts)
+    good = good_all[at]
+    good_uniq = good_uniq_all[at]
+    # Scale from found, unsaturated, known groups (unique ones when there are any).
+    any_uniq = np.bincount(seg[good_uniq], minlength=n_sp) > 0
+    use = np.where(any_uniq[seg], good_uniq, good)
+    u_at, u_seg = at[use], seg[use]
+    has = np.bincount(u_seg, minlength=n_sp) > 0
+    ratios = I_all[u_at] / pred_unit_all[u_at]
+    # Candidates for censoring: unseen groups of species with a scale, at
+    # the detection limit. Ratios and candidates are sorted together once;
+    # each round keeps the ratios and the candidates censored at the current
+    # scale, which stay in order.
+    unseen = unseen_all[at] & has[seg] if dl_all is not None else np.zeros(at.size, dtype=bool)
+    c_at, c_seg = at[unseen], seg[unseen]
+    c_val = dl_all[c_at] / pred_unit_all[c_at] if dl_all is not None else np.zeros(0)
+    order = np.lexsort((np.concatenate([ratios, c_val]), np.concatenate([u_seg, c_seg])))
+    v_sorted = np.concatenate([ratios, c_val])[order]
+    s_sorted = np.concatenate([u_seg, c_seg])[order]
+    is_ratio = order < ratios.size
+    c_of = np.where(is_ratio, 0, order - ratios.size)
+    if xray:
+        # X-ray: the family's strongest found line sets the scale; it is the
+        # best predicted and best measured, and a weak line on another
+        # element's peak cannot inflate it (the first of equals).
+        first_max = np.lexsort((-pred_unit_all[u_at], u_seg))
+        first = first_max[np.diff(u_seg[first_max], prepend=-1) != 0]
+        scale = np.full(n_sp, np.nan)
+        scale[u_seg[first]] = ratios[first]
+    else:
+        scale = _sorted_medians(v_sorted[is_ratio], s_sorted[is_ratio], n_sp)
+    if dl_all is not None and c_at.size:
+        # Censored median: groups that should be seen at this scale but have
+        # no peak enter at the detection limit (an upper bound of their
+        # ratio). The median of found lines alone is biased high: only the
+        # lines that came out bright were found. Up to four rounds; a species
+        # whose median no longer changes keeps it (a round at an unchanged
+        # scale gives the same median again).
+        c_pred, c_dl = pred_unit_all[c_at], dl_all[c_at]
+        for _ in range(4):
+            cens = scale[c_seg] * c_pred >= c_dl
+            keep = is_ratio | cens[c_of]
+            scale = _sorted_medians(v_sorted[keep], s_sorted[keep], n_sp)
+    return [float(v) if h else None for v, h in zip(scale.tolist(), has.tolist(), strict=True)]
+
+
 _ORDERS: dict[int, tuple[ReferenceIndex, np.ndarray, np.ndarray]] = {}
 
 
@@ -604,45 +691,26 @@ def gather_evidence(
     n_strong_cum = np.concatenate(([0], np.cumsum(g_known & (g_strength >= strong_fraction))))
 
     # 1. The intensity scale (and pattern correlation) of each species.
-    scales: list[float | None] = []
+    good_uniq_all = good_all & g_unique
+    scales = _species_scales(
+        g_start,
+        g_end,
+        I_all,
+        pred_unit_all,
+        good_all,
+        good_uniq_all,
+        g_known & ~found & (pred_unit_all > 0),
+        dl_all if has_int and not xray else None,
+        xray,
+    )
+    n_good_uniq = np.concatenate(([0], np.cumsum(good_uniq_all)))
     patterns: list[float | None] = []
     for ga, gb in zip(g_start.tolist(), g_end.tolist(), strict=True):
-        sl = slice(ga, gb)
-        I_p = I_all[sl]
-        pred_unit = pred_unit_all[sl]
-        good = good_all[sl]
-        good_uniq = good & g_unique[sl]
-        # Scale from found, unsaturated, known groups (unique ones when there are any).
-        use = good_uniq if np.any(good_uniq) else good
-        scale: float | None = None
-        if np.any(use):
-            ratios = I_p[use] / pred_unit[use]
-            if xray:
-                # X-ray: the family's strongest found line sets the scale; it
-                # is the best predicted and best measured, and a weak line on
-                # another element's peak cannot inflate it.
-                scale = float(ratios[int(np.argmax(pred_unit[use]))])
-            else:
-                scale = _median(ratios)
-            if has_int and not xray:
-                # Censored median: groups that should be seen at this scale but
-                # have no peak enter at the detection limit (an upper bound of
-                # their ratio). The median of found lines alone is biased high:
-                # only the lines that came out bright were found.
-                unseen = g_known[sl] & ~found[sl] & (pred_unit > 0)
-                dl_u = dl_all[sl]
-                for _ in range(4):
-                    cens = unseen & (scale * pred_unit >= dl_u)
-                    new_scale = _median(np.concatenate([ratios, dl_u[cens] / pred_unit[cens]]))
-                    if new_scale == scale:
-                        break
-                    scale = new_scale
-        scales.append(scale)
-        patterns.append(
-            _pearson(np.log(I_p[good_uniq]), np.log(pred_unit[good_uniq]))
-            if np.sum(good_uniq) >= 3
-            else None
-        )
+        pattern = None
+        if n_good_uniq[gb] - n_good_uniq[ga] >= 3:
+            m = good_uniq_all[ga:gb]
+            pattern = _pearson(np.log(I_all[ga:gb][m]), np.log(pred_unit_all[ga:gb][m]))
+        patterns.append(pattern)
 
     # 2. What each group should show at its species' scale, for all groups at
     #    once: predicted intensity (or relative strength without intensities),
