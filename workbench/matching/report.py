@@ -22,6 +22,7 @@ give byte-identical output.
 
 from __future__ import annotations
 
+import math
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -52,7 +53,8 @@ def result_json(report: dict[str, Any], indent: int | None = None) -> bytes:
 
 
 def _num(v: float) -> float | None:
-    return float(v) if v is not None and np.isfinite(v) else None
+    # math.isfinite: the same answer as np.isfinite for a scalar, far cheaper.
+    return float(v) if v is not None and math.isfinite(v) else None
 
 
 def build_report(result: MatchResult) -> dict[str, Any]:
@@ -141,29 +143,39 @@ def build_report(result: MatchResult) -> dict[str, Any]:
     names = idx.species_names
     pairs = ev_pass.pairs
     order = np.lexsort((np.abs(pairs.delta), pairs.obs))
+    # Pair and peak fields as Python lists once (not a NumPy scalar per value).
+    pair_obs = pairs.obs[order].tolist()
+    pair_ref = pairs.ref[order]
+    pair_species = [names[c] for c in idx.species[pair_ref].tolist()]
+    pair_line_id = [str(v) for v in idx.line_id[pair_ref].tolist()]
+    pair_pos = idx.position[pair_ref].tolist()
+    pair_delta = pairs.delta[order].tolist()
+    pair_e = e[pair_ref].tolist()
     by_peak: dict[int, list[int]] = {}
-    for k in order.tolist():
-        by_peak.setdefault(int(pairs.obs[k]), []).append(k)
+    for k, p in enumerate(pair_obs):
+        by_peak.setdefault(p, []).append(k)
+    pos_obs_l = pos_obs.tolist()
+    inten_l = obs.intensity.tolist()
+    half_l = obs.half_window.tolist()
     lines = []
     for p, asg in enumerate(result.assignments):
         cands = []
         for k in by_peak.get(p, [])[:_MAX_CANDIDATES]:
-            r = int(pairs.ref[k])
             cands.append(
                 {
-                    "species": names[int(idx.species[r])],
-                    "line_id": str(idx.line_id[r]),
-                    f"reference_{u}": _num(idx.position[r]),
-                    f"delta_{u}": _num(pairs.delta[k]),
-                    "expected_rel": _num(e[r]),
+                    "species": pair_species[k],
+                    "line_id": pair_line_id[k],
+                    f"reference_{u}": _num(pair_pos[k]),
+                    f"delta_{u}": _num(pair_delta[k]),
+                    "expected_rel": _num(pair_e[k]),
                 }
             )
         lines.append(
             {
                 "index": p,
-                f"observed_{u}": _num(pos_obs[p]),
-                "intensity": _num(obs.intensity[p]),
-                f"tolerance_{u}": _num(obs.half_window[p]),
+                f"observed_{u}": _num(pos_obs_l[p]),
+                "intensity": _num(inten_l[p]),
+                f"tolerance_{u}": _num(half_l[p]),
                 "status": asg.status,
                 "label": result.peak_labels.get(p),
                 "assigned_to": [names[c] for c in asg.species],
