@@ -28,6 +28,7 @@ Warnings (kind)
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -209,15 +210,19 @@ def interference_warnings(
         sel = by_peak[bounds[p] : bounds[p + 1]]
         if sel.size == 0:
             continue
-        # The strongest candidate line of each sharing species at this peak.
+        # The strongest candidate line of each sharing species at this peak
+        # (the first of equals; unknown strength counts as 0).
         best_line: dict[int, int] = {}
-        for k in sel:
-            s = int(ev_pass.pair_species[k])
+        best_e: dict[int, float] = {}
+        refs = pairs.ref[sel]
+        for s, r, v in zip(
+            ev_pass.pair_species[sel].tolist(), refs.tolist(), e[refs].tolist(), strict=True
+        ):
             if s not in asg.species:
                 continue
-            r = int(pairs.ref[k])
-            if s not in best_line or _zero_nan(e[r]) > _zero_nan(e[best_line[s]]):
-                best_line[s] = r
+            v = _zero_nan(v)
+            if s not in best_line or v > best_e[s]:
+                best_line[s], best_e[s] = r, v
         codes = [s for s in asg.species if s in best_line]
         for i, a in enumerate(codes):
             for b in codes[i + 1 :]:
@@ -362,7 +367,7 @@ def _overlap_warning(
     settle_a, describe_a = settle(ev_a)
     settle_b, describe_b = settle(ev_b)
     where = f"observed line at {observed:.4f} {unit}: " if observed is not None else ""
-    needed_txt = f"R ≥ {needed:,.0f}" if np.isfinite(needed) else "not separable (same position)"
+    needed_txt = f"R ≥ {needed:,.0f}" if math.isfinite(needed) else "not separable (same position)"
     message = (
         f"{where}{ev_a.label} {xa:.4f} and {ev_b.label} {xb:.4f} {unit} are within the match "
         f"window (separation {sep:.4f} {unit}; separating them needs {needed_txt}). "
@@ -375,7 +380,7 @@ def _overlap_warning(
         "lines": [str(index.line_id[line_a]), str(index.line_id[line_b])],
         "positions": [round(xa, 6), round(xb, 6)],
         "separation": round(sep, 6),
-        "resolving_power_needed": round(needed, 1) if np.isfinite(needed) else None,
+        "resolving_power_needed": round(needed, 1) if math.isfinite(needed) else None,
         "observed": round(observed, 6) if observed is not None else None,
         "peak_index": peak,
         "settle": {ev_a.label: settle_a, ev_b.label: settle_b},
