@@ -330,7 +330,7 @@ class _LayoutKey:
         )
 
     def matches(self, obs, index, strengths, in_range, min_rel_intensity) -> bool:
-        """Whether these inputs are the ones the layout was made from (by value)."""
+        """Whether these inputs are the ones the layout was made from (equal bits)."""
         if index is not self.index or float(min_rel_intensity) != self.min_rel_intensity:
             return False
         if obs.detection_limit != self.detection_limit:
@@ -340,8 +340,10 @@ class _LayoutKey:
         for a, b in pairs:
             if (a is None) != (b is None):
                 return False
+            # Bit for bit (NaN included): equal bits are equal values; the
+            # rare converse (e.g. -0.0 and 0.0) only costs a new layout.
             if a is not None and not (
-                a.shape == b.shape and a.dtype == b.dtype and np.array_equal(a, b, equal_nan=True)
+                a.shape == b.shape and a.dtype == b.dtype and a.tobytes() == b.tobytes()
             ):
                 return False
         return True
