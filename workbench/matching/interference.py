@@ -288,7 +288,7 @@ def interference_warnings(
     other_idx = np.flatnonzero(usable)
     other_pos = index.position[other_idx]
     reported = {tuple(sorted(w["elements"])) for w in warnings}
-    by_pair: dict[tuple[int, int], list[tuple[float, int, int]]] = {}
+    by_pair: dict[tuple[int, int], tuple[int, int, int]] = {}
     for code, ev in sorted(ev_all.items()):
         if ev.level < 2:
             continue
@@ -318,16 +318,21 @@ def interference_warnings(
         keep = s_j != code
         k, j, s_j = k[keep], j[keep], s_j[keep]
         d = np.abs(x[k] - index.position[j])
-        for s_code, dd, ii, jj in zip(
-            s_j.tolist(), d.tolist(), strong[k].tolist(), j.tolist(), strict=True
-        ):
-            by_pair.setdefault((code, s_code), []).append((dd, ii, jj))
-    for (code, s), found in sorted(by_pair.items()):
+        i_line = strong[k]
+        # Per other species: the number of pairs and the closest pair (the
+        # smallest (separation, line, other line), as min() of the tuples).
+        order = np.lexsort((j, i_line, d, s_j))
+        s_o = s_j[order]
+        first = np.flatnonzero(np.diff(s_o, prepend=-1) != 0)
+        n_pairs = np.diff(np.append(first, s_o.size))
+        for f, cnt in zip(first.tolist(), n_pairs.tolist(), strict=True):
+            o = order[f]
+            by_pair[(code, int(s_o[f]))] = (cnt, int(i_line[o]), int(j[o]))
+    for (code, s), (n_found, i, j) in sorted(by_pair.items()):
         labels = tuple(sorted([ev_all[code].label, ev_all[s].label]))
         if labels in reported:
             continue
         reported.add(labels)
-        _, i, j = min(found)
         w = _overlap_warning(
             "reference_overlap",
             index,
@@ -340,9 +345,9 @@ def interference_warnings(
             observed=None,
             peak=None,
         )
-        if len(found) > 1:
-            w["message"] += f" ({len(found)} overlapping line pairs in all.)"
-        w["n_pairs"] = len(found)
+        if n_found > 1:
+            w["message"] += f" ({n_found} overlapping line pairs in all.)"
+        w["n_pairs"] = n_found
         warnings.append(w)
     return warnings
 
