@@ -15,7 +15,9 @@ baseline) and compares the SHA-256 of the canonical JSON bytes
 * 10,000 random peaks against the whole optical set (the ``bench_match.py``
   case, seed 20261202), with and without intensities;
 * the 5,000-line dense absorption spectrum of ``bench_match.py``, with the
-  window from the measured widths and with λ/20000;
+  window from the measured widths and with λ/20000, and shifted by 0.008 nm
+  (an applied calibration: the match runs again on corrected positions);
+* the random peaks with every 7th excluded and a fixed 0.01 nm window;
 * every real spectrum in ``tests/data/realspectra`` (``--quick``: four of
   them), peak finding + matching as ``tests/realdata/run.py`` does.
 
@@ -92,6 +94,25 @@ def compute_hashes(quick: bool = False) -> dict[str, str]:
         ),
     ):
         out[name] = _sha(result_json(match_peaks(dense, [optical], p).report()))
+    # Shifted by 0.008 nm: the scale check applies a correction and matches again.
+    shifted = PeakList(
+        dense.table.with_columns(pl.col("wavelength_nm") + 0.008),
+        "wavelength",
+        "air",
+        mode="absorption",
+    )
+    res = match_peaks(shifted, [optical], MatchParameters(mode="absorption"))
+    assert res.scale.applied, "the shifted case is meant to exercise an applied calibration"
+    out["dense-absorption:shifted-0.008nm"] = _sha(result_json(res.report()))
+    # Every 7th random peak excluded, a fixed 0.01 nm window.
+    peaks = PeakList(pl.DataFrame({"wavelength_nm": obs, "intensity": inten}), "wavelength", "air")
+    res = match_peaks(
+        peaks,
+        [optical],
+        MatchParameters(tolerance=ToleranceSpec("fixed", 0.01)),
+        excluded_peaks=np.arange(0, obs.size, 7),
+    )
+    out["random10k:excluded-fixed-0.01nm"] = _sha(result_json(res.report()))
 
     from tests.realdata.loader import all_names, load
     from tests.realdata.run import run_real
