@@ -74,33 +74,55 @@ def build_report(result: MatchResult) -> dict[str, Any]:
     for ev in sorted(ev_pass.evidence.values(), key=lambda v: (-v.level, -v.score, v.label)):
         shared = set(ev.shared_lines)
         matched = []
-        for line, peak in sorted(
-            zip(ev.found_lines, ev.found_peaks, strict=True), key=lambda t: idx.position[t[0]]
+        # Matched lines by reference position (a stable sort, as sorted() is),
+        # their fields as Python lists (not a NumPy scalar per value).
+        m_line = np.asarray(ev.found_lines, dtype=np.int64)
+        m_peak = np.asarray(ev.found_peaks, dtype=np.int64)
+        by_pos = np.argsort(idx.position[m_line], kind="stable")
+        m_line, m_peak = m_line[by_pos], m_peak[by_pos]
+        for line, peak, lid, x_obs, x_ref, delta, e_rel, inten, sat, trans in zip(
+            m_line.tolist(),
+            m_peak.tolist(),
+            idx.line_id[m_line].tolist(),
+            pos_obs[m_peak].tolist(),
+            idx.position[m_line].tolist(),
+            (obs.position[m_peak] - idx.position[m_line]).tolist(),
+            e[m_line].tolist(),
+            obs.intensity[m_peak].tolist(),
+            obs.saturated[m_peak].tolist(),
+            idx.transition[m_line].tolist(),
+            strict=True,
         ):
-            inten = obs.intensity[peak]
-            obs_rel = inten / ev.scale if ev.scale and np.isfinite(inten) else None
+            obs_rel = inten / ev.scale if ev.scale and math.isfinite(inten) else None
             matched.append(
                 {
-                    "line_id": str(idx.line_id[line]),
-                    f"observed_{u}": _num(pos_obs[peak]),
-                    f"reference_{u}": _num(idx.position[line]),
-                    f"delta_{u}": _num(obs.position[peak] - idx.position[line]),
-                    "expected_rel": _num(e[line]),
+                    "line_id": str(lid),
+                    f"observed_{u}": _num(x_obs),
+                    f"reference_{u}": _num(x_ref),
+                    f"delta_{u}": _num(delta),
+                    "expected_rel": _num(e_rel),
                     "observed_rel": _num(obs_rel) if obs_rel is not None else None,
-                    "peak_index": int(peak),
+                    "peak_index": peak,
                     "shared": line in shared,
-                    "saturated": bool(obs.saturated[peak]),
-                    "transition": idx.transition[line],
+                    "saturated": bool(sat),
+                    "transition": trans,
                 }
             )
+        x_line = np.asarray(ev.missing_lines, dtype=np.int64)
         missing = [
             {
-                "line_id": str(idx.line_id[line]),
-                f"reference_{u}": _num(idx.position[line]),
-                "expected_rel": _num(e[line]),
+                "line_id": str(lid),
+                f"reference_{u}": _num(x_ref),
+                "expected_rel": _num(e_rel),
                 "predicted_intensity": _num(pred),
             }
-            for line, pred in zip(ev.missing_lines, ev.missing_predicted, strict=True)
+            for lid, x_ref, e_rel, pred in zip(
+                idx.line_id[x_line].tolist(),
+                idx.position[x_line].tolist(),
+                e[x_line].tolist(),
+                ev.missing_predicted,
+                strict=True,
+            )
         ]
         elements.append(
             {
