@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 from tests.matching.invented import FakeSet, invented_table
-from workbench.matching import evidence
+from workbench.matching import evidence, layout
 from workbench.matching.evidence import ObservedLines, gather_evidence
 from workbench.matching.expected import expected_strengths
 from workbench.matching.reference import ReferenceIndex
@@ -36,7 +36,7 @@ def setup():
         detection_limit=50.0,
     )
     in_range = (idx.position >= 250.0) & (idx.position <= 650.0)
-    evidence._LAYOUTS = ()
+    layout._LAYOUTS = ()
     return obs, idx, e, in_range
 
 
@@ -58,22 +58,22 @@ def _summary(ev_pass):
 
 def test_layout_reused_for_equal_inputs(setup):
     obs, idx, e, in_range = setup
-    first = evidence._layout(obs, idx, e, in_range, 1e-3)
+    first = layout.pass_layout(obs, idx, e, in_range, 1e-3)
     # Equal values in new arrays: the same layout.
-    assert evidence._layout(obs, idx, e.copy(), in_range.copy(), 1e-3) is first
+    assert layout.pass_layout(obs, idx, e.copy(), in_range.copy(), 1e-3) is first
     # A different threshold or index: a new one.
-    assert evidence._layout(obs, idx, e, in_range, 1e-2) is not first
+    assert layout.pass_layout(obs, idx, e, in_range, 1e-2) is not first
     idx2 = ReferenceIndex.from_sets([FakeSet("invented", invented_table())], "wavelength", "vacuum")
-    assert evidence._layout(obs, idx2, e, in_range, 1e-3) is not first
+    assert layout.pass_layout(obs, idx2, e, in_range, 1e-3) is not first
 
 
 def test_layout_not_reused_after_an_in_place_change(setup):
     obs, idx, e, in_range = setup
     e = e.copy()
-    first = evidence._layout(obs, idx, e, in_range, 1e-3)
+    first = layout.pass_layout(obs, idx, e, in_range, 1e-3)
     line = int(np.flatnonzero(in_range & np.isfinite(e))[0])
     e[line] *= 2.0
-    second = evidence._layout(obs, idx, e, in_range, 1e-3)
+    second = layout.pass_layout(obs, idx, e, in_range, 1e-3)
     assert second is not first
     assert second.g_strength[second.line_group[line]] != first.g_strength[first.line_group[line]]
 
@@ -82,7 +82,7 @@ def test_cached_pass_equals_fresh_pass(setup):
     obs, idx, e, in_range = setup
     a = gather_evidence(obs, idx, e, in_range, **KW)
     b = gather_evidence(obs, idx, e, in_range, **KW, plausible=set(a.evidence))  # cached
-    evidence._LAYOUTS = ()
+    layout._LAYOUTS = ()
     c = gather_evidence(obs, idx, e, in_range, **KW, plausible=set(a.evidence))  # fresh
     assert _summary(b) == _summary(c)
     assert np.array_equal(b.pairs.obs, c.pairs.obs) and np.array_equal(b.pairs.ref, c.pairs.ref)
