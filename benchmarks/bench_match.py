@@ -1,6 +1,6 @@
 """Matching benchmarks: prints figures, asserts nothing.
 
-Run: ``uv run --extra test python benchmarks/bench_match.py``
+Run: ``uv run --extra test python benchmarks/bench_match.py [--before REF]``
 
 1. Candidate search, 10,000 peaks against the whole optical set, beside a
    pure-Python loop (bisect per peak) and pandas ``merge_asof`` (nearest only).
@@ -10,12 +10,22 @@ Run: ``uv run --extra test python benchmarks/bench_match.py``
    issue 9, extracted with ``git archive`` into a temporary folder and run in
    a subprocess on the same peaks).
 3. ``workbench match`` end to end on a 20,000-point spectrum (a subprocess),
-   and whether the web front end was imported.
+   and whether the web front end was imported; then on the invented demo
+   LIBS spectrum (``paint_chip``).
+
+``--before REF`` (a commit or branch, e.g. the main branch before a speed-up)
+adds, beside every figure of 2 and 3, the same measurement with the code of
+REF, extracted the same way, so that before and after come from one run on
+one (possibly shared, busy) machine. Engine figures are the best of 5 runs,
+wall time and CPU time (``time.process_time``, less disturbed by other work
+on the machine); the load average is printed at start and end.
 """
 
 from __future__ import annotations
 
+import argparse
 import bisect
+import contextlib
 import os
 import subprocess
 import sys
@@ -54,43 +64,105 @@ if float(d["R"]) > 0:
     kw["tolerance"] = ToleranceSpec("resolving_power", float(d["R"]))
 params = MatchParameters(**kw)
 match_peaks(peaks, [optical], params)
+walls, cpus = [], []
+for _ in range(5):
+    t0, c0 = time.perf_counter(), time.process_time()
+    match_peaks(peaks, [optical], params)
+    walls.append(time.perf_counter() - t0)
+    cpus.append(time.process_time() - c0)
+print("SECONDS", min(walls))
+print("CPU", min(cpus))
+res = match_peaks(peaks, [optical], params)
 best = min(
-    (lambda t0: (match_peaks(peaks, [optical], params), time.perf_counter() - t0)[1])(
-        time.perf_counter()) for _ in range(3))
-print("SECONDS", best)
+    (lambda t0: (res.report(), time.perf_counter() - t0)[1])(time.perf_counter())
+    for _ in range(3))
+print("REPORT", best)
 """
 
 
-def old_engine_seconds(x, inten, mode: str, R: float) -> float | None:
-    """Time the previous engine on the same peaks (None when git is unavailable)."""
+@contextlib.contextmanager
+def extracted(commit: str):
+    """The code and reference data of ``commit`` in a temporary folder (None without git)."""
     with tempfile.TemporaryDirectory() as d:
         tar = subprocess.run(
-            ["git", "-C", str(ROOT), "archive", BASELINE_COMMIT, "workbench", "reference_sets"],
+            ["git", "-C", str(ROOT), "archive", commit, "workbench", "reference_sets"],
             capture_output=True,
             check=False,
         )
         if tar.returncode:
-            return None
+            yield None
+            return
         subprocess.run(["tar", "-x", "-C", d], input=tar.stdout, check=True)
-        data = Path(d) / "in.npz"
-        np.savez(data, x=x, i=inten, mode=mode, R=R)
-        # cwd = the extracted tree, so that "import workbench" finds the old
-        # code and not the working copy; the old engine reads the reference
-        # data of its own commit (the current sets have a column it predates).
-        out = subprocess.run(
-            [sys.executable, "-c", _TIMER, str(data), str(ROOT)],
-            capture_output=True,
-            text=True,
-            cwd=d,
-            env=os.environ
-            | {
-                "PYTHONPATH": d,
-                "PYTHONWARNINGS": "ignore",
-                "WORKBENCH_REFERENCE_SETS": str(Path(d) / "reference_sets"),
-            },
-            check=True,
-        ).stdout
-    return float(next(ln for ln in out.splitlines() if ln.startswith("SECONDS")).split()[1])
+        yield Path(d)
+
+
+def _env_for(tree: Path) -> dict[str, str]:
+    # cwd = the extracted tree, so that "import workbench" finds that code and
+    # not the working copy; it reads the reference data of its own commit
+    # (the current sets may have columns an old commit predates).
+    return os.environ | {
+        "PYTHONPATH": str(tree),
+        "PYTHONWARNINGS": "ignore",
+        "WORKBENCH_REFERENCE_SETS": str(tree / "reference_sets"),
+    }
+
+
+def old_engine_seconds(
+    x, inten, mode: str, R: float, tree: Path | None
+) -> tuple[float, float, float] | None:
+    """Engine, report and engine CPU seconds of the code in ``tree`` (None without it).
+
+    Best of 5 (engine) and 3 (report) runs on the same peaks; CPU time
+    (``time.process_time``) suffers less than wall time from other work on
+    a shared machine.
+    """
+    if tree is None:
+        return None
+    data = tree / "in.npz"
+    np.savez(data, x=x, i=inten, mode=mode, R=R)
+    out = subprocess.run(
+        [sys.executable, "-c", _TIMER, str(data), str(ROOT)],
+        capture_output=True,
+        text=True,
+        cwd=tree,
+        env=_env_for(tree),
+        check=True,
+    ).stdout
+    lines = out.splitlines()
+    engine = float(next(ln for ln in lines if ln.startswith("SECONDS")).split()[1])
+    report = float(next(ln for ln in lines if ln.startswith("REPORT")).split()[1])
+    cpu = float(next(ln for ln in lines if ln.startswith("CPU")).split()[1])
+    return engine, report, cpu
+
+
+def _ms(t: tuple[float, float, float] | None, label: str) -> str:
+    if not t:
+        return f"{label} n/a"
+    return f"{label} {t[0] * 1e3:.0f} ms, CPU {t[2] * 1e3:.0f} ms (+ report {t[1] * 1e3:.0f} ms)"
+
+
+def cli_seconds(args: list[str], tree: Path | None, cwd: Path) -> tuple[float, float, str]:
+    """Wall time of ``workbench match`` in a fresh interpreter, time inside main, streamlit?"""
+    code = (
+        "import sys, time; t=time.perf_counter(); from workbench.cli import main; "
+        f"rc = main({args!r}); "
+        "print('ELAPSED', time.perf_counter()-t); "
+        "print('STREAMLIT_IMPORTED', 'streamlit' in sys.modules)"
+    )
+    env = _env_for(tree) if tree else os.environ | {"PYTHONWARNINGS": "ignore"}
+    t0 = time.perf_counter()
+    out = subprocess.run(
+        [sys.executable, "-c", code],
+        capture_output=True,
+        text=True,
+        env=env,
+        cwd=tree or cwd,
+        check=True,
+    ).stdout
+    wall = time.perf_counter() - t0
+    inner = next(ln for ln in out.splitlines() if ln.startswith("ELAPSED")).split()[1]
+    imported = next(ln for ln in out.splitlines() if ln.startswith("STREAMLIT")).split()[1]
+    return wall, float(inner), imported
 
 
 def dense_absorption_peaks(optical, n_lines: int = 5000) -> PeakList:
@@ -137,7 +209,30 @@ def best_of(fn, repeat=5):
     return min(times), out
 
 
+def best_cpu_of(fn, repeat=5) -> tuple[float, float]:
+    """Best wall and best CPU seconds of ``fn`` over ``repeat`` runs."""
+    walls, cpus = [], []
+    for _ in range(repeat):
+        t0, c0 = time.perf_counter(), time.process_time()
+        fn()
+        walls.append(time.perf_counter() - t0)
+        cpus.append(time.process_time() - c0)
+    return min(walls), min(cpus)
+
+
 def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("--before", help="also time the code of this commit or branch")
+    args = ap.parse_args()
+    with contextlib.ExitStack() as stack:
+        base = stack.enter_context(extracted(BASELINE_COMMIT))
+        before = stack.enter_context(extracted(args.before)) if args.before else None
+        run(base, before, args.before)
+
+
+def run(base: Path | None, before: Path | None, before_ref: str | None) -> None:
+    """All measurements (module docstring); ``before`` adds the REF figures."""
+    print(f"load average at start: {', '.join(f'{v:.2f}' for v in os.getloadavg())}")
     optical = load_set("optical")
     index = build_index([optical], "wavelength", "air")
     ref = index.position
@@ -179,31 +274,51 @@ def main() -> None:
     )
     params = MatchParameters(tolerance=ToleranceSpec("resolving_power", 20_000.0))
     match_peaks(peaks, [optical], params)  # warm the index cache
-    t_full, res = best_of(lambda: match_peaks(peaks, [optical], params), repeat=3)
+    t_full, c_full = best_cpu_of(lambda: match_peaks(peaks, [optical], params))
+    res = match_peaks(peaks, [optical], params)
     t_rep, _ = best_of(lambda: res.report(), repeat=3)
-    t_old = old_engine_seconds(obs, peaks.intensities, "emission", 20_000.0)
-    old_txt = f"{t_old * 1e3:.0f} ms" if t_old is not None else "n/a (no git)"
+    t_old = old_engine_seconds(obs, peaks.intensities, "emission", 20_000.0, base)
+    txt = _ms(t_old, f"previous engine ({BASELINE_COMMIT})")
+    if before_ref:
+        t_bef = old_engine_seconds(obs, peaks.intensities, "emission", 20_000.0, before)
+        txt = _ms(t_bef, f"before ({before_ref})") + "; " + txt
     print(
-        f"full engine on 10,000 peaks: {t_full * 1e3:.0f} ms (+ report {t_rep * 1e3:.0f} ms); "
-        f"previous engine ({BASELINE_COMMIT}) {old_txt}"
+        f"full engine on 10,000 peaks: {t_full * 1e3:.0f} ms, CPU {c_full * 1e3:.0f} ms "
+        f"(+ report {t_rep * 1e3:.0f} ms); " + txt
     )
 
     dense = dense_absorption_peaks(optical)
     p_abs = MatchParameters(mode="absorption")
     match_peaks(dense, [optical], p_abs)
-    t_abs, _ = best_of(lambda: match_peaks(dense, [optical], p_abs), repeat=3)
+    t_abs, c_abs = best_cpu_of(lambda: match_peaks(dense, [optical], p_abs))
     # The old engine gets the same peak table (positions, depths); FWHM left out
     # so both use the same R = 20,000 window.
     p_abs_r = MatchParameters(
         mode="absorption", tolerance=ToleranceSpec("resolving_power", 20_000.0)
     )
-    t_abs_r, _ = best_of(lambda: match_peaks(dense, [optical], p_abs_r), repeat=3)
-    t_abs_old = old_engine_seconds(dense.positions, dense.intensities, "absorption", 20_000.0)
-    old_txt = f"{t_abs_old * 1e3:.0f} ms" if t_abs_old is not None else "n/a (no git)"
+    t_abs_r, c_abs_r = best_cpu_of(lambda: match_peaks(dense, [optical], p_abs_r))
+    # The table the older engines get (positions and depths only), for a like
+    # for like figure beside theirs.
+    bare = PeakList(
+        pl.DataFrame({"wavelength_nm": dense.positions, "intensity": dense.intensities}),
+        "wavelength",
+        "air",
+        mode="absorption",
+    )
+    t_bare, c_bare = best_cpu_of(lambda: match_peaks(bare, [optical], p_abs_r))
+    t_abs_old = old_engine_seconds(dense.positions, dense.intensities, "absorption", 20_000.0, base)
+    txt = _ms(t_abs_old, f"previous engine ({BASELINE_COMMIT}, λ/20000)")
+    if before_ref:
+        t_bef = old_engine_seconds(
+            dense.positions, dense.intensities, "absorption", 20_000.0, before
+        )
+        txt = _ms(t_bef, f"before ({before_ref}, λ/20000)") + "; " + txt
     print(
         f"dense absorption spectrum ({dense.table.height} dips from 5,000 lines): "
-        f"{t_abs * 1e3:.0f} ms (auto window from widths), {t_abs_r * 1e3:.0f} ms (λ/20000); "
-        f"previous engine ({BASELINE_COMMIT}, λ/20000) {old_txt}"
+        f"{t_abs * 1e3:.0f} ms, CPU {c_abs * 1e3:.0f} ms (auto window from widths), "
+        f"{t_abs_r * 1e3:.0f} ms, CPU {c_abs_r * 1e3:.0f} ms (λ/20000); "
+        f"positions and depths only, λ/20000: {t_bare * 1e3:.0f} ms, CPU {c_bare * 1e3:.0f} ms; "
+        + txt
     )
 
     # CLI end to end on a 20,000-point spectrum (invented lines).
@@ -223,27 +338,37 @@ def main() -> None:
             "# medium: air\nwavelength (nm),intensity\n"
             + "".join(f"{a:.5f},{b:.5f}\n" for a, b in zip(spec.x, spec.y, strict=True))
         )
-        code = (
-            "import sys, time; t=time.perf_counter(); from workbench.cli import main; "
-            f"rc = main(['match', {str(f)!r}, '--json', {str(Path(d) / 'r.json')!r}]); "
-            "print('ELAPSED', time.perf_counter()-t); "
-            "print('STREAMLIT_IMPORTED', 'streamlit' in sys.modules)"
+        jfile = str(Path(d) / "r.json")
+        wall, inner, imported = cli_seconds(["match", str(f), "--json", jfile], None, ROOT)
+        txt = ""
+        if before_ref:
+            w_b, i_b, _ = cli_seconds(["match", str(f), "--json", jfile], before, ROOT)
+            txt = f"; before ({before_ref}) {w_b:.2f} s wall ({i_b:.2f} s inside main)"
+        print(
+            f"workbench match, 20,000-point spectrum: {wall:.2f} s wall incl. interpreter start "
+            f"({inner:.2f} s inside main); streamlit imported: {imported}{txt}"
         )
-        t0 = time.perf_counter()
-        out = subprocess.run(
-            [sys.executable, "-c", code],
-            capture_output=True,
-            text=True,
-            env=os.environ | {"PYTHONWARNINGS": "ignore"},
-            check=True,
-        ).stdout
-        wall = time.perf_counter() - t0
-    inner = next(ln for ln in out.splitlines() if ln.startswith("ELAPSED")).split()[1]
-    imported = next(ln for ln in out.splitlines() if ln.startswith("STREAMLIT")).split()[1]
-    print(
-        f"workbench match, 20,000-point spectrum: {wall:.2f} s wall incl. interpreter start "
-        f"({float(inner):.2f} s inside main); streamlit imported: {imported}"
-    )
+        # The invented demo LIBS spectrum (issue 14: the whole command within 1 s).
+        from workbench.demo import SCENARIOS, demo_file
+
+        libs = Path(d) / SCENARIOS["paint_chip"].filename
+        libs.write_bytes(demo_file("paint_chip"))
+        runs = [cli_seconds(["match", str(libs), "--json", jfile], None, ROOT) for _ in range(3)]
+        wall, inner = min(r[0] for r in runs), min(r[1] for r in runs)
+        txt = ""
+        if before_ref:
+            runs = [
+                cli_seconds(["match", str(libs), "--json", jfile], before, ROOT) for _ in range(3)
+            ]
+            txt = (
+                f"; before ({before_ref}) {min(r[0] for r in runs):.2f} s wall "
+                f"({min(r[1] for r in runs):.2f} s inside main)"
+            )
+        print(
+            f"workbench match, demo LIBS spectrum (invented): {wall:.2f} s wall "
+            f"({inner:.2f} s inside main), best of 3{txt}"
+        )
+    print(f"load average at end: {', '.join(f'{v:.2f}' for v in os.getloadavg())}")
 
 
 if __name__ == "__main__":

@@ -37,8 +37,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from workbench.matching.candidates import CandidatePairs, find_candidates
-from workbench.matching.groups import resolvable_groups
+from workbench.matching.candidates import CandidatePairs
+from workbench.matching.layout import pass_layout
 from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import SpeciesEvidence, evaluate
@@ -183,6 +183,93 @@ def _xray_terms(
     }
 
 
+def _sorted_medians(v: np.ndarray, seg: np.ndarray, n_seg: int) -> np.ndarray:
+    """Median per segment of values sorted by (segment, value); NaN for an empty segment.
+
+    The same arithmetic as ``_median`` on each segment's values.
+    """
+    counts = np.bincount(seg, minlength=n_seg)
+    start = np.cumsum(counts) - counts
+    out = np.full(n_seg, np.nan)
+    has = counts > 0
+    lo = (start + (counts - 1) // 2)[has]
+    hi = (start + counts // 2)[has]
+    out[has] = 0.5 * (v[lo] + v[hi])
+    return out
+
+
+def _species_scales(
+    g_start: np.ndarray,
+    g_end: np.ndarray,
+    I_all: np.ndarray,
+    pred_unit_all: np.ndarray,
+    good_all: np.ndarray,
+    good_uniq_all: np.ndarray,
+    unseen_all: np.ndarray,
+    dl_all: np.ndarray | None,
+    xray: bool,
+) -> list[float | None]:
+    """Intensity scale per species (groups ``g_start[i]:g_end[i]``), None without a usable group.
+
+    The scale comes from found, unsaturated, known groups (``good``; the
+    unique ones when there are any): their observed / predicted ratio. With
+    ``dl_all`` (intensities known, not X-ray) it is a censored median, else
+    the median, or with ``xray`` the ratio of the strongest predicted group.
+    Worked out for all species at once (segment medians); the values are
+    those a per-species ``_median`` gives.
+    """
+    n_sp = g_start.size
+    counts = g_end - g_start
+    seg = np.repeat(np.arange(n_sp), counts)
+    if not np.any(counts):
+        return [None] * n_sp
+    # The groups of every species, species after species.
+    at = np.arange(int(counts.sum())) + np.repeat(g_start - (np.cumsum(counts) - counts), counts)
+    good = good_all[at]
+    good_uniq = good_uniq_all[at]
+    # Scale from found, unsaturated, known groups (unique ones when there are any).
+    any_uniq = np.bincount(seg[good_uniq], minlength=n_sp) > 0
+    use = np.where(any_uniq[seg], good_uniq, good)
+    u_at, u_seg = at[use], seg[use]
+    has = np.bincount(u_seg, minlength=n_sp) > 0
+    ratios = I_all[u_at] / pred_unit_all[u_at]
+    # Candidates for censoring: unseen groups of species with a scale, at
+    # the detection limit. Ratios and candidates are sorted together once;
+    # each round keeps the ratios and the candidates censored at the current
+    # scale, which stay in order.
+    unseen = unseen_all[at] & has[seg] if dl_all is not None else np.zeros(at.size, dtype=bool)
+    c_at, c_seg = at[unseen], seg[unseen]
+    c_val = dl_all[c_at] / pred_unit_all[c_at] if dl_all is not None else np.zeros(0)
+    order = np.lexsort((np.concatenate([ratios, c_val]), np.concatenate([u_seg, c_seg])))
+    v_sorted = np.concatenate([ratios, c_val])[order]
+    s_sorted = np.concatenate([u_seg, c_seg])[order]
+    is_ratio = order < ratios.size
+    c_of = np.where(is_ratio, 0, order - ratios.size)
+    if xray:
+        # X-ray: the family's strongest found line sets the scale; it is the
+        # best predicted and best measured, and a weak line on another
+        # element's peak cannot inflate it (the first of equals).
+        first_max = np.lexsort((-pred_unit_all[u_at], u_seg))
+        first = first_max[np.diff(u_seg[first_max], prepend=-1) != 0]
+        scale = np.full(n_sp, np.nan)
+        scale[u_seg[first]] = ratios[first]
+    else:
+        scale = _sorted_medians(v_sorted[is_ratio], s_sorted[is_ratio], n_sp)
+    if dl_all is not None and c_at.size:
+        # Censored median: groups that should be seen at this scale but have
+        # no peak enter at the detection limit (an upper bound of their
+        # ratio). The median of found lines alone is biased high: only the
+        # lines that came out bright were found. Up to four rounds; a species
+        # whose median no longer changes keeps it (a round at an unchanged
+        # scale gives the same median again).
+        c_pred, c_dl = pred_unit_all[c_at], dl_all[c_at]
+        for _ in range(4):
+            cens = scale[c_seg] * c_pred >= c_dl
+            keep = is_ratio | cens[c_of]
+            scale = _sorted_medians(v_sorted[keep], s_sorted[keep], n_sp)
+    return [float(v) if h else None for v, h in zip(scale.tolist(), has.tolist(), strict=True)]
+
+
 def gather_evidence(
     obs: ObservedLines,
     index: ReferenceIndex,
@@ -240,121 +327,146 @@ def gather_evidence(
     -------
     EvidencePass
     """
+    L = pass_layout(obs, index, strengths, in_range, min_rel_intensity)
     e = strengths
-    e_zero = np.where(np.isfinite(e), e, 0.0)
-    usable = in_range & (~np.isfinite(e) | (e >= min_rel_intensity))
-    # Lines sorted by (species, position): groups are contiguous per species.
-    usable_idx = np.flatnonzero(usable)
-    usable_idx = usable_idx[np.lexsort((index.position[usable_idx], index.species[usable_idx]))]
-    u_pos = index.position[usable_idx]
-    u_sp = index.species[usable_idx]
-    res = obs.resolution if obs.resolution is not None else obs.half_window
-    gid = resolvable_groups(u_sp, u_pos, np.interp(u_pos, obs.position, res))
-    n_groups = int(gid[-1]) + 1 if gid.size else 0
-    line_group = np.full(index.n_lines, -1, dtype=np.int64)
-    line_group[usable_idx] = gid
-    u_e = e_zero[usable_idx]
-    g_strength = np.bincount(gid, weights=u_e, minlength=n_groups)
-    g_known = np.bincount(gid, weights=np.isfinite(e[usable_idx]), minlength=n_groups) > 0
-    g_count = np.bincount(gid, minlength=n_groups)
-    g_pos = np.where(
-        g_strength > 0,
-        np.bincount(gid, weights=u_e * u_pos, minlength=n_groups) / np.maximum(g_strength, 1e-300),
-        np.bincount(gid, weights=u_pos, minlength=n_groups) / np.maximum(g_count, 1),
-    )
-    g_species = np.zeros(n_groups, dtype=np.int64)
-    g_species[gid] = u_sp
-    # Strongest line of each group: it stands for the group in the evidence.
-    strongest = np.lexsort((-u_e, gid))
-    g_rep = np.full(n_groups, -1, dtype=np.int64)
-    g_first_line = np.unique(gid[strongest], return_index=True)[1]
-    g_rep[gid[strongest][g_first_line]] = usable_idx[strongest][g_first_line]
-    g_tol = np.interp(g_pos, obs.position, obs.half_window)
-    # Extent of each group (lines are sorted within it): a chain of close lines
-    # is easier to hit by chance, so its window is its span plus the tolerance.
-    g_first_i = np.flatnonzero(np.diff(np.concatenate(([-1], gid))) != 0)
-    g_last_i = np.append(g_first_i[1:] - 1, gid.size - 1) if gid.size else g_first_i
-    g_span = u_pos[g_last_i] - u_pos[g_first_i] if gid.size else np.zeros(0)
+    usable = L.usable
+    usable_idx = L.usable_idx
+    u_e = L.u_e
+    gid = L.gid
+    n_groups = L.n_groups
+    line_group = L.line_group
+    g_strength = L.g_strength
+    g_known = L.g_known
+    g_pos = L.g_pos
+    g_species = L.g_species
+    g_tol = L.g_tol
+    g_rep = L.g_rep
+    g_span = L.g_span
+    pairs = L.pairs
+    sp = L.sp
+    grp = L.grp
+    g_peak = L.g_peak
+    g_line = L.g_line
+    found = L.found
+    pk = L.pk
+    n_obs = L.n_obs
+    span = L.span
+    density = L.density
+    sorted_intensity = L.sorted_intensity
+    intensity_padded = L.intensity_padded
+    has_int = L.has_int
+    species_present = L.species_present
+    g_start = L.g_start
+    g_end = L.g_end
+    in_counts = L.in_counts
+    f_lines = L.f_lines
+    f_lines_list = L.f_lines_list
+    f_peaks_list = L.f_peaks_list
+    l_start = L.l_start
+    l_end = L.l_end
+    I_all = L.I_all
+    sat_all = L.sat_all
+    dl_all = L.dl_all
     if response is None:
         g_resp = np.ones(n_groups)
     else:
         g_resp = np.bincount(gid, weights=response[usable_idx] * np.maximum(u_e, 1e-300))
         g_resp = g_resp / np.bincount(gid, weights=np.maximum(u_e, 1e-300), minlength=n_groups)
 
-    # Candidate pairs over usable lines (sorted by position for the search).
-    by_pos = np.argsort(index.position[usable_idx], kind="stable")
-    search_idx = usable_idx[by_pos]
-    local = find_candidates(obs.position, obs.half_window, index.position[search_idx])
-    ref = search_idx[local.ref]
-    if obs.excluded is not None and np.any(obs.excluded):
-        keep = ~obs.excluded[local.obs]
-        local = CandidatePairs(obs=local.obs[keep], ref=local.ref[keep], delta=local.delta[keep])
-        ref = ref[keep]
-    pairs = CandidatePairs(obs=local.obs, ref=ref, delta=local.delta)
-    sp = index.species[ref]
-    grp = line_group[ref]
     competes = ~g_known[grp] | (g_strength[grp] >= competitor_min_rel)
     if plausible is not None:
         competes &= np.isin(sp, np.fromiter(plausible, dtype=np.int64, count=len(plausible)))
 
-    n_obs = obs.position.size
     comp_keys = np.unique(pairs.obs[competes].astype(np.int64) * index.n_species + sp[competes])
     n_comp = np.bincount(comp_keys // index.n_species, minlength=n_obs)
 
-    # Best peak per group: smallest |delta| among the group's pairs.
-    order = np.lexsort((np.abs(pairs.delta), grp))
-    g_first, first_at = np.unique(grp[order], return_index=True)
-    g_peak = np.full(n_groups, -1, dtype=np.int64)
-    g_peak[g_first] = pairs.obs[order[first_at]]
-    g_line = np.full(n_groups, -1, dtype=np.int64)  # the line nearest its peak
-    g_line[g_first] = pairs.ref[order[first_at]]
-    found = g_peak >= 0
-    pk = np.where(found, g_peak, 0)
     key = pk.astype(np.int64) * index.n_species + g_species
     pos_k = np.minimum(np.searchsorted(comp_keys, key), max(comp_keys.size - 1, 0))
     own = (comp_keys[pos_k] == key) if comp_keys.size else np.zeros(n_groups, dtype=bool)
     g_unique = found & (n_comp[pk] - own.astype(np.int64) == 0)
 
-    # Peak density and comparable-strength look-up for the chance probability.
-    span = float(obs.position[-1] - obs.position[0]) + 2.0 * float(np.median(obs.half_window))
-    density = n_obs / span if span > 0 else 0.0
-    sorted_intensity = np.sort(obs.intensity[np.isfinite(obs.intensity)])
-    intensity_padded = np.append(
-        np.where(np.isfinite(obs.intensity), obs.intensity, -np.inf), -np.inf
-    )
-    has_int = obs.detection_limit is not None and sorted_intensity.size > 0
-
-    species_present = np.unique(sp)
     n_tried = int(n_species_tried or species_present.size)
-    g_start = np.searchsorted(g_species, species_present, side="left")
-    g_end = np.searchsorted(g_species, species_present, side="right")
-    # Reference lines per species (all in range, usable or not): report counts.
-    in_counts = np.bincount(index.species[in_range], minlength=index.n_species)
+    f_unique = g_unique[line_group[f_lines]]
+    pred_unit_all = g_strength * g_resp
+    good_all = found & g_known & np.isfinite(I_all) & (I_all > 0) & ~sat_all & (pred_unit_all > 0)
+    dl_all = obs.detection_limit_at(g_pos) if has_int else None
+    n_strong_cum = np.concatenate(([0], np.cumsum(g_known & (g_strength >= strong_fraction))))
 
-    # Found lines per species for the report: every (line, best peak) pair of the species.
-    order_l = np.lexsort((np.abs(pairs.delta), ref, sp))
-    sp_sorted = sp[order_l]
-    l_start = np.searchsorted(sp_sorted, species_present, side="left")
-    l_end = np.searchsorted(sp_sorted, species_present, side="right")
+    # 1. The intensity scale (and pattern correlation) of each species.
+    good_uniq_all = good_all & g_unique
+    scales = _species_scales(
+        g_start,
+        g_end,
+        I_all,
+        pred_unit_all,
+        good_all,
+        good_uniq_all,
+        g_known & ~found & (pred_unit_all > 0),
+        dl_all if has_int and not xray else None,
+        xray,
+    )
+    n_good_uniq = np.concatenate(([0], np.cumsum(good_uniq_all)))
+    patterns: list[float | None] = []
+    for ga, gb in zip(g_start.tolist(), g_end.tolist(), strict=True):
+        pattern = None
+        if n_good_uniq[gb] - n_good_uniq[ga] >= 3:
+            m = good_uniq_all[ga:gb]
+            pattern = _pearson(np.log(I_all[ga:gb][m]), np.log(pred_unit_all[ga:gb][m]))
+        patterns.append(pattern)
 
+    # 2. What each group should show at its species' scale, for all groups at
+    #    once: predicted intensity (or relative strength without intensities),
+    #    visible, masked by a stronger neighbouring peak, chance per group.
+    with_scale = np.zeros(n_groups, dtype=bool)
+    g_scale = np.full(n_groups, np.nan)
+    if has_int:
+        for ga, gb, scale in zip(g_start.tolist(), g_end.tolist(), scales, strict=True):
+            if scale is not None:
+                with_scale[ga:gb] = True
+                g_scale[ga:gb] = scale
+    predicted_all = np.where(
+        with_scale, g_scale * pred_unit_all, np.where(g_known, g_strength, 0.0)
+    )
+    if dl_all is not None:
+        visible_all = g_known & np.where(
+            with_scale, predicted_all >= dl_all, g_strength >= strong_fraction
+        )
+    else:
+        visible_all = g_known & (g_strength >= strong_fraction)
+    masked_all = np.zeros(n_groups, dtype=bool)
+    cand = with_scale & visible_all & ~found
+    if np.any(cand):
+        xc = g_pos[cand]
+        w = 3.0 * g_tol[cand]
+        lo_i = np.searchsorted(obs.position, xc - w, side="left")
+        hi_i = np.searchsorted(obs.position, xc + w, side="right")
+        masked_all[cand] = _range_max(intensity_padded, lo_i, hi_i) >= predicted_all[cand]
+    # Density of peaks comparable in strength (≥ 30 % of the prediction)
+    # per group: a strong line is rarely matched by chance when strong
+    # peaks are few.
+    if has_int:
+        n_ge = sorted_intensity.size - np.searchsorted(
+            sorted_intensity, 0.3 * predicted_all, "left"
+        )
+        rho_all = np.where(with_scale, n_ge / span, density)
+    else:
+        rho_all = np.full(n_groups, density)
+    p_line_all = 1.0 - np.exp(-rho_all * (2.0 * g_tol + g_span))
+    sigma_all = sigma_lines[g_rep] if sigma_lines is not None else np.full(n_groups, sigma_dex)
+
+    # 3. The evidence of each species.
     evidence: dict[int, SpeciesEvidence] = {}
-    for code, ga, gb, la, lb in zip(
+    for code, ga, gb, la, lb, scale, pattern in zip(
         species_present.tolist(),
         g_start.tolist(),
         g_end.tolist(),
         l_start.tolist(),
         l_end.tolist(),
+        scales,
+        patterns,
         strict=True,
     ):
         sl = slice(ga, gb)
-        G = g_strength[sl]
-        known = g_known[sl]
-        fnd = found[sl]
-        peak = g_peak[sl]
-        uniq = g_unique[sl]
-        resp = g_resp[sl]
-        I_p = np.where(fnd, obs.intensity[np.where(fnd, peak, 0)], np.nan)
-        sat = np.where(fnd, obs.saturated[np.where(fnd, peak, 0)], False)
         ev = SpeciesEvidence(
             code=code,
             label=index.species_names[code],
@@ -363,93 +475,37 @@ def gather_evidence(
             family=index.species_family[code],
             n_lines_in_range=int(in_counts[code]),
         )
-        # Scale from found, unsaturated, known groups (unique ones when there are any).
-        pred_unit = G * resp
-        good = fnd & known & np.isfinite(I_p) & (I_p > 0) & ~sat & (pred_unit > 0)
-        use = good & uniq if np.any(good & uniq) else good
-        if np.any(use):
-            ratios = I_p[use] / pred_unit[use]
-            if xray:
-                # X-ray: the family's strongest found line sets the scale; it
-                # is the best predicted and best measured, and a weak line on
-                # another element's peak cannot inflate it.
-                ev.scale = float(ratios[int(np.argmax(pred_unit[use]))])
-            else:
-                ev.scale = _median(ratios)
-            if has_int and not xray:
-                # Censored median: groups that should be seen at this scale but
-                # have no peak enter at the detection limit (an upper bound of
-                # their ratio). The median of found lines alone is biased high:
-                # only the lines that came out bright were found.
-                unseen = known & ~fnd & (pred_unit > 0)
-                dl_u = obs.detection_limit_at(g_pos[sl])
-                for _ in range(4):
-                    cens = unseen & (ev.scale * pred_unit >= dl_u)
-                    new_scale = _median(np.concatenate([ratios, dl_u[cens] / pred_unit[cens]]))
-                    if new_scale == ev.scale:
-                        break
-                    ev.scale = new_scale
-        if np.sum(good & uniq) >= 3:
-            m = good & uniq
-            ev.pattern_r = _pearson(np.log(I_p[m]), np.log(pred_unit[m]))
-        with_int = has_int and ev.scale is not None
-        dl_g = obs.detection_limit_at(g_pos[sl]) if with_int else None
-        if with_int:
-            predicted = ev.scale * pred_unit
-            visible = known & (predicted >= dl_g)
-        else:
-            predicted = np.where(known, G, 0.0)
-            visible = known & (G >= strong_fraction)
-        masked = np.zeros_like(fnd)
-        cand = visible & ~fnd
-        if with_int and np.any(cand):
-            xc = g_pos[sl][cand]
-            w = 3.0 * g_tol[sl][cand]
-            lo_i = np.searchsorted(obs.position, xc - w, side="left")
-            hi_i = np.searchsorted(obs.position, xc + w, side="right")
-            masked[np.flatnonzero(cand)] = (
-                _range_max(intensity_padded, lo_i, hi_i) >= predicted[cand]
-            )
-        # Density of peaks comparable in strength (≥ 30 % of the prediction)
-        # per group: a strong line is rarely matched by chance when strong
-        # peaks are few.
-        if with_int:
-            n_ge = sorted_intensity.size - np.searchsorted(
-                sorted_intensity, 0.3 * predicted, "left"
-            )
-            rho = n_ge / span
-        else:
-            rho = np.full(G.size, density)
+        ev.scale = scale
+        ev.pattern_r = pattern
+        with_int = has_int and scale is not None
+        dl_g = dl_all[sl] if with_int else None
         ev.groups = {
-            "strength": G,
-            "known": known,
-            "found": fnd,
-            "peak": peak,
-            "unique": uniq,
-            "visible": visible,
-            "masked": masked,
-            "predicted": predicted,
-            "p_line": 1.0 - np.exp(-rho * (2.0 * g_tol[sl] + g_span[sl])),
+            "strength": g_strength[sl],
+            "known": g_known[sl],
+            "found": found[sl],
+            "peak": g_peak[sl],
+            "unique": g_unique[sl],
+            "visible": visible_all[sl],
+            "masked": masked_all[sl],
+            "predicted": predicted_all[sl],
+            "p_line": p_line_all[sl],
             "position": g_pos[sl],
             "line": g_line[sl],
             "rep": g_rep[sl],
-            "sigma": (
-                sigma_lines[g_rep[sl]] if sigma_lines is not None else np.full(G.size, sigma_dex)
-            ),
-            "explained": np.zeros(G.size, dtype=bool),
+            "sigma": sigma_all[sl],
+            "explained": np.zeros(gb - ga, dtype=bool),
             "dl": dl_g,
         }
         if xray:
             ev.groups.update(_xray_terms(obs, index, ev.groups, g_tol[sl], g_span[sl], dl_g))
-        ev.n_groups_in_range = int(G.size)
-        ev.n_strong_in_range = int(np.sum(known & (G >= strong_fraction)))
+        ev.n_groups_in_range = gb - ga
+        ev.n_strong_in_range = int(n_strong_cum[gb] - n_strong_cum[ga])
         ev.missing_evidence = bool(with_int)
         ev.prior_dex = prior_dex(abundance_prior, ev.element)
-        sel = order_l[la:lb]
-        lines, first = np.unique(ref[sel], return_index=True)
-        ev.found_lines = lines.tolist()
-        ev.found_peaks = pairs.obs[sel][first].tolist()
-        line_unique = g_unique[line_group[lines]]
+        line_unique = f_unique[la:lb]
+        lines = f_lines[la:lb]
+        ev.found_lines = f_lines_list[la:lb]
+        ev.found_peaks = f_peaks_list[la:lb]
         ev.unique_lines = lines[line_unique].tolist()
         ev.shared_lines = lines[~line_unique].tolist()
         evaluate(

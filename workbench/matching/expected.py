@@ -54,12 +54,16 @@ def strength_method(index: ReferenceIndex) -> np.ndarray:
     return np.where(atomic, "atomic", np.where(source, "source", "none"))
 
 
-def atomic_log_strength(index: ReferenceIndex, temperature_K: float, mode: str) -> np.ndarray:
-    """Natural log of the (unnormalised) strength from atomic data; NaN without it.
+#: Temperature-independent terms of :func:`atomic_log_strength` per index
+#: (the index is held, so its id is not reused while the entry lives).
+_ATOMIC_TERMS: dict[int, tuple[ReferenceIndex, dict[str, np.ndarray]]] = {}
 
-    Emission: ln(gA/λ) − E_k/kT; absorption: ln(gf·λ²) − E_i/kT (weak-line limit).
-    """
-    kT = _K_B_EV * float(temperature_K)
+
+def _atomic_terms(index: ReferenceIndex) -> dict[str, np.ndarray]:
+    """ln(gA), ln(gf), ln(λ), E_upper, E_lower and the "atomic" mask, once per index."""
+    hit = _ATOMIC_TERMS.get(id(index))
+    if hit is not None and hit[0] is index:
+        return hit[1]
     lam_nm = index.wavelength_vac_nm
     lam_A = lam_nm * 10.0
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -70,17 +74,40 @@ def atomic_log_strength(index: ReferenceIndex, temperature_K: float, mode: str) 
         )
         gf = np.where(np.isfinite(index.log_gf), 10.0**index.log_gf, gA * lam_A**2 / GF_TO_GA)
         photon_eV = sc.h * sc.c / sc.e / (lam_nm * 1e-9)
-        E_up = np.where(
-            np.isfinite(index.E_upper_eV), index.E_upper_eV, index.E_lower_eV + photon_eV
-        )
-        E_lo = np.where(
-            np.isfinite(index.E_lower_eV), index.E_lower_eV, index.E_upper_eV - photon_eV
-        )
+        terms = {
+            "log_gA": np.log(gA),
+            "log_gf": np.log(gf),
+            "log_lam": np.log(lam_nm),
+            "E_up": np.where(
+                np.isfinite(index.E_upper_eV), index.E_upper_eV, index.E_lower_eV + photon_eV
+            ),
+            "E_lo": np.where(
+                np.isfinite(index.E_lower_eV), index.E_lower_eV, index.E_upper_eV - photon_eV
+            ),
+            "atomic": strength_method(index) == "atomic",
+        }
+    for v in terms.values():
+        v.flags.writeable = False
+    if len(_ATOMIC_TERMS) >= 16:
+        _ATOMIC_TERMS.pop(next(iter(_ATOMIC_TERMS)))
+    _ATOMIC_TERMS[id(index)] = (index, terms)
+    return terms
+
+
+def atomic_log_strength(index: ReferenceIndex, temperature_K: float, mode: str) -> np.ndarray:
+    """Natural log of the (unnormalised) strength from atomic data; NaN without it.
+
+    Emission: ln(gA/λ) − E_k/kT; absorption: ln(gf·λ²) − E_i/kT (weak-line limit).
+    The temperature-independent terms are worked out once per index.
+    """
+    kT = _K_B_EV * float(temperature_K)
+    t = _atomic_terms(index)
+    with np.errstate(divide="ignore", invalid="ignore"):
         if mode == "absorption":
-            log_s = np.log(gf) + 2 * np.log(lam_nm) - E_lo / kT
+            log_s = t["log_gf"] + 2 * t["log_lam"] - t["E_lo"] / kT
         else:
-            log_s = np.log(gA) - np.log(lam_nm) - E_up / kT
-    return np.where(strength_method(index) == "atomic", log_s, np.nan)
+            log_s = t["log_gA"] - t["log_lam"] - t["E_up"] / kT
+    return np.where(t["atomic"], log_s, np.nan)
 
 
 def expected_strengths(

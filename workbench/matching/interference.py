@@ -28,6 +28,7 @@ Warnings (kind)
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -56,8 +57,10 @@ def _zero_nan(v):
     )
 
 
-def _predicted_at_peaks(ev_pass: EvidencePass, n_obs: int) -> dict[int, np.ndarray]:
-    """Sum of expected strength per (species, peak), as dense arrays for plausible species."""
+def _predicted_at_peaks(
+    ev_pass: EvidencePass, n_obs: int, wanted: set[int] | dict[int, object]
+) -> dict[int, np.ndarray]:
+    """Sum of expected strength per (species, peak), as dense arrays for the ``wanted`` species."""
     out: dict[int, np.ndarray] = {}
     raw = ev_pass.strengths[ev_pass.pairs.ref]
     known = np.isfinite(raw)
@@ -68,7 +71,7 @@ def _predicted_at_peaks(ev_pass: EvidencePass, n_obs: int) -> dict[int, np.ndarr
     codes, starts = np.unique(sp, return_index=True)
     ends = np.append(starts[1:], sp.size) if starts.size else starts
     for code, a, b in zip(codes.tolist(), starts.tolist(), ends.tolist(), strict=True):
-        if code not in ev_pass.evidence:
+        if code not in wanted:
             continue
         sel = order[a:b]
         obs_i = ev_pass.pairs.obs[sel]
@@ -87,26 +90,35 @@ def assign_peaks(
     """Assign every observed peak (see module docstring)."""
     n_obs = obs.position.size
     plausible = {c: ev for c, ev in ev_pass.evidence.items() if ev.level >= 1}
-    sums = _predicted_at_peaks(ev_pass, n_obs)
-    pairs = ev_pass.pairs
-    cand_by_peak: dict[int, set[int]] = {}
-    for p, s in zip(pairs.obs.tolist(), ev_pass.pair_species.tolist(), strict=True):
-        if s in plausible:
-            cand_by_peak.setdefault(p, set()).add(s)
-    out: list[PeakAssignment] = []
-    for p in range(n_obs):
-        codes = cand_by_peak.get(p)
-        if not codes:
-            out.append(PeakAssignment("unassigned", []))
+    out = [PeakAssignment("unassigned", []) for _ in range(n_obs)]
+    sp = ev_pass.pair_species
+    if not plausible or sp.size == 0:
+        return out
+    # The plausible species with a candidate at each peak, as sorted (peak, species) keys.
+    codes = np.fromiter(sorted(plausible), dtype=np.int64, count=len(plausible))
+    m = np.isin(sp, codes)
+    n_sp = int(sp.max()) + 1
+    keys = np.unique(ev_pass.pairs.obs[m].astype(np.int64) * n_sp + sp[m])
+    peak_of = (keys // n_sp).tolist()
+    code_of = (keys % n_sp).tolist()
+    starts = np.flatnonzero(np.diff(keys // n_sp, prepend=-1) != 0).tolist()
+    ends = [*starts[1:], len(keys)]
+    sums = _predicted_at_peaks(ev_pass, n_obs, plausible)
+
+    def predicted(c: int, p: int) -> float:
+        ev = plausible[c]
+        e = float(sums[c][p]) if c in sums else float("nan")
+        return e * ev.scale if ev.scale is not None else float("nan")
+
+    for a, b in zip(starts, ends, strict=True):
+        p = peak_of[a]
+        if b - a == 1:
+            # One plausible candidate: nothing to rank or share.
+            out[p] = PeakAssignment("assigned", [code_of[a]])
             continue
 
-        def predicted(c: int, p: int = p) -> float:
-            ev = plausible[c]
-            e = float(sums[c][p]) if c in sums else float("nan")
-            return e * ev.scale if ev.scale is not None else float("nan")
-
         def key(c: int, p: int = p) -> tuple:
-            pred = predicted(c)
+            pred = predicted(c, p)
             return (
                 -plausible[c].level,
                 -(pred if np.isfinite(pred) else 0.0),
@@ -114,15 +126,15 @@ def assign_peaks(
                 plausible[c].label,
             )
 
-        ranked = sorted(codes, key=key)
+        ranked = sorted(code_of[a:b], key=key)
         best = ranked[0]
         sharing = [best]
-        pb = predicted(best)
+        pb = predicted(best, p)
         for c in ranked[1:]:
-            pc = predicted(c)
+            pc = predicted(c, p)
             if not (np.isfinite(pb) and np.isfinite(pc)) or pc >= share_ratio * pb:
                 sharing.append(c)
-        out.append(PeakAssignment("shared" if len(sharing) > 1 else "assigned", sharing))
+        out[p] = PeakAssignment("shared" if len(sharing) > 1 else "assigned", sharing)
     return out
 
 
@@ -150,6 +162,27 @@ def _describe(ev: SpeciesEvidence, settle: dict[str, list[float]], unit: str) ->
     return f"{ev.label}: " + ("; ".join(parts) if parts else "no interference-free line in range")
 
 
+class _Settle:
+    """Settling lines and their description per species, computed once per warning run.
+
+    A species takes part in many warnings (hundreds in a dense spectrum); its
+    settling lines depend only on its evidence, so they are worked out once.
+    Each warning gets its own copy of the lists.
+    """
+
+    def __init__(self, index: ReferenceIndex, strengths: np.ndarray, unit: str) -> None:
+        self.index, self.strengths, self.unit = index, strengths, unit
+        self._cache: dict[int, tuple[dict[str, list[float]], str]] = {}
+
+    def __call__(self, ev: SpeciesEvidence) -> tuple[dict[str, list[float]], str]:
+        hit = self._cache.get(ev.code)
+        if hit is None:
+            settle = _settling_lines(ev, self.index, self.strengths)
+            hit = self._cache[ev.code] = (settle, _describe(ev, settle, self.unit))
+        settle, text = hit
+        return {"found": list(settle["found"]), "missing": list(settle["missing"])}, text
+
+
 def interference_warnings(
     obs: ObservedLines,
     index: ReferenceIndex,
@@ -165,20 +198,31 @@ def interference_warnings(
     pairs = ev_pass.pairs
     warnings: list[dict[str, object]] = []
     seen: set[tuple] = set()
+    settle = _Settle(index, e, unit)
+    # Pairs of each peak, in pair order (a stable sort; pairs come sorted by
+    # peak already, so this is usually the identity).
+    by_peak = np.argsort(pairs.obs, kind="stable")
+    bounds = np.searchsorted(pairs.obs[by_peak], np.arange(obs.position.size + 1), side="left")
     # 1. Peaks with candidates of two or more plausible species.
     for p, asg in enumerate(assignments):
-        sel = np.flatnonzero(pairs.obs == p) if asg.status == "shared" else np.array([], int)
+        if asg.status != "shared":
+            continue
+        sel = by_peak[bounds[p] : bounds[p + 1]]
         if sel.size == 0:
             continue
-        # The strongest candidate line of each sharing species at this peak.
+        # The strongest candidate line of each sharing species at this peak
+        # (the first of equals; unknown strength counts as 0).
         best_line: dict[int, int] = {}
-        for k in sel:
-            s = int(ev_pass.pair_species[k])
+        best_e: dict[int, float] = {}
+        refs = pairs.ref[sel]
+        for s, r, v in zip(
+            ev_pass.pair_species[sel].tolist(), refs.tolist(), e[refs].tolist(), strict=True
+        ):
             if s not in asg.species:
                 continue
-            r = int(pairs.ref[k])
-            if s not in best_line or _zero_nan(e[r]) > _zero_nan(e[best_line[s]]):
-                best_line[s] = r
+            v = _zero_nan(v)
+            if s not in best_line or v > best_e[s]:
+                best_line[s], best_e[s] = r, v
         codes = [s for s in asg.species if s in best_line]
         for i, a in enumerate(codes):
             for b in codes[i + 1 :]:
@@ -195,8 +239,8 @@ def interference_warnings(
                         ev_all[b],
                         ra,
                         rb,
-                        e,
                         unit,
+                        settle,
                         observed=float(obs.position[p]),
                         peak=p,
                     )
@@ -229,8 +273,8 @@ def interference_warnings(
                 ev_b,
                 int(g_a["line"][at_p[0]]),
                 int(g_b["line"][main]),
-                e,
                 unit,
+                settle,
                 observed=float(obs.position[p]),
                 peak=p,
             )
@@ -244,29 +288,51 @@ def interference_warnings(
     other_idx = np.flatnonzero(usable)
     other_pos = index.position[other_idx]
     reported = {tuple(sorted(w["elements"])) for w in warnings}
-    by_pair: dict[tuple[int, int], list[tuple[float, int, int]]] = {}
+    by_pair: dict[tuple[int, int], tuple[int, int, int]] = {}
     for code, ev in sorted(ev_all.items()):
         if ev.level < 2:
             continue
-        strong = [
-            i for i in ev.found_lines + ev.missing_lines if _zero_nan(e[i]) >= strong_fraction
+        lines = np.asarray(ev.found_lines + ev.missing_lines, dtype=np.int64)
+        e_l = e[lines]
+        strong = lines[np.where(np.isnan(e_l), 0.0, e_l) >= strong_fraction]
+        if strong.size == 0:
+            continue
+        # Every (strong line, other line within its window) pair at once.
+        x = index.position[strong]
+        tol = (
+            np.interp(x, obs.position, obs.half_window)
+            if obs.position.size
+            else np.zeros(strong.size)
+        )
+        lo = np.searchsorted(other_pos, x - tol)
+        hi = np.searchsorted(other_pos, x + tol + 1e-12)
+        counts = np.maximum(hi - lo, 0)
+        n = int(counts.sum())
+        if n == 0:
+            continue
+        k = np.repeat(np.arange(strong.size), counts)
+        j = other_idx[
+            np.repeat(lo, counts) + np.arange(n) - np.repeat(np.cumsum(counts) - counts, counts)
         ]
-        for i in strong:
-            x = index.position[i]
-            tol = float(np.interp(x, obs.position, obs.half_window)) if obs.position.size else 0.0
-            lo, hi = np.searchsorted(other_pos, [x - tol, x + tol + 1e-12])
-            for j in other_idx[lo:hi]:
-                s = int(index.species[j])
-                if s != code:
-                    by_pair.setdefault((code, s), []).append(
-                        (abs(x - index.position[j]), i, int(j))
-                    )
-    for (code, s), found in sorted(by_pair.items()):
+        s_j = index.species[j]
+        keep = s_j != code
+        k, j, s_j = k[keep], j[keep], s_j[keep]
+        d = np.abs(x[k] - index.position[j])
+        i_line = strong[k]
+        # Per other species: the number of pairs and the closest pair (the
+        # smallest (separation, line, other line), as min() of the tuples).
+        order = np.lexsort((j, i_line, d, s_j))
+        s_o = s_j[order]
+        first = np.flatnonzero(np.diff(s_o, prepend=-1) != 0)
+        n_pairs = np.diff(np.append(first, s_o.size))
+        for f, cnt in zip(first.tolist(), n_pairs.tolist(), strict=True):
+            o = order[f]
+            by_pair[(code, int(s_o[f]))] = (cnt, int(i_line[o]), int(j[o]))
+    for (code, s), (n_found, i, j) in sorted(by_pair.items()):
         labels = tuple(sorted([ev_all[code].label, ev_all[s].label]))
         if labels in reported:
             continue
         reported.add(labels)
-        _, i, j = min(found)
         w = _overlap_warning(
             "reference_overlap",
             index,
@@ -274,14 +340,14 @@ def interference_warnings(
             ev_all[s],
             i,
             j,
-            e,
             unit,
+            settle,
             observed=None,
             peak=None,
         )
-        if len(found) > 1:
-            w["message"] += f" ({len(found)} overlapping line pairs in all.)"
-        w["n_pairs"] = len(found)
+        if n_found > 1:
+            w["message"] += f" ({n_found} overlapping line pairs in all.)"
+        w["n_pairs"] = n_found
         warnings.append(w)
     return warnings
 
@@ -293,8 +359,8 @@ def _overlap_warning(
     ev_b: SpeciesEvidence,
     line_a: int,
     line_b: int,
-    e: np.ndarray,
     unit: str,
+    settle: _Settle,
     *,
     observed: float | None,
     peak: int | None,
@@ -303,15 +369,14 @@ def _overlap_warning(
     sep = abs(xa - xb)
     mean = 0.5 * (xa + xb)
     needed = mean / sep if sep > 0 else float("inf")
-    settle_a = _settling_lines(ev_a, index, e)
-    settle_b = _settling_lines(ev_b, index, e)
+    settle_a, describe_a = settle(ev_a)
+    settle_b, describe_b = settle(ev_b)
     where = f"observed line at {observed:.4f} {unit}: " if observed is not None else ""
-    needed_txt = f"R ≥ {needed:,.0f}" if np.isfinite(needed) else "not separable (same position)"
+    needed_txt = f"R ≥ {needed:,.0f}" if math.isfinite(needed) else "not separable (same position)"
     message = (
         f"{where}{ev_a.label} {xa:.4f} and {ev_b.label} {xb:.4f} {unit} are within the match "
         f"window (separation {sep:.4f} {unit}; separating them needs {needed_txt}). "
-        f"Settle with other lines — {_describe(ev_a, settle_a, unit)}; "
-        f"{_describe(ev_b, settle_b, unit)}."
+        f"Settle with other lines — {describe_a}; {describe_b}."
     )
     return {
         "kind": kind,
@@ -320,7 +385,7 @@ def _overlap_warning(
         "lines": [str(index.line_id[line_a]), str(index.line_id[line_b])],
         "positions": [round(xa, 6), round(xb, 6)],
         "separation": round(sep, 6),
-        "resolving_power_needed": round(needed, 1) if np.isfinite(needed) else None,
+        "resolving_power_needed": round(needed, 1) if math.isfinite(needed) else None,
         "observed": round(observed, 6) if observed is not None else None,
         "peak_index": peak,
         "settle": {ev_a.label: settle_a, ev_b.label: settle_b},

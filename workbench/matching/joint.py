@@ -83,10 +83,13 @@ def explain_jointly(
     n_obs = obs.position.size
     claim_pred = np.full(n_obs, -np.inf)
     claim_sp = np.full(n_obs, -1, dtype=np.int64)
-    claim_el = np.full(n_obs, "", dtype=object)
+    # Elements as integer codes (-1 = none): comparing strings in object
+    # arrays per species is the slow part of this walk otherwise.
+    el_code = {el: i for i, el in enumerate(sorted({v.element for v in ev_pass.evidence.values()}))}
+    claim_el = np.full(n_obs, -1, dtype=np.int64)
     # Element of the best-ranked "probable"-or-better species that has a
-    # found group at each peak ("" = none yet).
-    touch_el = np.full(n_obs, "", dtype=object)
+    # found group at each peak (-1 = none yet).
+    touch_el = np.full(n_obs, -1, dtype=np.int64)
     with_int = np.isfinite(obs.intensity)
     if family_ratio is not None:
         # Families already established before the walk support their
@@ -110,15 +113,16 @@ def explain_jointly(
     ranked = sorted(ev_pass.evidence.values(), key=lambda v: (-v.net_evidence_dex, v.label))
     for ev in ranked:
         g = ev.groups
+        el = el_code[ev.element]
         found = g["found"]
         pk = np.where(found, g["peak"], 0)
         # Unique in the joint sense: no better-ranked supported species of
         # another element has a line at the peak.
-        jointly_unique = found & ((touch_el[pk] == "") | (touch_el[pk] == ev.element))
+        jointly_unique = found & ((touch_el[pk] == -1) | (touch_el[pk] == el))
         changed = bool(np.any(jointly_unique & ~g["unique"]))
         if changed:
             g["unique"] = g["unique"] | jointly_unique
-        claimed = found & (claim_sp[pk] >= 0) & (claim_el[pk] != ev.element)
+        claimed = found & (claim_sp[pk] >= 0) & (claim_el[pk] != el)
         expl = np.zeros_like(found)
         if np.any(claimed):
             enough = np.where(
@@ -161,15 +165,15 @@ def explain_jointly(
             )
         if ev.level >= 2:
             t = pk[own]
-            t = t[touch_el[t] == ""]
-            touch_el[t] = ev.element
+            t = t[touch_el[t] == -1]
+            touch_el[t] = el
         if ev.level >= 2:
             p = pk[own]
             pred = g["predicted"][own]
             better = pred > claim_pred[p]
             claim_pred[p[better]] = pred[better]
             claim_sp[p[better]] = ev.code
-            claim_el[p[better]] = ev.element
+            claim_el[p[better]] = el
 
 
 def _main_position(ev) -> float:

@@ -22,6 +22,7 @@ give byte-identical output.
 
 from __future__ import annotations
 
+import math
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -52,7 +53,8 @@ def result_json(report: dict[str, Any], indent: int | None = None) -> bytes:
 
 
 def _num(v: float) -> float | None:
-    return float(v) if v is not None and np.isfinite(v) else None
+    # math.isfinite: the same answer as np.isfinite for a scalar, far cheaper.
+    return float(v) if v is not None and math.isfinite(v) else None
 
 
 def build_report(result: MatchResult) -> dict[str, Any]:
@@ -72,33 +74,55 @@ def build_report(result: MatchResult) -> dict[str, Any]:
     for ev in sorted(ev_pass.evidence.values(), key=lambda v: (-v.level, -v.score, v.label)):
         shared = set(ev.shared_lines)
         matched = []
-        for line, peak in sorted(
-            zip(ev.found_lines, ev.found_peaks, strict=True), key=lambda t: idx.position[t[0]]
+        # Matched lines by reference position (a stable sort, as sorted() is),
+        # their fields as Python lists (not a NumPy scalar per value).
+        m_line = np.asarray(ev.found_lines, dtype=np.int64)
+        m_peak = np.asarray(ev.found_peaks, dtype=np.int64)
+        by_pos = np.argsort(idx.position[m_line], kind="stable")
+        m_line, m_peak = m_line[by_pos], m_peak[by_pos]
+        for line, peak, lid, x_obs, x_ref, delta, e_rel, inten, sat, trans in zip(
+            m_line.tolist(),
+            m_peak.tolist(),
+            idx.line_id[m_line].tolist(),
+            pos_obs[m_peak].tolist(),
+            idx.position[m_line].tolist(),
+            (obs.position[m_peak] - idx.position[m_line]).tolist(),
+            e[m_line].tolist(),
+            obs.intensity[m_peak].tolist(),
+            obs.saturated[m_peak].tolist(),
+            idx.transition[m_line].tolist(),
+            strict=True,
         ):
-            inten = obs.intensity[peak]
-            obs_rel = inten / ev.scale if ev.scale and np.isfinite(inten) else None
+            obs_rel = inten / ev.scale if ev.scale and math.isfinite(inten) else None
             matched.append(
                 {
-                    "line_id": str(idx.line_id[line]),
-                    f"observed_{u}": _num(pos_obs[peak]),
-                    f"reference_{u}": _num(idx.position[line]),
-                    f"delta_{u}": _num(obs.position[peak] - idx.position[line]),
-                    "expected_rel": _num(e[line]),
+                    "line_id": str(lid),
+                    f"observed_{u}": _num(x_obs),
+                    f"reference_{u}": _num(x_ref),
+                    f"delta_{u}": _num(delta),
+                    "expected_rel": _num(e_rel),
                     "observed_rel": _num(obs_rel) if obs_rel is not None else None,
-                    "peak_index": int(peak),
+                    "peak_index": peak,
                     "shared": line in shared,
-                    "saturated": bool(obs.saturated[peak]),
-                    "transition": idx.transition[line],
+                    "saturated": bool(sat),
+                    "transition": trans,
                 }
             )
+        x_line = np.asarray(ev.missing_lines, dtype=np.int64)
         missing = [
             {
-                "line_id": str(idx.line_id[line]),
-                f"reference_{u}": _num(idx.position[line]),
-                "expected_rel": _num(e[line]),
+                "line_id": str(lid),
+                f"reference_{u}": _num(x_ref),
+                "expected_rel": _num(e_rel),
                 "predicted_intensity": _num(pred),
             }
-            for line, pred in zip(ev.missing_lines, ev.missing_predicted, strict=True)
+            for lid, x_ref, e_rel, pred in zip(
+                idx.line_id[x_line].tolist(),
+                idx.position[x_line].tolist(),
+                e[x_line].tolist(),
+                ev.missing_predicted,
+                strict=True,
+            )
         ]
         elements.append(
             {
@@ -141,29 +165,39 @@ def build_report(result: MatchResult) -> dict[str, Any]:
     names = idx.species_names
     pairs = ev_pass.pairs
     order = np.lexsort((np.abs(pairs.delta), pairs.obs))
+    # Pair and peak fields as Python lists once (not a NumPy scalar per value).
+    pair_obs = pairs.obs[order].tolist()
+    pair_ref = pairs.ref[order]
+    pair_species = [names[c] for c in idx.species[pair_ref].tolist()]
+    pair_line_id = [str(v) for v in idx.line_id[pair_ref].tolist()]
+    pair_pos = idx.position[pair_ref].tolist()
+    pair_delta = pairs.delta[order].tolist()
+    pair_e = e[pair_ref].tolist()
     by_peak: dict[int, list[int]] = {}
-    for k in order.tolist():
-        by_peak.setdefault(int(pairs.obs[k]), []).append(k)
+    for k, p in enumerate(pair_obs):
+        by_peak.setdefault(p, []).append(k)
+    pos_obs_l = pos_obs.tolist()
+    inten_l = obs.intensity.tolist()
+    half_l = obs.half_window.tolist()
     lines = []
     for p, asg in enumerate(result.assignments):
         cands = []
         for k in by_peak.get(p, [])[:_MAX_CANDIDATES]:
-            r = int(pairs.ref[k])
             cands.append(
                 {
-                    "species": names[int(idx.species[r])],
-                    "line_id": str(idx.line_id[r]),
-                    f"reference_{u}": _num(idx.position[r]),
-                    f"delta_{u}": _num(pairs.delta[k]),
-                    "expected_rel": _num(e[r]),
+                    "species": pair_species[k],
+                    "line_id": pair_line_id[k],
+                    f"reference_{u}": _num(pair_pos[k]),
+                    f"delta_{u}": _num(pair_delta[k]),
+                    "expected_rel": _num(pair_e[k]),
                 }
             )
         lines.append(
             {
                 "index": p,
-                f"observed_{u}": _num(pos_obs[p]),
-                "intensity": _num(obs.intensity[p]),
-                f"tolerance_{u}": _num(obs.half_window[p]),
+                f"observed_{u}": _num(pos_obs_l[p]),
+                "intensity": _num(inten_l[p]),
+                f"tolerance_{u}": _num(half_l[p]),
                 "status": asg.status,
                 "label": result.peak_labels.get(p),
                 "assigned_to": [names[c] for c in asg.species],
