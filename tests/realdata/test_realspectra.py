@@ -47,8 +47,6 @@ LAMPS_HELD = list(HELD_OUT)
 
 #: (file, element): clearly present (≥ 3 identified lines) but not at the top class today.
 KNOWN_GAPS = {
-    ("goodman_comp_1200M2_FeHeAr", "Fe"),
-    ("goodman_comp_1200M3_FeHeAr", "Fe"),
     ("goodman_comp_1200M4_GG455_FeHeAr", "Fe"),
     ("lrisr_400_8500_PYPIT", "Kr"),
     ("lrisr_400_8500_PYPIT", "Xe"),

@@ -130,6 +130,7 @@ __all__ = [
     "class_level",
     "decide_verdict",
     "evaluate",
+    "misses_tail_probability",
     "score_for",
     "score_of",
     "xray_agreement",
@@ -165,6 +166,9 @@ XRAY_SOLE_DEX: float = float(-np.log10(XRAY_OUTSIDE_PROBABILITY))
 XRAY_SOLE_SNR: float = 10.0
 
 _LN10 = float(np.log(10.0))
+#: Rounding of the miss weights ln((1 − m)/m) in :func:`misses_tail_probability`
+#: (nats): a twentieth of the weight of a surely-visible line (ln 4 = 1.39).
+_MISS_WEIGHT_QUANTUM: float = 0.05
 
 
 @dataclass
@@ -255,13 +259,17 @@ def evaluate(
     penalty = 0.0
     if ev.missing_evidence and detection_limit and np.any(missing):
         dl = g.get("dl")
-        dl = dl[missing] if dl is not None else detection_limit
-        with np.errstate(divide="ignore"):
-            sig = g["sigma"][missing] if "sigma" in g else sigma_dex
-            z = (np.log10(dl) - np.log10(pred[missing])) / sig
+        dl = dl if dl is not None else np.full(pred.size, float(detection_limit))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sig = g["sigma"] if "sigma" in g else np.full(pred.size, sigma_dex)
+            z = (np.log10(dl) - np.log10(pred)) / sig
         z = np.nan_to_num(z, nan=0.0, posinf=np.inf, neginf=-np.inf)
         p_miss = LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
-        penalty = float(np.sum(np.log10(p_miss)))
+        if "delta" in g:
+            # X-ray: each missing group costs log10 P(not seen | present).
+            penalty = float(np.sum(np.log10(p_miss[missing])))
+        else:
+            penalty = float(np.log10(misses_tail_probability(p_miss[nset], missing[nset])))
     ev.missing_penalty_dex = penalty
     ev.xray = "delta" in g
     if ev.xray:
@@ -294,6 +302,66 @@ def evaluate(
         ev.found_fraction = 0.0
     ev.level = decide_verdict(ev)
     ev.score = score_of(ev)
+
+
+def misses_tail_probability(p_miss: np.ndarray, missed: np.ndarray) -> float:
+    """P(a record of misses at least this bad | the species is present), exact.
+
+    Each group that should be seen is missed, if the species is present,
+    with probability m_i = ε + (1 − ε)·Φ(z_i) (module docstring). How bad a
+    record of misses is, is measured by its log-likelihood under "present",
+    T = Σ_missed log m_i + Σ_found log(1 − m_i); equivalently by the weighted
+    miss count W = Σ_missed w_i with w_i = ln((1 − m_i)/m_i) (a line that
+    should surely be seen weighs most). The returned tail P(W ≥ W_obs) is
+    computed exactly by convolution over the groups, with w_i rounded to
+    :data:`_MISS_WEIGHT_QUANTUM` nats (w_i < 0, a group more likely missed
+    than seen, weighs 0).
+
+    Why a tail and not Σ log10 m_i over the missed groups: the chance
+    probability (:func:`evaluate`) is a binomial tail over the same groups,
+    which already charges the misses against the coincidence hypothesis
+    (k of n found, not k of k). What the misses must add is whether they are
+    *more than presence explains*: a species that loses 45 % of its groups
+    where its model (σ and ε) expects 45 % to be lost (Fe I of a hollow
+    cathode lamp, predicted by a 1.2-dex Boltzmann prior) has an ordinary
+    record, while one whose two surely-visible strongest lines are both
+    missing and nothing else was expected to be lost has a record present
+    species give in 0.2 × 0.2 = 4 % of cases. The tail is never smaller than
+    Π_missed m_i (the chance that at least those groups are missed), so the
+    penalty is never harsher than the product of the single-line terms.
+
+    Parameters
+    ----------
+    p_miss : numpy.ndarray
+        m_i per group that should be seen.
+    missed : numpy.ndarray of bool
+        Which of them have no peak.
+
+    Returns
+    -------
+    float
+        The tail probability in (0, 1].
+    """
+    if not np.any(missed):
+        return 1.0
+    m = np.clip(p_miss, 1e-12, 1.0 - 1e-12)
+    w = np.log((1.0 - m) / m)
+    units = np.rint(np.maximum(w, 0.0) / _MISS_WEIGHT_QUANTUM).astype(np.int64)
+    observed = int(np.sum(units[missed]))
+    if observed == 0:
+        return 1.0
+    dist = np.zeros(int(units.sum()) + 1)
+    dist[0] = 1.0
+    top = 0
+    for u, mi in zip(units.tolist(), m.tolist(), strict=True):
+        if u == 0:
+            continue
+        nxt = np.zeros(top + u + 1)
+        nxt[: top + 1] = dist[: top + 1] * (1.0 - mi)
+        nxt[u:] += dist[: top + 1] * mi
+        top += u
+        dist[: top + 1] = nxt
+    return float(min(1.0, max(np.sum(dist[observed : top + 1]), 1e-300)))
 
 
 def _mixture_lr_dex(z: np.ndarray, sigma: np.ndarray, width: np.ndarray) -> np.ndarray:
