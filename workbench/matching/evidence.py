@@ -308,6 +308,10 @@ def gather_evidence(
     g_peak[g_first] = pairs.obs[order[first_at]]
     g_line = np.full(n_groups, -1, dtype=np.int64)  # the line nearest its peak
     g_line[g_first] = pairs.ref[order[first_at]]
+    # Optical closeness (scoring.closeness_probability): the found peak's
+    # offset from its nearest line, in half-windows.
+    g_offset = np.full(n_groups, np.nan)
+    g_offset[g_first] = pairs.delta[order[first_at]]
     found = g_peak >= 0
     pk = np.where(found, g_peak, 0)
     key = pk.astype(np.int64) * index.n_species + g_species
@@ -438,6 +442,9 @@ def gather_evidence(
             ),
             "explained": np.zeros(G.size, dtype=bool),
             "dl": dl_g,
+            "offset_u": g_offset[sl] / g_tol[sl],
+            "offset_window_u": 2.0 + g_span[sl] / g_tol[sl],
+            "offset_lines": g_count[sl],
         }
         if xray:
             ev.groups.update(_xray_terms(obs, index, ev.groups, g_tol[sl], g_span[sl], dl_g))
