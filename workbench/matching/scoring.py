@@ -8,17 +8,20 @@ groups that should be seen
     × group strength × instrument response; see
     :mod:`workbench.matching.evidence`), or, for a peak list without
     intensities, groups at least ``strong_fraction`` of the species'
-    strongest. Masked groups (a stronger peak within three half-windows
-    could hide them) and groups *explained* by a better-supported species
+    strongest. Masked groups (missing, but a peak at least as strong as the
+    prediction lies within three half-windows and could hide them), crowded
+    groups (found, with such a peak beside their window: judged alike, so
+    that the chance test does not keep the hits and drop the misses) and
+    groups *explained* by a better-supported species
     (:mod:`workbench.matching.joint`) are left out, counted neither way.
 chance probability ``p``
     Binomial probability that at least ``k`` of the ``n`` groups that should
     be seen would have a peak in their window by coincidence, with per-group
     probability 1 − exp(−ρ·(2·tol + span)) (span: the group's extent, so a
     long chain of close lines pays for being easy to hit), ρ the density of
-    observed peaks at least
-    30 % as intense as the prediction (all peaks without intensities). This
-    is what keeps a species with few listed lines from "fitting" a dense
+    observed peaks (any peak in the window makes a group found, so any peak
+    is a chance hit; on the energy axis, peaks at least 30 % as intense as
+    the prediction). This is what keeps a species with few listed lines from "fitting" a dense
     spectrum. On a wavelength axis, once the spectrum's common peak-to-line
     offset is known (:func:`workbench.matching.passes.offset_centre`), ``p``
     is combined (Fisher) with the closeness probability
@@ -191,6 +194,10 @@ _LN10 = float(np.log(10.0))
 #: Rounding of the miss weights ln((1 − m)/m) in :func:`misses_tail_probability`
 #: (nats): a twentieth of the weight of a surely-visible line (ln 4 = 1.39).
 _MISS_WEIGHT_QUANTUM: float = 0.05
+#: Most weighted groups for the exact convolution in misses_tail_probability;
+#: beyond it the normal approximation (speed: a species with hundreds of
+#: groups in a dense spectrum).
+_EXACT_MAX_GROUPS: int = 40
 #: Smallest closeness term c per group (closeness_probability): peak centres
 #: and tabulated wavelengths are not known better than about a hundredth of
 #: a half-window, so a closer coincidence is not counted as closer than that
@@ -265,7 +272,10 @@ def evaluate(
     g = ev.groups
     valid = ~g["explained"]
     found = g["found"] & valid
-    nset = g["visible"] & ~g["masked"] & valid
+    # Groups with a stronger peak close by are left out of the chance test
+    # alike whether found or not ("masked" when missing, "crowded" when
+    # found): leaving out only the missing ones counted the hits alone.
+    nset = g["visible"] & ~g["masked"] & ~g.get("crowded", g["masked"] & False) & valid
     k = int(np.sum(nset & found))
     n = int(np.sum(nset))
     ev.n_groups_found = int(np.sum(found))
@@ -355,7 +365,9 @@ def misses_tail_probability(p_miss: np.ndarray, missed: np.ndarray) -> float:
     should surely be seen weighs most). The returned tail P(W ≥ W_obs) is
     computed exactly by convolution over the groups, with w_i rounded to
     :data:`_MISS_WEIGHT_QUANTUM` nats (w_i < 0, a group more likely missed
-    than seen, weighs 0).
+    than seen, weighs 0); beyond :data:`_EXACT_MAX_GROUPS` weighted groups
+    by the normal approximation of W (a sum of many small independent
+    terms), never below Π_missed m_i.
 
     Why a tail and not Σ log10 m_i over the missed groups: the chance
     probability (:func:`evaluate`) is a binomial tail over the same groups,
@@ -390,18 +402,26 @@ def misses_tail_probability(p_miss: np.ndarray, missed: np.ndarray) -> float:
     observed = int(np.sum(units[missed]))
     if observed == 0:
         return 1.0
-    dist = np.zeros(int(units.sum()) + 1)
+    keep = units > 0
+    m, units = m[keep], units[keep]
+    if units.size > _EXACT_MAX_GROUPS:
+        # Many groups: W is a sum of many small independent terms, so its
+        # distribution is close to normal (continuity-corrected by half a
+        # unit); never below the chance that the missed groups are missed.
+        mu = float(np.sum(m * units))
+        sd = float(np.sqrt(np.sum(m * (1.0 - m) * units.astype(float) ** 2)))
+        tail = float(special.ndtr(-(observed - 0.5 - mu) / sd)) if sd > 0 else 0.0
+        return float(min(1.0, max(tail, float(np.prod(np.clip(p_miss[missed], 1e-12, 1.0))))))
+    # Exact: the distribution of W below the observed value; what moves past
+    # it is in the tail.
+    dist = np.zeros(observed)
     dist[0] = 1.0
-    top = 0
     for u, mi in zip(units.tolist(), m.tolist(), strict=True):
-        if u == 0:
-            continue
-        nxt = np.zeros(top + u + 1)
-        nxt[: top + 1] = dist[: top + 1] * (1.0 - mi)
-        nxt[u:] += dist[: top + 1] * mi
-        top += u
-        dist[: top + 1] = nxt
-    return float(min(1.0, max(np.sum(dist[observed : top + 1]), 1e-300)))
+        shifted = dist[: observed - u] * mi if u < observed else None
+        dist *= 1.0 - mi
+        if shifted is not None:
+            dist[u:] += shifted
+    return float(min(1.0, max(1.0 - float(np.sum(dist)), 1e-300)))
 
 
 def closeness_probability(
