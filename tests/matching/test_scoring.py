@@ -8,7 +8,13 @@ import pytest
 
 from workbench.datamodel import PeakList
 from workbench.matching import MatchParameters, match_peaks
-from workbench.matching.scoring import LOSS_PROBABILITY, XRAY_SOLE_DEX, xray_agreement
+from workbench.matching.scoring import (
+    LOSS_PROBABILITY,
+    XRAY_SOLE_DEX,
+    closeness_probability,
+    misses_tail_probability,
+    xray_agreement,
+)
 from workbench.refdata import load_set
 
 
@@ -77,3 +83,64 @@ def test_ideal_cu_k_is_probable_and_nothing_else_is():
     levels = {el["species"]: el["verdict_level"] for el in rep["elements"]}
     assert levels["Cu K"] >= 2
     assert all(v == 0 for sp, v in levels.items() if sp != "Cu K"), levels
+
+
+# --- optical terms: missing-line tail and closeness (issue 9 follow-up) ---
+
+
+def _brute_force_tail(m, missed):
+    """P(W ≥ W_obs) by enumerating every miss pattern (oracle for small n; derived here)."""
+    import itertools
+
+    w = np.maximum(np.log((1 - m) / m), 0.0)
+    w_obs = float(np.sum(w[missed]))
+    total = 0.0
+    for pattern in itertools.product([False, True], repeat=m.size):
+        pat = np.array(pattern)
+        prob = float(np.prod(np.where(pat, m, 1 - m)))
+        if np.sum(w[pat]) >= w_obs - 1e-9:
+            total += prob
+    return total
+
+
+@pytest.mark.parametrize(
+    ("m", "missed"),
+    [
+        ([0.2], [True]),  # one surely-visible line missed: ε itself
+        ([0.2, 0.2, 0.2, 0.2, 0.2], [True, False, False, False, False]),  # 1 − 0.8⁵
+        ([0.2, 0.2], [True, True]),  # 0.04
+        ([0.2, 0.35, 0.5, 0.6, 0.25, 0.3], [False, True, True, True, False, True]),
+    ],
+)
+def test_misses_tail_matches_enumeration(m, missed):
+    m, missed = np.array(m), np.array(missed)
+    got = misses_tail_probability(m, missed)
+    # Weights are rounded to 0.05 nats in the engine: allow that much.
+    assert got == pytest.approx(_brute_force_tail(m, missed), abs=0.03)
+    # Never harsher than the product of the single-line terms.
+    assert got >= float(np.prod(m[missed])) - 1e-12
+
+
+def test_closeness_is_uniform_under_chance():
+    # Under "absent" a peak is uniform in its window, so the closeness probability
+    # of k chance peaks must itself be uniform: P(c ≤ 0.05) ≈ 0.05 (definition of a
+    # p-value; seeded simulation, tolerance ±0.02 for 4000 draws).
+    rng = np.random.default_rng(20261202)
+    k = 5
+    cs = [
+        closeness_probability(
+            rng.uniform(-1, 1, k), np.full(k, 2.0), np.ones(k, dtype=int), centre_u=-0.15
+        )
+        for _ in range(4000)
+    ]
+    frac = float(np.mean(np.array(cs) <= 0.05))
+    assert frac == pytest.approx(0.05, abs=0.02)
+
+
+def test_close_peaks_are_evidence_and_far_ones_are_not():
+    # Five peaks 0.02 half-windows from their lines (after the common offset):
+    # c = 0.02 each, Fisher: q = 3.2e-9, q·Σ_{j<5} (−ln q)^j/j! = 2.4e-5 (derived here).
+    near = closeness_probability(np.full(5, 0.02), np.full(5, 2.0), np.ones(5, dtype=int))
+    far = closeness_probability(np.full(5, 0.9), np.full(5, 2.0), np.ones(5, dtype=int))
+    assert near < 1e-4
+    assert far > 0.5

@@ -146,6 +146,8 @@ class PassLayout:
     grp: np.ndarray
     g_peak: np.ndarray
     g_line: np.ndarray
+    g_offset: np.ndarray
+    g_count: np.ndarray
     found: np.ndarray
     pk: np.ndarray
     n_obs: int
@@ -274,6 +276,10 @@ def pass_layout(
     g_peak[g_first] = pairs.obs[order[first_at]]
     g_line = np.full(n_groups, -1, dtype=np.int64)  # the line nearest its peak
     g_line[g_first] = pairs.ref[order[first_at]]
+    # Optical closeness (scoring.closeness_probability): the found peak's
+    # offset from its nearest line.
+    g_offset = np.full(n_groups, np.nan)
+    g_offset[g_first] = pairs.delta[order[first_at]]
     found = g_peak >= 0
     pk = np.where(found, g_peak, 0)
     n_obs = obs.position.size
@@ -330,6 +336,8 @@ def pass_layout(
         grp=grp,
         g_peak=g_peak,
         g_line=g_line,
+        g_offset=g_offset,
+        g_count=g_count,
         found=found,
         pk=pk,
         n_obs=n_obs,

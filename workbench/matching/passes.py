@@ -18,7 +18,7 @@ from workbench.matching.params import MatchParameters
 from workbench.matching.pooling import pool_ion_stages
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.response import ResponseFit, fit_response
-from workbench.matching.scoring import PROBABLE_DEX
+from workbench.matching.scoring import PROBABLE_DEX, evaluate
 from workbench.matching.sourcemodels import (
     SOURCE_MODELS,
     model_sigma,
@@ -120,6 +120,8 @@ def second_pass(
         second = gather_evidence(obs, index, strengths, in_range, response=resp_lines, **kw)
     elif second is None:
         second = gather_evidence(obs, index, strengths, in_range, **kw)
+    if index.axis == "wavelength":
+        apply_offset_centre(second, obs, sigma_dex=sigma, strong_fraction=params.strong_fraction)
     explain_jointly(
         second,
         obs,
@@ -131,6 +133,57 @@ def second_pass(
     if index.axis == "wavelength":
         pool_ion_stages(second)
     return second, response
+
+
+#: Fewest found, unique single-line groups (of species called probable or
+#: better) needed to measure the spectrum's common offset; below it no
+#: closeness term is used (common practice, no source).
+MIN_CENTRE_GROUPS: int = 8
+
+
+def offset_centre(ev_pass: EvidencePass) -> float | None:
+    """The spectrum's common peak-to-line offset (half-windows), or ``None``.
+
+    Median offset of the found, unique, single-line groups of every species
+    called probable or better (measured like the instrument response, on the
+    well-identified species): a wavelength-scale shift too small for the
+    scale check to apply still moves every real line alike, and the
+    closeness of a species' peaks to its lines
+    (:func:`workbench.matching.scoring.closeness_probability`) is measured
+    from it. ``None`` with fewer than :data:`MIN_CENTRE_GROUPS` such groups.
+    """
+    u = []
+    for ev in ev_pass.evidence.values():
+        if ev.level < 2 or ev.xray:
+            continue
+        g = ev.groups
+        m = g["found"] & g["unique"] & ~g["explained"] & (g["offset_lines"] == 1)
+        u.append(g["offset_u"][m])
+    a = np.concatenate(u) if u else np.zeros(0)
+    a = a[np.isfinite(a)]
+    if a.size < MIN_CENTRE_GROUPS:
+        return None
+    return float(np.median(a))
+
+
+def apply_offset_centre(
+    ev_pass: EvidencePass, obs: ObservedLines, *, sigma_dex: float, strong_fraction: float
+) -> None:
+    """Re-evaluate every optical species with the closeness term (in place)."""
+    centre = offset_centre(ev_pass)
+    if centre is None:
+        return
+    for ev in ev_pass.evidence.values():
+        if ev.xray:
+            continue
+        ev.groups["offset_centre"] = centre
+        evaluate(
+            ev,
+            detection_limit=obs.detection_limit,
+            sigma_dex=sigma_dex,
+            n_tried=ev_pass.n_species_tried,
+            strong_fraction=strong_fraction,
+        )
 
 
 def _total_evidence(ev_pass: EvidencePass) -> float:

@@ -39,33 +39,14 @@ from collections import defaultdict
 import numpy as np
 
 from workbench.matching.evidence import EvidencePass
-from workbench.matching.scoring import SpeciesEvidence, class_level, score_for
+from workbench.matching.scoring import (
+    SpeciesEvidence,
+    class_level,
+    fisher_combined,  # re-exported: the one closed form, shared with the closeness term
+    score_for,
+)
 
 __all__ = ["fisher_combined", "pool_ion_stages"]
-
-
-def fisher_combined(p_values: list[float]) -> float:
-    """Fisher's combined probability for independent p-values (closed form).
-
-    Parameters
-    ----------
-    p_values : list of float
-        Independent p-values in (0, 1].
-
-    Returns
-    -------
-    float
-        P(product of m uniform variables ≤ the observed product).
-    """
-    q = float(np.prod(np.clip(p_values, 1e-300, 1.0)))
-    if q >= 1.0:
-        return 1.0
-    x = -math.log(q)
-    term, total = 1.0, 1.0
-    for j in range(1, len(p_values)):
-        term *= x / j
-        total += term
-    return float(min(1.0, q * total))
 
 
 def pool_ion_stages(ev_pass: EvidencePass) -> None:
