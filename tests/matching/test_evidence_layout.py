@@ -40,6 +40,11 @@ def setup():
     return obs, idx, e, in_range
 
 
+def _nan_safe(values):
+    # NaN marks "no found peak" (e.g. offset_u); NaN != NaN, so compare it as a tag.
+    return ["nan" if isinstance(x, float) and x != x else x for x in np.asarray(values).tolist()]
+
+
 def _summary(ev_pass):
     return {
         code: (
@@ -50,7 +55,7 @@ def _summary(ev_pass):
             ev.found_peaks,
             ev.unique_lines,
             ev.missing_lines,
-            {k: None if v is None else np.asarray(v).tolist() for k, v in ev.groups.items()},
+            {k: None if v is None else _nan_safe(v) for k, v in ev.groups.items()},
         )
         for code, ev in ev_pass.evidence.items()
     }
