@@ -52,7 +52,9 @@ class Break:
         ``missing-event``, ``broken-link``, ``reordered``, ``altered-event``,
         ``rule-violation``, ``altered-record``, ``unchained-record``,
         ``missing-record``, ``altered-result``, ``file-missing``,
-        ``file-replaced``, ``signature-invalid``.
+        ``file-replaced``, ``signature-invalid``, ``broken-decision``,
+        ``broken-review`` (and the store-wide kinds of
+        :mod:`~workbench.casefile.storecheck`).
     case_number, item_number : str or None
         Where.
     seq : int or None

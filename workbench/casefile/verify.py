@@ -17,6 +17,15 @@ each break with its exact place:
 * every findings-sheet signature, via :mod:`workbench.crypto`
   (``signature-invalid``); a valid signature by a key the store does not
   trust (imported, not yet trusted) is a warning;
+* the analyst's decisions and the technical reviews, with the checks a
+  bundle import makes (:func:`~workbench.casefile.bundle_review.decision_review_problems`):
+  each analysis's decision chain re-walked (``broken-decision``), the
+  decisions printed on each signed sheet found among those stored, each
+  review re-hashed, named by a ``reviewed`` event of its sheet's item and,
+  when it approves, its countersignature verified (``broken-review``); a
+  ``reviewed`` event whose review is not stored is a warning when the case
+  came in a format-2 bundle (which carried no reviews) and holds no
+  decision or review, a ``broken-review`` otherwise;
 * store-wide, the ledger (:mod:`workbench.casefile.ledger`): every row of
   every covered table against the hash chain of everything written, so a
   deleted, inserted or altered row of *any* table (a whole case or item, an
@@ -40,6 +49,8 @@ from typing import Any
 
 from workbench.casefile import ledger
 from workbench.casefile.breaks import Break, Unreadable, VerifyReport
+from workbench.casefile.bundle_format import load_bundle_data
+from workbench.casefile.bundle_review import DECISIONS_ENTRY, decision_review_problems
 from workbench.casefile.casecheck import check_case_data
 from workbench.casefile.casedata import CaseData, load_case_data
 from workbench.casefile.hashing import sha256_hex
@@ -62,6 +73,56 @@ def _summarise_signatures(notes: list[str]) -> str:
     if any(n.startswith("unavailable") for n in notes):
         return next(n for n in notes if n.startswith("unavailable"))
     return "failed" if "failed" in notes else "ok"
+
+
+def _in_store(sentence: str) -> str:
+    # The shared check speaks of a bundle; here the records are the store's.
+    return sentence.replace("the bundle does not carry", "this store does not hold")
+
+
+def _decision_review_breaks(
+    store: Any, case_number: str, get_blob: Any
+) -> tuple[list[Break], list[str]]:
+    """Breaks (and warnings) of one case's decisions and technical reviews."""
+    try:
+        data = load_bundle_data(store, case_number)
+        problems = decision_review_problems(data, get_blob)
+    except (Unreadable, WorkbenchError, KeyError, TypeError, ValueError, AttributeError) as exc:
+        what = str(exc) if isinstance(exc, Unreadable) else f"{type(exc).__name__}: {exc}"
+        return [
+            Break(
+                "unreadable-record",
+                case_number,
+                None,
+                None,
+                None,
+                f"decisions and reviews of case {case_number}",
+                f"a stored value cannot be read ({what})",
+            )
+        ], []
+    dangling = [p for entry, p in problems if entry == "records/events.json"]
+    if dangling and len(dangling) == len(problems) and not data.decisions and not data.reviews:
+        # Came in a format-2 bundle, which carried no reviews: known, not a break.
+        return [], [
+            f"case {case_number}: {_in_store(p)} (the case came in a format-2 bundle, "
+            "which carried no reviews)"
+            for p in dangling
+        ]
+    out = []
+    for entry, problem in problems:
+        kind = "broken-decision" if entry == DECISIONS_ENTRY else "broken-review"
+        out.append(
+            Break(
+                kind,
+                case_number,
+                None,
+                None,
+                None,
+                "decisions" if kind == "broken-decision" else "technical reviews",
+                _in_store(problem),
+            )
+        )
+    return out, []
 
 
 def verify_store(
@@ -131,6 +192,9 @@ def verify_store(
         breaks += b
         warnings += w
         notes += s
+        b, w = _decision_review_breaks(store, str(n), get_blob)
+        breaks += b
+        warnings += w
         for k, v in counts.items():
             totals[k] = totals.get(k, 0) + v
     if case_number is None:
