@@ -143,12 +143,16 @@ def test_round_trip_keeps_decisions_review_and_verifies_in_the_other_store(sourc
             assert (a.provenance, a.trusted) == ("imported", False)
         with pytest.raises(SignatureInvalidError, match="untrusted key"):
             verify_sheet_with_store(d, *files)
-        for fp in source["fps"]:
-            d.trust_analyst(fp, "Ines Calder (lab manager, invented)", "confirmed by phone")
+        zoe_fp, bjorn_fp = source["fps"]
+        d.trust_analyst(zoe_fp, "Ines Calder (lab manager, invented)", "confirmed by phone")
         # What 'findings verify --store' checks: signature, decisions, the review on record.
         assert verify_sheet_with_store(d, *files).signer == ZOE
         assert check_sheet_decisions(d, issued.json_bytes) == []
         approval = reviews[1]
+        # The countersignature is intact, but its key came in the bundle: not yet counted.
+        with pytest.raises(SignatureInvalidError, match="untrusted key: reviewer key"):
+            verify_review_with_store(d, *files, d.file_bytes(approval.record_sha256))
+        d.trust_analyst(bjorn_fp, "Ines Calder (lab manager, invented)", "confirmed by phone")
         countersigned = verify_review_with_store(
             d,
             *files,

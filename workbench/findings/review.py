@@ -23,7 +23,7 @@ signature does not verify.
 from __future__ import annotations
 
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -321,7 +321,13 @@ def verify_review_with_store(
     *,
     review_raw: bytes | None = None,
 ) -> VerificationResult:
-    """:func:`verify_review` with the reviewer's key looked up in a case store."""
+    """:func:`verify_review` with the reviewer's key looked up in a case store.
+
+    The reviewer's key must be trusted in this store, as the analyst's must be
+    for :func:`~workbench.findings.signing.verify_sheet_with_store`: a key that
+    arrived in a bundle (imported, untrusted) is refused with ``untrusted
+    key`` until a local administrator records trust.
+    """
     rec = parse_signature_record(review_record)
     try:
         reviewer = store.get_analyst(rec["key_fingerprint"])
@@ -331,7 +337,7 @@ def verify_review_with_store(
             "verify against the issuing lab's store, or give the reviewer's public key",
         ) from exc
     revoked, note = analyst_revocation(reviewer)
-    return verify_review(
+    result = verify_review(
         pdf_bytes,
         json_bytes,
         analyst_record,
@@ -340,4 +346,17 @@ def verify_review_with_store(
         review_raw=review_raw,
         revoked=revoked,
         revoked_note=note,
+    )
+    provenance = str(getattr(reviewer, "provenance_text", None) or "local")
+    if getattr(reviewer, "trusted", True) is False:
+        # As for the analyst's key (verify_sheet_with_store): a countersignature
+        # by a key that came from outside counts only once trust is recorded here.
+        raise SignatureInvalidError(
+            f"untrusted key: reviewer key {rec['key_fingerprint']} ({reviewer.name}) is "
+            f"{provenance}; the countersignature itself is intact",
+            "confirm the key with its owner's laboratory, then a local administrator can "
+            "record trust with 'workbench keys trust FINGERPRINT --by NAME --reason TEXT'",
+        )
+    return replace(
+        result, checks=(*result.checks, f"reviewer key trusted in this store ({provenance})")
     )
