@@ -50,7 +50,13 @@ def _summary(ev_pass):
             ev.found_peaks,
             ev.unique_lines,
             ev.missing_lines,
-            {k: None if v is None else np.asarray(v).tolist() for k, v in ev.groups.items()},
+            # NaN (offsets of unfound groups) compared as equal: NaN != NaN.
+            {
+                k: None
+                if v is None
+                else np.nan_to_num(np.asarray(v, dtype=float), nan=-1e300).tolist()
+                for k, v in ev.groups.items()
+            },
         )
         for code, ev in ev_pass.evidence.items()
     }

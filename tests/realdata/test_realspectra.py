@@ -170,3 +170,16 @@ def test_astm_ca_ii_h_not_credited_to_dy_ii():
     _, outcome = _run("ASTMG173")
     cls = {e["species"]: e["verdict_level"] for e in outcome.report["elements"]}
     assert cls.get("Dy II", 0) <= 1
+
+
+def test_astm_solar_prior_makes_no_call_on_its_own():
+    # With the solar prior (+2 dex for common elements) Si I, Cr I, Ni I and
+    # Ne I were "probable" at chance probabilities 0.35-0.89; Ne I cannot
+    # absorb in the photosphere at all (its lines in range start from levels
+    # at 16.6 eV and above; NIST ASD Ne I levels, from memory).
+    _, outcome = _run("ASTMG173", "solar")
+    high = {e["species"]: e for e in outcome.report["elements"] if e["verdict_level"] >= 2}
+    assert "Ne I" not in high
+    for sp, e in high.items():
+        assert e["chance_probability"] <= 0.05, (sp, e["chance_probability"])
+    assert {"H I", "Ca II"} <= set(high)  # the data-supported calls stay
