@@ -150,3 +150,31 @@ def test_species_scales_equal_the_per_species_rule(seed, xray):
     want = _scales_one_by_one(g_start, g_end, I_all, pred, good, gu, unseen, dl, xray)
     assert got == want
     assert any(v is None for v in want) and any(v is not None for v in want)
+
+
+def test_scale_not_set_by_peaks_on_lines_predicted_below_the_limit():
+    # Invented species Qe: strongest line 400 nm (strength 1) seen at 1000
+    # counts, 420 nm (0.5) unseen, four faint lines (0.001) each on a strong
+    # peak of 800 counts that the model cannot have made (predicted 1 count
+    # against a limit of 50, far beyond 2σ = 0.6 dex).
+    rows = [("Qe", 1, w, 5, 1.0e8, 3.0) for w in (400.0, 420.0, 500.0, 510.0, 520.0, 530.0)]
+    idx = ReferenceIndex.from_sets(
+        [FakeSet("invented", invented_table(rows))], "wavelength", "vacuum"
+    )
+    e = np.array([1.0, 0.5, 1e-3, 1e-3, 1e-3, 1e-3])[np.argsort(np.argsort(idx.position))]
+    pos = np.array([400.0, 500.0, 510.0, 520.0, 530.0]) + 0.001
+    obs = ObservedLines(
+        position=pos,
+        intensity=np.array([1000.0, 800.0, 800.0, 800.0, 800.0]),
+        half_window=np.full(pos.size, 0.02),
+        saturated=np.zeros(pos.size, dtype=bool),
+        detection_limit=50.0,
+    )
+    layout._LAYOUTS = ()
+    kw = dict(KW, min_rel_intensity=1e-4)
+    ev = next(iter(gather_evidence(obs, idx, e, np.ones(e.size, bool), **kw).evidence.values()))
+    # The median over all found ratios would be 8e5 (the faint lines' hits);
+    # the consistent groups give the 400 nm line (1000) censored with the
+    # unseen 420 nm line at the limit (50 / 0.5 = 100): median 550.
+    assert ev.scale == pytest.approx(550.0)
+    assert ev.missing_lines  # 420 nm still should have been seen (275 > 50)

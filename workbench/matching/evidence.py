@@ -5,7 +5,11 @@ Per species, the evidence is counted per *resolvable group*
 as in :mod:`workbench.matching.scoring`:
 
 * the species' intensity scale is the median of observed / predicted over
-  its found, unsaturated groups that no other competing species shares;
+  its found, unsaturated groups that no other competing species shares
+  (optical: only groups its model, at that scale, does not predict more
+  than 2σ below the detection limit — a strong peak on a faint prediction
+  is another line or a coincidence — starting from the strongest predicted
+  found group), censored with the unseen groups that should be seen;
   the prediction is the group's strength (:mod:`workbench.matching.sourcemodels`)
   times the instrument response at its position
   (:mod:`workbench.matching.response`);
@@ -208,6 +212,7 @@ def _species_scales(
     unseen_all: np.ndarray,
     dl_all: np.ndarray | None,
     xray: bool,
+    sigma_all: np.ndarray | None = None,
 ) -> list[float | None]:
     """Intensity scale per species (groups ``g_start[i]:g_end[i]``), None without a usable group.
 
@@ -255,6 +260,36 @@ def _species_scales(
         scale[u_seg[first]] = ratios[first]
     else:
         scale = _sorted_medians(v_sorted[is_ratio], s_sorted[is_ratio], n_sp)
+    consistent = np.ones(v_sorted.size, dtype=bool)
+    if dl_all is not None and sigma_all is not None and not xray:
+        # Optical: a found group that the model, at the species' scale,
+        # predicts more than 2σ below the detection limit cannot have made
+        # its peak by the model's own account: the peak is another line or a
+        # coincidence, and its ratio (huge: a strong peak over a faint
+        # prediction) does not measure the scale. In a dense spectrum such
+        # hits are the majority (Fe I in the Goodman FeHeAr lamps sits on
+        # Ar II lines the optical set lacks; Mg I in ASTM G173 on telluric
+        # dips), and their median inflated the scale until the species'
+        # strong lines looked missing. Start from the strongest predicted
+        # found group (the best predicted and best measured), as X-ray does,
+        # then take the censored median over the consistent groups.
+        first_max = np.lexsort((-pred_unit_all[u_at], u_seg))
+        first = first_max[np.diff(u_seg[first_max], prepend=-1) != 0]
+        scale = np.full(n_sp, np.nan)
+        scale[u_seg[first]] = ratios[first]
+        r_at = np.concatenate([u_at, c_at])[order]
+        floor = dl_all[r_at] * 10.0 ** (-2.0 * sigma_all[r_at]) / pred_unit_all[r_at]
+        anchor = np.zeros(ratios.size, dtype=bool)
+        anchor[first] = True
+        anchor_sorted = np.concatenate([anchor, np.zeros(c_at.size, dtype=bool)])[order]
+
+        def _consistent(sc: np.ndarray) -> np.ndarray:
+            return ~is_ratio | anchor_sorted | (sc[s_sorted] >= floor)
+
+        consistent = _consistent(scale)
+        scale = _sorted_medians(
+            v_sorted[is_ratio & consistent], s_sorted[is_ratio & consistent], n_sp
+        )
     if dl_all is not None and c_at.size:
         # Censored median: groups that should be seen at this scale but have
         # no peak enter at the detection limit (an upper bound of their
@@ -265,7 +300,9 @@ def _species_scales(
         c_pred, c_dl = pred_unit_all[c_at], dl_all[c_at]
         for _ in range(4):
             cens = scale[c_seg] * c_pred >= c_dl
-            keep = is_ratio | cens[c_of]
+            if sigma_all is not None and not xray:
+                consistent = _consistent(scale)
+            keep = (is_ratio & consistent) | (~is_ratio & cens[c_of])
             scale = _sorted_medians(v_sorted[keep], s_sorted[keep], n_sp)
     return [float(v) if h else None for v, h in zip(scale.tolist(), has.tolist(), strict=True)]
 
@@ -394,6 +431,7 @@ def gather_evidence(
     dl_all = obs.detection_limit_at(g_pos) if has_int else None
     n_strong_cum = np.concatenate(([0], np.cumsum(g_known & (g_strength >= strong_fraction))))
 
+    sigma_all = sigma_lines[g_rep] if sigma_lines is not None else np.full(n_groups, sigma_dex)
     # 1. The intensity scale (and pattern correlation) of each species.
     good_uniq_all = good_all & g_unique
     scales = _species_scales(
@@ -406,6 +444,7 @@ def gather_evidence(
         g_known & ~found & (pred_unit_all > 0),
         dl_all if has_int and not xray else None,
         xray,
+        sigma_all,
     )
     n_good_uniq = np.concatenate(([0], np.cumsum(good_uniq_all)))
     patterns: list[float | None] = []
@@ -483,7 +522,6 @@ def gather_evidence(
         # strong peaks made chance hits look rarer than the hits counted).
         rho_all = np.full(n_groups, density)
     p_line_all = 1.0 - np.exp(-rho_all * (2.0 * g_tol + g_span))
-    sigma_all = sigma_lines[g_rep] if sigma_lines is not None else np.full(n_groups, sigma_dex)
 
     # 3. The evidence of each species.
     evidence: dict[int, SpeciesEvidence] = {}
