@@ -22,9 +22,10 @@ the Kast arc, which pypeit does not list).
 
 Known gaps (``xfail(strict=True)``: they fail today and are reported in the
 issue's closing table; a fix turns them into errors to be removed):
-Fe in 1200M2 FeHeAr (28 identified lines, but a poor intensity model for a
-hollow-cathode metal: "possible") and 1200M3/M4 FeHeAr (three identified
-lines each, weak in the red),
+Fe in 1200M4 FeHeAr (three identified lines, but two of them, 664.37 and
+686.13 nm, are Ar II lines in the NOAO Fe-Ar atlas list, which the shipped
+optical set lacks; the Fe I lines within 0.01 nm are predicted at 2e-6 and
+3e-4 of Fe I's strongest: docs/evidence-model.md, section 7),
 Kr, Xe and Hg in the LRIS arc (held-out), Mg, Fe and Na in ASTM G173.
 """
 
