@@ -281,22 +281,23 @@ def _species_scales(
         # strong lines looked missing. Start from the strongest predicted
         # found group (the best predicted and best measured), as X-ray does,
         # then take the censored median over the consistent groups.
-        first_max = np.lexsort((-pred_unit_all[u_at], u_seg))
-        first = first_max[np.diff(u_seg[first_max], prepend=-1) != 0]
+        # u_seg is ascending (species after species): the first group at
+        # each species' largest prediction, without a sort.
+        pu = pred_unit_all[u_at]
+        starts = np.flatnonzero(np.diff(u_seg, prepend=-1) != 0)
+        seg_max = np.maximum.reduceat(pu, starts) if starts.size else np.zeros(0)
+        at_max = np.flatnonzero(pu == np.repeat(seg_max, np.diff(np.append(starts, pu.size))))
+        first = at_max[np.diff(u_seg[at_max], prepend=-1) != 0]
         scale = np.full(n_sp, np.nan)
         scale[u_seg[first]] = ratios[first]
-        r_at = np.concatenate([u_at, c_at])[order]
-        floor = (
-            dl_all[r_at]
-            * 10.0 ** (-SCALE_CONSISTENT_SIGMAS * sigma_all[r_at])
-            / pred_unit_all[r_at]
-        )
-        anchor = np.zeros(ratios.size, dtype=bool)
-        anchor[first] = True
-        anchor_sorted = np.concatenate([anchor, np.zeros(c_at.size, dtype=bool)])[order]
+        # Per ratio: the lowest scale at which its group is consistent;
+        # the anchor (first) always is.
+        floor_r = dl_all[u_at] * 10.0 ** (-SCALE_CONSISTENT_SIGMAS * sigma_all[u_at]) / pu
+        floor_r[first] = -np.inf
+        floor = np.concatenate([floor_r, np.full(c_at.size, -np.inf)])[order]
 
         def _consistent(sc: np.ndarray) -> np.ndarray:
-            return ~is_ratio | anchor_sorted | (sc[s_sorted] >= floor)
+            return sc[s_sorted] >= floor
 
         consistent = _consistent(scale)
         scale = _sorted_medians(
