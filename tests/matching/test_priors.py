@@ -7,6 +7,7 @@ import pytest
 
 from workbench.errors import ValueRangeError
 from workbench.matching.priors import ABUNDANCE_PRIORS, prior_dex
+from workbench.matching.scoring import PRIOR_DATA_P, prior_capped
 
 
 def test_none_is_neutral():
@@ -34,3 +35,20 @@ def test_solar_orders_common_over_rare():
 def test_unknown_prior_is_one_clear_error():
     with pytest.raises(ValueRangeError):
         prior_dex("lunar", "Fe")
+
+
+@pytest.mark.parametrize(
+    ("level", "prior", "p", "expected"),
+    [
+        (2, 2.0, 0.5, 1),  # probable on the prior alone: capped
+        (3, 2.0, 0.2, 1),
+        (2, 2.0, 0.036, 2),  # the data alone significant (p ≤ 0.05): kept
+        (2, 0.0, 0.9, 2),  # no prior in its favour: the class rules alone
+        (3, -0.5, 0.9, 3),
+        (1, 2.0, 0.9, 1),
+    ],
+)
+def test_a_prior_tips_a_call_but_does_not_make_one(level, prior, p, expected):
+    # PRIOR_DATA_P = 0.05, the conventional single-test level (common practice, no source).
+    assert PRIOR_DATA_P == 0.05
+    assert prior_capped(level, prior, p) == expected

@@ -43,6 +43,7 @@ from workbench.matching.scoring import (
     SpeciesEvidence,
     class_level,
     fisher_combined,  # re-exported: the one closed form, shared with the closeness term
+    prior_capped,
     score_for,
 )
 
@@ -67,6 +68,7 @@ def pool_ion_stages(ev_pass: EvidencePass) -> None:
         k = sum(ev.n_groups_counted for ev in seen)
         unique = sum(ev.n_unique_peaks for ev in seen)
         level = class_level(e, k, unique, all(ev.missing_evidence for ev in seen))
+        level = prior_capped(level, max(ev.prior_dex for ev in seen), p)
         names = [ev.label for ev in seen]
         for ev in seen:
             ev.pooled_with = [n for n in names if n != ev.label]

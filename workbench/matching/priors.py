@@ -11,7 +11,13 @@ adds prior log-odds to a species' net evidence
 with A the abundance of the species' element and the median taken over the
 elements of the table: half a decade of odds per decade of abundance,
 limited to ±2 decades so that the prior can tip a close call but never make
-or break one on its own (a species still needs its lines). Elements missing
+or break one on its own (a species still needs its lines). Since +2 dex
+alone exceeds the "probable" threshold (1.5), a positive prior lifts an
+optical species above "possible" only when its data alone are significant
+as one pre-specified test, chance probability p ≤ 0.05
+(:func:`workbench.matching.scoring.prior_capped`): under ``solar`` the ASTM
+G173 sunlight otherwise gave Si I, Cr I, Ni I and Ne I "probable" at
+p = 0.35–0.89. Elements missing
 from the table get the lower limit. The report records which prior was
 used and each species' term.
 

@@ -74,6 +74,10 @@ groups with a peak, not explained by a better species:
 2 ``probable``
     E ≥ 1.5, at least 2 found groups counted in ``p``, at least 1 unique.
     This is the cap for peak lists without intensities.
+
+(Optical: with a positive abundance prior, "established" and "probable"
+also need the data's own chance probability p ≤ 0.05 — a prior can tip a
+call, not make one; :func:`prior_capped`.)
 1 ``possible``
     at least one found group and E ≥ log10 0.5 = −0.3 (some support, not
     outweighed by missing lines: with the chance evidence counted, a record
@@ -141,6 +145,7 @@ __all__ = [
     "LOSS_PROBABILITY",
     "MISSING_FLOOR_DEX",
     "POSSIBLE_DEX",
+    "PRIOR_DATA_P",
     "PROBABLE_DEX",
     "VERDICTS",
     "XRAY_OUTSIDE_PROBABILITY",
@@ -154,6 +159,7 @@ __all__ = [
     "evaluate",
     "fisher_combined",
     "misses_tail_probability",
+    "prior_capped",
     "score_for",
     "score_of",
     "xray_agreement",
@@ -171,6 +177,13 @@ PROBABLE_DEX: float = 1.5
 #: log10 ε = −0.7 the non-lamp species called "possible" there rose from 412
 #: (main) to 666; at −0.3 they are 361.
 POSSIBLE_DEX: float = float(np.log10(0.5))
+#: A positive abundance prior may tip a call, never make one: above "possible"
+#: an optical species with a prior in its favour needs its data alone to be
+#: significant as one pre-specified test, chance probability p ≤ 0.05 (the
+#: conventional single-test level; common practice, no source). Without it
+#: the solar prior (+2 dex) made Si I, Cr I, Ni I and Ne I "probable" in the
+#: ASTM G173 sunlight at p = 0.35–0.89 (Ne I has no photospheric absorption).
+PRIOR_DATA_P: float = 0.05
 #: X-ray "possible" floor: net evidence for, not against (common practice, no source).
 XRAY_POSSIBLE_DEX: float = 0.0
 #: Probability that a line of a species that IS present is lost for reasons
@@ -606,11 +619,37 @@ def decide_verdict(ev: SpeciesEvidence) -> int:
     e = ev.net_evidence_dex
     k = ev.n_groups_counted
     level = class_level(e, k, ev.n_unique_peaks, ev.missing_evidence)
-    if not ev.xray or level >= 2:
+    if not ev.xray:
+        return prior_capped(level, ev.prior_dex, ev.chance_probability)
+    if level >= 2:
         return level
     if e >= PROBABLE_DEX and ev.main_found and k >= 1 and ev.n_unique_peaks >= 1:
         return 2
     return 1 if e >= XRAY_POSSIBLE_DEX and ev.main_found else 0
+
+
+def prior_capped(level: int, prior: float, chance_probability: float) -> int:
+    """Cap at "possible" a call that a positive prior made without the data (optical).
+
+    Parameters
+    ----------
+    level : int
+        The class from the net evidence (prior included).
+    prior : float
+        The abundance prior's term (decades).
+    chance_probability : float
+        The data's own chance probability, uncorrected (a prior makes the
+        species a pre-specified hypothesis, so the single-test level applies).
+
+    Returns
+    -------
+    int
+        ``level``, or 1 when ``level`` ≥ 2 rests on a positive prior with
+        p > :data:`PRIOR_DATA_P`.
+    """
+    if level >= 2 and prior > 0.0 and chance_probability > PRIOR_DATA_P:
+        return 1
+    return level
 
 
 def score_of(ev: SpeciesEvidence) -> float:
