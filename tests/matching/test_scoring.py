@@ -11,7 +11,9 @@ from workbench.matching import MatchParameters, match_peaks
 from workbench.matching.scoring import (
     LOSS_PROBABILITY,
     XRAY_SOLE_DEX,
+    SpeciesEvidence,
     closeness_probability,
+    decide_verdict,
     misses_tail_probability,
     xray_agreement,
 )
@@ -144,3 +146,14 @@ def test_close_peaks_are_evidence_and_far_ones_are_not():
     far = closeness_probability(np.full(5, 0.9), np.full(5, 2.0), np.ones(5, dtype=int))
     assert near < 1e-4
     assert far > 0.5
+
+
+@pytest.mark.parametrize(("own_groups", "level"), [(0, 0), (1, 1)])
+def test_a_species_left_nothing_by_better_ones_is_not_possible(own_groups, level):
+    # Class rules (workbench.matching.scoring docstring): two matched groups, both
+    # explained by a better species when own_groups == 0; E = 0 is above the
+    # "possible" floor log10 0.5, so only the explained groups decide.
+    ev = SpeciesEvidence(code=0, label="Qa I", element="Qa", ion=1, family=None)
+    ev.n_groups_matched, ev.n_groups_found = 2, own_groups
+    ev.net_evidence_dex, ev.missing_evidence = 0.0, True
+    assert decide_verdict(ev) == level

@@ -82,7 +82,14 @@ call, not make one; :func:`prior_capped`.)
     at least one found group and E ≥ log10 0.5 = −0.3 (some support, not
     outweighed by missing lines: with the chance evidence counted, a record
     of misses that a present species gives at least half the time).
-    Includes species whose lines are all shared or explained by others.
+    Includes species whose lines are all shared with others (the peak is
+    theirs as much as anyone's), but not a species whose every found group
+    is *explained* by a better-supported species: nothing of the spectrum is
+    left to it, so it is "not supported" and the report names the species
+    that explained its lines (``explained_by``). Listing such species as
+    "possible" put cadmium on a titanium-white paint chip because two Cd I
+    lines sat on Ti I and Fe I peaks while its five strongest lines were
+    missing.
 0 ``not supported``
     anything weaker. Listed when candidates existed, so that the analyst
     sees what was considered and why it was rejected.
@@ -615,6 +622,9 @@ def class_level(e: float, k: int, unique: int, missing_evidence: bool) -> int:
 def decide_verdict(ev: SpeciesEvidence) -> int:
     """Apply the class rules of the module docstring; return the level."""
     if ev.n_groups_matched == 0:
+        return 0
+    if ev.n_groups_found == 0 and not ev.xray:
+        # Every found group explained by a better species (module docstring).
         return 0
     e = ev.net_evidence_dex
     k = ev.n_groups_counted
