@@ -71,6 +71,7 @@ from workbench.casefile.bundle_read import (
 from workbench.casefile.bundle_review import (
     DECISIONS_ENTRY,
     REVIEWS_ENTRY,
+    came_in_format_2,
     check_decision_fields,
     decision_review_problems,
     insert_decisions_and_reviews,
@@ -144,7 +145,7 @@ def export_bundle(store: Any, case_number: str, out_path: Path | str) -> Path:
     data = load_bundle_data(store, store.get_case(case_number).case_number)
     problems = decision_review_problems(data, _stored_file(store))
     version = FORMAT_VERSION
-    if problems and _came_in_format_2(data, problems):
+    if problems and came_in_format_2(data, problems):
         # Its reviews were left behind by the format-2 bundle it came in: pass it on as
         # it came (format 2, the same bytes), never as a format-3 bundle missing reviews.
         version = 2
@@ -267,16 +268,6 @@ def import_bundle(
     # Committed: the rows name these files; move them into place.
     staging.commit()
     return ImportResult(case_number, "imported", counts)
-
-
-def _came_in_format_2(data: BundleData, problems: list[tuple[str, str]]) -> bool:
-    """Whether the only problem is 'reviewed' events whose reviews a format-2 import left out.
-
-    Such a case holds no decision or review at all: anything recorded since would
-    be lost in format 2, so it is refused instead.
-    """
-    dangling = all(entry == "records/events.json" for entry, _ in problems)
-    return dangling and not data.decisions and not data.reviews
 
 
 def _stored_file(store: Any) -> Any:

@@ -53,6 +53,7 @@ __all__ = [
     "load_bundle_data",
     "records_in",
     "records_of",
+    "with_decisions_and_reviews",
     "zip_bytes",
 ]
 
@@ -131,7 +132,15 @@ def load_bundle_data(store: Any, case_number: str) -> BundleData:
     Decisions are ordered by analysis, then ``seq``; reviews by sheet, then
     row id (the order they were made). The reviewers' keys join the signers'.
     """
-    data = load_case_data(store, case_number)
+    return with_decisions_and_reviews(store, load_case_data(store, case_number))
+
+
+def with_decisions_and_reviews(store: Any, data: CaseData) -> BundleData:
+    """Add a case's decisions, reviews and reviewers' keys to its rows read already.
+
+    :func:`load_bundle_data` without reading the case's rows again (``custody
+    verify`` has them).
+    """
     conn = store.connection
     decisions: list[dict[str, Any]] = []
     for a in data.analyses:

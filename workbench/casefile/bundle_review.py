@@ -44,6 +44,7 @@ __all__ = [
     "DECISIONS_ENTRY",
     "REVIEWS_ENTRY",
     "analysis_name",
+    "came_in_format_2",
     "check_decision_fields",
     "decision_name",
     "decision_review_problems",
@@ -384,3 +385,15 @@ def insert_decisions_and_reviews(
             ),
         )
         led("sheet_reviews", int(cur.lastrowid))
+
+
+def came_in_format_2(data: BundleData, problems: list[tuple[str, str]]) -> bool:
+    """Whether the only problem is 'reviewed' events whose reviews a format-2 import left out.
+
+    Such a case holds no decision or review at all (export passes it on as
+    format 2; anything recorded since would be lost there, so it is refused).
+    ``custody verify`` reports it as a warning rather than a break. Callers
+    check first that there are problems at all.
+    """
+    dangling = all(entry == "records/events.json" for entry, _ in problems)
+    return dangling and not data.decisions and not data.reviews

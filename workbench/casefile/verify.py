@@ -49,8 +49,12 @@ from typing import Any
 
 from workbench.casefile import ledger
 from workbench.casefile.breaks import Break, Unreadable, VerifyReport
-from workbench.casefile.bundle_format import load_bundle_data
-from workbench.casefile.bundle_review import DECISIONS_ENTRY, decision_review_problems
+from workbench.casefile.bundle_format import with_decisions_and_reviews
+from workbench.casefile.bundle_review import (
+    DECISIONS_ENTRY,
+    came_in_format_2,
+    decision_review_problems,
+)
 from workbench.casefile.casecheck import check_case_data
 from workbench.casefile.casedata import CaseData, load_case_data
 from workbench.casefile.hashing import sha256_hex
@@ -81,11 +85,12 @@ def _in_store(sentence: str) -> str:
 
 
 def _decision_review_breaks(
-    store: Any, case_number: str, get_blob: Any
+    store: Any, case: CaseData, get_blob: Any
 ) -> tuple[list[Break], list[str]]:
     """Breaks (and warnings) of one case's decisions and technical reviews."""
+    case_number = str(case.case["case_number"])
     try:
-        data = load_bundle_data(store, case_number)
+        data = with_decisions_and_reviews(store, case)
         problems = decision_review_problems(data, get_blob)
     except (Unreadable, WorkbenchError, KeyError, TypeError, ValueError, AttributeError) as exc:
         what = str(exc) if isinstance(exc, Unreadable) else f"{type(exc).__name__}: {exc}"
@@ -100,13 +105,12 @@ def _decision_review_breaks(
                 f"a stored value cannot be read ({what})",
             )
         ], []
-    dangling = [p for entry, p in problems if entry == "records/events.json"]
-    if dangling and len(dangling) == len(problems) and not data.decisions and not data.reviews:
+    if problems and came_in_format_2(data, problems):
         # Came in a format-2 bundle, which carried no reviews: known, not a break.
         return [], [
             f"case {case_number}: {_in_store(p)} (the case came in a format-2 bundle, "
             "which carried no reviews)"
-            for p in dangling
+            for _, p in problems
         ]
     out = []
     for entry, problem in problems:
@@ -166,7 +170,8 @@ def verify_store(
     totals: dict[str, int] = {}
     for n in numbers:
         try:
-            b, counts, w, s = check_case_data(load_case_data(store, n), get_blob)
+            data = load_case_data(store, n)
+            b, counts, w, s = check_case_data(data, get_blob)
         except (
             Unreadable,
             WorkbenchError,
@@ -192,7 +197,7 @@ def verify_store(
         breaks += b
         warnings += w
         notes += s
-        b, w = _decision_review_breaks(store, str(n), get_blob)
+        b, w = _decision_review_breaks(store, data, get_blob)
         breaks += b
         warnings += w
         for k, v in counts.items():

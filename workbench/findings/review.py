@@ -36,6 +36,7 @@ from workbench.findings.signing import (
     analyst_revocation,
     parse_signature_record,
     sign_sheet,
+    untrusted_key_error,
     verify_raw_pdf_signature,
     verify_sheet,
     verify_sheet_with_store,
@@ -347,15 +348,14 @@ def verify_review_with_store(
         revoked=revoked,
         revoked_note=note,
     )
-    provenance = str(getattr(reviewer, "provenance_text", None) or "local")
-    if getattr(reviewer, "trusted", True) is False:
+    provenance = reviewer.provenance_text
+    if not reviewer.trusted:
         # As for the analyst's key (verify_sheet_with_store): a countersignature
         # by a key that came from outside counts only once trust is recorded here.
-        raise SignatureInvalidError(
-            f"untrusted key: reviewer key {rec['key_fingerprint']} ({reviewer.name}) is "
-            f"{provenance}; the countersignature itself is intact",
-            "confirm the key with its owner's laboratory, then a local administrator can "
-            "record trust with 'workbench keys trust FINGERPRINT --by NAME --reason TEXT'",
+        raise untrusted_key_error(
+            f"reviewer key {rec['key_fingerprint']} ({reviewer.name})",
+            provenance,
+            "the countersignature itself is intact",
         )
     return replace(
         result, checks=(*result.checks, f"reviewer key trusted in this store ({provenance})")

@@ -41,6 +41,7 @@ __all__ = [
     "analyst_revocation",
     "parse_signature_record",
     "sign_sheet",
+    "untrusted_key_error",
     "verify_raw_pdf_signature",
     "verify_sheet",
     "verify_sheet_with_store",
@@ -149,6 +150,25 @@ def analyst_revocation(analyst: Any) -> tuple[bool, str]:
     return True, "; ".join(parts)
 
 
+def untrusted_key_error(key: str, provenance: str, intact: str) -> SignatureInvalidError:
+    """The refusal of an intact signature by a key this store does not trust.
+
+    Parameters
+    ----------
+    key : str
+        The key as the message names it (fingerprint and owner).
+    provenance : str
+        Where the key came from (``imported, untrusted`` ...).
+    intact : str
+        What is intact nevertheless (the signature, the countersignature).
+    """
+    return SignatureInvalidError(
+        f"untrusted key: {key} is {provenance}; {intact}",
+        "confirm the key with its owner's laboratory, then a local administrator can "
+        "record trust with 'workbench keys trust FINGERPRINT --by NAME --reason TEXT'",
+    )
+
+
 def verify_sheet_with_store(
     store: Any, pdf_bytes: bytes, json_bytes: bytes, record_bytes: bytes
 ) -> VerificationResult:
@@ -202,11 +222,10 @@ def verify_sheet_with_store(
     if _field(analyst, "trusted") is False:
         # The signature is intact, but the key came from outside (a bundle) or
         # predates provenance records: only a recorded local act makes it count.
-        raise SignatureInvalidError(
-            f"untrusted key: {rec['key_fingerprint']} ({_field(analyst, 'name')}) is "
-            f"{provenance}; the signature itself is intact (signed {result.signed_at})",
-            "confirm the key with its owner's laboratory, then a local administrator can "
-            "record trust with 'workbench keys trust FINGERPRINT --by NAME --reason TEXT'",
+        raise untrusted_key_error(
+            f"{rec['key_fingerprint']} ({_field(analyst, 'name')})",
+            provenance,
+            f"the signature itself is intact (signed {result.signed_at})",
         )
     return replace(
         result,
