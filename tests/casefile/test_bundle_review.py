@@ -16,13 +16,13 @@ import pytest
 
 from tests.casefile.attack_harness import rehash_records
 from tests.casefile.helpers import populate
-from tests.findings.findings_data import make_store
+from tests.findings.findings_data import issue_sheet, make_store
 from workbench.casefile import CaseStore, export_bundle, import_bundle
 from workbench.casefile.bundle_format import FORMAT_VERSION
 from workbench.casefile.decisions import REVIEW_HASH_FIELDS, list_reviews, stored_decisions
 from workbench.casefile.hashing import canonical_json, record_hash, sha256_hex
 from workbench.errors import BundleError, SignatureInvalidError
-from workbench.findings import generate_key_pair, issue_findings_sheet, review_sheet
+from workbench.findings import generate_key_pair, review_sheet
 from workbench.findings.decisions import check_sheet_decisions, decide
 from workbench.findings.review import verify_review_with_store
 from workbench.findings.signing import verify_sheet_with_store
@@ -45,18 +45,7 @@ def source(tmp_path_factory) -> dict:
         decide(st, aid, "reject", "Pb I|Pb I 368.35", reason="saturated on the bench", analyst=ZOE)
         decide(st, aid, "add", "Sr", reason="by eye", analyst=ZOE, line_texts=["500.1:Sr I"])
         decide(st, aid, "reverse", "1", reason="Ti excluded after all", analyst=ZOE)
-        issued = issue_findings_sheet(
-            st,
-            aid,
-            analyst_fingerprint=zoe.fingerprint,
-            private_key_pem=zoe.private_key_pem,
-            passphrase=PASS,
-            lab={"name": "Harbourside Forensic Chemistry Unit (invented)"},
-            notes="",
-            limitations="",
-            issued_at="2026-03-14T09:30:00Z",
-            out_dir=tmp / "out",
-        )
+        issued = issue_sheet(st, aid, zoe, PASS, tmp / "out")
         for approve, comments in ((False, "Ti I line 498 unresolved"), (True, "checked")):
             review_sheet(
                 st,

@@ -15,7 +15,7 @@ from pathlib import Path
 import pytest
 
 from tests.casefile.attack_harness import raw
-from tests.findings.findings_data import make_store
+from tests.findings.findings_data import issue_sheet, make_store
 from workbench.casefile import CaseStore
 from workbench.casefile.decisions import (
     DECISION_HASH_FIELDS,
@@ -24,7 +24,7 @@ from workbench.casefile.decisions import (
 )
 from workbench.casefile.hashing import record_hash
 from workbench.casefile.verify import verify_store
-from workbench.findings import generate_key_pair, issue_findings_sheet, review_sheet
+from workbench.findings import generate_key_pair, review_sheet
 from workbench.findings.decisions import decide
 
 PASS = "verify-dune-58"  # invented passphrase
@@ -41,18 +41,7 @@ def pristine(tmp_path_factory) -> Path:
         aid = st.list_analyses(CASE)[0].id
         decide(st, aid, "reject", "Ba", reason="455.40 nm is explained by Ti here", analyst=ZOE)
         decide(st, aid, "add", "Sr", reason="by eye", analyst=ZOE, line_texts=["500.1:Sr I"])
-        issued = issue_findings_sheet(
-            st,
-            aid,
-            analyst_fingerprint=zoe.fingerprint,
-            private_key_pem=zoe.private_key_pem,
-            passphrase=PASS,
-            lab={"name": "Harbourside Forensic Chemistry Unit (invented)"},
-            notes="",
-            limitations="",
-            issued_at="2026-03-14T09:30:00Z",
-            out_dir=tmp / "out",
-        )
+        issued = issue_sheet(st, aid, zoe, PASS, tmp / "out")
         review_sheet(
             st,
             issued.sheet_id,

@@ -194,3 +194,21 @@ def make_store(root: Path, public_keys: dict[str, bytes]) -> Any:
     for name, pem in public_keys.items():
         st.register_analyst(name, "examiner", pem)
     return st
+
+
+def issue_sheet(store: Any, analysis_id: int, key: Any, passphrase: str, out_dir: Path) -> Any:
+    """Issue the invented case's sheet for ``analysis_id``, signed with ``key`` (a KeyPair)."""
+    from workbench.findings import issue_findings_sheet
+
+    return issue_findings_sheet(
+        store,
+        analysis_id,
+        analyst_fingerprint=key.fingerprint,
+        private_key_pem=key.private_key_pem,
+        passphrase=passphrase,
+        lab={"name": "Harbourside Forensic Chemistry Unit (invented)"},
+        notes="",
+        limitations="",
+        issued_at="2026-03-14T09:30:00Z",
+        out_dir=out_dir,
+    )
