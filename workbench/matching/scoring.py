@@ -240,6 +240,7 @@ class SpeciesEvidence:
     family_dex: float = 0.0
     family_floor_dex: float | None = None
     family_support: str | None = None
+    family_missing_dex: float = 0.0  # X-ray: missing higher-energy family (joint.py)
     xray: bool = False
     main_found: bool = True
     n_groups_found: int = 0
@@ -323,6 +324,9 @@ def evaluate(
             penalty = float(np.sum(np.log10(p_miss[missing])))
         else:
             penalty = float(np.log10(misses_tail_probability(p_miss[nset], missing[nset])))
+    if "delta" in g:
+        # X-ray: the element's missing higher-energy family (joint.py).
+        penalty += ev.family_missing_dex
     ev.missing_penalty_dex = penalty
     ev.xray = "delta" in g
     if ev.xray:
