@@ -48,6 +48,7 @@ class XrayPreparation:
     labels: pl.DataFrame
     predicted: pl.DataFrame
     scale: EnergyScale
+    unresolved: list[dict[str, Any]] = field(default_factory=list)
     not_excited: list[str] = field(default_factory=list)
     not_measurable: list[str] = field(default_factory=list)
     warnings: list[dict[str, object]] = field(default_factory=list)
@@ -96,6 +97,7 @@ class XrayPreparation:
             "instrument_assumed": self.assumed,
             "artefact_peaks": self.labels.to_dicts(),
             "n_artefacts_predicted": self.predicted.height,
+            "artefacts_without_peak": self.unresolved,
             "energy_scale": self.scale.to_dict(),
             "not_excited": self.not_excited,
             "not_measurable": self.not_measurable,
@@ -111,6 +113,58 @@ def _measurable_note(instrument: Instrument) -> str:
         f"lines below about {first:.0f} eV are not measurable in {instrument.atmosphere} "
         f"with this detector (light elements)"
     )
+
+
+def _without_peak(
+    arts: list, labels: pl.DataFrame, x: np.ndarray, channel: float, noise: float
+) -> list[dict[str, Any]]:
+    """Predicted artefacts the peak finder did not separate, with their expected counts.
+
+    A predicted artefact with no observed peak within half its width (and no
+    labelled peak there) is still in the spectrum: merged into a stronger
+    neighbour's peak (a Compton peak beside its Rayleigh peak, a sum peak on
+    an element line's tail) or below what the peak finder separates. It is
+    listed so that the analyst knows what lies under that part of the
+    spectrum; artefacts within half a FWHM of each other are merged, and the
+    expected counts (Gaussian area 1.0645 · height · FWHM / channel) summed
+    where predictable (escape, sum; scatter and argon are not predicted in
+    intensity). A predicted escape or sum peak below 3σ of the peak heights'
+    noise (``noise``) would not be seen on its own and is not listed.
+    """
+    lab = labels["observed_eV"].to_numpy() if labels.height else np.empty(0)
+    rows: list[dict[str, Any]] = []
+    for a in sorted(arts, key=lambda a: a.energy_eV):
+        half = 0.5 * a.fwhm_eV
+        if a.predicted_intensity is not None and a.predicted_intensity < 3.0 * noise:
+            continue
+        if np.any(np.abs(lab - a.energy_eV) <= half) or np.any(np.abs(x - a.energy_eV) <= half):
+            continue
+        counts = (
+            None
+            if a.predicted_intensity is None
+            else float(1.0645 * a.predicted_intensity * a.fwhm_eV / channel)
+        )
+        if rows and a.energy_eV - rows[-1]["_last"] <= half:
+            r = rows[-1]
+            r["_last"] = a.energy_eV
+            r["kinds"] = ",".join(sorted(set(r["kinds"].split(",")) | {a.kind}))
+            if a.origin not in r["origin"]:
+                r["origin"] += "; " + a.origin
+            if counts is not None:
+                r["expected_counts"] = (r["expected_counts"] or 0.0) + counts
+            continue
+        rows.append(
+            {
+                "energy_eV": float(a.energy_eV),
+                "_last": a.energy_eV,
+                "kinds": a.kind,
+                "origin": a.origin,
+                "expected_counts": counts,
+            }
+        )
+    for r in rows:
+        r.pop("_last")
+    return rows
 
 
 def _channel_width(peaks: PeakList) -> float:
@@ -392,6 +446,7 @@ def prepare_energy_peaks(
         extra["channel_eV"] = channel
     out = PeakList(new, peaks.axis, peaks.medium, peaks.source, peaks.mode, extra)
     prep = XrayPreparation(inst, assumed, labels, artefact_table(arts), scale)
+    prep.unresolved = _without_peak(arts, labels, x, channel, dl)
     if assumed:
         prep.warnings.append(
             {
