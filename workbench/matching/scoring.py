@@ -248,6 +248,7 @@ class SpeciesEvidence:
     family_support: str | None = None
     family_missing_dex: float = 0.0  # X-ray: missing higher-energy family (joint.py)
     sole_explanation: bool = False  # X-ray: main group the only explanation of a ≥10σ peak
+    overlap_floor_dex: float | None = None  # X-ray: a spectrum fit needs it (xray_overlap)
     xray: bool = False
     main_found: bool = True
     n_groups_found: int = 0
@@ -357,6 +358,10 @@ def evaluate(
     # X-ray: a family is at least as certain as an established family of its
     # element that predicts it (workbench.matching.joint); never more.
     floor = ev.family_floor_dex
+    if ev.overlap_floor_dex is not None:
+        # X-ray: a fit of the overlapping families to the spectrum needs this
+        # one (workbench.matching.xray_overlap); a floor, like family support.
+        floor = ev.overlap_floor_dex if floor is None else max(floor, ev.overlap_floor_dex)
     ev.family_dex = max(floor - own, 0.0) if floor is not None else 0.0
     ev.net_evidence_dex = own + ev.family_dex
     m_order = np.argsort(-pred[missing], kind="stable")

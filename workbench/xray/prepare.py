@@ -49,6 +49,9 @@ class XrayPreparation:
     predicted: pl.DataFrame
     scale: EnergyScale
     unresolved: list[dict[str, Any]] = field(default_factory=list)
+    #: (energy_eV, net counts, baseline) of the spectrum, when it came with the
+    #: peaks: overlaps are settled on it (workbench.matching.xray_overlap).
+    spectrum: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
     not_excited: list[str] = field(default_factory=list)
     not_measurable: list[str] = field(default_factory=list)
     warnings: list[dict[str, object]] = field(default_factory=list)
@@ -88,6 +91,12 @@ class XrayPreparation:
             {f"{e} {f}" for e, f in zip(el[lost], fam[lost], strict=True)} & (fams - ok)
         )
         return exc & mea
+
+    def artefact_energies(self) -> np.ndarray:
+        """Energies (eV) of artefact peaks: labelled as explained, or predicted without a peak."""
+        lab = self.labels.filter(pl.col("explained"))["observed_eV"].to_numpy()
+        hidden = np.array([a["energy_eV"] for a in self.unresolved], dtype=np.float64)
+        return np.concatenate([lab, hidden])
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready record for the result (``xray`` key)."""
@@ -441,12 +450,25 @@ def prepare_energy_peaks(
     new = new.filter(pl.Series(~drop))
     extra = dict(peaks.extra) if isinstance(peaks.extra, dict) else {}
     extra["xray_prepared"] = True
+    spectrum = None
+    sp = extra.pop("spectrum", None)  # per-channel arrays: kept here, not in the result
+    base = extra.get("baseline")
+    if sp is not None and base is not None and np.size(base) == np.size(sp[1]):
+        b = np.asarray(base, dtype=np.float64)
+        spectrum = (
+            scale.correct(np.asarray(sp[0], dtype=np.float64))
+            if scale.applied
+            else np.asarray(sp[0], dtype=np.float64),
+            np.asarray(sp[1], dtype=np.float64) - b,
+            b,
+        )
     if "baseline" in extra:  # per-channel array: not needed downstream, and large
         extra.pop("baseline")
         extra["channel_eV"] = channel
     out = PeakList(new, peaks.axis, peaks.medium, peaks.source, peaks.mode, extra)
     prep = XrayPreparation(inst, assumed, labels, artefact_table(arts), scale)
     prep.unresolved = _without_peak(arts, labels, x, channel, dl)
+    prep.spectrum = spectrum
     if assumed:
         prep.warnings.append(
             {
