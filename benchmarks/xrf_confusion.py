@@ -175,7 +175,7 @@ def main() -> None:
     ap.add_argument("--json-only", action="store_true", help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.json_only:
-        print(json.dumps(compute()))
+        print(json.dumps(compute(), default=lambda o: o.item()))  # numpy scalars
         return
     sys.path.insert(0, str(ROOT))
     now = compute()
