@@ -202,7 +202,7 @@ def annotate_warnings(warnings: list[dict[str, Any]], decisions: list[dict[str, 
             )
             for fam, r in sorted(d["families"].items())
         )
-        sentence = f" Decided by a fit of the families' line patterns to the peak heights: {text}."
+        sentence = f" Decided by a fit of the families' line patterns to the spectrum: {text}."
         hit = False
         for w in warnings:
             if set(w.get("elements", [])) <= names and len(w.get("elements", [])) >= 2:

@@ -125,7 +125,12 @@ def _measurable_note(instrument: Instrument) -> str:
 
 
 def _without_peak(
-    arts: list, labels: pl.DataFrame, x: np.ndarray, channel: float, noise: float
+    arts: list,
+    labels: pl.DataFrame,
+    x: np.ndarray,
+    channel: float,
+    noise: float,
+    x_range: tuple[float, float] | None = None,
 ) -> list[dict[str, Any]]:
     """Predicted artefacts the peak finder did not separate, with their expected counts.
 
@@ -137,14 +142,17 @@ def _without_peak(
     spectrum; artefacts within half a FWHM of each other are merged, and the
     expected counts (Gaussian area 1.0645 · height · FWHM / channel) summed
     where predictable (escape, sum; scatter and argon are not predicted in
-    intensity). A predicted escape or sum peak below 3σ of the peak heights'
-    noise (``noise``) would not be seen on its own and is not listed.
+    intensity). Predicted escape and sum peaks below the peak heights' 1σ
+    noise (``noise``) and artefacts outside the measured range (``x_range``)
+    are not listed.
     """
     lab = labels["observed_eV"].to_numpy() if labels.height else np.empty(0)
     rows: list[dict[str, Any]] = []
     for a in sorted(arts, key=lambda a: a.energy_eV):
         half = 0.5 * a.fwhm_eV
-        if a.predicted_intensity is not None and a.predicted_intensity < 3.0 * noise:
+        if a.predicted_intensity is not None and a.predicted_intensity < noise:
+            continue
+        if x_range is not None and not x_range[0] <= a.energy_eV <= x_range[1]:
             continue
         if np.any(np.abs(lab - a.energy_eV) <= half) or np.any(np.abs(x - a.energy_eV) <= half):
             continue
@@ -467,7 +475,10 @@ def prepare_energy_peaks(
         extra["channel_eV"] = channel
     out = PeakList(new, peaks.axis, peaks.medium, peaks.source, peaks.mode, extra)
     prep = XrayPreparation(inst, assumed, labels, artefact_table(arts), scale)
-    prep.unresolved = _without_peak(arts, labels, x, channel, dl)
+    xr = peaks.extra.get("x_range") if isinstance(peaks.extra, dict) else None
+    prep.unresolved = _without_peak(
+        arts, labels, x, channel, dl, (float(xr[0]), float(xr[1])) if xr else None
+    )
     prep.spectrum = spectrum
     if assumed:
         prep.warnings.append(
