@@ -123,10 +123,28 @@ def settle_overlaps(
     cands = [
         ev for ev in sorted(ev_pass.evidence.values(), key=lambda v: v.label) if main_taken(ev)
     ]
-    cand_labels = {ev.label for ev in cands}
+    partners = {ev.label: list(ev.explained_by) for ev in cands}
+    # Families whose main groups sit on one peak, none explained there (Ba L
+    # and Ti K when neither is probable enough to take the peak): each one
+    # short of established is fitted against the others.
+    on_peak: dict[int, list] = {}
+    for ev in ev_pass.evidence.values():
+        g = ev.groups
+        if not ev.family or not ev.main_found or ev.label in partners:
+            continue
+        known = np.where(g["known"], g["predicted"], -np.inf)
+        on_peak.setdefault(int(g["peak"][int(np.argmax(known))]), []).append(ev)
+    for evs in on_peak.values():
+        for ev in evs:
+            others = [o.label for o in evs if o.element != ev.element]
+            if ev.level < 3 and others:
+                partners[ev.label] = others
+                cands.append(ev)
+    cands.sort(key=lambda v: v.label)
+    cand_labels = set(partners)
     for ev in cands:
         fams = {ev.label: patterns[ev.label]}
-        for lb in ev.explained_by:
+        for lb in partners[ev.label]:
             if lb in by_label:
                 fams[lb] = patterns[lb]
         if any(p[0].size == 0 for p in fams.values()):
@@ -151,7 +169,7 @@ def settle_overlaps(
         fits.append((ev, dec))
     n_fits = len(fits)
     for ev, dec in fits:
-        involved = (ev.label, *ev.explained_by)
+        involved = (ev.label, *partners[ev.label])
         z = {d.family: d.amplitude / d.uncertainty if d.uncertainty > 0 else np.inf for d in dec}
         # Šidák-corrected chance, in decades, that the counts would need each
         # family this much were it absent (one-sided normal tail).
@@ -164,7 +182,7 @@ def settle_overlaps(
             for d in dec
             if d.family in involved
         }
-        out.append({"family": ev.label, "explained_by": list(ev.explained_by), "families": rec})
+        out.append({"family": ev.label, "explained_by": partners[ev.label], "families": rec})
         # The fit shares the peak only when it keeps the families that took
         # it as well; one that swaps them contradicts the ranking and is
         # not trusted (Pr M for Al K on the shifted Al Kα peak).
@@ -188,10 +206,16 @@ def annotate_warnings(warnings: list[dict[str, Any]], decisions: list[dict[str, 
     """Add each fit's decision to the interference warning about the same families.
 
     A decision without a warning (the families' lines overlap only in the
-    fit's wider view) gets a warning of its own (``xray_overlap``).
+    fit's wider view) gets a warning of its own (``xray_overlap``) when it
+    needs at least two of the families (an interference to report; a fit
+    that needs one of them only confirms the ranking).
     """
+    seen: set[frozenset[str]] = set()
     for d in decisions:
         names = set(d["families"])
+        if frozenset(names) in seen:
+            continue  # the same fit, reached from another of its families
+        seen.add(frozenset(names))
         text = "; ".join(
             f"{fam} {'needed' if r['needed'] else 'not needed'} "
             f"({r['amplitude']:.0f} ± {r['uncertainty']:.0f}"
@@ -211,7 +235,7 @@ def annotate_warnings(warnings: list[dict[str, Any]], decisions: list[dict[str, 
                 w["message"] += sentence
                 w["decision"] = d["families"]
                 hit = True
-        if not hit:
+        if not hit and sum(r["needed"] for r in d["families"].values()) >= 2:
             warnings.append(
                 {
                     "kind": "xray_overlap",
