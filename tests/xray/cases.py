@@ -88,5 +88,6 @@ def run_case(name: str, fwhm: float, seed: int) -> tuple[ForwardSpectrum, dict]:
         warnings.simplefilter("ignore", PeakPropertyWarning)
         peaks = find_peaks(spec, snip_iterations=snip_iterations_for(inst, 10.0))
     peaks.extra.setdefault("x_range", (float(spec.x[0]), float(spec.x[-1])))
+    peaks.extra["spectrum"] = (spec.x, spec.y)  # as workbench.matching.analyse passes it
     rep = match_peaks(peaks, [load_set("xray")], MatchParameters(instrument=inst)).report()
     return fs, rep

@@ -19,11 +19,14 @@ rules (owned by the evidence model, issue 9):
 * every escape, sum and scatter peak with more than 300 counts that stands
   as a peak of its own (not under a larger element line) is labelled as an
   artefact in the JSON, or is not in the evidence at all;
-* the tube anode (Rh) and argon from air are never called.
+* the tube anode (Rh) and argon from air are never called;
+* no absent element reaches "probable" (element level);
+* Ba L on the Ti-bearing fabric reaches "probable", and the Ba L / Ti K
+  interference carries the spectrum fit's decision, both needed.
 
-The issue's class targets (≥ 95 % of present families "probable", top class
-at SNR > 10, no absent element "probable", ≤ 3 absent "possible") are
-printed, not asserted: they depend on the class rules rewritten for issue 9.
+The other class targets (≥ 95 % of present families "probable", top class
+at SNR > 10, ≤ 3 absent "possible") are printed, not asserted
+(``benchmarks/xrf_confusion.py`` prints the table beside another commit's).
 """
 
 from __future__ import annotations
@@ -155,6 +158,19 @@ def test_confusion(case, fwhm):
             n_ok += bool(labelled or not evidence)
         # The tube anode and argon from air are never called (artefacts, not sample).
         assert not any(sp.split()[0] in ("Rh", "Ar") for sp in absent), absent
+        # No absent element reaches "probable" (the issue's target; measured
+        # 2 of 20 spectra before the missing-family rule of joint.py).
+        assert not any(_LEVEL[v] >= 2 for v in absent.values()), absent
+        if case == "gsr_on_ti_fabric":
+            # Ba Lα under Ti Kα: decided on the spectrum (Ba Lβ/Lγ against Ti Kβ)
+            # and reported as an interference with the fit's decision.
+            assert _LEVEL[called.get("Ba L", "not supported")] >= 2, called.get("Ba L")
+            dec = [
+                w["decision"]
+                for w in rep["warnings"]
+                if "decision" in w and {"Ba L", "Ti K"} <= set(w["decision"])
+            ]
+            assert dec and dec[0]["Ba L"]["needed"] and dec[0]["Ti K"]["needed"], dec
     # Every artefact peak with > 300 counts standing on its own is labelled or
     # not evidence (measured: all 328 such groups over the 20 spectra).
     assert n_ok == n_art, (n_ok, n_art)

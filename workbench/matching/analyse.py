@@ -178,6 +178,10 @@ def peaks_from_spectrum(
 
     peaks = find_peaks(spectrum, mode=mode, **_peak_options(spectrum, instrument, peak_options))
     peaks.extra.setdefault("x_range", (float(spectrum.x[0]), float(spectrum.x[-1])))
+    if spectrum.axis == "energy":
+        # X-ray: overlaps are settled by a fit to the spectrum itself
+        # (workbench.xray.prepare keeps it off the peak list).
+        peaks.extra["spectrum"] = (np.asarray(spectrum.x), np.asarray(spectrum.y))
     if spectrum.x.size >= 2:
         spacing = np.gradient(np.asarray(spectrum.x, dtype=float))
         peaks.extra["sample_spacing"] = np.interp(peaks.positions, spectrum.x, spacing)

@@ -445,6 +445,21 @@ def match_peaks(
     )
     model, why, strengths, first = choose_model(obs, index, params, working_T, in_range)
     ev_pass, response = second_pass(obs, index, params, model, in_range, strengths, first)
+    if xray is not None and xray.spectrum is not None and model == "x-ray":
+        # X-ray: unresolved overlaps settled by a fit of the families' line
+        # patterns to the spectrum (workbench.matching.xray_overlap).
+        from workbench.matching.xray_overlap import settle_overlaps
+
+        ev_pass.xray_overlaps = settle_overlaps(
+            ev_pass,
+            obs,
+            index,
+            xray.instrument,
+            xray.spectrum,
+            xray.artefact_energies(),
+            sigma_dex=SOURCE_MODELS[model].sigma_dex,
+            strong_fraction=params.strong_fraction,
+        )
     temperature: TemperatureEstimate | None = None
     if (
         model == "lte-plasma"
@@ -509,6 +524,10 @@ def match_peaks(
     warnings = interference_warnings(
         obs, index, ev_pass, assignments, strong_fraction=params.strong_fraction
     )
+    if xray is not None and ev_pass.xray_overlaps:
+        from workbench.matching.xray_overlap import annotate_warnings
+
+        annotate_warnings(warnings, ev_pass.xray_overlaps)
     lte = None
     if temperature is not None and temperature.temperature_K is not None:
         lte = _lte_check(temperature, params)

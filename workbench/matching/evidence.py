@@ -37,7 +37,7 @@ species-sorted arrays. Per-species group arrays are kept on the evidence
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -94,6 +94,7 @@ class EvidencePass:
     density: float = 0.0
     span: float = 0.0
     sorted_intensity: np.ndarray | None = None
+    xray_overlaps: list = field(default_factory=list)  # workbench.matching.xray_overlap
 
 
 def _range_max(padded: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:

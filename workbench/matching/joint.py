@@ -91,6 +91,20 @@ def explain_jointly(
     # found group at each peak (-1 = none yet).
     touch_el = np.full(n_obs, -1, dtype=np.int64)
     with_int = np.isfinite(obs.intensity)
+    if family_ratio is not None and obs.detection_limit:
+        # A family whose element's higher-energy family should be plainly
+        # visible, and is not there, is refuted by it (before the ranking, so
+        # that Tm M cannot take Al Kα's peak when Tm L is missing).
+        _family_refutation(ev_pass, obs, index, family_ratio)
+        for ev in ev_pass.evidence.values():
+            if ev.family_missing_dex:
+                evaluate(
+                    ev,
+                    detection_limit=obs.detection_limit,
+                    sigma_dex=sigma_dex,
+                    n_tried=ev_pass.n_species_tried,
+                    strong_fraction=strong_fraction,
+                )
     if family_ratio is not None:
         # Families already established before the walk support their
         # element's other families first, so that those rank (and claim
@@ -174,6 +188,105 @@ def explain_jointly(
             claim_pred[p[better]] = pred[better]
             claim_sp[p[better]] = ev.code
             claim_el[p[better]] = el
+
+
+def _family_refutation(
+    ev_pass: EvidencePass,
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    family_ratio: Callable[[str, str, str], float],
+) -> None:
+    """Charge a family for its element's missing higher-energy family (X-ray).
+
+    A family F seen on its main peak implies its element's other families at
+    the thin-sample ratio (:func:`workbench.xray.excitation.family_ratio`).
+    Absorption in the sample weakens the lower-energy family more, so a
+    higher-energy family G is predicted at *least* that strong: its lines'
+    heights are h_G = ratio · (h_F · w_F / f_F) · f_G / w_G (h the main peak
+    height, w the detector FWHM, f the fraction of the family's counts within
+    half a FWHM of the line). Each of G's lines (≥ 0.1 of its strongest) with
+    no observed peak within the match window costs, like a missing line,
+    log10[ε + (1 − ε)·Φ(z)], z = (log10 DL − log10 h_G)/σ with
+    σ = log10 ``FAMILY_FACTOR`` (the ratio's uncertainty). Tm M on Al Kα's
+    peak with no Tm L at 7–8 keV, Re M on a Pb M satellite with no Re L: the
+    physics of the element, not a coincidence of one peak, decides.
+    Sets ``family_missing_dex`` of the evidence in place.
+    """
+    from scipy import special
+
+    from workbench.matching.scoring import LOSS_PROBABILITY
+
+    sigma = float(np.log10(FAMILY_FACTOR))
+    res = obs.resolution if obs.resolution is not None else 2.0 * obs.half_window
+    if obs.position.size == 0:
+        return
+    o_order = np.argsort(obs.position)
+    o_pos, o_res, o_hw = obs.position[o_order], res[o_order], obs.half_window[o_order]
+    strengths = np.nan_to_num(np.asarray(ev_pass.strengths, dtype=np.float64))
+    fams: dict[tuple[str, str], np.ndarray] = {}
+    for code, (el, fam) in enumerate(zip(index.species_element, index.species_family, strict=True)):
+        if fam:
+            fams[(el, fam)] = np.flatnonzero(index.species == code)
+
+    def fraction(lines: np.ndarray, e: float) -> float:
+        w = strengths[lines]
+        tot = float(np.sum(w))
+        if tot <= 0:
+            return 0.0
+        hw = float(np.interp(e, o_pos, o_hw))
+        return float(np.sum(w[np.abs(index.position[lines] - e) <= hw]) / tot)
+
+    for ev in ev_pass.evidence.values():
+        ev.family_missing_dex = 0.0
+        g = ev.groups
+        if not ev.family or not ev.main_found or ev.scale is None:
+            continue
+        known = np.where(g["known"], g["predicted"], -np.inf)
+        main = int(np.argmax(known))
+        e_f = float(g["position"][main])
+        h_f = float(obs.intensity[int(g["peak"][main])])
+        f_lines = fams.get((ev.element, ev.family))
+        if f_lines is None or not np.isfinite(h_f) or h_f <= 0:
+            continue
+        f_f = fraction(f_lines, e_f)
+        if f_f <= 0:
+            continue
+        counts_f = h_f * float(np.interp(e_f, o_pos, o_res)) / f_f
+        total = 0.0
+        for (el, fam), lines in fams.items():
+            if el != ev.element or fam == ev.family:
+                continue
+            lines = lines[ev_pass.in_range[lines]]
+            if lines.size == 0 or float(np.min(index.position[lines])) <= e_f:
+                continue  # only a higher-energy family is a lower bound
+            ratio = family_ratio(el, fam, ev.family)
+            if not (np.isfinite(ratio) and ratio > 0):
+                continue
+            w = strengths[lines]
+            if not np.any(w > 0):
+                continue
+            all_lines = fams[(el, fam)]
+            for ln in lines[w >= 0.1 * float(np.max(w))]:
+                e_g = float(index.position[ln])
+                i = int(np.searchsorted(o_pos, e_g))
+                hw = float(np.interp(e_g, o_pos, o_hw))
+                near = [j for j in (i - 1, i) if 0 <= j < o_pos.size]
+                if any(abs(o_pos[j] - e_g) <= hw for j in near):
+                    continue  # a peak is there (how strong is another matter)
+                h_g = (
+                    ratio
+                    * counts_f
+                    * fraction(all_lines, e_g)
+                    / float(np.interp(e_g, o_pos, o_res))
+                )
+                if h_g <= 0:
+                    continue
+                dl = float(obs.detection_limit_at(np.array([e_g]))[0])
+                z = (np.log10(dl) - np.log10(h_g)) / sigma
+                total += float(
+                    np.log10(LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z))
+                )
+        ev.family_missing_dex = total
 
 
 def _main_position(ev) -> float:

@@ -420,7 +420,7 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
         out.append("warnings:")
         for w in report["warnings"]:
             out.append(f"  [{w['kind']}] {w['message']}")
-    if xray and xray.get("artefact_peaks"):
+    if xray and (xray.get("artefact_peaks") or xray.get("artefacts_without_peak")):
         from workbench.xray.wording import artefact_lines
 
         out.append("")

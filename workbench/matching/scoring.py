@@ -130,7 +130,13 @@ Class changes on the energy axis: "probable" may rest on one found group
 when the main group is found and unique (single-group families such as
 Al K, Si K at EDS resolution); "possible" needs the main group found and not
 explained by a better species, and E ≥ 0 (:data:`XRAY_POSSIBLE_DEX`).
-"Established" still needs two found groups.
+"Established" needs two found groups, or a family that is probable and
+whose main group is the *sole explanation* above (the only plausible line
+of a peak of at least 10σ, within 2σ of it): such a peak is surely real and
+surely not an artefact (labelled before matching), so the look-elsewhere
+correction, which asks whether some species would fit a chance peak, does
+not apply to it; what remains is that the family's other lines and its
+element's other families agree, which "probable" on the net evidence says.
 
 The score (0–1) orders species within a class: ``max(E, 0) / (max(E, 0) + 3)``.
 The thresholds (3, 1.5 decades) were fixed before the real spectra were run;
@@ -260,6 +266,9 @@ class SpeciesEvidence:
     family_dex: float = 0.0
     family_floor_dex: float | None = None
     family_support: str | None = None
+    family_missing_dex: float = 0.0  # X-ray: missing higher-energy family (joint.py)
+    sole_explanation: bool = False  # X-ray: main group the only explanation of a ≥10σ peak
+    overlap_floor_dex: float | None = None  # X-ray: a spectrum fit needs it (xray_overlap)
     xray: bool = False
     main_found: bool = True
     n_groups_found: int = 0
@@ -343,6 +352,9 @@ def evaluate(
             penalty = float(np.sum(np.log10(p_miss[missing])))
         else:
             penalty = float(np.log10(misses_tail_probability(p_miss[nset], missing[nset])))
+    if "delta" in g:
+        # X-ray: the element's missing higher-energy family (joint.py).
+        penalty += ev.family_missing_dex
     ev.missing_penalty_dex = penalty
     ev.xray = "delta" in g
     if ev.xray:
@@ -350,6 +362,13 @@ def evaluate(
         known_pred = np.where(g["known"], g["predicted"], -np.inf)
         main = int(np.argmax(known_pred)) if known_pred.size else -1
         ev.main_found = bool(main >= 0 and g["found"][main] and not g["explained"][main])
+        use = nset & found & g["unique"]
+        ev.sole_explanation = bool(
+            main >= 0
+            and use[main]
+            and abs(g["delta"][main]) <= 2.0 * g["sigma_pos"][main]
+            and g["snr"][main] >= XRAY_SOLE_SNR
+        )
     own = float(
         -np.log10(max(ev.chance_probability_corrected, 1e-300))
         + penalty
@@ -359,6 +378,10 @@ def evaluate(
     # X-ray: a family is at least as certain as an established family of its
     # element that predicts it (workbench.matching.joint); never more.
     floor = ev.family_floor_dex
+    if ev.overlap_floor_dex is not None:
+        # X-ray: a fit of the overlapping families to the spectrum needs this
+        # one (workbench.matching.xray_overlap); a floor, like family support.
+        floor = ev.overlap_floor_dex if floor is None else max(floor, ev.overlap_floor_dex)
     ev.family_dex = max(floor - own, 0.0) if floor is not None else 0.0
     ev.net_evidence_dex = own + ev.family_dex
     m_order = np.argsort(-pred[missing], kind="stable")
@@ -631,10 +654,16 @@ def decide_verdict(ev: SpeciesEvidence) -> int:
     level = class_level(e, k, ev.n_unique_peaks, ev.missing_evidence)
     if not ev.xray:
         return prior_capped(level, ev.prior_dex, ev.chance_probability)
+    if level < 2 and e >= PROBABLE_DEX and ev.main_found and k >= 1 and ev.n_unique_peaks >= 1:
+        level = 2
+    if level == 2 and ev.sole_explanation:
+        # X-ray: a family that is the only explanation of a ≥10σ peak (not an
+        # artefact, not noise) on its main line, and probable on the net
+        # evidence (its other lines and the element's other families agree),
+        # is established even on one resolvable group (Si K, Al K).
+        return 3
     if level >= 2:
         return level
-    if e >= PROBABLE_DEX and ev.main_found and k >= 1 and ev.n_unique_peaks >= 1:
-        return 2
     return 1 if e >= XRAY_POSSIBLE_DEX and ev.main_found else 0
 
 

@@ -59,10 +59,11 @@ def _split(name: str) -> tuple[str, str]:
 
 
 def _yields(element: str) -> dict[str, float]:
-    from workbench.xray.forward import line_yields
-    from workbench.xray.instrument import DEFAULT_INSTRUMENT
+    # Precomputed for the default instrument (workbench.xray.yield_cache):
+    # the same values, without two seconds of xraylib calls per process.
+    from workbench.xray.yield_cache import default_yields
 
-    return line_yields(element, DEFAULT_INSTRUMENT)
+    return default_yields(element)
 
 
 def _covered(transition: str) -> set[str]:

@@ -48,6 +48,10 @@ class XrayPreparation:
     labels: pl.DataFrame
     predicted: pl.DataFrame
     scale: EnergyScale
+    unresolved: list[dict[str, Any]] = field(default_factory=list)
+    #: (energy_eV, net counts, baseline) of the spectrum, when it came with the
+    #: peaks: overlaps are settled on it (workbench.matching.xray_overlap).
+    spectrum: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
     not_excited: list[str] = field(default_factory=list)
     not_measurable: list[str] = field(default_factory=list)
     warnings: list[dict[str, object]] = field(default_factory=list)
@@ -88,6 +92,12 @@ class XrayPreparation:
         )
         return exc & mea
 
+    def artefact_energies(self) -> np.ndarray:
+        """Energies (eV) of artefact peaks: labelled as explained, or predicted without a peak."""
+        lab = self.labels.filter(pl.col("explained"))["observed_eV"].to_numpy()
+        hidden = np.array([a["energy_eV"] for a in self.unresolved], dtype=np.float64)
+        return np.concatenate([lab, hidden])
+
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready record for the result (``xray`` key)."""
         inst = self.instrument.to_dict()
@@ -96,6 +106,7 @@ class XrayPreparation:
             "instrument_assumed": self.assumed,
             "artefact_peaks": self.labels.to_dicts(),
             "n_artefacts_predicted": self.predicted.height,
+            "artefacts_without_peak": self.unresolved,
             "energy_scale": self.scale.to_dict(),
             "not_excited": self.not_excited,
             "not_measurable": self.not_measurable,
@@ -111,6 +122,66 @@ def _measurable_note(instrument: Instrument) -> str:
         f"lines below about {first:.0f} eV are not measurable in {instrument.atmosphere} "
         f"with this detector (light elements)"
     )
+
+
+def _without_peak(
+    arts: list,
+    labels: pl.DataFrame,
+    x: np.ndarray,
+    channel: float,
+    noise: float,
+    x_range: tuple[float, float] | None = None,
+) -> list[dict[str, Any]]:
+    """Predicted artefacts the peak finder did not separate, with their expected counts.
+
+    A predicted artefact with no observed peak within half its width (and no
+    labelled peak there) is still in the spectrum: merged into a stronger
+    neighbour's peak (a Compton peak beside its Rayleigh peak, a sum peak on
+    an element line's tail) or below what the peak finder separates. It is
+    listed so that the analyst knows what lies under that part of the
+    spectrum; artefacts within half a FWHM of each other are merged, and the
+    expected counts (Gaussian area 1.0645 · height · FWHM / channel) summed
+    where predictable (escape, sum; scatter and argon are not predicted in
+    intensity). Predicted escape and sum peaks below the peak heights' 1σ
+    noise (``noise``) and artefacts outside the measured range (``x_range``)
+    are not listed.
+    """
+    lab = labels["observed_eV"].to_numpy() if labels.height else np.empty(0)
+    rows: list[dict[str, Any]] = []
+    for a in sorted(arts, key=lambda a: a.energy_eV):
+        half = 0.5 * a.fwhm_eV
+        if a.predicted_intensity is not None and a.predicted_intensity < noise:
+            continue
+        if x_range is not None and not x_range[0] <= a.energy_eV <= x_range[1]:
+            continue
+        if np.any(np.abs(lab - a.energy_eV) <= half) or np.any(np.abs(x - a.energy_eV) <= half):
+            continue
+        counts = (
+            None
+            if a.predicted_intensity is None
+            else float(1.0645 * a.predicted_intensity * a.fwhm_eV / channel)
+        )
+        if rows and a.energy_eV - rows[-1]["_last"] <= half:
+            r = rows[-1]
+            r["_last"] = a.energy_eV
+            r["kinds"] = ",".join(sorted(set(r["kinds"].split(",")) | {a.kind}))
+            if a.origin not in r["origin"]:
+                r["origin"] += "; " + a.origin
+            if counts is not None:
+                r["expected_counts"] = (r["expected_counts"] or 0.0) + counts
+            continue
+        rows.append(
+            {
+                "energy_eV": float(a.energy_eV),
+                "_last": a.energy_eV,
+                "kinds": a.kind,
+                "origin": a.origin,
+                "expected_counts": counts,
+            }
+        )
+    for r in rows:
+        r.pop("_last")
+    return rows
 
 
 def _channel_width(peaks: PeakList) -> float:
@@ -387,11 +458,28 @@ def prepare_energy_peaks(
     new = new.filter(pl.Series(~drop))
     extra = dict(peaks.extra) if isinstance(peaks.extra, dict) else {}
     extra["xray_prepared"] = True
+    spectrum = None
+    sp = extra.pop("spectrum", None)  # per-channel arrays: kept here, not in the result
+    base = extra.get("baseline")
+    if sp is not None and base is not None and np.size(base) == np.size(sp[1]):
+        b = np.asarray(base, dtype=np.float64)
+        spectrum = (
+            scale.correct(np.asarray(sp[0], dtype=np.float64))
+            if scale.applied
+            else np.asarray(sp[0], dtype=np.float64),
+            np.asarray(sp[1], dtype=np.float64) - b,
+            b,
+        )
     if "baseline" in extra:  # per-channel array: not needed downstream, and large
         extra.pop("baseline")
         extra["channel_eV"] = channel
     out = PeakList(new, peaks.axis, peaks.medium, peaks.source, peaks.mode, extra)
     prep = XrayPreparation(inst, assumed, labels, artefact_table(arts), scale)
+    xr = peaks.extra.get("x_range") if isinstance(peaks.extra, dict) else None
+    prep.unresolved = _without_peak(
+        arts, labels, x, channel, dl, (float(xr[0]), float(xr[1])) if xr else None
+    )
+    prep.spectrum = spectrum
     if assumed:
         prep.warnings.append(
             {

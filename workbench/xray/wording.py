@@ -83,6 +83,13 @@ def artefact_lines(xray: dict[str, Any]) -> list[str]:
             else " — stronger than predicted: the excess is kept as evidence for elements"
         )
         out.append(f"  {format_energy_eV(a['observed_eV']):>9}  {a['origin']}{note}")
+    hidden = xray.get("artefacts_without_peak", [])
+    if hidden:
+        out.append("predicted artefacts with no separate peak (merged with a neighbour or weak):")
+        for a in hidden:
+            n = a.get("expected_counts")
+            counts = f" (about {n:.0f} counts expected)" if n is not None else ""
+            out.append(f"  {format_energy_eV(a['energy_eV']):>9}  {a['origin']}{counts}")
     return out
 
 

@@ -1,0 +1,248 @@
+"""X-ray: unresolved overlaps between families settled by a fit of their line patterns.
+
+After the joint explanation (:mod:`workbench.matching.joint`) a family whose
+peak a better family took (Ba Lα under Ti Kα, S Kα under Pb Mα) is only
+"explained" there: the ranking decided, not the spectrum. An XRF analyst
+settles such an overlap on the lines that tell the families apart (Ti Kβ
+against Ba Lβ1/Lγ1). :func:`settle_overlaps` does this for every family with
+its main group explained by a better family of another element: the
+spectrum itself (channels within a FWHM of the families' lines, net of the
+baseline) is fitted by the line patterns of the families involved and of
+every family called probable or better with a line in that window
+(:func:`workbench.xray.overlap.decide_overlap_spectrum`: weighted
+non-negative least squares, each line a Gaussian of the detector FWHM,
+Poisson errors and the pattern uncertainty
+:data:`workbench.xray.overlap.PATTERN_UNCERTAINTY`). When the explained
+family is *needed*, z = amplitude / uncertainty ≥ :data:`NEEDED_SIGMA`, its
+explained groups count as its own again, and unique (the fit has shared the
+peak), its net evidence is at least −log10 Φ(−z) (the chance that the counts
+would need it this much were it absent), and it is re-evaluated; when it is
+not needed, the explanation stands. Either way the decision, with the
+settling lines, is recorded for the interference warning
+(:func:`annotate_warnings`).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+from scipy import special
+
+from workbench.matching.evidence import EvidencePass, ObservedLines
+from workbench.matching.reference import ReferenceIndex
+from workbench.matching.scoring import evaluate
+
+__all__ = ["NEEDED_DEX", "annotate_warnings", "settle_overlaps"]
+
+#: A family is needed beside the one that took its peak when the chance that
+#: the counts would need it as much were it absent, corrected (Šidák) for
+#: every fit tried in the spectrum, is at most 10^−3: the "established"
+#: standard of :data:`workbench.matching.scoring.ESTABLISHED_DEX` (z ≈ 3.9
+#: for 25 fits).
+NEEDED_DEX: float = 3.0
+#: Lines weaker than this part of their family's strongest are left out of
+#: the patterns (they cannot settle anything at counting precision; common
+#: practice, no source).
+_MIN_REL: float = 0.01
+
+
+def _pattern(
+    ev_pass: EvidencePass, index: ReferenceIndex, code: int
+) -> tuple[np.ndarray, np.ndarray]:
+    lines = np.flatnonzero((index.species == code) & ev_pass.in_range)
+    w = np.nan_to_num(np.asarray(ev_pass.strengths, dtype=np.float64)[lines])
+    if lines.size == 0 or not np.any(w > 0):
+        return np.empty(0), np.empty(0)
+    keep = w >= _MIN_REL * float(np.max(w))
+    return index.position[lines[keep]].astype(np.float64), w[keep]
+
+
+def settle_overlaps(
+    ev_pass: EvidencePass,
+    obs: ObservedLines,
+    index: ReferenceIndex,
+    instrument: Any,
+    spectrum: tuple[np.ndarray, np.ndarray, np.ndarray],
+    artefacts_eV: np.ndarray | None = None,
+    *,
+    sigma_dex: float,
+    strong_fraction: float,
+) -> list[dict[str, Any]]:
+    """Fit explained families against the families that explained them (module docstring).
+
+    Parameters
+    ----------
+    ev_pass : EvidencePass
+        After :func:`workbench.matching.joint.explain_jointly`; changed in place.
+    obs : ObservedLines
+    index : ReferenceIndex
+    instrument : workbench.xray.instrument.Instrument
+        For the detector FWHM.
+    spectrum : (energy_eV, net counts, baseline)
+        The spectrum the peaks were found in (``XrayPreparation.spectrum``).
+    artefacts_eV : numpy.ndarray, optional
+        Artefact peaks (labelled or predicted): channels within a FWHM of
+        them are left out of the fits (no element pattern models a tube
+        line's scatter or an escape peak).
+    sigma_dex, strong_fraction : float
+        As for :func:`workbench.matching.scoring.evaluate`.
+
+    Returns
+    -------
+    list of dict
+        One decision per fitted set: ``family`` (the explained one),
+        ``explained_by`` and ``families`` (label → needed, amplitude,
+        uncertainty, settling lines in eV).
+    """
+    from workbench.xray.detector import fwhm_eV
+    from workbench.xray.overlap import decide_overlap_spectrum
+
+    if not obs.detection_limit or obs.position.size == 0:
+        return []
+    x, net, base = spectrum
+    if artefacts_eV is not None and np.size(artefacts_eV):
+        a = np.asarray(artefacts_eV, dtype=np.float64)
+        near = np.min(np.abs(x[:, None] - a[None, :]), axis=1)
+        keep = near > fwhm_eV(x, instrument)
+        x, net, base = x[keep], net[keep], base[keep]
+    fits = []
+    by_label = {ev.label: ev for ev in ev_pass.evidence.values()}
+    patterns = {ev.label: _pattern(ev_pass, index, ev.code) for ev in ev_pass.evidence.values()}
+    out: list[dict[str, Any]] = []
+
+    def main_taken(ev) -> bool:
+        # Only a family whose main group was taken: one the better family
+        # explains by a minor line only is no overlap an analyst would settle.
+        g = ev.groups
+        if not ev.explained_by or not np.any(g["explained"]) or not ev.family:
+            return False
+        known = np.where(g["known"], g["predicted"], -np.inf)
+        return bool(g["explained"][int(np.argmax(known))])
+
+    cands = [
+        ev for ev in sorted(ev_pass.evidence.values(), key=lambda v: v.label) if main_taken(ev)
+    ]
+    partners = {ev.label: list(ev.explained_by) for ev in cands}
+    # Families whose main groups sit on one peak, none explained there (Ba L
+    # and Ti K when neither is probable enough to take the peak): each one
+    # short of established is fitted against the others.
+    on_peak: dict[int, list] = {}
+    for ev in ev_pass.evidence.values():
+        g = ev.groups
+        if not ev.family or not ev.main_found or ev.label in partners:
+            continue
+        known = np.where(g["known"], g["predicted"], -np.inf)
+        on_peak.setdefault(int(g["peak"][int(np.argmax(known))]), []).append(ev)
+    for evs in on_peak.values():
+        for ev in evs:
+            others = [o.label for o in evs if o.element != ev.element]
+            if ev.level < 3 and others:
+                partners[ev.label] = others
+                cands.append(ev)
+    cands.sort(key=lambda v: v.label)
+    cand_labels = set(partners)
+    for ev in cands:
+        fams = {ev.label: patterns[ev.label]}
+        for lb in partners[ev.label]:
+            if lb in by_label:
+                fams[lb] = patterns[lb]
+        if any(p[0].size == 0 for p in fams.values()):
+            continue
+        # Every family called probable or better with a line in the window,
+        # and every other candidate there, is fitted too, so that a
+        # neighbour's counts are not taken for either (Pr L must not take
+        # Ba L's counts beside Ti K).
+        strong = np.concatenate([e[r >= 0.1 * r.max()] for e, r in fams.values()])
+        lo = float(strong.min()) - 2.0 * float(fwhm_eV(strong.min(), instrument))
+        hi = float(strong.max()) + 2.0 * float(fwhm_eV(strong.max(), instrument))
+        for other in ev_pass.evidence.values():
+            e, r = patterns[other.label]
+            if (
+                (other.level >= 2 or other.label in cand_labels)
+                and other.label not in fams
+                and e.size
+            ):
+                if np.any((e >= lo) & (e <= hi) & (r >= 0.1 * r.max())):
+                    fams[other.label] = (e, r)
+        dec = decide_overlap_spectrum(x, net, fams, instrument, background=base)
+        fits.append((ev, dec))
+    n_fits = len(fits)
+    for ev, dec in fits:
+        involved = (ev.label, *partners[ev.label])
+        z = {d.family: d.amplitude / d.uncertainty if d.uncertainty > 0 else np.inf for d in dec}
+        # Šidák-corrected chance, in decades, that the counts would need each
+        # family this much were it absent (one-sided normal tail).
+        dex = {
+            f: float(-np.log10(max(-np.expm1(n_fits * np.log1p(-special.ndtr(-v))), 1e-30)))
+            for f, v in z.items()
+        }
+        rec = {
+            d.family: d.to_dict() | {"needed": dex[d.family] >= NEEDED_DEX}
+            for d in dec
+            if d.family in involved
+        }
+        out.append({"family": ev.label, "explained_by": partners[ev.label], "families": rec})
+        # The fit shares the peak only when it keeps the families that took
+        # it as well; one that swaps them contradicts the ranking and is
+        # not trusted (Pr M for Al K on the shifted Al Kα peak).
+        if rec[ev.label]["needed"] and all(rec[o]["needed"] for o in ev.explained_by if o in rec):
+            ev.overlap_floor_dex = min(dex[ev.label], 30.0)
+            g = ev.groups
+            g["explained"] = np.zeros_like(g["explained"])
+            g["unique"] = g["unique"] | g["found"]
+            ev.explained_by = []
+            evaluate(
+                ev,
+                detection_limit=obs.detection_limit,
+                sigma_dex=sigma_dex,
+                n_tried=ev_pass.n_species_tried,
+                strong_fraction=strong_fraction,
+            )
+    return out
+
+
+def annotate_warnings(warnings: list[dict[str, Any]], decisions: list[dict[str, Any]]) -> None:
+    """Add each fit's decision to the interference warning about the same families.
+
+    A decision without a warning (the families' lines overlap only in the
+    fit's wider view) gets a warning of its own (``xray_overlap``) when it
+    needs at least two of the families (an interference to report; a fit
+    that needs one of them only confirms the ranking).
+    """
+    seen: set[frozenset[str]] = set()
+    for d in decisions:
+        names = set(d["families"])
+        if frozenset(names) in seen:
+            continue  # the same fit, reached from another of its families
+        seen.add(frozenset(names))
+        text = "; ".join(
+            f"{fam} {'needed' if r['needed'] else 'not needed'} "
+            f"({r['amplitude']:.0f} ± {r['uncertainty']:.0f}"
+            + (
+                f", settled on {', '.join(f'{e:.0f}' for e in r['settling_lines_eV'][:4])} eV)"
+                if r["settling_lines_eV"]
+                else ")"
+            )
+            for fam, r in sorted(d["families"].items())
+        )
+        sentence = f" Decided by a fit of the families' line patterns to the spectrum: {text}."
+        hit = False
+        for w in warnings:
+            if set(w.get("elements", [])) <= names and len(w.get("elements", [])) >= 2:
+                if "decision" in w:
+                    continue
+                w["message"] += sentence
+                w["decision"] = d["families"]
+                hit = True
+        if not hit and sum(r["needed"] for r in d["families"].values()) >= 2:
+            warnings.append(
+                {
+                    "kind": "xray_overlap",
+                    "message": f"{' and '.join(sorted(names))} overlap at this detector's "
+                    f"resolution.{sentence}",
+                    "elements": sorted(names),
+                    "lines": [],
+                    "decision": d["families"],
+                }
+            )
