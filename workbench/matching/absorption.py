@@ -53,8 +53,8 @@ absorption mixtures (``tests/matching/test_absorption_mixtures.py``) they
 raised false calls at R = 500 from 0 to 2 "established" and from 1 to 20
 "probable" (solar prior), and at R = 2000 gave Hg "probable" without a
 prior: the reference set holds near-coincident lines of different species
-(Hg II: six groups within 0.0006 combined closeness of lines of the species
-put in), for which closeness is far from uniform. Restricted to the
+(Hg II, not put in: six groups whose combined closeness probability was
+0.0006), for which closeness is far from uniform. Restricted to the
 pre-specified test, nothing changes without a prior, and with the solar
 prior 90 synthetic mixtures give 32 false "probable" (35 before) and none
 "established". Constants: none new.
