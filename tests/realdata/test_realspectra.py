@@ -22,11 +22,6 @@ the Kast arc, which pypeit does not list).
 
 Known gaps (``xfail(strict=True)``: they fail today and are reported in the
 issue's closing table; a fix turns them into errors to be removed):
-Fe in 1200M2 FeHeAr (since data version 2026.12.3: with Ar II in the set the
-engine's automatic source-model choice, made on the first pass, tips to
-lte-plasma by 1.3 dex of 74 and Fe I/Fe II fall to "not supported"; with
-``source_model="discharge-lamp"`` Fe is established, and the final pass
-explains the spectrum better under discharge-lamp, 85.2 vs 74.9 dex),
 Kr, Xe and Hg in the LRIS arc (held-out), Mg, Fe and Na in ASTM G173.
 Fe in 1200M4 FeHeAr is no longer listed: its three identified lines (617.23,
 664.37, 686.13 nm) are all Ar II lines (NIST ASD, via PypeIt's Th-Ar list),
@@ -52,7 +47,6 @@ LAMPS_HELD = list(HELD_OUT)
 
 #: (file, element): clearly present (≥ 3 identified lines) but not at the top class today.
 KNOWN_GAPS = {
-    ("goodman_comp_1200M2_FeHeAr", "Fe"),
     ("lrisr_400_8500_PYPIT", "Kr"),
     ("lrisr_400_8500_PYPIT", "Xe"),
     ("lrisr_400_8500_PYPIT", "Hg"),
