@@ -419,12 +419,22 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
         out.append("")
         out.append("warnings:")
         for w in report["warnings"]:
-            out.append(f"  [{w['kind']}] {w['message']}")
-    if xray and (xray.get("artefact_peaks") or xray.get("artefacts_without_peak")):
-        from workbench.xray.wording import artefact_lines
+            if w["kind"] != "overlap_ruled_out":  # X-ray: listed together below
+                out.append(f"  [{w['kind']}] {w['message']}")
+    if any(w["kind"] == "overlap_ruled_out" for w in report["warnings"]):
+        from workbench.matching.xrf_view import ruled_out_lines
 
         out.append("")
-        out.extend(artefact_lines(xray))
+        out.append(
+            "ruled out on their own lines (a line falls on a peak of an element found, "
+            "but the family's other lines speak against it):"
+        )
+        out.extend(f"  {line}" for line in ruled_out_lines(report["warnings"]))
+    if xray and (xray.get("artefact_peaks") or xray.get("artefacts_without_peak")):
+        from workbench.matching.xrf_view import artefact_text_lines
+
+        out.append("")
+        out.extend(artefact_text_lines(xray))
     un = [ln for ln in report["lines"] if ln["status"] == "unassigned"]
     if un:
         out.append("")
