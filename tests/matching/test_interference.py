@@ -121,6 +121,10 @@ def test_xrf_text_report_lists_ruled_out_families_once_and_every_artefact(xrf_de
     text = summary_text(xrf_demo_report)
     assert "[overlap_ruled_out]" not in text
     assert text.count("ruled out on their own lines (") == 1
+    # Open interferences once per peak, not one long message per pair.
+    assert "[unresolved_overlap]" not in text
+    assert text.count("interferences, by peak") == 1
+    assert "Pb L, with lines of As K (8 eV apart) in one peak at this detector" in text
     assert "Ba L: a line under the Ti K peak at" in text
     xray = xrf_demo_report["xray"]
     for a in xray["artefact_peaks"]:

@@ -307,7 +307,7 @@ def stick_figure(
         data.append(
             {
                 "type": "scatter", "x": xs, "y": ys, "mode": "lines", "name": "artefact peak",
-                "line": {"color": _ARTEFACT, "width": 1.5, "dash": "dot"}, "hoverinfo": "text",
+                "line": {"color": _ARTEFACT, "width": 2.0, "dash": "dot"}, "hoverinfo": "text",
                 "hovertext": _hover([_esc(a["text"]) for a in peaks]), "xaxis": "x", "yaxis": "y",
             }
         )  # fmt: skip

@@ -33,6 +33,7 @@ __all__ = [
     "artefact_top",
     "decision_text",
     "detector_overlap_text",
+    "interference_lines",
     "ruled_out_lines",
     "ruled_out_summary",
 ]
@@ -330,3 +331,85 @@ def ruled_out_summary(warnings: Sequence[Mapping[str, Any]]) -> str:
         "Ruled out on their own lines, although one of their lines falls on a peak of an "
         "element found: " + "; ".join(lines) + "."
     )
+
+
+def interference_lines(report: Mapping[str, Any]) -> list[str]:
+    """Open X-ray interferences grouped by observed peak, one short line each (CLI text).
+
+    Each ``unresolved_overlap`` warning of the report is one pair of families
+    in one peak; a reader wants the peak once, the family the peak was given
+    to first (best verdict), the others with their distance in eV against
+    the detector's FWHM there, and how the spectrum fit decided. Families the
+    fit did not decide are named with the lines that would settle them.
+    Empty off the energy axis.
+    """
+    xray = report.get("xray")
+    if not xray:
+        return []
+    from workbench.xray import Instrument
+    from workbench.xray.detector import fwhm_eV
+
+    inst = Instrument.from_dict(dict(xray["instrument"]))
+    levels = {str(e["species"]): int(e["verdict_level"]) for e in report.get("elements") or []}
+    groups: dict[float, list[Mapping[str, Any]]] = {}
+    for w in report.get("warnings") or []:
+        obs = _num(w.get("observed"))
+        if w.get("kind") == "unresolved_overlap" and obs is not None:
+            groups.setdefault(round(obs, 6), []).append(w)
+    out = []
+    for obs in sorted(groups):
+        ws = groups[obs]
+        names = sorted(
+            {str(s) for w in ws for s in w.get("elements") or []},
+            key=lambda s: (-levels.get(s, 0), s),
+        )
+        first = names[0]
+        fwhm = float(fwhm_eV(obs, inst))
+        apart: dict[str, float] = {}
+        needed: dict[str, bool] = {}
+        for w in ws:
+            sep = _num(w.get("separation"))
+            for s in w.get("elements") or []:
+                if s != first and sep is not None:
+                    apart[str(s)] = min(apart.get(str(s), sep), sep)
+            for fam, r in (w.get("decision") or {}).items():
+                needed[str(fam)] = needed.get(str(fam), False) or bool(r.get("needed"))
+        others = ", ".join(
+            f"{s} ({apart[s]:.0f} eV apart" + (")" if apart[s] < fwhm else ", resolved)")
+            for s in names[1:]
+            if s in apart
+        )
+        text = (
+            f"{_energy(obs):>6} eV  {first}, with lines of {others} "
+            f"in one peak at this detector (FWHM {fwhm:.0f} eV here)"
+        )
+        fitted = [s for s in names if s in needed]
+        if fitted:
+            yes = [s for s in fitted if needed[s]]
+            no = [s for s in fitted if not needed[s]]
+            text += "; the spectrum fit needs " + (", ".join(yes) or "none of them")
+            text += f", not {', '.join(no)}" if no else ""
+        for s in names:
+            if s in needed or s == first:
+                continue
+            settle = _settles(ws).get(s) or {}
+            clean = ", ".join(_energy(float(v)) for v in settle.get("found") or [])
+            missing = ", ".join(_energy(float(v)) for v in settle.get("missing") or [])
+            how = "; ".join(
+                p
+                for p in (
+                    f"clean lines at {clean} eV" if clean else "",
+                    f"strong lines missing at {missing} eV" if missing else "",
+                )
+                if p
+            )
+            text += f"; {s} not fitted: settle on its other lines ({how or 'none in range'})"
+        out.append(text)
+    return out
+
+
+def _settles(ws: Sequence[Mapping[str, Any]]) -> dict[str, Any]:
+    merged: dict[str, Any] = {}
+    for w in ws:
+        merged.update(w.get("settle") or {})
+    return merged
