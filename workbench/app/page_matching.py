@@ -327,8 +327,13 @@ def _results() -> None:
         rest = [g for g in groups if not g.touches_probable]
         st.subheader(f"Interferences at {len(groups)} observed line(s)")
         st.caption(
-            "Lines of different species within one match window. Groups touching a call of "
-            "probable or better come first; settle each with the interference-free lines."
+            (
+                "Lines of different X-ray families in one peak (closer than the detector's FWHM). "
+                if energy_axis
+                else "Lines of different species within one match window. "
+            )
+            + "Groups touching a call of probable or better come first; settle each with the "
+            "interference-free lines."
         )
 
         def _group(g: pr.InterferenceGroup, k: int) -> None:
