@@ -14,9 +14,8 @@ process boundary.
 
 On an energy axis (X-ray fluorescence) positions are shown to 1 eV and
 species are X-ray families (``Pb L``, ``Ti K``); on a wavelength axis to
-0.0001 nm with the medium named. The X-ray display helpers of
-``workbench.xray`` were not on this branch; :func:`format_position` and
-:func:`axis_title` are the small stand-ins.
+0.0001 nm with the medium named. X-ray artefact peaks and overlaps in
+detector terms are shaped by :mod:`workbench.matching.xrf_view`.
 """
 
 from __future__ import annotations
@@ -373,10 +372,18 @@ def interference_groups(report: Mapping[str, Any]) -> list[InterferenceGroup]:
     return out
 
 
-def overlap_text(warning: Mapping[str, Any], unit: str) -> str:
-    """One line for an interference warning, positions and separation in the axis unit."""
+def overlap_text(
+    warning: Mapping[str, Any], unit: str, xray: Mapping[str, Any] | None = None
+) -> str:
+    """One line for an interference warning, positions and separation in the axis unit.
+
+    With the result's ``xray`` record (energy axis) the separation is stated
+    against the detector's FWHM there ("resolved / unresolved at this
+    detector") and the spectrum fit's decision, if any, is added.
+    """
     sp = " / ".join(str(s) for s in warning.get("elements") or []) or "two species"
-    pos = [format_position(p, unit) for p in warning.get("positions") or []]
+    positions = [p for p in warning.get("positions") or [] if isinstance(p, int | float)]
+    pos = [format_position(p, unit) for p in positions]
     where = " and ".join(pos) + f" {unit}" if pos else ""
     sep = warning.get("separation")
     gap = f", {format_position(sep, unit)} {unit} apart" if isinstance(sep, int | float) else ""
@@ -384,16 +391,32 @@ def overlap_text(warning: Mapping[str, Any], unit: str) -> str:
     res = ""
     if unit != "eV" and isinstance(need, int | float) and math.isfinite(need):
         res = f" (separating them needs R ≥ {need:,.0f})"
-    return f"{sp}: lines at {where}{gap}{res}".replace(": lines at  ", ": ")
+    elif xray and isinstance(sep, int | float) and positions:
+        from workbench.matching.xrf_view import decision_text, detector_overlap_text
+
+        # Families are named sorted, lines in the engine's order: one energy for both.
+        mid = sum(positions) / len(positions)
+        where = f"{format_position(mid, unit)} {unit}"
+        gap = ": " + detector_overlap_text(sep, mid, xray)
+        settled = decision_text(warning.get("decision"))
+        res = f"; {settled}" if settled else ""
+    lead = "lines near" if xray and unit == "eV" else "lines at"
+    return f"{sp}: {lead} {where}{gap}{res}".replace(f": {lead}  ", ": ")
 
 
 def other_warnings(report: Mapping[str, Any]) -> list[tuple[int, str, str]]:
-    """Non-interference warnings as ``(index, kind, message)``; none about temperature on XRF."""
+    """Non-interference warnings as ``(index, kind, message)``.
+
+    None about temperature on XRF, and no ``overlap_ruled_out`` note (those
+    are listed together by :func:`workbench.matching.xrf_view.ruled_out_lines`).
+    """
     energy = report["input"].get("axis") == "energy"
     out = []
     for k, w in enumerate(report.get("warnings") or []):
         kind = str(w.get("kind"))
         if kind in INTERFERENCE_KINDS or (energy and kind in ("temperature", "lte")):
+            continue
+        if kind == "overlap_ruled_out":  # X-ray: shown together (xrf_view.ruled_out_lines)
             continue
         out.append((k, kind, str(w.get("message", ""))))
     return out
@@ -460,12 +483,22 @@ def zoom_range(
 
 
 def observed_sticks(report: Mapping[str, Any]) -> list[ObservedStick]:
-    """Observed lines as sticks (height = intensity / strongest; 1 when unknown)."""
+    """Observed lines as sticks (height = intensity / strongest; 1 when unknown).
+
+    On an energy axis the strongest includes the labelled artefact peaks, so
+    that sticks and artefact marks (:func:`workbench.matching.xrf_view.artefact_marks`)
+    share one scale.
+    """
     u = report["input"]["unit"]
     lines = report.get("lines") or []
-    inten = [ln.get("intensity") for ln in lines]
-    finite = [abs(v) for v in inten if isinstance(v, int | float) and math.isfinite(v)]
-    top = max(finite) if finite else 0.0
+    if report.get("xray"):
+        from workbench.matching.xrf_view import artefact_top
+
+        top = artefact_top(report)
+    else:
+        inten = [ln.get("intensity") for ln in lines]
+        finite = [abs(v) for v in inten if isinstance(v, int | float) and math.isfinite(v)]
+        top = max(finite) if finite else 0.0
     out: list[ObservedStick] = []
     for ln in lines:
         v = ln.get("intensity")
