@@ -69,7 +69,9 @@ def _stage(code, label, ion, p, level, groups=3):
     )
 
 
-@pytest.mark.parametrize(("p_weak", "raised"), [(0.01, True), (0.05, True), (0.5, False), (0.95, False)])
+@pytest.mark.parametrize(
+    ("p_weak", "raised"), [(0.01, True), (0.05, True), (0.5, False), (0.95, False)]
+)
 def test_a_stage_is_raised_only_on_data_of_its_own(p_weak, raised):
     # Invented element "Qa": stage I alone gives p = 1e-20 (established on its own),
     # stage II has three matched groups with chance probability p_weak. Fisher's

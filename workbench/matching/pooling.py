@@ -47,10 +47,10 @@ import numpy as np
 
 from workbench.matching.evidence import EvidencePass
 from workbench.matching.scoring import (
+    PRIOR_DATA_P,
     SpeciesEvidence,
     class_level,
     fisher_combined,  # re-exported: the one closed form, shared with the closeness term
-    PRIOR_DATA_P,
     prior_capped,
     score_for,
 )
