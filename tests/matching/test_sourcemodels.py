@@ -84,3 +84,30 @@ def test_unknown_model_is_one_clear_error():
         get_model("plasma-ball")
     with pytest.raises(ValueRangeError):
         MatchParameters(source_model="plasma-ball")
+
+
+def test_model_choice_counts_only_species_the_models_predict_differently():
+    # Invented species Qd I with tabulated intensities only (no gA): the same
+    # prediction under lte-plasma and discharge-lamp, so it cannot say which
+    # model describes the source and is left out of the comparison
+    # (workbench.matching.passes._model_sensitive_species). Qc I has atomic
+    # data, but only on lines outside the range given here.
+    from workbench.matching.passes import _model_sensitive_species
+
+    t = invented_table()
+    qd = t.filter(pl.col("element") == "Qb").with_columns(
+        pl.lit("Qd").alias("element"),
+        pl.lit(None, dtype=pl.Float64).alias("A_ki_per_s"),
+        (pl.col("line_id") + "-qd").alias("line_id"),
+        (pl.col("wavelength_vac_nm") + 5.0).alias("wavelength_vac_nm"),
+        (pl.col("wavelength_air_nm") + 5.0).alias("wavelength_air_nm"),
+    )
+    t = pl.concat([t, qd])
+    rel = np.where(t["element"].to_numpy() == "Qd", 100.0, np.nan)
+    idx = _index(t.with_columns(pl.Series("rel_intensity", rel)))
+    in_range = ~np.isin(np.round(idx.position).astype(int), [380, 600])
+    got = _model_sensitive_species(idx, 10_000.0, in_range)
+    names = idx.species_names
+    assert got[names.index("Qa I")] and got[names.index("Qb I")]
+    assert not got[names.index("Qd I")]  # tabulated only
+    assert not got[names.index("Qc I")]  # atomic data, but none in range

@@ -22,11 +22,10 @@ the Kast arc, which pypeit does not list).
 
 Known gaps (``xfail(strict=True)``: they fail today and are reported in the
 issue's closing table; a fix turns them into errors to be removed):
-Fe in 1200M4 FeHeAr (three identified lines, but two of them, 664.37 and
-686.13 nm, are Ar II lines in the NOAO Fe-Ar atlas list, which the shipped
-optical set lacks; the Fe I lines within 0.01 nm are predicted at 2e-6 and
-3e-4 of Fe I's strongest: docs/evidence-model.md, section 7),
 Kr, Xe and Hg in the LRIS arc (held-out), Mg and Fe in ASTM G173.
+Fe in 1200M4 FeHeAr is no longer listed: its three identified lines (617.23,
+664.37, 686.13 nm) are all Ar II lines (NIST ASD, via PypeIt's Th-Ar list),
+so no identified line shows Fe there.
 """
 
 from __future__ import annotations
@@ -48,7 +47,6 @@ LAMPS_HELD = list(HELD_OUT)
 
 #: (file, element): clearly present (≥ 3 identified lines) but not at the top class today.
 KNOWN_GAPS = {
-    ("goodman_comp_1200M4_GG455_FeHeAr", "Fe"),
     ("lrisr_400_8500_PYPIT", "Kr"),
     ("lrisr_400_8500_PYPIT", "Xe"),
     ("lrisr_400_8500_PYPIT", "Hg"),

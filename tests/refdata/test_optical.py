@@ -136,6 +136,7 @@ def test_sources_and_disagreement_columns(table):
         "morton00",
         "nist_rascal",
         "ges2022",
+        "nist_pypeit",
         "verner96",
         "supplement",
     }

@@ -36,6 +36,7 @@ _REF_COLOURS = ("#0072b2", "#d55e00", "#009e73", "#cc79a7", "#e69f00", "#56b4e9"
 _INTERFERENCE_FILL = "rgba(120, 120, 120, 0.16)"
 _INTERFERENCE_MARK = "#6b4c9a"  # not one of the species colours
 _BROKEN = "#c0392b"
+_ARTEFACT = "#8c510a"  # brown: not a species colour, not the interference mark
 
 
 def _esc(value: Any) -> str:
@@ -218,6 +219,7 @@ def stick_figure(
     axis_title: str,
     interference: Sequence[tuple[float, float, str]] = (),
     x_range: tuple[float, float] | None = None,
+    artefacts: Sequence[Mapping[str, Any]] = (),
 ) -> Any:
     """Observed sticks on top and one thin labelled track per chosen species, shared x axis.
 
@@ -244,11 +246,17 @@ def stick_figure(
         Position spans of interfering pairs (marked in every panel).
     x_range : (float, float), optional
         The visible range.
+    artefacts : sequence of mapping
+        X-ray artefacts (:func:`workbench.matching.xrf_view.artefact_marks`):
+        ``position``, ``height`` (on the observed sticks' scale; ``None``
+        without a separate peak), ``separated``, ``text``. Drawn in the
+        observed panel as dotted sticks, or open triangles at the axis.
 
     Returns
     -------
     plotly.graph_objects.Figure
-        Trace names: ``observed``, one ``<species>`` per track, ``interfering pair``.
+        Trace names: ``observed``, ``artefact peak``, ``artefact, no separate peak``,
+        one ``<species>`` per track, ``interfering pair``.
     """
     import plotly.graph_objects as go
 
@@ -270,9 +278,15 @@ def stick_figure(
     def _hover(rows_text: list[str]) -> np.ndarray:
         return np.repeat(np.array(rows_text, dtype=object), 3) if rows_text else np.array([])
 
+    peaks = [a for a in artefacts if a.get("separated") and a.get("height") is not None]
+    a_pos = np.array([float(a["position"]) for a in peaks])
+    a_h = np.array([float(a["height"]) for a in peaks])
     if observed:
         pos = np.array([float(o["position"]) for o in observed])
-        h = _scaled(pos, np.array([float(o["height"]) for o in observed]), x_range)
+        raw = np.array([float(o["height"]) for o in observed])
+        # One scale for element lines and artefact peaks in the observed panel.
+        both = _scaled(np.concatenate([pos, a_pos]), np.concatenate([raw, a_h]), x_range)
+        h, a_h = both[: pos.size], both[pos.size :]
         xs, ys = _stick_xy(pos, h)
         data.append(
             {
@@ -283,6 +297,28 @@ def stick_figure(
                     f"{_esc(o.get('assigned_to') or '-')}"
                     for o in observed
                 ]),
+                "xaxis": "x", "yaxis": "y",
+            }
+        )  # fmt: skip
+    elif peaks:
+        a_h = _scaled(a_pos, a_h, x_range)
+    if peaks:
+        xs, ys = _stick_xy(a_pos, a_h)
+        data.append(
+            {
+                "type": "scatter", "x": xs, "y": ys, "mode": "lines", "name": "artefact peak",
+                "line": {"color": _ARTEFACT, "width": 2.0, "dash": "dot"}, "hoverinfo": "text",
+                "hovertext": _hover([_esc(a["text"]) for a in peaks]), "xaxis": "x", "yaxis": "y",
+            }
+        )  # fmt: skip
+    hidden = [a for a in artefacts if not a.get("separated")]
+    if hidden:
+        data.append(
+            {
+                "type": "scatter", "x": [float(a["position"]) for a in hidden],
+                "y": [0.03] * len(hidden), "mode": "markers", "name": "artefact, no separate peak",
+                "marker": {"symbol": "triangle-up-open", "color": _ARTEFACT, "size": 8},
+                "hovertext": [_esc(a["text"]) for a in hidden], "hoverinfo": "text",
                 "xaxis": "x", "yaxis": "y",
             }
         )  # fmt: skip

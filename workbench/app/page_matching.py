@@ -13,6 +13,7 @@ import streamlit as st
 from workbench.app import _ui, figures, forms, runs, store_access
 from workbench.app.inputs import apply_peak_edits, table_rows
 from workbench.matching import presentation as pr
+from workbench.matching import xrf_view
 
 st.title("Line matching")
 root = _ui.store_root()
@@ -320,13 +321,19 @@ def _results() -> None:
 
     groups = pr.interference_groups(report)
     warnings = report.get("warnings") or []
+    xray = report.get("xray")
     if groups:
         first = [g for g in groups if g.touches_probable]
         rest = [g for g in groups if not g.touches_probable]
         st.subheader(f"Interferences at {len(groups)} observed line(s)")
         st.caption(
-            "Lines of different species within one match window. Groups touching a call of "
-            "probable or better come first; settle each with the interference-free lines."
+            (
+                "Lines of different X-ray families in one peak (closer than the detector's FWHM). "
+                if energy_axis
+                else "Lines of different species within one match window. "
+            )
+            + "Groups touching a call of probable or better come first; settle each with the "
+            "interference-free lines."
         )
 
         def _group(g: pr.InterferenceGroup, k: int) -> None:
@@ -338,7 +345,9 @@ def _results() -> None:
             c1, c2 = st.columns([9, 1])
             c1.markdown(
                 f"**{where}** — "
-                + "; ".join(_ui.plain(pr.overlap_text(warnings[i], u)) for i in g.warning_indices)
+                + "; ".join(
+                    _ui.plain(pr.overlap_text(warnings[i], u, xray)) for i in g.warning_indices
+                )
             )
             if c2.button("Show", key=f"show_{k}"):
                 st.session_state["focus"] = ("warning", g.warning_indices[0])
@@ -361,7 +370,7 @@ def _results() -> None:
                                 f"Observed ({u})": pr.format_position(g.position, u),
                                 "Species": ", ".join(g.species),
                                 "Overlap": "; ".join(
-                                    pr.overlap_text(warnings[i], u) for i in g.warning_indices
+                                    pr.overlap_text(warnings[i], u, xray) for i in g.warning_indices
                                 ),
                             }
                             for g in more
@@ -380,6 +389,15 @@ def _results() -> None:
                     st.session_state["focus"] = ("warning", g.warning_indices[0])
                     st.session_state["tracks"] = list(g.species)
                 st.session_state["last_show_more"] = pick
+
+    ruled_out = xrf_view.ruled_out_lines(warnings)
+    if ruled_out:
+        with st.expander(f"{len(ruled_out)} element(s) ruled out on their own lines"):
+            st.caption(
+                "A line of each falls on a peak of an element found, but the family's other "
+                "strong lines are missing: not an open interference."
+            )
+            st.markdown("\n".join(f"- {_ui.plain(t)}" for t in ruled_out))
 
     st.subheader("Observed and reference lines")
     all_species = [str(e["species"]) for e in report.get("elements") or []]
@@ -409,6 +427,7 @@ def _results() -> None:
         axis_title=pr.axis_title(summary.axis, u, summary.medium),
         interference=pr.interference_spans(report),
         x_range=x_range,
+        artefacts=xrf_view.artefact_marks(report),
     )
     st.plotly_chart(
         fig,
@@ -419,11 +438,38 @@ def _results() -> None:
         },
     )
     st.caption(
-        "Top: observed lines (height relative to the tallest in view). Below: one track per "
-        "species with its expected relative intensities. Grey bands: interfering pairs. Use "
-        "the camera button to save the figure."
+        "Top: observed lines (height relative to the tallest in view)"
+        + (
+            "; brown dotted sticks: artefact peaks (escape, sum, scatter, argon), open "
+            "triangles: predicted artefacts with no separate peak"
+            if energy_axis
+            else ""
+        )
+        + ". Below: one track per species with its expected relative intensities. Grey bands: "
+        "interfering pairs. Use the camera button to save the figure."
     )
+    if energy_axis:
+        _artefacts()
     _evidence_tabs(focus)
+
+
+def _artefacts() -> None:
+    """X-ray artefact peaks (escape, sum, scatter, argon): labelled, not evidence."""
+    xray = report.get("xray")
+    rows = xrf_view.artefact_table(xray)
+    n_peaks = sum(1 for r in xrf_view.artefact_rows(xray) if r["separated"])
+    st.subheader(f"Artefact peaks: {n_peaks} labelled, {len(rows) - n_peaks} without a peak")
+    if not rows:
+        st.caption("No escape, sum, scatter or argon peak predicted in the measured range.")
+        return
+    st.dataframe(_numbered(rows), width="stretch", key="artefact_table")
+    st.caption(
+        "Peaks made by the instrument, not the sample: tube lines scattered by the sample "
+        "(Rayleigh, Compton), detector escape and pile-up sum peaks, argon of the air path. "
+        "They are not evidence for any element; a peak stronger than its prediction keeps only "
+        "the excess. Heights are peak heights in the spectrum's own unit; scatter and argon "
+        "depend on the sample, so their height is not predicted."
+    )
 
 
 def _evidence_tabs(focus: tuple | None) -> None:

@@ -375,9 +375,11 @@ def build_sheet_content(
         str(w.get("message", ""))
         for w in result.get("warnings") or []
         if isinstance(w, Mapping)
-        # overlaps are worded per element; temperature and LTE under the limits
-        and w.get("kind") not in (*overlap, "temperature", "lte")
+        # overlaps (X-ray families ruled out on their own lines among them) are
+        # worded per element; temperature and LTE under the limits
+        and w.get("kind") not in (*overlap, "temperature", "lte", "overlap_ruled_out")
     ]
+    xray = result.get("xray") if axis == "energy" else None
     ref_sets = analysis.get("reference_sets") or result.get("reference_sets") or []
     parameters = analysis.get("parameters") or result.get("parameters") or {}
     inp = result.get("input") or {}
@@ -442,11 +444,46 @@ def build_sheet_content(
         "limitations": _text(limitations, "limitations"),
         "cautions": list(CAUTIONS),
     }
+    if isinstance(xray, Mapping):
+        content["artefacts"] = _artefacts(xray)
     if reviewer is not None:
         content["reviewer"] = _pick(reviewer, ("name", "role", "fingerprint"))
     if supplements:
         content["supplements"] = [_supplement(s) for s in supplements]
     return normalise_value(content)
+
+
+def _artefacts(xray: Mapping[str, Any]) -> dict[str, Any]:
+    """X-ray artefacts as the sheet prints them (energies to 1 eV; energy axis only).
+
+    ``peaks``: the labelled artefact peaks, one row each; ``without_peak``:
+    predicted artefacts with no separate peak, as short ``"1105 eV escape"``
+    phrases (one sentence on the sheet, so it keeps to its pages).
+    """
+    from workbench.matching.xrf_view import artefact_rows, artefact_table
+
+    keys = {
+        "Energy (eV)": "energy_eV",
+        "Kind": "kind",
+        "Origin": "origin",
+        "Observed peak height": "observed",
+        "Predicted": "predicted",
+        "Used as evidence": "evidence",
+    }
+    rows = artefact_rows(xray)
+    table = artefact_table(xray)
+    return {
+        "peaks": [
+            {keys[k]: v for k, v in t.items()}
+            for r, t in zip(rows, table, strict=True)
+            if r["separated"]
+        ],
+        "without_peak": [
+            f"{t['Energy (eV)']} eV {t['Kind']}"
+            for r, t in zip(rows, table, strict=True)
+            if not r["separated"]
+        ],
+    }
 
 
 def _supplement(sup: Mapping[str, Any]) -> dict[str, Any]:

@@ -286,6 +286,43 @@ class _Sheet:
             if tail:
                 doc.para(" ".join(tail), size=7.5)
 
+    # -- X-ray artefact peaks ------------------------------------------------------
+    def artefacts(self) -> None:
+        art = self.c.get("artefacts") or {}
+        rows, hidden = art.get("peaks") or [], art.get("without_peak") or []
+        if self.kind != "energy" or not (rows or hidden):
+            return
+        doc = self.doc
+        doc.heading("Peaks made by the instrument", keep=30, size=12)
+        doc.para(
+            "These peaks come from the instrument, not the object: tube lines scattered by the "
+            "sample (Rayleigh, Compton), detector escape and pile-up sum peaks, and argon of the "
+            "air path. They were labelled before the element lines were matched and are not "
+            "evidence for any element; where a peak is stronger than predicted, only the excess "
+            "was kept. Scatter and argon peaks depend on the object and the air path, so their "
+            "height is not predicted.",
+            size=7.5,
+        )
+        if rows:
+            doc.table(
+                ("Energy (eV)", "Kind", "Origin", "Observed height", "Predicted",
+                 "Used as evidence"),
+                [
+                    [r["energy_eV"], r["kind"], r["origin"], r["observed"], r["predicted"],
+                     r["evidence"]]
+                    for r in rows
+                ],
+                (15, 25, 72, 20, 26, 22),
+                ("R", "L", "L", "R", "L", "L"),
+                size=7,
+            )  # fmt: skip
+        if hidden:
+            doc.para(
+                "Also predicted, with no separate peak (under a neighbouring peak or too weak "
+                "to separate; listed in the stored result): " + "; ".join(hidden) + ".",
+                size=7.5,
+            )
+
     # -- decisions, cautions, signatures -----------------------------------------
     def decisions(self) -> None:
         doc = self.doc
@@ -454,6 +491,7 @@ class _Sheet:
         self.pdf.add_page()
         self.summary()
         self.evidence()
+        self.artefacts()
         self.decisions()
         self.free_text()
         self.signatures()

@@ -20,6 +20,12 @@ Warnings (kind)
         window of a line of another plausible species ("possible" or better),
         even where no peak was seen there; one warning per pair of species,
         naming the closest pair of lines and counting the others.
+    ``overlap_ruled_out`` (X-ray only)
+        as the X-ray case of ``unresolved_overlap`` above, for a family whose
+        own lines already refute it clearly (net evidence ≤
+        −:data:`REFUTED_DEX`): no longer an open question, so faces show
+        these together as one note (the peak it would share and its strong
+        lines that are missing) rather than as interferences.
     Each names both lines, their separation, the resolving power λ/Δλ
     needed to separate them, and for each species the interference-free
     lines that settle the question (found ones support it; strong ones
@@ -35,9 +41,19 @@ import numpy as np
 
 from workbench.matching.evidence import EvidencePass, ObservedLines
 from workbench.matching.reference import ReferenceIndex
-from workbench.matching.scoring import SpeciesEvidence
+from workbench.matching.scoring import PROBABLE_DEX, SpeciesEvidence
 
-__all__ = ["PeakAssignment", "assign_peaks", "interference_warnings"]
+__all__ = ["REFUTED_DEX", "PeakAssignment", "assign_peaks", "interference_warnings"]
+
+#: X-ray: a family whose main line a better family accounts for is *clearly
+#: refuted*, and its overlap is no longer an open question worth a warning of
+#: its own, when its net evidence is at most −REFUTED_DEX: the evidence
+#: against it (its strong interference-free lines missing) is at least as
+#: strong as the evidence the engine asks for a "probable" call for it
+#: (:data:`workbench.matching.scoring.PROBABLE_DEX`, odds ≈ 30:1). The same
+#: standard both ways, so no new constant is tuned. Such overlaps are
+#: recorded as ``overlap_ruled_out`` and shown as one note.
+REFUTED_DEX: float = PROBABLE_DEX
 
 
 @dataclass
@@ -247,7 +263,9 @@ def interference_warnings(
                 )
     # 1b. X-ray: a species whose main line a better one accounts for on
     #     amplitudes (workbench.matching.joint) is not plausible, but the
-    #     analyst still sees the overlap and the lines that settle it.
+    #     analyst still sees the overlap and the lines that settle it, unless
+    #     its own lines already refute it clearly (REFUTED_DEX): then the
+    #     same record is an ``overlap_ruled_out`` note, not an interference.
     for b_code, ev_b in sorted(ev_all.items()):
         g_b = ev_b.groups
         if ev_b.level >= 1 or not ev_b.xray or not ev_b.explained_by or "line" not in g_b:
@@ -265,20 +283,21 @@ def interference_warnings(
         if key in seen:
             continue
         seen.add(key)
-        warnings.append(
-            _overlap_warning(
-                "unresolved_overlap",
-                index,
-                ev_all[a_code],
-                ev_b,
-                int(g_a["line"][at_p[0]]),
-                int(g_b["line"][main]),
-                unit,
-                settle,
-                observed=float(obs.position[p]),
-                peak=p,
-            )
+        w = _overlap_warning(
+            "unresolved_overlap",
+            index,
+            ev_all[a_code],
+            ev_b,
+            int(g_a["line"][at_p[0]]),
+            int(g_b["line"][main]),
+            unit,
+            settle,
+            observed=float(obs.position[p]),
+            peak=p,
         )
+        if ev_b.net_evidence_dex <= -REFUTED_DEX:
+            _rule_out(w, ev_b, settle(ev_b)[0]["missing"], ev_all[a_code].label, unit)
+        warnings.append(w)
     # 2. Strong lines of identified species overlapping lines of other plausible
     #    candidates; one warning per species pair (the closest pair of lines),
     #    with the number of overlapping pairs.
@@ -390,3 +409,36 @@ def _overlap_warning(
         "peak_index": peak,
         "settle": {ev_a.label: settle_a, ev_b.label: settle_b},
     }
+
+
+def _rule_out(
+    w: dict[str, object], ev: SpeciesEvidence, missing: list[float], under: str, unit: str
+) -> None:
+    """Turn a section-1b warning into an ``overlap_ruled_out`` note (X-ray; in place).
+
+    The record keeps every field of the overlap warning (lines, positions,
+    separation, settling lines) so the spectrum fit's decision still joins it
+    (:func:`workbench.matching.xray_overlap.annotate_warnings`); the message
+    says why the question is closed.
+    """
+
+    def energy(v: float) -> str:
+        return f"{math.floor(v + 0.5)}"  # 1 eV, half up, as tables print
+
+    at = float(w["observed"])  # type: ignore[arg-type]
+    many = len(missing) > 1
+    why = (
+        ("its strong lines at " if many else "its strong line at ")
+        + ", ".join(energy(v) for v in missing)
+        + (f" {unit} are missing" if many else f" {unit} is missing")
+        if missing
+        else "its other lines do not fit the spectrum"
+    )
+    w["kind"] = "overlap_ruled_out"
+    w["ruled_out"] = ev.label
+    w["net_evidence_dex"] = round(float(ev.net_evidence_dex), 4)
+    w["message"] = (
+        f"{ev.label} ruled out on its own lines: one of its lines falls on the {under} peak at "
+        f"{energy(at)} {unit}, but {why} (evidence against it "
+        f"{-ev.net_evidence_dex:.1f} decades, at least {REFUTED_DEX:g} needed)."
+    )

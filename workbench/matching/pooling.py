@@ -23,9 +23,16 @@ one counted group (found, visible, not explained by a better species):
   penalties + the element's prior (once);
 * the class rules of :mod:`workbench.matching.scoring` applied to the pooled
   evidence with the stages' counted groups and unique peaks added up; each
-  stage that has a counted group of its own is raised to the pooled class
-  if that is higher (never lowered). A stage without a counted group of its
-  own is not raised: it is not seen.
+  stage that has a counted group of its own and whose own coincidences are
+  significant as one pre-specified test (chance probability p ≤
+  :data:`~workbench.matching.scoring.PRIOR_DATA_P`, 0.05: the element shown
+  present names the stage in advance, as an abundance prior does) is raised
+  to the pooled class if that is higher (never lowered). A stage without a
+  counted group of its own is not raised: it is not seen. Nor is a stage
+  whose own matches are as likely as not by chance: Fisher's combination is
+  dominated by the strong stage, and before this rule Ar II (p 0.95) was
+  shown "established" beside Ar I in an Ar-Ne-Kr-Xe-Hg arc, and Cr II
+  (p 0.6) beside Cr I in an iron hollow-cathode lamp.
 
 The pooled figures are reported per species (``pooled_with``,
 ``pooled_evidence_dex``), so the raise is visible and can be checked.
@@ -40,6 +47,7 @@ import numpy as np
 
 from workbench.matching.evidence import EvidencePass
 from workbench.matching.scoring import (
+    PRIOR_DATA_P,
     SpeciesEvidence,
     class_level,
     fisher_combined,  # re-exported: the one closed form, shared with the closeness term
@@ -73,6 +81,6 @@ def pool_ion_stages(ev_pass: EvidencePass) -> None:
         for ev in seen:
             ev.pooled_with = [n for n in names if n != ev.label]
             ev.pooled_evidence_dex = e
-            if level > ev.level:
+            if level > ev.level and ev.chance_probability <= PRIOR_DATA_P:
                 ev.level = level
                 ev.score = max(ev.score, score_for(e))

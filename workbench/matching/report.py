@@ -347,7 +347,12 @@ def _other_warnings(result: MatchResult, u: str) -> list[dict[str, object]]:
             {
                 "kind": "unassigned_lines",
                 "message": f"{unassigned} observed line(s) are explained by no plausible species "
-                "(molecular bands, elements outside the chosen sets, or artefacts)",
+                + (
+                    "(molecular bands, elements outside the chosen sets, or artefacts)"
+                    if u != "eV"
+                    else "(elements outside the chosen sets, or instrument peaks the artefact "
+                    "model does not predict)"
+                ),
                 "elements": [],
                 "lines": [],
             }
@@ -415,16 +420,38 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
         )
     if len(rejected) > max_rejected:
         out.append(f"(+{len(rejected) - max_rejected} more species not supported; see the JSON)")
+    grouped: list[str] = []
+    if xray:
+        from workbench.matching.xrf_view import interference_lines
+
+        grouped = interference_lines(report)
     if report["warnings"]:
         out.append("")
         out.append("warnings:")
         for w in report["warnings"]:
+            if w["kind"] == "overlap_ruled_out":  # X-ray: listed together below
+                continue
+            if grouped and w["kind"] == "unresolved_overlap" and w.get("observed") is not None:
+                continue  # X-ray: grouped by peak below (the JSON keeps each message)
             out.append(f"  [{w['kind']}] {w['message']}")
-    if xray and (xray.get("artefact_peaks") or xray.get("artefacts_without_peak")):
-        from workbench.xray.wording import artefact_lines
+    if grouped:
+        out.append("")
+        out.append("interferences, by peak (families whose lines this detector cannot separate):")
+        out.extend(f"  {line}" for line in grouped)
+    if any(w["kind"] == "overlap_ruled_out" for w in report["warnings"]):
+        from workbench.matching.xrf_view import ruled_out_lines
 
         out.append("")
-        out.extend(artefact_lines(xray))
+        out.append(
+            "ruled out on their own lines (a line falls on a peak of an element found, "
+            "but the family's other lines speak against it):"
+        )
+        out.extend(f"  {line}" for line in ruled_out_lines(report["warnings"]))
+    if xray and (xray.get("artefact_peaks") or xray.get("artefacts_without_peak")):
+        from workbench.matching.xrf_view import artefact_text_lines
+
+        out.append("")
+        out.extend(artefact_text_lines(xray))
     un = [ln for ln in report["lines"] if ln["status"] == "unassigned"]
     if un:
         out.append("")

@@ -66,7 +66,10 @@ species under ``lte-plasma`` (σ = 0.35 dex) than under ``discharge-lamp``
 emission the engine runs the first evidence pass under both ``lte-plasma``
 and ``discharge-lamp`` and keeps the one under which the spectrum is better
 explained: the larger sum over species of their positive net evidence
-(decades, :mod:`workbench.matching.scoring`); ``lte-plasma`` on a tie and for
+(decades, :mod:`workbench.matching.scoring`), counted over the species with
+atomic data in range only (a species with tabulated intensities only is
+predicted alike by both; :func:`workbench.matching.passes.choose_model`);
+``lte-plasma`` on a tie and for
 peak lists without intensities. The report says
 which model was used and why.
 """
