@@ -41,6 +41,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from workbench.matching.absorption import blend_closeness_terms, usable_density
 from workbench.matching.candidates import CandidatePairs
 from workbench.matching.layout import pass_layout
 from workbench.matching.priors import prior_dex
@@ -337,6 +338,7 @@ def gather_evidence(
     abundance_prior: str = "none",
     sigma_lines: np.ndarray | None = None,
     xray: bool = False,
+    absorption: bool = False,
 ) -> EvidencePass:
     """Collect the evidence of every species with at least one candidate.
 
@@ -373,6 +375,10 @@ def gather_evidence(
         agreement terms of :mod:`workbench.matching.scoring` need (offset of
         its peak from its strongest line, position uncertainty, window, the
         log-intensity range of chance peaks).
+    absorption : bool
+        The ``absorption`` source model on a wavelength axis: each group
+        also carries what the data test of a prior-favoured species needs
+        (:mod:`workbench.matching.absorption`).
 
     Returns
     -------
@@ -536,6 +542,24 @@ def gather_evidence(
         # strong peaks made chance hits look rarer than the hits counted).
         rho_all = np.full(n_groups, density)
     p_line_all = 1.0 - np.exp(-rho_all * (2.0 * g_tol + g_span))
+    prior_test: dict[str, np.ndarray] | None = None
+    if absorption and not xray:
+        # The data test of a prior-favoured absorber (scoring.prior_capped):
+        # usable chance density, closeness from each blend's dip.
+        rho_u = usable_density(density, obs.excluded, obs.half_window, span)
+        first_i = np.flatnonzero(np.diff(gid, prepend=-1) != 0)
+        res = obs.resolution if obs.resolution is not None else obs.half_window
+        prior_test = blend_closeness_terms(
+            g_pos,
+            index.position[usable_idx[first_i]],
+            g_span,
+            g_tol,
+            np.interp(g_pos, obs.position, res),
+            obs.position[pk],
+            found,
+            rho_u,
+        )
+        prior_test["p_line_usable"] = 1.0 - np.exp(-rho_u * (2.0 * g_tol + g_span))
 
     # 3. The evidence of each species.
     evidence: dict[int, SpeciesEvidence] = {}
@@ -585,6 +609,9 @@ def gather_evidence(
         }
         if xray:
             ev.groups.update(_xray_terms(obs, index, ev.groups, g_tol[sl], g_span[sl], dl_g))
+        if prior_test is not None:
+            ev.groups.update({k: v[sl] for k, v in prior_test.items()})
+            ev.groups["absorption"] = True
         ev.n_groups_in_range = gb - ga
         ev.n_strong_in_range = int(n_strong_cum[gb] - n_strong_cum[ga])
         ev.missing_evidence = bool(with_int)

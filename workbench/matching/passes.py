@@ -81,6 +81,7 @@ def first_pass(
         abundance_prior=params.abundance_prior,
         sigma_lines=model_sigma(index, model),
         xray=_is_xray(index, model),
+        absorption=model == "absorption" and index.axis == "wavelength",
     )
     return strengths, first
 
@@ -107,6 +108,7 @@ def second_pass(
         abundance_prior=params.abundance_prior,
         sigma_lines=model_sigma(index, model),
         xray=_is_xray(index, model),
+        absorption=model == "absorption" and index.axis == "wavelength",
     )
     second: EvidencePass | None = None
     if response is None:

@@ -77,7 +77,13 @@ groups with a peak, not explained by a better species:
 
 (Optical: with a positive abundance prior, "established" and "probable"
 also need the data's own chance probability p ≤ 0.05 — a prior can tip a
-call, not make one; :func:`prior_capped`.)
+call, not make one; :func:`prior_capped`. Under the absorption source model
+the data's test is :func:`absorption_prior_test` — the binomial tail with
+the usable dip density, Fisher-combined with the closeness of the dips to
+each unresolved blend's forward-modelled position
+(:mod:`workbench.matching.absorption`) — and such a species may be
+"probable" on one resolvable feature, its predicted strongest, found,
+unique and counted (neither masked, crowded nor explained).)
 1 ``possible``
     at least one found group and E ≥ log10 0.5 = −0.3 (some support, not
     outweighed by missing lines: with the chance evidence counted, a record
@@ -334,6 +340,10 @@ def evaluate(
             ev.chance_probability = fisher_combined([ev.chance_probability, c])
     else:
         ev.chance_probability = 1.0
+    if g.get("absorption"):
+        # Absorption: the data test a prior-favoured species must pass
+        # (prior_capped; absorption_prior_test).
+        g["prior_test_p"] = absorption_prior_test(g, nset, found)
     pc = ev.chance_probability
     ev.chance_probability_corrected = float(-np.expm1(n_tried * np.log1p(-min(pc, 1 - 1e-16))))
     missing = g["visible"] & ~g["found"] & ~g["masked"] & valid
@@ -476,6 +486,7 @@ def closeness_probability(
     n_lines: np.ndarray,
     *,
     centre_u: float = 0.0,
+    blend: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None = None,
 ) -> float:
     """Chance probability that the found peaks lie as close to their lines as they do.
 
@@ -514,6 +525,18 @@ def closeness_probability(
         Lines in the group.
     centre_u : float
         The spectrum's common offset (half-windows).
+    blend : tuple of numpy.ndarray, optional
+        Absorption (:func:`workbench.matching.absorption.blend_closeness_terms`):
+        per group the peak's offset from its window's middle, the
+        forward-modelled dip position and the tolerance, all in units of the
+        window's half-length (NaN where the group is no unresolved blend),
+        and the chance-dip density × tolerance. Where the first three are
+        given, the fraction f of the window within d of the reference is
+        measured from the dip position (shifted by the common offset). With
+        the density, c is made exact for a *Poisson number* of chance dips in
+        the window rather than one: the found peak is the nearest of them, so
+        c = P(nearest within d | at least one) = (1 − e^(−a·f)) / (1 − e^(−a)),
+        a the expected number of chance dips in the window (f when a → 0).
 
     Returns
     -------
@@ -529,6 +552,19 @@ def closeness_probability(
     single = (np.minimum(1.0, centre_u + d) - np.maximum(-1.0, centre_u - d)) / 2.0
     multi = np.minimum(1.0, 2.0 * n * d / w)
     c = np.where(n <= 1, single, multi)
+    if blend is not None:
+        bu, bref, bunit, rho_tol = (np.asarray(a, dtype=float)[ok] for a in blend)
+        use = np.isfinite(bu)
+        ref = bref + centre_u * bunit
+        db = np.abs(bu - ref)
+        cb = (np.minimum(1.0, ref + db) - np.maximum(-1.0, ref - db)) / 2.0
+        c = np.where(use, cb, c)
+        # Window length in tolerances: 2 / unit for a blend (2H / tol), w otherwise.
+        with np.errstate(invalid="ignore", divide="ignore"):
+            a = rho_tol * np.where(use, 2.0 / bunit, w)
+        a = np.where(np.isfinite(a) & (a > 0), a, 0.0)
+        poisson = np.expm1(-a * c) / np.where(a > 0, np.expm1(-a), -1.0)
+        c = np.where(a > 1e-9, poisson, c)
     return fisher_combined(np.clip(c, CLOSENESS_FLOOR, 1.0).tolist())
 
 
@@ -653,7 +689,18 @@ def decide_verdict(ev: SpeciesEvidence) -> int:
     k = ev.n_groups_counted
     level = class_level(e, k, ev.n_unique_peaks, ev.missing_evidence)
     if not ev.xray:
-        return prior_capped(level, ev.prior_dex, ev.chance_probability)
+        p_data = ev.groups.get("prior_test_p", ev.chance_probability)
+        if (
+            level < 2
+            and ev.prior_dex > 0.0
+            and e >= PROBABLE_DEX
+            and p_data <= PRIOR_DATA_P
+            and _main_feature_counted(ev)
+        ):
+            # Absorption with a prior: one resolvable feature, the species'
+            # strongest, may carry "probable" (module docstring).
+            level = 2
+        return prior_capped(level, ev.prior_dex, p_data)
     if level < 2 and e >= PROBABLE_DEX and ev.main_found and k >= 1 and ev.n_unique_peaks >= 1:
         level = 2
     if level == 2 and ev.sole_explanation:
@@ -665,6 +712,72 @@ def decide_verdict(ev: SpeciesEvidence) -> int:
     if level >= 2:
         return level
     return 1 if e >= XRAY_POSSIBLE_DEX and ev.main_found else 0
+
+
+#: Group keys of the absorption blend terms (workbench.matching.absorption).
+_BLEND_KEYS = ("blend_u", "blend_ref_u", "blend_unit", "blend_rho_tol")
+
+
+def absorption_prior_test(g: dict[str, Any], nset: np.ndarray, found: np.ndarray) -> float:
+    """The data's own chance probability of an absorber named in advance (by a prior).
+
+    The binomial tail of the module docstring with the chance density of the
+    dips that can be matched (``p_line_usable``), combined (Fisher) with the
+    closeness of the found dips to each unresolved blend's forward-modelled
+    dip (:mod:`workbench.matching.absorption`), measured from the spectrum's
+    common offset when it is known and from zero otherwise, and made exact
+    for the nearest of a Poisson number of chance dips
+    (:func:`closeness_probability`). Used only where a positive abundance
+    prior names the species in advance (:func:`prior_capped`); the net
+    evidence and every call without a prior are unchanged.
+
+    Parameters
+    ----------
+    g : dict
+        The species' groups (with the absorption keys).
+    nset, found : numpy.ndarray of bool
+        Groups counted in the chance test, and those with a peak.
+
+    Returns
+    -------
+    float
+        The probability in (0, 1].
+    """
+    k = int(np.sum(nset & found))
+    n = int(np.sum(nset))
+    if k == 0:
+        return 1.0
+    p = float(special.betainc(k, n - k + 1, float(np.mean(g["p_line_usable"][nset]))))
+    hit = nset & found
+    centre = g.get("offset_centre")
+    c = closeness_probability(
+        g["offset_u"][hit],
+        g["offset_window_u"][hit],
+        g["offset_lines"][hit],
+        centre_u=float(centre) if centre is not None else 0.0,
+        blend=tuple(g[key][hit] for key in _BLEND_KEYS),
+    )
+    return fisher_combined([p, c])
+
+
+def _main_feature_counted(ev: SpeciesEvidence) -> bool:
+    """Absorption: the species' strongest predicted group is found, unique and counted."""
+    g = ev.groups
+    if not g.get("absorption") or ev.n_unique_peaks < 1:
+        return False
+    known_pred = np.where(g["known"], g["predicted"], -np.inf)
+    if known_pred.size == 0 or not np.isfinite(known_pred.max()):
+        return False
+    main = int(np.argmax(known_pred))
+    crowded = g.get("crowded")
+    return bool(
+        g["found"][main]
+        and g["unique"][main]
+        and g["visible"][main]
+        and not g["masked"][main]
+        and not (crowded is not None and crowded[main])
+        and not g["explained"][main]
+    )
 
 
 def prior_capped(level: int, prior: float, chance_probability: float) -> int:

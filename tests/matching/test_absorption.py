@@ -1,0 +1,166 @@
+"""Absorption: blends' forward-modelled dips, usable chance density, closeness in crowded windows.
+
+Tests :mod:`workbench.matching.absorption` and the absorption parts of
+:mod:`workbench.matching.scoring` (``closeness_probability`` with blend
+terms, the data test of a prior-named absorber in ``decide_verdict``).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from workbench.matching.absorption import blend_closeness_terms, usable_density
+from workbench.matching.scoring import SpeciesEvidence, closeness_probability, decide_verdict
+
+# Na I D2 / D1 in air, nm (NIST ASD, from memory); invented relative strengths.
+D2_NM, D1_NM = 588.995, 589.592
+
+
+def test_usable_density_counts_usable_dips_over_the_free_axis():
+    excl = np.zeros(10, dtype=bool)
+    excl[[0, 3]] = True
+    hw = np.full(10, 2.0)
+    # 8 usable dips over 200 − 2 × (2 × 2.0) = 192 nm (arithmetic); the
+    # density passed in is 10 / 200.
+    assert usable_density(10 / 200.0, excl, hw, 200.0) == pytest.approx(8 / 192.0)
+    assert usable_density(0.05, None, hw, 200.0) == 0.05
+    # Excluded widths never take more than half the span.
+    assert usable_density(10 / 200.0, excl, np.full(10, 80.0), 200.0) == pytest.approx(8 / 100.0)
+
+
+def test_blend_terms_measure_from_the_strength_weighted_dip():
+    w2, w1 = 1.0, 0.9
+    dip = (D2_NM * w2 + D1_NM * w1) / (w2 + w1)
+    span = D1_NM - D2_NM
+    tol, peak = 0.78, 589.21
+    t = blend_closeness_terms(
+        np.array([dip]),
+        np.array([D2_NM]),
+        np.array([span]),
+        np.array([tol]),
+        np.array([2.0]),  # resolution element wider than the doublet: one dip
+        np.array([peak]),
+        np.array([True]),
+        0.05,
+    )
+    half = tol + span / 2.0
+    mid = (D2_NM + D1_NM) / 2.0
+    assert t["blend_u"][0] == pytest.approx((peak - mid) / half)
+    assert t["blend_ref_u"][0] == pytest.approx((dip - mid) / half)
+    assert t["blend_unit"][0] == pytest.approx(tol / half)
+    assert t["blend_rho_tol"][0] == pytest.approx(0.05 * tol)
+    # Closeness from the dip, without crowding (density 0): the part of the
+    # window within |peak − dip| of the dip (arithmetic on the values above).
+    c = closeness_probability(
+        np.array([peak - D2_NM]) / tol,
+        np.array([2.0 + span / tol]),
+        np.array([2]),
+        blend=(t["blend_u"], t["blend_ref_u"], t["blend_unit"], np.zeros(1)),
+    )
+    assert c == pytest.approx(2.0 * abs(peak - dip) / (2.0 * half))
+    # Measured from the nearest line (D2), the same peak looked much farther.
+    c_old = closeness_probability(
+        np.array([peak - D2_NM]) / tol, np.array([2.0 + span / tol]), np.array([2])
+    )
+    assert c < 0.3 * c_old
+
+
+def test_a_group_wider_than_the_resolution_has_no_blend_dip():
+    t = blend_closeness_terms(
+        np.array([500.5]),
+        np.array([500.0]),
+        np.array([1.0]),
+        np.array([0.2]),
+        np.array([0.5]),  # two lines 1 nm apart at 0.5 nm resolution: resolved
+        np.array([500.1]),
+        np.array([True]),
+        0.05,
+    )
+    assert np.isnan(t["blend_u"][0]) and np.isnan(t["blend_ref_u"][0])
+    assert t["blend_rho_tol"][0] == pytest.approx(0.01)
+
+
+def test_single_line_blend_terms_give_the_one_line_closeness():
+    tol, off = 0.5, 0.12
+    t = blend_closeness_terms(
+        np.array([600.0]),
+        np.array([600.0]),
+        np.zeros(1),
+        np.array([tol]),
+        np.array([1.0]),
+        np.array([600.0 + off]),
+        np.array([True]),
+        0.0,
+    )
+    blend = (t["blend_u"], t["blend_ref_u"], t["blend_unit"], t["blend_rho_tol"])
+    args = (np.array([off / tol]), np.array([2.0]), np.array([1]))
+    assert closeness_probability(*args, blend=blend) == pytest.approx(closeness_probability(*args))
+
+
+@pytest.mark.parametrize("expected_dips", [0.3, 3.0])
+def test_closeness_is_uniform_under_chance_in_crowded_windows(expected_dips):
+    # Monte Carlo of the null (invented, seeded): a Poisson number of chance
+    # dips in a window [−1, 1] around a line; the found peak is the nearest
+    # one. Under chance P(c ≤ q) must be q (uniform p-value; definition).
+    rng = np.random.default_rng(20261203)
+    tol = 1.0
+    rho = expected_dips / (2.0 * tol)
+    cs = []
+    while len(cs) < 4000:
+        n = rng.poisson(expected_dips)
+        if n == 0:
+            continue
+        x = rng.uniform(-1.0, 1.0, n)
+        u = x[np.argmin(np.abs(x))]
+        t = blend_closeness_terms(
+            np.array([0.0]),
+            np.array([0.0]),
+            np.zeros(1),
+            np.array([tol]),
+            np.array([1.0]),
+            np.array([u]),
+            np.array([True]),
+            rho,
+        )
+        blend = (t["blend_u"], t["blend_ref_u"], t["blend_unit"], t["blend_rho_tol"])
+        cs.append(closeness_probability(np.array([u]), np.array([2.0]), np.array([1]), blend=blend))
+    cs = np.array(cs)
+    for q in (0.05, 0.2, 0.5):
+        # 4000 draws: binomial standard error ≤ 0.008; 0.03 is about 4σ.
+        assert abs(np.mean(cs <= q) - q) < 0.03, (q, np.mean(cs <= q))
+
+
+def _one_feature_species(*, crowded: bool, prior: float, p_data: float) -> SpeciesEvidence:
+    ev = SpeciesEvidence(code=0, label="Na I", element="Na", ion=1, family=None)
+    ev.groups = {
+        "known": np.array([True, True]),
+        "predicted": np.array([0.3, 0.05]),
+        "found": np.array([True, False]),
+        "unique": np.array([True, False]),
+        "visible": np.array([True, False]),
+        "masked": np.array([False, False]),
+        "crowded": np.array([crowded, False]),
+        "explained": np.array([False, False]),
+        "peak": np.array([3, -1]),
+        "absorption": True,
+        "prior_test_p": p_data,
+    }
+    ev.n_groups_matched = ev.n_groups_found = ev.n_groups_counted = 1
+    ev.n_unique_peaks = 1
+    ev.missing_evidence = True
+    ev.prior_dex = prior
+    ev.chance_probability = 0.13
+    ev.net_evidence_dex = 2.0
+    return ev
+
+
+def test_a_named_absorber_may_rest_probable_on_its_strongest_feature():
+    # Named by a prior, its data test passed: "probable" on one feature.
+    assert decide_verdict(_one_feature_species(crowded=False, prior=2.0, p_data=0.03)) == 2
+    # The data test failed: the prior cannot make the call.
+    assert decide_verdict(_one_feature_species(crowded=False, prior=2.0, p_data=0.2)) == 1
+    # The feature sits beside a stronger dip (left out of the chance test).
+    assert decide_verdict(_one_feature_species(crowded=True, prior=2.0, p_data=0.03)) == 1
+    # Without a prior nothing changes: two counted groups are needed.
+    assert decide_verdict(_one_feature_species(crowded=False, prior=0.0, p_data=1e-6)) == 1
