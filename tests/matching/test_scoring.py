@@ -1,4 +1,4 @@
-"""X-ray terms of the evidence model (workbench.matching.scoring)."""
+"""X-ray terms of the evidence model (workbench.matching.xray_scoring, scoring)."""
 
 from __future__ import annotations
 
@@ -10,13 +10,12 @@ from workbench.datamodel import PeakList
 from workbench.matching import MatchParameters, match_peaks
 from workbench.matching.scoring import (
     LOSS_PROBABILITY,
-    XRAY_SOLE_DEX,
     SpeciesEvidence,
     closeness_probability,
     decide_verdict,
     misses_tail_probability,
-    xray_agreement,
 )
+from workbench.matching.xray_scoring import XRAY_SOLE_DEX, xray_agreement
 from workbench.refdata import load_set
 
 
@@ -56,21 +55,25 @@ def test_position_ratio_and_sole_terms_add_up(delta_kb, expected):
     # SNR so high that counting adds nothing to σ_r (3·I/DL ≫ 1).
     g = _groups([3.0, delta_kb], inten=[5000.0, kb], predicted=[5000.0, 850.0], snr=[1e6, 1e6])
     g["dl"] = np.full(2, 1e-3)
-    got = xray_agreement(g, np.array([True, True]))
+    got = xray_agreement(g, np.array([True, True]), loss_probability=LOSS_PROBABILITY)
     assert got == pytest.approx(expected, abs=0.01)
 
 
 def test_a_far_displaced_peak_costs_at_most_the_loss_probability():
     g = _groups([500.0], inten=[100.0], predicted=[100.0], snr=[100.0])
     # One group, 500 eV off: position term → log10 ε; no sole term (|δ| > 2σ).
-    assert xray_agreement(g, np.array([True])) == pytest.approx(np.log10(LOSS_PROBABILITY))
+    assert xray_agreement(g, np.array([True]), loss_probability=LOSS_PROBABILITY) == pytest.approx(
+        np.log10(LOSS_PROBABILITY)
+    )
 
 
 @pytest.mark.parametrize(("snr", "sole"), [(9.0, False), (10.0, True), (50.0, True)])
 def test_sole_explanation_needs_a_ten_sigma_peak(snr, sole):
     g = _groups([0.0], inten=[100.0], predicted=[100.0], snr=[snr])
     base = float(np.log10(0.8 * 180.0 / (12.0 * np.sqrt(2 * np.pi)) + 0.2))  # δ = 0
-    assert xray_agreement(g, np.array([True])) == pytest.approx(base + sole * XRAY_SOLE_DEX)
+    assert xray_agreement(g, np.array([True]), loss_probability=LOSS_PROBABILITY) == pytest.approx(
+        base + sole * XRAY_SOLE_DEX
+    )
 
 
 def test_ideal_cu_k_is_probable_and_nothing_else_is():

@@ -119,3 +119,41 @@ def test_weak_line_measured_narrow_is_kept_a_spike_is_not():
     )
     out, _ = prepare_energy_peaks(peaks, inst)
     assert out.positions.tolist() == pytest.approx([6403.8, 9184.5])
+
+
+def _sum_artefact(counts_per_channel):
+    from workbench.xray.artefacts import Artefact
+
+    # A Fe Kα + Fe Kα pile-up sum (2 × 6404 eV; Fe Kα from the shipped set),
+    # 190 eV wide: height in counts per 10 eV channel.
+    return Artefact("sum", 12808.0, counts_per_channel, "pile-up sum", 190.0, (0,))
+
+
+@pytest.mark.parametrize(
+    ("height", "listed"),
+    [
+        # N = 0.98·1.0645·40·190/10 = 793 counts over ±FWHM on B = 50·2·190/10
+        # = 1900 baseline counts: N/√(N + 2B) = 793/√4593 = 11.7 ≥ 3 (the
+        # peak finder's own acceptance, prepare._not_significant; hand-computed).
+        (40.0, True),
+        # 2 counts per channel: N = 40, 40/√3840 = 0.6 < 3 (hand-computed):
+        # not a peak anyone could see, not listed.
+        (2.0, False),
+    ],
+)
+def test_artefact_without_peak_listed_when_it_would_be_significant(height, listed):
+    from workbench.xray.prepare import _without_peak
+
+    empty = pl.DataFrame(schema={"observed_eV": pl.Float64})
+    grid = np.linspace(1000.0, 25000.0, 2401)  # 10 eV channels
+    base = (grid, np.full(grid.size, 50.0))
+    # The Fe Kα parent at 6404 eV is a significant peak; a noise maximum at
+    # 12850 eV was dropped before (not passed): it does not stand for the sum.
+    rows = _without_peak(
+        [_sum_artefact(height)], empty, np.array([6404.0]), 10.0, 100.0, (1000.0, 25000.0), base
+    )
+    assert bool(rows) is listed
+    if listed:
+        assert rows[0]["kinds"] == "sum"
+        # Expected counts: Gaussian area 1.0645·height·FWHM/channel (same formula).
+        assert rows[0]["expected_counts"] == pytest.approx(1.0645 * height * 190.0 / 10.0)

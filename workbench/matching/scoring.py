@@ -101,49 +101,9 @@ unique and counted (neither masked, crowded nor explained).)
     sees what was considered and why it was rejected.
 
 X-ray rules (``x-ray`` source model on an energy axis only; optical results
-are untouched). Line energies are known to a few eV and the energy scale is
-checked (:mod:`workbench.xray.energy_scale`), and intra-family intensity
-ratios are predicted to about 0.2 dex, so closeness and ratio agreement are
-evidence a coincidence rarely produces. Added to E (decades):
-
-position agreement
-    per found, unique, counted group: log10[(1 − ε)·W·φ(δ/σ)/σ + ε], δ the
-    peak's offset from the group's strongest line, σ the position
-    uncertainty (:func:`workbench.matching.evidence._xray_terms`: residual
-    calibration 10 eV, tabulation 2 eV, unresolved-blend offset, and the
-    wandering of a noisy peak's maximum), W = 2·tolerance + span the width
-    over which a chance peak would have been accepted (uniform), ε the loss
-    probability (a peak displaced by something outside the model). At most
-    about +0.7, at least −0.7 per group.
-ratio agreement
-    per such group beyond the anchor (the one predicted strongest):
-    r = log10(I/I_anchor) − log10(pred/pred_anchor), σ_r² = σ_model² +
-    (0.434/SNR)² + (0.434/SNR_anchor)², a chance peak's height uniform in
-    log over R decades (from 30 % of the prediction to the highest peak):
-    log10[(1 − ε)·R·φ(r/σ_r)/σ_r + ε].
-sole explanation
-    +log10(1/0.05) = 1.3 when the family's main group is found, unique (no
-    plausible species competes for its peak), within 2σ of its line, on a
-    peak of at least 10σ: the peak must come from some line, and this is the
-    only plausible one; 0.05 (:data:`XRAY_OUTSIDE_PROBABILITY`) is the chance
-    that such a peak comes from outside the line table and artefact model.
-family support
-    an established family of the same element that predicts this family's
-    total intensity (:mod:`workbench.matching.joint`) makes E at least that
-    family's E (a floor, never more).
-
-Class changes on the energy axis: "probable" may rest on one found group
-when the main group is found and unique (single-group families such as
-Al K, Si K at EDS resolution); "possible" needs the main group found and not
-explained by a better species, and E ≥ 0 (:data:`XRAY_POSSIBLE_DEX`).
-"Established" needs two found groups, or a family that is probable and
-whose main group is the *sole explanation* above (the only plausible line
-of a peak of at least 10σ, within 2σ of it): such a peak is surely real and
-surely not an artefact (labelled before matching), so the look-elsewhere
-correction, which asks whether some species would fit a chance peak, does
-not apply to it; what remains is that the family's other lines and its
-element's other families agree, which "probable" on the net evidence says.
-
+are untouched): position and ratio agreement, the sole-explanation term,
+family support and the class changes on the energy axis are described and
+computed in :mod:`workbench.matching.xray_scoring`.
 The score (0–1) orders species within a class: ``max(E, 0) / (max(E, 0) + 3)``.
 The thresholds (3, 1.5 decades) were fixed before the real spectra were run;
 the loss probability 0.2 and the "possible" floor log10 0.5 were chosen on
@@ -158,6 +118,13 @@ from typing import Any
 import numpy as np
 from scipy import special
 
+from workbench.matching.xray_scoring import (
+    xray_agreement,
+    xray_level,
+    xray_main_found_and_sole,
+    xray_missing_penalty_dex,
+)
+
 __all__ = [
     "CLOSENESS_FLOOR",
     "ESTABLISHED_DEX",
@@ -167,10 +134,6 @@ __all__ = [
     "PRIOR_DATA_P",
     "PROBABLE_DEX",
     "VERDICTS",
-    "XRAY_OUTSIDE_PROBABILITY",
-    "XRAY_POSSIBLE_DEX",
-    "XRAY_SOLE_DEX",
-    "XRAY_SOLE_SNR",
     "SpeciesEvidence",
     "class_level",
     "closeness_probability",
@@ -181,7 +144,6 @@ __all__ = [
     "prior_capped",
     "score_for",
     "score_of",
-    "xray_agreement",
 ]
 
 #: Verdict class names by level.
@@ -203,27 +165,12 @@ POSSIBLE_DEX: float = float(np.log10(0.5))
 #: the solar prior (+2 dex) made Si I, Cr I, Ni I and Ne I "probable" in the
 #: ASTM G173 sunlight at p = 0.35–0.89 (Ne I has no photospheric absorption).
 PRIOR_DATA_P: float = 0.05
-#: X-ray "possible" floor: net evidence for, not against (common practice, no source).
-XRAY_POSSIBLE_DEX: float = 0.0
 #: Probability that a line of a species that IS present is lost for reasons
 #: outside the source model (unresolved blend with a stronger neighbour,
 #: filter or response edge, self-absorption, a wrong tabulated intensity).
 LOSS_PROBABILITY: float = 0.2
 #: Largest penalty one missing group can bring (decades): log10 of LOSS_PROBABILITY.
 MISSING_FLOOR_DEX: float = float(np.log10(LOSS_PROBABILITY))
-
-#: X-ray: probability that a significant peak left after the artefact
-#: labelling comes from outside the reference set and the artefact model
-#: (diffraction peak, unpredicted sum, unlisted line): common practice, no
-#: source (about one peak in twenty of a routine spectrum).
-XRAY_OUTSIDE_PROBABILITY: float = 0.05
-#: Evidence (decades) when a family's main line is the only plausible
-#: explanation of a significant peak: −log10 of that probability.
-XRAY_SOLE_DEX: float = float(-np.log10(XRAY_OUTSIDE_PROBABILITY))
-#: Peak significance (3·height / detection limit, i.e. height / noise) a
-#: sole explanation needs: 5σ, the usual discovery threshold for a peak that
-#: is surely not noise (common practice, no source).
-XRAY_SOLE_SNR: float = 10.0
 
 _LN10 = float(np.log(10.0))
 #: Rounding of the miss weights ln((1 − m)/m) in :func:`misses_tail_probability`
@@ -359,7 +306,7 @@ def evaluate(
         p_miss = LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
         if "delta" in g:
             # X-ray: each missing group costs log10 P(not seen | present).
-            penalty = float(np.sum(np.log10(p_miss[missing])))
+            penalty = xray_missing_penalty_dex(p_miss, missing)
         else:
             penalty = float(np.log10(misses_tail_probability(p_miss[nset], missing[nset])))
     if "delta" in g:
@@ -368,17 +315,9 @@ def evaluate(
     ev.missing_penalty_dex = penalty
     ev.xray = "delta" in g
     if ev.xray:
-        ev.agreement_dex = xray_agreement(g, nset & found & g["unique"])
-        known_pred = np.where(g["known"], g["predicted"], -np.inf)
-        main = int(np.argmax(known_pred)) if known_pred.size else -1
-        ev.main_found = bool(main >= 0 and g["found"][main] and not g["explained"][main])
         use = nset & found & g["unique"]
-        ev.sole_explanation = bool(
-            main >= 0
-            and use[main]
-            and abs(g["delta"][main]) <= 2.0 * g["sigma_pos"][main]
-            and g["snr"][main] >= XRAY_SOLE_SNR
-        )
+        ev.agreement_dex = xray_agreement(g, use, loss_probability=LOSS_PROBABILITY)
+        ev.main_found, ev.sole_explanation = xray_main_found_and_sole(g, use)
     own = float(
         -np.log10(max(ev.chance_probability_corrected, 1e-300))
         + penalty
@@ -599,56 +538,6 @@ def fisher_combined(p_values: list[float]) -> float:
     return float(min(1.0, max(np.exp(ln_q + np.log(total)), 1e-300)))
 
 
-def _mixture_lr_dex(z: np.ndarray, sigma: np.ndarray, width: np.ndarray) -> np.ndarray:
-    """log10 of [(1 − ε)·width·φ(z)/σ + ε]: Gaussian agreement vs a uniform chance value."""
-    dens = np.exp(-0.5 * z * z) / (np.sqrt(2.0 * np.pi) * sigma)
-    return np.log10((1.0 - LOSS_PROBABILITY) * width * dens + LOSS_PROBABILITY)
-
-
-def xray_agreement(g: dict[str, Any], use: np.ndarray) -> float:
-    """Position and ratio agreement (decades) of found unique groups (X-ray only).
-
-    Position: per group, δ = observed − line with uncertainty σ_pos; a chance
-    peak falls anywhere in the window W (uniform), so the likelihood ratio is
-    (1 − ε)·W·φ(δ/σ)/σ + ε (ε = :data:`LOSS_PROBABILITY`, a peak displaced
-    by something outside the model). Ratio: per group beyond the anchor (the
-    one predicted strongest), r = log10(I/I_anchor) − log10(pred/pred_anchor)
-    with σ_r² = σ_model² + (0.434/SNR)² + (0.434/SNR_anchor)²; a chance peak's
-    height is uniform in log over ``log_range`` decades, so the ratio is
-    (1 − ε)·R·φ(r/σ_r)/σ_r + ε.
-    """
-    if not np.any(use):
-        return 0.0
-    total = float(
-        np.sum(
-            _mixture_lr_dex(
-                g["delta"][use] / g["sigma_pos"][use], g["sigma_pos"][use], g["window"][use]
-            )
-        )
-    )
-    inten = g["obs_intensity"]
-    ok = (
-        use & g["known"] & np.isfinite(inten) & (inten > 0) & ~g["saturated"] & (g["predicted"] > 0)
-    )
-    if np.sum(ok) >= 2 and g.get("dl") is not None:
-        idx = np.flatnonzero(ok)
-        a = idx[int(np.argmax(g["predicted"][idx]))]
-        rest = idx[idx != a]
-        snr = 3.0 * inten / g["dl"]
-        r = np.log10(inten[rest] / inten[a]) - np.log10(g["predicted"][rest] / g["predicted"][a])
-        sig = np.sqrt(g["sigma"][rest] ** 2 + (0.434 / snr[rest]) ** 2 + (0.434 / snr[a]) ** 2)
-        total += float(np.sum(_mixture_lr_dex(r / sig, sig, g["log_range"][rest])))
-    known_pred = np.where(g["known"], g["predicted"], -np.inf)
-    main = int(np.argmax(known_pred))
-    if (
-        use[main]
-        and abs(g["delta"][main]) <= 2.0 * g["sigma_pos"][main]
-        and g["snr"][main] >= XRAY_SOLE_SNR
-    ):
-        total += XRAY_SOLE_DEX
-    return total
-
-
 def class_level(e: float, k: int, unique: int, missing_evidence: bool) -> int:
     """The class rules of the module docstring for net evidence ``e`` (decades).
 
@@ -667,7 +556,7 @@ def class_level(e: float, k: int, unique: int, missing_evidence: bool) -> int:
     -------
     int
         The level (3 established … 0 not supported); the X-ray additions are
-        in :func:`decide_verdict`.
+        in :func:`workbench.matching.xray_scoring.xray_level`.
     """
     if e >= ESTABLISHED_DEX and k >= 2 and unique >= 1 and missing_evidence:
         return 3
@@ -701,17 +590,15 @@ def decide_verdict(ev: SpeciesEvidence) -> int:
             # strongest, may carry "probable" (module docstring).
             level = 2
         return prior_capped(level, ev.prior_dex, p_data)
-    if level < 2 and e >= PROBABLE_DEX and ev.main_found and k >= 1 and ev.n_unique_peaks >= 1:
-        level = 2
-    if level == 2 and ev.sole_explanation:
-        # X-ray: a family that is the only explanation of a ≥10σ peak (not an
-        # artefact, not noise) on its main line, and probable on the net
-        # evidence (its other lines and the element's other families agree),
-        # is established even on one resolvable group (Si K, Al K).
-        return 3
-    if level >= 2:
-        return level
-    return 1 if e >= XRAY_POSSIBLE_DEX and ev.main_found else 0
+    return xray_level(
+        level,
+        e,
+        main_found=ev.main_found,
+        k=k,
+        n_unique=ev.n_unique_peaks,
+        sole_explanation=ev.sole_explanation,
+        probable_dex=PROBABLE_DEX,
+    )
 
 
 #: Group keys of the absorption blend terms (workbench.matching.absorption).

@@ -131,6 +131,7 @@ def _without_peak(
     channel: float,
     noise: float,
     x_range: tuple[float, float] | None = None,
+    baseline: tuple[np.ndarray, np.ndarray] | None = None,
 ) -> list[dict[str, Any]]:
     """Predicted artefacts the peak finder did not separate, with their expected counts.
 
@@ -142,16 +143,29 @@ def _without_peak(
     spectrum; artefacts within half a FWHM of each other are merged, and the
     expected counts (Gaussian area 1.0645 · height · FWHM / channel) summed
     where predictable (escape, sum; scatter and argon are not predicted in
-    intensity). Predicted escape and sum peaks below the peak heights' 1σ
-    noise (``noise``) and artefacts outside the measured range (``x_range``)
-    are not listed.
+    intensity). ``x`` holds the significant peaks only (a noise maximum
+    near a predicted artefact does not stand for it). Predicted escape and
+    sum peaks that would not be a significant peak on their own are not
+    listed: with the ``baseline`` (channel energies, counts), those whose
+    expected counts N over ±FWHM reach less than :data:`MIN_COUNTING_SIGMA`
+    in N/√(N + 2B) (the peak finder's own acceptance, B the baseline counts
+    under them, as in :func:`_not_significant`); without it, those below the
+    peak heights' 1σ noise (``noise``). Artefacts outside the measured range
+    (``x_range``) are not listed.
     """
     lab = labels["observed_eV"].to_numpy() if labels.height else np.empty(0)
     rows: list[dict[str, Any]] = []
     for a in sorted(arts, key=lambda a: a.energy_eV):
         half = 0.5 * a.fwhm_eV
-        if a.predicted_intensity is not None and a.predicted_intensity < noise:
-            continue
+        if a.predicted_intensity is not None:
+            if baseline is not None:
+                n = 0.98 * 1.0645 * a.predicted_intensity * a.fwhm_eV / channel
+                b = float(np.interp(a.energy_eV, baseline[0], baseline[1])) * 2.0 * a.fwhm_eV
+                b /= channel
+                if n <= 0 or n / np.sqrt(n + 2.0 * max(b, 0.0)) < MIN_COUNTING_SIGMA:
+                    continue
+            elif a.predicted_intensity < noise:
+                continue
         if x_range is not None and not x_range[0] <= a.energy_eV <= x_range[1]:
             continue
         if np.any(np.abs(lab - a.energy_eV) <= half) or np.any(np.abs(x - a.energy_eV) <= half):
@@ -476,8 +490,29 @@ def prepare_energy_peaks(
     out = PeakList(new, peaks.axis, peaks.medium, peaks.source, peaks.mode, extra)
     prep = XrayPreparation(inst, assumed, labels, artefact_table(arts), scale)
     xr = peaks.extra.get("x_range") if isinstance(peaks.extra, dict) else None
+    # Predicted artefacts without a peak of their own are listed from every
+    # significant peak as parent, whatever its assignment, down to what the
+    # peak finder could have separated (not only the predictions above the
+    # median noise that may explain a peak): every sum and escape peak an
+    # analyst could see in the spectrum is named.
+    listable = predict_artefacts(
+        x, real_i, inst, fwhm_obs_eV=w_obs, channel_eV=channel, min_intensity=0.0
+    )
+    base_curve = None
+    b_arr = peaks.extra.get("baseline") if isinstance(peaks.extra, dict) else None
+    if xr is not None and b_arr is not None and np.size(b_arr) > 1 and np.min(b_arr) >= 0:
+        base_curve = (
+            np.linspace(float(xr[0]), float(xr[1]), np.size(b_arr)),
+            np.asarray(b_arr, dtype=np.float64),
+        )
     prep.unresolved = _without_peak(
-        arts, labels, x, channel, dl, (float(xr[0]), float(xr[1])) if xr else None
+        listable,
+        labels,
+        x[~weak[0]],
+        channel,
+        dl,
+        (float(xr[0]), float(xr[1])) if xr else None,
+        base_curve,
     )
     prep.spectrum = spectrum
     if assumed:

@@ -1,0 +1,257 @@
+"""X-ray terms of the evidence model and the X-ray class rules.
+
+Split from :mod:`workbench.matching.scoring` (which calls these functions
+and sits above this module): the general model (chance probability,
+missing-line penalty, net evidence, classes) is described there.
+
+X-ray rules (``x-ray`` source model on an energy axis only; optical results
+are untouched). Line energies are known to a few eV and the energy scale is
+checked (:mod:`workbench.xray.energy_scale`), and intra-family intensity
+ratios are predicted to about 0.2 dex, so closeness and ratio agreement are
+evidence a coincidence rarely produces. Added to E (decades):
+
+position agreement
+    per found, unique, counted group: log10[(1 − ε)·W·φ(δ/σ)/σ + ε], δ the
+    peak's offset from the group's strongest line, σ the position
+    uncertainty (:func:`workbench.matching.evidence._xray_terms`: residual
+    calibration 10 eV, tabulation 2 eV, unresolved-blend offset, and the
+    wandering of a noisy peak's maximum), W = 2·tolerance + span the width
+    over which a chance peak would have been accepted (uniform), ε the loss
+    probability (a peak displaced by something outside the model). At most
+    about +0.7, at least −0.7 per group.
+ratio agreement
+    per such group beyond the anchor (the one predicted strongest):
+    r = log10(I/I_anchor) − log10(pred/pred_anchor), σ_r² = σ_model² +
+    (0.434/SNR)² + (0.434/SNR_anchor)², a chance peak's height uniform in
+    log over R decades (from 30 % of the prediction to the highest peak):
+    log10[(1 − ε)·R·φ(r/σ_r)/σ_r + ε].
+sole explanation
+    +log10(1/0.05) = 1.3 when the family's main group is found, unique (no
+    plausible species competes for its peak), within 2σ of its line, on a
+    peak of at least 10σ: the peak must come from some line, and this is the
+    only plausible one; 0.05 (:data:`XRAY_OUTSIDE_PROBABILITY`) is the chance
+    that such a peak comes from outside the line table and artefact model.
+family support
+    an established family of the same element that predicts this family's
+    total intensity (:mod:`workbench.matching.joint`) makes E at least that
+    family's E (a floor, never more).
+
+Class changes on the energy axis: "probable" may rest on one found group
+when the main group is found and unique (single-group families such as
+Al K, Si K at EDS resolution); "possible" needs the main group found and not
+explained by a better species, and E ≥ 0 (:data:`XRAY_POSSIBLE_DEX`).
+"Established" needs two found groups, or a family that is probable and
+whose main group is the *sole explanation* above (the only plausible line
+of a peak of at least 10σ, within 2σ of it): such a peak is surely real and
+surely not an artefact (labelled before matching), so the look-elsewhere
+correction, which asks whether some species would fit a chance peak, does
+not apply to it; what remains is that the family's other lines and its
+element's other families agree, which "probable" on the net evidence says.
+
+
+Missing groups on the energy axis cost the sum of their single-line terms
+log10 P(not seen | present) (:func:`xray_missing_penalty_dex`), plus the
+element's missing higher-energy family (:mod:`workbench.matching.joint`).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+
+__all__ = [
+    "XRAY_OUTSIDE_PROBABILITY",
+    "XRAY_POSSIBLE_DEX",
+    "XRAY_SOLE_DEX",
+    "XRAY_SOLE_SNR",
+    "xray_agreement",
+    "xray_level",
+    "xray_main_found_and_sole",
+    "xray_missing_penalty_dex",
+]
+
+#: X-ray "possible" floor: net evidence for, not against (common practice, no source).
+XRAY_POSSIBLE_DEX: float = 0.0
+
+#: X-ray: probability that a significant peak left after the artefact
+#: labelling comes from outside the reference set and the artefact model
+#: (diffraction peak, unpredicted sum, unlisted line): common practice, no
+#: source (about one peak in twenty of a routine spectrum).
+XRAY_OUTSIDE_PROBABILITY: float = 0.05
+#: Evidence (decades) when a family's main line is the only plausible
+#: explanation of a significant peak: −log10 of that probability.
+XRAY_SOLE_DEX: float = float(-np.log10(XRAY_OUTSIDE_PROBABILITY))
+#: Peak significance (3·height / detection limit, i.e. height / noise) a
+#: sole explanation needs: 5σ, the usual discovery threshold for a peak that
+#: is surely not noise (common practice, no source).
+XRAY_SOLE_SNR: float = 10.0
+
+
+def _mixture_lr_dex(z: np.ndarray, sigma: np.ndarray, width: np.ndarray, eps: float) -> np.ndarray:
+    """log10 of [(1 − ε)·width·φ(z)/σ + ε]: Gaussian agreement vs a uniform chance value."""
+    dens = np.exp(-0.5 * z * z) / (np.sqrt(2.0 * np.pi) * sigma)
+    return np.log10((1.0 - eps) * width * dens + eps)
+
+
+def xray_agreement(g: dict[str, Any], use: np.ndarray, *, loss_probability: float) -> float:
+    """Position and ratio agreement (decades) of found unique groups (X-ray only).
+
+    Position: per group, δ = observed − line with uncertainty σ_pos; a chance
+    peak falls anywhere in the window W (uniform), so the likelihood ratio is
+    (1 − ε)·W·φ(δ/σ)/σ + ε (ε = ``loss_probability``, the general model's
+    :data:`workbench.matching.scoring.LOSS_PROBABILITY`: a peak displaced by
+    something outside the model). Ratio: per group beyond the anchor (the
+    one predicted strongest), r = log10(I/I_anchor) − log10(pred/pred_anchor)
+    with σ_r² = σ_model² + (0.434/SNR)² + (0.434/SNR_anchor)²; a chance peak's
+    height is uniform in log over ``log_range`` decades, so the ratio is
+    (1 − ε)·R·φ(r/σ_r)/σ_r + ε. Adds :data:`XRAY_SOLE_DEX` when the main
+    group is a sole explanation (:func:`xray_main_found_and_sole`).
+
+    Parameters
+    ----------
+    g : dict
+        The species' group arrays (:mod:`workbench.matching.evidence`).
+    use : numpy.ndarray of bool
+        The found, unique groups counted in the chance probability.
+    loss_probability : float
+        ε (passed in: this module sits below :mod:`workbench.matching.scoring`).
+
+    Returns
+    -------
+    float
+        The agreement in decades.
+    """
+    if not np.any(use):
+        return 0.0
+    total = float(
+        np.sum(
+            _mixture_lr_dex(
+                g["delta"][use] / g["sigma_pos"][use],
+                g["sigma_pos"][use],
+                g["window"][use],
+                loss_probability,
+            )
+        )
+    )
+    inten = g["obs_intensity"]
+    ok = (
+        use & g["known"] & np.isfinite(inten) & (inten > 0) & ~g["saturated"] & (g["predicted"] > 0)
+    )
+    if np.sum(ok) >= 2 and g.get("dl") is not None:
+        idx = np.flatnonzero(ok)
+        a = idx[int(np.argmax(g["predicted"][idx]))]
+        rest = idx[idx != a]
+        snr = 3.0 * inten / g["dl"]
+        r = np.log10(inten[rest] / inten[a]) - np.log10(g["predicted"][rest] / g["predicted"][a])
+        sig = np.sqrt(g["sigma"][rest] ** 2 + (0.434 / snr[rest]) ** 2 + (0.434 / snr[a]) ** 2)
+        total += float(
+            np.sum(_mixture_lr_dex(r / sig, sig, g["log_range"][rest], loss_probability))
+        )
+    known_pred = np.where(g["known"], g["predicted"], -np.inf)
+    main = int(np.argmax(known_pred))
+    if (
+        use[main]
+        and abs(g["delta"][main]) <= 2.0 * g["sigma_pos"][main]
+        and g["snr"][main] >= XRAY_SOLE_SNR
+    ):
+        total += XRAY_SOLE_DEX
+    return total
+
+
+def xray_missing_penalty_dex(p_miss: np.ndarray, missing: np.ndarray) -> float:
+    """Missing-group penalty (decades): each missing group costs log10 P(not seen | present).
+
+    Parameters
+    ----------
+    p_miss : numpy.ndarray
+        m_i per group (:mod:`workbench.matching.scoring`).
+    missing : numpy.ndarray of bool
+        The groups that should be seen and have no peak.
+
+    Returns
+    -------
+    float
+        Σ log10 m_i over the missing groups.
+    """
+    return float(np.sum(np.log10(p_miss[missing])))
+
+
+def xray_main_found_and_sole(g: dict[str, Any], use: np.ndarray) -> tuple[bool, bool]:
+    """Whether the family's main group is found, and whether it is a sole explanation.
+
+    The main group is the one predicted strongest among the known ones.
+    Found: it has a peak not explained by a better species. Sole
+    explanation: it is counted, found and unique (``use``), within 2σ of its
+    line, on a peak of at least :data:`XRAY_SOLE_SNR` (module docstring).
+
+    Parameters
+    ----------
+    g : dict
+        The species' group arrays.
+    use : numpy.ndarray of bool
+        The found, unique groups counted in the chance probability.
+
+    Returns
+    -------
+    tuple of bool
+        ``(main_found, sole_explanation)``.
+    """
+    known_pred = np.where(g["known"], g["predicted"], -np.inf)
+    main = int(np.argmax(known_pred)) if known_pred.size else -1
+    main_found = bool(main >= 0 and g["found"][main] and not g["explained"][main])
+    sole = bool(
+        main >= 0
+        and use[main]
+        and abs(g["delta"][main]) <= 2.0 * g["sigma_pos"][main]
+        and g["snr"][main] >= XRAY_SOLE_SNR
+    )
+    return main_found, sole
+
+
+def xray_level(
+    level: int,
+    e: float,
+    *,
+    main_found: bool,
+    k: int,
+    n_unique: int,
+    sole_explanation: bool,
+    probable_dex: float,
+) -> int:
+    """The X-ray class changes of the module docstring, applied to the general class.
+
+    Parameters
+    ----------
+    level : int
+        The class from the general rules
+        (:func:`workbench.matching.scoring.class_level`).
+    e : float
+        Net evidence (decades).
+    main_found : bool
+        Whether the main group is found and not explained by a better species.
+    k : int
+        Found groups counted in the chance probability.
+    n_unique : int
+        Unique peaks among them.
+    sole_explanation : bool
+        Whether the main group is the sole explanation of a ≥10σ peak.
+    probable_dex : float
+        The "probable" threshold (:data:`workbench.matching.scoring.PROBABLE_DEX`).
+
+    Returns
+    -------
+    int
+        The level (3 established … 0 not supported).
+    """
+    if level < 2 and e >= probable_dex and main_found and k >= 1 and n_unique >= 1:
+        level = 2
+    if level == 2 and sole_explanation:
+        # X-ray: a family that is the only explanation of a ≥10σ peak (not an
+        # artefact, not noise) on its main line, and probable on the net
+        # evidence (its other lines and the element's other families agree),
+        # is established even on one resolvable group (Si K, Al K).
+        return 3
+    if level >= 2:
+        return level
+    return 1 if e >= XRAY_POSSIBLE_DEX and main_found else 0
