@@ -179,7 +179,6 @@ LOSS_PROBABILITY: float = 0.2
 MISSING_FLOOR_DEX: float = float(np.log10(LOSS_PROBABILITY))
 
 
-
 @dataclass
 class SpeciesEvidence:
     """Evidence gathered for one species (see module docstring)."""
