@@ -189,3 +189,21 @@ def test_astm_solar_prior_makes_no_call_on_its_own():
     for sp in high:
         assert data_p[sp] <= 0.05, (sp, data_p[sp])
     assert {"H I", "Ca II", "Na I"} <= set(high)  # the data-supported calls stay
+
+
+def test_astm_prior_data_test_is_in_the_result():
+    # What carried a prior-tipped absorption call is written in the result: one
+    # prior_data_test note per species at "probable" or above, naming the data
+    # test's p (the engine's own figure, scoring.absorption_prior_test) beside
+    # the plain chance probability of its species row. None without a prior.
+    _, outcome = _run("ASTMG173", "solar")
+    notes = [w for w in outcome.report["warnings"] if w["kind"] == "prior_data_test"]
+    high = {e["species"] for e in outcome.report["elements"] if e["verdict_level"] >= 2}
+    assert {n["elements"][0] for n in notes} == high
+    data_p = {
+        ev.label: ev.groups["prior_test_p"] for ev in outcome.result.evidence.evidence.values()
+    }
+    for n in notes:
+        assert f"p = {data_p[n['elements'][0]]:.3g}" in n["message"]
+    _, plain = _run("ASTMG173", "none")
+    assert not [w for w in plain.report["warnings"] if w["kind"] == "prior_data_test"]

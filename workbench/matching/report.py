@@ -209,6 +209,7 @@ def build_report(result: MatchResult) -> dict[str, Any]:
     warnings = list(result.warnings)
     warnings.extend(result.notes)
     warnings.extend(_other_warnings(result, u))
+    warnings.extend(_prior_data_tests(ev_pass))
     xray = dict(result.xray) if result.xray else None
     if xray is not None:  # X-ray physics (workbench.xray): artefacts, instrument, exclusions
         warnings.extend(xray.pop("warnings", []))
@@ -286,6 +287,36 @@ def _data_version(result: MatchResult) -> str | None:
         {str(p.get("data_version")) for p in result.index.provenance if p.get("data_version")}
     )
     return ";".join(versions) if versions else None
+
+
+def _prior_data_tests(ev_pass: Any) -> list[dict[str, object]]:
+    """One note per species whose class rests on the absorption prior's data test.
+
+    Under ``absorption`` with an abundance prior, a prior-named species may
+    reach "probable" when its data alone pass p ≤ 0.05 on the forward-modelled
+    blend positions (``scoring.absorption_prior_test``), a different figure
+    from the plain ``chance_probability`` of its species row; the note names
+    both, so a reviewer can see what carried the call.
+    """
+    out: list[dict[str, object]] = []
+    for ev in sorted(ev_pass.evidence.values(), key=lambda v: v.label):
+        p_test = ev.groups.get("prior_test_p") if isinstance(ev.groups, dict) else None
+        if p_test is None or ev.prior_dex <= 0.0 or ev.level < 2:
+            continue
+        out.append(
+            {
+                "kind": "prior_data_test",
+                "message": f"{ev.label} is '{ev.verdict}' with the abundance prior, which "
+                f"adds +{ev.prior_dex:.2f} dex to its net evidence; a prior may tip a call "
+                f"but not make one, and its data alone pass the prior's test at "
+                f"p = {p_test:.3g} (dips at the forward-modelled positions of its "
+                f"unresolved blends, chance from the dips that can be matched; the plain "
+                f"chance probability of its lines is {ev.chance_probability:.3g})",
+                "elements": [ev.label],
+                "lines": [],
+            }
+        )
+    return out
 
 
 def _other_warnings(result: MatchResult, u: str) -> list[dict[str, object]]:
