@@ -157,3 +157,16 @@ def test_artefact_without_peak_listed_when_it_would_be_significant(height, liste
         assert rows[0]["kinds"] == "sum"
         # Expected counts: Gaussian area 1.0645·height·FWHM/channel (same formula).
         assert rows[0]["expected_counts"] == pytest.approx(1.0645 * height * 190.0 / 10.0)
+
+
+def test_artefact_warning_names_the_kinds_in_an_analysts_words():
+    # The invented demo ground (workbench.demo) has Rayleigh/Compton tube scatter,
+    # argon from air and pile-up peaks; the summary warning says so in the words of
+    # workbench.xray.wording (no bare engine tags such as "rayleigh" or "air").
+    from workbench.demo import demo_file
+    from workbench.matching import analyse_input
+
+    rep = analyse_input(demo_file("white_pigment"), name="white_pigment.csv").report
+    msg = next(w["message"] for w in rep["warnings"] if w["kind"] == "artefact_peaks")
+    assert "tube scatter (Rayleigh)" in msg and "argon in air" in msg
+    assert "(air," not in msg and "rayleigh," not in msg

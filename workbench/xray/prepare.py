@@ -33,6 +33,7 @@ from workbench.xray.detector import fwhm_eV
 from workbench.xray.energy_scale import EnergyScale, fit_energy_scale
 from workbench.xray.excitation import excitable, measurable
 from workbench.xray.instrument import DEFAULT_INSTRUMENT, Instrument
+from workbench.xray.wording import artefact_kind_label
 
 __all__ = ["XrayPreparation", "prepare_energy_peaks"]
 
@@ -534,7 +535,8 @@ def prepare_energy_peaks(
         prep.warnings.append(
             {
                 "kind": "artefact_peaks",
-                "message": f"{n_art} peak(s) are instrument artefacts ({', '.join(kinds)}) and are "
+                "message": f"{n_art} peak(s) are instrument artefacts "
+                f"({artefact_kind_label(','.join(kinds))}) and are "
                 "not used as evidence for any element; see the artefact list",
                 "elements": [],
                 "lines": [],
