@@ -170,3 +170,18 @@ def test_artefact_warning_names_the_kinds_in_an_analysts_words():
     msg = next(w["message"] for w in rep["warnings"] if w["kind"] == "artefact_peaks")
     assert "tube scatter (Rayleigh)" in msg and "argon in air" in msg
     assert "(air," not in msg and "rayleigh," not in msg
+
+
+@pytest.mark.filterwarnings("ignore::scipy.signal._peak_finding_utils.PeakPropertyWarning")
+@pytest.mark.parametrize("fwhm", [130.0, 180.0])
+@pytest.mark.parametrize("case", sorted(CASES))
+def test_no_scale_correction_on_a_true_scale(case, fwhm):
+    # The forward model has no calibration error (tests/xray/cases.py), so the
+    # check must not correct anything. Before anchors were limited to
+    # unambiguous K and L families, leaded brass (130 eV) got -21 eV at 2.3 keV
+    # from a Pb M blend centroid, and lead white (180 eV) fitted +20 ± 2.7 eV
+    # on a Ca Kβ peak taken as Te Lβ1.
+    inst = instrument(fwhm)
+    _, prep = prepare_energy_peaks(_peaks(case, inst), inst, _reference())
+    assert not prep.scale.applied
+    assert not any(name.endswith(" M") or " M " in name for name in prep.scale.lines)

@@ -43,8 +43,11 @@ __all__ = ["NEEDED_DEX", "annotate_warnings", "settle_overlaps"]
 NEEDED_DEX: float = 3.0
 #: Lines weaker than this part of their family's strongest are left out of
 #: the patterns (they cannot settle anything at counting precision; common
-#: practice, no source).
-_MIN_REL: float = 0.01
+#: practice, no source). Lines down to a thousandth stay in: a trace family
+#: needed only at the per-cent level beside a strong one would otherwise take
+#: the strong family's minor lines (Nb Lα at 2169 eV on Pb M3-N1, 0.5 % of
+#: Pb Mα, in lead white).
+_MIN_REL: float = 0.001
 
 
 def _pattern(
@@ -124,6 +127,7 @@ def settle_overlaps(
         ev for ev in sorted(ev_pass.evidence.values(), key=lambda v: v.label) if main_taken(ev)
     ]
     partners = {ev.label: list(ev.explained_by) for ev in cands}
+    taken = set(partners)
     # Families whose main groups sit on one peak, none explained there (Ba L
     # and Ti K when neither is probable enough to take the peak): each one
     # short of established is fitted against the others.
@@ -165,7 +169,33 @@ def settle_overlaps(
             ):
                 if np.any((e >= lo) & (e <= hi) & (r >= 0.1 * r.max())):
                     fams[other.label] = (e, r)
-        dec = decide_overlap_spectrum(x, net, fams, instrument, background=base)
+        # The fit uses the channels within a FWHM of every fitted family's
+        # strong lines, wherever they lie: a family called probable or
+        # better with a strong line among those channels is fitted too, or
+        # its peak is taken by whichever fitted family reaches it (Os Lα on
+        # Cu Kβ in brass, fitted without Cu K).
+        for _ in range(3):
+            at = np.concatenate([e[r >= 0.1 * r.max()] for e, r in fams.values()])
+            reach = fwhm_eV(at, instrument)
+            added = False
+            for other in ev_pass.evidence.values():
+                e, r = patterns[other.label]
+                if other.level < 2 or other.label in fams or not e.size:
+                    continue
+                es = e[r >= 0.1 * r.max()]
+                gap = (
+                    np.abs(es[:, None] - at[None, :])
+                    - reach[None, :]
+                    - fwhm_eV(es, instrument)[:, None]
+                )
+                if np.any(gap <= 0.0):
+                    fams[other.label] = (e, r)
+                    added = True
+            if not added:
+                break
+        dec = decide_overlap_spectrum(
+            x, net, fams, instrument, background=base, relative_patterns=ev.label in taken
+        )
         fits.append((ev, dec))
     n_fits = len(fits)
     for ev, dec in fits:

@@ -295,10 +295,19 @@ def _scale_pairs(
     top = np.zeros(names.size)
     np.maximum.at(top, inv, r_rel)
     r_rel = np.where(top[inv] > 0, r_rel / top[inv], 0.0)
-    obs, refs, sig, names = [], [], [], []
-    for p in np.flatnonzero(np.nan_to_num(snr) >= 30.0):
+    strong = np.flatnonzero(np.nan_to_num(snr) >= 30.0)
+    confirmed_at: dict[int, list[str]] = {}
+    for p in strong:
         half = 0.5 * fwhm[p]
-        cands = set(r_sp[(np.abs(r_e - x[p]) <= half) & (r_rel >= 0.5)])
+        # M families are not anchors: their line ratios within the family
+        # (sub-shell vacancies, Coster-Kronig) are too uncertain to place the
+        # blend's maximum to a few eV, and below ~3 keV peaks carry
+        # incomplete-charge tails (common practice, no source).
+        cands = {
+            sp
+            for sp in r_sp[(np.abs(r_e - x[p]) <= half) & (r_rel >= 0.5)]
+            if not str(sp).endswith(" M")
+        }
         confirmed = []
         for sp in sorted(cands):
             mine = r_sp == sp
@@ -308,6 +317,18 @@ def _scale_pairs(
             e_other = r_e[far][np.argmax(r_rel[far])]
             if np.min(np.abs(x - e_other)) <= 0.5 * float(np.interp(e_other, x, fwhm)):
                 confirmed.append(sp)
+        confirmed_at[int(p)] = confirmed
+    seen = {sp for fams in confirmed_at.values() for sp in fams}
+    obs, refs, sig, names = [], [], [], []
+    for p in strong:
+        confirmed = confirmed_at[int(p)]
+        # Unambiguous only: no line (≥ 0.1 of its family's strongest) of
+        # another family confirmed in this spectrum lies under the peak
+        # (Ca Kβ 4013 eV under a peak that Te Lβ1 would also explain).
+        under = (np.abs(r_e - x[p]) <= fwhm[p]) & (r_rel >= 0.1)
+        others = set(r_sp[under]) & seen
+        if others - set(confirmed):
+            continue
         sigma = fwhm[p] / 2.3548
         for fam in confirmed:
             # Where the blend of this family's lines peaks: start at its main
