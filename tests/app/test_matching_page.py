@@ -8,7 +8,7 @@ from __future__ import annotations
 import pytest
 
 from tests.app.conftest import ANALYST, CASE, MAIN
-from tests.app.test_pages import _finish_run, _run_matching, _texts
+from tests.app.test_pages import _demo_case_matched, _run_matching, _texts
 from workbench.matching.presentation import interference_groups
 
 pytestmark = pytest.mark.slow
@@ -25,34 +25,7 @@ def _track_names(at) -> set[str]:
 @pytest.fixture(scope="module")
 def demo_app(tmp_path_factory):
     """The demo LIBS case matched once in one session (module-wide: the run is the cost)."""
-    import os
-
-    from streamlit.testing.v1 import AppTest
-
-    from workbench.casefile.store import CaseStore
-    from workbench.demo import seed_demo_case
-
-    root = tmp_path_factory.mktemp("demo") / "store"
-    with CaseStore.open(root) as store:
-        seed_demo_case(store)
-    old = os.environ.get("WORKBENCH_STORE")
-    os.environ["WORKBENCH_STORE"] = str(root)
-    try:
-        at = AppTest.from_file(MAIN, default_timeout=120)
-        at.run()
-        at.session_state["pending_case"] = "NRFL-2026-0417"
-        at.run()
-        at.switch_page("page_measurement.py").run()
-        at.button(key="read_stored").click().run()
-        at.switch_page("page_matching.py").run()
-        at.button(key="run_go").click().run()
-        _finish_run(at)
-        yield at
-    finally:
-        if old is None:
-            os.environ.pop("WORKBENCH_STORE", None)
-        else:
-            os.environ["WORKBENCH_STORE"] = old
+    yield from _demo_case_matched(tmp_path_factory, "NRFL-2026-0417")
 
 
 def test_probable_and_better_species_are_drawn_by_default(demo_app):

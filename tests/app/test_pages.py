@@ -6,7 +6,7 @@ import json
 
 import pytest
 
-from tests.app.conftest import ANALYST, CASE, PEAKS_CSV
+from tests.app.conftest import ANALYST, CASE, MAIN, PEAKS_CSV
 
 pytestmark = pytest.mark.slow
 
@@ -157,6 +157,42 @@ def _finish_run(app):
         time.sleep(0.05)
     app.run()
     assert not app.exception, app.exception
+
+
+def _demo_case_matched(tmp_path_factory, case: str):
+    """An app session on a fresh store of the invented demo cases, ``case`` matched once.
+
+    A generator for module-wide fixtures (the run is the cost): yields the
+    AppTest after the run and restores ``WORKBENCH_STORE`` afterwards.
+    """
+    import os
+
+    from streamlit.testing.v1 import AppTest
+
+    from workbench.casefile.store import CaseStore
+    from workbench.demo import seed_demo_case
+
+    root = tmp_path_factory.mktemp("demo") / "store"
+    with CaseStore.open(root) as store:
+        seed_demo_case(store)
+    old = os.environ.get("WORKBENCH_STORE")
+    os.environ["WORKBENCH_STORE"] = str(root)
+    try:
+        at = AppTest.from_file(MAIN, default_timeout=120)
+        at.run()
+        at.session_state["pending_case"] = case
+        at.run()
+        at.switch_page("page_measurement.py").run()
+        at.button(key="read_stored").click().run()
+        at.switch_page("page_matching.py").run()
+        at.button(key="run_go").click().run()
+        _finish_run(at)
+        yield at
+    finally:
+        if old is None:
+            os.environ.pop("WORKBENCH_STORE", None)
+        else:
+            os.environ["WORKBENCH_STORE"] = old
 
 
 def _run_matching(app):

@@ -12,8 +12,7 @@ import json
 
 import pytest
 
-from tests.app.conftest import MAIN
-from tests.app.test_pages import _finish_run, _texts
+from tests.app.test_pages import _demo_case_matched, _texts
 
 pytestmark = pytest.mark.slow
 
@@ -22,34 +21,7 @@ XRF_CASE = "NRFL-2026-0502"  # invented (workbench.demo)
 
 @pytest.fixture(scope="module")
 def xrf_app(tmp_path_factory):
-    import os
-
-    from streamlit.testing.v1 import AppTest
-
-    from workbench.casefile.store import CaseStore
-    from workbench.demo import seed_demo_case
-
-    root = tmp_path_factory.mktemp("xrf") / "store"
-    with CaseStore.open(root) as store:
-        seed_demo_case(store)
-    old = os.environ.get("WORKBENCH_STORE")
-    os.environ["WORKBENCH_STORE"] = str(root)
-    try:
-        at = AppTest.from_file(MAIN, default_timeout=120)
-        at.run()
-        at.session_state["pending_case"] = XRF_CASE
-        at.run()
-        at.switch_page("page_measurement.py").run()
-        at.button(key="read_stored").click().run()
-        at.switch_page("page_matching.py").run()
-        at.button(key="run_go").click().run()
-        _finish_run(at)
-        yield at
-    finally:
-        if old is None:
-            os.environ.pop("WORKBENCH_STORE", None)
-        else:
-            os.environ["WORKBENCH_STORE"] = old
+    yield from _demo_case_matched(tmp_path_factory, XRF_CASE)
 
 
 def _artefact_frame(at):
