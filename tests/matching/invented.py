@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -72,3 +73,28 @@ def peaks_from(positions, intensities, medium="vacuum", **extra_cols) -> PeakLis
     cols.update(extra_cols)
     t = pl.DataFrame(cols).sort("wavelength_nm")
     return PeakList(t, "wavelength", medium)
+
+
+def seeded_mixtures(
+    pool: list[str],
+    seed: int,
+    resolving_powers: tuple[float, ...],
+    n_per_r: int,
+    max_species: int,
+    abundance: Callable[[np.random.Generator], float],
+) -> list[tuple[float, dict[str, float], int]]:
+    """Invented mixtures: (R, {species: abundance}, spectrum seed), reproducible.
+
+    For each resolving power, ``n_per_r`` mixtures of 1 … ``max_species``
+    species (cycling) drawn from ``pool`` without replacement, each species'
+    abundance drawn by ``abundance(rng)``, and a seed for the spectrum's noise.
+    """
+    rng = np.random.default_rng(seed)
+    out = []
+    for R in resolving_powers:
+        for i in range(n_per_r):
+            k = 1 + i % max_species
+            species = sorted(rng.choice(pool, size=k, replace=False).tolist())
+            mix = {s: abundance(rng) for s in species}
+            out.append((R, mix, int(rng.integers(1, 2**31))))
+    return out

@@ -26,6 +26,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from tests.matching.invented import seeded_mixtures
 from workbench.datamodel import Spectrum
 from workbench.matching import MatchParameters, match_peaks
 from workbench.matching.engine import build_index
@@ -59,15 +60,14 @@ N_PER_R = 8  # 3 resolving powers × 8 = 24 mixtures
 
 
 def _mixtures():
-    rng = np.random.default_rng(20261203)
-    out = []
-    for R in (500.0, 2000.0, 20000.0):
-        for i in range(N_PER_R):
-            k = 1 + i % 5
-            species = sorted(rng.choice(POOL, size=k, replace=False).tolist())
-            abundance = {s: float(10 ** rng.uniform(-0.5, 0.5)) for s in species}
-            out.append((R, abundance, int(rng.integers(1, 2**31))))
-    return out
+    return seeded_mixtures(
+        POOL,
+        20261203,
+        (500.0, 2000.0, 20000.0),
+        N_PER_R,
+        5,
+        lambda rng: float(10 ** rng.uniform(-0.5, 0.5)),
+    )
 
 
 MIXTURES = _mixtures()

@@ -18,6 +18,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from tests.matching.invented import seeded_mixtures
 from workbench.matching import MatchParameters, match_peaks
 from workbench.matching.engine import build_index
 from workbench.matching.expected import expected_strengths
@@ -57,15 +58,14 @@ def optical():
 
 
 def _mixtures():
-    rng = np.random.default_rng(20261202)
-    out = []
-    for R in (1000.0, 5000.0, 20000.0):
-        for i in range(N_PER_R):
-            k = 1 + i % 6
-            species = sorted(rng.choice(POOL, size=k, replace=False).tolist())
-            abundance = {s: float(rng.uniform(0.3, 3.0)) for s in species}
-            out.append((R, abundance, int(rng.integers(1, 2**31))))
-    return out
+    return seeded_mixtures(
+        POOL,
+        20261202,
+        (1000.0, 5000.0, 20000.0),
+        N_PER_R,
+        6,
+        lambda rng: float(rng.uniform(0.3, 3.0)),
+    )
 
 
 MIXTURES = _mixtures()
