@@ -82,7 +82,7 @@ def test_missing_strongest_line_counts_against(invented_set):
     # Predicted far above the detection limit, so a present Qb I misses it with
     # the loss probability ε = 0.2 (workbench.matching.scoring.LOSS_PROBABILITY).
     # The penalty is the chance that a present species leaves a record of
-    # misses at least this bad (scoring.misses_tail_probability): Qb I 450 and
+    # misses at least this bad (chance.misses_tail_probability): Qb I 450 and
     # 470 are both surely visible (m = 0.2 each), so "one surely-visible group
     # missed" has probability 1 − 0.8² = 0.36 (derived here), log10 = −0.44;
     # never harsher than the single-line term log10(0.2).
@@ -97,7 +97,7 @@ def test_species_with_strong_lines_missing_is_at_most_possible(invented_set):
     # not favour Qb I. (The censored scale puts the missing lines at the
     # detection limit — two upper bounds out of three ratios — so the found
     # line is the anomaly and the misses themselves cost little:
-    # scoring.misses_tail_probability.)
+    # chance.misses_tail_probability.)
     peaks = peaks_from([300.5, 500.001, 510.0], [1000.0, 1000.0, 1000.0], snr=[100.0] * 3)
     report = match_peaks(peaks, [invented_set], _params()).report()
     qb = _by_species(report)["Qb I"]

@@ -31,7 +31,7 @@ chance test of the evidence with two changes, both exact under chance:
   wavelength-scale check has already applied any significant shift).
   Because the found dip is the *nearest* of a Poisson number of chance dips
   in the window, the closeness is P(nearest within d | at least one)
-  (:func:`workbench.matching.scoring.closeness_probability` with the
+  (:func:`workbench.matching.chance.closeness_probability` with the
   density); taking it as one uniform dip is anti-conservative in crowded
   windows (``tests/matching/test_absorption.py`` checks uniformity).
 * **Chance dips are dips that could be matched.** Dips set aside as bands
@@ -154,7 +154,7 @@ def blend_closeness_terms(
         ``blend_u``, ``blend_ref_u``, ``blend_unit``, and ``blend_rho_tol``
         (density × tolerance, for every found group: the expected number of
         chance dips per tolerance, used to make closeness honest in crowded
-        windows, see :func:`workbench.matching.scoring.closeness_probability`).
+        windows, see :func:`workbench.matching.chance.closeness_probability`).
     """
     half = group_tolerance + group_span / 2.0
     ok = found & (group_span <= group_resolution) & (half > 0)

@@ -276,7 +276,7 @@ def pass_layout(
     g_peak[g_first] = pairs.obs[order[first_at]]
     g_line = np.full(n_groups, -1, dtype=np.int64)  # the line nearest its peak
     g_line[g_first] = pairs.ref[order[first_at]]
-    # Optical closeness (scoring.closeness_probability): the found peak's
+    # Optical closeness (chance.closeness_probability): the found peak's
     # offset from its nearest line.
     g_offset = np.full(n_groups, np.nan)
     g_offset[g_first] = pairs.delta[order[first_at]]

@@ -152,7 +152,7 @@ def offset_centre(ev_pass: EvidencePass) -> float | None:
     well-identified species): a wavelength-scale shift too small for the
     scale check to apply still moves every real line alike, and the
     closeness of a species' peaks to its lines
-    (:func:`workbench.matching.scoring.closeness_probability`) is measured
+    (:func:`workbench.matching.chance.closeness_probability`) is measured
     from it. ``None`` with fewer than :data:`MIN_CENTRE_GROUPS` such groups.
     """
     u = []

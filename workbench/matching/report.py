@@ -300,7 +300,7 @@ def _prior_data_tests(ev_pass: Any) -> list[dict[str, object]]:
     """
     out: list[dict[str, object]] = []
     for ev in sorted(ev_pass.evidence.values(), key=lambda v: v.label):
-        p_test = ev.groups.get("prior_test_p") if isinstance(ev.groups, dict) else None
+        p_test = ev.groups.get("prior_test_p")
         if p_test is None or ev.prior_dex <= 0.0 or ev.level < 2:
             continue
         out.append(

@@ -127,6 +127,8 @@ def settle_overlaps(
         ev for ev in sorted(ev_pass.evidence.values(), key=lambda v: v.label) if main_taken(ev)
     ]
     partners = {ev.label: list(ev.explained_by) for ev in cands}
+    # Families whose main line a better family took (before the on-peak ones join):
+    # their fits charge the pattern error relative to each family's strongest.
     taken = set(partners)
     # Families whose main groups sit on one peak, none explained there (Ba L
     # and Ti K when neither is probable enough to take the peak): each one
