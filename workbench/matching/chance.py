@@ -113,6 +113,7 @@ def closeness_probability(
     *,
     centre_u: float = 0.0,
     blend: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None = None,
+    rho_tol: np.ndarray | None = None,
 ) -> float:
     """Chance probability that the found peaks lie as close to their lines as they do.
 
@@ -163,6 +164,14 @@ def closeness_probability(
         the window rather than one: the found peak is the nearest of them, so
         c = P(nearest within d | at least one) = (1 − e^(−a·f)) / (1 − e^(−a)),
         a the expected number of chance dips in the window (f when a → 0).
+    rho_tol : numpy.ndarray, optional
+        Without ``blend``: the expected number of chance peaks per
+        half-window at each group (density × tolerance). The found peak is
+        the *nearest* of all the peaks in the group's window (the layout
+        keeps the pair of smallest offset), so with a = ``rho_tol`` × W
+        chance peaks expected in the window, c = (1 − e^(−a·f)) / (1 − e^(−a))
+        as above. Without it c is that of one uniform peak, which is right
+        only where a window rarely holds more than one peak.
 
     Returns
     -------
@@ -178,6 +187,11 @@ def closeness_probability(
     single = (np.minimum(1.0, centre_u + d) - np.maximum(-1.0, centre_u - d)) / 2.0
     multi = np.minimum(1.0, 2.0 * n * d / w)
     c = np.where(n <= 1, single, multi)
+    if blend is None and rho_tol is not None:
+        a = np.asarray(rho_tol, dtype=float)[ok] * w
+        a = np.where(np.isfinite(a) & (a > 0), a, 0.0)
+        poisson = np.expm1(-a * c) / np.where(a > 0, np.expm1(-a), -1.0)
+        c = np.where(a > 1e-9, poisson, c)
     if blend is not None:
         bu, bref, bunit, rho_tol = (np.asarray(a, dtype=float)[ok] for a in blend)
         use = np.isfinite(bu)

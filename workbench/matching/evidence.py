@@ -49,12 +49,14 @@ from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import SpeciesEvidence, evaluate
 
 __all__ = [
+    "LOCAL_DENSITY_NEIGHBOURS",
     "SCALE_CONSISTENT_SIGMAS",
     "XRAY_CALIBRATION_SIGMA_EV",
     "XRAY_LINE_SIGMA_EV",
     "EvidencePass",
     "ObservedLines",
     "gather_evidence",
+    "local_density",
 ]
 
 
@@ -108,6 +110,43 @@ def _range_max(padded: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray
     idx = np.column_stack([lo, hi]).ravel()
     out = np.maximum.reduceat(padded, idx)[::2]
     return np.where(hi > lo, out, -np.inf)
+
+
+#: Absorption: the local dip density around a group is measured over the
+#: ``LOCAL_DENSITY_NEIGHBOURS`` nearest usable dips, (m − 1) / (2 r_m), the
+#: unbiased Poisson estimate from the distance r_m to the m-th nearest.
+#: 10 neighbours: a relative error of about 1/√9 ≈ 33 %, and since the
+#: estimate only ever raises the average density (:func:`local_density` is
+#: taken as max(local, average)), its noise can only make the chance test
+#: more cautious (common practice, no source).
+LOCAL_DENSITY_NEIGHBOURS: int = 10
+
+
+def local_density(obs: ObservedLines, x: np.ndarray) -> np.ndarray:
+    """Density of usable peaks around positions ``x`` (per axis unit), nearest-neighbour estimate.
+
+    With r_m the distance from x to its m-th nearest usable (not excluded)
+    peak, m = :data:`LOCAL_DENSITY_NEIGHBOURS`, the density is
+    (m − 1) / (2 r_m), unbiased for a Poisson scatter of peaks. Zero where
+    fewer than m usable peaks exist (the caller keeps the average then).
+    """
+    m = LOCAL_DENSITY_NEIGHBOURS
+    pos = obs.position if obs.excluded is None else obs.position[~obs.excluded]
+    if pos.size < m or x.size == 0:
+        return np.zeros(x.shape)
+    i = np.searchsorted(pos, x)
+    # The m nearest lie among the m peaks on either side of x.
+    cols = np.clip(i[:, None] + np.arange(-m, m)[None, :], 0, pos.size - 1)
+    d = np.abs(pos[cols] - x[:, None])
+    # Clipped columns repeat an end peak; repeated distances would count it
+    # twice, so they are pushed past every real one.
+    d[
+        (i[:, None] + np.arange(-m, m)[None, :] < 0)
+        | (i[:, None] + np.arange(-m, m)[None, :] >= pos.size)
+    ] = np.inf
+    r_m = np.partition(d, m - 1, axis=1)[:, m - 1]
+    with np.errstate(divide="ignore"):
+        return np.where(np.isfinite(r_m) & (r_m > 0), (m - 1) / (2.0 * r_m), 0.0)
 
 
 def _pearson(a: np.ndarray, b: np.ndarray) -> float | None:
@@ -541,7 +580,20 @@ def gather_evidence(
         # chance of a hit is that of any peak (a density of comparably
         # strong peaks made chance hits look rarer than the hits counted).
         rho_all = np.full(n_groups, density)
+        if absorption:
+            # Absorption: dips crowd where the absorbers have most lines
+            # (the blue of a cool photosphere), so the chance of a hit is
+            # that of the dips around the group, never below the average.
+            rho_all = np.maximum(rho_all, local_density(obs, g_pos))
     p_line_all = 1.0 - np.exp(-rho_all * (2.0 * g_tol + g_span))
+    if absorption and not xray:
+        # Absorption: dips closer than a resolution element merge into one,
+        # so the dips of a crowded spectrum are spread more evenly than a
+        # Poisson scatter and fill windows more often than 1 − e^(−ρw). For
+        # any stationary scatter of dips, P(a window holds one) ≤ its
+        # expected number ρw (equal when a window never holds two): the
+        # bound is the honest chance of a hit.
+        p_line_all = np.minimum(1.0, rho_all * (2.0 * g_tol + g_span))
     prior_test: dict[str, np.ndarray] | None = None
     if absorption and not xray:
         # The data test of a prior-favoured absorber (scoring.prior_capped):
@@ -612,6 +664,9 @@ def gather_evidence(
         if prior_test is not None:
             ev.groups.update({k: v[sl] for k, v in prior_test.items()})
             ev.groups["absorption"] = True
+            # Expected chance dips per half-window: the found dip is the
+            # nearest of all dips in its window (chance.closeness_probability).
+            ev.groups["rho_tol"] = rho_all[sl] * g_tol[sl]
         ev.n_groups_in_range = gb - ga
         ev.n_strong_in_range = int(n_strong_cum[gb] - n_strong_cum[ga])
         ev.missing_evidence = bool(with_int)

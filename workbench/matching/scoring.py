@@ -274,6 +274,9 @@ def evaluate(
                 g["offset_window_u"][hit],
                 g["offset_lines"][hit],
                 centre_u=float(g["offset_centre"]),
+                # Absorption: the found dip is the nearest of all the dips in
+                # its window (chance.closeness_probability, rho_tol).
+                rho_tol=g["rho_tol"][hit] if "rho_tol" in g else None,
             )
             ev.closeness_probability = c
             ev.chance_probability = fisher_combined([ev.chance_probability, c])
