@@ -611,7 +611,9 @@ def gather_evidence(
             found,
             rho_u,
         )
-        prior_test["p_line_usable"] = 1.0 - np.exp(-rho_u * (2.0 * g_tol + g_span))
+        prior_test["p_line_usable"] = np.minimum(
+            1.0, np.maximum(rho_u, rho_all) * (2.0 * g_tol + g_span)
+        )
 
     # 3. The evidence of each species.
     evidence: dict[int, SpeciesEvidence] = {}
