@@ -27,7 +27,11 @@ chance probability ``p``
     is combined (Fisher) with the closeness probability
     (:func:`closeness_probability`): how likely chance peaks would sit as
     close to their lines as the found ones do. Both are exact under chance,
-    so the correction below covers the pair.
+    so the correction below covers the pair. Absorption: the density is
+    the local dip density, the per-group chance min(1, ρ·(2·tol + span))
+    (merged dips are spread more evenly than a Poisson scatter), and the
+    closeness is that of the nearest of all the dips in the window
+    (:mod:`workbench.matching.evidence`).
 corrected chance probability
     ``p_corr = 1 − (1 − p)^N`` (Šidák), ``N`` the number of species tried
     in the run (those with at least one candidate, typically a few hundred):
