@@ -329,3 +329,19 @@ def test_feature_test_is_not_anti_conservative_under_chance(expected_dips):
         # 3000 draws: binomial standard error ≤ 0.0073; 0.02 is under 3σ.
         for j in range(2):
             assert np.mean(ps[:, j] <= q) <= q + 0.02, (j, q, np.mean(ps[:, j] <= q))
+
+
+def test_feature_prominences_are_the_usual_ones():
+    # Reference: workbench.peaks.extrema.peak_prominences with an unlimited
+    # window, on seeded invented smooth signals that are 0 at both ends.
+    from workbench.matching.absorption import _prominences
+    from workbench.peaks.extrema import local_maxima, peak_prominences
+
+    rng = np.random.default_rng(20261203)
+    kernel = np.exp(-0.5 * (np.arange(-20, 21) / 5.0) ** 2)
+    for _ in range(50):
+        spikes = rng.exponential(1.0, 400) * (rng.random(400) < 0.2)
+        x = np.concatenate(([0.0], np.convolve(spikes, kernel), [0.0]))
+        peaks = local_maxima(x)
+        expected = peak_prominences(x, peaks, 2 * x.size + 1)[0]
+        assert _prominences(x, peaks) == pytest.approx(expected)

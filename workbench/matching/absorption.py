@@ -87,7 +87,7 @@ import numpy as np
 from scipy import special
 
 from workbench.matching.chance import CLOSENESS_FLOOR, fisher_combined
-from workbench.peaks.extrema import local_maxima, peak_prominences
+from workbench.peaks.extrema import local_maxima
 
 __all__ = [
     "blend_closeness_terms",
@@ -301,6 +301,41 @@ def predicted_features(
     return pos_a[o], np.concatenate(depth)[o], np.concatenate(prom)[o]
 
 
+def _prominences(a: np.ndarray, peaks: np.ndarray) -> np.ndarray:
+    """Prominence of each local maximum of ``a`` (which is 0 at both ends).
+
+    The usual definition (as :func:`workbench.peaks.extrema.peak_prominences`
+    with an unlimited window), walked over the maxima and the minima between
+    them instead of over every sample.
+    """
+    h = a[peaks]
+    valley = np.minimum.reduceat(a, peaks)[:-1] if peaks.size > 1 else np.zeros(0)
+    left_end, right_end = float(a[: peaks[0] + 1].min()), float(a[peaks[-1] :].min())
+    n = peaks.size
+    prom = np.empty(n)
+    for i in range(n):
+        m_left = np.inf
+        j = i - 1
+        while j >= 0:
+            m_left = min(m_left, valley[j])
+            if h[j] > h[i]:
+                break
+            j -= 1
+        else:
+            m_left = min(m_left, left_end)
+        m_right = np.inf
+        j = i + 1
+        while j < n:
+            m_right = min(m_right, valley[j - 1])
+            if h[j] > h[i]:
+                break
+            j += 1
+        else:
+            m_right = min(m_right, right_end)
+        prom[i] = h[i] - max(m_left, m_right)
+    return prom
+
+
 def _cluster_features(
     x_l: np.ndarray, w: np.ndarray, fwhm: float, sigma: float
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -323,7 +358,7 @@ def _cluster_features(
         return np.zeros(0), np.zeros(0), np.zeros(0)
     # The cluster's ends fall to zero (the margin is wider than the kernel),
     # so prominences within it are those on the whole axis.
-    prom, _, _ = peak_prominences(a, peaks, 2 * a.size + 1)
+    prom = _prominences(a, peaks)
     y0, y1, y2 = a[peaks - 1], a[peaks], a[peaks + 1]
     den = y0 - 2.0 * y1 + y2
     shift = np.where(den < 0, 0.5 * (y0 - y2) / np.where(den < 0, den, -1.0), 0.0)

@@ -627,8 +627,9 @@ def gather_evidence(
         ev.n_strong_in_range = int(n_strong_cum[gb] - n_strong_cum[ga])
         ev.missing_evidence = bool(with_int)
         ev.prior_dex = prior_dex(abundance_prior, ev.element)
-        if prior_test is not None and ev.prior_dex > 0.0:
-            # A prior-named absorber's features as the instrument sees them
+        if prior_test is not None and ev.prior_dex > 0.0 and np.any(chain[sl]):
+            # A prior-named absorber whose groups chain beyond a resolution
+            # element: its features as the instrument sees them
             # (absorption.species_features; its data test, scoring).
             la_u, lb_u = np.searchsorted(gid, [ga, gb])
             ev.groups["features"] = species_features(
