@@ -22,7 +22,7 @@ the Kast arc, which pypeit does not list).
 
 Known gaps (``xfail(strict=True)``: they fail today and are reported in the
 issue's closing table; a fix turns them into errors to be removed):
-Kr, Xe and Hg in the LRIS arc (held-out), Mg and Fe in ASTM G173.
+Kr, Xe and Hg in the LRIS arc (held-out), Mg in ASTM G173.
 Fe in 1200M4 FeHeAr is no longer listed: its three identified lines (617.23,
 664.37, 686.13 nm) are all Ar II lines (NIST ASD, via PypeIt's Th-Ar list),
 so no identified line shows Fe there.
@@ -140,8 +140,16 @@ def test_known_gaps(name, element):
         # lies 0.07 nm from the blend's forward-modelled position;
         # workbench.matching.absorption) on its strongest feature.
         ("Na", "solar"),
+        # Fe: its lines chain into groups tens of nm long at 2 nm resolution;
+        # inside them, the features the instrument resolves (workbench.
+        # matching.absorption.predicted_features) lie 0.008-0.15 half-windows
+        # from the dips at 374.4, 438.7 and 527.0 nm: data test p 0.030.
+        ("Fe", "solar"),
+        # Mg: one counted group found of two (the b blend; 880.68 nm, at the
+        # limit, is missed), the dip 0.21 nm from the blend's forward-modelled
+        # minimum: data test p 0.146. Its 383 nm triplet is not in the
+        # shipped optical set.
         pytest.param("Mg", "solar", marks=pytest.mark.xfail(strict=True, reason="known gap")),
-        pytest.param("Fe", "solar", marks=pytest.mark.xfail(strict=True, reason="known gap")),
     ],
 )
 def test_astm_fraunhofer_elements_at_least_probable(element, prior):
@@ -180,7 +188,7 @@ def test_astm_solar_prior_makes_no_call_on_its_own():
     # at 16.6 eV and above; NIST ASD Ne I levels, from memory).
     # The data test of a prior-favoured absorber is the binomial chance test
     # with the usable dip density, combined with the closeness of its dips to
-    # the forward-modelled blend positions (scoring.absorption_prior_test).
+    # its forward-modelled features (scoring.absorption_prior_test).
     _, outcome = _run("ASTMG173", "solar")
     high = {e["species"]: e for e in outcome.report["elements"] if e["verdict_level"] >= 2}
     assert "Ne I" not in high
@@ -188,7 +196,7 @@ def test_astm_solar_prior_makes_no_call_on_its_own():
     data_p = {ev.label: ev.groups["prior_test_p"] for ev in evidence}
     for sp in high:
         assert data_p[sp] <= 0.05, (sp, data_p[sp])
-    assert {"H I", "Ca II", "Na I"} <= set(high)  # the data-supported calls stay
+    assert {"H I", "Ca II", "Na I", "Fe I"} <= set(high)  # the data-supported calls
 
 
 def test_astm_prior_data_test_is_in_the_result():

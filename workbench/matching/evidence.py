@@ -61,7 +61,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from workbench.matching.absorption import blend_closeness_terms, usable_density
+from workbench.matching.absorption import (
+    blend_closeness_terms,
+    instrument_fwhm,
+    species_features,
+    usable_density,
+)
 from workbench.matching.candidates import CandidatePairs
 from workbench.matching.layout import pass_layout
 from workbench.matching.priors import prior_dex
@@ -636,6 +641,12 @@ def gather_evidence(
         prior_test["p_line_usable"] = np.minimum(
             1.0, np.maximum(rho_u, rho_all) * (2.0 * g_tol + g_span)
         )
+        usable_dips = ~obs.excluded if obs.excluded is not None else np.ones(n_obs, dtype=bool)
+        fwhm = instrument_fwhm(res, usable_dips)
+        # Chains: groups longer than a resolution element (their windows).
+        chain = g_span > np.interp(g_pos, obs.position, res)
+        chain_lo = index.position[usable_idx[first_i]] - g_tol
+        chain_hi = chain_lo + g_span + 2.0 * g_tol
 
     # 3. The evidence of each species.
     evidence: dict[int, SpeciesEvidence] = {}
@@ -695,6 +706,22 @@ def gather_evidence(
         ev.n_strong_in_range = int(n_strong_cum[gb] - n_strong_cum[ga])
         ev.missing_evidence = bool(with_int)
         ev.prior_dex = prior_dex(abundance_prior, ev.element)
+        if prior_test is not None and ev.prior_dex > 0.0 and np.any(chain[sl]):
+            # A prior-named absorber whose groups chain beyond a resolution
+            # element: its features as the instrument sees them
+            # (absorption.species_features; its data test, scoring).
+            la_u, lb_u = np.searchsorted(gid, [ga, gb])
+            ev.groups["features"] = species_features(
+                obs,
+                index.position[usable_idx[la_u:lb_u]],
+                u_e[la_u:lb_u],
+                fwhm=fwhm,
+                scale=scale if with_int else None,
+                response=(g_pos[sl], g_resp[sl]),
+                strong_fraction=strong_fraction,
+                density=rho_u,
+                chains=(chain_lo[sl][chain[sl]], chain_hi[sl][chain[sl]]),
+            )
         line_unique = f_unique[la:lb]
         lines = f_lines[la:lb]
         ev.found_lines = f_lines_list[la:lb]

@@ -122,6 +122,7 @@ from typing import Any
 import numpy as np
 from scipy import special
 
+from workbench.matching.absorption import feature_test
 from workbench.matching.chance import (
     CLOSENESS_FLOOR,
     closeness_probability,
@@ -440,26 +441,61 @@ def absorption_prior_test(g: dict[str, Any], nset: np.ndarray, found: np.ndarray
     float
         The probability in (0, 1].
     """
+    centre = g.get("offset_centre")
+    centre_u = float(centre) if centre is not None else 0.0
     k = int(np.sum(nset & found))
     n = int(np.sum(nset))
     if k == 0:
         return 1.0
     p = float(special.betainc(k, n - k + 1, float(np.mean(g["p_line_usable"][nset]))))
     hit = nset & found
-    centre = g.get("offset_centre")
-    c = closeness_probability(
-        g["offset_u"][hit],
-        g["offset_window_u"][hit],
-        g["offset_lines"][hit],
-        centre_u=float(centre) if centre is not None else 0.0,
-        blend=tuple(g[key][hit] for key in _BLEND_KEYS),
+    features = g.get("features")
+    if features is None:
+        c = closeness_probability(
+            g["offset_u"][hit],
+            g["offset_window_u"][hit],
+            g["offset_lines"][hit],
+            centre_u=centre_u,
+            blend=tuple(g[key][hit] for key in _BLEND_KEYS),
+        )
+        return fisher_combined([p, c])
+    # A prior-named species (absorption.species_features): closeness to each
+    # unresolved group's blend dip, and inside groups that chain beyond a
+    # resolution element, to the features the instrument resolves there.
+    one = hit & np.isfinite(g["blend_u"])
+    c_groups = closeness_probability(
+        g["offset_u"][one],
+        g["offset_window_u"][one],
+        g["offset_lines"][one],
+        centre_u=centre_u,
+        blend=tuple(g[key][one] for key in _BLEND_KEYS),
     )
-    return fisher_combined([p, c])
+    own = g["found"] & ~g["explained"]
+    t = feature_test(
+        features,
+        centre_u,
+        unique_dips=g["peak"][own & g["unique"]],
+        explained_dips=np.setdiff1d(g["peak"][g["found"] & g["explained"]], g["peak"][own]),
+    )
+    g["feature_counts"] = (t["k"], t["unique"])
+    g["feature_test"] = t
+    parts = [p] + ([c_groups] if np.any(one) else []) + ([t["closeness"]] if t["k"] else [])
+    return fisher_combined(parts)
 
 
 def _main_feature_counted(ev: SpeciesEvidence) -> bool:
-    """Absorption: the species' strongest predicted group is found, unique and counted."""
+    """Absorption: the species' strongest predicted group is found, unique and counted.
+
+    Or, inside groups that chain beyond a resolution element, two resolved
+    features are found at distinct dips, one of them unique.
+    """
     g = ev.groups
+    if g.get("features") is not None:
+        # Inside chains, the features the instrument resolves
+        # (absorption.feature_test): two found at distinct dips, one unique.
+        k_f, unique_f = g.get("feature_counts", (0, 0))
+        if k_f >= 2 and unique_f >= 1:
+            return True
     if not g.get("absorption") or ev.n_unique_peaks < 1:
         return False
     known_pred = np.where(g["known"], g["predicted"], -np.inf)
