@@ -63,12 +63,14 @@ import numpy as np
 __all__ = [
     "XRAY_OUTSIDE_PROBABILITY",
     "XRAY_POSSIBLE_DEX",
+    "XRAY_SHARE_SIGMA",
     "XRAY_SOLE_DEX",
     "XRAY_SOLE_SNR",
     "xray_agreement",
     "xray_level",
     "xray_main_found_and_sole",
     "xray_missing_penalty_dex",
+    "xray_share_sole",
 ]
 
 #: X-ray "possible" floor: net evidence for, not against (common practice, no source).
@@ -86,6 +88,14 @@ XRAY_SOLE_DEX: float = float(-np.log10(XRAY_OUTSIDE_PROBABILITY))
 #: sole explanation needs: 5σ, the usual discovery threshold for a peak that
 #: is surely not noise (common practice, no source).
 XRAY_SOLE_SNR: float = 10.0
+#: Significance a family's fitted share of a blend needs to be the sole
+#: explanation of that share (module docstring, "shared peak"): its amplitude
+#: over a 1σ that holds the pattern and line-shape errors besides the counts,
+#: the smaller on two readings of the energy scale. 5σ, the discovery
+#: standard where the systematic errors are in the budget (common practice,
+#: no source); the modelled mismatches of an absent family's partner
+#: (tests/xray/test_share.py) reached 2.8σ.
+XRAY_SHARE_SIGMA: float = 5.0
 
 
 def _mixture_lr_dex(z: np.ndarray, sigma: np.ndarray, width: np.ndarray, eps: float) -> np.ndarray:
@@ -206,7 +216,51 @@ def xray_main_found_and_sole(g: dict[str, Any], use: np.ndarray) -> tuple[bool, 
         and abs(g["delta"][main]) <= 2.0 * g["sigma_pos"][main]
         and g["snr"][main] >= XRAY_SOLE_SNR
     )
+    # A shared peak: the spectrum fit's share test (xray_share_sole) set it.
+    sole = sole or (main_found and bool(g.get("share_sole", False)))
     return main_found, sole
+
+
+def xray_share_sole(
+    z: float,
+    z_counting: float,
+    *,
+    position_agrees: bool,
+    alternatives_needed: int,
+    channels_intact: bool,
+) -> bool:
+    """Whether a family's fitted share of a shared peak is its sole explanation.
+
+    The "shared peak" rule of the module docstring, on the figures of
+    :func:`workbench.xray.overlap.share_test`.
+
+    Parameters
+    ----------
+    z : float
+        The share's amplitude over its 1σ with counting, pattern and shape
+        errors, the smaller on the two readings of the energy scale.
+    z_counting : float
+        The share's amplitude over its counting 1σ alone.
+    position_agrees : bool
+        The best common offset of the lines lies inside the profiled range.
+    alternatives_needed : int
+        Families of the fit other than this one and those that took its peak
+        that the fit needs.
+    channels_intact : bool
+        No channel within half a FWHM of the main line was left out of the
+        fit for an artefact.
+
+    Returns
+    -------
+    bool
+    """
+    return bool(
+        z >= XRAY_SHARE_SIGMA
+        and z_counting >= XRAY_SOLE_SNR
+        and position_agrees
+        and alternatives_needed == 0
+        and channels_intact
+    )
 
 
 def xray_level(
