@@ -19,7 +19,11 @@ peak), its net evidence is at least −log10 Φ(−z) (the chance that the count
 would need it this much were it absent), and it is re-evaluated; when it is
 not needed, the explanation stands. Either way the decision, with the
 settling lines, is recorded for the interference warning
-(:func:`annotate_warnings`).
+(:func:`annotate_warnings`). A settled family whose main line a better
+family took is then asked the "shared peak" question of
+:mod:`workbench.matching.xray_scoring` (:func:`_share_sole`: is its share
+surely real and is it the only plausible source of it); the answer, in its
+group arrays (``share_sole``), can make it a sole explanation.
 """
 
 from __future__ import annotations
@@ -258,8 +262,10 @@ def _share_sole(
 
     The fit that settled it is repeated with every family that has a strong
     line (≥ 0.1 of its strongest) within one FWHM of its main line added
-    (the alternatives that could take its share), on two readings of the
-    energy scale (:func:`workbench.xray.overlap.share_test`).
+    (the rivals that could take its share), on two readings of the energy
+    scale (:func:`workbench.xray.overlap.share_test`); a rival other than the
+    partners that took the peak must not be needed. Families fitted for
+    their own peaks elsewhere in the window are no rivals.
     """
     from workbench.matching.xray_scoring import xray_share_sole
     from workbench.xray.detector import fwhm_eV
@@ -269,11 +275,13 @@ def _share_sole(
     main_eV = float(e[int(np.argmax(r))])
     width = float(fwhm_eV(main_eV, instrument))
     fams = dict(fams)
+    rivals = set()  # families that could take the share: a strong line near the main line
     for other, (oe, orr) in patterns.items():
-        if other not in fams and oe.size:
+        if other != label and oe.size:
             strong = oe[orr >= 0.1 * orr.max()]
             if np.any(np.abs(strong - main_eV) <= width):
-                fams[other] = (oe, orr)
+                fams.setdefault(other, (oe, orr))
+                rivals.add(other)
     x, net, base = spectrum
     test = share_test(x, net, fams, instrument, label, background=base)
     near = np.abs(x_all - main_eV) <= 0.5 * width
@@ -282,7 +290,7 @@ def _share_sole(
         test.z,
         test.z_counting,
         position_agrees=test.offset_free,
-        alternatives_needed=len(set(test.needed) - {label, *partners}),
+        alternatives_needed=len((set(test.needed) & rivals) - set(partners)),
         channels_intact=bool(near.any() and int(np.sum(kept)) == int(np.sum(near))),
     )
 
