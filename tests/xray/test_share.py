@@ -84,13 +84,9 @@ def _synthetic(
     return x, y - bg, bg, inst
 
 
-def _sole(test, partners=("Pb M",)):
+def _sole(test):
     return xray_share_sole(
-        test.z,
-        test.z_counting,
-        position_agrees=test.offset_free,
-        alternatives_needed=len(set(test.needed) - {test.family, *partners}),
-        channels_intact=True,
+        test.z, test.z_counting, position_agrees=test.offset_free, channels_intact=True
     )
 
 
@@ -132,12 +128,11 @@ def test_scale_error_fools_the_fixed_energy_fit_but_not_the_share_test(patterns)
 
 
 def test_each_condition_of_the_rule_can_refuse():
-    ok = {"position_agrees": True, "alternatives_needed": 0, "channels_intact": True}
+    ok = {"position_agrees": True, "channels_intact": True}
     assert xray_share_sole(6.0, 40.0, **ok)
     assert not xray_share_sole(4.9, 40.0, **ok)  # within its systematic errors
     assert not xray_share_sole(6.0, 9.0, **ok)  # under 10σ on counts alone
     assert not xray_share_sole(6.0, 40.0, **(ok | {"position_agrees": False}))
-    assert not xray_share_sole(6.0, 40.0, **(ok | {"alternatives_needed": 1}))
     assert not xray_share_sole(6.0, 40.0, **(ok | {"channels_intact": False}))
 
 

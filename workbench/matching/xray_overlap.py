@@ -231,7 +231,6 @@ def settle_overlaps(
                     ev.label,
                     fams,
                     patterns,
-                    partners[ev.label],
                     (x, net, base),
                     x_all,
                     instrument,
@@ -253,7 +252,6 @@ def _share_sole(
     label: str,
     fams: dict[str, tuple[np.ndarray, np.ndarray]],
     patterns: dict[str, tuple[np.ndarray, np.ndarray]],
-    partners: list[str],
     spectrum: tuple[np.ndarray, np.ndarray, np.ndarray],
     x_all: np.ndarray,
     instrument: Any,
@@ -263,9 +261,7 @@ def _share_sole(
     The fit that settled it is repeated with every family that has a strong
     line (≥ 0.1 of its strongest) within one FWHM of its main line added
     (the rivals that could take its share), on two readings of the energy
-    scale (:func:`workbench.xray.overlap.share_test`); a rival other than the
-    partners that took the peak must not be needed. Families fitted for
-    their own peaks elsewhere in the window are no rivals.
+    scale (:func:`workbench.xray.overlap.share_test`).
     """
     from workbench.matching.xray_scoring import xray_share_sole
     from workbench.xray.detector import fwhm_eV
@@ -275,13 +271,12 @@ def _share_sole(
     main_eV = float(e[int(np.argmax(r))])
     width = float(fwhm_eV(main_eV, instrument))
     fams = dict(fams)
-    rivals = set()  # families that could take the share: a strong line near the main line
     for other, (oe, orr) in patterns.items():
-        if other != label and oe.size:
+        # Rivals that could take the share: a strong line near the main line.
+        if other not in fams and oe.size:
             strong = oe[orr >= 0.1 * orr.max()]
             if np.any(np.abs(strong - main_eV) <= width):
-                fams.setdefault(other, (oe, orr))
-                rivals.add(other)
+                fams[other] = (oe, orr)
     x, net, base = spectrum
     test = share_test(x, net, fams, instrument, label, background=base)
     near = np.abs(x_all - main_eV) <= 0.5 * width
@@ -290,7 +285,6 @@ def _share_sole(
         test.z,
         test.z_counting,
         position_agrees=test.offset_free,
-        alternatives_needed=len((set(test.needed) & rivals) - set(partners)),
         channels_intact=bool(near.any() and int(np.sum(kept)) == int(np.sum(near))),
     )
 

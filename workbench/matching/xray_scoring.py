@@ -80,9 +80,12 @@ is a sole explanation when (:func:`xray_share_sole`, figures from
   family that has a line (≥ 0.1 of its strongest) within one FWHM of the main
   line (its rivals), observed on the channels within a FWHM of every line
   ≥ 1 % of its family's strongest (a rival is refuted by its weaker lines,
-  Mo Lℓ for Mo L against S K), and no rival but the partners that took the
-  peak may be needed (a family fitted for its own peak elsewhere in the
-  window is no rival);
+  Mo Lℓ for Mo L against S K). The significance above is the one with every
+  rival free in the fit: a rival that could take the share shares its
+  covariance and lowers it (S K against Mo L alone, on the channels of
+  lines ≥ 0.1 only, 2.7σ; with Mo Lℓ's channels, 8σ). A rival needed for
+  its own reasons (Th M, fitted to structure near 3 keV, in the GSR fit)
+  does not refuse the share; its part of the peak is already taken out;
 * no channel within half a FWHM of the main line was dropped as an artefact's
   (escape, sum, scatter): the share is measured, not inferred from the
   family's weaker lines.
@@ -273,7 +276,6 @@ def xray_share_sole(
     z_counting: float,
     *,
     position_agrees: bool,
-    alternatives_needed: int,
     channels_intact: bool,
 ) -> bool:
     """Whether a family's fitted share of a shared peak is its sole explanation.
@@ -285,14 +287,12 @@ def xray_share_sole(
     ----------
     z : float
         The share's amplitude over its 1σ with counting, pattern and shape
-        errors, the smaller on the two readings of the energy scale.
+        errors, the smaller on the two readings of the energy scale, every
+        rival fitted too.
     z_counting : float
         The share's amplitude over its counting 1σ alone.
     position_agrees : bool
         The best common offset of the lines lies inside the profiled range.
-    alternatives_needed : int
-        Families of the fit other than this one and those that took its peak
-        that the fit needs.
     channels_intact : bool
         No channel within half a FWHM of the main line was left out of the
         fit for an artefact.
@@ -305,7 +305,6 @@ def xray_share_sole(
         z >= XRAY_SHARE_SIGMA
         and z_counting >= XRAY_SOLE_SNR
         and position_agrees
-        and alternatives_needed == 0
         and channels_intact
     )
 
