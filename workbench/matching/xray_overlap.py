@@ -19,7 +19,11 @@ peak), its net evidence is at least −log10 Φ(−z) (the chance that the count
 would need it this much were it absent), and it is re-evaluated; when it is
 not needed, the explanation stands. Either way the decision, with the
 settling lines, is recorded for the interference warning
-(:func:`annotate_warnings`).
+(:func:`annotate_warnings`). A settled family whose main line a better
+family took is then asked the "shared peak" question of
+:mod:`workbench.matching.xray_scoring` (:func:`_share_sole`: is its share
+surely real and is it the only plausible source of it); the answer, in its
+group arrays (``share_sole``), can make it a sole explanation.
 """
 
 from __future__ import annotations
@@ -104,6 +108,7 @@ def settle_overlaps(
     if not obs.detection_limit or obs.position.size == 0:
         return []
     x, net, base = spectrum
+    x_all = np.asarray(x, dtype=np.float64)
     if artefacts_eV is not None and np.size(artefacts_eV):
         a = np.asarray(artefacts_eV, dtype=np.float64)
         near = np.min(np.abs(x[:, None] - a[None, :]), axis=1)
@@ -198,9 +203,9 @@ def settle_overlaps(
         dec = decide_overlap_spectrum(
             x, net, fams, instrument, background=base, relative_patterns=ev.label in taken
         )
-        fits.append((ev, dec))
+        fits.append((ev, dec, fams))
     n_fits = len(fits)
-    for ev, dec in fits:
+    for ev, dec, fams in fits:
         involved = (ev.label, *partners[ev.label])
         z = {d.family: d.amplitude / d.uncertainty if d.uncertainty > 0 else np.inf for d in dec}
         # Šidák-corrected chance, in decades, that the counts would need each
@@ -221,6 +226,15 @@ def settle_overlaps(
         if rec[ev.label]["needed"] and all(rec[o]["needed"] for o in ev.explained_by if o in rec):
             ev.overlap_floor_dex = min(dex[ev.label], 30.0)
             g = ev.groups
+            if ev.label in taken:
+                g["share_sole"] = _share_sole(
+                    ev.label,
+                    fams,
+                    patterns,
+                    (x, net, base),
+                    x_all,
+                    instrument,
+                )
             g["explained"] = np.zeros_like(g["explained"])
             g["unique"] = g["unique"] | g["found"]
             ev.explained_by = []
@@ -232,6 +246,47 @@ def settle_overlaps(
                 strong_fraction=strong_fraction,
             )
     return out
+
+
+def _share_sole(
+    label: str,
+    fams: dict[str, tuple[np.ndarray, np.ndarray]],
+    patterns: dict[str, tuple[np.ndarray, np.ndarray]],
+    spectrum: tuple[np.ndarray, np.ndarray, np.ndarray],
+    x_all: np.ndarray,
+    instrument: Any,
+) -> bool:
+    """The "shared peak" rule (:mod:`workbench.matching.xray_scoring`) for a settled family.
+
+    The fit that settled it is repeated with every family that has a strong
+    line (≥ 0.1 of its strongest) within one FWHM of its main line added
+    (the rivals that could take its share), on two readings of the energy
+    scale (:func:`workbench.xray.overlap.share_test`).
+    """
+    from workbench.matching.xray_scoring import xray_share_sole
+    from workbench.xray.detector import fwhm_eV
+    from workbench.xray.overlap import share_test
+
+    e, r = fams[label]
+    main_eV = float(e[int(np.argmax(r))])
+    width = float(fwhm_eV(main_eV, instrument))
+    fams = dict(fams)
+    for other, (oe, orr) in patterns.items():
+        # Rivals that could take the share: a strong line near the main line.
+        if other not in fams and oe.size:
+            strong = oe[orr >= 0.1 * orr.max()]
+            if np.any(np.abs(strong - main_eV) <= width):
+                fams[other] = (oe, orr)
+    x, net, base = spectrum
+    test = share_test(x, net, fams, instrument, label, background=base)
+    near = np.abs(x_all - main_eV) <= 0.5 * width
+    kept = np.abs(x - main_eV) <= 0.5 * width
+    return xray_share_sole(
+        test.z,
+        test.z_counting,
+        position_agrees=test.offset_free,
+        channels_intact=bool(near.any() and int(np.sum(kept)) == int(np.sum(near))),
+    )
 
 
 def annotate_warnings(warnings: list[dict[str, Any]], decisions: list[dict[str, Any]]) -> None:

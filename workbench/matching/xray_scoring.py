@@ -48,6 +48,55 @@ correction, which asks whether some species would fit a chance peak, does
 not apply to it; what remains is that the family's other lines and its
 element's other families agree, which "probable" on the net evidence says.
 
+Shared peak. The sole-explanation rule cannot fire for a main line that
+shares an unresolved peak with another family's (S Kα 2308 eV under Pb Mα
+2346 eV: "unique" fails by construction), although the spectrum fit of
+:mod:`workbench.matching.xray_overlap` may show that the family's own part of
+the peak is surely there. The question is the same — is *this family's share*
+surely real, and is this family the only plausible source of it — asked of
+the fitted share instead of the peak. A family whose main group a better
+family took, and which that fit settled (needed, the partners needed too),
+is a sole explanation when (:func:`xray_share_sole`, figures from
+:func:`workbench.xray.overlap.share_test`):
+
+* its share is significant against every modelled error: fitted amplitude
+  ≥ :data:`XRAY_SHARE_SIGMA` (5) × its 1σ from the fit's covariance with
+  Poisson weights *and* the 25 % pattern and 5 % line-shape errors
+  (:mod:`workbench.xray.overlap`). Those errors are there so that a family
+  cannot be fitted to absorb the partner's mis-tabulated ratios or its
+  not-quite-Gaussian shape; 5σ with them in the budget is the discovery
+  standard. The counting noise alone is not the limit (S K at 50–130σ on
+  counts): the systematic terms are, so the classical 10σ on counts
+  (:data:`XRAY_SOLE_SNR`) is asked of the share too, and is easily met;
+* on two readings of the energy scale: the lines at their tabulated
+  energies, and all moved by the common offset (±20 eV, what the scale check
+  leaves uncorrected) that fits best; the smaller significance counts. A
+  share 38 eV from a strong line mimics that line moved or broadened: a
+  sulfur-free Pb M spectrum whose scale reads 20 eV low needs S K at 6–8σ at
+  the tabulated energies (0σ once moved), one 10 % broader than the
+  instrument's FWHM at up to 4σ once moved (2σ fixed). The best offset must
+  lie inside the range (the lines' positions agree with the spectrum);
+* no other family could take the share: the fit is repeated with every
+  family that has a line (≥ 0.1 of its strongest) within one FWHM of the main
+  line (its rivals), observed on the channels within a FWHM of every line
+  ≥ 1 % of its family's strongest (a rival is refuted by its weaker lines,
+  Mo Lℓ for Mo L against S K). The significance above is the one with every
+  rival free in the fit: a rival that could take the share shares its
+  covariance and lowers it (S K against Mo L alone, on the channels of
+  lines ≥ 0.1 only, 2.7σ; with Mo Lℓ's channels, 8σ). A rival needed for
+  its own reasons (Th M, fitted to structure near 3 keV, in the GSR fit)
+  does not refuse the share; its part of the peak is already taken out;
+* no channel within half a FWHM of the main line was dropped as an artefact's
+  (escape, sum, scatter): the share is measured, not inferred from the
+  family's weaker lines.
+
+Then, like the classical rule, "probable" on the net evidence (the fit
+floors it at −log10 of its corrected chance) becomes "established". An absent
+family fitted at zero, or within its errors, is never a sole explanation;
+nor is one that the partner's modelled mismatches could make (worst 1.9σ in
+tests/xray/test_share.py). At FWHM 180 eV S Kα is 0.4 FWHM from Pb Mα; the
+share is 2.5–9σ there, by seed and by which rivals the fit holds.
+
 
 Missing groups on the energy axis cost the sum of their single-line terms
 log10 P(not seen | present) (:func:`xray_missing_penalty_dex`), plus the
@@ -63,12 +112,14 @@ import numpy as np
 __all__ = [
     "XRAY_OUTSIDE_PROBABILITY",
     "XRAY_POSSIBLE_DEX",
+    "XRAY_SHARE_SIGMA",
     "XRAY_SOLE_DEX",
     "XRAY_SOLE_SNR",
     "xray_agreement",
     "xray_level",
     "xray_main_found_and_sole",
     "xray_missing_penalty_dex",
+    "xray_share_sole",
 ]
 
 #: X-ray "possible" floor: net evidence for, not against (common practice, no source).
@@ -86,6 +137,15 @@ XRAY_SOLE_DEX: float = float(-np.log10(XRAY_OUTSIDE_PROBABILITY))
 #: sole explanation needs: 5σ, the usual discovery threshold for a peak that
 #: is surely not noise (common practice, no source).
 XRAY_SOLE_SNR: float = 10.0
+#: Significance a family's fitted share of a blend needs to be the sole
+#: explanation of that share (module docstring, "shared peak"): its amplitude
+#: over a 1σ that holds the pattern and line-shape errors besides the counts,
+#: the smaller on two readings of the energy scale. 5σ, the discovery
+#: standard where the systematic errors are in the budget (common practice,
+#: no source); the modelled mismatches of an absent family's partner
+#: (tests/xray/test_share.py: scale 20 eV off, FWHM 10 % off, 5–10 % tails)
+#: reached 1.9σ; S K beside Pb M in gunshot residue at FWHM 130 eV, 8σ.
+XRAY_SHARE_SIGMA: float = 5.0
 
 
 def _mixture_lr_dex(z: np.ndarray, sigma: np.ndarray, width: np.ndarray, eps: float) -> np.ndarray:
@@ -206,7 +266,47 @@ def xray_main_found_and_sole(g: dict[str, Any], use: np.ndarray) -> tuple[bool, 
         and abs(g["delta"][main]) <= 2.0 * g["sigma_pos"][main]
         and g["snr"][main] >= XRAY_SOLE_SNR
     )
+    # A shared peak: the spectrum fit's share test (xray_share_sole) set it.
+    sole = sole or (main_found and bool(g.get("share_sole", False)))
     return main_found, sole
+
+
+def xray_share_sole(
+    z: float,
+    z_counting: float,
+    *,
+    position_agrees: bool,
+    channels_intact: bool,
+) -> bool:
+    """Whether a family's fitted share of a shared peak is its sole explanation.
+
+    The "shared peak" rule of the module docstring, on the figures of
+    :func:`workbench.xray.overlap.share_test`.
+
+    Parameters
+    ----------
+    z : float
+        The share's amplitude over its 1σ with counting, pattern and shape
+        errors, the smaller on the two readings of the energy scale, every
+        rival fitted too.
+    z_counting : float
+        The share's amplitude over its counting 1σ alone.
+    position_agrees : bool
+        The best common offset of the lines lies inside the profiled range.
+    channels_intact : bool
+        No channel within half a FWHM of the main line was left out of the
+        fit for an artefact.
+
+    Returns
+    -------
+    bool
+    """
+    return bool(
+        z >= XRAY_SHARE_SIGMA
+        and z_counting >= XRAY_SOLE_SNR
+        and position_agrees
+        and channels_intact
+    )
 
 
 def xray_level(
