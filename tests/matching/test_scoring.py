@@ -76,6 +76,19 @@ def test_sole_explanation_needs_a_ten_sigma_peak(snr, sole):
     )
 
 
+@pytest.mark.parametrize(("significance", "sole"), [(9.0, False), (12.0, True)])
+def test_sole_explanation_reads_the_counting_significance(significance, sole):
+    # Height over the median peak noise 6 (a weak peak among strong ones),
+    # its own counting significance N/√(N + 2B) beside it: the rule reads the
+    # latter (workbench.matching.xray_scoring._sole; threshold 10 there).
+    g = _groups([0.0], inten=[100.0], predicted=[100.0], snr=[6.0])
+    g["significance"] = np.array([significance])
+    base = float(np.log10(0.8 * 180.0 / (12.0 * np.sqrt(2 * np.pi)) + 0.2))  # δ = 0
+    assert xray_agreement(g, np.array([True]), loss_probability=LOSS_PROBABILITY) == pytest.approx(
+        base + sole * XRAY_SOLE_DEX
+    )
+
+
 def test_ideal_cu_k_is_probable_and_nothing_else_is():
     # Cu Kα1/Kα2 8048/8028 eV and Kβ1 8905 eV (Elam, the shipped set); heights
     # in the Elam ratio Kβ/Kα ≈ 0.13 (relative intensities of the set).

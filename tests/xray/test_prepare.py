@@ -185,3 +185,65 @@ def test_no_scale_correction_on_a_true_scale(case, fwhm):
     _, prep = prepare_energy_peaks(_peaks(case, inst), inst, _reference())
     assert not prep.scale.applied
     assert not any(name.endswith(" M") or " M " in name for name in prep.scale.lines)
+
+
+def _gauss_counts(grid, centre, n, fwhm):
+    """Counts per 10 eV channel of a Gaussian line of n counts (analytic, no noise)."""
+    sg = fwhm / 2.3548
+    return n * 10.0 * np.exp(-0.5 * ((grid - centre) / sg) ** 2) / (sg * np.sqrt(2 * np.pi))
+
+
+def test_window_significance_of_a_line_a_spike_and_a_valley():
+    from workbench.xray.prepare import _window_significance
+
+    grid = np.arange(10000.0, 24000.0, 10.0)
+    fwhm = 200.0
+    flat = np.full(grid.size, 60.0)
+    # A line of 1000 counts on 60 counts per channel: the centre (±1.177σ)
+    # holds 76.1 % of it, the flanks (to ±2.355σ) 22.0 % (normal integrals),
+    # so T = 541 counts; C + F = 0.981·1000 + 60·40 channels (hand-computed).
+    line = flat + _gauss_counts(grid, 17700.0, 1000.0, fwhm)
+    # A one-channel spike of 60 counts: T = 60 over the same 2400 counts.
+    spike = flat.copy()
+    spike[np.searchsorted(grid, 17700.0)] += 60.0
+    # Halfway between two strong lines 800 eV apart: the counts curve upwards.
+    valley = flat + sum(_gauss_counts(grid, c, 20000.0, fwhm) for c in (17300.0, 18100.0))
+    x = np.array([17700.0])
+    w = np.array([fwhm])
+    s_line = _window_significance({"spectrum": (grid, line)}, x, w)[0]
+    # Channel sums instead of integrals (21 centre, 20 flank channels of
+    # 10 eV, flanks scaled by 21/20): within a few per cent.
+    assert s_line == pytest.approx(541.0 / np.sqrt(981.0 + 2400.0), rel=0.05)
+    assert _window_significance({"spectrum": (grid, spike)}, x, w)[0] == pytest.approx(
+        60.0 / np.sqrt(2460.0), rel=0.05
+    )
+    assert _window_significance({"spectrum": (grid, valley)}, x, w)[0] < 0.0
+    assert _window_significance({}, x, w) is None
+
+
+def test_narrow_maximum_kept_when_the_counts_show_a_line():
+    # The Zr Kβ case: a 10σ line whose width noise made the peak finder
+    # measure at 31 eV against a 212 eV response (soil, 130 eV, seed
+    # 20261202); with the spectrum at hand the counts decide, without it
+    # the width rule stands (invented spectrum, analytic line shape).
+    inst = instrument(130.0)
+    from workbench.xray.detector import fwhm_eV
+
+    grid = np.arange(1000.0, 25000.0, 10.0)
+    w = float(fwhm_eV(np.array([17700.0]), inst)[0])
+    y = np.full(grid.size, 64.0) + _gauss_counts(grid, 6403.8, 2e5, 140.0)
+    y += _gauss_counts(grid, 17700.0, 1000.0, w)
+    table = pl.DataFrame(
+        {
+            "energy_eV": [6403.8, 12000.0, 17700.0],
+            "intensity": [float(np.max(y) - 64.0), 40.0, 45.0],
+            "fwhm_eV": [140.0, 20.0, 31.0],  # 12000 eV: a spike (no line there)
+        }
+    )
+    extra = {"x_range": (1000.0, 24990.0), "baseline": np.full(grid.size, 64.0)}
+    with_sp = PeakList(table, "energy", None, extra=extra | {"spectrum": (grid, y)})
+    without = PeakList(table, "energy", None, extra=dict(extra))
+    out, _ = prepare_energy_peaks(with_sp, inst)
+    assert out.positions.tolist() == pytest.approx([6403.8, 17700.0])
+    out, _ = prepare_energy_peaks(without, inst)
+    assert out.positions.tolist() == pytest.approx([6403.8])

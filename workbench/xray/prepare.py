@@ -6,6 +6,14 @@ and returns
 * the peaks that may be evidence for an element: artefact peaks (tube
   scatter, escape, pile-up sum, argon in air) that do not clearly exceed
   their prediction are taken out, and those that do keep only the excess;
+  maxima that counting statistics cannot support are dropped, and each
+  kept peak's ``snr`` is its counting significance N/√(N + 2B) from its own
+  net and baseline counts (:func:`_not_significant`). A maximum measured
+  much narrower than the detector response is taken for a counting spike
+  unless the spectrum's own counts around it show a line
+  (:func:`_window_significance`: a top-hat comparison of the counts within
+  half a FWHM with those of the flanks, in which any locally linear
+  background cancels);
 * the detector FWHM at each peak in the ``fwhm_eV`` column, so that the
   engine's default window (half the FWHM) follows the detector resolution
   instead of a fixed 50 eV (the measured width is kept as
@@ -215,6 +223,51 @@ MIN_COUNTING_SIGMA: float = 3.0
 SPIKE_WIDTH_FRACTION: float = 0.25
 
 
+def _window_significance(extra: dict, x: np.ndarray, fwhm: np.ndarray) -> np.ndarray | None:
+    """Counting significance of a line at each position from the spectrum's raw counts.
+
+    A top-hat comparison of the counts C within half a detector FWHM of the
+    position with the counts F in the two flanks from half a FWHM to one
+    FWHM on either side (together as wide as the centre): T = C − F. Any
+    background that is linear over the window (the continuum, the wing of a
+    neighbouring line) puts the same counts in both and cancels; a Gaussian
+    line of N counts puts 76.1 % of them in the centre and 22.0 % in the
+    flanks (±1.177σ and ±2.355σ: normal-distribution integrals), so
+    T = 0.541·N; a counting spike adds the counts of a channel or two; a
+    noise maximum in the valley between two lines sits where the counts
+    curve upwards, so T ≤ 0 there. C and F are Poisson counts, so
+    Var(T) = C + F and the significance is T/√(C + F), from the spectrum
+    alone (no baseline). On the channel grid the flanks are scaled by
+    r = n_C/n_F, the ratio of their channel counts, so that a flat
+    background cancels exactly: T = C − r·F, Var(T) = C + r²·F. Needs the
+    spectrum's channels (``extra["spectrum"]``, counts); None without them.
+    """
+    sp = extra.get("spectrum")
+    if sp is None or np.size(sp[0]) < 2 or np.size(sp[0]) != np.size(sp[1]):
+        return None
+    xs = np.asarray(sp[0], dtype=np.float64)
+    y = np.asarray(sp[1], dtype=np.float64)
+    if np.min(y) < 0:
+        return None  # not a spectrum of counts
+    cum = np.concatenate(([0.0], np.cumsum(y)))
+    half = 0.5 * fwhm
+    c_lo = np.searchsorted(xs, x - half, side="left")
+    c_hi = np.searchsorted(xs, x + half, side="right")
+    w_lo = np.searchsorted(xs, x - fwhm, side="left")
+    w_hi = np.searchsorted(xs, x + fwhm, side="right")
+    centre = cum[c_hi] - cum[c_lo]
+    flanks = cum[w_hi] - cum[w_lo] - centre
+    # Channel counts of centre and flanks differ by one or two on a discrete
+    # grid: the flanks are scaled to the centre's width so that a flat
+    # background cancels exactly.
+    n_c = (c_hi - c_lo).astype(np.float64)
+    n_f = (w_hi - w_lo).astype(np.float64) - n_c
+    r = np.where(n_f > 0, n_c / np.maximum(n_f, 1.0), 0.0)
+    var = centre + r * r * flanks
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where((var > 0) & (n_f > 0), (centre - r * flanks) / np.sqrt(var), 0.0)
+
+
 def _not_significant(
     peaks: PeakList, x: np.ndarray, inten: np.ndarray, fwhm: np.ndarray, channel: float
 ) -> tuple[np.ndarray, np.ndarray]:
@@ -245,8 +298,15 @@ def _not_significant(
     # the half-maximum crossings; a real Pb Lℓ peak at SNR 12 measured 98 eV
     # against a 240 eV response): only a maximum under a quarter of the
     # detector FWHM (a few channels, the width of a counting spike) is taken
-    # for a noise spike.
-    drop |= np.isfinite(w_obs) & (w_obs < SPIKE_WIDTH_FRACTION * fwhm)
+    # for a noise spike, and, when the spectrum is at hand, only if the
+    # counts around it do not show a line (:func:`_window_significance`): a
+    # 10σ Zr Kβ on 64 counts per channel measured 31 eV against 212 eV.
+    narrow = np.isfinite(w_obs) & (w_obs < SPIKE_WIDTH_FRACTION * fwhm)
+    if np.any(narrow):
+        s_win = _window_significance(extra, x[narrow], fwhm[narrow])
+        if s_win is not None:
+            narrow[narrow] = s_win < MIN_COUNTING_SIGMA
+    drop |= narrow
     # A line's counts are spread over the detector response whatever width
     # noise made the peak finder measure, so the counts are taken over the
     # detector FWHM (up to the measured width for a broadened peak).
@@ -270,6 +330,32 @@ def _not_significant(
             continue
         kept.append(int(p))
     return drop, sig
+
+
+def _channel_snr(peaks: PeakList, x: np.ndarray, height: np.ndarray) -> np.ndarray:
+    """Height over its own counting noise in one channel, h/√(h + b); NaN without a baseline.
+
+    h is the peak's height above the baseline b (counts per channel, as the
+    peak finder measures both on a raw spectrum of counts). This, not the
+    counting significance of the whole peak, sets how far the maximum of a
+    noisy peak wanders (:func:`workbench.matching.evidence._xray_terms`):
+    the peak finder places a peak at its highest channels, and near the top
+    a Gaussian changes by one channel's noise over ≈ σ·√(2/SNR). A strong
+    peak's height over the median noise of all peaks overstates it: Pb Lα
+    of the GSR case (34,000 counts, 180 eV) has h/√(h + b) ≈ 40, not 200,
+    and its maximum sat 21 eV above the line.
+    """
+    extra = peaks.extra if isinstance(peaks.extra, dict) else {}
+    base, xr = extra.get("baseline"), extra.get("x_range")
+    out = np.full(x.size, np.nan)
+    if base is None or xr is None or np.size(base) < 2 or np.min(base) < 0:
+        return out
+    grid = np.linspace(float(xr[0]), float(xr[1]), np.size(base))
+    b = np.interp(x, grid, np.asarray(base, dtype=np.float64))
+    h = np.nan_to_num(np.asarray(height, dtype=np.float64))
+    ok = h > 0
+    out[ok] = h[ok] / np.sqrt(h[ok] + b[ok])
+    return out
 
 
 def _scale_pairs(
@@ -491,6 +577,7 @@ def prepare_energy_peaks(
     if "snr" in t.columns:
         with np.errstate(divide="ignore", invalid="ignore"):
             new = new.with_columns(pl.Series("snr", np.where(noise > 0, new_i / noise, snr)))
+    new = new.with_columns(pl.Series("snr_channel", _channel_snr(peaks, x, new_i)))
     new = new.filter(pl.Series(~drop))
     extra = dict(peaks.extra) if isinstance(peaks.extra, dict) else {}
     extra["xray_prepared"] = True
