@@ -43,12 +43,12 @@ def test_rows_list_every_artefact_by_energy_with_kind_and_use():
     rows = xv.artefact_rows(_xray())
     assert [round(r["energy_eV"], 1) for r in rows] == [2953.2, 3191.0, 8805.4, 17100.7, 20180.4]
     by_e = {round(r["energy_eV"]): r for r in rows}
-    assert by_e[2953]["kind"] == "Ar K (air)" and by_e[2953]["separated"]
-    assert by_e[3191]["kind"] == "Ar K (air)" and not by_e[3191]["separated"]
-    assert by_e[8805]["kind"] == "escape" and by_e[8805]["expected_counts"] == 329.4
-    assert by_e[17101]["kind"] == "Compton scatter + sum (pile-up)"
+    assert by_e[2953]["kind"] == "argon in air (Ar K)" and by_e[2953]["separated"]
+    assert by_e[3191]["kind"] == "argon in air (Ar K)" and not by_e[3191]["separated"]
+    assert by_e[8805]["kind"] == "escape peak" and by_e[8805]["expected_counts"] == 329.4
+    assert by_e[17101]["kind"] == "tube scatter (Compton) + sum (pile-up) peak"
     assert by_e[17101]["evidence"] == "excess only"  # explained false: the excess stays
-    assert by_e[20180]["kind"] == "Rayleigh scatter" and by_e[20180]["evidence"] == "none"
+    assert by_e[20180]["kind"] == "tube scatter (Rayleigh)" and by_e[20180]["evidence"] == "none"
     assert xv.artefact_rows(None) == [] and xv.artefact_rows({}) == []
 
 
@@ -78,8 +78,8 @@ def test_text_lines_split_labelled_peaks_from_predicted_ones():
         "predicted artefacts with no separate peak (merged with a neighbour or weak):"
     )
     assert head == 0 and tail == 4
-    assert text[1].split() == ["2953", "eV", "Ar", "K", "(air):", "Ar", "Kα", "from", "argon",
-                               "in", "the", "air", "path"]  # fmt: skip
+    assert text[1].split() == ["2953", "eV", "argon", "in", "air", "(Ar", "K):", "Ar", "Kα",
+                               "from", "argon", "in", "the", "air", "path"]  # fmt: skip
     assert "the excess is kept as evidence" in text[2]
     assert text[5].endswith("air path") and text[6].endswith("(about 329 counts expected)")
     assert xv.artefact_text_lines(None) == []

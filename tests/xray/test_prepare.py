@@ -130,18 +130,21 @@ def _sum_artefact(counts_per_channel):
 
 
 @pytest.mark.parametrize(
-    ("height", "listed"),
+    ("height", "listed", "faint"),
     [
         # N = 0.98·1.0645·40·190/10 = 793 counts over ±FWHM on B = 50·2·190/10
         # = 1900 baseline counts: N/√(N + 2B) = 793/√4593 = 11.7 ≥ 3 (the
         # peak finder's own acceptance, prepare._not_significant; hand-computed).
-        (40.0, True),
-        # 2 counts per channel: N = 40, 40/√3840 = 0.6 < 3 (hand-computed):
+        (40.0, True, False),
+        # 8 counts per channel: N = 158.6, 158.6/√3958.6 = 2.52, between 2σ
+        # and 3σ (hand-computed): no peak of its own, listed as faint.
+        (8.0, True, True),
+        # 2 counts per channel: N = 40, 40/√3840 = 0.6 < 2 (hand-computed):
         # not a peak anyone could see, not listed.
-        (2.0, False),
+        (2.0, False, False),
     ],
 )
-def test_artefact_without_peak_listed_when_it_would_be_significant(height, listed):
+def test_artefact_without_peak_listed_when_it_would_be_significant(height, listed, faint):
     from workbench.xray.prepare import _without_peak
 
     empty = pl.DataFrame(schema={"observed_eV": pl.Float64})
@@ -154,9 +157,38 @@ def test_artefact_without_peak_listed_when_it_would_be_significant(height, liste
     )
     assert bool(rows) is listed
     if listed:
-        assert rows[0]["kinds"] == "sum"
+        assert rows[0]["kinds"] == "sum" and rows[0]["faint"] is faint
         # Expected counts: Gaussian area 1.0645·height·FWHM/channel (same formula).
         assert rows[0]["expected_counts"] == pytest.approx(1.0645 * height * 190.0 / 10.0)
+
+
+def test_merged_artefacts_are_listed_as_their_range_not_their_first_member():
+    from workbench.xray.artefacts import Artefact
+    from workbench.xray.prepare import _without_peak
+
+    # A sum peak 90 eV below a (broad, unpredicted) Compton peak: one row
+    # spanning both, placed at the middle, never a faint row (scatter has no
+    # predicted intensity). Energies invented.
+    arts = [
+        Artefact("sum", 19160.0, 40.0, "pile-up sum", 190.0, (0,)),
+        Artefact("compton", 19250.0, None, "Rh Kα2 Compton", 580.0),
+        Artefact("compton", 19447.0, None, "Rh Kα1 Compton", 580.0),
+    ]
+    empty = pl.DataFrame(schema={"observed_eV": pl.Float64})
+    grid = np.linspace(1000.0, 25000.0, 2401)
+    rows = _without_peak(
+        arts,
+        empty,
+        np.array([8632.0]),
+        10.0,
+        100.0,
+        (1000.0, 25000.0),
+        (grid, np.full(grid.size, 50.0)),
+    )
+    assert len(rows) == 1
+    assert rows[0]["energy_range_eV"] == [19160.0, 19447.0]
+    assert rows[0]["energy_eV"] == pytest.approx(0.5 * (19160.0 + 19447.0))
+    assert rows[0]["kinds"] == "compton,sum" and rows[0]["faint"] is False
 
 
 def test_artefact_warning_names_the_kinds_in_an_analysts_words():

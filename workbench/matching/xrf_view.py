@@ -21,8 +21,9 @@ import math
 from collections.abc import Mapping, Sequence
 from typing import Any, TypedDict
 
+from workbench.xray.wording import artefact_kind_label
+
 __all__ = [
-    "ARTEFACT_KINDS",
     "ArtefactMark",
     "ArtefactRow",
     "artefact_kind",
@@ -38,21 +39,12 @@ __all__ = [
     "ruled_out_summary",
 ]
 
-#: Short names of the artefact kinds of ``xray.artefact_peaks[].kinds``, as an
-#: XRF analyst says them (common practice, no source).
-ARTEFACT_KINDS: dict[str, str] = {
-    "escape": "escape",
-    "sum": "sum (pile-up)",
-    "rayleigh": "Rayleigh scatter",
-    "compton": "Compton scatter",
-    "air": "Ar K (air)",
-}
-
 
 class ArtefactRow(TypedDict):
     """One artefact, with or without a peak of its own (plain values, unformatted)."""
 
     energy_eV: float
+    energy_range_eV: tuple[float, float] | None
     kind: str
     origin: str
     separated: bool
@@ -72,11 +64,12 @@ class ArtefactMark(TypedDict):
 
 
 def artefact_kind(kinds: str) -> str:
-    """Short kind label of a comma list.
+    """Kind label of a comma list, for one table cell.
 
-    ``"compton,sum"`` → ``"Compton scatter + sum (pile-up)"``.
+    The words are :data:`workbench.xray.wording.ARTEFACT_KIND_WORDS`:
+    ``"compton,sum"`` → ``"tube scatter (Compton) + sum (pile-up) peak"``.
     """
-    return " + ".join(ARTEFACT_KINDS.get(k, k) for k in str(kinds).split(",") if k)
+    return artefact_kind_label(kinds, sep=" + ")
 
 
 def _num(v: Any) -> float | None:
@@ -103,7 +96,9 @@ def artefact_rows(xray: Mapping[str, Any] | None) -> list[ArtefactRow]:
         separate peak (``separated`` false), sorted by energy. ``evidence``
         says what the engine did with the peak: ``"none"`` (taken out),
         ``"excess only"`` (stronger than predicted; the excess stays as
-        evidence for elements) or ``"no peak"``.
+        evidence for elements), ``"no peak"`` or ``"faint"`` (predicted
+        below the peak finder's acceptance; it may still add to a weak
+        line there). ``energy_range_eV`` is set for merged predictions.
     """
     if not xray:
         return []
@@ -112,6 +107,7 @@ def artefact_rows(xray: Mapping[str, Any] | None) -> list[ArtefactRow]:
         out.append(
             {
                 "energy_eV": float(a["observed_eV"]),
+                "energy_range_eV": None,
                 "kind": artefact_kind(a.get("kinds", "")),
                 "origin": str(a.get("origin", "")),
                 "separated": True,
@@ -122,16 +118,22 @@ def artefact_rows(xray: Mapping[str, Any] | None) -> list[ArtefactRow]:
             }
         )
     for a in xray.get("artefacts_without_peak") or []:
+        rng = a.get("energy_range_eV")
         out.append(
             {
                 "energy_eV": float(a["energy_eV"]),
+                "energy_range_eV": (
+                    (float(rng[0]), float(rng[1]))
+                    if rng and float(rng[1]) - float(rng[0]) >= 1.0
+                    else None
+                ),
                 "kind": artefact_kind(a.get("kinds", "")),
                 "origin": str(a.get("origin", "")),
                 "separated": False,
                 "observed_height": None,
                 "predicted_height": None,
                 "expected_counts": _num(a.get("expected_counts")),
-                "evidence": "no peak",
+                "evidence": "faint" if a.get("faint") else "no peak",
             }
         )
     out.sort(key=lambda r: (r["energy_eV"], not r["separated"]))
@@ -153,7 +155,15 @@ _EVIDENCE_WORDS = {
     "none": "no (artefact)",
     "excess only": "only the excess over the prediction",
     "no peak": "– (no separate peak)",
+    "faint": "– (below the detection limit; may add to a weak line here)",
 }
+
+
+def _energy_text(r: ArtefactRow) -> str:
+    # A merged prediction is shown as its range (a sum peak beside a broad
+    # Compton peak), one energy otherwise.
+    rng = r["energy_range_eV"]
+    return f"{_energy(rng[0])}–{_energy(rng[1])}" if rng else _energy(r["energy_eV"])
 
 
 def artefact_table(xray: Mapping[str, Any] | None) -> list[dict[str, str]]:
@@ -167,7 +177,7 @@ def artefact_table(xray: Mapping[str, Any] | None) -> list[dict[str, str]]:
     """
     return [
         {
-            "Energy (eV)": _energy(r["energy_eV"]),
+            "Energy (eV)": _energy_text(r),
             "Kind": r["kind"],
             "Origin": r["origin"],
             "Observed peak height": (
@@ -204,7 +214,8 @@ def artefact_text_lines(xray: Mapping[str, Any] | None) -> list[str]:
         for r in hidden:
             n = r["expected_counts"]
             counts = f" (about {n:,.0f} counts expected)" if n is not None else ""
-            out.append(f"  {_energy(r['energy_eV']):>6} eV  {r['kind']}: {r['origin']}{counts}")
+            faint = ", below the detection limit" if r["evidence"] == "faint" else ""
+            out.append(f"  {_energy_text(r):>6} eV  {r['kind']}: {r['origin']}{counts}{faint}")
     return out
 
 
@@ -232,7 +243,7 @@ def artefact_marks(report: Mapping[str, Any]) -> list[ArtefactMark]:
                 "position": r["energy_eV"],
                 "height": height,
                 "separated": r["separated"],
-                "text": f"{r['kind']} {_energy(r['energy_eV'])} eV: {r['origin']}"
+                "text": f"{r['kind']} {_energy_text(r)} eV: {r['origin']}"
                 + ("" if r["separated"] else " (no separate peak)")
                 + f"; predicted {pred}",
             }

@@ -258,7 +258,10 @@ def label_peaks(
     polars.DataFrame
         One row per peak with an artefact within half its FWHM: ``peak``
         (index), ``observed_eV``, ``intensity``, ``kinds`` (comma list),
-        ``origin`` (all origins, "; "-joined), ``predicted_intensity`` (sum,
+        ``origin`` (all origins, "; "-joined), ``predicted_eV`` (where each
+        predicted artefact the peak stands for lies, ascending: a broad
+        Compton peak may hold the scatter of several tube lines hundreds of
+        eV apart), ``predicted_intensity`` (sum,
         null when unpredictable), ``explained`` (bool) and
         ``residual_intensity`` (intensity less the prediction; what remains as
         evidence when not explained).
@@ -290,6 +293,7 @@ def label_peaks(
                 "intensity": float(inten[p]),
                 "kinds": ",".join(kinds),
                 "origin": _origin_text(hits),
+                "predicted_eV": sorted(float(a.energy_eV) for a in hits),
                 "predicted_intensity": None if unpredictable else float(pred),
                 "explained": explained,
                 "residual_intensity": 0.0 if explained else float(inten[p] - pred),
@@ -301,6 +305,7 @@ def label_peaks(
         "intensity": pl.Float64,
         "kinds": pl.Utf8,
         "origin": pl.Utf8,
+        "predicted_eV": pl.List(pl.Float64),
         "predicted_intensity": pl.Float64,
         "explained": pl.Boolean,
         "residual_intensity": pl.Float64,

@@ -13,6 +13,7 @@ import re
 from typing import Any
 
 __all__ = [
+    "ARTEFACT_KIND_WORDS",
     "artefact_kind_label",
     "artefact_lines",
     "family_label",
@@ -22,21 +23,25 @@ __all__ = [
     "xrf_message",
 ]
 
-_KIND_WORDS = {
+#: The artefact kinds of ``xray.artefact_peaks[].kinds`` in an XRF analyst's
+#: words; the one word list of every face (warnings, CLI table, app, sheet).
+#: Common practice, no source.
+ARTEFACT_KIND_WORDS: dict[str, str] = {
     "rayleigh": "tube scatter (Rayleigh)",
     "compton": "tube scatter (Compton)",
     "escape": "escape peak",
     "sum": "sum (pile-up) peak",
-    "air": "argon in air",
+    "air": "argon in air (Ar K)",
 }
 
 
-def artefact_kind_label(kinds: str) -> str:
+def artefact_kind_label(kinds: str, sep: str = ", ") -> str:
     """Words for an artefact's ``kinds`` field.
 
-    ``"compton,sum"`` → ``"tube scatter (Compton), sum (pile-up) peak"``.
+    ``"compton,sum"`` → ``"tube scatter (Compton), sum (pile-up) peak"``;
+    ``sep=" + "`` joins them as one peak's kinds in a table cell.
     """
-    return ", ".join(_KIND_WORDS.get(k, k) for k in kinds.split(",") if k)
+    return sep.join(ARTEFACT_KIND_WORDS.get(k, k) for k in str(kinds).split(",") if k)
 
 
 def format_energy_eV(energy_eV: float | None) -> str:
