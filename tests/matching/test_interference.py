@@ -130,6 +130,9 @@ def test_xrf_text_report_lists_ruled_out_families_once_and_every_artefact(xrf_de
     for a in xray["artefact_peaks"]:
         assert f"{int(a['observed_eV'] + 0.5)} eV" in text, a
     for a in xray["artefacts_without_peak"]:
-        assert f"{int(a['energy_eV'] + 0.5)} eV" in text, a
+        # A merged prediction is shown as its range (matching.xrf_view).
+        lo, hi = (int(v + 0.5) for v in a["energy_range_eV"])
+        shown = f"{lo}–{hi}" if a["energy_range_eV"][1] - a["energy_range_eV"][0] >= 1.0 else lo
+        assert f"{shown} eV" in text, a
     # No plasma wording on an energy axis (issue 10).
     assert "temperature" not in text.lower() and "LTE" not in text
