@@ -147,9 +147,12 @@ XRAY_OUTSIDE_PROBABILITY: float = 0.05
 #: Evidence (decades) when a family's main line is the only plausible
 #: explanation of a significant peak: −log10 of that probability.
 XRAY_SOLE_DEX: float = float(-np.log10(XRAY_OUTSIDE_PROBABILITY))
-#: Peak significance (3·height / detection limit, i.e. height / noise) a
-#: sole explanation needs: 5σ, the usual discovery threshold for a peak that
-#: is surely not noise (common practice, no source).
+#: Peak significance a sole explanation needs: the counting significance
+#: N/√(N + 2B) of the peak's own net and baseline counts (``_sole``; the
+#: height over the median peak noise where counts are not known) of at least
+#: 10σ, twice the usual 5σ discovery threshold, so that the peak is surely
+#: not noise nor a fluctuation of a neighbour's tail (common practice, no
+#: source).
 XRAY_SOLE_SNR: float = 10.0
 #: Significance a family's fitted share of a blend needs to be the sole
 #: explanation of that share (module docstring, "shared peak"): its amplitude
