@@ -449,27 +449,25 @@ def absorption_prior_test(g: dict[str, Any], nset: np.ndarray, found: np.ndarray
         return 1.0
     p = float(special.betainc(k, n - k + 1, float(np.mean(g["p_line_usable"][nset]))))
     hit = nset & found
+
+    def closeness(m: np.ndarray) -> float:
+        # Closeness of the groups ``m`` to their blends' forward-modelled dips.
+        return closeness_probability(
+            g["offset_u"][m],
+            g["offset_window_u"][m],
+            g["offset_lines"][m],
+            centre_u=centre_u,
+            blend=tuple(g[key][m] for key in _BLEND_KEYS),
+        )
+
     features = g.get("features")
     if features is None:
-        c = closeness_probability(
-            g["offset_u"][hit],
-            g["offset_window_u"][hit],
-            g["offset_lines"][hit],
-            centre_u=centre_u,
-            blend=tuple(g[key][hit] for key in _BLEND_KEYS),
-        )
-        return fisher_combined([p, c])
+        return fisher_combined([p, closeness(hit)])
     # A prior-named species (absorption.species_features): closeness to each
     # unresolved group's blend dip, and inside groups that chain beyond a
     # resolution element, to the features the instrument resolves there.
     one = hit & np.isfinite(g["blend_u"])
-    c_groups = closeness_probability(
-        g["offset_u"][one],
-        g["offset_window_u"][one],
-        g["offset_lines"][one],
-        centre_u=centre_u,
-        blend=tuple(g[key][one] for key in _BLEND_KEYS),
-    )
+    c_groups = closeness(one)
     own = g["found"] & ~g["explained"]
     t = feature_test(
         features,
