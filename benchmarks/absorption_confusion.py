@@ -10,8 +10,8 @@ with seed ``--seed`` (default 20261204, distinct from the test's 20261203)
 by the same generator (``tests.matching.invented.seeded_mixtures``). Each
 goes through the product's peak finding in absorption mode and the engine
 WITHOUT an abundance prior (``--prior`` to choose one), with the working
-copy and with the code of ``--ref`` (``git archive`` into a temporary
-folder, run in a subprocess with ``PYTHONPATH`` there), and per resolving
+copy and with the code of ``--ref`` (``at_commit.run_at_commit``: the
+mixtures, invented test inputs, from the working copy on both sides), and per resolving
 power the figures are printed side by side:
 
 * elements put in reaching "probable" or better / elements put in;
@@ -27,82 +27,21 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
-import subprocess
 import sys
-import tempfile
 from pathlib import Path
-
-ROOT = Path(__file__).resolve().parents[1]
-
-POOL = [
-    "Na I",
-    "Mg I",
-    "Al I",
-    "Si I",
-    "Ca I",
-    "Ca II",
-    "Ti I",
-    "Cr I",
-    "Mn I",
-    "Fe I",
-    "Ni I",
-    "Sr II",
-    "Ba II",
-    "K I",
-    "H I",
-    "Li I",
-]
-RANGE_NM = (380.0, 900.0)
-T_K = 5800.0
-RESOLVING_POWERS = (500.0, 2000.0, 20000.0)
 
 
 def compute(n_per_r: int, seed: int, prior: str) -> dict[str, list]:
     """Per resolving power: one record per mixture (put in, levels of every element)."""
-    import numpy as np
-
-    from tests.matching.invented import seeded_mixtures
-    from workbench.datamodel import Spectrum
+    from tests.matching.invented import absorption_mixtures, absorption_renderer
     from workbench.matching import MatchParameters, match_peaks
-    from workbench.matching.engine import build_index
-    from workbench.matching.expected import expected_strengths
-    from workbench.peaks import find_peaks
-    from workbench.physics.synth import synthetic_spectrum
     from workbench.refdata import load_set
 
     optical = load_set("optical")
-    index = build_index([optical], "wavelength", "air")
-    names = np.array(index.species_names, dtype=object)[index.species]
-    in_range = (index.position >= RANGE_NM[0]) & (index.position <= RANGE_NM[1])
-    e = np.nan_to_num(expected_strengths(index, T_K, "absorption", in_range))
-    mixtures = seeded_mixtures(
-        POOL, seed, RESOLVING_POWERS, n_per_r, 5, lambda rng: float(10 ** rng.uniform(-0.5, 0.5))
-    )
+    render = absorption_renderer(optical)
     out: dict[str, list] = {}
-    for R, abundance, spec_seed in mixtures:
-        pos_all, depth_all = [], []
-        for sp, a in abundance.items():
-            m = in_range & (names == sp) & (e > 0)
-            if not np.any(m):
-                continue
-            pos_all.append(index.position[m])
-            depth_all.append(0.6 * a / 3.2 * (e[m] / e[m].max()) ** 0.3)
-        pos = np.concatenate(pos_all)
-        depth = np.concatenate(depth_all)
-        keep = depth >= 0.02
-        lines = synthetic_spectrum(
-            pos[keep],
-            depth[keep] * pos[keep] / R * 1.0645,
-            medium="air",
-            x_range=RANGE_NM,
-            n_points=int((RANGE_NM[1] - RANGE_NM[0]) / (RANGE_NM[0] / R / 4)),
-            resolving_power=R,
-            noise_sigma=0.003,
-            seed=spec_seed,
-        )
-        spec = Spectrum(lines.x, 1.0 - lines.y, "wavelength", "air")
-        peaks = find_peaks(spec, mode="absorption")
+    for R, abundance, spec_seed in absorption_mixtures(seed, n_per_r):
+        peaks = render(R, abundance, spec_seed)
         params = MatchParameters(mode="absorption", abundance_prior=prior)
         rep = match_peaks(peaks, [optical], params)
         levels: dict[str, int] = {}
@@ -147,53 +86,18 @@ def summarise(runs: list[dict]) -> dict:
 
 
 def ref_results(ref: str, n_per_r: int, seed: int, prior: str) -> dict[str, list]:
-    """The records computed by the code of commit ``ref``."""
-    with tempfile.TemporaryDirectory() as d:
-        tar = subprocess.run(
-            [
-                "git",
-                "-C",
-                str(ROOT),
-                "archive",
-                ref,
-                "workbench",
-                "reference_sets",
-                "tests/__init__.py",
-                "tests/matching/__init__.py",
-                "tests/matching/invented.py",
-            ],
-            capture_output=True,
-            check=True,
+    """The records computed by the code of commit ``ref`` on the same invented mixtures."""
+    from at_commit import run_at_commit
+
+    return json.loads(
+        run_at_commit(
+            ref,
+            ["workbench", "reference_sets", "tests/__init__.py", "tests/matching/__init__.py"],
+            ["absorption_confusion.py"],
+            ["--json-only", "--n", str(n_per_r), "--seed", str(seed), "--prior", prior],
+            working_files=("tests/matching/invented.py",),
         )
-        subprocess.run(["tar", "-x", "-C", d], input=tar.stdout, check=True)
-        script = Path(d) / "absorption_confusion.py"
-        script.write_bytes(Path(__file__).read_bytes())
-        res = subprocess.run(
-            [
-                sys.executable,
-                str(script),
-                "--json-only",
-                "--n",
-                str(n_per_r),
-                "--seed",
-                str(seed),
-                "--prior",
-                prior,
-            ],
-            capture_output=True,
-            text=True,
-            cwd=d,
-            env=os.environ
-            | {
-                "PYTHONPATH": d,
-                "PYTHONWARNINGS": "ignore",
-                "WORKBENCH_REFERENCE_SETS": str(Path(d) / "reference_sets"),
-            },
-            check=False,
-        )
-        if res.returncode:
-            sys.exit(f"the {ref} run failed:\n{res.stderr}")
-    return json.loads(res.stdout.strip().splitlines()[-1])
+    )
 
 
 def _row(s: dict) -> str:
@@ -221,7 +125,7 @@ def main() -> None:
     if args.json_only:
         print(json.dumps(compute(args.n, args.seed, args.prior)))
         return
-    sys.path.insert(0, str(ROOT))
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
     now = compute(args.n, args.seed, args.prior)
     old = None if args.no_ref else ref_results(args.ref, args.n, args.seed, args.prior)
     head = "prob+/put  est  fEST fprob maxposs"

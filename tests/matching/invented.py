@@ -98,3 +98,92 @@ def seeded_mixtures(
             mix = {s: abundance(rng) for s in species}
             out.append((R, mix, int(rng.integers(1, 2**31))))
     return out
+
+
+# Invented absorption mixtures (tests/matching/test_absorption_mixtures.py and
+# benchmarks/absorption_confusion.py render the same spectra).
+#: Absorbers of stellar and solar-like spectra, plus a few common in cells.
+ABSORPTION_POOL = [
+    "Na I",
+    "Mg I",
+    "Al I",
+    "Si I",
+    "Ca I",
+    "Ca II",
+    "Ti I",
+    "Cr I",
+    "Mn I",
+    "Fe I",
+    "Ni I",
+    "Sr II",
+    "Ba II",
+    "K I",
+    "H I",
+    "Li I",
+]
+ABSORPTION_RANGE_NM = (380.0, 900.0)
+ABSORPTION_T_K = 5800.0
+ABSORPTION_RESOLVING_POWERS = (500.0, 2000.0, 20000.0)
+
+
+def absorption_mixtures(seed: int, n_per_r: int) -> list[tuple[float, dict[str, float], int]]:
+    """Invented absorption mixtures: 1 … 5 species of the pool, abundances 10^U(−0.5, 0.5)."""
+    return seeded_mixtures(
+        ABSORPTION_POOL,
+        seed,
+        ABSORPTION_RESOLVING_POWERS,
+        n_per_r,
+        5,
+        lambda rng: float(10 ** rng.uniform(-0.5, 0.5)),
+    )
+
+
+def absorption_renderer(optical) -> Callable[[float, dict[str, float], int], PeakList]:
+    """``render(R, abundance, seed)``: the absorption peak list of one invented mixture.
+
+    Each species' lines at their absorption strengths at 5800 K (log gf − θχ,
+    :func:`workbench.matching.expected.expected_strengths`), compressed as
+    saturated lines are (depth ∝ strength^0.3, invented), scaled by the
+    abundance, subtracted from a flat continuum, rendered at resolving power
+    R with Gaussian noise σ 0.003, then found by the product's peak finding
+    in absorption mode.
+    """
+    from workbench.datamodel import Spectrum
+    from workbench.matching.engine import build_index
+    from workbench.matching.expected import expected_strengths
+    from workbench.peaks import find_peaks
+    from workbench.physics.synth import synthetic_spectrum
+
+    lo, hi = ABSORPTION_RANGE_NM
+    index = build_index([optical], "wavelength", "air")
+    names = np.array(index.species_names, dtype=object)[index.species]
+    in_range = (index.position >= lo) & (index.position <= hi)
+    e = np.nan_to_num(expected_strengths(index, ABSORPTION_T_K, "absorption", in_range))
+    e = np.where(in_range, e, 0.0)
+
+    def render(R: float, abundance: dict[str, float], seed: int) -> PeakList:
+        pos_all, depth_all = [], []
+        for sp, a in abundance.items():
+            m = (names == sp) & (e > 0)
+            if not np.any(m):
+                continue
+            # Saturated lines grow slowly with strength (invented compression).
+            pos_all.append(index.position[m])
+            depth_all.append(0.6 * a / 3.2 * (e[m] / e[m].max()) ** 0.3)
+        pos = np.concatenate(pos_all)
+        depth = np.concatenate(depth_all)
+        keep = depth >= 0.02
+        lines = synthetic_spectrum(
+            pos[keep],
+            depth[keep] * pos[keep] / R * 1.0645,
+            medium="air",
+            x_range=ABSORPTION_RANGE_NM,
+            n_points=int((hi - lo) / (lo / R / 4)),
+            resolving_power=R,
+            noise_sigma=0.003,
+            seed=seed,
+        )
+        spec = Spectrum(lines.x, 1.0 - lines.y, "wavelength", "air")
+        return find_peaks(spec, mode="absorption")
+
+    return render

@@ -29,54 +29,14 @@ absorption evidence to be free of false calls.
 
 from __future__ import annotations
 
-import numpy as np
 import pytest
 
-from tests.matching.invented import seeded_mixtures
-from workbench.datamodel import Spectrum
+from tests.matching.invented import absorption_mixtures, absorption_renderer
 from workbench.matching import MatchParameters, match_peaks
-from workbench.matching.engine import build_index
-from workbench.matching.expected import expected_strengths
-from workbench.peaks import find_peaks
-from workbench.physics.synth import synthetic_spectrum
 from workbench.refdata import load_set
 
-# Absorbers of stellar and solar-like spectra, plus a few common in cells.
-POOL = [
-    "Na I",
-    "Mg I",
-    "Al I",
-    "Si I",
-    "Ca I",
-    "Ca II",
-    "Ti I",
-    "Cr I",
-    "Mn I",
-    "Fe I",
-    "Ni I",
-    "Sr II",
-    "Ba II",
-    "K I",
-    "H I",
-    "Li I",
-]
-RANGE_NM = (380.0, 900.0)
-T_K = 5800.0
 N_PER_R = 8  # 3 resolving powers × 8 = 24 mixtures
-
-
-def _mixtures():
-    return seeded_mixtures(
-        POOL,
-        20261203,
-        (500.0, 2000.0, 20000.0),
-        N_PER_R,
-        5,
-        lambda rng: float(10 ** rng.uniform(-0.5, 0.5)),
-    )
-
-
-MIXTURES = _mixtures()
+MIXTURES = absorption_mixtures(20261203, N_PER_R)
 
 
 @pytest.fixture(scope="module")
@@ -84,42 +44,9 @@ def optical():
     return load_set("optical")
 
 
-def _render(index, names, e, R, abundance, seed):
-    """The peak list of one invented mixture (module docstring)."""
-    pos_all, depth_all = [], []
-    for sp, a in abundance.items():
-        m = (names == sp) & (e > 0)
-        if not np.any(m):
-            continue
-        # Saturated lines grow slowly with strength (invented compression).
-        d = 0.6 * a / 3.2 * (e[m] / e[m].max()) ** 0.3
-        pos_all.append(index.position[m])
-        depth_all.append(d)
-    pos = np.concatenate(pos_all)
-    depth = np.concatenate(depth_all)
-    keep = depth >= 0.02
-    lines = synthetic_spectrum(
-        pos[keep],
-        depth[keep] * pos[keep] / R * 1.0645,
-        medium="air",
-        x_range=RANGE_NM,
-        n_points=int((RANGE_NM[1] - RANGE_NM[0]) / (RANGE_NM[0] / R / 4)),
-        resolving_power=R,
-        noise_sigma=0.003,
-        seed=seed,
-    )
-    spec = Spectrum(lines.x, 1.0 - lines.y, "wavelength", "air")
-    return find_peaks(spec, mode="absorption")
-
-
 @pytest.fixture(scope="module")
 def renderer(optical):
-    index = build_index([optical], "wavelength", "air")
-    names = np.array(index.species_names, dtype=object)[index.species]
-    in_range = (index.position >= RANGE_NM[0]) & (index.position <= RANGE_NM[1])
-    e = np.nan_to_num(expected_strengths(index, T_K, "absorption", in_range))
-    e = np.where(in_range, e, 0.0)
-    return lambda R, abundance, seed: _render(index, names, e, R, abundance, seed)
+    return absorption_renderer(optical)
 
 
 @pytest.fixture(scope="module")
@@ -172,14 +99,7 @@ def test_absent_line_rich_species_are_not_called(optical, renderer):
     # The chance test of docs/evidence-model.md (absorption): local dip
     # density, hit chance bounded by ρw, closeness of the nearest of all the
     # dips in a window. Each of these spectra gave a false call before.
-    larger = seeded_mixtures(
-        POOL,
-        20261204,
-        (500.0, 2000.0, 20000.0),
-        30,
-        5,
-        lambda rng: float(10 ** rng.uniform(-0.5, 0.5)),
-    )
+    larger = absorption_mixtures(20261204, 30)
     false_calls = []
     for i in LINE_RICH_CASES:
         R, abundance, seed = larger[i]
