@@ -35,7 +35,6 @@ import json
 import os
 import subprocess
 import sys
-import tempfile
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -124,48 +123,24 @@ def compute_hashes(quick: bool = False) -> dict[str, str]:
 
 def ref_hashes(ref: str, quick: bool) -> dict[str, str]:
     """The hashes computed by the code (and reference data) of commit ``ref``."""
-    with tempfile.TemporaryDirectory() as d:
-        tar = subprocess.run(
+    from at_commit import run_at_commit
+
+    # This script (and bench_match.py, for the dense case) run against the
+    # extracted code: cwd and PYTHONPATH point there, not at the working copy.
+    return json.loads(
+        run_at_commit(
+            ref,
             [
-                "git",
-                "-C",
-                str(ROOT),
-                "archive",
-                ref,
                 "workbench",
                 "reference_sets",
                 "tests/__init__.py",
                 "tests/realdata",
                 "tests/data/realspectra",
             ],
-            capture_output=True,
-            check=True,
+            ["check_identity.py", "bench_match.py"],
+            ["--hashes-only"] + (["--quick"] if quick else []),
         )
-        subprocess.run(["tar", "-x", "-C", d], input=tar.stdout, check=True)
-        # This script (and bench_match.py, for the dense case) run against the
-        # extracted code: cwd and PYTHONPATH point there, not at the working copy.
-        bench = Path(d) / "bench"
-        bench.mkdir()
-        for f in ("check_identity.py", "bench_match.py"):
-            (bench / f).write_bytes((Path(__file__).resolve().parent / f).read_bytes())
-        cmd = [sys.executable, str(bench / "check_identity.py"), "--hashes-only"]
-        res = subprocess.run(
-            cmd + (["--quick"] if quick else []),
-            capture_output=True,
-            text=True,
-            cwd=d,
-            env=os.environ
-            | {
-                "PYTHONPATH": d,
-                "PYTHONWARNINGS": "ignore",
-                "WORKBENCH_REFERENCE_SETS": str(Path(d) / "reference_sets"),
-                "CHECK_IDENTITY_EXPECT_ROOT": d,
-            },
-            check=False,
-        )
-        if res.returncode:
-            sys.exit(f"the {ref} run failed:\n{res.stderr}")
-    return json.loads(res.stdout.strip().splitlines()[-1])
+    )
 
 
 def main() -> None:
@@ -180,7 +155,7 @@ def main() -> None:
     if args.hashes_only:
         import workbench
 
-        expect = os.environ.get("CHECK_IDENTITY_EXPECT_ROOT")
+        expect = os.environ.get("BENCH_REF_ROOT")  # set by at_commit.run_at_commit
         if expect and not workbench.__file__.startswith(expect):
             sys.exit(f"imported the wrong workbench: {workbench.__file__}")
         print(json.dumps(compute_hashes(args.quick), sort_keys=True))

@@ -31,10 +31,7 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
-import subprocess
 import sys
-import tempfile
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -139,41 +136,16 @@ def compute(held_out: bool = False) -> dict[str, dict]:
 
 def ref_results(ref: str, held_out: bool = False) -> dict[str, dict]:
     """The figures computed by the code of commit ``ref``."""
-    with tempfile.TemporaryDirectory() as d:
-        tar = subprocess.run(
-            [
-                "git",
-                "-C",
-                str(ROOT),
-                "archive",
-                ref,
-                "workbench",
-                "reference_sets",
-                "tests/__init__.py",
-                "tests/xray",
-            ],
-            capture_output=True,
-            check=True,
+    from at_commit import run_at_commit
+
+    return json.loads(
+        run_at_commit(
+            ref,
+            ["workbench", "reference_sets", "tests/__init__.py", "tests/xray"],
+            ["xrf_confusion.py"],
+            ["--json-only"] + (["--held-out"] if held_out else []),
         )
-        subprocess.run(["tar", "-x", "-C", d], input=tar.stdout, check=True)
-        script = Path(d) / "xrf_confusion.py"
-        script.write_bytes(Path(__file__).read_bytes())
-        res = subprocess.run(
-            [sys.executable, str(script), "--json-only"] + (["--held-out"] if held_out else []),
-            capture_output=True,
-            text=True,
-            cwd=d,
-            env=os.environ
-            | {
-                "PYTHONPATH": d,
-                "PYTHONWARNINGS": "ignore",
-                "WORKBENCH_REFERENCE_SETS": str(Path(d) / "reference_sets"),
-            },
-            check=False,
-        )
-        if res.returncode:
-            sys.exit(f"the {ref} run failed:\n{res.stderr}")
-    return json.loads(res.stdout.strip().splitlines()[-1])
+    )
 
 
 def _row(r: dict) -> str:
