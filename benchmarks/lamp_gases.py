@@ -20,7 +20,7 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from tests.matching.invented_lamps import lamp_cases, run_lamp
+from tests.matching.invented_lamps import clear_lines, draw_lamp, lamp_cases, run_lamp
 from workbench.refdata import load_set
 
 
@@ -37,8 +37,15 @@ def main() -> None:
     prob = defaultdict(int)
     n = defaultdict(int)
     false_calls = []
+    by_clear = defaultdict(lambda: [0, 0, 0])
     for c in cases:
         best = run_lamp(optical, c)
+        pos, height, el, _ = draw_lamp(optical, c)
+        for g, n_clear in clear_lines(c, pos, height, el).items():
+            b = by_clear[(g, "0-2" if n_clear < 3 else "3-5" if n_clear < 6 else "6+")]
+            b[0] += 1
+            b[1] += best.get(g, 0) == 3
+            b[2] += best.get(g, 0) >= 2
         keys = [(c.lamp, "all")] + ([(c.lamp, f"R{c.resolving_power:.0f}")] if args.by_r else [])
         for g in c.gases:
             for k in keys:
@@ -57,6 +64,9 @@ def main() -> None:
             f"{k[0]:<16} {k[1]:<6} {k[2]:<4} {est[k]:>5}/{n[k]:<3} ({est[k] / n[k]:4.0%})"
             f" {prob[k]:>4}/{n[k]:<3}"
         )
+    print("by clearly present lines (tests.matching.invented_lamps.clear_lines), all lamps:")
+    for (g, b), (m, e, p) in sorted(by_clear.items()):
+        print(f"  {g:<3} {b:>4} clear lines: established {e:>3}/{m:<3} probable+ {p:>3}/{m:<3}")
     print(f"false calls (absent element at probable or above): {len(false_calls)}")
     for f in false_calls:
         print("  ", f)

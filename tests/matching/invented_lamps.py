@@ -59,6 +59,12 @@ RESOLVING_POWERS: tuple[float, ...] = (1000.0, 2000.0, 5000.0)
 #: at 4× the detector's full scale :data:`FULL_SCALE_E`, clipped there:
 #: arcs are exposed for their faint lines).
 VARIANTS: tuple[str, ...] = ("comparable", "unequal", "saturated")
+#: A clearly present line (:func:`clear_lines`): peak ≥ this many background σ,
+CLEAR_SNR: float = 20.0
+#: ... with no other gas's line at least this fraction as high ...
+CLEAR_BLEND_FRACTION: float = 0.3
+#: ... within this many FWHM.
+CLEAR_FWHM: float = 1.5
 #: Full scale of the detector (electrons) for the ``saturated`` variant (invented).
 FULL_SCALE_E: float = 65_000.0
 
@@ -104,8 +110,16 @@ def lamp_lines(optical, gases: tuple[str, ...], lo: float, hi: float, medium: st
     return t[col].to_numpy(), t["rel_intensity"].to_numpy(), t["element"].to_numpy()
 
 
-def render_lamp(optical, case: LampCase) -> Spectrum:
-    """The invented spectrum (electrons per pixel) of one lamp case."""
+def draw_lamp(optical, case: LampCase):
+    """The drawn lines of one lamp case and the generator that drew them.
+
+    Returns
+    -------
+    pos_nm, height_e, element : numpy.ndarray
+        Line centres, peak heights (electrons) and gas of every line.
+    rng : numpy.random.Generator
+        The case's generator, after the draw (the noise comes next).
+    """
     rng = np.random.default_rng(case.seed)
     pos, tab, el = lamp_lines(optical, case.gases, case.lo_nm, case.hi_nm, case.medium)
     flux = tab * 10.0 ** rng.normal(0.0, SCATTER_DEX, tab.size)
@@ -118,10 +132,37 @@ def render_lamp(optical, case: LampCase) -> Spectrum:
     slope = RESPONSE_DECADES if rng.random() < 0.5 else -RESPONSE_DECADES
     # Smooth response: 10× from one end to the other, slightly curved (invented).
     flux = flux * 10.0 ** (-slope * u + 0.3 * u * (1 - u))
-    fwhm = pos / case.resolving_power
-    height = flux / fwhm  # Gaussian peak ∝ area / FWHM
+    height = flux / (pos / case.resolving_power)  # Gaussian peak ∝ area / FWHM
     peak_e = 4.0 * FULL_SCALE_E if case.variant == "saturated" else PEAK_E
-    height *= peak_e / height.max()
+    return pos, height * (peak_e / height.max()), el, rng
+
+
+def clear_lines(case: LampCase, pos: np.ndarray, height: np.ndarray, el: np.ndarray) -> dict:
+    """Per gas, its lines that are *clearly present*: what an analyst would point at.
+
+    A line is clear when its peak is at least :data:`CLEAR_SNR` times the
+    background noise (√(background + read noise²)) and no line of another gas
+    at least :data:`CLEAR_BLEND_FRACTION` as high lies within
+    :data:`CLEAR_FWHM` FWHM (resolved from its neighbours). Thresholds:
+    common practice, no source.
+    """
+    noise = np.sqrt(BACKGROUND_E + READ_NOISE_E**2)
+    fwhm = pos / case.resolving_power
+    out = {}
+    for g in case.gases:
+        mine = el == g
+        n = 0
+        for i in np.flatnonzero(mine & (height >= CLEAR_SNR * noise)):
+            near = ~mine & (np.abs(pos - pos[i]) < CLEAR_FWHM * fwhm[i])
+            n += not np.any(near & (height >= CLEAR_BLEND_FRACTION * height[i]))
+        out[g] = n
+    return out
+
+
+def render_lamp(optical, case: LampCase) -> Spectrum:
+    """The invented spectrum (electrons per pixel) of one lamp case."""
+    pos, height, _, rng = draw_lamp(optical, case)
+    fwhm = pos / case.resolving_power
     step = case.lo_nm / case.resolving_power / PIXELS_PER_FWHM
     x = np.arange(case.lo_nm, case.hi_nm, step)
     y = np.full(x.size, BACKGROUND_E)

@@ -16,7 +16,15 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from tests.matching.invented_lamps import lamp_cases, lamp_lines, run_lamp
+from tests.matching.invented_lamps import (
+    LAMPS,
+    LampCase,
+    clear_lines,
+    draw_lamp,
+    lamp_cases,
+    lamp_lines,
+    run_lamp,
+)
 from workbench.matching.engine import build_index
 from workbench.matching.sourcemodels import model_strengths
 from workbench.refdata import load_set
@@ -31,8 +39,10 @@ def optical():
 
 @pytest.fixture(scope="module")
 def outcomes(optical):
-    """(case, best class per element) for 2 draws per lamp, range and R: 48 spectra."""
-    return [(c, run_lamp(optical, c)) for c in lamp_cases(2)]
+    """(case, best class per element, clear lines per gas): 2 draws per lamp, range, R (48)."""
+    return [
+        (c, run_lamp(optical, c), clear_lines(c, *draw_lamp(optical, c)[:3])) for c in lamp_cases(2)
+    ]
 
 
 @pytest.mark.parametrize(
@@ -80,7 +90,7 @@ def test_pure_lamps_reach_the_top_class(outcomes):
     """
     missed = [
         (c.lamp, c.lo_nm, c.resolving_power, c.seed, g, best.get(g, 0))
-        for c, best in outcomes
+        for c, best, _ in outcomes
         if c.lamp != "Ne+Ar+Hg+Kr+Xe"
         for g in c.gases
         if g in WATCHED and best.get(g, 0) < 3
@@ -99,7 +109,7 @@ def test_five_gas_lamp_recall_and_no_false_top_class(outcomes):
     reach "established", and at most one draw may show one at "probable"
     (benchmark at c52e549: 1 of 144 spectra, V I on coincidences at R 2000).
     """
-    mix = [(c, best) for c, best in outcomes if c.lamp == "Ne+Ar+Hg+Kr+Xe"]
+    mix = [(c, best) for c, best, _ in outcomes if c.lamp == "Ne+Ar+Hg+Kr+Xe"]
     assert len(mix) == 12
     for g in WATCHED:
         est = sum(best.get(g, 0) == 3 for _, best in mix)
@@ -109,15 +119,60 @@ def test_five_gas_lamp_recall_and_no_false_top_class(outcomes):
         assert prob >= 11, g
     false_top = [
         (c.seed, e)
-        for c, best in outcomes
+        for c, best, _ in outcomes
         for e, lv in best.items()
         if lv == 3 and e not in c.gases
     ]
     false_prob = [
         (c.seed, e)
-        for c, best in outcomes
+        for c, best, _ in outcomes
         for e, lv in best.items()
         if lv == 2 and e not in c.gases
     ]
     assert false_top == []
     assert len(false_prob) <= 1
+
+
+@pytest.mark.slow
+def test_gas_with_six_clear_lines_is_established(outcomes):
+    """Every gas with at least six clearly present lines (``clear_lines``) is established.
+
+    "Clearly present": ≥ 20 background σ and no comparable line of another gas
+    within 1.5 FWHM (common practice, no source). Holds for all 48 draws here;
+    at 6 draws per configuration (``benchmarks/lamp_gases.py``, c52e549) 303
+    of 312 such gas-spectra are established and all but 4 at least probable.
+    """
+    short = [
+        (c.lamp, c.lo_nm, c.resolving_power, c.seed, g, n, best.get(g, 0))
+        for c, best, clear in outcomes
+        for g, n in clear.items()
+        if n >= 6 and best.get(g, 0) < 3
+    ]
+    assert short == []
+
+
+@pytest.mark.xfail(
+    strict=True,
+    reason="known gap: Kr with 5 clear lines in a dense R 1000 five-gas lamp stays "
+    "'possible' (9 of 15 groups found at a chance-hit rate of 0.1-0.6 per group, "
+    "net 0.3 dex); see benchmarks/lamp_gases.py --variant unequal",
+)
+def test_krypton_with_five_clear_lines_at_r1000(optical):
+    """Kr with 5 clear lines among Ne, Ar, Hg and Xe at R 1000 (invented, ``unequal`` draw).
+
+    Draw: lamp_cases variant ``unequal``, 550–1000 nm air, R 1000, seed
+    2060361968 (Kr's total 10^U(−1, 1) of the others'); its 5 clear Kr lines
+    are at ≥ 20σ each. At c52e549 Kr is "possible".
+    """
+    case = LampCase(
+        "Ne+Ar+Hg+Kr+Xe",
+        LAMPS["Ne+Ar+Hg+Kr+Xe"],
+        550.0,
+        1000.0,
+        "air",
+        1000.0,
+        2060361968,
+        "unequal",
+    )
+    assert clear_lines(case, *draw_lamp(optical, case)[:3])["Kr"] == 5
+    assert run_lamp(optical, case)["Kr"] == 3
