@@ -107,8 +107,9 @@ def settle_overlaps(
 
     if not obs.detection_limit or obs.position.size == 0:
         return []
-    x, net, base = spectrum
-    x_all = np.asarray(x, dtype=np.float64)
+    x, net, base = (np.asarray(v, dtype=np.float64) for v in spectrum)
+    whole = (x, net, base)
+    keep = np.ones(x.size, dtype=bool)
     if artefacts_eV is not None and np.size(artefacts_eV):
         a = np.asarray(artefacts_eV, dtype=np.float64)
         near = np.min(np.abs(x[:, None] - a[None, :]), axis=1)
@@ -231,9 +232,10 @@ def settle_overlaps(
                     ev.label,
                     fams,
                     patterns,
-                    (x, net, base),
-                    x_all,
+                    whole,
+                    ~keep,
                     instrument,
+                    {o.label for o in ev_pass.evidence.values() if o.level >= 2},
                 )
             g["explained"] = np.zeros_like(g["explained"])
             g["unique"] = g["unique"] | g["found"]
@@ -253,15 +255,19 @@ def _share_sole(
     fams: dict[str, tuple[np.ndarray, np.ndarray]],
     patterns: dict[str, tuple[np.ndarray, np.ndarray]],
     spectrum: tuple[np.ndarray, np.ndarray, np.ndarray],
-    x_all: np.ndarray,
+    artefact: np.ndarray,
     instrument: Any,
+    called: set[str],
 ) -> bool:
     """The "shared peak" rule (:mod:`workbench.matching.xray_scoring`) for a settled family.
 
     The fit that settled it is repeated with every family that has a strong
     line (≥ 0.1 of its strongest) within one FWHM of its main line added
     (the rivals that could take its share), on two readings of the energy
-    scale (:func:`workbench.xray.overlap.share_test`).
+    scale (:func:`workbench.xray.overlap.share_test`), on the whole
+    spectrum: the artefact channels (``artefact``) bound the fit there, and
+    every family in ``called`` (probable or better) that reaches the fit's
+    channels is fitted too.
     """
     from workbench.matching.xray_scoring import xray_share_sole
     from workbench.xray.detector import fwhm_eV
@@ -278,14 +284,22 @@ def _share_sole(
             if np.any(np.abs(strong - main_eV) <= width):
                 fams[other] = (oe, orr)
     x, net, base = spectrum
-    test = share_test(x, net, fams, instrument, label, background=base)
-    near = np.abs(x_all - main_eV) <= 0.5 * width
-    kept = np.abs(x - main_eV) <= 0.5 * width
+    test = share_test(
+        x,
+        net,
+        fams,
+        instrument,
+        label,
+        background=base,
+        artefact=artefact,
+        present={lb: patterns[lb] for lb in sorted(called) if lb in patterns},
+    )
+    near = np.abs(x - main_eV) <= 0.5 * width
     return xray_share_sole(
         test.z,
         test.z_counting,
         position_agrees=test.offset_free,
-        channels_intact=bool(near.any() and int(np.sum(kept)) == int(np.sum(near))),
+        channels_intact=bool(near.any() and not np.any(artefact[near])),
     )
 
 
