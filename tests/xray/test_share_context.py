@@ -174,3 +174,24 @@ def test_no_sulfur_probable_in_brass(fwhm):
     _, rep = run_case("leaded_brass", fwhm, 20261202)
     called = {e["species"]: e["verdict"] for e in rep["elements"]}
     assert called.get("S K", "not supported") in ("not supported", "possible")
+
+
+@pytest.mark.parametrize("fwhm", [130.0, 180.0])
+@pytest.mark.parametrize("shift_eV", [-20.0, 20.0])
+def test_no_absent_family_probable_in_lead_white_with_a_scale_error(fwhm, shift_eV):
+    # Lead white on chalk holds Pb, Ca, C, O only (tests/xray/cases.py). A
+    # scale reading 20 eV off (what the scale check leaves uncorrected) made
+    # the settling fit alone need S K (−20 eV, 130 eV: probable) or Bi M
+    # (+20 eV: established) beside Pb M; the share test's two readings of the
+    # scale decide "needed" for a family whose main line Pb M took.
+    fs = forward_model(
+        CASES["lead_white_on_chalk"], instrument(fwhm), rng=np.random.default_rng(20261202)
+    )
+    called = _engine(fs.energy_eV + shift_eV, fs.counts, fwhm)
+    sample = {"Pb", "Ca", "C", "O"}
+    wrong = {
+        sp: v
+        for sp, v in called.items()
+        if sp.split()[0] not in sample and v in ("probable", "established")
+    }
+    assert not wrong
