@@ -19,11 +19,18 @@ peak), its net evidence is at least −log10 Φ(−z) (the chance that the count
 would need it this much were it absent), and it is re-evaluated; when it is
 not needed, the explanation stands. Either way the decision, with the
 settling lines, is recorded for the interference warning
-(:func:`annotate_warnings`). A settled family whose main line a better
-family took is then asked the "shared peak" question of
-:mod:`workbench.matching.xray_scoring` (:func:`_share_sole`: is its share
-surely real and is it the only plausible source of it); the answer, in its
-group arrays (``share_sole``), can make it a sole explanation.
+(:func:`annotate_warnings`). A family whose main line a better family took
+is needed only if its share also holds in the share test
+(:func:`workbench.xray.overlap.share_test`, :func:`_share_test`: its rivals
+and the spectrum's other present families in the fit, artefact channels as
+upper bounds, on two readings of the energy scale), at the same corrected
+standard; the smaller of the two figures floors its evidence. A family
+needed by the settling fit alone could be made by the partner's mismatch
+(an absent S K beside Pb M whose scale reads 20 eV low, 4–6σ at the
+tabulated energies, 0σ once moved). A family that passes is then asked the
+"shared peak" question of :mod:`workbench.matching.xray_scoring` (is its
+share surely real and is it the only plausible source of it); the answer,
+in its group arrays (``share_sole``), can make it a sole explanation.
 """
 
 from __future__ import annotations
@@ -36,6 +43,7 @@ from scipy import special
 from workbench.matching.evidence import EvidencePass, ObservedLines
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import evaluate
+from workbench.matching.xray_scoring import xray_share_sole
 
 __all__ = ["NEEDED_DEX", "annotate_warnings", "settle_overlaps"]
 
@@ -107,8 +115,9 @@ def settle_overlaps(
 
     if not obs.detection_limit or obs.position.size == 0:
         return []
-    x, net, base = spectrum
-    x_all = np.asarray(x, dtype=np.float64)
+    x, net, base = (np.asarray(v, dtype=np.float64) for v in spectrum)
+    whole = (x, net, base)
+    keep = np.ones(x.size, dtype=bool)
     if artefacts_eV is not None and np.size(artefacts_eV):
         a = np.asarray(artefacts_eV, dtype=np.float64)
         near = np.min(np.abs(x[:, None] - a[None, :]), axis=1)
@@ -205,15 +214,16 @@ def settle_overlaps(
         )
         fits.append((ev, dec, fams))
     n_fits = len(fits)
+
+    def sidak_dex(v: float) -> float:
+        # Šidák-corrected chance, in decades, that the counts would need a
+        # family this much were it absent (one-sided normal tail).
+        return float(-np.log10(max(-np.expm1(n_fits * np.log1p(-special.ndtr(-v))), 1e-30)))
+
     for ev, dec, fams in fits:
         involved = (ev.label, *partners[ev.label])
         z = {d.family: d.amplitude / d.uncertainty if d.uncertainty > 0 else np.inf for d in dec}
-        # Šidák-corrected chance, in decades, that the counts would need each
-        # family this much were it absent (one-sided normal tail).
-        dex = {
-            f: float(-np.log10(max(-np.expm1(n_fits * np.log1p(-special.ndtr(-v))), 1e-30)))
-            for f, v in z.items()
-        }
+        dex = {f: sidak_dex(v) for f, v in z.items()}
         rec = {
             d.family: d.to_dict() | {"needed": dex[d.family] >= NEEDED_DEX}
             for d in dec
@@ -224,17 +234,36 @@ def settle_overlaps(
         # it as well; one that swaps them contradicts the ranking and is
         # not trusted (Pr M for Al K on the shifted Al Kα peak).
         if rec[ev.label]["needed"] and all(rec[o]["needed"] for o in ev.explained_by if o in rec):
-            ev.overlap_floor_dex = min(dex[ev.label], 30.0)
+            floor = dex[ev.label]
             g = ev.groups
             if ev.label in taken:
-                g["share_sole"] = _share_sole(
+                # A family whose main line a better family took is needed
+                # only if its share holds on both readings of the energy
+                # scale, its rivals and the spectrum's other families in the
+                # fit (share_test): an absent S K beside Pb M whose scale
+                # reads 20 eV low was needed at 4–6σ at the tabulated
+                # energies alone (0σ once moved), Bi M beside Pb M read
+                # 20 eV high at 10σ.
+                test, intact = _share_test(
                     ev.label,
                     fams,
                     patterns,
-                    (x, net, base),
-                    x_all,
+                    whole,
+                    ~keep,
                     instrument,
+                    {o.label for o in ev_pass.evidence.values() if o.level >= 2},
                 )
+                floor = min(floor, sidak_dex(test.z))
+                if floor < NEEDED_DEX:
+                    rec[ev.label]["needed"] = False
+                    continue
+                g["share_sole"] = xray_share_sole(
+                    test.z,
+                    test.z_counting,
+                    position_agrees=test.offset_free,
+                    channels_intact=intact,
+                )
+            ev.overlap_floor_dex = min(floor, 30.0)
             g["explained"] = np.zeros_like(g["explained"])
             g["unique"] = g["unique"] | g["found"]
             ev.explained_by = []
@@ -248,22 +277,27 @@ def settle_overlaps(
     return out
 
 
-def _share_sole(
+def _share_test(
     label: str,
     fams: dict[str, tuple[np.ndarray, np.ndarray]],
     patterns: dict[str, tuple[np.ndarray, np.ndarray]],
     spectrum: tuple[np.ndarray, np.ndarray, np.ndarray],
-    x_all: np.ndarray,
+    artefact: np.ndarray,
     instrument: Any,
-) -> bool:
-    """The "shared peak" rule (:mod:`workbench.matching.xray_scoring`) for a settled family.
+    called: set[str],
+) -> tuple[Any, bool]:
+    """The share test of a settled family whose main line a better family took.
 
     The fit that settled it is repeated with every family that has a strong
     line (≥ 0.1 of its strongest) within one FWHM of its main line added
     (the rivals that could take its share), on two readings of the energy
-    scale (:func:`workbench.xray.overlap.share_test`).
+    scale (:func:`workbench.xray.overlap.share_test`), on the whole
+    spectrum: the artefact channels (``artefact``) bound the fit there, and
+    every family in ``called`` (probable or better) that reaches the fit's
+    channels is fitted too. Returns the test and whether no channel within
+    half a FWHM of the main line holds an artefact (for the "shared peak"
+    rule of :mod:`workbench.matching.xray_scoring`).
     """
-    from workbench.matching.xray_scoring import xray_share_sole
     from workbench.xray.detector import fwhm_eV
     from workbench.xray.overlap import share_test
 
@@ -278,15 +312,18 @@ def _share_sole(
             if np.any(np.abs(strong - main_eV) <= width):
                 fams[other] = (oe, orr)
     x, net, base = spectrum
-    test = share_test(x, net, fams, instrument, label, background=base)
-    near = np.abs(x_all - main_eV) <= 0.5 * width
-    kept = np.abs(x - main_eV) <= 0.5 * width
-    return xray_share_sole(
-        test.z,
-        test.z_counting,
-        position_agrees=test.offset_free,
-        channels_intact=bool(near.any() and int(np.sum(kept)) == int(np.sum(near))),
+    test = share_test(
+        x,
+        net,
+        fams,
+        instrument,
+        label,
+        background=base,
+        artefact=artefact,
+        present={lb: patterns[lb] for lb in sorted(called) if lb in patterns},
     )
+    near = np.abs(x - main_eV) <= 0.5 * width
+    return test, bool(near.any() and not np.any(artefact[near]))
 
 
 def annotate_warnings(warnings: list[dict[str, Any]], decisions: list[dict[str, Any]]) -> None:

@@ -17,7 +17,7 @@ error includes :data:`PATTERN_UNCERTAINTY` of the observed height.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -114,16 +114,16 @@ def _gauss_height(points: np.ndarray, e: np.ndarray, r: np.ndarray, instrument: 
     return np.sum(r[None, :] * np.exp(-0.5 * ((points[:, None] - e[None, :]) / sig) ** 2), 1)
 
 
-def _amplitude_errors(aw: np.ndarray, active: np.ndarray) -> np.ndarray:
-    """1σ of each amplitude from the weighted design ``aw``.
+def _amplitude_errors(aw: np.ndarray, active: np.ndarray, n: int | None = None) -> np.ndarray:
+    """1σ of each of the first ``n`` amplitudes (all by default) from the weighted design ``aw``.
 
-    From the normal matrix of the families left in the fit (a family fitted
+    From the normal matrix of the columns left in the fit (a family fitted
     at zero gets its own-column error).
     """
-    n = aw.shape[1]
+    n = aw.shape[1] if n is None else n
     unc = np.empty(n)
     for k in range(n):
-        cols = list(np.flatnonzero(active | (np.arange(n) == k)))
+        cols = list(np.flatnonzero(active | (np.arange(aw.shape[1]) == k)))
         sub = aw[:, cols]
         try:
             cov = np.linalg.inv(sub.T @ sub)
@@ -143,6 +143,7 @@ def _solve(
     pattern_scale: float = 1.0,
     anchor: np.ndarray | None = None,
     details: dict[str, float | np.ndarray] | None = None,
+    bound: np.ndarray | None = None,
 ) -> list[OverlapDecision]:
     """Weighted NNLS of the family columns ``a`` to ``obs``; decisions per family.
 
@@ -163,14 +164,23 @@ def _solve(
     fitted height) is added once the amplitudes are known. ``details``, when
     given, receives the fit's χ² with its final errors (``chi2``) and each
     amplitude's 1σ from the counting noise alone (``counting``), for
-    :func:`share_test`.
+    :func:`share_test`. ``bound`` marks observations that hold an
+    artefact's counts besides the families' (an escape, sum or scattered
+    tube peak, which no family pattern models): each gets a non-negative
+    column of its own, so the families' model there may be anything up to
+    the counts but not above them (the artefact's counts are not negative).
     """
     from scipy.optimize import nnls
 
+    nf = a.shape[1]
+    if bound is not None and np.any(bound):
+        a = np.hstack([a, np.eye(obs.size)[:, np.asarray(bound, dtype=bool)]])
+        if anchor is not None:
+            anchor = np.hstack([anchor, a[:, nf:]])
     # The pattern error scales with the fitted heights; they need a first
     # fit, so fit a few times.
     model = obs
-    coef = np.zeros(len(names))
+    coef = np.zeros(a.shape[1])
     for it in range(3):
         if anchor is None:
             pat = np.maximum(obs, model)
@@ -180,7 +190,8 @@ def _solve(
             pat = obs
         else:
             pat = np.abs((a - anchor) @ coef)
-        shape = np.zeros_like(obs) if anchor is None or it == 0 else model
+        # The line-shape error is the families' (an artefact's column is free).
+        shape = np.zeros_like(obs) if anchor is None or it == 0 else a[:, :nf] @ coef[:nf]
         err = np.sqrt(
             noise**2
             + (pattern_scale * PATTERN_UNCERTAINTY * pat) ** 2
@@ -193,10 +204,10 @@ def _solve(
     # 1σ of each amplitude: from the normal matrix of the families left in
     # the fit (a family fitted at zero gets its own-column error).
     active = coef > 0
-    unc = _amplitude_errors(aw, active)
+    unc = _amplitude_errors(aw, active, nf)
     if details is not None:
         details["chi2"] = float(np.sum(((obs - model) / err) ** 2))
-        details["counting"] = _amplitude_errors(a / noise[:, None], active)
+        details["counting"] = _amplitude_errors(a / noise[:, None], active, nf)
     out = []
     for k, name in enumerate(names):
         e, r = pats[k]
@@ -325,11 +336,14 @@ def _spectrum_fit(
     relative_patterns: bool = True,
     offset_eV: float = 0.0,
     details: dict[str, float | np.ndarray] | None = None,
+    bound: np.ndarray | None = None,
 ) -> list[OverlapDecision]:
     """The fit of :func:`decide_overlap_spectrum` on channels ``use``.
 
     Every line is moved by ``offset_eV`` (an energy-scale offset,
-    :func:`share_test`).
+    :func:`share_test`). ``bound`` (over all channels) marks those that
+    hold an artefact's counts too: there the fit's model is only bounded by
+    the counts (:func:`_solve`).
     """
     if offset_eV:
         pats = [(e + offset_eV, r) for e, r in pats]
@@ -350,6 +364,7 @@ def _spectrum_fit(
         per_line,
         anchor=top if relative_patterns else None,
         details=details,
+        bound=None if bound is None else np.asarray(bound, dtype=bool)[use],
     )
 
 
@@ -378,6 +393,10 @@ class ShareTest:
     offset_free : bool
         Whether the best offset lies inside the profiled range (not on its
         edge): the lines' positions agree with the spectrum.
+    amplitudes : dict
+        Every fitted family's amplitude (counts per channel of its strongest
+        line) at the tabulated energies, the tested family's rivals and the
+        present families added included.
     """
 
     family: str
@@ -387,6 +406,7 @@ class ShareTest:
     z_counting: float
     needed: tuple[str, ...]
     offset_free: bool
+    amplitudes: dict[str, float] = field(default_factory=dict)
 
     @property
     def z(self) -> float:
@@ -398,6 +418,33 @@ def _z(amplitude: float, sigma: float) -> float:
     return amplitude / sigma if np.isfinite(sigma) and sigma > 0 else 0.0
 
 
+def _share_families(
+    x: np.ndarray,
+    families: dict[str, tuple[np.ndarray, np.ndarray]],
+    instrument: Instrument,
+    present: dict[str, tuple[np.ndarray, np.ndarray]],
+) -> tuple[dict[str, tuple[np.ndarray, np.ndarray]], np.ndarray]:
+    """The families and channels of :func:`share_test` (its ``present`` parameter)."""
+    families = dict(families)
+    use = _fit_channels(x, _patterns(families)[1], instrument, _SHARE_MIN_REL)
+    for _ in range(5):
+        at = x[use]
+        added = False
+        for label, (e, r) in present.items():
+            e, r = (np.asarray(v, dtype=np.float64) for v in (e, r))
+            if label in families or not e.size or not at.size:
+                continue
+            strong = e[r >= 0.1 * np.max(r)]
+            reach = fwhm_eV(strong, instrument)
+            if np.any(np.abs(strong[:, None] - at[None, :]) <= reach[:, None]):
+                families[label] = (e, r)
+                added = True
+        if not added:
+            break
+        use = _fit_channels(x, _patterns(families)[1], instrument, _SHARE_MIN_REL)
+    return families, use
+
+
 def share_test(
     energy_eV: np.ndarray,
     net_counts: np.ndarray,
@@ -407,6 +454,8 @@ def share_test(
     *,
     background: np.ndarray | None = None,
     max_offset_eV: float = SHARE_OFFSET_EV,
+    artefact: np.ndarray | None = None,
+    present: dict[str, tuple[np.ndarray, np.ndarray]] | None = None,
 ) -> ShareTest:
     """One family's share of a blend, fitted on two readings of the energy scale.
 
@@ -440,6 +489,24 @@ def share_test(
         The baseline that was subtracted (for the Poisson error).
     max_offset_eV : float
         Half-width of the profiled offsets (:data:`SHARE_OFFSET_EV`).
+    artefact : numpy.ndarray of bool, optional
+        Channels that hold an artefact peak's counts besides the families'
+        (escape, sum, scattered tube lines, argon). They stay in the fit as
+        upper bounds: the families may predict anything up to the counts
+        there, not more. Dropping them instead lets a rival whose main line
+        falls there take the share with a minor line (Th M, main line at
+        2996 eV under the argon and scattered Rh Lβ peak, fitted at ten
+        times the counts there to take S Kα's share with Th M 2323 eV, 12 %
+        of its main line; gunshot residue at FWHM 180 eV).
+    present : dict, optional
+        Families known to be in the spectrum (called probable or better),
+        label → (line energies eV, relative intensities). Each one with a
+        line of at least 0.1 of its strongest within a FWHM of the test's
+        channels is fitted too (repeated, as each adds channels): the
+        channels reach as far as the fitted families' 1 % lines, and a
+        present family's peak there that nothing in the fit models is taken
+        by whatever fitted family reaches it (Th M and U M took Sb L's and
+        Ba L's counts at 3.4–4.6 keV in gunshot residue).
 
     Returns
     -------
@@ -448,16 +515,18 @@ def share_test(
     x = np.asarray(energy_eV, dtype=np.float64)
     y = np.asarray(net_counts, dtype=np.float64)
     bg = np.zeros_like(y) if background is None else np.asarray(background, dtype=np.float64)
+    families, use = _share_families(x, families, instrument, present or {})
     names, pats = _patterns(families)
     k = names.index(family)
-    use = _fit_channels(x, pats, instrument, _SHARE_MIN_REL)
     if not use.any() or not pats[k][0].size:
         return ShareTest(family, 0.0, 0.0, 0.0, 0.0, (), False)
     n_step = int(np.floor(max_offset_eV / _OFFSET_STEP_EV + 1e-9))
     fits: dict[float, tuple[float, list[OverlapDecision], np.ndarray]] = {}
     for offset in _OFFSET_STEP_EV * np.arange(-n_step, n_step + 1):
         det: dict[str, float | np.ndarray] = {}
-        dec = _spectrum_fit(x, y, bg, use, names, pats, instrument, True, float(offset), det)
+        dec = _spectrum_fit(
+            x, y, bg, use, names, pats, instrument, True, float(offset), det, artefact
+        )
         fits[float(offset)] = (float(det["chi2"]), dec, np.asarray(det["counting"]))
     best = min(fits, key=lambda o: (fits[o][0], abs(o)))
     nominal, moved = fits[0.0], fits[best]
@@ -471,4 +540,5 @@ def share_test(
         ),
         tuple(d.family for i, d in enumerate(nominal[1]) if d.needed or moved[1][i].needed),
         bool(abs(best) < n_step * _OFFSET_STEP_EV),
+        {d.family: d.amplitude for d in nominal[1]},
     )
