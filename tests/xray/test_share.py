@@ -163,6 +163,12 @@ def test_sulfur_in_gunshot_residue_established(seed):
 
 def _engine(energy_eV, counts, fit_fwhm):
     """Verdicts of the engine, run as tests.xray.cases.run_case runs it."""
+    rep = _report(energy_eV, counts, fit_fwhm)
+    return {e["species"]: e["verdict"] for e in rep["elements"]}
+
+
+def _report(energy_eV, counts, fit_fwhm):
+    """The engine's report, run as tests.xray.cases.run_case runs it."""
     inst = instrument(fit_fwhm)
     keep = energy_eV >= 1000.0
     spec = Spectrum(energy_eV[keep], counts[keep], "energy", None)
@@ -171,8 +177,7 @@ def _engine(energy_eV, counts, fit_fwhm):
         peaks = find_peaks(spec, snip_iterations=snip_iterations_for(inst, 10.0))
     peaks.extra.setdefault("x_range", (float(spec.x[0]), float(spec.x[-1])))
     peaks.extra["spectrum"] = (spec.x, spec.y)
-    rep = match_peaks(peaks, [load_set("xray")], MatchParameters(instrument=inst)).report()
-    return {e["species"]: e["verdict"] for e in rep["elements"]}
+    return match_peaks(peaks, [load_set("xray")], MatchParameters(instrument=inst)).report()
 
 
 @pytest.mark.parametrize(("true_fwhm", "shift_eV"), [(130.0, 0.0), (143.0, 0.0), (130.0, -20.0)])

@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 
 from tests.xray.cases import CASES, instrument, run_case
-from tests.xray.test_share import _engine
+from tests.xray.test_share import _engine, _report
 from workbench.matching.xray_scoring import xray_share_sole
 from workbench.refdata import load_set
 from workbench.xray.detector import fwhm_eV
@@ -195,3 +195,20 @@ def test_no_absent_family_probable_in_lead_white_with_a_scale_error(fwhm, shift_
         if sp.split()[0] not in sample and v in ("probable", "established")
     }
     assert not wrong
+
+
+def test_overturned_sulfur_shows_the_share_figure_that_decided():
+    # Lead white on chalk (no sulfur, tests/xray/cases.py), scale reading
+    # 20 eV low at 130 eV: the settling fit alone needed S K beside Pb M
+    # (probable at c52e549); the share test does not, and the overlap
+    # decision a reviewer reads carries the share's significance and says so.
+    fs = forward_model(
+        CASES["lead_white_on_chalk"], instrument(130.0), rng=np.random.default_rng(20261202)
+    )
+    rep = _report(fs.energy_eV - 20.0, fs.counts, 130.0)
+    decided = [w for w in rep["warnings"] if "S K" in w.get("decision", {})]
+    assert decided
+    s_k = decided[0]["decision"]["S K"]
+    assert s_k["needed"] is False
+    assert s_k["share_sigma"] < 5.0  # XRAY_SHARE_SIGMA: not a sole explanation
+    assert f"{s_k['share_sigma']:.1f}σ" in decided[0]["message"]

@@ -254,6 +254,9 @@ def settle_overlaps(
                     {o.label for o in ev_pass.evidence.values() if o.level >= 2},
                 )
                 floor = min(floor, sidak_dex(test.z))
+                # The reviewer sees the figure that decided (a settling fit
+                # may need the family while its share does not hold).
+                rec[ev.label]["share_sigma"] = round(float(test.z), 2)
                 if floor < NEEDED_DEX:
                     rec[ev.label]["needed"] = False
                     continue
@@ -332,7 +335,11 @@ def annotate_warnings(warnings: list[dict[str, Any]], decisions: list[dict[str, 
     A decision without a warning (the families' lines overlap only in the
     fit's wider view) gets a warning of its own (``xray_overlap``) when it
     needs at least two of the families (an interference to report; a fit
-    that needs one of them only confirms the ranking).
+    that needs one of them only confirms the ranking). A family the share
+    test was asked about shows its share's significance (``share_sigma``)
+    beside the fit's amplitude: the two can disagree (a settling fit that
+    needs an absent S K beside a Pb M whose scale reads 20 eV low, at 0σ in
+    the share test), and the reviewer should see the figure that decided.
     """
     seen: set[frozenset[str]] = set()
     for d in decisions:
@@ -344,8 +351,14 @@ def annotate_warnings(warnings: list[dict[str, Any]], decisions: list[dict[str, 
             f"{fam} {'needed' if r['needed'] else 'not needed'} "
             f"({r['amplitude']:.0f} ± {r['uncertainty']:.0f}"
             + (
-                f", settled on {', '.join(f'{e:.0f}' for e in r['settling_lines_eV'][:4])} eV)"
+                f", settled on {', '.join(f'{e:.0f}' for e in r['settling_lines_eV'][:4])} eV"
                 if r["settling_lines_eV"]
+                else ""
+            )
+            + (
+                f", its share of the common peak with the neighbouring families fitted and "
+                f"the energy scale read two ways, {r['share_sigma']:.1f}σ)"
+                if "share_sigma" in r
                 else ")"
             )
             for fam, r in sorted(d["families"].items())
