@@ -28,6 +28,7 @@ import numpy as np
 import polars as pl
 
 from workbench.datamodel import Spectrum
+from workbench.physics.synth import render_lines
 
 #: Log-normal scatter of each line about its tabulated intensity (decades).
 SCATTER_DEX: float = 0.8
@@ -165,11 +166,9 @@ def render_lamp(optical, case: LampCase) -> Spectrum:
     fwhm = pos / case.resolving_power
     step = case.lo_nm / case.resolving_power / PIXELS_PER_FWHM
     x = np.arange(case.lo_nm, case.hi_nm, step)
-    y = np.full(x.size, BACKGROUND_E)
-    sig = fwhm / 2.3548200450309493
-    for p, h, s in zip(pos, height, sig, strict=True):
-        a, b = np.searchsorted(x, [p - 6 * s, p + 6 * s])
-        y[a:b] += h * np.exp(-0.5 * ((x[a:b] - p) / s) ** 2)
+    # render_lines takes areas: a Gaussian's area is height · σ · √(2π).
+    area = height * (fwhm / 2.3548200450309493) * np.sqrt(2.0 * np.pi)
+    y = BACKGROUND_E + render_lines(pos, area, x, fwhm=fwhm)
     y = rng.poisson(y).astype(float) + rng.normal(0.0, READ_NOISE_E, x.size)
     if case.variant == "saturated":
         y = np.minimum(y, FULL_SCALE_E)
