@@ -180,12 +180,27 @@ def _report(energy_eV, counts, fit_fwhm):
     return match_peaks(peaks, [load_set("xray")], MatchParameters(instrument=inst)).report()
 
 
-@pytest.mark.parametrize(("true_fwhm", "shift_eV"), [(130.0, 0.0), (143.0, 0.0), (130.0, -20.0)])
-def test_no_sulfur_established_in_lead_white(true_fwhm, shift_eV):
-    # Lead white on chalk has no sulfur (tests/xray/cases.py); the spectrum is
-    # also given a 10 % broader true FWHM, or a scale reading 20 eV low.
-    fs = forward_model(
+def _lead_white(true_fwhm):
+    """Lead white on chalk (no sulfur; tests/xray/cases.py), forward model at this true FWHM."""
+    return forward_model(
         CASES["lead_white_on_chalk"], instrument(true_fwhm), rng=np.random.default_rng(20261202)
     )
-    called = _engine(fs.energy_eV + shift_eV, fs.counts, 130.0)
+
+
+@pytest.mark.parametrize(
+    ("fit_fwhm", "true_fwhm", "shift_eV"),
+    [
+        (130.0, 130.0, 0.0),
+        (130.0, 143.0, 0.0),
+        (130.0, 130.0, -20.0),
+        (180.0, 180.0, 0.0),
+        (180.0, 198.0, 0.0),
+        (180.0, 180.0, -20.0),
+    ],
+)
+def test_no_sulfur_established_in_lead_white(fit_fwhm, true_fwhm, shift_eV):
+    # Lead white on chalk has no sulfur (tests/xray/cases.py); the spectrum is
+    # also given a 10 % broader true FWHM, or a scale reading 20 eV low.
+    fs = _lead_white(true_fwhm)
+    called = _engine(fs.energy_eV + shift_eV, fs.counts, fit_fwhm)
     assert called.get("S K", "not supported") != "established"

@@ -16,12 +16,11 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from tests.xray.cases import CASES, instrument, run_case
-from tests.xray.test_share import _engine, _report
+from tests.xray.cases import instrument, run_case
+from tests.xray.test_share import _engine, _lead_white, _report
 from workbench.matching.xray_scoring import xray_share_sole
 from workbench.refdata import load_set
 from workbench.xray.detector import fwhm_eV
-from workbench.xray.forward import forward_model
 from workbench.xray.overlap import share_test
 
 #: Artefact peaks in the synthetic spectra: Rh Lα1 scattered from the tube
@@ -157,15 +156,8 @@ def test_sulfur_in_gunshot_residue_established_at_180_eV(case, seed):
     assert called["S K"] == "established"
 
 
-@pytest.mark.parametrize(("true_fwhm", "shift_eV"), [(180.0, 0.0), (198.0, 0.0), (180.0, -20.0)])
-def test_no_sulfur_established_in_lead_white_at_180_eV(true_fwhm, shift_eV):
-    # Lead white on chalk has no sulfur (tests/xray/cases.py); also with a
-    # 10 % broader true FWHM, or a scale reading 20 eV low.
-    fs = forward_model(
-        CASES["lead_white_on_chalk"], instrument(true_fwhm), rng=np.random.default_rng(20261202)
-    )
-    called = _engine(fs.energy_eV + shift_eV, fs.counts, 180.0)
-    assert called.get("S K", "not supported") != "established"
+# Lead white at 180 eV (no sulfur established, also with a broader true FWHM
+# or a scale 20 eV low): tests/xray/test_share.py::test_no_sulfur_established_in_lead_white.
 
 
 @pytest.mark.parametrize("fwhm", [130.0, 180.0])
@@ -184,9 +176,7 @@ def test_no_absent_family_probable_in_lead_white_with_a_scale_error(fwhm, shift_
     # the settling fit alone need S K (−20 eV, 130 eV: probable) or Bi M
     # (+20 eV: established) beside Pb M; the share test's two readings of the
     # scale decide "needed" for a family whose main line Pb M took.
-    fs = forward_model(
-        CASES["lead_white_on_chalk"], instrument(fwhm), rng=np.random.default_rng(20261202)
-    )
+    fs = _lead_white(fwhm)
     called = _engine(fs.energy_eV + shift_eV, fs.counts, fwhm)
     sample = {"Pb", "Ca", "C", "O"}
     wrong = {
@@ -202,9 +192,7 @@ def test_overturned_sulfur_shows_the_share_figure_that_decided():
     # 20 eV low at 130 eV: the settling fit alone needed S K beside Pb M
     # (probable at c52e549); the share test does not, and the overlap
     # decision a reviewer reads carries the share's significance and says so.
-    fs = forward_model(
-        CASES["lead_white_on_chalk"], instrument(130.0), rng=np.random.default_rng(20261202)
-    )
+    fs = _lead_white(130.0)
     rep = _report(fs.energy_eV - 20.0, fs.counts, 130.0)
     decided = [w for w in rep["warnings"] if "S K" in w.get("decision", {})]
     assert decided
