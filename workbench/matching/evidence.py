@@ -72,6 +72,7 @@ from workbench.matching.layout import pass_layout
 from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import SpeciesEvidence, evaluate
+from workbench.xray.detector import blend_maxima
 
 __all__ = [
     "LOCAL_DENSITY_NEIGHBOURS",
@@ -303,9 +304,8 @@ def _blend_maxima(
     predicted strength, add up to one peak whose maximum the peak finder
     reports (a Kα1/Kα2 doublet 23–84 eV apart under a 150–200 eV FWHM peaks
     between them, nearer Kα1). The maximum is found by mean shift from the
-    strongest line (the Gaussian-weighted mean of the lines around the
-    current estimate, iterated; a fixed point of it is a stationary point
-    of the blend). Its uncertainty is what the model's own uncertainty of
+    strongest line (:func:`workbench.xray.detector.blend_maxima`, the same
+    as the energy-scale check's). Its uncertainty is what the model's own uncertainty of
     the intensity ratios does to it: the maximum is found again with every
     line but the strongest made 10^±σ (σ the model's uncertainty in
     decades), and half the difference is the 1σ shift. A K doublet (ratio
@@ -329,20 +329,13 @@ def _blend_maxima(
     (maximum, sigma) : numpy.ndarray, numpy.ndarray
         Per group, in eV.
     """
-    n = rep_pos.size
-    if n == 0:
+    if rep_pos.size == 0:
         return np.zeros(0), np.zeros(0)
     sg = np.maximum(fwhm_eV, 1e-9) / 2.3548
     is_rep = u_pos == rep_pos[gid]
 
     def peak_at(w: np.ndarray) -> np.ndarray:
-        m = rep_pos.astype(np.float64, copy=True)
-        for _ in range(20):
-            k = w * np.exp(-0.5 * ((u_pos - m[gid]) / sg[gid]) ** 2)
-            den = np.bincount(gid, weights=k, minlength=n)
-            num = np.bincount(gid, weights=k * u_pos, minlength=n)
-            m = np.where(den > 0, num / np.maximum(den, 1e-300), m)
-        return m
+        return blend_maxima(u_pos, w, gid, rep_pos, sg, 20)
 
     f = 10.0 ** sigma_dex[gid]
     best = peak_at(u_e)

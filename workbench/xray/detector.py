@@ -39,6 +39,7 @@ from workbench.xray.instrument import DETECTOR_MATERIALS, Instrument
 __all__ = [
     "MN_KA_EV",
     "EscapeLine",
+    "blend_maxima",
     "detector_efficiency",
     "escape_fraction",
     "escape_lines",
@@ -76,6 +77,49 @@ def fwhm_eV(energy_eV: np.ndarray | float, instrument: Instrument) -> np.ndarray
     e = np.maximum(np.asarray(energy_eV, dtype=np.float64), 0.0)
     noise = noise_fwhm_eV(instrument)
     return np.sqrt(noise**2 + _GAUSS**2 * instrument.fano_factor * instrument.pair_energy_eV * e)
+
+
+def blend_maxima(
+    position_eV: np.ndarray,
+    weight: np.ndarray,
+    group: np.ndarray,
+    start_eV: np.ndarray,
+    sigma_eV: np.ndarray,
+    n_steps: int,
+) -> np.ndarray:
+    """Where each group of Gaussian lines peaks together, by mean shift (eV).
+
+    A group's lines, each a Gaussian of standard deviation ``sigma_eV`` (the
+    detector's, per group) weighted by ``weight``, add up to one peak; the
+    peak finder reports its maximum, not the strongest line (a Kα1/Kα2
+    doublet under a 150–200 eV FWHM peaks between them, nearer Kα1). From
+    ``start_eV`` each step moves to the Gaussian-weighted mean of the group's
+    lines around the current estimate; a fixed point is a stationary point
+    of the blend, reached in a few steps from the strongest line.
+
+    Parameters
+    ----------
+    position_eV, weight, group : numpy.ndarray
+        Energy, weight and group index (0 … n − 1) of every line.
+    start_eV, sigma_eV : numpy.ndarray
+        Per group: the starting estimate and the Gaussian σ.
+    n_steps : int
+        Mean-shift steps.
+
+    Returns
+    -------
+    numpy.ndarray
+        Per group, the estimate after ``n_steps`` (unchanged where a group's
+        weights vanish).
+    """
+    n = start_eV.size
+    m = np.asarray(start_eV, dtype=np.float64).copy()
+    for _ in range(n_steps):
+        k = weight * np.exp(-0.5 * ((position_eV - m[group]) / sigma_eV[group]) ** 2)
+        den = np.bincount(group, weights=k, minlength=n)
+        num = np.bincount(group, weights=k * position_eV, minlength=n)
+        m = np.where(den > 0, num / np.maximum(den, 1e-300), m)
+    return m
 
 
 def _mu(elements: tuple[tuple[str, float], ...], energy_keV: np.ndarray) -> np.ndarray:

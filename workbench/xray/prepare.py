@@ -37,7 +37,7 @@ import polars as pl
 from workbench.datamodel import FWHM_COLUMN, PeakList
 from workbench.errors import InsufficientDataError, ValueRangeError
 from workbench.xray.artefacts import artefact_table, label_peaks, predict_artefacts
-from workbench.xray.detector import fwhm_eV
+from workbench.xray.detector import blend_maxima, fwhm_eV
 from workbench.xray.energy_scale import EnergyScale, fit_energy_scale
 from workbench.xray.excitation import excitable, measurable
 from workbench.xray.instrument import DEFAULT_INSTRUMENT, Instrument
@@ -448,15 +448,19 @@ def _scale_pairs(
             continue
         sigma = fwhm[p] / 2.3548
         for fam in confirmed:
-            # Where the blend of this family's lines peaks: start at its main
-            # line and shift to the Gaussian-weighted mean of its lines
-            # (mean shift; converges to the blend's maximum in a few steps).
+            # Where the blend of this family's lines peaks, from its main line.
             mine = (r_sp == fam) & (np.abs(r_e - x[p]) <= 2.0 * fwhm[p]) & (r_rel >= 0.01)
             main = mine & (r_rel >= 0.5) & (np.abs(r_e - x[p]) <= half)
-            centroid = float(r_e[main][np.argmax(r_rel[main])])
-            for _ in range(10):
-                wgt = r_rel[mine] * np.exp(-0.5 * ((r_e[mine] - centroid) / sigma) ** 2)
-                centroid = float(np.sum(wgt * r_e[mine]) / np.sum(wgt))
+            centroid = float(
+                blend_maxima(
+                    r_e[mine],
+                    r_rel[mine],
+                    np.zeros(int(np.sum(mine)), dtype=np.intp),
+                    np.array([r_e[main][np.argmax(r_rel[main])]], dtype=np.float64),
+                    np.array([sigma]),
+                    10,
+                )[0]
+            )
             n_counts = max(float(snr[p]) ** 2, 1.0)
             obs.append(x[p])
             refs.append(centroid)
