@@ -31,3 +31,39 @@ def test_groups(species, position, resolution, expected):
 
 def test_empty():
     assert resolvable_groups(np.array([], int), np.array([]), np.array([])).size == 0
+
+
+@pytest.mark.parametrize(
+    ("position", "strength", "fwhm", "expected"),
+    [
+        # Ba L lines and their relative strengths as the shipped xray set
+        # gives them (Elam via xraylib): Lβ1 4828.3, Lβ4 4852.0, Lβ3 4926.0,
+        # Lβ6 4993.5, Lβ2 5154.4 eV. Chained by the weak Lβ6 at a 175 eV FWHM,
+        # but two maxima 1.9 FWHM apart with a dip to nearly nothing: split.
+        (
+            [4828.3, 4852.0, 4926.0, 4993.5, 5154.4],
+            [0.514, 0.059, 0.092, 0.0099, 0.181],
+            175.0,
+            [0, 0, 0, 0, 1],
+        ),
+        # Zn Kα2 8614.1 / Kα1 8637.2 eV (Elam; strengths 0.51 : 1): one maximum.
+        ([8614.1, 8637.2], [0.51, 1.0], 140.0, [0, 0]),
+        # Two equal lines 0.95 FWHM apart: the summed Gaussians dip to about
+        # 0.96 of the maxima (derivation), above Rayleigh's 0.81: one group.
+        ([0.0, 0.95], [1.0, 1.0], 1.0, [0, 0]),
+        # Unknown strengths (zeros) shape no profile: the chain stands.
+        ([4828.3, 4993.5, 5154.4], [0.0, 0.0, 0.0], 175.0, [0, 0, 0]),
+    ],
+)
+def test_chain_split_where_the_predicted_profile_is_resolved(position, strength, fwhm, expected):
+    n = len(position)
+    g = resolvable_groups(
+        np.zeros(n, dtype=np.int64),
+        np.array(position),
+        np.full(n, fwhm),
+        np.array(strength),
+    )
+    assert g.tolist() == expected
+    # Without strengths the chaining rule alone decides (one group here).
+    plain = resolvable_groups(np.zeros(n, dtype=np.int64), np.array(position), np.full(n, fwhm))
+    assert plain.tolist() == [0] * n

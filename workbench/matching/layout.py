@@ -229,7 +229,14 @@ def pass_layout(
     u_pos = index.position[usable_idx]
     u_sp = index.species[usable_idx]
     res = obs.resolution if obs.resolution is not None else obs.half_window
-    gid = resolvable_groups(u_sp, u_pos, np.interp(u_pos, obs.position, res))
+    # Energy axis: X-ray families' chains are split where their predicted
+    # profile is resolved (workbench.matching.groups).
+    gid = resolvable_groups(
+        u_sp,
+        u_pos,
+        np.interp(u_pos, obs.position, res),
+        e_zero[usable_idx] if index.axis == "energy" else None,
+    )
     n_groups = int(gid[-1]) + 1 if gid.size else 0
     line_group = np.full(index.n_lines, -1, dtype=np.int64)
     line_group[usable_idx] = gid
