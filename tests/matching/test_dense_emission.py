@@ -1,0 +1,75 @@
+"""Dense emission spectra: an absent line-rich species does not reach "probable".
+
+The truth is the construction of the invented lamp spectra
+(:mod:`tests.matching.invented_lamps`: only the named gases' own tabulated
+lines of the shipped optical set are put in; invented data): any other
+element at "probable" or above is a false call. The draws below
+are the fixed-seed cases in which engine 4123f2f (stop 21) called an absent
+line-rich element "probable" (``benchmarks/lamp_gases.py --seeds 6``, per
+variant): V I, Gd I, Ce I+II, Nd II. Their hits were lamp-gas lines drawn
+above their tabulated strength (the lamps' 0.8 dex scatter, the
+``discharge-lamp`` model's own σ), found by an established gas that
+predicts them at 6–20 % of their height: below the 30 % at which the joint
+step (:mod:`workbench.matching.joint`) counts a peak as explained, so they
+stay the absent species' hits, counted and unique. A known gap: every rule
+tried at stop 22 that removed these calls cost true calls elsewhere
+(``docs/evidence-model.md``, section 7), so the test is a strict xfail
+that records it. When it passes, the gases must also stay
+"established" where they have ≥ 6 clearly present lines (engine 4123f2f:
+all of them are, in these six draws).
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from tests.matching.invented_lamps import (
+    LAMPS,
+    RANGES,
+    LampCase,
+    clear_lines,
+    draw_lamp,
+    run_lamp,
+)
+from workbench.refdata import load_set
+
+
+@pytest.fixture(scope="module")
+def optical():
+    return load_set("optical")
+
+
+def _case(lamp: str, lo_nm: float, resolving_power: float, seed: int, variant: str) -> LampCase:
+    lo, hi, medium = next(r for r in RANGES if r[0] == lo_nm)
+    return LampCase(lamp, LAMPS[lamp], lo, hi, medium, resolving_power, seed, variant)
+
+
+# (lamp, range start nm, R, seed, variant, the absent element engine 4123f2f
+# called "probable"): lamp_cases(6, variant=...) draws, seed 20261203.
+FALSE_PROBABLE_DRAWS = [
+    ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 564351200, "comparable", "V"),
+    ("Xe", 550.0, 1000.0, 1897802466, "unequal", "Gd"),
+    ("Ne+Ar+Hg+Kr+Xe", 400.0, 2000.0, 1575577883, "unequal", "Ce"),
+    ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 1923360067, "unequal", "Ce"),
+    ("Ne+Ar+Hg+Kr+Xe", 400.0, 1000.0, 23017169, "saturated", "Gd"),
+    ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 564351200, "saturated", "Nd"),
+]
+
+
+@pytest.mark.slow
+@pytest.mark.xfail(
+    strict=True,
+    reason="known gap (stop 22, docs/evidence-model.md section 7): the absent species' "
+    "hits are lamp-gas lines the gases predict at 6-20 % of their height, not "
+    "'explained' by the joint step; no rule tried removed them without costing true calls",
+)
+@pytest.mark.parametrize(("lamp", "lo_nm", "r", "seed", "variant", "absent"), FALSE_PROBABLE_DRAWS)
+def test_absent_line_rich_species_not_probable(optical, lamp, lo_nm, r, seed, variant, absent):
+    """No element that was not put in reaches "probable"; the gases stay "established"."""
+    case = _case(lamp, lo_nm, r, seed, variant)
+    best = run_lamp(optical, case)
+    false_calls = {e: lv for e, lv in best.items() if e not in case.gases and lv >= 2}
+    assert false_calls == {}, absent
+    clear = clear_lines(case, *draw_lamp(optical, case)[:3])
+    weak = {g: best.get(g, 0) for g, n in clear.items() if n >= 6 and best.get(g, 0) < 3}
+    assert weak == {}
