@@ -10,13 +10,13 @@ variant): V I, Gd I, Ce I+II, Nd II. Their hits were lamp-gas lines drawn
 above their tabulated strength (the lamps' 0.8 dex scatter, the
 ``discharge-lamp`` model's own σ), found by an established gas that
 predicts them at 6–20 % of their height: below the 30 % at which the joint
-step (:mod:`workbench.matching.joint`) counts a peak as explained, so they
-stay the absent species' hits, counted and unique. A known gap: every rule
-tried at stop 22 that removed these calls cost true calls elsewhere
-(``docs/evidence-model.md``, section 7), so the test is a strict xfail
-that records it. When it passes, the gases must also stay
-"established" where they have ≥ 6 clearly present lines (engine 4123f2f:
-all of them are, in these six draws).
+step (:mod:`workbench.matching.joint`) counted a peak as explained, so they
+stayed the absent species' hits, counted and unique. The joint step now
+lets the better species explain a peak its prediction accounts for within
+2σ of its own model when it is the closer account; two draws remain known
+gaps (strict xfail). The gases must stay "established" where they have
+≥ 6 clearly present lines (engine 4123f2f: all of them are, in these six
+draws).
 """
 
 from __future__ import annotations
@@ -46,23 +46,28 @@ def _case(lamp: str, lo_nm: float, resolving_power: float, seed: int, variant: s
 
 # (lamp, range start nm, R, seed, variant, the absent element engine 4123f2f
 # called "probable"): lamp_cases(6, variant=...) draws, seed 20261203.
+_V_GAP = pytest.mark.xfail(
+    strict=True,
+    reason="known gap (docs/evidence-model.md section 7): V I hits 13 of 16 groups; "
+    "it predicts most of those peaks at >= 30 % of their height itself (a blend "
+    "for the joint step), closeness 0.33",
+)
+_CE_GAP = pytest.mark.xfail(
+    strict=True,
+    reason="known gap (docs/evidence-model.md section 7): Ce I (net 0.6) and Ce II "
+    "(net 0.1) pooled reach 'probable'",
+)
 FALSE_PROBABLE_DRAWS = [
-    ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 564351200, "comparable", "V"),
+    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 564351200, "comparable", "V", marks=_V_GAP),
     ("Xe", 550.0, 1000.0, 1897802466, "unequal", "Gd"),
     ("Ne+Ar+Hg+Kr+Xe", 400.0, 2000.0, 1575577883, "unequal", "Ce"),
-    ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 1923360067, "unequal", "Ce"),
+    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 1923360067, "unequal", "Ce", marks=_CE_GAP),
     ("Ne+Ar+Hg+Kr+Xe", 400.0, 1000.0, 23017169, "saturated", "Gd"),
     ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 564351200, "saturated", "Nd"),
 ]
 
 
 @pytest.mark.slow
-@pytest.mark.xfail(
-    strict=True,
-    reason="known gap (stop 22, docs/evidence-model.md section 7): the absent species' "
-    "hits are lamp-gas lines the gases predict at 6-20 % of their height, not "
-    "'explained' by the joint step; no rule tried removed them without costing true calls",
-)
 @pytest.mark.parametrize(("lamp", "lo_nm", "r", "seed", "variant", "absent"), FALSE_PROBABLE_DRAWS)
 def test_absent_line_rich_species_not_probable(optical, lamp, lo_nm, r, seed, variant, absent):
     """No element that was not put in reaches "probable"; the gases stay "established"."""
