@@ -20,13 +20,57 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from tests.matching.invented_lamps import clear_lines, draw_lamp, lamp_cases, run_lamp
+import numpy as np
+from scipy import special
+
+from tests.matching.invented_lamps import (
+    analyse_lamp,
+    clear_lines,
+    draw_lamp,
+    lamp_cases,
+    run_lamp,
+)
+from workbench.matching.evidence import local_density
 from workbench.refdata import load_set
+
+
+def false_call_detail(outcome, element: str) -> list[str]:
+    """The evidence of an absent element's species at probable or above, one line each.
+
+    Counted groups k of n (visible, neither masked, crowded nor explained),
+    unique peaks, the binomial chance p with the mean per-group hit chance,
+    the closeness probability, the corrected p, the missing-line penalty, the
+    net evidence, and the local peak density at the counted hits relative to
+    the spectrum's average (:func:`workbench.matching.evidence.local_density`).
+    """
+    res = outcome.result
+    ev_pass, obs = res.evidence, res.observed
+    out = []
+    for ev in ev_pass.evidence.values():
+        if ev.element != element or ev.level < 2:
+            continue
+        g = ev.groups
+        nset = g["visible"] & ~g["masked"] & ~g["crowded"] & ~g["explained"]
+        hit = nset & g["found"]
+        k, n = int(hit.sum()), int(nset.sum())
+        p_mean = float(np.mean(g["p_line"][nset])) if n else float("nan")
+        binom = float(special.betainc(k, n - k + 1, p_mean)) if k else 1.0
+        ratio = local_density(obs, g["position"][hit]) / ev_pass.density
+        out.append(
+            f"     {ev.label}: k/n {k}/{n} unique {ev.n_unique_peaks} matched"
+            f" {ev.n_groups_matched} p_line {p_mean:.3f} binom {binom:.2e}"
+            f" closeness {ev.closeness_probability:.2e} p_corr"
+            f" {ev.chance_probability_corrected:.2e} penalty {ev.missing_penalty_dex:+.2f}"
+            f" net {ev.net_evidence_dex:.2f} local/avg density at hits"
+            f" {np.array2string(ratio, precision=1)} offsets_u"
+            f" {np.array2string(g['offset_u'][hit], precision=2)}"
+        )
+    return out
 
 
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--seeds", type=int, default=3, help="draws per lamp, range and R")
+    ap.add_argument("--seeds", type=int, default=6, help="draws per lamp, range and R")
     ap.add_argument("--variant", default="comparable", help="comparable, unequal, saturated")
     ap.add_argument("--by-r", action="store_true", help="one row per resolving power too")
     args = ap.parse_args()
@@ -37,9 +81,11 @@ def main() -> None:
     prob = defaultdict(int)
     n = defaultdict(int)
     false_calls = []
+    details = []
     by_clear = defaultdict(lambda: [0, 0, 0])
     for c in cases:
-        best = run_lamp(optical, c)
+        outcome = analyse_lamp(optical, c)
+        best = run_lamp(optical, c, outcome=outcome)
         pos, height, el, _ = draw_lamp(optical, c)
         for g, n_clear in clear_lines(c, pos, height, el).items():
             b = by_clear[(g, "0-2" if n_clear < 3 else "3-5" if n_clear < 6 else "6+")]
@@ -55,6 +101,7 @@ def main() -> None:
         for e, lv in best.items():
             if e not in c.gases and lv >= 2:
                 false_calls.append((c.lamp, c.lo_nm, c.resolving_power, c.seed, e, lv))
+                details.append(false_call_detail(outcome, e))
     print(
         f"invented lamp spectra ({args.variant}): {len(cases)} ({time.perf_counter() - t0:.0f} s)"
     )
@@ -68,8 +115,10 @@ def main() -> None:
     for (g, b), (m, e, p) in sorted(by_clear.items()):
         print(f"  {g:<3} {b:>4} clear lines: established {e:>3}/{m:<3} probable+ {p:>3}/{m:<3}")
     print(f"false calls (absent element at probable or above): {len(false_calls)}")
-    for f in false_calls:
+    for f, d in zip(false_calls, details, strict=True):
         print("  ", f)
+        for line in d:
+            print(line)
 
 
 if __name__ == "__main__":

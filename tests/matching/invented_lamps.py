@@ -175,13 +175,18 @@ def render_lamp(optical, case: LampCase) -> Spectrum:
     return Spectrum(x, y, "wavelength", case.medium)
 
 
-def run_lamp(optical, case: LampCase, params=None) -> dict[str, int]:
-    """Best class (0–3) per element after the user's path: peak finding, then matching."""
+def analyse_lamp(optical, case: LampCase, params=None):
+    """The user's path on one lamp case: peak finding, then matching (an ``AnalysisOutcome``)."""
     from workbench.matching.analyse import analyse_spectrum
     from workbench.matching.engine import MatchParameters
 
     spec = render_lamp(optical, case)
-    outcome = analyse_spectrum(spec, None, params or MatchParameters(mode="emission"))
+    return analyse_spectrum(spec, None, params or MatchParameters(mode="emission"))
+
+
+def run_lamp(optical, case: LampCase, params=None, outcome=None) -> dict[str, int]:
+    """Best class (0–3) per element after the user's path: peak finding, then matching."""
+    outcome = outcome or analyse_lamp(optical, case, params)
     best: dict[str, int] = {}
     for sp in outcome.report["elements"]:
         best[sp["element"]] = max(best.get(sp["element"], 0), sp["verdict_level"])

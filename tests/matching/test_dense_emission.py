@@ -1,0 +1,80 @@
+"""Dense emission spectra: an absent line-rich species does not reach "probable".
+
+The truth is the construction of the invented lamp spectra
+(:mod:`tests.matching.invented_lamps`: only the named gases' own tabulated
+lines of the shipped optical set are put in; invented data): any other
+element at "probable" or above is a false call. The draws below
+are the fixed-seed cases in which engine 4123f2f (stop 21) called an absent
+line-rich element "probable" (``benchmarks/lamp_gases.py --seeds 6``, per
+variant): V I, Gd I, Ce I+II, Nd II. Their hits were lamp-gas lines drawn
+above their tabulated strength (the lamps' 0.8 dex scatter, the
+``discharge-lamp`` model's own σ), found by an established gas that
+predicts them at 6–20 % of their height: below the 30 % at which the joint
+step (:mod:`workbench.matching.joint`) counted a peak as explained, so they
+stayed the absent species' hits, counted and unique. The joint step now
+lets the better species explain a peak its prediction accounts for within
+2σ of its own model when it is the closer account; two draws remain known
+gaps (strict xfail). The gases must stay "established" where they have
+≥ 6 clearly present lines (engine 4123f2f: all of them are, in these six
+draws).
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from tests.matching.invented_lamps import (
+    LAMPS,
+    RANGES,
+    LampCase,
+    clear_lines,
+    draw_lamp,
+    run_lamp,
+)
+from workbench.refdata import load_set
+
+
+@pytest.fixture(scope="module")
+def optical():
+    return load_set("optical")
+
+
+def _case(lamp: str, lo_nm: float, resolving_power: float, seed: int, variant: str) -> LampCase:
+    lo, hi, medium = next(r for r in RANGES if r[0] == lo_nm)
+    return LampCase(lamp, LAMPS[lamp], lo, hi, medium, resolving_power, seed, variant)
+
+
+# (lamp, range start nm, R, seed, variant, the absent element engine 4123f2f
+# called "probable"): lamp_cases(6, variant=...) draws, seed 20261203.
+_V_GAP = pytest.mark.xfail(
+    strict=True,
+    reason="known gap (docs/evidence-model.md section 7): V I hits 13 of 16 groups; "
+    "it predicts most of those peaks at >= 30 % of their height itself (a blend "
+    "for the joint step), closeness 0.33",
+)
+_CE_GAP = pytest.mark.xfail(
+    strict=True,
+    reason="known gap (docs/evidence-model.md section 7): Ce I (net 0.6) and Ce II "
+    "(net 0.1) pooled reach 'probable'",
+)
+FALSE_PROBABLE_DRAWS = [
+    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 564351200, "comparable", "V", marks=_V_GAP),
+    ("Xe", 550.0, 1000.0, 1897802466, "unequal", "Gd"),
+    ("Ne+Ar+Hg+Kr+Xe", 400.0, 2000.0, 1575577883, "unequal", "Ce"),
+    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 1923360067, "unequal", "Ce", marks=_CE_GAP),
+    ("Ne+Ar+Hg+Kr+Xe", 400.0, 1000.0, 23017169, "saturated", "Gd"),
+    ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 564351200, "saturated", "Nd"),
+]
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize(("lamp", "lo_nm", "r", "seed", "variant", "absent"), FALSE_PROBABLE_DRAWS)
+def test_absent_line_rich_species_not_probable(optical, lamp, lo_nm, r, seed, variant, absent):
+    """No element that was not put in reaches "probable"; the gases stay "established"."""
+    case = _case(lamp, lo_nm, r, seed, variant)
+    best = run_lamp(optical, case)
+    false_calls = {e: lv for e, lv in best.items() if e not in case.gases and lv >= 2}
+    assert false_calls == {}, absent
+    clear = clear_lines(case, *draw_lamp(optical, case)[:3])
+    weak = {g: best.get(g, 0) for g, n in clear.items() if n >= 6 and best.get(g, 0) < 3}
+    assert weak == {}
