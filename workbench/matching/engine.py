@@ -245,7 +245,7 @@ def _observed(
     nc = peaks.extra.get("noise_curve") if isinstance(peaks.extra, dict) else None
     if dl is not None and nc is not None:
         curve = (np.asarray(nc[0], dtype=float), params.detection_snr * np.asarray(nc[1]))
-    signif = height_snr = None
+    signif = height_snr = pos_sigma = None
     if isinstance(peaks.extra, dict) and peaks.extra.get("xray_prepared") and "snr" in t.columns:
         # X-ray: the prepared "snr" is each peak's counting significance and
         # "snr_channel" its height over one channel's counting noise
@@ -253,9 +253,12 @@ def _observed(
         signif = t["snr"].cast(pl.Float64).fill_null(np.nan).to_numpy()
         if "snr_channel" in t.columns:
             height_snr = t["snr_channel"].cast(pl.Float64).fill_null(np.nan).to_numpy()
+        if "position_sigma_eV" in t.columns:
+            pos_sigma = t["position_sigma_eV"].cast(pl.Float64).fill_null(np.nan).to_numpy()
     return ObservedLines(
         significance=signif,
         height_snr=height_snr,
+        position_sigma=pos_sigma,
         detection_curve=curve,
         position=x,
         intensity=inten,

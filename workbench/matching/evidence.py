@@ -111,6 +111,10 @@ class ObservedLines:
     #: Height over one channel's counting noise, h/√(h + b), of each peak
     #: (energy axis, :mod:`workbench.xray.prepare`); None elsewhere.
     height_snr: np.ndarray | None = None
+    #: Standard error of each peak's centre from a fit of the detector's line
+    #: shape (energy axis, :mod:`workbench.xray.centroid`; NaN where not
+    #: fitted); None elsewhere.
+    position_sigma: np.ndarray | None = None
 
     def detection_limit_at(self, x: np.ndarray) -> np.ndarray:
         """Detection limit at positions ``x`` (the scalar limit where no curve is known)."""
@@ -247,7 +251,10 @@ def _xray_terms(
       noisy Gaussian peak wanders where the peak is within about one noise
       unit of its maximum,
       |x| ≲ σ·√(2/SNR) (derivation, no source), which for weak peaks is far
-      more than the centroid's counting error.
+      more than the centroid's counting error. Where the peak's centre was
+      fitted with the detector's line shape (``obs.position_sigma``,
+      :mod:`workbench.xray.centroid`), that fit's standard error replaces
+      the wander term.
     * ``significance``: the peak's counting significance N/√(N + 2B)
       (``obs.significance``, from :mod:`workbench.xray.prepare`; ``snr``
       where that is not known), for the sole-explanation rule.
@@ -273,6 +280,10 @@ def _xray_terms(
         own = obs.height_snr[pk]
         snr_top = np.where(np.isfinite(own) & (own > 0), own, snr)
     sig_c = (res[pk] / 2.355) / np.sqrt(np.maximum(snr_top, 1.0))
+    if obs.position_sigma is not None:
+        # A fitted centre's own standard error where the line shape was fitted.
+        fitted = obs.position_sigma[pk]
+        sig_c = np.where(np.isfinite(fitted), fitted, sig_c)
     blend = g.get("blend_sigma", g["position"] - rep_pos)
     sigma_pos = np.sqrt(XRAY_CALIBRATION_SIGMA_EV**2 + XRAY_LINE_SIGMA_EV**2 + blend**2 + sig_c**2)
     if obs.significance is not None:
