@@ -1,6 +1,6 @@
 """XRF confusion table on the forward-model cases, beside another commit's.
 
-Run: ``uv run --extra test python benchmarks/xrf_confusion.py [--ref main]``
+Run: ``uv run --extra test python benchmarks/xrf_confusion.py [--ref main] [--scale-offset EV]``
 
 The cases of ``tests/xray/cases.py`` (5 invented samples × detector FWHM
 130/180 eV × 2 seeds, spectra from :mod:`workbench.xray.forward`, xraylib
@@ -22,7 +22,15 @@ per-case figures are printed side by side:
   ``hidden`` (under an element line at least 30 % as strong: not a peak
   of its own), ``evidence`` (unlabelled and used as evidence for an
   element), ``lost`` (unlabelled, no peak found there);
-* the Ba L / Ti K interference on the Ti-bearing fabric, when reported.
+* the Ba L / Ti K interference on the Ti-bearing fabric, when reported;
+* with ``--scale-offset EV``: the energy axis read that far off (shown =
+  true + EV, ``run_case``'s ``scale_offset_eV``; both sides use the working
+  copy's ``tests/xray/cases.py`` so that the older code sees the same
+  drifted spectra) and, per case, the scale after matching
+  (``xray.energy_scale_matched``: offset ± uncertainty, applied or not,
+  when the code has it). Artefact fates are judged against true energies
+  while the result shows drifted ones (windows of 2 half-FWHM, ≥ 130 eV,
+  against a drift of 20 eV at most).
 
 Prints; asserts nothing and times nothing.
 """
@@ -38,11 +46,12 @@ ROOT = Path(__file__).resolve().parents[1]
 _LEVEL = {"established": 3, "probable": 2, "possible": 1, "not supported": 0}
 
 
-def compute(held_out: bool = False) -> dict[str, dict]:
+def compute(held_out: bool = False, scale_offset_eV: float = 0.0) -> dict[str, dict]:
     """Per case (``case fwhm seed``): the figures of the module docstring.
 
     ``held_out``: the third seed of ``tests/xray/cases.py`` (kept aside as a
     check, never used to choose a rule) instead of the first two.
+    ``scale_offset_eV``: the energy axis read that far off.
     """
     import polars as pl
 
@@ -55,7 +64,10 @@ def compute(held_out: bool = False) -> dict[str, dict]:
         for fwhm in RESOLUTIONS_EV:
             inst = instrument(fwhm)
             for seed in SEEDS[2:] if held_out else SEEDS[:2]:
-                fs, rep = run_case(case, fwhm, seed)
+                if scale_offset_eV:
+                    fs, rep = run_case(case, fwhm, seed, scale_offset_eV=scale_offset_eV)
+                else:
+                    fs, rep = run_case(case, fwhm, seed)
                 sample = {el for layer in CASES[case] for el in layer.composition}
                 truth = _truth(fs, fwhm)
                 called = {e["species"]: e["verdict"] for e in rep["elements"]}
@@ -130,20 +142,36 @@ def compute(held_out: bool = False) -> dict[str, dict]:
                     ),
                     "artefacts": fate,
                     "ba_ti": [w["message"][:160] for w in inter],
+                    "scale": _scale_text(rep["xray"].get("energy_scale_matched")),
                 }
     return out
 
 
-def ref_results(ref: str, held_out: bool = False) -> dict[str, dict]:
+def _scale_text(m: dict | None) -> str:
+    """The scale after matching in a few characters ("" when the code has none)."""
+    if not m or not m.get("n_pairs"):
+        return "" if m is None else "no pairs"
+    return (
+        f"{m['offset_eV']:+.1f}±{m['offset_uncertainty_eV']:.1f} eV"
+        f"{' applied' if m['applied'] else ''}"
+    )
+
+
+def ref_results(ref: str, held_out: bool = False, scale_offset_eV: float = 0.0) -> dict[str, dict]:
     """The figures computed by the code of commit ``ref``."""
     from at_commit import run_at_commit
 
+    args = ["--json-only"] + (["--held-out"] if held_out else [])
+    if scale_offset_eV:
+        args += ["--scale-offset", repr(scale_offset_eV)]
     return json.loads(
         run_at_commit(
             ref,
             ["workbench", "reference_sets", "tests/__init__.py", "tests/xray"],
             ["xrf_confusion.py"],
-            ["--json-only"] + (["--held-out"] if held_out else []),
+            args,
+            # The drift is an argument of the working copy's run_case only.
+            working_files=("tests/xray/cases.py",) if scale_offset_eV else (),
         )
     )
 
@@ -163,14 +191,22 @@ def main() -> None:
     ap.add_argument("--ref", default="main", help="git commit or branch to compare with")
     ap.add_argument("--no-ref", action="store_true", help="only the working copy")
     ap.add_argument("--held-out", action="store_true", help="the held-out seed (11) only")
+    ap.add_argument(
+        "--scale-offset",
+        type=float,
+        default=0.0,
+        metavar="EV",
+        help="read the energy axis this far off (shown = true + EV)",
+    )
     ap.add_argument("--json-only", action="store_true", help=argparse.SUPPRESS)
     args = ap.parse_args()
     if args.json_only:
-        print(json.dumps(compute(args.held_out), default=lambda o: o.item()))  # numpy scalars
+        out = compute(args.held_out, args.scale_offset)
+        print(json.dumps(out, default=lambda o: o.item()))  # numpy scalars
         return
     sys.path.insert(0, str(ROOT))
-    now = compute(args.held_out)
-    old = None if args.no_ref else ref_results(args.ref, args.held_out)
+    now = compute(args.held_out, args.scale_offset)
+    old = None if args.no_ref else ref_results(args.ref, args.held_out, args.scale_offset)
     head = "prob+/pres top/snr>10 abs≥prob n_poss art lab/list/hid/evi/lost"
     print(f"{'case':<32} {'working copy: ' + head:<62}" + ("" if old is None else f" | {args.ref}"))
     tot_new: dict[str, int] = {}
@@ -184,6 +220,8 @@ def main() -> None:
             print(f"{'':<34}below target: {' '.join(r['missed'])}")
         for msg in r["ba_ti"]:
             print(f"{'':<34}Ba/Ti: {msg}")
+        if r.get("scale"):
+            print(f"{'':<34}scale after matching: {r['scale']}")
         for tot, rr in ((tot_new, r), (tot_old, (old or {}).get(key))):
             if rr is None:
                 continue

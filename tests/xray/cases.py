@@ -76,12 +76,26 @@ def instrument(fwhm: float) -> Instrument:
     return replace(Instrument(name="test unit"), fwhm_MnKa_eV=fwhm)
 
 
-def run_case(name: str, fwhm: float, seed: int) -> tuple[ForwardSpectrum, dict]:
-    """Model the case, find peaks, match on the shipped xray set; (model, report)."""
+def run_case(
+    name: str,
+    fwhm: float,
+    seed: int,
+    scale_offset_eV: float = 0.0,
+    scale_gain: float = 1.0,
+    apply_calibration: bool | None = None,
+) -> tuple[ForwardSpectrum, dict]:
+    """Model the case, find peaks, match on the shipped xray set; (model, report).
+
+    ``scale_offset_eV`` and ``scale_gain`` read the energy axis off as a
+    drifted unit would show it: shown = scale_gain · true + scale_offset_eV
+    (the counts stay in their channels; defaults: the true axis).
+    ``apply_calibration`` is passed to :class:`MatchParameters`.
+    """
     inst = instrument(fwhm)
     fs = forward_model(CASES[name], inst, rng=np.random.default_rng(seed))
     keep = fs.energy_eV >= 1000.0  # below ~1 keV a handheld unit shows only noise
-    spec = Spectrum(fs.energy_eV[keep], fs.counts[keep], "energy", None)
+    shown_eV = scale_gain * fs.energy_eV[keep] + scale_offset_eV
+    spec = Spectrum(shown_eV, fs.counts[keep], "energy", None)
     with warnings.catch_warnings():
         # scipy warns "some peaks have a width of 0" on single-channel Poisson
         # spikes (a peaks-module issue reported to the lead); not an XRF matter.
@@ -89,5 +103,6 @@ def run_case(name: str, fwhm: float, seed: int) -> tuple[ForwardSpectrum, dict]:
         peaks = find_peaks(spec, snip_iterations=snip_iterations_for(inst, 10.0))
     peaks.extra.setdefault("x_range", (float(spec.x[0]), float(spec.x[-1])))
     peaks.extra["spectrum"] = (spec.x, spec.y)  # as workbench.matching.analyse passes it
-    rep = match_peaks(peaks, [load_set("xray")], MatchParameters(instrument=inst)).report()
+    params = MatchParameters(instrument=inst, apply_calibration=apply_calibration)
+    rep = match_peaks(peaks, [load_set("xray")], params).report()
     return fs, rep

@@ -167,7 +167,7 @@ def _engine(energy_eV, counts, fit_fwhm):
     return {e["species"]: e["verdict"] for e in rep["elements"]}
 
 
-def _report(energy_eV, counts, fit_fwhm):
+def _report(energy_eV, counts, fit_fwhm, apply_calibration=None):
     """The engine's report, run as tests.xray.cases.run_case runs it."""
     inst = instrument(fit_fwhm)
     keep = energy_eV >= 1000.0
@@ -177,7 +177,8 @@ def _report(energy_eV, counts, fit_fwhm):
         peaks = find_peaks(spec, snip_iterations=snip_iterations_for(inst, 10.0))
     peaks.extra.setdefault("x_range", (float(spec.x[0]), float(spec.x[-1])))
     peaks.extra["spectrum"] = (spec.x, spec.y)
-    return match_peaks(peaks, [load_set("xray")], MatchParameters(instrument=inst)).report()
+    params = MatchParameters(instrument=inst, apply_calibration=apply_calibration)
+    return match_peaks(peaks, [load_set("xray")], params).report()
 
 
 def _lead_white(true_fwhm):

@@ -552,6 +552,7 @@ def prepare_energy_peaks(
     peaks: PeakList,
     instrument: Instrument | None,
     reference: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None,
+    apply_scale: bool | None = None,
 ) -> tuple[PeakList, XrayPreparation]:
     """Apply the X-ray physics to an energy-axis peak list (see the module docstring).
 
@@ -563,6 +564,10 @@ def prepare_energy_peaks(
         The instrument; the documented default (with a warning) when ``None``.
     reference : (species label, energy_eV, rel_intensity) arrays, optional
         Reference lines for the energy-scale check; no check without them.
+    apply_scale : bool or None
+        The check's correction: applied when significant (None, the
+        default), whenever it has pairs (True), never (False; it is still
+        reported).
 
     Returns
     -------
@@ -618,7 +623,7 @@ def prepare_energy_peaks(
     snr_use = np.where(usable, snr, np.nan)
     o, r, s, names = _scale_pairs(x, snr_use, w_det, reference)
     scale = fit_energy_scale(o, r, s, names)
-    if scale.significant:
+    if scale.n_pairs and (scale.significant if apply_scale is None else apply_scale):
         x = scale.correct(x)
         scale = EnergyScale(**{**scale.__dict__, "applied": True})
         arts, labels = artefacts_at(x)

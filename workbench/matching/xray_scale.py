@@ -1,0 +1,140 @@
+"""Energy scale of an XRF spectrum measured from what the engine decided.
+
+The check before matching (``workbench.xray.prepare``) pairs peaks with
+line families before anything is decided and, to stay clear of chance
+alignments, accepts few pairs and only corrections above 20 eV. A handheld
+unit that drifted by 10–20 eV goes unseen there, and near the edge of the
+evidence's position allowance an absent family can fit the shifted lines
+better than the true one. After the first full match the engine has
+decided which families are present; their lines measure the scale far
+better (:func:`matched_scale`):
+
+* *anchors* are families called probable or established whose main group
+  (the group of the highest predicted strength) is found on a peak of
+  counting significance ≥ :data:`ANCHOR_MIN_SIGNIFICANCE` that no other
+  family called probable or better also claims (a family called "possible"
+  is not decided: chance L lines of rare earths near every strong K peak
+  would otherwise leave no anchor at all). M families are no anchors:
+  the position of their blend's maximum hangs on intra-family ratios
+  (sub-shell vacancies, Coster-Kronig) too uncertain to place it to a few
+  eV, and below ~3 keV peaks carry incomplete-charge tails (the same rule
+  as before matching; common practice, no source);
+* each anchor gives a pair for every found group on a peak no other
+  family claims, with counting significance ≥ :data:`PAIR_MIN_SIGNIFICANCE`
+  and within the group's half-window, and is used only with two such pairs
+  or more (a family seen in one line only is not confirmed on this scale:
+  that is how a wrong family fits a drifted line, e.g. Re Lα on the Zn Kα
+  peak of a brass read 20 eV high, its Lβ shared with Pb Lα). A pair is
+  the peak's measured centre against
+  the group's blend maximum at the detector resolution (``blend_max``, what
+  the evidence compares the peak with). Its σ is the evidence's position σ
+  without the calibration allowance: √(line² + blend² + peak²), the
+  tabulation error, the blend maximum's uncertainty under the model's
+  intensity ratios and the wander of a noisy peak's top;
+* :func:`workbench.xray.energy_scale.fit_matched_scale` fits the scale
+  robustly by family (a wrong family called on a drifted scale is dropped
+  as a whole, and a single family's reading does not stand against a
+  majority) and decides significance.
+
+Positions are taken back to the energies the spectrum *shows* when the
+check before matching already corrected them, so the result is the whole
+correction from the shown axis and supersedes that check's.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from workbench.matching.evidence import XRAY_CALIBRATION_SIGMA_EV, EvidencePass, ObservedLines
+from workbench.matching.reference import ReferenceIndex
+from workbench.xray.energy_scale import EnergyScale, fit_matched_scale
+
+__all__ = ["ANCHOR_MIN_SIGNIFICANCE", "PAIR_MIN_SIGNIFICANCE", "matched_scale"]
+
+#: An anchor family's main line sits on a peak at least this significant in
+#: counting statistics (the strong-peak bound of the check before matching;
+#: common practice, no source).
+ANCHOR_MIN_SIGNIFICANCE: float = 30.0
+#: Other lines of an anchor give pairs from this counting significance on
+#: (well above the 3σ detection limit, so the peak is the line's and not a
+#: chance maximum; common practice, no source).
+PAIR_MIN_SIGNIFICANCE: float = 10.0
+
+
+def matched_scale(
+    obs: ObservedLines,
+    ev_pass: EvidencePass,
+    index: ReferenceIndex,
+    before: EnergyScale | None = None,
+) -> EnergyScale:
+    """The energy scale from the decided families' lines (module docstring).
+
+    Parameters
+    ----------
+    obs : ObservedLines
+        The peaks as matched (energy axis, eV).
+    ev_pass : EvidencePass
+        The final evidence of the match, classes decided.
+    index : ReferenceIndex
+        The reference index of the match.
+    before : EnergyScale, optional
+        The check before matching; when it was applied, observed positions
+        are taken back to the energies shown.
+
+    Returns
+    -------
+    EnergyScale
+        ``stage`` "matched families"; not applied.
+    """
+    claims = np.zeros(obs.position.size, dtype=np.int64)
+    for ev in ev_pass.evidence.values():
+        g = ev.groups
+        if ev.level < 2 or not g or "delta" not in g:
+            continue
+        claims[np.unique(g["peak"][g["found"]])] += 1
+    shown = obs.position
+    if before is not None and before.applied:
+        shown = (obs.position - before.offset_eV) / before.gain
+    sig = (
+        np.nan_to_num(obs.significance)
+        if obs.significance is not None
+        else np.zeros(obs.position.size)
+    )
+    o: list[float] = []
+    r: list[float] = []
+    s: list[float] = []
+    fam: list[str] = []
+    names: list[str] = []
+    for ev in sorted(ev_pass.evidence.values(), key=lambda v: v.label):
+        g = ev.groups
+        if ev.level < 2 or not g or "blend_max" not in g or ev.label.endswith(" M"):
+            continue
+        main = int(np.argmax(g["strength"]))
+        pk = g["peak"]
+        if not (
+            g["found"][main] and claims[pk[main]] == 1 and sig[pk[main]] >= ANCHOR_MIN_SIGNIFICANCE
+        ):
+            continue
+        mine: list[tuple[float, float, float, str]] = []
+        for i in np.flatnonzero(g["found"]):
+            p = int(pk[i])
+            delta = float(g["delta"][i])
+            if (
+                claims[p] != 1
+                or sig[p] < PAIR_MIN_SIGNIFICANCE
+                or not abs(delta) <= obs.half_window[p]
+            ):
+                continue
+            # The evidence's position σ without its calibration allowance.
+            s2 = float(g["sigma_pos"][i]) ** 2 - XRAY_CALIBRATION_SIGMA_EV**2
+            bm = float(g["blend_max"][i])
+            mine.append((float(shown[p]), bm, float(np.sqrt(max(s2, 1e-6))), f"{bm:.0f} eV"))
+        if len(mine) < 2:
+            continue  # one line: the family is not confirmed on this scale
+        for xo, bm, sd, nm in mine:
+            o.append(xo)
+            r.append(bm)
+            s.append(sd)
+            fam.append(ev.label)
+            names.append(f"{ev.label} {nm}")
+    return fit_matched_scale(np.array(o), np.array(r), np.array(s), np.array(fam), tuple(names))
