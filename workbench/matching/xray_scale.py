@@ -30,7 +30,9 @@ better (:func:`matched_scale`):
   the evidence compares the peak with). Its σ is the evidence's position σ
   without the calibration allowance: √(line² + blend² + peak²), the
   tabulation error, the blend maximum's uncertainty under the model's
-  intensity ratios and the wander of a noisy peak's top;
+  intensity ratios and the peak centre's own error (a fitted centre's
+  standard error, or the wander of a noisy peak's top), and a
+  peak-shape allowance :data:`PAIR_SHAPE_SIGMA_EV`;
 * :func:`workbench.xray.energy_scale.fit_matched_scale` fits the scale
   robustly by family (a wrong family called on a drifted scale is dropped
   as a whole, and a single family's reading does not stand against a
@@ -49,7 +51,7 @@ from workbench.matching.evidence import XRAY_CALIBRATION_SIGMA_EV, EvidencePass,
 from workbench.matching.reference import ReferenceIndex
 from workbench.xray.energy_scale import EnergyScale, fit_matched_scale
 
-__all__ = ["ANCHOR_MIN_SIGNIFICANCE", "PAIR_MIN_SIGNIFICANCE", "matched_scale"]
+__all__ = ["ANCHOR_MIN_SIGNIFICANCE", "PAIR_MIN_SIGNIFICANCE", "PAIR_SHAPE_SIGMA_EV", "matched_scale"]
 
 #: An anchor family's main line sits on a peak at least this significant in
 #: counting statistics (the strong-peak bound of the check before matching;
@@ -59,6 +61,15 @@ ANCHOR_MIN_SIGNIFICANCE: float = 30.0
 #: (well above the 3σ detection limit, so the peak is the line's and not a
 #: chance maximum; common practice, no source).
 PAIR_MIN_SIGNIFICANCE: float = 10.0
+#: Added in quadrature to each pair's σ (eV): a fitted peak centre
+#: (:mod:`workbench.xray.centroid`) is the centre of the counts, the blend
+#: maximum is the mode of the modelled lines; minor lines of the group and
+#: a real detector's tail separate the two by a few eV that no counting
+#: error covers. With fitted centres (σ down to 1 eV) the Pb L lines of
+#: lead white read 20 eV high scattered 2–29 eV and the family was dropped
+#: whole; 5 eV keeps them one reading (forward-model seeds 20261202 and 7;
+#: common practice for a line-position systematic, no source).
+PAIR_SHAPE_SIGMA_EV: float = 5.0
 
 
 def matched_scale(
@@ -126,7 +137,11 @@ def matched_scale(
             ):
                 continue
             # The evidence's position σ without its calibration allowance.
-            s2 = float(g["sigma_pos"][i]) ** 2 - XRAY_CALIBRATION_SIGMA_EV**2
+            s2 = (
+                float(g["sigma_pos"][i]) ** 2
+                - XRAY_CALIBRATION_SIGMA_EV**2
+                + PAIR_SHAPE_SIGMA_EV**2
+            )
             bm = float(g["blend_max"][i])
             mine.append((float(shown[p]), bm, float(np.sqrt(max(s2, 1e-6))), f"{bm:.0f} eV"))
         if len(mine) < 2:
