@@ -73,6 +73,14 @@ from workbench.matching.sourcemodels import (
     SOURCE_MODELS,
 )
 from workbench.matching.temperature import TemperatureEstimate, estimate_temperature
+from workbench.matching.xray_scale import (
+    applied_before,
+    apply_matched_scale,
+    corrected_energy_peaks,
+    matched_scale,
+    scale_warning,
+    xray_record,
+)
 
 __all__ = [
     "BAND_WIDTH_FACTOR",
@@ -508,11 +516,9 @@ def match_peaks(
         # single lines and reads blend offsets of 10-30 eV as a scale error,
         # so it is reported, never applied.
         apply = False
-        from workbench.matching.xray_scale import matched_scale
-
-        before = _applied_before(peaks, xray.scale)
+        before = applied_before(peaks, xray.scale)
         xscale = matched_scale(obs, ev_pass, index, before)
-        if _xray_apply(xscale, before, params.apply_calibration):
+        if apply_matched_scale(xscale, before, params.apply_calibration):
             return _xray_rerun(shown_peaks, sets, params, xscale, xray, notes, labels)
     else:
         xscale = None
@@ -569,7 +575,7 @@ def match_peaks(
         scale=scale,
         parameters=params,
         lte=lte,
-        xray=_xray_record(xray, xscale, peaks) if xray else None,
+        xray=xray_record(xray, xscale, peaks) if xray else None,
         source_model={
             "name": model,
             "sigma_dex": SOURCE_MODELS[model].sigma_dex,
@@ -586,63 +592,6 @@ def match_peaks(
 #: called on the drifted scale can bias the first reading, which the second
 #: match, on a scale nearer the truth, no longer calls (a fixed point).
 MAX_XRAY_RERUNS: int = 2
-
-
-def _applied_before(peaks: PeakList, pre: Any) -> Any:
-    """The energy-scale correction already in the positions (None when none)."""
-    extra = peaks.extra if isinstance(peaks.extra, dict) else {}
-    done = extra.get("xray_scale_applied")
-    if done is not None:
-        return done
-    return pre if pre.applied else None
-
-
-def _xray_apply(xscale: Any, before: Any, asked: bool | None) -> bool:
-    """Whether the scale after matching is applied (a re-run on corrected energies).
-
-    ``asked`` False never; True whenever measured; None when significant
-    (:mod:`workbench.xray.energy_scale`) and, when positions are already
-    corrected, when it differs from that correction by as much: somewhere
-    over the pairs' span the difference exceeds three standard
-    uncertainties of the new reading (measured from the energies shown, so
-    independent of the correction in place; its offset's uncertainty,
-    which with a gain is the larger, extrapolated to zero energy) and the
-    5 eV floor.
-    """
-    if asked is False or xscale.n_pairs == 0:
-        return False
-    if asked is True:
-        return True
-    if not xscale.significant and before is None:
-        return False
-    if before is None:
-        return True
-    from workbench.xray.energy_scale import MATCHED_MIN_SIGNIFICANT_EV
-
-    grid = np.asarray(xscale.span_eV, dtype=np.float64)
-    diff = np.abs(xscale.correct(grid) - before.correct(grid))
-    u = xscale.offset_uncertainty_eV
-    return bool(np.max(diff) > max(3.0 * u, MATCHED_MIN_SIGNIFICANT_EV))
-
-
-def _corrected_energy_peaks(peaks: PeakList, scale: Any) -> PeakList:
-    """The peak list as given, its energies corrected (spectrum, range and widths with them)."""
-    col = FWHM_COLUMN["energy"]
-    table = peaks.table.with_columns(
-        pl.Series(peaks.position_column, scale.correct(peaks.positions))
-    )
-    if col in table.columns:
-        table = table.with_columns(pl.col(col) * scale.gain)
-    extra = dict(peaks.extra)
-    if extra.get("x_range") is not None:
-        extra["x_range"] = tuple(float(v) for v in scale.correct(np.asarray(extra["x_range"])))
-    for key in ("spectrum", "noise_curve"):
-        if extra.get(key) is not None:
-            extra[key] = (scale.correct(np.asarray(extra[key][0])), extra[key][1])
-    if extra.get("sample_spacing") is not None:
-        extra["sample_spacing"] = np.asarray(extra["sample_spacing"]) * scale.gain
-    extra["xray_scale_applied"] = replace(scale, applied=True)
-    return PeakList(table, peaks.axis, peaks.medium, peaks.source, peaks.mode, extra)
 
 
 def _xray_rerun(
@@ -666,53 +615,27 @@ def _xray_rerun(
     inner_params = replace(params, apply_calibration=False)
     current = xscale
     for _ in range(MAX_XRAY_RERUNS):
-        inner = match_peaks(_corrected_energy_peaks(shown, current), sets, inner_params)
+        inner = match_peaks(corrected_energy_peaks(shown, current), sets, inner_params)
         again = inner.xray.get("energy_scale_matched") if inner.xray else None
         if again is None or params.apply_calibration is True:
             break
         from workbench.xray.energy_scale import EnergyScale
 
         measured = EnergyScale.from_dict(again)
-        if not _xray_apply(measured, current, None):
+        if not apply_matched_scale(measured, current, None):
             break
         current = measured
-    from dataclasses import replace as dc_replace
-
-    applied = dc_replace(current, applied=True)
+    applied = replace(current, applied=True)
     rec = dict(inner.xray or {})
     rec["energy_scale"] = xray.scale.to_dict()  # the check before matching, on the shown axis
     rec["energy_scale_matched"] = applied.to_dict()
     kept = [w for w in rec.get("warnings", []) if w.get("kind") != "energy_scale"]
-    rec["warnings"] = [*kept, _scale_warning(applied, how)]
+    rec["warnings"] = [*kept, scale_warning(applied, how)]
     inner.xray = rec
     inner.notes = notes + inner.notes
     inner.peak_labels = {**labels, **inner.peak_labels}
     inner.parameters = params
     return inner
-
-
-def _scale_warning(scale: Any, how: str) -> dict[str, object]:
-    """The warning that says which energy-scale correction was applied, and from what."""
-    fams = sorted({nm.rsplit(" ", 2)[0] for nm in scale.lines})
-    gain = f", gain {scale.gain:.5f} ± {scale.gain_uncertainty:.5f}" if scale.gain != 1.0 else ""
-    left = f"; left out as inconsistent: {', '.join(scale.rejected)}" if scale.rejected else ""
-    return {
-        "kind": "energy_scale",
-        "message": f"energy scale corrected by {scale.max_correction_eV:+.1f} eV at most "
-        f"(offset {scale.offset_eV:+.1f} ± {scale.offset_uncertainty_eV:.1f} eV{gain}) from "
-        f"{scale.n_pairs} lines of the families called ({', '.join(fams)}{left}), and the "
-        f"match run again on corrected energies ({how}; --no-calibration turns this off); "
-        "recalibrate the instrument",
-        "elements": fams,
-        "lines": [],
-    }
-
-
-def _xray_record(xray: Any, xscale: Any, peaks: PeakList) -> dict[str, Any]:
-    """The result's ``xray`` record: the preparation and the scale after matching."""
-    rec = xray.to_dict() | {"warnings": list(xray.warnings)}
-    rec["energy_scale_matched"] = xscale.to_dict() if xscale is not None else None
-    return rec
 
 
 def _lte_check(temperature: TemperatureEstimate, params: MatchParameters) -> dict[str, object]:

@@ -45,13 +45,32 @@ correction from the shown axis and supersedes that check's.
 
 from __future__ import annotations
 
-import numpy as np
+from dataclasses import replace
+from typing import Any
 
+import numpy as np
+import polars as pl
+
+from workbench.datamodel import FWHM_COLUMN, PeakList
 from workbench.matching.evidence import XRAY_CALIBRATION_SIGMA_EV, EvidencePass, ObservedLines
 from workbench.matching.reference import ReferenceIndex
-from workbench.xray.energy_scale import EnergyScale, fit_matched_scale
+from workbench.xray.energy_scale import (
+    MATCHED_MIN_SIGNIFICANT_EV,
+    EnergyScale,
+    fit_matched_scale,
+)
 
-__all__ = ["ANCHOR_MIN_SIGNIFICANCE", "PAIR_MIN_SIGNIFICANCE", "PAIR_SHAPE_SIGMA_EV", "matched_scale"]
+__all__ = [
+    "ANCHOR_MIN_SIGNIFICANCE",
+    "PAIR_MIN_SIGNIFICANCE",
+    "PAIR_SHAPE_SIGMA_EV",
+    "applied_before",
+    "apply_matched_scale",
+    "corrected_energy_peaks",
+    "matched_scale",
+    "scale_warning",
+    "xray_record",
+]
 
 #: An anchor family's main line sits on a peak at least this significant in
 #: counting statistics (the strong-peak bound of the check before matching;
@@ -153,3 +172,82 @@ def matched_scale(
             fam.append(ev.label)
             names.append(f"{ev.label} {nm}")
     return fit_matched_scale(np.array(o), np.array(r), np.array(s), np.array(fam), tuple(names))
+
+
+def applied_before(peaks: PeakList, pre: Any) -> Any:
+    """The energy-scale correction already in the positions (None when none)."""
+    extra = peaks.extra if isinstance(peaks.extra, dict) else {}
+    done = extra.get("xray_scale_applied")
+    if done is not None:
+        return done
+    return pre if pre.applied else None
+
+
+def apply_matched_scale(xscale: Any, before: Any, asked: bool | None) -> bool:
+    """Whether the scale after matching is applied (a re-run on corrected energies).
+
+    ``asked`` False never; True whenever measured; None when significant
+    (:mod:`workbench.xray.energy_scale`) and, when positions are already
+    corrected, when it differs from that correction by as much: somewhere
+    over the pairs' span the difference exceeds three standard
+    uncertainties of the new reading (measured from the energies shown, so
+    independent of the correction in place; its offset's uncertainty,
+    which with a gain is the larger, extrapolated to zero energy) and the
+    5 eV floor.
+    """
+    if asked is False or xscale.n_pairs == 0:
+        return False
+    if asked is True:
+        return True
+    if not xscale.significant and before is None:
+        return False
+    if before is None:
+        return True
+    grid = np.asarray(xscale.span_eV, dtype=np.float64)
+    diff = np.abs(xscale.correct(grid) - before.correct(grid))
+    u = xscale.offset_uncertainty_eV
+    return bool(np.max(diff) > max(3.0 * u, MATCHED_MIN_SIGNIFICANT_EV))
+
+
+def corrected_energy_peaks(peaks: PeakList, scale: Any) -> PeakList:
+    """The peak list as given, its energies corrected (spectrum, range and widths with them)."""
+    col = FWHM_COLUMN["energy"]
+    table = peaks.table.with_columns(
+        pl.Series(peaks.position_column, scale.correct(peaks.positions))
+    )
+    if col in table.columns:
+        table = table.with_columns(pl.col(col) * scale.gain)
+    extra = dict(peaks.extra)
+    if extra.get("x_range") is not None:
+        extra["x_range"] = tuple(float(v) for v in scale.correct(np.asarray(extra["x_range"])))
+    for key in ("spectrum", "noise_curve"):
+        if extra.get(key) is not None:
+            extra[key] = (scale.correct(np.asarray(extra[key][0])), extra[key][1])
+    if extra.get("sample_spacing") is not None:
+        extra["sample_spacing"] = np.asarray(extra["sample_spacing"]) * scale.gain
+    extra["xray_scale_applied"] = replace(scale, applied=True)
+    return PeakList(table, peaks.axis, peaks.medium, peaks.source, peaks.mode, extra)
+
+
+def scale_warning(scale: Any, how: str) -> dict[str, object]:
+    """The warning that says which energy-scale correction was applied, and from what."""
+    fams = sorted({nm.rsplit(" ", 2)[0] for nm in scale.lines})
+    gain = f", gain {scale.gain:.5f} ± {scale.gain_uncertainty:.5f}" if scale.gain != 1.0 else ""
+    left = f"; left out as inconsistent: {', '.join(scale.rejected)}" if scale.rejected else ""
+    return {
+        "kind": "energy_scale",
+        "message": f"energy scale corrected by {scale.max_correction_eV:+.1f} eV at most "
+        f"(offset {scale.offset_eV:+.1f} ± {scale.offset_uncertainty_eV:.1f} eV{gain}) from "
+        f"{scale.n_pairs} lines of the families called ({', '.join(fams)}{left}), and the "
+        f"match run again on corrected energies ({how}; --no-calibration turns this off); "
+        "recalibrate the instrument",
+        "elements": fams,
+        "lines": [],
+    }
+
+
+def xray_record(xray: Any, xscale: Any, peaks: PeakList) -> dict[str, Any]:
+    """The result's ``xray`` record: the preparation and the scale after matching."""
+    rec = xray.to_dict() | {"warnings": list(xray.warnings)}
+    rec["energy_scale_matched"] = xscale.to_dict() if xscale is not None else None
+    return rec

@@ -42,7 +42,15 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["CLUSTER_GAP_FWHM", "FIT_HALF_WIDTH_FWHM", "WIDTH_EXCESS", "fit_centres"]
+from workbench.datamodel import PeakList
+
+__all__ = [
+    "CLUSTER_GAP_FWHM",
+    "FIT_HALF_WIDTH_FWHM",
+    "WIDTH_EXCESS",
+    "fit_centres",
+    "fitted_peak_centres",
+]
 
 #: Half-width of the fit window in units of the detector FWHM (module
 #: docstring; derivation, no source).
@@ -184,3 +192,31 @@ def fit_centres(
             one = fit[2]
             out[members[one]], sig[members[one]] = fit[0][one], fit[1][one]
     return out, sig
+
+
+def fitted_peak_centres(
+    peaks: PeakList, x: np.ndarray, fwhm: np.ndarray, weak: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Peak centres and their σ from :func:`fit_centres`.
+
+    Needs the raw spectrum and its baseline (``extra["spectrum"]`` and
+    ``extra["baseline"]``, as :mod:`workbench.matching.analyse` passes
+    them); without them the peak finder's centres stand and σ is NaN.
+    Noise maxima (``weak``) are not fitted, nor fitted beside other peaks.
+    """
+    extra = peaks.extra if isinstance(peaks.extra, dict) else {}
+    sp, base = extra.get("spectrum"), extra.get("baseline")
+    sigma = np.full(x.size, np.nan)
+    if sp is None or base is None or np.size(base) != np.size(sp[1]) or not np.any(~weak):
+        return x, sigma
+    fitted, s = fit_centres(
+        np.asarray(sp[0], dtype=np.float64),
+        np.asarray(sp[1], dtype=np.float64),
+        np.asarray(base, dtype=np.float64),
+        x[~weak],
+        fwhm[~weak],
+    )
+    out = np.array(x, dtype=np.float64, copy=True)
+    out[~weak] = fitted
+    sigma[~weak] = s
+    return out, sigma

@@ -37,7 +37,7 @@ import polars as pl
 from workbench.datamodel import FWHM_COLUMN, PeakList
 from workbench.errors import InsufficientDataError, ValueRangeError
 from workbench.xray.artefacts import artefact_table, label_peaks, predict_artefacts
-from workbench.xray.centroid import fit_centres
+from workbench.xray.centroid import fitted_peak_centres
 from workbench.xray.detector import blend_maxima, fwhm_eV
 from workbench.xray.energy_scale import EnergyScale, fit_energy_scale
 from workbench.xray.excitation import excitable, measurable
@@ -390,34 +390,6 @@ def _channel_snr(peaks: PeakList, x: np.ndarray, height: np.ndarray) -> np.ndarr
     return out
 
 
-def _fitted_centres(
-    peaks: PeakList, x: np.ndarray, fwhm: np.ndarray, weak: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
-    """Peak centres and their σ from :func:`workbench.xray.centroid.fit_centres`.
-
-    Needs the raw spectrum and its baseline (``extra["spectrum"]`` and
-    ``extra["baseline"]``, as :mod:`workbench.matching.analyse` passes
-    them); without them the peak finder's centres stand and σ is NaN.
-    Noise maxima (``weak``) are neither fitted nor bound a window.
-    """
-    extra = peaks.extra if isinstance(peaks.extra, dict) else {}
-    sp, base = extra.get("spectrum"), extra.get("baseline")
-    sigma = np.full(x.size, np.nan)
-    if sp is None or base is None or np.size(base) != np.size(sp[1]) or not np.any(~weak):
-        return x, sigma
-    fitted, s = fit_centres(
-        np.asarray(sp[0], dtype=np.float64),
-        np.asarray(sp[1], dtype=np.float64),
-        np.asarray(base, dtype=np.float64),
-        x[~weak],
-        fwhm[~weak],
-    )
-    out = np.array(x, dtype=np.float64, copy=True)
-    out[~weak] = fitted
-    sigma[~weak] = s
-    return out, sigma
-
-
 def _scale_pairs(
     x: np.ndarray, snr: np.ndarray, fwhm: np.ndarray, ref: Any
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, tuple[str, ...]]:
@@ -602,7 +574,7 @@ def prepare_energy_peaks(
     weak = _not_significant(peaks, x, inten, w_det, channel)
     # Centres from a fit of the detector's line shape, not the peak's top
     # channels (workbench.xray.centroid): a weak peak's maximum wanders.
-    x, x_sigma = _fitted_centres(peaks, x, w_det, weak[0])
+    x, x_sigma = fitted_peak_centres(peaks, x, w_det, weak[0])
     with np.errstate(divide="ignore", invalid="ignore"):
         snr = np.where(np.isfinite(weak[1]), weak[1], snr)
         noise = np.where(np.isfinite(snr) & (snr > 0), inten / snr, np.nan)
