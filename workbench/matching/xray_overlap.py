@@ -31,6 +31,13 @@ tabulated energies, 0σ once moved). A family that passes is then asked the
 "shared peak" question of :mod:`workbench.matching.xray_scoring` (is its
 share surely real and is it the only plausible source of it); the answer,
 in its group arrays (``share_sole``), can make it a sole explanation.
+
+The decisions read the whole set of fits, not the order they are taken
+in: every share test fits, beside the families already called, those that
+any settling fit needs; and when a family whose main line was taken is
+restored, each family that took the peak and is short of established is
+floored in the same way, by its own need in that fit and its own share
+test (its height and position there include the restored family's counts).
 """
 
 from __future__ import annotations
@@ -234,8 +241,19 @@ def settle_overlaps(
         and sidak_dex(d.amplitude / d.uncertainty) >= NEEDED_DEX
     }
 
-    def called() -> set[str]:
-        return {o.label for o in ev_pass.evidence.values() if o.level >= 2} | fit_needed
+    def share(label: str, fams: dict) -> tuple[Any, bool]:
+        # The share test with every family called or needed by a settling fit.
+        called = {o.label for o in ev_pass.evidence.values() if o.level >= 2} | fit_needed
+        return _share_test(label, fams, patterns, whole, ~keep, instrument, called)
+
+    def reevaluate(e) -> None:
+        evaluate(
+            e,
+            detection_limit=obs.detection_limit,
+            sigma_dex=sigma_dex,
+            n_tried=ev_pass.n_species_tried,
+            strong_fraction=strong_fraction,
+        )
 
     for ev, dec, fams in fits:
         involved = (ev.label, *partners[ev.label])
@@ -261,15 +279,7 @@ def settle_overlaps(
                 # reads 20 eV low was needed at 4–6σ at the tabulated
                 # energies alone (0σ once moved), Bi M beside Pb M read
                 # 20 eV high at 10σ.
-                test, intact = _share_test(
-                    ev.label,
-                    fams,
-                    patterns,
-                    whole,
-                    ~keep,
-                    instrument,
-                    called(),
-                )
+                test, intact = share(ev.label, fams)
                 floor = min(floor, sidak_dex(test.z))
                 # The reviewer sees the figure that decided (a settling fit
                 # may need the family while its share does not hold).
@@ -288,32 +298,18 @@ def settle_overlaps(
             g["unique"] = g["unique"] | g["found"]
             took = [by_label[o] for o in ev.explained_by if o in by_label]
             ev.explained_by = []
-            evaluate(
-                ev,
-                detection_limit=obs.detection_limit,
-                sigma_dex=sigma_dex,
-                n_tried=ev_pass.n_species_tried,
-                strong_fraction=strong_fraction,
-            )
+            reevaluate(ev)
             if ev.label in taken:
                 # The peak is shared, so the families that took it share it
                 # too: their own height and position terms there include
                 # the restored family's counts (Ba Lα under Ti Kα read
-                # 37 eV off and 0.3 dex high, −2.2 dex of agreement). Each
+                # 37 eV off its line, −2.2 dex of agreement). Each
                 # one short of established is floored by its own need in
                 # the same fit and its own share test, as the restored one.
                 for o in took:
                     if o.level >= 3 or not rec.get(o.label, {}).get("needed"):
                         continue
-                    o_test, _ = _share_test(
-                        o.label,
-                        fams,
-                        patterns,
-                        whole,
-                        ~keep,
-                        instrument,
-                        called(),
-                    )
+                    o_test, _ = share(o.label, fams)
                     o_floor = min(dex[o.label], sidak_dex(o_test.z))
                     rec[o.label]["share_sigma"] = round(float(o_test.z), 2)
                     if o_floor >= NEEDED_DEX:
@@ -321,13 +317,7 @@ def settle_overlaps(
                         o.overlap_floor_dex = min(
                             o_floor if prev is None else max(prev, o_floor), 30.0
                         )
-                        evaluate(
-                            o,
-                            detection_limit=obs.detection_limit,
-                            sigma_dex=sigma_dex,
-                            n_tried=ev_pass.n_species_tried,
-                            strong_fraction=strong_fraction,
-                        )
+                        reevaluate(o)
     return out
 
 
