@@ -81,6 +81,7 @@ from workbench.matching.xray_scale import (
     scale_warning,
     xray_record,
 )
+from workbench.xray.energy_scale import EnergyScale
 
 __all__ = [
     "BAND_WIDTH_FACTOR",
@@ -575,7 +576,7 @@ def match_peaks(
         scale=scale,
         parameters=params,
         lte=lte,
-        xray=xray_record(xray, xscale, peaks) if xray else None,
+        xray=xray_record(xray, xscale) if xray else None,
         source_model={
             "name": model,
             "sigma_dex": SOURCE_MODELS[model].sigma_dex,
@@ -614,13 +615,13 @@ def _xray_rerun(
     how = "asked" if params.apply_calibration else "significant, applied by default"
     inner_params = replace(params, apply_calibration=False)
     current = xscale
-    for _ in range(MAX_XRAY_RERUNS):
+    for run in range(1, MAX_XRAY_RERUNS + 1):
         inner = match_peaks(corrected_energy_peaks(shown, current), sets, inner_params)
         again = inner.xray.get("energy_scale_matched") if inner.xray else None
-        if again is None or params.apply_calibration is True:
+        # After the last run a new reading is not taken up: ``current`` must
+        # stay the correction the returned match was made on.
+        if again is None or params.apply_calibration is True or run == MAX_XRAY_RERUNS:
             break
-        from workbench.xray.energy_scale import EnergyScale
-
         measured = EnergyScale.from_dict(again)
         if not apply_matched_scale(measured, current, None):
             break

@@ -246,7 +246,7 @@ def scale_warning(scale: Any, how: str) -> dict[str, object]:
     }
 
 
-def xray_record(xray: Any, xscale: Any, peaks: PeakList) -> dict[str, Any]:
+def xray_record(xray: Any, xscale: Any) -> dict[str, Any]:
     """The result's ``xray`` record: the preparation and the scale after matching."""
     rec = xray.to_dict() | {"warnings": list(xray.warnings)}
     rec["energy_scale_matched"] = xscale.to_dict() if xscale is not None else None
