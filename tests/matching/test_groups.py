@@ -36,9 +36,11 @@ def test_empty():
 @pytest.mark.parametrize(
     ("position", "strength", "fwhm", "expected"),
     [
-        # Ba L lines and their relative strengths as the shipped xray set
-        # gives them (Elam via xraylib): Lβ1 4828.3, Lβ4 4852.0, Lβ3 4926.0,
-        # Lβ6 4993.5, Lβ2 5154.4 eV. Chained by the weak Lβ6 at a 175 eV FWHM,
+        # Ba L lines of the shipped xray set (Elam energies): Lβ1 4828.3,
+        # Lβ4 4852.0, Lβ3 4926.0, Lβ6 4993.5, Lβ2 5154.4 eV, with the
+        # strengths the engine's x-ray model predicted for them in the
+        # gunshot-residue forward-model case (180 eV, seed 20261202; Elam
+        # shares × xraylib yields, rounded). Chained by the weak Lβ6 at a 175 eV FWHM,
         # but two maxima 1.9 FWHM apart with a dip to nearly nothing: split.
         (
             [4828.3, 4852.0, 4926.0, 4993.5, 5154.4],
