@@ -190,7 +190,6 @@ def _settings() -> None:
                     raise handle.error  # type: ignore[misc]
                 else:
                     st.session_state["run"] = handle
-                    st.session_state.pop("run_ended", None)
                     st.session_state["run_parameters"] = parameters
                     st.session_state["run_key"] = key
             st.rerun()
@@ -208,45 +207,53 @@ def _show_view(view: pr.MatchView, parameters: dict, key: str, note: str) -> Non
 
 
 def _cancel_run() -> None:
-    """Cancel button callback (runs before any rerun, so a click is never lost)."""
+    """Cancel button callback (runs before the page's rerun, so a click is never lost)."""
     handle = st.session_state.pop("run", None)
     if handle is not None:
         handle.cancel()
         st.session_state["run_note"] = f"Run cancelled after {handle.elapsed_s:.1f} s."
-    st.session_state["run_ended"] = True
 
 
-@st.fragment(run_every=0.25)
+@st.fragment(run_every=0.5)
 def _run_status() -> None:
-    """Progress, elapsed time and Cancel of the run in its worker process."""
+    """Progress and elapsed time of the run in its worker process.
+
+    The fragment alone reruns while the worker goes on. When the run ends it asks for a
+    whole-page rerun to show the outcome, and asks again on every tick until a whole-page
+    run has taken it (``run_ended`` is cleared only there): a fragment's request for a
+    page rerun can be dropped when it meets another rerun, and the page must not stay
+    on an empty progress area.
+    """
     handle = st.session_state.get("run")
-    if handle is None:
-        if st.session_state.pop("run_ended", False):
-            st.rerun(scope="app")  # show the outcome of the cancel in the whole page
-        return
-    state = handle.poll()
-    if state == "running":
-        st.progress(handle.fraction, text=f"{handle.stage} — {handle.elapsed_s:.1f} s elapsed")
-        st.button("Cancel the run", key="run_cancel", on_click=_cancel_run)
-        return
-    st.session_state.pop("run", None)
-    if state == "done":
-        _show_view(
-            handle.view,
-            st.session_state.pop("run_parameters", None),
-            st.session_state.pop("run_key", ""),
-            f"Matched in {handle.elapsed_s:.1f} s.",
-        )
-    elif handle.error is not None:
-        st.session_state["run_error"] = str(handle.error)
-    st.rerun(scope="app")
+    if handle is not None:
+        state = handle.poll()
+        if state == "running":
+            st.progress(handle.fraction, text=f"{handle.stage} — {handle.elapsed_s:.1f} s elapsed")
+            return
+        st.session_state.pop("run", None)
+        if state == "done":
+            _show_view(
+                handle.view,
+                st.session_state.pop("run_parameters", None),
+                st.session_state.pop("run_key", ""),
+                f"Matched in {handle.elapsed_s:.1f} s.",
+            )
+        elif handle.error is not None:
+            st.session_state["run_error"] = str(handle.error)
+        st.session_state["run_ended"] = True
+    if st.session_state.get("run_ended"):
+        st.rerun(scope="app")
 
 
+st.session_state.pop("run_ended", None)  # this whole-page run shows any run's outcome
 if reopened is None:
     with st.expander("Run settings", expanded=view is None):
         _settings()
     if st.session_state.get("run") is not None:
         _run_status()
+        # Outside the fragment: a click is an ordinary page rerun, which is never merged
+        # into the fragment's own timed reruns; the callback stops the worker first.
+        st.button("Cancel the run", key="run_cancel", on_click=_cancel_run)
     if st.session_state.get("run_error"):
         st.error(_ui.plain(st.session_state.pop("run_error")), icon=":material/error:")
     if st.session_state.get("run_note"):
