@@ -189,11 +189,17 @@ def apply_matched_scale(xscale: Any, before: Any, asked: bool | None) -> bool:
     ``asked`` False never; True whenever measured; None when significant
     (:mod:`workbench.xray.energy_scale`) and, when positions are already
     corrected, when it differs from that correction by as much: somewhere
-    over the pairs' span the difference exceeds three standard
-    uncertainties of the new reading (measured from the energies shown, so
-    independent of the correction in place; its offset's uncertainty,
-    which with a gain is the larger, extrapolated to zero energy) and the
-    5 eV floor.
+    over the pairs' span the difference exceeds the 5 eV floor and three
+    standard uncertainties of the new reading (measured from the energies
+    shown, so independent of the correction in place; its offset's
+    uncertainty, which with a gain is the larger, extrapolated to zero
+    energy). When the new reading is the more precise of the two (its
+    offset uncertainty below that of the correction in place, both at zero
+    energy), the floor alone decides: the better of two estimates of one
+    drift is used wherever they differ by more than the floor. A check
+    before matching rests on a few anchor peaks and often fits a gain from
+    them; the reading after matching has every line of the decided
+    families.
     """
     if asked is False or xscale.n_pairs == 0:
         return False
@@ -206,6 +212,8 @@ def apply_matched_scale(xscale: Any, before: Any, asked: bool | None) -> bool:
     grid = np.asarray(xscale.span_eV, dtype=np.float64)
     diff = np.abs(xscale.correct(grid) - before.correct(grid))
     u = xscale.offset_uncertainty_eV
+    if u < before.offset_uncertainty_eV:
+        return bool(np.max(diff) > MATCHED_MIN_SIGNIFICANT_EV)
     return bool(np.max(diff) > max(3.0 * u, MATCHED_MIN_SIGNIFICANT_EV))
 
 
