@@ -370,7 +370,7 @@ def _channel_snr(peaks: PeakList, x: np.ndarray, height: np.ndarray) -> np.ndarr
     h is the peak's height above the baseline b (counts per channel, as the
     peak finder measures both on a raw spectrum of counts). This, not the
     counting significance of the whole peak, sets how far the maximum of a
-    noisy peak wanders (:func:`workbench.matching.evidence._xray_terms`):
+    noisy peak wanders (:func:`workbench.matching.xray_evidence._xray_terms`):
     the peak finder places a peak at its highest channels, and near the top
     a Gaussian changes by one channel's noise over ≈ σ·√(2/SNR). A strong
     peak's height over the median noise of all peaks overstates it: Pb Lα
