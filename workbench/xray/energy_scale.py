@@ -7,7 +7,7 @@ pairs spanning less than 1 keV, only the offset is fitted.
 Two checks use it.
 
 *Before matching* (:func:`fit_energy_scale`, pairs from
-``workbench.xray.prepare``): strong peaks that exactly one line family
+``workbench.xray.scale_pairs``): strong peaks that exactly one line family
 explains, the family confirmed by a second line. Each pair's weight is 1/σ²
 with σ the centroid uncertainty FWHM / (2.355 · √N) (N counts in the peak,
 for a Gaussian) plus a 2 eV floor for residual blend and tabulation error
