@@ -1,11 +1,11 @@
-"""Where an unresolved X-ray blend peaks (workbench.matching.evidence._blend_maxima)."""
+"""Where an unresolved X-ray blend peaks (workbench.matching.xray_evidence._blend_maxima)."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from workbench.matching.evidence import _blend_maxima
+from workbench.matching.xray_evidence import _blend_maxima
 
 
 def _grid_maximum(pos, weight, fwhm):

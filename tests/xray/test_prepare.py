@@ -134,7 +134,7 @@ def _sum_artefact(counts_per_channel):
     [
         # N = 0.98·1.0645·40·190/10 = 793 counts over ±FWHM on B = 50·2·190/10
         # = 1900 baseline counts: N/√(N + 2B) = 793/√4593 = 11.7 ≥ 3 (the
-        # peak finder's own acceptance, prepare._not_significant; hand-computed).
+        # peak finder's own acceptance, counting._not_significant; hand-computed).
         (40.0, True, False),
         # 8 counts per channel: N = 158.6, 158.6/√3958.6 = 2.52, between 2σ
         # and 3σ (hand-computed): no peak of its own, listed as faint.
@@ -226,7 +226,7 @@ def _gauss_counts(grid, centre, n, fwhm):
 
 
 def test_window_significance_of_a_line_a_spike_and_a_valley():
-    from workbench.xray.prepare import _window_significance
+    from workbench.xray.counting import _window_significance
 
     grid = np.arange(10000.0, 24000.0, 10.0)
     fwhm = 200.0

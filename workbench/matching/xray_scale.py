@@ -52,8 +52,9 @@ import numpy as np
 import polars as pl
 
 from workbench.datamodel import FWHM_COLUMN, PeakList
-from workbench.matching.evidence import XRAY_CALIBRATION_SIGMA_EV, EvidencePass, ObservedLines
+from workbench.matching.evidence import EvidencePass, ObservedLines
 from workbench.matching.reference import ReferenceIndex
+from workbench.matching.xray_evidence import XRAY_CALIBRATION_SIGMA_EV
 from workbench.xray.energy_scale import (
     MATCHED_MIN_SIGNIFICANT_EV,
     EnergyScale,

@@ -7,7 +7,7 @@ pairs spanning less than 1 keV, only the offset is fitted.
 Two checks use it.
 
 *Before matching* (:func:`fit_energy_scale`, pairs from
-``workbench.xray.prepare``): strong peaks that exactly one line family
+``workbench.xray.scale_pairs``): strong peaks that exactly one line family
 explains, the family confirmed by a second line. Each pair's weight is 1/σ²
 with σ the centroid uncertainty FWHM / (2.355 · √N) (N counts in the peak,
 for a Gaussian) plus a 2 eV floor for residual blend and tabulation error
@@ -43,7 +43,7 @@ differs from 1 by more than 3σ (:func:`_select`).
 Its correction is significant when it exceeds three times its standard
 uncertainty and :data:`MATCHED_MIN_SIGNIFICANT_EV`. That floor is half of
 the calibration allowance the evidence gives every line position
-(``workbench.matching.evidence.XRAY_CALIBRATION_SIGMA_EV``, 10 eV at 1σ):
+(``workbench.matching.xray_evidence.XRAY_CALIBRATION_SIGMA_EV``, 10 eV at 1σ):
 a drift smaller than half the σ it already allows changes a line's
 position term by under 0.5σ and is left alone (re-running the match for it
 would change classes by noise), while a larger one, measured to better

@@ -8,18 +8,19 @@ and returns
   their prediction are taken out, and those that do keep only the excess;
   maxima that counting statistics cannot support are dropped, and each
   kept peak's ``snr`` is its counting significance N/√(N + 2B) from its own
-  net and baseline counts (:func:`_not_significant`). A maximum measured
-  much narrower than the detector response is taken for a counting spike
-  unless the spectrum's own counts around it show a line
-  (:func:`_window_significance`: a top-hat comparison of the counts within
-  half a FWHM with those of the flanks, in which any locally linear
-  background cancels);
+  net and baseline counts (:mod:`workbench.xray.counting`). A maximum
+  measured much narrower than the detector response is taken for a
+  counting spike unless the spectrum's own counts around it show a line
+  (:func:`~workbench.xray.counting._window_significance`: a top-hat
+  comparison of the counts within half a FWHM with those of the flanks, in
+  which any locally linear background cancels);
 * the detector FWHM at each peak in the ``fwhm_eV`` column, so that the
   engine's default window (half the FWHM) follows the detector resolution
   instead of a fixed 50 eV (the measured width is kept as
   ``fwhm_measured_eV``);
 * positions corrected by the energy-scale check when the correction is
-  significant (:mod:`workbench.xray.energy_scale`);
+  significant (pairs from :mod:`workbench.xray.scale_pairs`, fitted in
+  :mod:`workbench.xray.energy_scale`);
 * an :class:`XrayPreparation` whose :meth:`~XrayPreparation.reference_mask`
   drops reference lines that the tube cannot excite or the beam path does
   not let through, and whose :meth:`~XrayPreparation.to_dict` goes into the
@@ -38,15 +39,20 @@ from workbench.datamodel import FWHM_COLUMN, PeakList
 from workbench.errors import InsufficientDataError, ValueRangeError
 from workbench.xray.artefacts import artefact_table, label_peaks, predict_artefacts
 from workbench.xray.centroid import fitted_peak_centres
-from workbench.xray.detector import blend_maxima, fwhm_eV
+from workbench.xray.counting import (
+    MIN_COUNTING_SIGMA,
+    _channel_snr,
+    _channel_width,
+    _not_significant,
+)
+from workbench.xray.detector import fwhm_eV
 from workbench.xray.energy_scale import EnergyScale, fit_energy_scale
 from workbench.xray.excitation import excitable, measurable
 from workbench.xray.instrument import DEFAULT_INSTRUMENT, Instrument
+from workbench.xray.scale_pairs import _scale_pairs
 from workbench.xray.wording import artefact_kind_label
 
 __all__ = ["XrayPreparation", "prepare_energy_peaks"]
-
-_DEFAULT_CHANNEL_EV = 10.0  # 4096 channels over 40 keV (common practice, no source)
 
 
 @dataclass
@@ -234,290 +240,11 @@ def _without_peak(
     return sorted(out, key=lambda r: r["energy_eV"])
 
 
-def _channel_width(peaks: PeakList) -> float:
-    extra = peaks.extra if isinstance(peaks.extra, dict) else {}
-    base, xr = extra.get("baseline"), extra.get("x_range")
-    if base is not None and xr is not None and np.size(base) > 1:
-        return float((float(xr[1]) - float(xr[0])) / (np.size(base) - 1))
-    return _DEFAULT_CHANNEL_EV
-
-
-#: Peaks below this significance under counting statistics are dropped
-#: (the usual 3σ detection limit of XRF; common practice, no source).
-MIN_COUNTING_SIGMA: float = 3.0
 #: Predicted escape and sum peaks are listed down to this significance (two
 #: thirds of the 3σ detection limit: enough to carry a weak line over it),
 #: marked ``faint`` below :data:`MIN_COUNTING_SIGMA` (reasoning in
 #: :func:`_without_peak`; common practice, no source).
 LIST_COUNTING_SIGMA: float = 2.0
-#: A maximum narrower than this part of the detector FWHM is a counting spike
-#: (see :func:`_not_significant`; derivation above, no source).
-SPIKE_WIDTH_FRACTION: float = 0.25
-
-
-def _window_significance(extra: dict, x: np.ndarray, fwhm: np.ndarray) -> np.ndarray | None:
-    """Counting significance of a line at each position from the spectrum's raw counts.
-
-    A top-hat comparison of the counts C within half a detector FWHM of the
-    position with the counts F in the two flanks from half a FWHM to one
-    FWHM on either side (together as wide as the centre): T = C − F. Any
-    background that is linear over the window (the continuum, the wing of a
-    neighbouring line) puts the same counts in both and cancels; a Gaussian
-    line of N counts puts 76.1 % of them in the centre and 22.0 % in the
-    flanks (±1.177σ and ±2.355σ: normal-distribution integrals), so
-    T = 0.541·N; a counting spike adds the counts of a channel or two; a
-    noise maximum in the valley between two lines sits where the counts
-    curve upwards, so T ≤ 0 there. C and F are Poisson counts, so
-    Var(T) = C + F and the significance is T/√(C + F), from the spectrum
-    alone (no baseline). On the channel grid the flanks are scaled by
-    r = n_C/n_F, the ratio of their channel counts, so that a flat
-    background cancels exactly: T = C − r·F, Var(T) = C + r²·F. Needs the
-    spectrum's channels (``extra["spectrum"]``, counts); None without them.
-    """
-    sp = extra.get("spectrum")
-    if sp is None or np.size(sp[0]) < 2 or np.size(sp[0]) != np.size(sp[1]):
-        return None
-    xs = np.asarray(sp[0], dtype=np.float64)
-    y = np.asarray(sp[1], dtype=np.float64)
-    if np.min(y) < 0:
-        return None  # not a spectrum of counts
-    cum = np.concatenate(([0.0], np.cumsum(y)))
-    half = 0.5 * fwhm
-    c_lo = np.searchsorted(xs, x - half, side="left")
-    c_hi = np.searchsorted(xs, x + half, side="right")
-    w_lo = np.searchsorted(xs, x - fwhm, side="left")
-    w_hi = np.searchsorted(xs, x + fwhm, side="right")
-    centre = cum[c_hi] - cum[c_lo]
-    flanks = cum[w_hi] - cum[w_lo] - centre
-    # Channel counts of centre and flanks differ by one or two on a discrete
-    # grid: the flanks are scaled to the centre's width so that a flat
-    # background cancels exactly.
-    n_c = (c_hi - c_lo).astype(np.float64)
-    n_f = (w_hi - w_lo).astype(np.float64) - n_c
-    r = np.where(n_f > 0, n_c / np.maximum(n_f, 1.0), 0.0)
-    var = centre + r * r * flanks
-    with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where((var > 0) & (n_f > 0), (centre - r * flanks) / np.sqrt(var), 0.0)
-
-
-def _not_significant(
-    peaks: PeakList, x: np.ndarray, inten: np.ndarray, fwhm: np.ndarray, channel: float
-) -> tuple[np.ndarray, np.ndarray]:
-    """Peaks that counting statistics or the detector resolution cannot support.
-
-    XRF spectra are counts: a peak's significance is N/√(N + 2B), with N its
-    net counts within ±FWHM (Gaussian: 0.98 · 1.0645 · height · FWHM per
-    channel width) and B the baseline counts under it (counted twice: it is
-    itself estimated). Used only when the peak finder's baseline is at hand
-    and non-negative (a raw spectrum of counts). Independently, a maximum
-    within 0.85 FWHM of a stronger one is a noise split: two Gaussians of
-    equal width give two maxima only when more than 2σ = 0.85 FWHM apart.
-
-    Returns
-    -------
-    (drop, significance) : bool array and float array (NaN where not computed)
-    """
-    sig = np.full(x.size, np.nan)
-    drop = np.zeros(x.size, dtype=bool)
-    extra = peaks.extra if isinstance(peaks.extra, dict) else {}
-    w_obs = (
-        peaks.table[FWHM_COLUMN["energy"]].cast(pl.Float64).fill_null(np.nan).to_numpy()
-        if FWHM_COLUMN["energy"] in peaks.table.columns
-        else np.full(x.size, np.nan)
-    )
-    # No real peak is narrower than the detector response, but the width of
-    # a weak peak measured at half its prominence scatters widely (noise moves
-    # the half-maximum crossings; a real Pb Lℓ peak at SNR 12 measured 98 eV
-    # against a 240 eV response): only a maximum under a quarter of the
-    # detector FWHM (a few channels, the width of a counting spike) is taken
-    # for a noise spike, and, when the spectrum is at hand, only if the
-    # counts around it do not show a line (:func:`_window_significance`): a
-    # 10σ Zr Kβ on 64 counts per channel measured 31 eV against 212 eV.
-    narrow = np.isfinite(w_obs) & (w_obs < SPIKE_WIDTH_FRACTION * fwhm)
-    if np.any(narrow):
-        s_win = _window_significance(extra, x[narrow], fwhm[narrow])
-        if s_win is not None:
-            narrow[narrow] = s_win < MIN_COUNTING_SIGMA
-    drop |= narrow
-    # A line's counts are spread over the detector response whatever width
-    # noise made the peak finder measure, so the counts are taken over the
-    # detector FWHM (up to the measured width for a broadened peak).
-    width = np.where(np.isfinite(w_obs) & (w_obs > fwhm), np.minimum(w_obs, 2.0 * fwhm), fwhm)
-    base, xr = extra.get("baseline"), extra.get("x_range")
-    if base is not None and xr is not None and np.size(base) > 1 and np.min(base) >= 0:
-        grid = np.linspace(float(xr[0]), float(xr[1]), np.size(base))
-        b = np.interp(x, grid, np.asarray(base, dtype=np.float64))
-        n = 0.98 * 1.0645 * np.clip(np.nan_to_num(inten), 0.0, None) * width / channel
-        bg = b * 2.0 * width / channel
-        with np.errstate(divide="ignore", invalid="ignore"):
-            sig = np.where(n + bg > 0, n / np.sqrt(n + 2.0 * bg), 0.0)
-        drop |= sig < MIN_COUNTING_SIGMA
-    order = np.argsort(-np.nan_to_num(inten, nan=0.0), kind="stable")
-    kept: list[int] = []
-    for p in order:
-        if drop[p]:
-            continue
-        if any(abs(x[p] - x[q]) < 0.85 * fwhm[p] for q in kept):
-            drop[p] = True
-            continue
-        kept.append(int(p))
-    return drop, sig
-
-
-def _channel_snr(peaks: PeakList, x: np.ndarray, height: np.ndarray) -> np.ndarray:
-    """Height over its own counting noise in one channel, h/√(h + b); NaN without a baseline.
-
-    h is the peak's height above the baseline b (counts per channel, as the
-    peak finder measures both on a raw spectrum of counts). This, not the
-    counting significance of the whole peak, sets how far the maximum of a
-    noisy peak wanders (:func:`workbench.matching.evidence._xray_terms`):
-    the peak finder places a peak at its highest channels, and near the top
-    a Gaussian changes by one channel's noise over ≈ σ·√(2/SNR). A strong
-    peak's height over the median noise of all peaks overstates it: Pb Lα
-    of the GSR case (34,000 counts, 180 eV) has h/√(h + b) ≈ 40, not 200,
-    and its maximum sat 21 eV above the line.
-    """
-    extra = peaks.extra if isinstance(peaks.extra, dict) else {}
-    base, xr = extra.get("baseline"), extra.get("x_range")
-    out = np.full(x.size, np.nan)
-    if base is None or xr is None or np.size(base) < 2 or np.min(base) < 0:
-        return out
-    grid = np.linspace(float(xr[0]), float(xr[1]), np.size(base))
-    b = np.interp(x, grid, np.asarray(base, dtype=np.float64))
-    h = np.nan_to_num(np.asarray(height, dtype=np.float64))
-    ok = h > 0
-    out[ok] = h[ok] / np.sqrt(h[ok] + b[ok])
-    return out
-
-
-def _scale_pairs(
-    x: np.ndarray, snr: np.ndarray, fwhm: np.ndarray, ref: Any
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, tuple[str, ...]]:
-    """Strong peaks explained by exactly one confirmed line family.
-
-    A family (``"Fe K"``) is a candidate for a peak with SNR ≥ 30 when one of
-    its main lines (≥ 0.5 of the family's strongest) lies within half the FWHM, and
-    is *confirmed* when its strongest line lying more than a FWHM away has
-    an observed peak within half a FWHM (Kβ for Kα, Lβ for Lα). Each
-    confirmed family gives a candidate pair: the peak's centre and where
-    the blend of that family's lines peaks at this resolution;
-    :func:`_consistent` keeps the pairs one scale explains.
-    """
-    if ref is None:
-        return np.empty(0), np.empty(0), np.empty(0), ()
-    r_sp, r_e, r_rel = ref
-    # Relative intensities are fractions of each initial level's emission;
-    # put them on a scale where each family's strongest line is 1.
-    r_rel = np.nan_to_num(np.asarray(r_rel, dtype=np.float64))
-    names, inv = np.unique(np.asarray(r_sp, dtype=str), return_inverse=True)
-    top = np.zeros(names.size)
-    np.maximum.at(top, inv, r_rel)
-    r_rel = np.where(top[inv] > 0, r_rel / top[inv], 0.0)
-    strong = np.flatnonzero(np.nan_to_num(snr) >= 30.0)
-    confirmed_at: dict[int, list[str]] = {}
-    for p in strong:
-        half = 0.5 * fwhm[p]
-        # M families are not anchors: their line ratios within the family
-        # (sub-shell vacancies, Coster-Kronig) are too uncertain to place the
-        # blend's maximum to a few eV, and below ~3 keV peaks carry
-        # incomplete-charge tails (common practice, no source).
-        cands = {
-            sp
-            for sp in r_sp[(np.abs(r_e - x[p]) <= half) & (r_rel >= 0.5)]
-            if not str(sp).endswith(" M")
-        }
-        confirmed = []
-        for sp in sorted(cands):
-            mine = r_sp == sp
-            far = mine & (np.abs(r_e - x[p]) > fwhm[p]) & (r_rel >= 0.1)
-            if not far.any():
-                continue
-            e_other = r_e[far][np.argmax(r_rel[far])]
-            if np.min(np.abs(x - e_other)) <= 0.5 * float(np.interp(e_other, x, fwhm)):
-                confirmed.append(sp)
-        confirmed_at[int(p)] = confirmed
-    seen = {sp for fams in confirmed_at.values() for sp in fams}
-    obs, refs, sig, names = [], [], [], []
-    for p in strong:
-        confirmed = confirmed_at[int(p)]
-        # Unambiguous only: no line (≥ 0.1 of its family's strongest) of
-        # another family confirmed in this spectrum lies under the peak
-        # (Ca Kβ 4013 eV under a peak that Te Lβ1 would also explain).
-        under = (np.abs(r_e - x[p]) <= fwhm[p]) & (r_rel >= 0.1)
-        others = set(r_sp[under]) & seen
-        if others - set(confirmed):
-            continue
-        sigma = fwhm[p] / 2.3548
-        for fam in confirmed:
-            # Where the blend of this family's lines peaks, from its main line.
-            mine = (r_sp == fam) & (np.abs(r_e - x[p]) <= 2.0 * fwhm[p]) & (r_rel >= 0.01)
-            main = mine & (r_rel >= 0.5) & (np.abs(r_e - x[p]) <= half)
-            centroid = float(
-                blend_maxima(
-                    r_e[mine],
-                    r_rel[mine],
-                    np.zeros(int(np.sum(mine)), dtype=np.intp),
-                    np.array([r_e[main][np.argmax(r_rel[main])]], dtype=np.float64),
-                    np.array([sigma]),
-                    10,
-                )[0]
-            )
-            n_counts = max(float(snr[p]) ** 2, 1.0)
-            obs.append(x[p])
-            refs.append(centroid)
-            sig.append(np.hypot(fwhm[p] / (2.355 * np.sqrt(n_counts)), 2.0))
-            names.append(f"{fam} {centroid:.0f} eV")
-    return _consistent(np.array(obs), np.array(refs), np.array(sig), names)
-
-
-def _consistent(
-    o: np.ndarray, r: np.ndarray, s: np.ndarray, names: list[str]
-) -> tuple[np.ndarray, np.ndarray, np.ndarray, tuple[str, ...]]:
-    """The largest set of pairs that one offset-and-gain line explains.
-
-    Every pair of candidate pairs (and every single pair, for an offset only)
-    proposes a scale; the proposal explaining the most pairs within
-    max(3σ, 20 eV; unresolved blends shift centroids by 10–20 eV) wins
-    (ties: the smaller summed residual), if it explains at least two more
-    peaks than the unchanged scale. Only its inliers
-    are kept, one per observed peak, and only when they are at least three
-    on at least two different peaks: a single coincidence must not move the
-    whole spectrum.
-    """
-    n = o.size
-    if n < 3:
-        return np.empty(0), np.empty(0), np.empty(0), ()
-    tol = np.maximum(3.0 * s, 20.0)
-    best: tuple[int, float, np.ndarray] | None = None
-    models = [(0.0, 1.0)] + [(float(r[i] - o[i]), 1.0) for i in range(n)]
-    for i in range(n):
-        for j in range(i + 1, n):
-            if abs(o[i] - o[j]) >= 1000.0:
-                g = (r[i] - r[j]) / (o[i] - o[j])
-                if 0.98 <= g <= 1.02:
-                    models.append((float(r[i] - g * o[i]), float(g)))
-    null: tuple[int, float, np.ndarray] | None = None
-    for off, g in models:
-        res = np.abs(r - (off + g * o))
-        inl = res <= tol
-        key = (int(np.unique(o[inl]).size), -float(np.sum(res[inl])))
-        if null is None:
-            null = (key[0], key[1], inl)  # the calibrated scale (offset 0, gain 1)
-        if best is None or key > (best[0], best[1]):
-            best = (key[0], key[1], inl)
-    assert best is not None and null is not None
-    # Occam: the instrument's own calibration stands unless another scale
-    # explains at least two more peaks (chance alignments explain one).
-    inl = best[2] if best[0] >= null[0] + 2 else null[2]
-    # One pair per observed peak: the one closest to the winning line.
-    keep = []
-    for peak in np.unique(o[inl]):
-        cand = np.flatnonzero(inl & (o == peak))
-        keep.append(int(cand[0]))
-    keep_a = np.array(keep, dtype=int)
-    if keep_a.size < 3:
-        return np.empty(0), np.empty(0), np.empty(0), ()
-    return o[keep_a], r[keep_a], s[keep_a], tuple(names[k] for k in keep_a)
 
 
 def prepare_energy_peaks(
