@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 from tests.matching.invented import FakeSet, invented_table
-from workbench.matching import evidence, layout
+from workbench.matching import layout, species_scale
 from workbench.matching.evidence import ObservedLines, gather_evidence
 from workbench.matching.expected import expected_strengths
 from workbench.matching.reference import ReferenceIndex
@@ -116,12 +116,12 @@ def _scales_one_by_one(g_start, g_end, I_all, pred, good_all, gu_all, unseen_all
         scale = None
         if np.any(use):
             ratios = I_all[sl][use] / p[use]
-            scale = float(ratios[int(np.argmax(p[use]))]) if xray else evidence._median(ratios)
+            scale = float(ratios[int(np.argmax(p[use]))]) if xray else species_scale._median(ratios)
             if dl_all is not None:
                 unseen, dl = unseen_all[sl], dl_all[sl]
                 for _ in range(4):
                     cens = unseen & (scale * p >= dl)
-                    new = evidence._median(np.concatenate([ratios, dl[cens] / p[cens]]))
+                    new = species_scale._median(np.concatenate([ratios, dl[cens] / p[cens]]))
                     if new == scale:
                         break
                     scale = new
@@ -145,7 +145,7 @@ def test_species_scales_equal_the_per_species_rule(seed, xray):
     gu = good & (rng.random(n) < 0.5)
     unseen = ~good & (rng.random(n) < 0.6)
     dl = None if xray else np.full(n, 2.0)
-    got = evidence._species_scales(g_start, g_end, I_all, pred, good, gu, unseen, dl, xray)
+    got = species_scale._species_scales(g_start, g_end, I_all, pred, good, gu, unseen, dl, xray)
     want = _scales_one_by_one(g_start, g_end, I_all, pred, good, gu, unseen, dl, xray)
     assert got == want
     assert any(v is None for v in want) and any(v is not None for v in want)
