@@ -50,7 +50,11 @@ def _emitter(scale: float | None, predicted, heights, saturated=None):
     ev = SpeciesEvidence(code=2, label="X I", element="X", ion=1, family=None)
     ev.scale = scale
     predicted = np.asarray(predicted, dtype=float)
-    ev.groups = {"known": np.ones(predicted.size, dtype=bool), "predicted": predicted}
+    ev.groups = {
+        "known": np.ones(predicted.size, dtype=bool),
+        "found": np.ones(predicted.size, dtype=bool),
+        "predicted": predicted,
+    }
     heights = np.asarray(heights, dtype=float)
     sat = np.zeros(heights.size, dtype=bool) if saturated is None else np.asarray(saturated)
     return ev, np.arange(predicted.size), heights, sat
@@ -84,3 +88,10 @@ def test_independent_scale_ignores_saturated_and_unscaled():
     # Without a scale (no intensities) the predictions are left alone.
     ev, peak, h, sat = _emitter(None, [1.0, 0.5], [100.0, 10.0])
     assert independent_scale_factor(ev, np.array([False, True]), peak, h, sat) == 1.0
+
+
+def test_independent_scale_leaves_a_single_found_group_alone():
+    # One found group, on a claimed peak: an ambiguity of two accounts (warned
+    # as an unresolved overlap), not a count to protect: factor 1.
+    ev, peak, h, sat = _emitter(100.0, [100.0], [100.0])
+    assert independent_scale_factor(ev, np.array([False]), peak, h, sat) == 1.0

@@ -21,8 +21,8 @@ two accounts the one nearer the observed height in its own σ wins.
 In emission this species' own account of a claimed peak (both the 30 %
 blend test and the closer-account test) is taken at the scale its *free*
 groups measure — found on peaks no better species of another element
-claims — never above its fitted scale, and zero when it has no free group
-(:func:`independent_scale_factor`). The fitted scale is the median of
+claims — never above its fitted scale, and zero when none of its two or
+more found groups is free (:func:`independent_scale_factor`). The fitted scale is the median of
 observed / predicted over the species' found groups, so a species whose
 hits sit on peaks better species account for is scaled to those very
 peaks and predicts them at their observed height by construction: the
@@ -261,7 +261,10 @@ def independent_scale_factor(
     scale over them. The factor is never above 1 (the rule only takes back
     what the claimed peaks gave themselves) and is 0 when no free group is
     left (nothing in the spectrum supports the species' scale but peaks that
-    others account for).
+    others account for). A species with a single found group is left alone
+    (factor 1): it has no count for a circular scale to inflate, and its
+    one peak stays an ambiguity of two accounts, reported as an unresolved
+    overlap (a trace element's only line under a matrix line).
 
     Parameters
     ----------
@@ -278,10 +281,13 @@ def independent_scale_factor(
     -------
     float
         Factor in [0, 1] to multiply the species' predictions by; 1 where the
-        species has no scale.
+        species has no scale or a single found group.
     """
     g = ev.groups
-    if ev.scale is None or not ev.scale > 0:
+    if ev.scale is None or not ev.scale > 0 or np.count_nonzero(g["found"]) < 2:
+        # One found group: nothing to count (the classes above "possible"
+        # need two); its peak stays an ambiguity of two accounts, warned as
+        # an unresolved overlap (interference.py).
         return 1.0
     height = intensity[peak]
     good = (
