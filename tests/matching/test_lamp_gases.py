@@ -153,9 +153,10 @@ def test_gas_with_six_clear_lines_is_established(outcomes):
 
 @pytest.mark.xfail(
     strict=True,
-    reason="known gap: Kr with 5 clear lines in a dense R 1000 five-gas lamp stays "
-    "'possible' (9 of 15 groups found at a chance-hit rate of 0.1-0.6 per group, "
-    "net 0.3 dex); see benchmarks/lamp_gases.py --variant unequal",
+    reason="known gap (docs/evidence-model.md section 7): Kr with 5 clear lines in a "
+    "dense R 1000 five-gas lamp stays 'possible' (8 of 14 groups hit at a chance-hit "
+    "rate of 0.1-0.6 per group, p 4.3e-3 over 106 species tried, net 0.2 dex; the "
+    "absent Er I has p 4e-4 in the same spectrum)",
 )
 def test_krypton_with_five_clear_lines_at_r1000(optical):
     """Kr with 5 clear lines among Ne, Ar, Hg and Xe at R 1000 (invented, ``unequal`` draw).
