@@ -72,7 +72,7 @@ import numpy as np
 
 from workbench.matching.evidence import EvidencePass, ObservedLines
 from workbench.matching.reference import ReferenceIndex
-from workbench.matching.scoring import evaluate
+from workbench.matching.scoring import SpeciesEvidence, evaluate
 
 __all__ = [
     "EXPLAIN_FRACTION",
@@ -241,7 +241,7 @@ def explain_jointly(
 
 
 def independent_scale_factor(
-    ev,
+    ev: SpeciesEvidence,
     free: np.ndarray,
     peak: np.ndarray,
     intensity: np.ndarray,
@@ -418,7 +418,7 @@ def _family_total(ev) -> float | None:
 
 
 def _family_support(
-    ev,
+    ev: SpeciesEvidence,
     established: dict[str, tuple[str, float, float, float]],
     family_ratio: Callable[[str, str, str], float],
 ) -> bool:
