@@ -145,7 +145,7 @@ def test_species_scales_equal_the_per_species_rule(seed, xray):
     gu = good & (rng.random(n) < 0.5)
     unseen = ~good & (rng.random(n) < 0.6)
     dl = None if xray else np.full(n, 2.0)
-    got = species_scale._species_scales(g_start, g_end, I_all, pred, good, gu, unseen, dl, xray)
+    got = species_scale.species_scales(g_start, g_end, I_all, pred, good, gu, unseen, dl, xray)
     want = _scales_one_by_one(g_start, g_end, I_all, pred, good, gu, unseen, dl, xray)
     assert got == want
     assert any(v is None for v in want) and any(v is not None for v in want)

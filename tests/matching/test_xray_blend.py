@@ -1,11 +1,11 @@
-"""Where an unresolved X-ray blend peaks (workbench.matching.xray_evidence._blend_maxima)."""
+"""Where an unresolved X-ray blend peaks (workbench.matching.xray_evidence.group_blend_maxima)."""
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
 
-from workbench.matching.xray_evidence import _blend_maxima
+from workbench.matching.xray_evidence import group_blend_maxima
 
 
 def _grid_maximum(pos, weight, fwhm):
@@ -29,7 +29,7 @@ def _grid_maximum(pos, weight, fwhm):
 def test_blend_maximum_is_where_the_summed_gaussians_peak(pos, weight, fwhm):
     pos_a, w_a = np.array(pos), np.array(weight)
     gid = np.zeros(2, dtype=np.int64)
-    peak, sigma = _blend_maxima(
+    peak, sigma = group_blend_maxima(
         pos_a, w_a, gid, np.array([pos[0]]), np.array([fwhm]), np.array([0.2])
     )
     assert peak[0] == pytest.approx(_grid_maximum(pos, weight, fwhm), abs=0.05)
@@ -44,7 +44,7 @@ def test_single_lines_and_unknown_strengths_stay_on_their_line():
     # Two groups: one line; two lines without known strengths (weights 0).
     pos = np.array([6403.8, 9000.0, 9050.0])
     gid = np.array([0, 1, 1])
-    peak, sigma = _blend_maxima(
+    peak, sigma = group_blend_maxima(
         pos,
         np.array([1.0, 0.0, 0.0]),
         gid,

@@ -134,7 +134,7 @@ def _sum_artefact(counts_per_channel):
     [
         # N = 0.98·1.0645·40·190/10 = 793 counts over ±FWHM on B = 50·2·190/10
         # = 1900 baseline counts: N/√(N + 2B) = 793/√4593 = 11.7 ≥ 3 (the
-        # peak finder's own acceptance, counting._not_significant; hand-computed).
+        # peak finder's own acceptance, counting.not_significant; hand-computed).
         (40.0, True, False),
         # 8 counts per channel: N = 158.6, 158.6/√3958.6 = 2.52, between 2σ
         # and 3σ (hand-computed): no peak of its own, listed as faint.
@@ -226,7 +226,7 @@ def _gauss_counts(grid, centre, n, fwhm):
 
 
 def test_window_significance_of_a_line_a_spike_and_a_valley():
-    from workbench.xray.counting import _window_significance
+    from workbench.xray.counting import window_significance
 
     grid = np.arange(10000.0, 24000.0, 10.0)
     fwhm = 200.0
@@ -242,15 +242,15 @@ def test_window_significance_of_a_line_a_spike_and_a_valley():
     valley = flat + sum(_gauss_counts(grid, c, 20000.0, fwhm) for c in (17300.0, 18100.0))
     x = np.array([17700.0])
     w = np.array([fwhm])
-    s_line = _window_significance({"spectrum": (grid, line)}, x, w)[0]
+    s_line = window_significance({"spectrum": (grid, line)}, x, w)[0]
     # Channel sums instead of integrals (21 centre, 20 flank channels of
     # 10 eV, flanks scaled by 21/20): within a few per cent.
     assert s_line == pytest.approx(541.0 / np.sqrt(981.0 + 2400.0), rel=0.05)
-    assert _window_significance({"spectrum": (grid, spike)}, x, w)[0] == pytest.approx(
+    assert window_significance({"spectrum": (grid, spike)}, x, w)[0] == pytest.approx(
         60.0 / np.sqrt(2460.0), rel=0.05
     )
-    assert _window_significance({"spectrum": (grid, valley)}, x, w)[0] < 0.0
-    assert _window_significance({}, x, w) is None
+    assert window_significance({"spectrum": (grid, valley)}, x, w)[0] < 0.0
+    assert window_significance({}, x, w) is None
 
 
 def test_narrow_maximum_kept_when_the_counts_show_a_line():

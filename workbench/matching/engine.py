@@ -61,10 +61,10 @@ from workbench.matching.interference import (
     interference_warnings,
 )
 from workbench.matching.observed import (
-    _broad_dips,
-    _check_pair_budget,
-    _dedupe,
-    _observed,
+    broad_dips,
+    check_pair_budget,
+    dedupe_peaks,
+    observed_lines,
 )
 from workbench.matching.params import (
     BAND_WIDTH_FACTOR,
@@ -228,7 +228,7 @@ def match_peaks(
             f"use --mode {peaks.mode}, or find the peaks again in {params.mode} mode",
         )
     notes: list[dict[str, object]] = []
-    deduped, n_merged = _dedupe(peaks)
+    deduped, n_merged = dedupe_peaks(peaks)
     if n_merged:
         if tolerance_per_peak is not None or excluded_peaks is not None or peak_labels:
             raise ValueRangeError(
@@ -246,7 +246,7 @@ def match_peaks(
         )
         peaks = deduped
     labels = dict(peak_labels or {})
-    broad = _broad_dips(peaks, params)
+    broad = broad_dips(peaks, params)
     if broad is not None:
         ex = np.zeros(peaks.table.height, dtype=bool)
         if excluded_peaks is not None:
@@ -287,7 +287,7 @@ def match_peaks(
             (ref_species, index.position, index.rel_intensity * index.subshell_weight),
             apply_scale=params.apply_calibration,
         )
-    obs = _observed(peaks, params, tolerance_per_peak, excluded_peaks)
+    obs = observed_lines(peaks, params, tolerance_per_peak, excluded_peaks)
     x_range = peaks.extra.get("x_range") if isinstance(peaks.extra, dict) else None
     if x_range:
         lo, hi = float(x_range[0]), float(x_range[1])
@@ -310,7 +310,7 @@ def match_peaks(
                 "lines": [],
             }
         )
-    _check_pair_budget(obs, index, in_range)
+    check_pair_budget(obs, index, in_range)
 
     working_T = params.temperature_K or (
         params.default_temperature_K if params.mode == "emission" else 5800.0

@@ -54,7 +54,7 @@ is that of the family's strongest found group (the best predicted and best
 measured line; a weak line sitting on another element's peak cannot inflate
 it), and each group carries what the X-ray agreement terms of
 :mod:`workbench.matching.scoring` need
-(:func:`workbench.matching.xray_evidence._xray_terms`).
+(:func:`workbench.matching.xray_evidence.xray_terms`).
 
 Everything is vectorised over pairs and groups; the only Python loop is over
 species with at least one candidate (tens to a few hundred), with slices of
@@ -80,8 +80,8 @@ from workbench.matching.layout import pass_layout
 from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import SpeciesEvidence, evaluate
-from workbench.matching.species_scale import _species_scales
-from workbench.matching.xray_evidence import _blend_maxima, _xray_terms
+from workbench.matching.species_scale import species_scales
+from workbench.matching.xray_evidence import group_blend_maxima, xray_terms
 
 __all__ = [
     "LOCAL_DENSITY_NEIGHBOURS",
@@ -331,7 +331,7 @@ def gather_evidence(
     sigma_all = sigma_lines[g_rep] if sigma_lines is not None else np.full(n_groups, sigma_dex)
     # 1. The intensity scale (and pattern correlation) of each species.
     good_uniq_all = good_all & g_unique
-    scales = _species_scales(
+    scales = species_scales(
         g_start,
         g_end,
         I_all,
@@ -464,7 +464,7 @@ def gather_evidence(
     blend_max = blend_sig = None
     if xray and n_groups:
         res = obs.resolution if obs.resolution is not None else 2.0 * obs.half_window
-        blend_max, blend_sig = _blend_maxima(
+        blend_max, blend_sig = group_blend_maxima(
             index.position[usable_idx],
             u_e,
             gid,
@@ -523,7 +523,7 @@ def gather_evidence(
             if blend_max is not None:
                 ev.groups["blend_max"] = blend_max[sl]
                 ev.groups["blend_sigma"] = blend_sig[sl]
-            ev.groups.update(_xray_terms(obs, index, ev.groups, g_tol[sl], g_span[sl], dl_g))
+            ev.groups.update(xray_terms(obs, index, ev.groups, g_tol[sl], g_span[sl], dl_g))
         if prior_test is not None:
             ev.groups.update({k: v[sl] for k, v in prior_test.items()})
             ev.groups["absorption"] = True

@@ -1,15 +1,15 @@
 """Step 1 of the engine: the peak list checked and made into the observed lines.
 
 Before anything is matched, :func:`workbench.matching.engine.match_peaks`
-merges identical rows (:func:`_dedupe`), marks absorption dips wider than
-a band (:func:`_broad_dips`), turns the peak list into
+merges identical rows (:func:`dedupe_peaks`), marks absorption dips wider than
+a band (:func:`broad_dips`), turns the peak list into
 :class:`~workbench.matching.evidence.ObservedLines` — half-window and
 resolution element per peak, saturation, detection limit, excluded
 peaks and, on a prepared energy axis, each peak's counting figures from
-:mod:`workbench.xray.prepare` (:func:`_observed`) — and refuses at once a
+:mod:`workbench.xray.prepare` (:func:`observed_lines`) — and refuses at once a
 search that would compare more than
 :data:`~workbench.matching.params.MAX_CANDIDATE_PAIRS` pairs
-(:func:`_check_pair_budget`).
+(:func:`check_pair_budget`).
 
 Apart from :mod:`workbench.matching.engine` because these functions only
 check and convert the input and decide nothing: the engine keeps the flow
@@ -27,10 +27,15 @@ from workbench.matching.evidence import ObservedLines
 from workbench.matching.params import BAND_WIDTH_FACTOR, MAX_CANDIDATE_PAIRS, MatchParameters
 from workbench.matching.reference import ReferenceIndex
 
-__all__: list[str] = []
+__all__ = [
+    "broad_dips",
+    "check_pair_budget",
+    "dedupe_peaks",
+    "observed_lines",
+]
 
 
-def _dedupe(peaks: PeakList) -> tuple[PeakList, int]:
+def dedupe_peaks(peaks: PeakList) -> tuple[PeakList, int]:
     """Merge rows with identical positions (the most intense kept); return the count merged."""
     x = peaks.positions
     if x.size < 2 or not np.any(x[1:] == x[:-1]):
@@ -46,12 +51,32 @@ def _dedupe(peaks: PeakList) -> tuple[PeakList, int]:
     )
 
 
-def _observed(
+def observed_lines(
     peaks: PeakList,
     params: MatchParameters,
     tolerance_per_peak: np.ndarray | None = None,
     excluded_peaks: np.ndarray | None = None,
 ) -> ObservedLines:
+    """The peak list as the engine's observed lines: positions, heights, windows, limits.
+
+    Parameters
+    ----------
+    peaks : PeakList
+        The peaks to match (positions checked here: finite and positive).
+    params : MatchParameters
+        Its tolerance rule gives each peak's half-window and resolution element.
+    tolerance_per_peak : numpy.ndarray, optional
+        One half-window per peak in the axis unit, instead of the rule's.
+    excluded_peaks : numpy.ndarray of int or bool, optional
+        Peaks kept in the list but never matched (artefacts: escape, sum,
+        diffraction peaks), as indices or a mask.
+
+    Returns
+    -------
+    ObservedLines
+        Raises :class:`ValueRangeError` for an empty list, a bad position, a
+        bad per-peak tolerance or a bad exclusion, naming the row or the fix.
+    """
     x = peaks.positions
     if x.size == 0:
         raise ValueRangeError("the peak list is empty", "give at least one observed line")
@@ -161,7 +186,7 @@ def _observed(
     )
 
 
-def _broad_dips(peaks: PeakList, params: MatchParameters) -> np.ndarray | None:
+def broad_dips(peaks: PeakList, params: MatchParameters) -> np.ndarray | None:
     """Absorption dips wider than BAND_WIDTH_FACTOR × the median FWHM (bands, not lines)."""
     col = FWHM_COLUMN[peaks.axis]
     if params.mode != "absorption" or col not in peaks.table.columns or peaks.table.height < 5:
@@ -174,7 +199,7 @@ def _broad_dips(peaks: PeakList, params: MatchParameters) -> np.ndarray | None:
     return broad if np.any(broad) else None
 
 
-def _check_pair_budget(obs: ObservedLines, index: ReferenceIndex, in_range: np.ndarray) -> None:
+def check_pair_budget(obs: ObservedLines, index: ReferenceIndex, in_range: np.ndarray) -> None:
     """Refuse at once a search that would compare more than MAX_CANDIDATE_PAIRS pairs."""
     ref = index.position[in_range]
     lo = np.searchsorted(ref, obs.position - obs.half_window, side="left")

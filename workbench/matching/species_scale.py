@@ -14,7 +14,10 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["SCALE_CONSISTENT_SIGMAS"]
+__all__ = [
+    "SCALE_CONSISTENT_SIGMAS",
+    "species_scales",
+]
 
 
 def _median(a: np.ndarray) -> float:
@@ -26,7 +29,7 @@ def _median(a: np.ndarray) -> float:
 
 #: Optical scale: found groups predicted more than this many σ (the source
 #: model's uncertainty) below the detection limit at the species' scale do
-#: not measure the scale (:func:`_species_scales`). 2σ: the usual bound of
+#: not measure the scale (:func:`species_scales`). 2σ: the usual bound of
 #: "consistent with the model", fixed before the real spectra were run
 #: (common practice, no source). Tune set: 1σ gives the same classes; at
 #: 3σ ASTM G173 Mg I is "not supported" again (as without the rule).
@@ -48,7 +51,7 @@ def _sorted_medians(v: np.ndarray, seg: np.ndarray, n_seg: int) -> np.ndarray:
     return out
 
 
-def _species_scales(
+def species_scales(
     g_start: np.ndarray,
     g_end: np.ndarray,
     I_all: np.ndarray,

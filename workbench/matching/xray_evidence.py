@@ -4,9 +4,9 @@ With the ``x-ray`` source model on an energy axis,
 :func:`workbench.matching.evidence.gather_evidence` adds to each group of a
 species what the X-ray terms of :mod:`workbench.matching.xray_scoring` need:
 where the group's blend peaks at the detector resolution and how surely
-(:func:`_blend_maxima`), and the peak's offset from it, the position
+(:func:`group_blend_maxima`), and the peak's offset from it, the position
 uncertainty, the window and log-intensity range a chance peak could fall in,
-and the peak's counting significance (:func:`_xray_terms`).
+and the peak's counting significance (:func:`xray_terms`).
 
 Apart from :mod:`workbench.matching.evidence` because none of it concerns
 emission or absorption: the evidence pass calls these two functions only
@@ -27,7 +27,12 @@ from workbench.xray.detector import blend_maxima
 if TYPE_CHECKING:
     from workbench.matching.evidence import ObservedLines
 
-__all__ = ["XRAY_CALIBRATION_SIGMA_EV", "XRAY_LINE_SIGMA_EV"]
+__all__ = [
+    "XRAY_CALIBRATION_SIGMA_EV",
+    "XRAY_LINE_SIGMA_EV",
+    "group_blend_maxima",
+    "xray_terms",
+]
 
 #: Residual energy-scale error on an energy axis (eV, 1σ): the scale check
 #: applies a correction only beyond 20 eV (``workbench.xray.energy_scale.
@@ -40,7 +45,7 @@ XRAY_CALIBRATION_SIGMA_EV: float = 10.0
 XRAY_LINE_SIGMA_EV: float = 2.0
 
 
-def _xray_terms(
+def xray_terms(
     obs: ObservedLines,
     index: ReferenceIndex,
     g: dict,
@@ -51,7 +56,7 @@ def _xray_terms(
     """Per-group quantities for the X-ray agreement terms (``scoring``).
 
     * ``delta``: observed peak − where the group's blend peaks at the
-      detector resolution (``blend_max``, :func:`_blend_maxima`; the
+      detector resolution (``blend_max``, :func:`group_blend_maxima`; the
       strongest line when not given). The peak finder reports the blend's
       maximum, not its strongest line: in 30 forward-model spectra of the
       soil case (130 eV) the Rb, Sr and Zr Kα peaks sat 19–22 eV below Kα1
@@ -123,7 +128,7 @@ def _xray_terms(
     }
 
 
-def _blend_maxima(
+def group_blend_maxima(
     u_pos: np.ndarray,
     u_e: np.ndarray,
     gid: np.ndarray,

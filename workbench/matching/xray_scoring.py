@@ -13,8 +13,8 @@ evidence a coincidence rarely produces. Added to E (decades):
 position agreement
     per found, unique, counted group: log10[(1 − ε)·W·φ(δ/σ)/σ + ε], δ the
     peak's offset from where the group's blend peaks at the detector
-    resolution (:func:`workbench.matching.xray_evidence._blend_maxima`), σ the
-    position uncertainty (:func:`workbench.matching.xray_evidence._xray_terms`:
+    resolution (:func:`workbench.matching.xray_evidence.group_blend_maxima`), σ the
+    position uncertainty (:func:`workbench.matching.xray_evidence.xray_terms`:
     residual calibration 10 eV, tabulation 2 eV, the shift of the blend's
     maximum under the model's intensity-ratio uncertainty, and the
     wandering of a noisy peak's maximum), W = 2·tolerance + span the width
@@ -41,7 +41,7 @@ sole explanation
     counts), so the rule never fired on the trace lines it is meant for.
     Nor is the counting significance the measure of how far a peak's
     maximum wanders: that is the height over one channel's counting noise,
-    h/√(h + b) (:func:`workbench.matching.xray_evidence._xray_terms`; forward-
+    h/√(h + b) (:func:`workbench.matching.xray_evidence.xray_terms`; forward-
     model check, 30 seeds of the soil case at 130 eV: the maxima of Zn, Sr,
     Zr, Mn and Ti Kα scatter by 0.6–0.7 × the σ it gives, Ti Kα by 5.5 eV
     where the median-noise SNR gave 3.6 eV).

@@ -19,7 +19,7 @@ more than :data:`WIDTH_EXCESS` plus 2σ above the detector's) the centre and
 its standard error (from the fit's covariance, inflated by √(χ²/dof) when
 the shape does not fit) replace the peak finder's centre and the wander of
 the maximum in the evidence's position uncertainty
-(:func:`workbench.matching.xray_evidence._xray_terms`). A wider peak is a blend
+(:func:`workbench.matching.xray_evidence.xray_terms`). A wider peak is a blend
 of lines of different families (Pb Mα with S Kα, Ba Lα with Ti Kα): its
 centroid lies between them and is no family's line, while its maximum sits
 nearer the stronger one, which the evidence's blend model expects; it

@@ -6,16 +6,16 @@ median noise of all peaks. :func:`workbench.xray.prepare.prepare_energy_peaks`
 asks three things here of the peak list (and, when it came with them, of the
 spectrum's baseline and channels):
 
-* :func:`_not_significant`: the maxima counting statistics or the detector
+* :func:`not_significant`: the maxima counting statistics or the detector
   resolution cannot support, and each peak's counting significance
   N/√(N + 2B) from its own net and baseline counts (below
   :data:`MIN_COUNTING_SIGMA` dropped); a maximum much narrower than the
   detector response (:data:`SPIKE_WIDTH_FRACTION`) is a counting spike
   unless the spectrum's counts around it show a line
-  (:func:`_window_significance`);
-* :func:`_channel_snr`: each peak's height over one channel's counting
+  (:func:`window_significance`);
+* :func:`channel_snr`: each peak's height over one channel's counting
   noise, h/√(h + b), which sets how far a noisy peak's maximum wanders;
-* :func:`_channel_width`: the channel width that turns heights into counts.
+* :func:`channel_width`: the channel width that turns heights into counts.
 
 Apart from :mod:`workbench.xray.prepare` because none of it depends on the
 artefact model, the excitation or the energy scale: it is the statistics of
@@ -29,12 +29,24 @@ import polars as pl
 
 from workbench.datamodel import FWHM_COLUMN, PeakList
 
-__all__ = ["MIN_COUNTING_SIGMA", "SPIKE_WIDTH_FRACTION"]
+__all__ = [
+    "MIN_COUNTING_SIGMA",
+    "SPIKE_WIDTH_FRACTION",
+    "channel_snr",
+    "channel_width",
+    "not_significant",
+    "window_significance",
+]
 
 _DEFAULT_CHANNEL_EV = 10.0  # 4096 channels over 40 keV (common practice, no source)
 
 
-def _channel_width(peaks: PeakList) -> float:
+def channel_width(peaks: PeakList) -> float:
+    """Width of one channel of the peak list's spectrum (eV).
+
+    From the baseline's length over the energy range when the peak finder
+    stored them; else 10 eV, a common 4096-channel, 40 keV unit.
+    """
     extra = peaks.extra if isinstance(peaks.extra, dict) else {}
     base, xr = extra.get("baseline"), extra.get("x_range")
     if base is not None and xr is not None and np.size(base) > 1:
@@ -46,11 +58,11 @@ def _channel_width(peaks: PeakList) -> float:
 #: (the usual 3σ detection limit of XRF; common practice, no source).
 MIN_COUNTING_SIGMA: float = 3.0
 #: A maximum narrower than this part of the detector FWHM is a counting spike
-#: (see :func:`_not_significant`; derivation above, no source).
+#: (see :func:`not_significant`; derivation above, no source).
 SPIKE_WIDTH_FRACTION: float = 0.25
 
 
-def _window_significance(extra: dict, x: np.ndarray, fwhm: np.ndarray) -> np.ndarray | None:
+def window_significance(extra: dict, x: np.ndarray, fwhm: np.ndarray) -> np.ndarray | None:
     """Counting significance of a line at each position from the spectrum's raw counts.
 
     A top-hat comparison of the counts C within half a detector FWHM of the
@@ -95,7 +107,7 @@ def _window_significance(extra: dict, x: np.ndarray, fwhm: np.ndarray) -> np.nda
         return np.where((var > 0) & (n_f > 0), (centre - r * flanks) / np.sqrt(var), 0.0)
 
 
-def _not_significant(
+def not_significant(
     peaks: PeakList, x: np.ndarray, inten: np.ndarray, fwhm: np.ndarray, channel: float
 ) -> tuple[np.ndarray, np.ndarray]:
     """Peaks that counting statistics or the detector resolution cannot support.
@@ -126,11 +138,11 @@ def _not_significant(
     # against a 240 eV response): only a maximum under a quarter of the
     # detector FWHM (a few channels, the width of a counting spike) is taken
     # for a noise spike, and, when the spectrum is at hand, only if the
-    # counts around it do not show a line (:func:`_window_significance`): a
+    # counts around it do not show a line (:func:`window_significance`): a
     # 10σ Zr Kβ on 64 counts per channel measured 31 eV against 212 eV.
     narrow = np.isfinite(w_obs) & (w_obs < SPIKE_WIDTH_FRACTION * fwhm)
     if np.any(narrow):
-        s_win = _window_significance(extra, x[narrow], fwhm[narrow])
+        s_win = window_significance(extra, x[narrow], fwhm[narrow])
         if s_win is not None:
             narrow[narrow] = s_win < MIN_COUNTING_SIGMA
     drop |= narrow
@@ -159,13 +171,13 @@ def _not_significant(
     return drop, sig
 
 
-def _channel_snr(peaks: PeakList, x: np.ndarray, height: np.ndarray) -> np.ndarray:
+def channel_snr(peaks: PeakList, x: np.ndarray, height: np.ndarray) -> np.ndarray:
     """Height over its own counting noise in one channel, h/√(h + b); NaN without a baseline.
 
     h is the peak's height above the baseline b (counts per channel, as the
     peak finder measures both on a raw spectrum of counts). This, not the
     counting significance of the whole peak, sets how far the maximum of a
-    noisy peak wanders (:func:`workbench.matching.xray_evidence._xray_terms`):
+    noisy peak wanders (:func:`workbench.matching.xray_evidence.xray_terms`):
     the peak finder places a peak at its highest channels, and near the top
     a Gaussian changes by one channel's noise over ≈ σ·√(2/SNR). A strong
     peak's height over the median noise of all peaks overstates it: Pb Lα

@@ -11,7 +11,7 @@ and returns
   net and baseline counts (:mod:`workbench.xray.counting`). A maximum
   measured much narrower than the detector response is taken for a
   counting spike unless the spectrum's own counts around it show a line
-  (:func:`~workbench.xray.counting._window_significance`: a top-hat
+  (:func:`~workbench.xray.counting.window_significance`: a top-hat
   comparison of the counts within half a FWHM with those of the flanks, in
   which any locally linear background cancels);
 * the detector FWHM at each peak in the ``fwhm_eV`` column, so that the
@@ -41,15 +41,15 @@ from workbench.xray.artefacts import artefact_table, label_peaks, predict_artefa
 from workbench.xray.centroid import fitted_peak_centres
 from workbench.xray.counting import (
     MIN_COUNTING_SIGMA,
-    _channel_snr,
-    _channel_width,
-    _not_significant,
+    channel_snr,
+    channel_width,
+    not_significant,
 )
 from workbench.xray.detector import fwhm_eV
 from workbench.xray.energy_scale import EnergyScale, fit_energy_scale
 from workbench.xray.excitation import excitable, measurable
 from workbench.xray.instrument import DEFAULT_INSTRUMENT, Instrument
-from workbench.xray.scale_pairs import _scale_pairs
+from workbench.xray.scale_pairs import anchor_pairs
 from workbench.xray.wording import artefact_kind_label
 
 __all__ = ["XrayPreparation", "prepare_energy_peaks"]
@@ -175,7 +175,7 @@ def _without_peak(
     With the ``baseline`` (channel energies, counts), a predicted escape or
     sum peak's significance is N/√(N + 2B) (N its expected counts over
     ±FWHM, B the baseline counts under them; the peak finder's own
-    acceptance, as in :func:`_not_significant`). Those from
+    acceptance, as in :func:`not_significant`). Those from
     :data:`LIST_COUNTING_SIGMA` (2σ) up to :data:`MIN_COUNTING_SIGMA` (3σ)
     are listed with ``faint`` true: too weak to be a peak of their own, but
     two thirds or more of what a line at the detection limit would hold, so
@@ -297,8 +297,8 @@ def prepare_energy_peaks(
         else np.full(x.size, np.nan)
     )
     w_det = fwhm_eV(x, inst)
-    channel = _channel_width(peaks)
-    weak = _not_significant(peaks, x, inten, w_det, channel)
+    channel = channel_width(peaks)
+    weak = not_significant(peaks, x, inten, w_det, channel)
     # Centres from a fit of the detector's line shape, not the peak's top
     # channels (workbench.xray.centroid): a weak peak's maximum wanders.
     x, x_sigma = fitted_peak_centres(peaks, x, w_det, weak[0])
@@ -320,7 +320,7 @@ def prepare_energy_peaks(
     usable = ~weak[0]
     usable[labels["peak"].to_numpy()] = False
     snr_use = np.where(usable, snr, np.nan)
-    o, r, s, names = _scale_pairs(x, snr_use, w_det, reference)
+    o, r, s, names = anchor_pairs(x, snr_use, w_det, reference)
     scale = fit_energy_scale(o, r, s, names)
     if scale.n_pairs and (scale.significant if apply_scale is None else apply_scale):
         x = scale.correct(x)
@@ -349,7 +349,7 @@ def prepare_energy_peaks(
         with np.errstate(divide="ignore", invalid="ignore"):
             new = new.with_columns(pl.Series("snr", np.where(noise > 0, new_i / noise, snr)))
     new = new.with_columns(
-        pl.Series("snr_channel", _channel_snr(peaks, x, new_i)),
+        pl.Series("snr_channel", channel_snr(peaks, x, new_i)),
         pl.Series("position_sigma_eV", x_sigma),
     )
     new = new.filter(pl.Series(~drop))

@@ -1,6 +1,6 @@
 """Pairs for the energy-scale check before matching: strong peaks one confirmed family explains.
 
-:func:`_scale_pairs` pairs each strong peak with where the blend of the one
+:func:`anchor_pairs` pairs each strong peak with where the blend of the one
 line family that explains it peaks at the detector resolution (the family
 confirmed by a second line); :func:`_consistent` keeps the largest set of
 pairs that one offset-and-gain line explains. The scale is fitted to them,
@@ -22,10 +22,12 @@ import numpy as np
 
 from workbench.xray.detector import blend_maxima
 
-__all__: list[str] = []
+__all__ = [
+    "anchor_pairs",
+]
 
 
-def _scale_pairs(
+def anchor_pairs(
     x: np.ndarray, snr: np.ndarray, fwhm: np.ndarray, ref: Any
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray, tuple[str, ...]]:
     """Strong peaks explained by exactly one confirmed line family.
