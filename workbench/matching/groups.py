@@ -52,7 +52,7 @@ _GAUSS = 2.0 * np.sqrt(2.0 * np.log(2.0))  # FWHM / σ of a Gaussian
 def resolvable_groups(
     species: np.ndarray,
     position: np.ndarray,
-    half_window: np.ndarray,
+    resolution: np.ndarray,
     strength: np.ndarray | None = None,
 ) -> np.ndarray:
     """Group id per line for lines already sorted by (species, position).
@@ -63,8 +63,8 @@ def resolvable_groups(
         Species code per line (sorted, ascending).
     position : numpy.ndarray
         Line position (ascending within each species).
-    half_window : numpy.ndarray
-        Resolution element at each line's position (axis unit).
+    resolution : numpy.ndarray
+        Resolution element (≈ FWHM) at each line's position (axis unit).
     strength : numpy.ndarray, optional
         Predicted strength per line (NaN or 0 where unknown); when given,
         chains are split where their predicted profile is resolved
@@ -81,10 +81,10 @@ def resolvable_groups(
     new = np.ones(n, dtype=bool)
     if n > 1:
         same_species = species[1:] == species[:-1]
-        close = np.diff(position) <= np.maximum(half_window[1:], half_window[:-1])
+        close = np.diff(position) <= np.maximum(resolution[1:], resolution[:-1])
         new[1:] = ~(same_species & close)
     if strength is not None and n > 1:
-        _split_resolved(new, position, half_window, strength)
+        _split_resolved(new, position, resolution, strength)
     return np.cumsum(new) - 1
 
 
