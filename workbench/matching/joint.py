@@ -300,8 +300,9 @@ def independent_scale_factor(
     )
     if not np.any(good):
         return 0.0
-    per_unit = g["predicted"][good] / ev.scale
-    return min(1.0, float(np.median(height[good] / per_unit)) / ev.scale)
+    # The free groups' scale over the fitted one: median(observed / (predicted
+    # / scale)) / scale, i.e. the median of observed / predicted.
+    return min(1.0, float(np.median(height[good] / g["predicted"][good])))
 
 
 def _family_refutation(
