@@ -89,3 +89,21 @@ def test_a_stage_is_raised_only_on_data_of_its_own(p_weak, raised):
     assert weak.pooled_with == ["Qa I"]  # pooled figures are reported either way
     assert (weak.level == 3) is raised
     assert strong.level == 3
+
+
+def test_pooling_alone_raises_to_probable_at_most():
+    # Invented element "Qa": stage II alone "probable" (p 3e-5), stage I "possible"
+    # (p 0.008). Fisher gives p 5e-6, which over one element is well past the
+    # "established" threshold (3 decades; workbench.matching.scoring). Under chance
+    # the two stages' hits are not independent (their lines crowd into the same
+    # stretches), so the top class needs a stage established on its own: both
+    # stages end "probable" (the Nd of a five-gas invented lamp at R 1000).
+    from types import SimpleNamespace
+
+    from workbench.matching.pooling import pool_ion_stages
+
+    one, two = _stage(0, "Qa I", 1, 8e-3, 1), _stage(1, "Qa II", 2, 3e-5, 2)
+    pool_ion_stages(SimpleNamespace(evidence={0: one, 1: two}))
+    assert fisher_combined([8e-3, 3e-5]) < 1e-5
+    assert two.pooled_evidence_dex >= 3.0
+    assert (one.level, two.level) == (2, 2)
