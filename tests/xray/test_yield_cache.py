@@ -20,9 +20,15 @@ def test_shipped_cache_is_current():
 
 @pytest.mark.parametrize("element", ["Pb", "Ba", "Ti", "Fe", "Al"])
 def test_cached_yields_are_the_computed_ones(element):
-    # Bit for bit: xraylib 4.3 CS_FluorLine_Kissel_Cascade over the default tube
-    # spectrum (workbench.xray.forward.line_yields), stored with repr precision.
-    assert default_yields(element) == line_yields(element, DEFAULT_INSTRUMENT)
+    # xraylib 4.3 CS_FluorLine_Kissel_Cascade over the default tube spectrum
+    # (workbench.xray.forward.line_yields), stored with repr precision. To the
+    # last bits, not bit for bit: the computed values differ between CPUs in
+    # their last bit (on an AMD EPYC with FMA, 16 of Pb's 111 yields by at most
+    # 2.8e-16 relative to the file written elsewhere), which is no staleness.
+    cached, computed = default_yields(element), line_yields(element, DEFAULT_INSTRUMENT)
+    assert cached.keys() == computed.keys()
+    for line, value in computed.items():
+        assert cached[line] == pytest.approx(value, rel=1e-12, abs=0.0), line
 
 
 def test_mismatched_key_is_ignored(tmp_path, monkeypatch):
