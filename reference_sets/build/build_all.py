@@ -101,12 +101,13 @@ from workbench.refdata.blend import (  # noqa: E402
     COMPONENT_SCHEMA,
     ISOTOPE_GAP_NM,
     blend_group,
+    blend_shared_intensity,
     group_components,
 )
 from workbench.refdata.columns import conform  # noqa: E402
 from workbench.refdata.elements import SYMBOLS, atomic_number, is_element_symbol  # noqa: E402
 
-DATA_VERSION = "2026.12.3"
+DATA_VERSION = "2026.12.4"
 CACHE = ROOT / "_cache"
 #: Where the outputs go: ROOT, or a temporary folder with ``--check``.
 OUT = ROOT
@@ -593,6 +594,9 @@ def parse_rascal(text: str) -> tuple[list[dict], int]:
         if typ in {"E2", "M1", "M2", "E1", "HF", "UT"}:
             notes.append(f"transition type {typ}")
         g_l = _g_from_j(j_i)
+        # NIST's "*": the intensity is shared by several lines (the rows of
+        # one observed line's transitions; blend_rascal).
+        shared = "*" in flags
         rows.append(
             _row(
                 element,
@@ -607,9 +611,49 @@ def parse_rascal(text: str) -> tuple[list[dict], int]:
                 rel_intensity=rel,
                 notes="; ".join(notes) or None,
                 accuracy_unc_nm=_float(f[3]),
+                _shared_intensity=shared,
             )
         )
     return rows, skipped
+
+
+def blend_rascal(rows: list[dict]) -> tuple[list[dict], int]:
+    """One row per observed line of the rascal NIST extract (workbench.refdata.blend).
+
+    Rows of one element and ion at one vacuum wavelength with one intensity,
+    at least one of them flagged ``*`` (intensity shared; the extract gives
+    Ne I 437.90 nm once as "20" and once as "20*"), are the transitions of
+    one observed line: :func:`blend_shared_intensity` counts the intensity
+    once. Every other row is kept as it is. Returns the rows and the number
+    of lines so formed.
+    """
+    rows = [r for r in rows if LAMBDA_MIN_NM <= r["wavelength_vac_nm"] <= LAMBDA_MAX_NM]
+
+    def key(r: dict) -> tuple:
+        return (r["element"], r["ion"], r["wavelength_vac_nm"], r.get("rel_intensity"))
+
+    flagged = {key(r) for r in rows if r.get("_shared_intensity")}
+    groups: dict[tuple, list[dict]] = {}
+    out: list[list[dict]] = []
+    for r in rows:
+        r = {k: v for k, v in r.items() if k != "_shared_intensity"}
+        k = key(r)
+        if k in flagged:
+            if k not in groups:
+                groups[k] = []
+                out.append(groups[k])  # keeps the source's order
+            groups[k].append(r)
+        else:
+            out.append([r])
+    lines: list[dict] = []
+    n_blends = 0
+    for group in out:
+        line, comps = blend_shared_intensity(group)
+        if comps:
+            line["_components"] = comps
+            n_blends += 1
+        lines.append(line)
+    return lines, n_blends
 
 
 # ------------------------------------------------------------------- NIST (PypeIt Th-Ar list)
@@ -1193,6 +1237,11 @@ BLEND_RULE = (
     "rel_intensity; w-weighted: vacuum wavelength, E_lower, E_upper; shared: g_k, g_i, "
     "transition, accuracy from the strongest component; a source's natural-mixture row "
     "listed beside its isotope rows is kept as the line (isotope rows not summed). "
+    "Rows of the rascal NIST extract of one element and ion at one vacuum wavelength with "
+    "one intensity, one of them flagged '*' (intensity shared), are one observed line: "
+    "the intensity once, "
+    "g_k*A summed, the rest from the transition of largest g_k*A (components of kind "
+    "'multiply classified'; blend_shared_intensity). "
     "Before blending, a second Gaia-ESO entry of one transition (same levels and labels, "
     f"<= {MATCH_TOL_NM} nm, other damping data) is dropped and noted (dedupe_ges). "
     "See workbench/refdata/blend.py"
@@ -1250,6 +1299,12 @@ def main() -> int:
     ges, n_dup = dedupe_ges(ges)
     print(f"  ges2022: {n_dup} second entries of one transition dropped (kept in notes)")
     m03, m00, ges = (blend_source(rows, abundance) for rows in (m03, m00, ges))
+    n_nist = len(nist)
+    nist, n_shared = blend_rascal(nist)
+    print(
+        f"  nist_rascal: {n_nist} rows -> {len(nist)} lines in range "
+        f"({n_shared} observed lines whose rows shared one intensity, NIST flag '*')"
+    )
     for name, rows in [("morton03", m03), ("morton00", m00), ("ges2022", ges)]:
         n_comp = sum(len(r["_components"]) for r in rows)
         print(

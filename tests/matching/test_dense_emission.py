@@ -15,7 +15,7 @@ stayed the absent species' hits, counted and unique. The joint step now
 lets the better species explain a peak its prediction accounts for within
 2σ of its own model when it is the closer account, and (stop 23) judges
 the lower species' own account at the scale of its lines no better species
-claims; one draw remains a known gap (strict xfail). The gases must stay
+claims. The gases must stay
 "established" where they have ≥ 6 clearly present lines (engine 4123f2f:
 all of them are, in these six draws).
 """
@@ -46,15 +46,13 @@ def _case(lamp: str, lo_nm: float, resolving_power: float, seed: int, variant: s
 
 
 # (lamp, range start nm, R, seed, variant, the absent element engine 4123f2f
-# called "probable"): lamp_cases(6, variant=...) draws, seed 20261203.
-_V_GAP = pytest.mark.xfail(
-    strict=True,
-    reason="known gap (docs/evidence-model.md section 7): V I hits 13 of 16 groups; "
-    "it predicts most of those peaks at >= 30 % of their height itself (a blend "
-    "for the joint step), closeness 0.33",
-)
+# called "probable"): lamp_cases(6, variant=...) draws, seed 20261203. Since
+# data version 2026.12.4 (one row per observed NIST line: the lamps' lines
+# changed, so every draw did) these seeds draw other spectra; they stay as
+# regression cases. V I (seed 564351200, a strict xfail until then) is no
+# longer "probable" in its new draw.
 FALSE_PROBABLE_DRAWS = [
-    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 564351200, "comparable", "V", marks=_V_GAP),
+    ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 564351200, "comparable", "V"),
     ("Xe", 550.0, 1000.0, 1897802466, "unequal", "Gd"),
     ("Ne+Ar+Hg+Kr+Xe", 400.0, 2000.0, 1575577883, "unequal", "Ce"),
     # Ce I + II pooled until stop 23: Ce's scale was fitted on lamp lines the
@@ -63,6 +61,40 @@ FALSE_PROBABLE_DRAWS = [
     ("Ne+Ar+Hg+Kr+Xe", 400.0, 1000.0, 23017169, "saturated", "Gd"),
     ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 564351200, "saturated", "Nd"),
 ]
+
+# The absent elements "probable" in the draws of data version 2026.12.4
+# (benchmarks/lamp_gases.py --seeds 6, three variants, 432 spectra): the
+# known gap of docs/evidence-model.md section 7. Two of them (Nd, unequal;
+# Ce, saturated) were "established" by pooling their ion stages until the
+# pooled top class needed one stage established on its own
+# (workbench.matching.pooling).
+_GAP = pytest.mark.xfail(
+    strict=True,
+    raises=AssertionError,
+    reason="known gap (docs/evidence-model.md section 7): a line-rich absent species "
+    "hits many groups where the lamp's lines crowd (chance hit rate 0.27-0.61 per "
+    "group) and reaches 'probable'",
+)
+KNOWN_FALSE_PROBABLE = [
+    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 111838774, "comparable", "Ce", marks=_GAP),
+    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 5000.0, 1569377642, "comparable", "Nd", marks=_GAP),
+    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 1000.0, 2060361968, "unequal", "Nd", marks=_GAP),
+    pytest.param("Xe", 550.0, 1000.0, 1897802466, "saturated", "Pr", marks=_GAP),
+    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 111838774, "saturated", "Ce", marks=_GAP),
+]
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize(("lamp", "lo_nm", "r", "seed", "variant", "absent"), KNOWN_FALSE_PROBABLE)
+def test_known_false_probable_draws(optical, lamp, lo_nm, r, seed, variant, absent):
+    """The absent element is at most "possible" (fails today), and never "established"."""
+    case = _case(lamp, lo_nm, r, seed, variant)
+    best = run_lamp(optical, case)
+    # No false top class, today too: a failure here is not the known gap.
+    top = {e: lv for e, lv in best.items() if e not in case.gases and lv >= 3}
+    if top:
+        pytest.fail(f"false top class {top} (not the known gap)", pytrace=False)
+    assert best.get(absent, 0) <= 1, absent
 
 
 @pytest.mark.slow

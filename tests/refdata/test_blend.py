@@ -9,6 +9,7 @@ from workbench.refdata.blend import (
     BLEND_GAP_NM,
     ISOTOPE_GAP_NM,
     blend_group,
+    blend_shared_intensity,
     group_components,
 )
 
@@ -153,3 +154,66 @@ def test_missing_strength_gives_plain_mean_and_null_gf():
 def test_unknown_isotope_is_refused():
     with pytest.raises(ValueError, match="99Cu"):
         blend_group([_row(500.0, -1.0, "99Cu")], ABUND)
+
+
+def _shared(g_up, a, rel=500.0, lam=587.7247):
+    """A row of the rascal NIST extract whose intensity is shared (NIST flag '*')."""
+    return {
+        "element": "He",
+        "ion": 1,
+        "wavelength_vac_nm": lam,
+        "log_gf": None,
+        "isotope": None,
+        "source_id": "nist_rascal",
+        "g_upper": g_up,
+        "g_lower": 3.0,
+        "A_ki_per_s": a,
+        "A_ki_origin": "source" if a is not None else None,
+        "E_lower_eV": None,
+        "E_upper_eV": None,
+        "rel_intensity": rel,
+        "transition": None,
+        "accuracy": None,
+        "notes": "NIST intensity flags '*'",
+    }
+
+
+def test_shared_intensity_is_counted_once_and_gA_summed():
+    # Four transitions of one observed line, each row with the line's intensity 500
+    # (the shape of He I 587.56 nm in the rascal extract; A values invented here).
+    rows = [_shared(3.0, 1.0e7), _shared(5.0, 7.0e7), _shared(7.0, 3.0e7), _shared(1.0, 5.0e7)]
+    line, comps = blend_shared_intensity(rows)
+    assert line["rel_intensity"] == 500.0  # once, not 4 × 500
+    assert line["n_components"] == 4 and len(comps) == 4
+    # strongest g_k·A: 5 × 7e7 = 3.5e8; A = Σ g_k A / g_k(strongest)
+    assert line["g_upper"] == 5.0
+    total_gA = 3.0e7 + 3.5e8 + 2.1e8 + 5.0e7
+    assert line["A_ki_per_s"] == pytest.approx(total_gA / 5.0, rel=1e-12)
+    assert line["A_ki_origin"] == "summed_over_components"
+    assert line["wavelength_vac_nm"] == 587.7247
+    assert {c["kind"] for c in comps} == {"multiply classified"}
+    assert all(c["in_blend"] for c in comps)
+    assert "intensity counted once" in line["notes"]
+
+
+def test_shared_intensity_without_every_A_leaves_A_null():
+    line, _ = blend_shared_intensity([_shared(3.0, 1.0e7), _shared(5.0, None)])
+    assert line["A_ki_per_s"] is None and line["A_ki_origin"] is None
+    assert line["rel_intensity"] == 500.0
+
+
+def test_shared_intensity_single_row_is_unchanged():
+    row = _shared(3.0, 1.0e7)
+    line, comps = blend_shared_intensity([row])
+    assert comps == [] and line["n_components"] == 1
+    assert {k: v for k, v in line.items() if k != "n_components"} == row
+
+
+@pytest.mark.parametrize(
+    "other",
+    [_shared(5.0, 7.0e7, rel=200.0), _shared(5.0, 7.0e7, lam=587.7300)],
+    ids=["other intensity", "other wavelength"],
+)
+def test_shared_intensity_refuses_rows_of_two_lines(other):
+    with pytest.raises(ValueError, match="one wavelength with one intensity"):
+        blend_shared_intensity([_shared(3.0, 1.0e7), other])

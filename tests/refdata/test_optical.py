@@ -247,6 +247,30 @@ def test_mg_i_2852_is_one_row_with_the_alternative_recorded(table, components):
     assert r["log_gf"] == pytest.approx(0.263, abs=1e-9)  # Morton 2003 Table 2
 
 
+def test_nist_shared_intensity_lines_are_one_row(table, components):
+    """Rows of the rascal NIST extract that share one observed intensity are one line.
+
+    He I 587.56 nm (air; NIST ASD, from memory) is a 2p 3P - 3d 3D multiplet
+    that the rascal extract lists as four rows at one wavelength, each with
+    intensity 500 and NIST's flag '*' (intensity shared). One row remains,
+    with that intensity once and the transitions as components.
+    """
+    rows = _near(table, "He", 1, 587.5621, tol=0.005)
+    assert rows.height == 1
+    r = rows.row(0, named=True)
+    assert r["source_id"] == "nist_rascal" and r["rel_intensity"] == 500.0
+    comps = components.filter(pl.col("blend_id") == r["line_id"])
+    assert comps.height == r["n_components"] == 4
+    assert set(comps["kind"]) == {"multiply classified"}
+    # A of the line = Σ g_k A over its transitions / g_k of the strongest
+    ga = (comps["g_upper"] * comps["A_ki_per_s"]).sum()
+    assert r["A_ki_per_s"] * r["g_upper"] == pytest.approx(ga, rel=1e-12)
+    # and nowhere does the set keep two rascal rows of one species at one place
+    nist = table.filter(pl.col("source_id") == "nist_rascal")
+    dup = nist.group_by("element", "ion", "wavelength_vac_nm").len().filter(pl.col("len") > 1)
+    assert dup.height == 0, dup.head()
+
+
 @pytest.mark.parametrize(("element", "ion"), [("Mg", 2), ("Cu", 1), ("Li", 1), ("Nd", 2)])
 def test_no_isotope_component_left_as_a_line(table, element, ion):
     rows = table.filter((pl.col("element") == element) & (pl.col("ion") == ion))

@@ -54,14 +54,33 @@ isotope rows are recorded as components that did not enter the sum
 (``in_blend`` false).
 
 In the components table ``kind`` is ``"isotope"`` (an isotope-tagged row),
-``"natural"`` (an untagged row beside isotope rows) or ``"hyperfine"`` (one
+``"natural"`` (an untagged row beside isotope rows), ``"hyperfine"`` (one
 of several untagged rows: hyperfine components, or rarely one transition
-listed twice at the same place); ``weight_gf`` is ``x · gf`` for the rows
+listed twice at the same place) or ``"multiply classified"`` (one of the
+transitions of one observed line, last section below); ``weight_gf`` is ``x · gf`` for the rows
 that were summed and null for the others. When any summed component lacks both gf and A, the
 position is the plain mean and gf and A are left null.
 
 The air wavelength and photon energy of the blend are recomputed from its
 vacuum wavelength by the build, as for every other row.
+
+One observed line of several transitions (NIST's shared intensity)
+-------------------------------------------------------------------
+The NIST extract (``nist_rascal``) lists an unresolved multiplet, or a line
+with several classifications, once per transition: every row carries the
+line's observed wavelength and its observed intensity, flagged ``*``
+("intensity shared by several lines", NIST ASD legend). He I 587.56 nm is
+four rows of intensity 500, He I 447.15 nm five rows of 200. Summing them
+made a lamp's 587.56 nm line four times its tabulated strength beside the
+single-row He I 667.82 nm line (100), where a He lamp shows them comparable.
+:func:`blend_shared_intensity` makes such rows (one element and ion, the
+same vacuum wavelength and the same intensity, at least one row flagged
+``*``) one line: the
+intensity **once**, ``g_k A`` summed over the transitions (the emission of
+the blend; ``A`` is that sum over the strongest transition's ``g_k``, null
+when a row lacks ``A`` or ``g_k``), the other fields from the transition of
+largest ``g_k A`` (the first when none is known). The transitions are kept
+as components of kind ``"multiply classified"``.
 """
 
 from __future__ import annotations
@@ -79,6 +98,7 @@ __all__ = [
     "COMPONENT_SCHEMA",
     "ISOTOPE_GAP_NM",
     "blend_group",
+    "blend_shared_intensity",
     "group_components",
 ]
 
@@ -299,3 +319,98 @@ def _blend_values(summed: Sequence[dict[str, Any]], abundance: Mapping[str, floa
         sum(x * v for x, v in zip(xs, rels, strict=True)) if None not in rels else None
     )
     return line
+
+
+def blend_shared_intensity(
+    group: Sequence[dict[str, Any]],
+) -> tuple[dict[str, Any], list[dict[str, Any]]]:
+    """One observed line from the rows of its transitions (module docstring, last section).
+
+    Parameters
+    ----------
+    group : sequence of dict
+        Rows of one source, element and ion at one vacuum wavelength, each
+        carrying the line's shared observed intensity (``rel_intensity``,
+        equal in every row or null in every row).
+
+    Returns
+    -------
+    line : dict
+        The line, with ``n_components`` set (a copy of the row for one row).
+    components : list of dict
+        The transitions as component rows (:data:`COMPONENT_SCHEMA` fields
+        except ``blend_id``, ``component`` and ``wavelength_air_nm``); empty
+        for one row.
+
+    Raises
+    ------
+    ValueError
+        If the rows are not one observed line (element, ion, wavelength or
+        intensity differ).
+    """
+    first = group[0]
+    for r in group[1:]:
+        if (r["element"], r["ion"], r["wavelength_vac_nm"], r.get("rel_intensity")) != (
+            first["element"],
+            first["ion"],
+            first["wavelength_vac_nm"],
+            first.get("rel_intensity"),
+        ):
+            raise ValueError(
+                "rows with a shared intensity must be one element and ion at one "
+                f"wavelength with one intensity: {first['element']} {first['ion']} "
+                f"{first['wavelength_vac_nm']} nm and {r['element']} {r['ion']} "
+                f"{r['wavelength_vac_nm']} nm"
+            )
+    if len(group) == 1:
+        return {**first, "n_components": 1}, []
+    gas = [
+        r["g_upper"] * r["A_ki_per_s"]
+        if r.get("A_ki_per_s") is not None and r.get("g_upper") is not None
+        else None
+        for r in group
+    ]
+    strongest = max(range(len(group)), key=lambda i: (gas[i] if gas[i] is not None else -1.0, -i))
+    line = {**group[strongest]}
+    if None in gas:
+        line["A_ki_per_s"] = None
+        line["A_ki_origin"] = None
+    else:
+        line["A_ki_per_s"] = sum(gas) / line["g_upper"]
+        line["A_ki_origin"] = "summed_over_components"
+    if None not in gas and sum(gas) > 0:
+        for f in ("E_lower_eV", "E_upper_eV"):
+            vals = [r.get(f) for r in group]
+            if None not in vals:
+                line[f] = sum(g * v for g, v in zip(gas, vals, strict=True)) / sum(gas)
+    comps = []
+    for r in group:
+        gf = _gf(r)
+        comps.append(
+            {
+                "element": r["element"],
+                "ion": r["ion"],
+                "kind": "multiply classified",
+                "isotope": None,
+                "isotope_fraction": None,
+                "wavelength_vac_nm": r["wavelength_vac_nm"],
+                "log_gf": math.log10(gf) if gf else None,
+                "weight_gf": gf,
+                "in_blend": True,
+                "A_ki_per_s": r.get("A_ki_per_s"),
+                "A_ki_origin": r.get("A_ki_origin"),
+                "E_lower_eV": r.get("E_lower_eV"),
+                "E_upper_eV": r.get("E_upper_eV"),
+                "g_lower": r.get("g_lower"),
+                "g_upper": r.get("g_upper"),
+                "source_id": r["source_id"],
+            }
+        )
+    note = (
+        f"one observed line of {len(group)} transitions whose rows share its intensity "
+        "(NIST flag '*'): the intensity counted once, g_k*A summed; see optical_components"
+    )
+    old = line.get("notes")
+    line["notes"] = f"{old}; {note}" if old else note
+    line["n_components"] = len(group)
+    return line, comps

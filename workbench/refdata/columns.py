@@ -5,8 +5,9 @@ columns in this order; a value that does not apply or is unknown is null,
 never zero.
 
 ``n_components`` (data version 2026.12.2 on) is the number of hyperfine or
-isotope components a line of the ``optical`` set was blended from (1 for a
-line listed as one row; the components are in ``optical_components``, see
+isotope components a line of the ``optical`` set was blended from (from
+2026.12.4 also the transitions of one observed line whose NIST rows share
+its intensity; 1 for a line listed as one row; the components are in ``optical_components``, see
 :mod:`workbench.refdata.blend`); null in sets that do not blend.
 """
 
