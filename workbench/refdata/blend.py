@@ -199,6 +199,36 @@ def _isotope_fraction(r: Mapping[str, Any], abundance: Mapping[str, float]) -> f
     return abundance[iso]
 
 
+def _component(
+    r: Mapping[str, Any],
+    *,
+    kind: str,
+    isotope_fraction: float | None,
+    log_gf: float | None,
+    weight_gf: float | None,
+    in_blend: bool,
+) -> dict[str, Any]:
+    """One row of the components table from a source row (without the blend's keys)."""
+    return {
+        "element": r["element"],
+        "ion": r["ion"],
+        "kind": kind,
+        "isotope": r.get("isotope"),
+        "isotope_fraction": isotope_fraction,
+        "wavelength_vac_nm": r["wavelength_vac_nm"],
+        "log_gf": log_gf,
+        "weight_gf": weight_gf,
+        "in_blend": in_blend,
+        "A_ki_per_s": r.get("A_ki_per_s"),
+        "A_ki_origin": r.get("A_ki_origin"),
+        "E_lower_eV": r.get("E_lower_eV"),
+        "E_upper_eV": r.get("E_upper_eV"),
+        "g_lower": r.get("g_lower"),
+        "g_upper": r.get("g_upper"),
+        "source_id": r["source_id"],
+    }
+
+
 def blend_group(
     group: Sequence[dict[str, Any]], abundance: Mapping[str, float]
 ) -> tuple[dict[str, Any], list[dict[str, Any]]]:
@@ -228,28 +258,17 @@ def blend_group(
     gfs = [_gf(r) for r in group]
     in_sum = [(not natural) or (not r.get("isotope")) for r in group]
     has_iso = any(r.get("isotope") for r in group)
-    comps = []
-    for r, x, gf, used in zip(group, fractions, gfs, in_sum, strict=True):
-        comps.append(
-            {
-                "element": r["element"],
-                "ion": r["ion"],
-                "kind": "isotope" if r.get("isotope") else ("natural" if has_iso else "hyperfine"),
-                "isotope": r.get("isotope"),
-                "isotope_fraction": x if r.get("isotope") else None,
-                "wavelength_vac_nm": r["wavelength_vac_nm"],
-                "log_gf": math.log10(gf) if gf is not None else None,
-                "weight_gf": x * gf if (gf is not None and used) else None,
-                "in_blend": used,
-                "A_ki_per_s": r.get("A_ki_per_s"),
-                "A_ki_origin": r.get("A_ki_origin"),
-                "E_lower_eV": r.get("E_lower_eV"),
-                "E_upper_eV": r.get("E_upper_eV"),
-                "g_lower": r.get("g_lower"),
-                "g_upper": r.get("g_upper"),
-                "source_id": r["source_id"],
-            }
+    comps = [
+        _component(
+            r,
+            kind="isotope" if r.get("isotope") else ("natural" if has_iso else "hyperfine"),
+            isotope_fraction=x if r.get("isotope") else None,
+            log_gf=math.log10(gf) if gf is not None else None,
+            weight_gf=x * gf if (gf is not None and used) else None,
+            in_blend=used,
         )
+        for r, x, gf, used in zip(group, fractions, gfs, in_sum, strict=True)
+    ]
     if len(summed) == 1 and natural:
         line = {**summed[0]}
     else:
@@ -387,24 +406,14 @@ def blend_shared_intensity(
     for r in group:
         gf = _gf(r)
         comps.append(
-            {
-                "element": r["element"],
-                "ion": r["ion"],
-                "kind": "multiply classified",
-                "isotope": None,
-                "isotope_fraction": None,
-                "wavelength_vac_nm": r["wavelength_vac_nm"],
-                "log_gf": math.log10(gf) if gf else None,
-                "weight_gf": gf,
-                "in_blend": True,
-                "A_ki_per_s": r.get("A_ki_per_s"),
-                "A_ki_origin": r.get("A_ki_origin"),
-                "E_lower_eV": r.get("E_lower_eV"),
-                "E_upper_eV": r.get("E_upper_eV"),
-                "g_lower": r.get("g_lower"),
-                "g_upper": r.get("g_upper"),
-                "source_id": r["source_id"],
-            }
+            _component(
+                r,
+                kind="multiply classified",
+                isotope_fraction=None,
+                log_gf=math.log10(gf) if gf else None,
+                weight_gf=gf,
+                in_blend=True,
+            )
         )
     note = (
         f"one observed line of {len(group)} transitions whose rows share its intensity "
