@@ -1,9 +1,10 @@
 """Real measured spectra through the product's own peak finding and matching (issue 9).
 
 Data: ``tests/data/realspectra`` (Goodman comparison lamps, pypeit arc
-solutions, ASTM G173 via pvlib; sources, hashes and licences in its
-``manifest.json``). Split: constants were chosen on ``TUNE`` only; ``HELD_OUT``
-is reported separately (``tests/realdata/loader.py``).
+solutions, ASTM G173 via pvlib, the KPNO Th-Ar hollow-cathode atlas via
+pyreduce-astro; sources, hashes and licences in its ``manifest.json``).
+Split: constants were chosen on ``TUNE`` only; ``HELD_OUT`` is reported
+separately (``tests/realdata/loader.py``).
 
 What each lamp holds comes from its file name (cathode metal and fill gas;
 pypeit: the ions of its own identified lines) and is confirmed per element by
@@ -18,7 +19,13 @@ every line of the lamp's own elements (its support is the lamp's lines). An
 element with two or more peaks that no lamp element explains is reported as
 an impurity shown present (e.g. Cr I 425.43/427.48/428.97 nm, the chromium
 resonance triplet, in the iron hollow-cathode lamps; He I 587.56/728.13 nm in
-the Kast arc, which pypeit does not list).
+the Kast arc, which pypeit does not list), over all the element's ion
+stages. In the Th-Ar atlas the lamp's own line list labels the Ca II H and K
+lines (393.366, 396.847 nm) and the Ca II infrared triplet "Th" and Ca I
+422.673 nm "ThII" (air wavelengths of those Ca lines: NIST ASD, as in the
+shipped set); Ca I shows five peaks no Th or Ar line explains, and the
+chromium resonance triplet (357.87/359.35/360.53 nm) is there too: both are
+impurities shown present.
 
 Known gaps (``xfail(strict=True)``: they fail today and are reported in the
 issue's closing table; a fix turns them into errors to be removed):
@@ -97,6 +104,52 @@ def test_goodman_identified_lines_lie_in_the_solution_range(name):
     assert np.all((rs.identified_nm > x[0] - 0.5) & (rs.identified_nm < x[-1] + 0.5))
 
 
+def _manifest() -> list[dict]:
+    import json
+
+    from tests.realdata.loader import DATA
+
+    return json.loads((DATA / "manifest.json").read_text(encoding="utf-8"))["files"]
+
+
+@pytest.mark.parametrize("entry", _manifest(), ids=lambda e: e["file"])
+def test_real_data_file_is_the_one_recorded(entry):
+    import hashlib
+
+    from tests.realdata.loader import DATA
+
+    # The files are copied unchanged from the pinned packages: their SHA-256 is
+    # the manifest's, and the licence file named beside them is there.
+    assert hashlib.sha256((DATA / entry["file"]).read_bytes()).hexdigest() == entry["sha256"]
+    assert (DATA / entry["licence_file"]).is_file()
+
+
+def _share_on_peaks(rs, lines_nm: np.ndarray) -> float:
+    """Share of lines with a peak ≥ 10 robust σ above the local median within ±0.002 nm."""
+    x, y = rs.spectrum.x, rs.spectrum.y
+    out = []
+    for w in lines_nm:
+        a, b = np.searchsorted(x, [w - 0.002, w + 0.002])
+        c, d = np.searchsorted(x, [w - 0.1, w + 0.1])
+        local = y[c:d]
+        med = np.median(local)
+        sigma = 1.4826 * np.median(np.abs(local - med))
+        out.append(b > a and y[a:b].max() - med > 10.0 * max(sigma, 1e-9))
+    return float(np.mean(out))
+
+
+def test_thar_atlas_scale_puts_its_own_lines_on_peaks_in_air():
+    rs = load("thar")
+    # Measured at stop 25: 0.79 of the 4169 listed lines sit on a ≥ 10σ peak
+    # within one pixel-pair (±0.002 nm) when the header's linear scale is read
+    # as air Å; 0.09 when the list is moved to vacuum (× 1.000277, the
+    # air-to-vacuum ratio near 500 nm, Ciddor 1996 from memory) and 0.06 when
+    # shifted by 0.02 nm: chance level. So the scale and the medium are right.
+    w = rs.identified_nm
+    assert _share_on_peaks(rs, w) > 0.7
+    assert _share_on_peaks(rs, w * 1.000277) < 0.15
+
+
 def _check_lamp(name: str) -> None:
     rs, outcome = _run(name)
     cls = element_classes(outcome.report)
@@ -104,12 +157,17 @@ def _check_lamp(name: str) -> None:
         if (name, e) in KNOWN_GAPS:
             continue
         assert cls.get(e) == "established", (e, cls.get(e), _shown(name)[e])
+    # Shown absent = fewer than two peaks that no lamp element explains, over
+    # all the element's ion stages (an impurity shown present on one stage,
+    # e.g. Ca I in the Th-Ar atlas, is present in its other stages too).
+    free: dict[str, set[float]] = {}
+    for sp in outcome.report["elements"]:
+        if sp["element"] not in rs.expected:
+            free.setdefault(sp["element"], set()).update(_extra_unexplained(name, sp))
     for sp in outcome.report["elements"]:
         if sp["element"] in rs.expected or sp["verdict_level"] < 2:
             continue
-        free = _extra_unexplained(name, sp)
-        # Shown absent = fewer than two peaks that no lamp element explains.
-        assert len(free) >= 2, (sp["species"], sp["verdict"], free)
+        assert len(free[sp["element"]]) >= 2, (sp["species"], sp["verdict"], free[sp["element"]])
 
 
 @pytest.mark.parametrize("name", LAMPS_TUNE)
