@@ -17,7 +17,8 @@ lets the better species explain a peak its prediction accounts for within
 the lower species' own account at the scale of its lines no better species
 claims. The gases must stay
 "established" where they have ≥ 6 clearly present lines (engine 4123f2f:
-all of them are, in these six draws).
+all of them are, in these six draws; since stop 25 one is "probable",
+:data:`RECALL_COST`).
 """
 
 from __future__ import annotations
@@ -63,38 +64,27 @@ FALSE_PROBABLE_DRAWS = [
 ]
 
 # The absent elements "probable" in the draws of data version 2026.12.4
-# (benchmarks/lamp_gases.py --seeds 6, three variants, 432 spectra): the
-# known gap of docs/evidence-model.md section 7. Two of them (Nd, unequal;
-# Ce, saturated) were "established" by pooling their ion stages until the
-# pooled top class needed one stage established on its own
-# (workbench.matching.pooling).
-_GAP = pytest.mark.xfail(
-    strict=True,
-    raises=AssertionError,
-    reason="known gap (docs/evidence-model.md section 7): a line-rich absent species "
-    "hits many groups where the lamp's lines crowd (chance hit rate 0.27-0.61 per "
-    "group) and reaches 'probable'",
-)
-KNOWN_FALSE_PROBABLE = [
-    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 111838774, "comparable", "Ce", marks=_GAP),
-    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 5000.0, 1569377642, "comparable", "Nd", marks=_GAP),
-    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 1000.0, 2060361968, "unequal", "Nd", marks=_GAP),
-    pytest.param("Xe", 550.0, 1000.0, 1897802466, "saturated", "Pr", marks=_GAP),
-    pytest.param("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 111838774, "saturated", "Ce", marks=_GAP),
+# (benchmarks/lamp_gases.py --seeds 6, three variants, 432 spectra), strict
+# xfails at stop 24 (two of them, Nd unequal and Ce saturated, were
+# "established" by pooling until the pooled top class needed one stage
+# established on its own). Since stop 25 none is "probable": the chance of a
+# hit is that of the peaks around each group outside the species' own windows,
+# bounded by ρw (workbench.matching.density), and ion stages are pooled with
+# Simes' method (workbench.matching.pooling).
+FALSE_PROBABLE_DRAWS += [
+    ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 111838774, "comparable", "Ce"),
+    ("Ne+Ar+Hg+Kr+Xe", 550.0, 5000.0, 1569377642, "comparable", "Nd"),
+    ("Ne+Ar+Hg+Kr+Xe", 550.0, 1000.0, 2060361968, "unequal", "Nd"),
+    ("Xe", 550.0, 1000.0, 1897802466, "saturated", "Pr"),
+    ("Ne+Ar+Hg+Kr+Xe", 550.0, 2000.0, 111838774, "saturated", "Ce"),
 ]
 
-
-@pytest.mark.slow
-@pytest.mark.parametrize(("lamp", "lo_nm", "r", "seed", "variant", "absent"), KNOWN_FALSE_PROBABLE)
-def test_known_false_probable_draws(optical, lamp, lo_nm, r, seed, variant, absent):
-    """The absent element is at most "possible" (fails today), and never "established"."""
-    case = _case(lamp, lo_nm, r, seed, variant)
-    best = run_lamp(optical, case)
-    # No false top class, today too: a failure here is not the known gap.
-    top = {e: lv for e, lv in best.items() if e not in case.gases and lv >= 3}
-    if top:
-        pytest.fail(f"false top class {top} (not the known gap)", pytrace=False)
-    assert best.get(absent, 0) <= 1, absent
+#: Gases with ≥ 6 clear lines that stop 25's chance of a hit leaves "probable"
+#: in these draws (the price of the change; docs/evidence-model.md section 2):
+#: Ar I in a saturated five-gas lamp at R 1000 (8 clear lines): 8 of 10
+#: counted groups hit at a hit chance of 0.30 per group (0.26 from the
+#: spectrum's average density), net 2.84 dex (3.31 before).
+RECALL_COST = {("Ne+Ar+Hg+Kr+Xe", 400.0, 1000.0, 23017169, "saturated"): {"Ar"}}
 
 
 @pytest.mark.slow
@@ -107,4 +97,5 @@ def test_absent_line_rich_species_not_probable(optical, lamp, lo_nm, r, seed, va
     assert false_calls == {}, absent
     clear = clear_lines(case, *draw_lamp(optical, case)[:3])
     weak = {g: best.get(g, 0) for g, n in clear.items() if n >= 6 and best.get(g, 0) < 3}
-    assert weak == {}
+    assert set(weak) == RECALL_COST.get((lamp, lo_nm, r, seed, variant), set())
+    assert all(lv >= 2 for lv in weak.values())
