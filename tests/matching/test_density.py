@@ -22,6 +22,20 @@ def _peaks(seed: int = 7, n: int = 400) -> np.ndarray:
     return np.sort(np.random.default_rng(seed).uniform(400.0, 500.0, n))
 
 
+def _at(pos, x, own_peak=(), own_owner=(), usable=None):
+    """One group of species 0 at each of ``x``; ``usable`` defaults to every peak."""
+    x = np.atleast_1d(np.asarray(x, dtype=float))
+    return density_outside_own_peaks(
+        pos,
+        np.ones(pos.size, bool) if usable is None else usable,
+        x,
+        np.zeros(x.size, int),
+        np.asarray(own_peak, dtype=int),
+        np.asarray(own_owner, dtype=int),
+        np.ones(x.size, bool),
+    )
+
+
 def test_evenly_spaced_peaks_give_their_density():
     # Peaks every 0.1 nm: 10 per nm (analytic). Midway between two peaks the
     # distances come in pairs 0.05, 0.15, ... nm, so the 10th nearest lies at
@@ -49,15 +63,7 @@ def test_own_peaks_and_excluded_peaks_are_left_out():
     pos = _peaks()
     own = np.flatnonzero((pos >= 448.0) & (pos <= 452.0))
     x = np.array([450.0])
-    got = density_outside_own_peaks(
-        pos,
-        np.ones(pos.size, bool),
-        x,
-        np.array([0]),
-        own,
-        np.zeros(own.size, int),
-        np.ones(1, bool),
-    )
+    got = _at(pos, x, own, np.zeros(own.size, int))
     rest = np.delete(pos, own)
     # Enough outside peaks lie within the searched neighbours here (the 4 nm
     # stretch holds about 16 of the 400 peaks, fewer than NEIGHBOURS_SEARCHED).
@@ -65,40 +71,19 @@ def test_own_peaks_and_excluded_peaks_are_left_out():
     assert got[0] == pytest.approx(nearest_neighbour_density(rest, x)[0])
     assert got[0] < nearest_neighbour_density(pos, x)[0]
     # Another species owning those peaks changes nothing for species 0.
-    other = density_outside_own_peaks(
-        pos,
-        np.ones(pos.size, bool),
-        x,
-        np.array([0]),
-        own,
-        np.ones(own.size, int),
-        np.ones(1, bool),
-    )
+    other = _at(pos, x, own, np.ones(own.size, int))
     assert other[0] == pytest.approx(nearest_neighbour_density(pos, x)[0])
     # Excluded peaks (bands, artefacts) are not counted either.
     usable = np.ones(pos.size, bool)
     usable[own] = False
-    ex = density_outside_own_peaks(
-        pos, usable, x, np.array([0]), np.zeros(0, int), np.zeros(0, int), np.ones(1, bool)
-    )
-    assert ex[0] == pytest.approx(got[0])
+    assert _at(pos, x, usable=usable)[0] == pytest.approx(got[0])
 
 
 def test_a_stretch_its_own_peaks_fill_keeps_the_average():
     # Species 0 owns every peak: nothing outside to measure, so 0 (the caller keeps
     # the spectrum's average density).
     pos = _peaks()
-    all_idx = np.arange(pos.size)
-    got = density_outside_own_peaks(
-        pos,
-        np.ones(pos.size, bool),
-        np.array([450.0]),
-        np.array([0]),
-        all_idx,
-        np.zeros(pos.size, int),
-        np.ones(1, bool),
-    )
-    assert got[0] == 0.0
+    assert _at(pos, 450.0, np.arange(pos.size), np.zeros(pos.size, int))[0] == 0.0
 
 
 def test_only_wanted_groups_and_chunks_change_nothing(monkeypatch):
@@ -119,8 +104,4 @@ def test_only_wanted_groups_and_chunks_change_nothing(monkeypatch):
 
 def test_too_few_peaks_give_zero():
     pos = np.linspace(400.0, 401.0, LOCAL_DENSITY_NEIGHBOURS - 1)
-    z = np.zeros(0, int)
-    got = density_outside_own_peaks(
-        pos, np.ones(pos.size, bool), np.array([400.5]), np.array([0]), z, z, np.ones(1, bool)
-    )
-    assert got[0] == 0.0
+    assert _at(pos, 400.5)[0] == 0.0

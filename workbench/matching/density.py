@@ -62,13 +62,29 @@ def nearest_neighbour_density(positions: np.ndarray, x: np.ndarray) -> np.ndarra
     m = LOCAL_DENSITY_NEIGHBOURS
     if positions.size < m or x.size == 0:
         return np.zeros(x.shape)
-    i = np.searchsorted(positions, x)
     # The m nearest lie among the m positions on either side of x.
-    offsets = i[:, None] + np.arange(-m, m)[None, :]
-    d = np.abs(positions[np.clip(offsets, 0, positions.size - 1)] - x[:, None])
-    # Clipped columns repeat an end position; repeated distances would count
-    # it twice, so they are pushed past every real one.
+    _, d = _neighbour_distances(positions, x, m)
+    return _density_from_distances(d)
+
+
+def _neighbour_distances(
+    positions: np.ndarray, x: np.ndarray, k: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """Indices of the k positions on either side of each x, and their distances.
+
+    Columns beyond either end repeat an end position; their distance is
+    infinite, so that a repeated position is never counted twice.
+    """
+    offsets = np.searchsorted(positions, x)[:, None] + np.arange(-k, k)[None, :]
+    cols = np.clip(offsets, 0, positions.size - 1)
+    d = np.abs(positions[cols] - x[:, None])
     d[(offsets < 0) | (offsets >= positions.size)] = np.inf
+    return cols, d
+
+
+def _density_from_distances(d: np.ndarray) -> np.ndarray:
+    """(m − 1) / (2 r_m) per row, r_m its m-th smallest distance; zero where there is none."""
+    m = LOCAL_DENSITY_NEIGHBOURS
     r_m = np.partition(d, m - 1, axis=1)[:, m - 1]
     with np.errstate(divide="ignore"):
         return np.where(np.isfinite(r_m) & (r_m > 0), (m - 1) / (2.0 * r_m), 0.0)
@@ -126,21 +142,14 @@ def density_outside_own_peaks(
         return out
     owners = np.unique(owner[sel_all])
     chunk = max(1, OWN_TABLE_CELLS // max(n, 1))
-    k = NEIGHBOURS_SEARCHED
     for c0 in range(0, owners.size, chunk):
         these = owners[c0 : c0 + chunk]
         sel = sel_all[np.isin(owner[sel_all], these)]
         in_chunk = np.isin(own_owner, these)
         table = np.zeros((n, these.size), dtype=bool)
         table[own_peak[in_chunk], np.searchsorted(these, own_owner[in_chunk])] = True
-        xs = x[sel]
-        offsets = np.searchsorted(positions, xs)[:, None] + np.arange(-k, k)[None, :]
-        cols = np.clip(offsets, 0, n - 1)
-        d = np.abs(positions[cols] - xs[:, None])
+        cols, d = _neighbour_distances(positions, x[sel], NEIGHBOURS_SEARCHED)
         col_rank = np.searchsorted(these, owner[sel])
-        drop = (offsets < 0) | (offsets >= n) | ~usable[cols] | table[cols, col_rank[:, None]]
-        d[drop] = np.inf
-        r_m = np.partition(d, m - 1, axis=1)[:, m - 1]
-        with np.errstate(divide="ignore"):
-            out[sel] = np.where(np.isfinite(r_m) & (r_m > 0), (m - 1) / (2.0 * r_m), 0.0)
+        d[~usable[cols] | table[cols, col_rank[:, None]]] = np.inf
+        out[sel] = _density_from_distances(d)
     return out
