@@ -19,7 +19,7 @@ from workbench.matching.params import MatchParameters
 from workbench.matching.pooling import pool_ion_stages
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.response import ResponseFit, fit_response
-from workbench.matching.scoring import PROBABLE_DEX, evaluate
+from workbench.matching.scoring import PROBABLE_DEX, rescore_closeness
 from workbench.matching.sourcemodels import (
     SOURCE_MODELS,
     model_sigma,
@@ -124,7 +124,7 @@ def second_pass(
     elif second is None:
         second = gather_evidence(obs, index, strengths, in_range, **kw)
     if index.axis == "wavelength":
-        apply_offset_centre(second, obs, sigma_dex=sigma, strong_fraction=params.strong_fraction)
+        apply_offset_centre(second)
     explain_jointly(
         second,
         obs,
@@ -139,13 +139,13 @@ def second_pass(
 
 
 #: Fewest found, unique single-line groups (of species called probable or
-#: better) needed to measure the spectrum's common offset; below it no
-#: closeness term is used (common practice, no source).
+#: better) needed to measure the spectrum's common offset; below it the
+#: offset is taken as 0, the scale as given (common practice, no source).
 MIN_CENTRE_GROUPS: int = 8
 
 
-def offset_centre(ev_pass: EvidencePass) -> float | None:
-    """The spectrum's common peak-to-line offset (half-windows), or ``None``.
+def offset_centre(ev_pass: EvidencePass) -> float:
+    """The spectrum's common peak-to-line offset (half-windows).
 
     Median offset of the found, unique, single-line groups of every species
     called probable or better (measured like the instrument response, on the
@@ -153,7 +153,15 @@ def offset_centre(ev_pass: EvidencePass) -> float | None:
     scale check to apply still moves every real line alike, and the
     closeness of a species' peaks to its lines
     (:func:`workbench.matching.chance.closeness_probability`) is measured
-    from it. ``None`` with fewer than :data:`MIN_CENTRE_GROUPS` such groups.
+    from it. With fewer than :data:`MIN_CENTRE_GROUPS` such groups the
+    offset is taken as 0: the scale as given (after any scale correction
+    applied). Any centre fixed without looking at a species' own peaks
+    keeps its closeness exact under chance (a chance peak is uniform in
+    its window wherever the centre is). Before, there was no closeness term
+    at all then, and a spectrum whose species all needed that term to
+    reach "probable" could never measure the offset: a pure Ne lamp at
+    R 700 (Goodman 1200M4 Ne, degraded) had Ne I "possible" with 19 of 34
+    groups found, every peak within a tenth of a half-window of its line.
     """
     u = []
     for ev in ev_pass.evidence.values():
@@ -165,28 +173,18 @@ def offset_centre(ev_pass: EvidencePass) -> float | None:
     a = np.concatenate(u) if u else np.zeros(0)
     a = a[np.isfinite(a)]
     if a.size < MIN_CENTRE_GROUPS:
-        return None
+        return 0.0
     return float(np.median(a))
 
 
-def apply_offset_centre(
-    ev_pass: EvidencePass, obs: ObservedLines, *, sigma_dex: float, strong_fraction: float
-) -> None:
-    """Re-evaluate every optical species with the closeness term (in place)."""
+def apply_offset_centre(ev_pass: EvidencePass) -> None:
+    """Re-score every optical species with the closeness term (in place)."""
     centre = offset_centre(ev_pass)
-    if centre is None:
-        return
     for ev in ev_pass.evidence.values():
         if ev.xray:
             continue
-        ev.groups["offset_centre"] = centre
-        evaluate(
-            ev,
-            detection_limit=obs.detection_limit,
-            sigma_dex=sigma_dex,
-            n_tried=ev_pass.n_species_tried,
-            strong_fraction=strong_fraction,
-        )
+        # Only the closeness depends on the centre (counts and penalty do not).
+        rescore_closeness(ev, centre, n_tried=ev_pass.n_species_tried)
 
 
 def _total_evidence(ev_pass: EvidencePass, counted: np.ndarray | None = None) -> float:
