@@ -299,3 +299,64 @@ def test_thar_atlas_at_lower_resolution(span, resolving_power):
         if sp["verdict_level"] >= 2 and sp["element"] not in {"Th", "Ar", "Ca", "Cr"}
     }
     assert others == {}
+
+
+#: The tune Goodman lamps as coarser gratings record them (R 700-2000;
+#: benchmarks/goodman_degraded.py prints the tune and held-out tables).
+GOODMAN_TUNE = [n for n in LAMPS_TUNE if n.startswith("goodman")]
+DEGRADED_R = (700.0, 1200.0, 2000.0)
+#: Fe in the 1200M2 Fe-He-Ar lamp (seven identified lines at full resolution)
+#: is "possible" or below at R 700-2000. At R 1200: 3 of 11 counted groups
+#: found at a hit chance of 0.41 per group, predicted Fe I 532.80, 537.15
+#: and 543.13 nm not seen, and the peaks it shares explained by Ar I/Ar II.
+#: A known limit, reported in the issue.
+DEGRADED_GAPS = {("goodman_comp_1200M2_FeHeAr", "Fe")}
+
+
+@functools.cache
+def _run_degraded(name: str, resolving_power: float):
+    rs = load(name)
+    lo, hi = float(rs.spectrum.x[0]), float(rs.spectrum.x[-1])
+    return run_real(degrade(rs, resolving_power, lo, hi))
+
+
+def _impurities_at_full_resolution(name: str) -> set[str]:
+    _, outcome = _run(name)
+    rs = load(name)
+    free: dict[str, set[float]] = {}
+    for sp in outcome.report["elements"]:
+        if sp["element"] not in rs.expected and sp["verdict_level"] >= 2:
+            free.setdefault(sp["element"], set()).update(_extra_unexplained(name, sp))
+    return {e for e, peaks in free.items() if len(peaks) >= 2}
+
+
+@pytest.mark.parametrize("resolving_power", DEGRADED_R)
+@pytest.mark.parametrize("name", GOODMAN_TUNE)
+def test_goodman_lamp_at_lower_resolution(name, resolving_power):
+    # Every element with three or more identified lines at full resolution
+    # stays at the top class; nothing outside the lamp and its impurities
+    # shown present at full resolution reaches "probable". At stop 25 five of
+    # these failed at R 700 (Ne "possible" in the pure 1200M4 Ne lamp, Ar
+    # "possible" or "probable" in three lamps): no species was "probable"
+    # before the closeness term, so the common offset was never measured and
+    # closeness never counted (workbench.matching.passes.offset_centre).
+    outcome = _run_degraded(name, resolving_power)
+    cls = element_classes(outcome.report)
+    for e in _clear(name):
+        if (name, e) in DEGRADED_GAPS:
+            continue
+        assert cls.get(e) == "established", (e, cls.get(e))
+    allowed = set(load(name).expected) | _impurities_at_full_resolution(name)
+    others = {
+        sp["species"]: sp["verdict"]
+        for sp in outcome.report["elements"]
+        if sp["verdict_level"] >= 2 and sp["element"] not in allowed
+    }
+    assert others == {}
+
+
+@pytest.mark.parametrize("resolving_power", DEGRADED_R)
+@pytest.mark.xfail(strict=True, reason="known gap: Fe at low resolution (DEGRADED_GAPS)")
+def test_degraded_gap_iron_in_the_1200m2_lamp(resolving_power):
+    outcome = _run_degraded("goodman_comp_1200M2_FeHeAr", resolving_power)
+    assert element_classes(outcome.report).get("Fe") == "established"
