@@ -85,11 +85,12 @@ from workbench.matching.absorption import (
     usable_density,
 )
 from workbench.matching.candidates import CandidatePairs
+from workbench.matching.contrast import miss_prediction, species_contrast
 from workbench.matching.density import density_outside_own_peaks, nearest_neighbour_density
 from workbench.matching.layout import pass_layout
 from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
-from workbench.matching.scoring import SpeciesEvidence, evaluate
+from workbench.matching.scoring import LOSS_PROBABILITY, SpeciesEvidence, evaluate
 from workbench.matching.species_scale import species_scales
 from workbench.matching.xray_evidence import group_blend_maxima, xray_terms
 
@@ -200,6 +201,7 @@ def gather_evidence(
     sigma_lines: np.ndarray | None = None,
     xray: bool = False,
     absorption: bool = False,
+    contrast: bool = False,
 ) -> EvidencePass:
     """Collect the evidence of every species with at least one candidate.
 
@@ -240,6 +242,10 @@ def gather_evidence(
         The ``absorption`` source model on a wavelength axis: each group
         also carries what the data test of a prior-favoured species needs
         (:mod:`workbench.matching.absorption`).
+    contrast : bool
+        Fit each species' contrast exponent of its tabulated intensities
+        (``discharge-lamp``; :mod:`workbench.matching.contrast`) and predict
+        its groups at strength^b.
 
     Returns
     -------
@@ -313,6 +319,22 @@ def gather_evidence(
     n_strong_cum = np.concatenate(([0], np.cumsum(g_known & (g_strength >= strong_fraction))))
 
     sigma_all = sigma_lines[g_rep] if sigma_lines is not None else np.full(n_groups, sigma_dex)
+    b_species = np.ones(g_start.size)
+    if contrast and has_int and not xray and not absorption:
+        # One departure shared by the species' lines (workbench.matching.contrast).
+        b_species = species_contrast(
+            g_start,
+            g_end,
+            g_strength,
+            g_known,
+            g_resp,
+            I_all,
+            dl_all,
+            sigma_all,
+            usable_found=found & g_unique & g_known & np.isfinite(I_all) & (I_all > 0) & ~sat_all,
+            missed=g_known & ~found,
+            loss_probability=LOSS_PROBABILITY,
+        )
     # 1. The intensity scale (and pattern correlation) of each species.
     good_uniq_all = good_all & g_unique
     scales = species_scales(
@@ -475,7 +497,7 @@ def gather_evidence(
 
     # 3. The evidence of each species.
     evidence: dict[int, SpeciesEvidence] = {}
-    for code, ga, gb, la, lb, scale, pattern in zip(
+    for code, ga, gb, la, lb, scale, pattern, b_sp in zip(
         species_present.tolist(),
         g_start.tolist(),
         g_end.tolist(),
@@ -483,6 +505,7 @@ def gather_evidence(
         l_end.tolist(),
         scales,
         patterns,
+        b_species.tolist(),
         strict=True,
     ):
         sl = slice(ga, gb)
@@ -496,6 +519,8 @@ def gather_evidence(
         )
         ev.scale = scale
         ev.pattern_r = pattern
+        ev.contrast = b_sp
+        predicted_miss = miss_prediction(predicted_all[sl], g_strength[sl], g_known[sl], b_sp)
         with_int = has_int and scale is not None
         dl_g = dl_all[sl] if with_int else None
         ev.groups = {
@@ -508,6 +533,7 @@ def gather_evidence(
             "masked": masked_all[sl],
             "crowded": crowded_all[sl],
             "predicted": predicted_all[sl],
+            "predicted_miss": predicted_miss,
             "p_line": p_line_all[sl],
             "position": g_pos[sl],
             "line": g_line[sl],

@@ -42,6 +42,16 @@ def _is_xray(index: ReferenceIndex, model: str) -> bool:
     return model == "x-ray" and index.axis == "energy"
 
 
+def _contrast(index: ReferenceIndex, model: str) -> bool:
+    """Fit the species' contrast exponents (:mod:`workbench.matching.contrast`): emission.
+
+    Second pass only: the first pass chooses the source model and the
+    plausible species as before (measured: the real-data and degraded-lamp
+    tables are the same with it in the first pass too, at twice the cost).
+    """
+    return model in ("discharge-lamp", "lte-plasma") and index.axis == "wavelength"
+
+
 def _family_ratio_for(params: MatchParameters):
     """``(element, numerator, denominator) → ratio`` for the run's instrument (X-ray)."""
     from workbench.xray.excitation import family_ratio
@@ -109,6 +119,7 @@ def second_pass(
         sigma_lines=model_sigma(index, model),
         xray=_is_xray(index, model),
         absorption=model == "absorption" and index.axis == "wavelength",
+        contrast=_contrast(index, model),
     )
     second: EvidencePass | None = None
     if response is None:

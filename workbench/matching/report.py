@@ -156,6 +156,7 @@ def build_report(result: MatchResult) -> dict[str, Any]:
                 else round(ev.pooled_evidence_dex, 4),
                 "pattern_r": _num(ev.pattern_r) if ev.pattern_r is not None else None,
                 "intensity_scale": _num(ev.scale) if ev.scale is not None else None,
+                "intensity_contrast": round(float(ev.contrast), 4),
                 "matched_lines": matched,
                 "missing_lines": missing,
                 "shared_lines": sorted(str(idx.line_id[i]) for i in ev.shared_lines),

@@ -40,7 +40,9 @@ corrected chance probability
 missing-line penalty
     Each group that should be seen is missed, if the species is present,
     with probability m = ε + (1 − ε)·Φ(z), z = (log10 DL − log10
-    predicted) / σ, σ the source model's uncertainty in decades
+    predicted) / σ (emission: predicted at the species' contrast, which
+    can only lower its weaker lines; :mod:`workbench.matching.contrast`),
+    σ the source model's uncertainty in decades
     (:mod:`workbench.matching.sourcemodels`), ε = 0.2
     (:data:`LOSS_PROBABILITY`) the chance that a line of a species that is
     there is lost for reasons outside the model (unresolved blend, filter
@@ -208,6 +210,7 @@ class SpeciesEvidence:
     missing_strong: list[int] = field(default_factory=list)
     explained_by: list[str] = field(default_factory=list)
     chance_probability: float = 1.0
+    binomial_probability: float = 1.0  # the binomial tail alone (before closeness)
     chance_probability_corrected: float = 1.0
     closeness_probability: float = 1.0
     missing_penalty_dex: float = 0.0
@@ -232,6 +235,7 @@ class SpeciesEvidence:
     found_fraction: float = 0.0
     pattern_r: float | None = None
     scale: float | None = None
+    contrast: float = 1.0  # discharge-lamp: exponent of the tabulated strengths (contrast.py)
     level: int = 0
     score: float = 0.0
     groups: dict[str, Any] = field(default_factory=dict, repr=False)
@@ -269,7 +273,7 @@ def evaluate(
     ev.n_unique_peaks = int(np.unique(g["peak"][found & g["unique"]]).size)
     strong = g["known"] & (g["strength"] >= strong_fraction)
     ev.n_strong_found = int(np.unique(g["peak"][found & strong]).size)
-    g["_binomial_p"] = (
+    ev.binomial_probability = (
         float(special.betainc(k, n - k + 1, float(np.mean(g["p_line"][nset])))) if k else 1.0
     )
     _chance_terms(ev, nset, found)
@@ -279,9 +283,11 @@ def evaluate(
     if ev.missing_evidence and detection_limit and np.any(missing):
         dl = g.get("dl")
         dl = dl if dl is not None else np.full(pred.size, float(detection_limit))
+        # At the species' contrast where one was fitted (contrast.py).
+        pred_m = g.get("predicted_miss", pred)
         with np.errstate(divide="ignore", invalid="ignore"):
             sig = g["sigma"] if "sigma" in g else np.full(pred.size, sigma_dex)
-            z = (np.log10(dl) - np.log10(pred)) / sig
+            z = (np.log10(dl) - np.log10(pred_m)) / sig
         z = np.nan_to_num(z, nan=0.0, posinf=np.inf, neginf=-np.inf)
         p_miss = LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
         if "delta" in g:
@@ -318,11 +324,12 @@ def evaluate(
 def _chance_terms(ev: SpeciesEvidence, nset: np.ndarray, found: np.ndarray) -> None:
     """Chance probability from the binomial tail and the closeness term (in place).
 
-    ``groups["_binomial_p"]`` holds the binomial tail (set by :func:`evaluate`);
-    the closeness is measured from ``groups["offset_centre"]`` when set.
+    ``ev.binomial_probability`` holds the binomial tail (set by
+    :func:`evaluate`); the closeness is measured from
+    ``groups["offset_centre"]`` when set.
     """
     g = ev.groups
-    ev.chance_probability = float(g["_binomial_p"])
+    ev.chance_probability = ev.binomial_probability
     ev.closeness_probability = 1.0
     hit = nset & found
     if np.any(hit) and g.get("offset_centre") is not None:

@@ -35,7 +35,10 @@ species under ``lte-plasma`` (σ = 0.35 dex) than under ``discharge-lamp``
     with a wider uncertainty (:data:`LAMP_PRIOR_SIGMA`, 1.2 dex).
     σ = 0.8 dex: tabulated
     lamp intensities differ from one lamp, current and detector to the next
-    by factors of 3–10 (from memory; the issue's 0.3–1.3 decades).
+    by factors of 3–10 (from memory; the issue's 0.3–1.3 decades). Where a
+    lamp shows a species' weaker lines below their tabulated ratios
+    together, the missing-line penalty uses the species' fitted contrast
+    (:mod:`workbench.matching.contrast`).
     *Worked example*: Ne I 640.225 nm (tabulated 20 000) and Ne I 633.443
     (tabulated 10 000): predicted ratio 0.5; Ar I 706.72 (tabulated 10 000)
     and Ar I 714.70 (tabulated 1 000): a 714.70 line missing where 706.72 is
