@@ -122,3 +122,5 @@ def test_the_real_neon_lamp_pays_no_longer_for_its_weak_lines():
     assert ne.missing_penalty_dex > -1.0
     row = next(e for e in outcome.report["elements"] if e["species"] == "Ne I")
     assert row["intensity_contrast"] == pytest.approx(ne.contrast)
+    notes = [w for w in outcome.report["warnings"] if w["kind"] == "intensity_contrast"]
+    assert [n["elements"] for n in notes if "Ne I" in n["elements"]] == [["Ne I"]]

@@ -520,7 +520,6 @@ def gather_evidence(
         ev.scale = scale
         ev.pattern_r = pattern
         ev.contrast = b_sp
-        predicted_miss = miss_prediction(predicted_all[sl], g_strength[sl], g_known[sl], b_sp)
         with_int = has_int and scale is not None
         dl_g = dl_all[sl] if with_int else None
         ev.groups = {
@@ -533,7 +532,6 @@ def gather_evidence(
             "masked": masked_all[sl],
             "crowded": crowded_all[sl],
             "predicted": predicted_all[sl],
-            "predicted_miss": predicted_miss,
             "p_line": p_line_all[sl],
             "position": g_pos[sl],
             "line": g_line[sl],
@@ -545,6 +543,11 @@ def gather_evidence(
             "offset_window_u": 2.0 + g_span[sl] / g_tol[sl],
             "offset_lines": g_count[sl],
         }
+        if b_sp != 1.0:
+            # The missing-line penalty's predictions at the species' contrast.
+            ev.groups["predicted_miss"] = miss_prediction(
+                predicted_all[sl], g_strength[sl], g_known[sl], b_sp
+            )
         if xray:
             if blend_max is not None:
                 ev.groups["blend_max"] = blend_max[sl]

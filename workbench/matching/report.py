@@ -211,6 +211,7 @@ def build_report(result: MatchResult) -> dict[str, Any]:
     warnings.extend(result.notes)
     warnings.extend(_other_warnings(result, u))
     warnings.extend(_prior_data_tests(ev_pass))
+    warnings.extend(_contrast_notes(ev_pass))
     xray = dict(result.xray) if result.xray else None
     if xray is not None:  # X-ray physics (workbench.xray): artefacts, instrument, exclusions
         warnings.extend(xray.pop("warnings", []))
@@ -313,6 +314,35 @@ def _prior_data_tests(ev_pass: Any) -> list[dict[str, object]]:
                 f"p = {p_test:.3g} (dips at the forward-modelled positions of its "
                 f"unresolved blends, chance from the dips that can be matched; the plain "
                 f"chance probability of its lines is {ev.chance_probability:.3g})",
+                "elements": [ev.label],
+                "lines": [],
+            }
+        )
+    return out
+
+
+def _contrast_notes(ev_pass: Any) -> list[dict[str, object]]:
+    """One note per species at "probable" or above whose missing lines were judged at a contrast.
+
+    The missing-line penalty of such a species predicted its weaker lines at
+    S^b, b > 1 (:mod:`workbench.matching.contrast`): the note says so, so
+    a reviewer sees that its misses were partly excused and why.
+    """
+    out: list[dict[str, object]] = []
+    for ev in sorted(ev_pass.evidence.values(), key=lambda v: v.label):
+        listed = ev.missing_penalty_listed_dex
+        # Only where the contrast mattered: a tenth of a decade or more.
+        if ev.level < 2 or listed is None or ev.missing_penalty_dex - listed < 0.1:
+            continue
+        out.append(
+            {
+                "kind": "intensity_contrast",
+                "message": f"{ev.label} is '{ev.verdict}'; its missing lines were judged with "
+                f"its weaker lines predicted at (relative strength)^{ev.contrast:g}, not at "
+                f"their listed ratios: its found lines are its more strongly listed ones and "
+                f"its weaker lines are missing together, as a source whose scale is steeper "
+                f"than the listing shows them (missing-line penalty "
+                f"{ev.missing_penalty_dex:.2f} dex; {listed:.2f} dex at the listed ratios)",
                 "elements": [ev.label],
                 "lines": [],
             }

@@ -235,7 +235,8 @@ class SpeciesEvidence:
     found_fraction: float = 0.0
     pattern_r: float | None = None
     scale: float | None = None
-    contrast: float = 1.0  # discharge-lamp: exponent of the tabulated strengths (contrast.py)
+    contrast: float = 1.0  # emission: exponent of the predicted strengths (contrast.py)
+    missing_penalty_listed_dex: float | None = None  # the penalty at contrast 1, where b > 1
     level: int = 0
     score: float = 0.0
     groups: dict[str, Any] = field(default_factory=dict, repr=False)
@@ -280,21 +281,22 @@ def evaluate(
     missing = g["visible"] & ~g["found"] & ~g["masked"] & valid
     pred = g["predicted"]
     penalty = 0.0
+    ev.missing_penalty_listed_dex = None
     if ev.missing_evidence and detection_limit and np.any(missing):
         dl = g.get("dl")
         dl = dl if dl is not None else np.full(pred.size, float(detection_limit))
-        # At the species' contrast where one was fitted (contrast.py).
-        pred_m = g.get("predicted_miss", pred)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            sig = g["sigma"] if "sigma" in g else np.full(pred.size, sigma_dex)
-            z = (np.log10(dl) - np.log10(pred_m)) / sig
-        z = np.nan_to_num(z, nan=0.0, posinf=np.inf, neginf=-np.inf)
-        p_miss = LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
+        sig = g["sigma"] if "sigma" in g else np.full(pred.size, sigma_dex)
         if "delta" in g:
             # X-ray: each missing group costs log10 P(not seen | present).
-            penalty = xray_missing_penalty_dex(p_miss, missing)
+            penalty = xray_missing_penalty_dex(_miss_probability(dl, pred, sig), missing)
         else:
-            penalty = float(np.log10(misses_tail_probability(p_miss[nset], missing[nset])))
+            penalty = _misses_penalty(dl, pred, sig, nset, missing)
+            pred_m = g.get("predicted_miss")
+            if pred_m is not None:
+                # At the species' contrast (contrast.py); the penalty at the
+                # listed ratios is kept for the report's note.
+                ev.missing_penalty_listed_dex = penalty
+                penalty = _misses_penalty(dl, pred_m, sig, nset, missing)
     if "delta" in g:
         # X-ray: the element's missing higher-energy family (joint.py).
         penalty += ev.family_missing_dex
@@ -319,6 +321,22 @@ def evaluate(
         ev.found_fraction = 0.0
     ev.level = decide_verdict(ev)
     ev.score = score_of(ev)
+
+
+def _miss_probability(dl: np.ndarray, pred: np.ndarray, sig: np.ndarray) -> np.ndarray:
+    """Miss probability per group if present: ε + (1 − ε)·Φ((log10 DL − log10 pred) / σ)."""
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = (np.log10(dl) - np.log10(pred)) / sig
+    z = np.nan_to_num(z, nan=0.0, posinf=np.inf, neginf=-np.inf)
+    return LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
+
+
+def _misses_penalty(
+    dl: np.ndarray, pred: np.ndarray, sig: np.ndarray, nset: np.ndarray, missing: np.ndarray
+) -> float:
+    """log10 of the misses' tail probability (module docstring) for predictions ``pred``."""
+    p_miss = _miss_probability(dl, pred, sig)
+    return float(np.log10(misses_tail_probability(p_miss[nset], missing[nset])))
 
 
 def _chance_terms(ev: SpeciesEvidence, nset: np.ndarray, found: np.ndarray) -> None:
