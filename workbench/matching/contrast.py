@@ -1,4 +1,4 @@
-"""Contrast of a species' tabulated emission strengths: one exponent per species and spectrum.
+"""Contrast of a species' predicted emission strengths: one exponent per species and spectrum.
 
 An emission source model predicts each line's relative strength S (the
 species' strongest line in range has 1; :mod:`workbench.matching.sourcemodels`).
@@ -11,11 +11,14 @@ independent scatter of each line that the model's σ describes, and counted
 as independent misses it made a present species pay for every weak line
 the lamp does not show.
 
-Per species the prediction becomes S^b, b ≥ 1 (the strongest line keeps 1,
-so the species' scale is still measured from the top). b is chosen on a
-grid (:data:`GRID`) by the likelihood of what the species' groups show,
-with the scale at each b the median of observed / predicted over its found
-groups:
+Per species a contrast b ≥ 1 is fitted and the missing-line penalty
+predicts the species' groups at min(S, 1)^(b − 1) times their prediction
+(:func:`miss_prediction`): the strongest line keeps its prediction, weaker
+lines are lowered, so the contrast can excuse misses and never add any.
+Nothing else uses b: which groups should be seen, the chance test and the
+species' scale stay those of the source model. b is chosen on a grid
+(:data:`GRID`) by the likelihood of what the species' groups show, with the
+scale at each b the median of observed / predicted over its found groups:
 
 * a found, unique, unsaturated group of known strength: normal density of
   log10(I / (scale · S^b · R)) with the model's σ (R the instrument
@@ -24,14 +27,28 @@ groups:
   ε + (1 − ε)·Φ(z), z = (log10 DL − log10(scale · S^b · R)) / σ (ε the
   loss probability of :mod:`workbench.matching.scoring`).
 
-b leaves 1 only when the best grid value beats b = 1 by a likelihood ratio
-above :data:`LR_THRESHOLD` (the χ² test of one parameter at 5 %, 3.84/2 in
-log-likelihood; common practice, no source), and needs at least
-:data:`MIN_FOUND` such found groups. A flatter scale (b < 1: self-absorbed
-strong lines) is not fitted: it would make more weak lines "should be
-seen". A species at chance has found heights unrelated to S, so a steeper
-scale does not improve their fit, and its strongest lines, whose absence is
-what rejects it, keep their prediction.
+b leaves 1 only when
+
+1. the species' found groups are tabulated stronger than its missed ones,
+   one-sided Mann-Whitney p ≤ :data:`ORDER_P` (:func:`_found_above_missed`);
+2. at least :data:`MIN_FOUND` such found groups measure the fit;
+3. the best grid value beats b = 1 by a log-likelihood ratio above
+   :data:`LR_THRESHOLD` (the χ² test of one parameter at 5 %; common
+   practice, no source).
+
+Condition 1 is what keeps chance hits out. An absent species' misses
+always prefer a steeper scale (every miss is then less surprising), and its
+found heights, unrelated to S, barely object at σ = 0.8 dex: in the invented
+five-gas lamps the likelihood alone gave Nd II b = 3, and when b also chose
+which groups should be seen, Nd II reached "probable". Under chance the
+found groups are a random draw of the species' groups, so their strengths
+lie above the missed ones' no more often than the test's level. A flatter
+scale (b < 1: self-absorbed strong lines) is not fitted: it would make more
+weak lines "should be seen".
+
+Applied under both emission source models (a lamp whose lines all lack
+atomic data is predicted alike by both, and ``auto`` may pick
+``lte-plasma`` for it), in the second evidence pass only.
 
 Tune-set example (Goodman 1200M4 Ne lamp, full resolution): the Ne I lines
 tabulated at half the strongest are seen 8–160× above their b = 1

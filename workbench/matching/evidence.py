@@ -243,9 +243,9 @@ def gather_evidence(
         also carries what the data test of a prior-favoured species needs
         (:mod:`workbench.matching.absorption`).
     contrast : bool
-        Fit each species' contrast exponent of its tabulated intensities
-        (``discharge-lamp``; :mod:`workbench.matching.contrast`) and predict
-        its groups at strength^b.
+        Fit each species' contrast exponent b (emission source models;
+        :mod:`workbench.matching.contrast`); its missing-line penalty then
+        predicts the species' weaker groups lower (``groups["predicted_miss"]``).
 
     Returns
     -------

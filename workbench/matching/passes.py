@@ -47,7 +47,9 @@ def _contrast(index: ReferenceIndex, model: str) -> bool:
 
     Second pass only: the first pass chooses the source model and the
     plausible species as before (measured: the real-data and degraded-lamp
-    tables are the same with it in the first pass too, at twice the cost).
+    tables are the same with it in the first passes too; the fit costs 3.5
+    ms per match on 10,000 random peaks in the second pass alone, 10.5 ms
+    in every pass).
     """
     return model in ("discharge-lamp", "lte-plasma") and index.axis == "wavelength"
 
