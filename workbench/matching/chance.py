@@ -20,6 +20,7 @@ __all__ = [
     "closeness_probability",
     "fisher_combined",
     "misses_tail_probability",
+    "sidak_corrected",
     "simes_combined",
 ]
 
@@ -263,3 +264,12 @@ def simes_combined(p_values: list[float]) -> float:
         return 1.0
     p = np.sort(np.clip(np.asarray(p_values, dtype=float), 1e-300, 1.0))
     return float(min(1.0, np.min(p.size * p / np.arange(1, p.size + 1))))
+
+
+def sidak_corrected(p: float, n_tests: int) -> float:
+    """Šidák's correction: P(at least one of ``n_tests`` chance results this good), 1 − (1 − p)^n.
+
+    Computed as −expm1(n·log1p(−p)) so that tiny ``p`` keep their precision
+    (p is capped just below 1).
+    """
+    return float(-np.expm1(n_tests * np.log1p(-min(p, 1 - 1e-16))))

@@ -61,6 +61,8 @@ from __future__ import annotations
 import numpy as np
 from scipy import special
 
+from workbench.matching.species_scale import sorted_segment_medians, species_groups
+
 __all__ = [
     "GRID",
     "LR_THRESHOLD",
@@ -128,8 +130,7 @@ def contrast_exponents(
     counts = g_end - g_start
     if not np.any(counts):
         return b_out
-    seg = np.repeat(np.arange(n_sp), counts)
-    at = np.arange(int(counts.sum())) + np.repeat(g_start - (np.cumsum(counts) - counts), counts)
+    seg, at = species_groups(g_start, g_end)
     x = log_strength[at]
     ok = np.isfinite(x)
     f = found[at] & ok & np.isfinite(log_observed[at])
@@ -160,13 +161,8 @@ def contrast_exponents(
         # Scale at this b: the median of log10(observed / S^b) over found groups.
         r = y - b * x
         order = np.lexsort((r[f], s[f]))
-        r_sorted, s_sorted = r[f][order], s[f][order]
-        cnt = np.bincount(s_sorted, minlength=n_sp)
-        start = np.cumsum(cnt) - cnt
-        lo, hi = start + (cnt - 1) // 2, start + cnt // 2
-        has = cnt > 0
-        c = np.zeros(n_sp)
-        c[has] = 0.5 * (r_sorted[lo[has]] + r_sorted[hi[has]])
+        # Every species fitted has found groups, so no median is empty.
+        c = sorted_segment_medians(r[f][order], s[f][order], n_sp)
         pred = c[s] + b * x
         z_f = (y - pred) / sig
         ll_f = np.where(f, -0.5 * z_f**2 - np.log(sig * _LN10), 0.0)

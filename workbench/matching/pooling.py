@@ -70,9 +70,7 @@ from __future__ import annotations
 import math
 from collections import defaultdict
 
-import numpy as np
-
-from workbench.matching.chance import simes_combined
+from workbench.matching.chance import sidak_corrected, simes_combined
 from workbench.matching.evidence import EvidencePass
 from workbench.matching.scoring import (
     PRIOR_DATA_P,
@@ -97,7 +95,7 @@ def pool_ion_stages(ev_pass: EvidencePass) -> None:
         if len(seen) < 2:
             continue
         p = simes_combined([ev.chance_probability for ev in seen])
-        p_corr = float(-np.expm1(n_elements * np.log1p(-min(p, 1 - 1e-16))))
+        p_corr = sidak_corrected(p, n_elements)
         e = -math.log10(max(p_corr, 1e-300))
         e += sum(ev.missing_penalty_dex for ev in seen) + max(ev.prior_dex for ev in seen)
         k = sum(ev.n_groups_counted for ev in seen)

@@ -131,6 +131,7 @@ from workbench.matching.chance import (
     closeness_probability,
     fisher_combined,
     misses_tail_probability,
+    sidak_corrected,
 )
 from workbench.matching.xray_scoring import (
     xray_agreement,
@@ -260,11 +261,7 @@ def evaluate(
     """Compute counts, chance probability, penalty, net evidence, level and score in place."""
     g = ev.groups
     valid = ~g["explained"]
-    found = g["found"] & valid
-    # Groups with a stronger peak close by are left out of the chance test
-    # alike whether found or not ("masked" when missing, "crowded" when
-    # found): leaving out only the missing ones counted the hits alone.
-    nset = g["visible"] & ~g["masked"] & ~g.get("crowded", g["masked"] & False) & valid
+    found, nset = _found_and_counted(g)
     k = int(np.sum(nset & found))
     n = int(np.sum(nset))
     ev.n_groups_found = int(np.sum(found))
@@ -339,6 +336,18 @@ def _misses_penalty(
     return float(np.log10(misses_tail_probability(p_miss[nset], missing[nset])))
 
 
+def _found_and_counted(g: dict[str, Any]) -> tuple[np.ndarray, np.ndarray]:
+    """Found groups not explained by a better species, and the groups the chance test counts.
+
+    Groups with a stronger peak close by are left out of the chance test
+    alike whether found or not ("masked" when missing, "crowded" when
+    found): leaving out only the missing ones counted the hits alone.
+    """
+    valid = ~g["explained"]
+    crowded = g.get("crowded", g["masked"] & False)
+    return g["found"] & valid, g["visible"] & ~g["masked"] & ~crowded & valid
+
+
 def _chance_terms(ev: SpeciesEvidence, nset: np.ndarray, found: np.ndarray) -> None:
     """Chance probability from the binomial tail and the closeness term (in place).
 
@@ -372,7 +381,7 @@ def _chance_terms(ev: SpeciesEvidence, nset: np.ndarray, found: np.ndarray) -> N
 def _net_evidence(ev: SpeciesEvidence, n_tried: int) -> None:
     """Corrected chance probability and net evidence from the terms already set (in place)."""
     pc = ev.chance_probability
-    ev.chance_probability_corrected = float(-np.expm1(n_tried * np.log1p(-min(pc, 1 - 1e-16))))
+    ev.chance_probability_corrected = sidak_corrected(pc, n_tried)
     own = float(
         -np.log10(max(ev.chance_probability_corrected, 1e-300))
         + ev.missing_penalty_dex
@@ -398,11 +407,8 @@ def rescore_closeness(ev: SpeciesEvidence, centre_u: float, *, n_tried: int) -> 
     the missing-line penalty do not depend on the centre), at a fraction of
     its cost: on 10,000 random peaks every species is re-scored once.
     """
-    g = ev.groups
-    g["offset_centre"] = centre_u
-    valid = ~g["explained"]
-    found = g["found"] & valid
-    nset = g["visible"] & ~g["masked"] & ~g.get("crowded", g["masked"] & False) & valid
+    ev.groups["offset_centre"] = centre_u
+    found, nset = _found_and_counted(ev.groups)
     _chance_terms(ev, nset, found)
     _net_evidence(ev, n_tried)
     ev.level = decide_verdict(ev)

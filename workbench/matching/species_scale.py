@@ -16,6 +16,8 @@ import numpy as np
 
 __all__ = [
     "SCALE_CONSISTENT_SIGMAS",
+    "sorted_segment_medians",
+    "species_groups",
     "species_scales",
 ]
 
@@ -36,7 +38,19 @@ def _median(a: np.ndarray) -> float:
 SCALE_CONSISTENT_SIGMAS: float = 2.0
 
 
-def _sorted_medians(v: np.ndarray, seg: np.ndarray, n_seg: int) -> np.ndarray:
+def species_groups(g_start: np.ndarray, g_end: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per group, species after species: the species' rank and the group's index.
+
+    Species ``i`` owns groups ``g_start[i]:g_end[i]``; returns (``seg``,
+    ``at``) with ``seg`` the rank ``i`` and ``at`` the group index.
+    """
+    counts = g_end - g_start
+    seg = np.repeat(np.arange(g_start.size), counts)
+    at = np.arange(int(counts.sum())) + np.repeat(g_start - (np.cumsum(counts) - counts), counts)
+    return seg, at
+
+
+def sorted_segment_medians(v: np.ndarray, seg: np.ndarray, n_seg: int) -> np.ndarray:
     """Median per segment of values sorted by (segment, value); NaN for an empty segment.
 
     The same arithmetic as ``_median`` on each segment's values.
@@ -74,11 +88,10 @@ def species_scales(
     """
     n_sp = g_start.size
     counts = g_end - g_start
-    seg = np.repeat(np.arange(n_sp), counts)
     if not np.any(counts):
         return [None] * n_sp
     # The groups of every species, species after species.
-    at = np.arange(int(counts.sum())) + np.repeat(g_start - (np.cumsum(counts) - counts), counts)
+    seg, at = species_groups(g_start, g_end)
     good = good_all[at]
     good_uniq = good_uniq_all[at]
     # Scale from found, unsaturated, known groups (unique ones when there are any).
@@ -108,7 +121,7 @@ def species_scales(
         scale = np.full(n_sp, np.nan)
         scale[u_seg[first]] = ratios[first]
     else:
-        scale = _sorted_medians(v_sorted[is_ratio], s_sorted[is_ratio], n_sp)
+        scale = sorted_segment_medians(v_sorted[is_ratio], s_sorted[is_ratio], n_sp)
     consistent = np.ones(v_sorted.size, dtype=bool)
     if dl_all is not None and sigma_all is not None and not xray:
         # Optical: a found group that the model, at the species' scale,
@@ -141,7 +154,7 @@ def species_scales(
             return sc[s_sorted] >= floor
 
         consistent = _consistent(scale)
-        scale = _sorted_medians(
+        scale = sorted_segment_medians(
             v_sorted[is_ratio & consistent], s_sorted[is_ratio & consistent], n_sp
         )
     if dl_all is not None and c_at.size:
@@ -157,5 +170,5 @@ def species_scales(
             if sigma_all is not None and not xray:
                 consistent = _consistent(scale)
             keep = (is_ratio & consistent) | (~is_ratio & cens[c_of])
-            scale = _sorted_medians(v_sorted[keep], s_sorted[keep], n_sp)
+            scale = sorted_segment_medians(v_sorted[keep], s_sorted[keep], n_sp)
     return [float(v) if h else None for v, h in zip(scale.tolist(), has.tolist(), strict=True)]
