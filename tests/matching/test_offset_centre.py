@@ -90,4 +90,6 @@ def test_offset_is_zero_when_no_species_is_probable_yet():
     ne = next(e for e in outcome.report["elements"] if e["species"] == "Ne I")
     assert ne["verdict"] == "established"
     ev = next(v for v in outcome.result.evidence.evidence.values() if v.label == "Ne I")
+    # Measured 4.4e-15 at stop 26 (19 counted groups); 1e-6 is a loose bound
+    # below which the term is clearly counted (common practice, no source).
     assert ev.closeness_probability < 1e-6
