@@ -94,6 +94,53 @@ def test_saturated_peak_flagged():
     assert abs(peaks.positions[np.argmin(np.abs(peaks.positions - 510.0))] - centres[2]) < 0.02
 
 
+def _clipped_lines(ceiling_jitter, n_clipped, seed=SEED):
+    """Five lines on a flat baseline; the ``n_clipped`` strongest clipped at a
+    ceiling that varies by ``ceiling_jitter`` (relative) from sample to sample,
+    as after bias subtraction or flat-fielding (synthetic input)."""
+    rng = np.random.default_rng(seed)
+    x = np.linspace(500.0, 600.0, 5001)
+    sig = 3.0 * (x[1] - x[0])
+    centres = np.array([510.0, 530.0, 550.0, 570.0, 590.0])
+    amps = np.array([400.0, 3000.0, 2500.0, 5000.0, 4000.0])
+    y = 20.0 + sum(_gauss(x, c, a, sig) for c, a in zip(centres, amps, strict=True))
+    y = y + rng.normal(0.0, 1.0, x.size)
+    clipped = np.argsort(-amps)[:n_clipped]
+    ceiling = 0.9 * amps[clipped].min() * (1.0 + ceiling_jitter * rng.uniform(-1, 1, x.size))
+    y = np.minimum(y, ceiling) if n_clipped else y
+    return Spectrum(x, y, "wavelength", "air"), centres, clipped
+
+
+@pytest.mark.parametrize("jitter", [0.0005, 0.003])
+def test_ceiling_shared_by_three_clipped_lines_is_flagged(jitter):
+    # 0.003: the spread of the clipped tops in the Keck LRIS arc (0.57 % of
+    # its maximum, measured: tests/realdata/test_realspectra.py).
+    spec, centres, clipped = _clipped_lines(jitter, 3)
+    peaks = find_peaks(spec)
+    near = np.abs(peaks.positions[:, None] - centres[None, :]).argmin(axis=1)
+    flagged = set(centres[near[peaks.table["saturated"].to_numpy()]])
+    assert flagged == set(centres[clipped])
+
+
+def test_two_clipped_lines_at_an_uneven_ceiling_are_not_flagged():
+    # Known limit: fewer than three flat tops at an uneven ceiling are not
+    # told from two strong lines of nearly equal height (detect.CEILING_MIN_RUNS).
+    spec, _, _ = _clipped_lines(0.003, 2)
+    assert not find_peaks(spec).table["saturated"].any()
+
+
+@pytest.mark.parametrize("seed", range(20))
+def test_unclipped_lines_of_random_heights_are_not_flagged(seed):
+    rng = np.random.default_rng(SEED + seed)
+    x = np.linspace(400.0, 700.0, 6001)
+    centres = np.sort(rng.uniform(405.0, 695.0, 40))
+    amps = 10.0 ** rng.uniform(1.0, 4.0, 40)
+    sig = rng.uniform(1.5, 6.0) * (x[1] - x[0])
+    y = 5.0 + sum(_gauss(x, c, a, sig) for c, a in zip(centres, amps, strict=True))
+    y = y + rng.normal(0.0, 0.5, x.size)
+    assert not find_peaks(Spectrum(x, y, "wavelength", "air")).table["saturated"].any()
+
+
 def test_saturation_level_parameter():
     spec, _, _, _, _ = _emission()
     peaks = find_peaks(spec, saturation_level=500.0)

@@ -96,6 +96,28 @@ def test_pypeit_solution_reproduces_its_own_identified_lines(name):
     assert np.max(np.abs(fit - np.asarray(n["yfit"]))) < 0.5
 
 
+def test_lris_arc_clipped_tops_are_flagged_saturated():
+    # The Keck LRIS arc (pypeit 2.0.1) clips its strong red lines at about
+    # 64,000 counts: their tops lie between 63,932 and 64,296 (measured here),
+    # never exactly equal. Every peak with two or more samples within 1 % of
+    # that ceiling is saturated; no peak well below it is.
+    rs, outcome = _run("lrisr_400_8500_PYPIT")
+    x, y = rs.spectrum.x, rs.spectrum.y
+    top = float(y.max())
+    assert 64_000 < top < 64_400  # the ceiling itself (measured)
+    t = outcome.peaks.table
+    sat = t["saturated"].to_numpy()
+    for pos, flagged in zip(t["wavelength_nm"].to_numpy(), sat, strict=True):
+        i = int(np.argmin(np.abs(x - pos)))
+        window = y[max(i - 4, 0) : i + 5]
+        at_ceiling = int(np.sum(window >= 0.99 * top))
+        if at_ceiling >= 2:
+            assert flagged, pos
+        if window.max() < 0.9 * top:
+            assert not flagged, pos
+    assert sat.sum() >= 15  # 21 flagged (measured); 0 before stop 27
+
+
 @pytest.mark.parametrize("name", [n for n in TUNE + HELD_OUT if n.startswith("goodman")])
 def test_goodman_identified_lines_lie_in_the_solution_range(name):
     rs = load(name)

@@ -21,8 +21,9 @@ Pipeline (all vectorised over the spectrum and over the peaks):
    (:func:`~workbench.peaks.extrema.half_height_crossings` at half the
    interpolated height, bounded by the peak's bases), area as the integral of the
    baseline-subtracted signal over centre ± FWHM, SNR = height / σ, and a
-   saturation flag (top flat at the spectrum's maximum for ≥ 2 points, or
-   reaching ``saturation_level``).
+   saturation flag (top flat at the spectrum's maximum for ≥ 2 points, tops
+   at a ceiling shared by three or more flat-topped peaks, or reaching
+   ``saturation_level``).
 """
 
 from __future__ import annotations
@@ -305,12 +306,28 @@ def find_peaks(
     return PeakList(table, axis, spectrum.medium, spectrum.source, prm.mode, extra)  # type: ignore[arg-type]
 
 
+# A detector's ceiling after bias subtraction or flat-fielding is not one
+# number: the clipped tops of the Keck LRIS arc in the pypeit archive lie
+# between 63,932 and 64,296 counts (0.57 % of the maximum; measured here).
+# Samples within CEILING_TOL of the spectrum's range (maximum − median) below
+# its maximum are "at the ceiling"; the ceiling is taken as real only when at
+# least CEILING_MIN_RUNS separate flat tops (two or more adjacent samples) reach
+# it: an unsaturated spectrum's three strongest peaks are rarely within 1 % of
+# each other, a clipped one shows every saturated line at the same level.
+# Both numbers are common practice, no source.
+CEILING_TOL = 0.01
+CEILING_MIN_RUNS = 3
+
+
 def _saturated_indices(y: np.ndarray, prm: PeakFindingParameters) -> np.ndarray:
     """Sorted indices of the saturated samples.
 
-    With ``saturation_level``, every sample at or above it; otherwise the
-    samples of flat tops at the spectrum's maximum (minimum for absorption):
-    a sample at the extreme with a neighbour also at it.
+    With ``saturation_level``, every sample at or above it. Otherwise (1) the
+    samples of flat tops exactly at the spectrum's maximum (minimum for
+    absorption): a sample at the extreme with a neighbour also at it; and,
+    for emission, (2) every sample at a shared ceiling: within
+    ``CEILING_TOL`` × (maximum − median) of the maximum, when at least
+    ``CEILING_MIN_RUNS`` separate runs of two or more adjacent samples reach it.
     """
     if prm.mode != "absorption" and prm.saturation_level is not None:
         return np.flatnonzero(y >= prm.saturation_level)
@@ -320,7 +337,21 @@ def _saturated_indices(y: np.ndarray, prm: PeakFindingParameters) -> np.ndarray:
     keep = np.zeros(extreme.size, dtype=bool)
     keep[:-1] |= adjacent
     keep[1:] |= adjacent
-    return extreme[keep]
+    exact = extreme[keep]
+    if prm.mode == "absorption" or y.size < 3:
+        return exact
+    top = float(y.max())
+    # The median by partition: np.median would load numpy.ma, which the
+    # peaks command does not otherwise need (tests/peaks/test_import_chain.py).
+    span = top - float(np.partition(y, y.size // 2)[y.size // 2])
+    if not np.isfinite(span) or span <= 0:
+        return exact
+    near = np.flatnonzero(y >= top - CEILING_TOL * span)
+    starts = np.flatnonzero(np.diff(near, prepend=near[0] - 2) != 1)
+    lengths = np.diff(np.append(starts, near.size))
+    if np.sum(lengths >= 2) < CEILING_MIN_RUNS:
+        return exact
+    return np.union1d(exact, near)
 
 
 def _saturation(y, idx, left_ips, right_ips, prm) -> np.ndarray:
