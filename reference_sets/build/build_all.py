@@ -107,12 +107,12 @@ from workbench.refdata.blend import (  # noqa: E402
 from workbench.refdata.columns import conform  # noqa: E402
 from workbench.refdata.elements import SYMBOLS, atomic_number, is_element_symbol  # noqa: E402
 
-DATA_VERSION = "2026.12.4"
+DATA_VERSION = "2026.12.5"
 CACHE = ROOT / "_cache"
 #: Where the outputs go: ROOT, or a temporary folder with ``--check``.
 OUT = ROOT
 LAMBDA_MIN_NM = 185.0  # 5 nm below the 190 nm target so that As I 189.04 is kept
-LAMBDA_MAX_NM = 1000.0
+LAMBDA_MAX_NM = 1500.0
 MATCH_TOL_NM = 0.005
 E_LOWER_TOL_EV = 0.01  # lower levels of "the same line" in two sources (when both known)
 #: Sources that list hyperfine/isotope components as separate rows.
@@ -624,8 +624,10 @@ def blend_rascal(rows: list[dict]) -> tuple[list[dict], int]:
     at least one of them flagged ``*`` (intensity shared; the extract gives
     Ne I 437.90 nm once as "20" and once as "20*"), are the transitions of
     one observed line: :func:`blend_shared_intensity` counts the intensity
-    once. Every other row is kept as it is. Returns the rows and the number
-    of lines so formed.
+    once. So are two or more rows of one element and ion at one vacuum
+    wavelength that carry no intensity at all (Xe I 1442.81 nm, beyond the
+    1000 nm the set ended at before data version 2026.12.5). Every other
+    row is kept as it is. Returns the rows and the number of lines so formed.
     """
     rows = [r for r in rows if LAMBDA_MIN_NM <= r["wavelength_vac_nm"] <= LAMBDA_MAX_NM]
 
@@ -633,6 +635,16 @@ def blend_rascal(rows: list[dict]) -> tuple[list[dict], int]:
         return (r["element"], r["ion"], r["wavelength_vac_nm"], r.get("rel_intensity"))
 
     flagged = {key(r) for r in rows if r.get("_shared_intensity")}
+    # Rows with no intensity at all at one wavelength are one observed line
+    # too (NIST gives an observed wavelength once per line; e.g. Xe I
+    # 1442.81 nm, three classifications J 1-2, 2-3, 3-4, no intensity).
+    seen_null: set[tuple] = set()
+    for r in rows:
+        if r.get("rel_intensity") is None:
+            k = key(r)
+            if k in seen_null:
+                flagged.add(k)
+            seen_null.add(k)
     groups: dict[tuple, list[dict]] = {}
     out: list[list[dict]] = []
     for r in rows:
@@ -1222,7 +1234,7 @@ RECIPE = (
     f"same line = same element and ion, |Δλ_vac| <= {MATCH_TOL_NM} nm, different "
     f"sources, equal g_upper and |ΔE_lower| <= {E_LOWER_TOL_EV} eV when both known; "
     "the highest-priority row is kept, null fields "
-    "filled from the others in priority order; range 185-1000 nm vacuum; air λ by the IAU "
+    "filled from the others in priority order; range 185-1500 nm vacuum; air λ by the IAU "
     "formula (null below 200 nm vacuum); Gaia-ESO A_ki = 6.6702e15 gf/(g_k λ_vac[Å]²)"
 )
 
@@ -1303,7 +1315,7 @@ def main() -> int:
     nist, n_shared = blend_rascal(nist)
     print(
         f"  nist_rascal: {n_nist} rows -> {len(nist)} lines in range "
-        f"({n_shared} observed lines whose rows shared one intensity, NIST flag '*')"
+        f"({n_shared} observed lines whose rows shared one intensity, NIST flag '*', or had none)"
     )
     for name, rows in [("morton03", m03), ("morton00", m00), ("ges2022", ges)]:
         n_comp = sum(len(r["_components"]) for r in rows)
@@ -1341,7 +1353,7 @@ def main() -> int:
     sets.append(
         set_entry(
             "optical",
-            "Atomic emission/absorption lines, stages I-II+ (merged, 185-1000 nm vacuum)",
+            "Atomic emission/absorption lines, stages I-II+ (merged, 185-1500 nm vacuum)",
             optical,
             "optical",
             srcs,

@@ -218,8 +218,9 @@ def optical_set():
 
 
 def test_peak_outside_reference_range_gives_a_clean_result(optical_set):
-    # One line at 1001 nm: the shipped optical set ends at 1000 nm (its manifest title).
-    peaks = PeakList(pl.DataFrame({"wavelength_nm": [1001.0]}), "wavelength", "air")
+    # One line at 1501 nm (air; 1501.4 nm vacuum): the shipped optical set
+    # ends at 1500 nm vacuum (its manifest title).
+    peaks = PeakList(pl.DataFrame({"wavelength_nm": [1501.0]}), "wavelength", "air")
     rep = match_peaks(peaks, [optical_set]).report()
     assert [e for e in rep["elements"] if e["verdict_level"] >= 1] == []
     assert any(w["kind"] == "out_of_reference_range" for w in rep["warnings"])

