@@ -268,9 +268,11 @@ def evaluate(
     ev.n_groups_matched = int(np.sum(g["found"]))
     ev.n_groups_counted = k
     ev.n_groups_expected = n
-    ev.n_unique_peaks = int(np.unique(g["peak"][found & g["unique"]]).size)
+    # Distinct peaks by a set: np.unique costs ~15 µs a call on a few dozen
+    # indices, and evaluate runs some 400 times on 10,000 random peaks.
+    ev.n_unique_peaks = len(set(g["peak"][found & g["unique"]].tolist()))
     strong = g["known"] & (g["strength"] >= strong_fraction)
-    ev.n_strong_found = int(np.unique(g["peak"][found & strong]).size)
+    ev.n_strong_found = len(set(g["peak"][found & strong].tolist()))
     ev.binomial_probability = (
         float(special.betainc(k, n - k + 1, float(np.mean(g["p_line"][nset])))) if k else 1.0
     )
@@ -324,7 +326,9 @@ def _miss_probability(dl: np.ndarray, pred: np.ndarray, sig: np.ndarray) -> np.n
     """Miss probability per group if present: ε + (1 − ε)·Φ((log10 DL − log10 pred) / σ)."""
     with np.errstate(divide="ignore", invalid="ignore"):
         z = (np.log10(dl) - np.log10(pred)) / sig
-    z = np.nan_to_num(z, nan=0.0, posinf=np.inf, neginf=-np.inf)
+    # NaN (0/0 or inf − inf) counts as z = 0; ±inf stay (np.nan_to_num
+    # did the same at twice the cost).
+    z[np.isnan(z)] = 0.0
     return LOSS_PROBABILITY + (1.0 - LOSS_PROBABILITY) * special.ndtr(z)
 
 
