@@ -82,7 +82,8 @@ def add_engine_options(p: argparse.ArgumentParser) -> None:
         type=float,
         metavar="LEVEL",
         help="raw signal level at which the detector saturates; such peaks are flagged and "
-        "kept out of intensity evidence",
+        "kept out of intensity evidence (without it: flat tops at the spectrum's maximum, "
+        "or at a ceiling that three or more flat tops share)",
     )
     p.add_argument(
         "--electron-density",

@@ -32,7 +32,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--medium", choices=("air", "vacuum"), help="medium of wavelengths")
     p.add_argument("--block", help="JCAMP-DX block index (0-based) or title")
     p.add_argument(
-        "--saturation-level", type=float, help="raw level at which the detector saturates"
+        "--saturation-level",
+        type=float,
+        help="raw level at which the detector saturates (without it: flat tops at the "
+        "spectrum's maximum, or at a ceiling that three or more flat tops share)",
     )
     p.add_argument("--json", metavar="OUT|-", help="write the result as JSON to OUT or stdout")
     p.set_defaults(func=_handle)
