@@ -155,9 +155,11 @@ def test_gas_with_six_clear_lines_is_established(outcomes):
     2026.12.5 adds one Hg I line (999.90 nm air) to the 550–1000 nm air
     range, so the Hg lamps there are new draws: 96 of 102; the six misses
     are Xe with 12 and 10 clear lines, Ar with 9 and Kr with 8 (one draw),
-    Hg with 6 at R 1000, Kr with 7 at R 2000. Benchmark (432 spectra): 872
-    of 895 at stop 24, 866 at stop 25, 869 at stop 26; 868 of 898 on the
-    2026.12.5 draws (docs/evidence-model.md section 2, step 2).
+    Hg with 6 at R 1000, Kr with 7 at R 2000; with equal species weights in
+    the response fit (stop 27) 95, Ar with 7 at R 1000 (the Xe reproducer's
+    draw) now "probable". Benchmark (432 spectra): 872 of 895 at stop 24,
+    866 at stop 25, 869 at stop 26; on the 2026.12.5 draws 868 of 898, 871
+    with equal species weights (docs/evidence-model.md section 2, step 2).
     """
     rows = [
         (c.lamp, c.lo_nm, c.resolving_power, c.seed, g, n, best.get(g, 0))

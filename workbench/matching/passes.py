@@ -130,7 +130,11 @@ def second_pass(
         # plausible species only, so that well-identified species have unique
         # groups), then the pass is repeated with it. A re-run at a new
         # temperature reuses the response already fitted.
-        response = fit_response(obs, second) if index.axis == "wavelength" else ResponseFit()
+        response = (
+            fit_response(obs, second, equal_species=model != "absorption")
+            if index.axis == "wavelength"
+            else ResponseFit()
+        )
     if response.degree:
         resp_lines = 10.0 ** response.log10_at(index.position)
         second = gather_evidence(obs, index, strengths, in_range, response=resp_lines, **kw)

@@ -14,6 +14,23 @@ amount; P has no constant term). P is a polynomial of degree 2 with at least
 beyond 3 robust standard deviations. P is clipped to [−2, +1] decades so
 that a few points cannot invent a huge correction. The report gives the
 degree, the coefficients and the number of points.
+
+In emission every species weighs the same in the fit, however many points
+it brings (each point 1/n of its species' n; ``equal_species``). Lamp and
+plasma lines depart from their tabulated ratios species by species (a
+non-LTE lamp's own pattern in wavelength), and with equal point weights the
+species with most lines sets the curve nearly alone, its own departures
+taken for the instrument's (the Keck LRIS arc, pypeit 2.0.1: Ne I 47
+points, Ar I 13). Measured (stop 27), before → after: Fe I in the Goodman
+1200M3 Fe-He-Ar lamp "probable" → "established"; invented lamps 868 → 871
+of 898 gases with six or more clear lines "established"; no false call
+either way; the emission mixtures unchanged; held-out, Xe in the LRIS arc
+"possible" → "probable" (its fitted response at 546 / 1014 nm: +0.80 /
+−0.10 → +0.81 / +0.04 decades). In absorption every point weighs the
+same, as before: there the departures are per line (the curve of growth),
+the line-rich species (Fe I) measures the response best, and equal weights
+gave the invented absorption mixtures with the solar prior 5 more false
+"probable" calls (4 → 9).
 """
 
 from __future__ import annotations
@@ -58,8 +75,33 @@ class ResponseFit:
         }
 
 
-def fit_response(obs: ObservedLines, ev_pass: EvidencePass, min_level: int = 2) -> ResponseFit:
-    """Fit the shared response curve from the well-identified species of one pass."""
+def fit_response(
+    obs: ObservedLines,
+    ev_pass: EvidencePass,
+    min_level: int = 2,
+    *,
+    equal_species: bool = False,
+) -> ResponseFit:
+    """Fit the shared response curve from the well-identified species of one pass.
+
+    Parameters
+    ----------
+    obs : ObservedLines
+        The observed peaks.
+    ev_pass : EvidencePass
+        The pass whose species at ``min_level`` or above measure the curve.
+    min_level : int
+        Lowest class of a measuring species (2, "probable").
+    equal_species : bool
+        Give every measuring species the same total weight in the fit (each
+        point weighs 1/n of its species' n points) rather than every point
+        the same (module docstring: emission).
+
+    Returns
+    -------
+    ResponseFit
+        The curve (flat when too few points).
+    """
     xs, ys, ss, names = [], [], [], []
     for ev in sorted(ev_pass.evidence.values(), key=lambda v: v.label):
         if ev.level < min_level or ev.scale is None or not ev.missing_evidence:
@@ -101,7 +143,12 @@ def fit_response(obs: ObservedLines, ev_pass: EvidencePass, min_level: int = 2) 
             [(s[keep] == j).astype(float) for j in range(len(names))]
             + [u[keep] ** (i + 1) for i in range(degree)]
         )
-        sol, *_ = np.linalg.lstsq(a, y[keep], rcond=None)
+        if equal_species:
+            # Row weights 1/√n: each species' squared residuals sum with weight 1.
+            wts = 1.0 / np.sqrt(np.bincount(s[keep], minlength=len(names))[s[keep]])
+        else:
+            wts = np.ones(int(np.sum(keep)))
+        sol, *_ = np.linalg.lstsq(a * wts[:, None], y[keep] * wts, rcond=None)
         coef = sol[len(names) :]
         resid = y - sol[: len(names)][s] - sum(c * u ** (i + 1) for i, c in enumerate(coef))
         mad = 1.4826 * float(np.median(np.abs(resid[keep] - np.median(resid[keep]))))
