@@ -129,6 +129,21 @@ def test_two_clipped_lines_at_an_uneven_ceiling_are_not_flagged():
     assert not find_peaks(spec).table["saturated"].any()
 
 
+@pytest.mark.parametrize("seed", range(10))
+def test_one_broad_noisy_top_is_not_a_ceiling(seed):
+    # One broad line (FWHM 240 samples, as a Stark-broadened H-alpha sampled
+    # finely) with noise of 0.5 % of its height: noise splits its top into
+    # several runs within 1 % of the maximum, all one peak. Without the
+    # separation rule half of these draws were flagged (measured: 10 of 20
+    # seeds; synthetic input).
+    rng = np.random.default_rng(seed)
+    x = np.arange(3001.0)
+    y = 10.0 + _gauss(x, 1500.0, 1000.0, 240.0 / FWHM_PER_SIGMA) + _gauss(x, 700.0, 300.0, 2.0)
+    y = y + rng.normal(0.0, 5.0, x.size)
+    spec = Spectrum(400.0 + 0.01 * x, y, "wavelength", "air")
+    assert not find_peaks(spec).table["saturated"].any()
+
+
 @pytest.mark.parametrize("seed", range(20))
 def test_unclipped_lines_of_random_heights_are_not_flagged(seed):
     rng = np.random.default_rng(SEED + seed)

@@ -157,14 +157,21 @@ def _plain_saturated_mask(y, mode, level):
     top = y.max()
     med = np.sort(y)[y.size // 2]
     near = y >= top - 0.01 * (top - med)
-    runs, length = 0, 0
-    for v in [*near.tolist(), False]:
+    # Separate tops: a fall below half the range between them; a top counts
+    # when one of its runs has two or more samples.
+    tops, length, has_flat, fell = 0, 0, False, True
+    for v, yv in zip([*near.tolist(), False], [*y.tolist(), -np.inf], strict=True):
         if v:
+            if fell:
+                tops += has_flat
+                has_flat, fell = False, False
             length += 1
         else:
-            runs += length >= 2
+            has_flat |= length >= 2
             length = 0
-    return mask | near if runs >= 3 and top > med else mask
+            fell |= yv < top - 0.5 * (top - med)
+    tops += has_flat
+    return mask | near if tops >= 3 and top > med else mask
 
 
 @pytest.mark.parametrize("mode", ["emission", "absorption"])

@@ -311,9 +311,10 @@ def find_peaks(
 # between 63,932 and 64,296 counts (0.57 % of the maximum; measured here).
 # Samples within CEILING_TOL of the spectrum's range (maximum − median) below
 # its maximum are "at the ceiling"; the ceiling is taken as real only when at
-# least CEILING_MIN_RUNS separate flat tops (two or more adjacent samples) reach
-# it: an unsaturated spectrum's three strongest peaks are rarely within 1 % of
-# each other, a clipped one shows every saturated line at the same level.
+# least CEILING_MIN_RUNS separate flat tops (two or more adjacent samples;
+# separate when the signal between them falls below half the range) reach
+# it: an unsaturated spectrum's three strongest peaks are rarely within 1 %
+# of each other, a clipped one shows every saturated line at the same level.
 # Both numbers are common practice, no source.
 CEILING_TOL = 0.01
 CEILING_MIN_RUNS = 3
@@ -327,7 +328,9 @@ def _saturated_indices(y: np.ndarray, prm: PeakFindingParameters) -> np.ndarray:
     absorption): a sample at the extreme with a neighbour also at it; and,
     for emission, (2) every sample at a shared ceiling: within
     ``CEILING_TOL`` × (maximum − median) of the maximum, when at least
-    ``CEILING_MIN_RUNS`` separate runs of two or more adjacent samples reach it.
+    ``CEILING_MIN_RUNS`` separate tops reach it with runs of two or more
+    adjacent samples (tops are separate where the signal between them falls
+    below half the range: noise splits one broad top into runs of one peak).
     """
     if prm.mode != "absorption" and prm.saturation_level is not None:
         return np.flatnonzero(y >= prm.saturation_level)
@@ -350,6 +353,19 @@ def _saturated_indices(y: np.ndarray, prm: PeakFindingParameters) -> np.ndarray:
     starts = np.flatnonzero(np.diff(near, prepend=near[0] - 2) != 1)
     lengths = np.diff(np.append(starts, near.size))
     if np.sum(lengths >= 2) < CEILING_MIN_RUNS:
+        return exact
+    # Runs count as separate tops only when the signal between them falls
+    # below half the range: noise on one broad top (a Stark-broadened line,
+    # a band) splits it into runs that are one peak.
+    ends = near[np.append(starts[1:] - 1, near.size - 1)]
+    first = near[starts]
+    gap_min = np.array(
+        [float(y[a + 1 : b].min()) for a, b in zip(ends[:-1], first[1:], strict=True)]
+    )
+    new_top = np.concatenate(([True], gap_min < top - 0.5 * span))
+    top_id = np.cumsum(new_top) - 1
+    flat_tops = np.unique(top_id[lengths >= 2]).size
+    if flat_tops < CEILING_MIN_RUNS:
         return exact
     return np.union1d(exact, near)
 
