@@ -272,9 +272,10 @@ def find_peaks(
     x_left = np.interp(left_ips, grid, x)
     x_right = np.interp(right_ips, grid, x)
     fwhm = x_right - x_left
-    saturated = _saturation(y, idx, left_ips, right_ips, prm)
+    hits = _saturated_indices(y, prm)
+    saturated = _saturation(hits, y.size, left_ips, right_ips)
     if saturated.any():
-        centre = _plateau_centres(y, x, idx, left_ips, right_ips, saturated, centre, prm)
+        centre = _plateau_centres(hits, x, left_ips, right_ips, saturated, centre)
     # Cumulative trapezoid integral (the same sums as
     # concatenate(([0], cumsum(0.5 * (s[1:] + s[:-1]) * diff(x))))), built in the
     # index grid's array, no longer needed: fresh arrays of a million values cost
@@ -370,21 +371,20 @@ def _saturated_indices(y: np.ndarray, prm: PeakFindingParameters) -> np.ndarray:
     return np.union1d(exact, near)
 
 
-def _saturation(y, idx, left_ips, right_ips, prm) -> np.ndarray:
-    hits = _saturated_indices(y, prm)
-    lo = np.clip(np.floor(left_ips).astype(np.int64), 0, y.size - 1)
-    hi = np.clip(np.ceil(right_ips).astype(np.int64), 0, y.size - 1)
+def _saturation(hits, n, left_ips, right_ips) -> np.ndarray:
+    # hits: the sorted saturated sample indices (_saturated_indices) of n samples.
+    lo = np.clip(np.floor(left_ips).astype(np.int64), 0, n - 1)
+    hi = np.clip(np.ceil(right_ips).astype(np.int64), 0, n - 1)
     # Saturated samples within [lo, hi], counted on the sorted indices.
     return np.searchsorted(hits, hi, side="right") - np.searchsorted(hits, lo, side="left") > 0
 
 
-def _plateau_centres(y, x, idx, left_ips, right_ips, saturated, centre, prm) -> np.ndarray:
+def _plateau_centres(hits, x, left_ips, right_ips, saturated, centre) -> np.ndarray:
     # A clipped top carries no shape: take the middle of the flat run instead.
-    hits = _saturated_indices(y, prm)
     out = centre.copy()
     for k in np.flatnonzero(saturated):
         lo = max(int(np.floor(left_ips[k])), 0)
-        hi = min(int(np.ceil(right_ips[k])), y.size - 1)
+        hi = min(int(np.ceil(right_ips[k])), x.size - 1)
         run = hits[(hits >= lo) & (hits <= hi)]
         out[k] = 0.5 * (x[run[0]] + x[run[-1]])
     return out
