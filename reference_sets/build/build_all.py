@@ -23,12 +23,16 @@ timestamps, so that re-running the build gives identical bytes.
 Optical merge priority (highest first)::
 
     computed_rydberg_dirac > morton03 > morton00 > nist_rascal > ges2022 > nist_pypeit
-        > verner96 > supplement
+        > nist_pypeit_lamps > verner96 > supplement
 
 ``nist_pypeit`` (the NIST rows of PypeIt's Th-Ar list) contributes only the
 species in :data:`PYPEIT_SPECIES` (today Ar II, which no other source has);
 see :func:`parse_pypeit_thar` for why that one, why not Th II, and why it
-sits below Gaia-ESO.
+sits below Gaia-ESO. ``nist_pypeit_lamps`` (the NIST rows of PypeIt's Fe I,
+Fe II and Zn I lamp lists, :data:`PYPEIT_LAMP_LISTS`) fills the near UV,
+where the other sources give those species' resonance lines only (Zn I
+328.23, 330.26 and 334.50 nm, the lines of a zinc lamp or a brass plasma,
+were in none); see :func:`parse_pypeit_lamp_list`.
 
 One row per transition. First, within each source that lists components
 (morton03, morton00, ges2022), hyperfine and isotope components of one
@@ -107,7 +111,7 @@ from workbench.refdata.blend import (  # noqa: E402
 from workbench.refdata.columns import conform  # noqa: E402
 from workbench.refdata.elements import SYMBOLS, atomic_number, is_element_symbol  # noqa: E402
 
-DATA_VERSION = "2026.12.5"
+DATA_VERSION = "2026.12.6"
 CACHE = ROOT / "_cache"
 #: Where the outputs go: ROOT, or a temporary folder with ``--check``.
 OUT = ROOT
@@ -125,9 +129,19 @@ PRIORITY = [
     "nist_rascal",
     "ges2022",
     "nist_pypeit",
+    "nist_pypeit_lamps",
     "verner96",
     "supplement",
 ]
+#: PypeIt's per-lamp line lists read for ``nist_pypeit_lamps``, each with the
+#: one species it holds: species whose lines between 300 and 420 nm no other
+#: source gives beyond the resonance lines (Gaia-ESO starts at 420 nm, Morton
+#: lists lines from the ground term only). See :func:`parse_pypeit_lamp_list`.
+PYPEIT_LAMP_LISTS: tuple[tuple[str, str, int], ...] = (
+    ("pypeit/data/arc_lines/lists/FeI_lines.dat", "Fe", 1),
+    ("pypeit/data/arc_lines/lists/FeII_lines.dat", "Fe", 2),
+    ("pypeit/data/arc_lines/lists/ZnI_lines.dat", "Zn", 1),
+)
 #: (element, ion) taken from PypeIt's Th-Ar list: species that no other source
 #: has (the rascal NIST extract holds neutrals only). Th II: see parse_pypeit_thar.
 PYPEIT_SPECIES = (("Ar", 2),)
@@ -214,6 +228,14 @@ SOURCES: dict[str, dict[str, str]] = {
         "citation": "NIST Atomic Spectra Database extract (Kramida et al.): the Ar II rows "
         "flagged NIST in the Th-Ar line list shipped by PypeIt (file dated 2018-01-09); "
         "vacuum wavelengths, NIST relative intensities",
+    },
+    "nist_pypeit_lamps": {
+        "package": "pypeit",
+        "file": "; ".join(f for f, _, _ in PYPEIT_LAMP_LISTS),
+        "citation": "NIST Atomic Spectra Database wavelengths (Kramida et al.): the rows "
+        "flagged NIST in PypeIt's Fe I, Fe II and Zn I lamp line lists; vacuum "
+        "wavelengths; NIST relative intensities where the list's Source is NIST, none "
+        "where the amplitude was measured on one instrument (Zn I)",
     },
     H_SOURCE: {
         "package": "",
@@ -764,6 +786,76 @@ def parse_pypeit_thar(
     return rows, skipped
 
 
+def parse_pypeit_lamp_list(text: str, element: str, ion: int) -> tuple[list[dict], int]:
+    """Parse one of PypeIt's per-lamp line lists (``FeI_lines.dat`` …): its NIST rows.
+
+    Same table as the Th-Ar list (:func:`parse_pypeit_thar`): ``| ion | wave |
+    NIST | Instr | amplitude | Source |``, vacuum Å. Checked on the files of
+    pypeit 2.0.1: Fe I 3021.5186 Å is Fe I 302.064 nm air and Zn I 3303.53 Å
+    is Zn I 330.258 nm air by the IAU formula (NIST ASD air wavelengths, from
+    memory). Every row of the three files read is flagged NIST.
+
+    ``amplitude`` means two things. Where ``Source`` is ``NIST`` it is the
+    NIST relative intensity (Fe I 3619.7996 Å: 830000; Fe II: 1100–2000 for
+    its strong lines), kept as ``rel_intensity`` as for the Th-Ar list.
+    Elsewhere (the Zn I list: ``keck_lris_webpage``, ``lrisb_600_4000_PYPIT.json``)
+    it is a height measured on one spectrograph, with that instrument's
+    response in it, so no intensity is stored and the line is "strength
+    unknown" to the engine (:mod:`workbench.matching.species_scale`); the
+    note names the instrument. Rows of another species are counted as
+    skipped.
+
+    Parameters
+    ----------
+    text : str
+        The file's text.
+    element : str
+        The element the file holds.
+    ion : int
+        Its spectrum number (1 = neutral).
+
+    Returns
+    -------
+    rows : list of dict
+        One row per NIST-flagged line, vacuum wavelength in nm, ``source_id``
+        ``"nist_pypeit_lamps"``.
+    skipped : int
+        Rows not flagged NIST, of another species, or unparseable.
+    """
+    rows: list[dict] = []
+    skipped = 0
+    for line in text.splitlines():
+        cells = [c.strip() for c in line.strip().strip("|").split("|")]
+        if line.startswith("#") or len(cells) != 6 or cells[1] == "wave":
+            continue
+        label, wave, nist_flag, _instr, amplitude, origin = cells
+        m = re.fullmatch(r"([A-Z][a-z]?)\s*([IV]+)", label)
+        wave_A = _float(wave)
+        amp = _float(amplitude)
+        if (
+            m is None
+            or (m.group(1), ROMAN.get(m.group(2))) != (element, ion)
+            or nist_flag != "1"
+            or wave_A is None
+        ):
+            skipped += 1
+            continue
+        nist_intensity = origin == "NIST" and amp is not None and amp > 0
+        rows.append(
+            _row(
+                element,
+                ion,
+                wave_A / 10.0,
+                "nist_pypeit_lamps",
+                rel_intensity=amp if nist_intensity else None,
+                notes=None
+                if nist_intensity
+                else f"PypeIt amplitude measured on {origin}: not a NIST intensity, not kept",
+            )
+        )
+    return rows, skipped
+
+
 # --------------------------------------------------------------------------- supplement / hydrogen
 
 
@@ -1295,6 +1387,14 @@ def main() -> int:
     pyp, s6 = parse_pypeit_thar(
         read_member("pypeit", SOURCES["nist_pypeit"]["file"]).decode("latin-1")
     )
+    lamps: list[dict] = []
+    s7 = 0
+    for member, element, ion in PYPEIT_LAMP_LISTS:
+        got, skipped = parse_pypeit_lamp_list(
+            read_member("pypeit", member).decode("latin-1"), element, ion
+        )
+        lamps += got
+        s7 += skipped
     sup, _ = parse_supplement(ROOT / "build" / "supplement_from_memory.csv")
     for name, rows, skipped in [
         ("morton03", m03, s1),
@@ -1303,6 +1403,7 @@ def main() -> int:
         ("ges2022", ges, s4),
         ("nist_rascal", nist, s5),
         ("nist_pypeit", pyp, s6),
+        ("nist_pypeit_lamps", lamps, s7),
         ("supplement", sup, 0),
     ]:
         print(f"  {name}: {len(rows)} rows parsed, {skipped} unparsed lines skipped")
@@ -1323,7 +1424,7 @@ def main() -> int:
             f"  {name}: {raw_counts[name]} rows -> {len(rows)} lines in range "
             f"({sum(1 for r in rows if r['_components'])} blends of {n_comp} components)"
         )
-    all_rows = m03 + m00 + ver + ges + nist + pyp + sup
+    all_rows = m03 + m00 + ver + ges + nist + pyp + lamps + sup
     hyd = hydrogen_table()
     sets: list[dict] = []
     if hyd is not None:

@@ -137,6 +137,7 @@ def test_sources_and_disagreement_columns(table):
         "nist_rascal",
         "ges2022",
         "nist_pypeit",
+        "nist_pypeit_lamps",
         "verner96",
         "supplement",
     }
