@@ -412,6 +412,14 @@ def gather_evidence(
             near[cand] = side >= predicted_all[cand]
             masked_all = near & ~found
             crowded_all = near & found
+    if not xray and not absorption:
+        # Emission: a group of strength unknown from a source that lists only
+        # lines known to show (reference.LISTED_SOURCES: Zn I 330.26 nm of
+        # PypeIt's zinc-lamp list, the supplement's key lines) is counted by
+        # the chance test like a visible group. It has no prediction, so it
+        # is never masked or crowded and the missing-line test leaves it out
+        # (scoring.evaluate).
+        visible_all = visible_all | L.g_listed
     if has_int and xray:
         # X-ray: density of peaks comparable in strength (>= 30 % of the
         # prediction) per group.

@@ -136,6 +136,7 @@ class PassLayout:
     line_group: np.ndarray
     g_strength: np.ndarray
     g_known: np.ndarray
+    g_listed: np.ndarray
     g_pos: np.ndarray
     g_species: np.ndarray
     g_tol: np.ndarray
@@ -243,6 +244,14 @@ def pass_layout(
     u_e = e_zero[usable_idx]
     g_strength = np.bincount(gid, weights=u_e, minlength=n_groups)
     g_known = np.bincount(gid, weights=np.isfinite(e[usable_idx]), minlength=n_groups) > 0
+    # Groups of strength unknown holding a line of a source that lists only
+    # lines known to show (reference.LISTED_SOURCES).
+    if index.listed is not None and index.listed.any():
+        g_listed = ~g_known & (
+            np.bincount(gid, weights=index.listed[usable_idx], minlength=n_groups) > 0
+        )
+    else:
+        g_listed = np.zeros(n_groups, dtype=bool)
     g_count = np.bincount(gid, minlength=n_groups)
     g_pos = np.where(
         g_strength > 0,
@@ -333,6 +342,7 @@ def pass_layout(
         line_group=line_group,
         g_strength=g_strength,
         g_known=g_known,
+        g_listed=g_listed,
         g_pos=g_pos,
         g_species=g_species,
         g_tol=g_tol,

@@ -17,7 +17,15 @@ import polars as pl
 
 from workbench.errors import ValueRangeError
 
-__all__ = ["ReferenceIndex", "roman", "species_label"]
+__all__ = ["LISTED_SOURCES", "ReferenceIndex", "roman", "species_label"]
+
+#: Sources of the shipped optical set that list only lines known to show: a
+#: spectrograph's arc-lamp line list (PypeIt's, ``nist_pypeit_lamps``) and the
+#: hand-picked key analytical lines (``supplement``). Their lines without a
+#: strength (no intensity, no transition probability) are still lines a present
+#: species shows, so the chance test counts their windows; the missing-line
+#: test cannot weigh them and leaves them out.
+LISTED_SOURCES: tuple[str, ...] = ("nist_pypeit_lamps", "supplement")
 
 _ROMAN = ["", "I", "II", "III", "IV", "V", "VI", "VII", "VIII", "IX", "X"]
 
@@ -67,6 +75,11 @@ class ReferenceIndex:
         X-ray lines: factor on ``rel_intensity`` giving the line's detected
         yield on one scale per element (:func:`workbench.xray.lines.line_weights`); 1 for
         optical lines.
+    listed : numpy.ndarray of bool or None
+        Lines from a source that lists only lines known to show
+        (:data:`LISTED_SOURCES`): where such a line has no strength, the
+        chance test still counts its window (:mod:`workbench.matching.evidence`).
+        ``None``: no such line.
     """
 
     axis: Literal["wavelength", "energy"]
@@ -89,6 +102,7 @@ class ReferenceIndex:
     transition: np.ndarray
     set_id: np.ndarray
     provenance: list[dict[str, object]]
+    listed: np.ndarray | None = None
 
     @classmethod
     def from_sets(
@@ -273,6 +287,11 @@ class ReferenceIndex:
             transition=_col(table, "transition", pl.Utf8),
             set_id=np.array(table["_set_id"].to_list(), dtype=object),
             provenance=provenance,
+            listed=(
+                table["source_id"].is_in(list(LISTED_SOURCES)).fill_null(False).to_numpy()
+                if "source_id" in table.columns and axis == "wavelength"
+                else None
+            ),
         )
 
     @property

@@ -277,7 +277,9 @@ def evaluate(
         float(special.betainc(k, n - k + 1, float(np.mean(g["p_line"][nset])))) if k else 1.0
     )
     _chance_terms(ev, nset, found)
-    missing = g["visible"] & ~g["found"] & ~g["masked"] & valid
+    # A visible group of strength unknown (a listed line, evidence.py) has no
+    # prediction to weigh its absence by.
+    missing = g["visible"] & g["known"] & ~g["found"] & ~g["masked"] & valid
     pred = g["predicted"]
     penalty = 0.0
     ev.missing_penalty_listed_dex = None
