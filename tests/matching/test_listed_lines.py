@@ -81,3 +81,20 @@ def test_a_missing_listed_line_is_not_weighed(dropped):
     # ... but its window is still counted: one hit fewer is weaker evidence
     assert less["chance_probability"] > full["chance_probability"]
     assert less["n_groups_expected"] == full["n_groups_expected"]
+
+
+def test_only_the_shipped_set_sources_are_listed():
+    import polars as pl
+
+    from workbench.matching.reference import _listed
+
+    table = pl.DataFrame(
+        {
+            "_set_id": ["optical", "optical", "lab:brass", None],
+            "source_id": ["supplement", "ges2022", "supplement", "nist_pypeit_lamps"],
+        }
+    )
+    # a lab set may call its own source "supplement": not a listed line
+    assert _listed(table, "wavelength").tolist() == [True, False, False, False]
+    assert _listed(table, "energy") is None
+    assert _listed(table.drop("source_id"), "wavelength") is None

@@ -53,6 +53,18 @@ def _col(table: pl.DataFrame, name: str, dtype: Any = pl.Float64) -> np.ndarray:
     return series.cast(pl.Float64).fill_null(np.nan).to_numpy()
 
 
+def _listed(table: pl.DataFrame, axis: str) -> np.ndarray | None:
+    """Lines of the shipped optical set from one of :data:`LISTED_SOURCES`.
+
+    Only the shipped set's sources count: a lab set may name its own
+    sources anything.
+    """
+    if axis != "wavelength" or "source_id" not in table.columns:
+        return None
+    flag = (pl.col("_set_id") == "optical") & pl.col("source_id").is_in(list(LISTED_SOURCES))
+    return table.select(flag.fill_null(False)).to_series().to_numpy()
+
+
 @dataclass
 class ReferenceIndex:
     """Reference lines of one or more sets, sorted by position.
@@ -287,11 +299,7 @@ class ReferenceIndex:
             transition=_col(table, "transition", pl.Utf8),
             set_id=np.array(table["_set_id"].to_list(), dtype=object),
             provenance=provenance,
-            listed=(
-                table["source_id"].is_in(list(LISTED_SOURCES)).fill_null(False).to_numpy()
-                if "source_id" in table.columns and axis == "wavelength"
-                else None
-            ),
+            listed=_listed(table, axis),
         )
 
     @property
