@@ -26,9 +26,9 @@ Optical merge priority (highest first)::
         > nist_pypeit_lamps > verner96 > supplement
 
 ``nist_pypeit`` (the NIST rows of PypeIt's Th-Ar list) contributes only the
-species in :data:`PYPEIT_SPECIES` (today Ar II, which no other source has);
-see :func:`parse_pypeit_thar` for why that one, why not Th II, and why it
-sits below Gaia-ESO. ``nist_pypeit_lamps`` (the NIST rows of PypeIt's Fe I,
+species in :data:`PYPEIT_SPECIES` (Ar II, which no other source has, and
+since data 2026.12.7 Th II); see :func:`parse_pypeit_thar` for why those
+and why it sits below Gaia-ESO. ``nist_pypeit_lamps`` (the NIST rows of PypeIt's Fe I,
 Fe II and Zn I lamp lists, :data:`PYPEIT_LAMP_LISTS`) fills the near UV,
 where the other sources give those species' resonance lines only (Zn I
 328.23, 330.26 and 334.50 nm, the lines of a zinc lamp or a brass plasma,
@@ -111,7 +111,7 @@ from workbench.refdata.blend import (  # noqa: E402
 from workbench.refdata.columns import conform  # noqa: E402
 from workbench.refdata.elements import SYMBOLS, atomic_number, is_element_symbol  # noqa: E402
 
-DATA_VERSION = "2026.12.6"
+DATA_VERSION = "2026.12.7"
 CACHE = ROOT / "_cache"
 #: Where the outputs go: ROOT, or a temporary folder with ``--check``.
 OUT = ROOT
@@ -143,8 +143,9 @@ PYPEIT_LAMP_LISTS: tuple[tuple[str, str, int], ...] = (
     ("pypeit/data/arc_lines/lists/ZnI_lines.dat", "Zn", 1),
 )
 #: (element, ion) taken from PypeIt's Th-Ar list: species that no other source
-#: has (the rascal NIST extract holds neutrals only). Th II: see parse_pypeit_thar.
-PYPEIT_SPECIES = (("Ar", 2),)
+#: has beyond a few hundred lines (the rascal NIST extract holds neutrals only):
+#: Ar II and Th II, see parse_pypeit_thar.
+PYPEIT_SPECIES = (("Ar", 2), ("Th", 2))
 A_CONST = 6.6702e15  # s⁻¹ Å², see module docstring
 
 #: Pinned archives: package, version, file name, kind, SHA-256, licence.
@@ -719,17 +720,21 @@ def parse_pypeit_thar(
       Th III (14 rows, all of them ``MURPHY`` only), ``UNKNWN`` and ``XX``.
 
     Which species: only those in ``species`` (default :data:`PYPEIT_SPECIES`,
-    Ar II). Th I and Ar I come from the rascal extract already (the same NIST
-    rows, there with A values and J). Ar II is in no other source, yet argon
-    discharge and hollow-cathode lamps show it (Ar II 664.37 and 686.13 nm air
-    in the NOAO Fe-Ar atlas); without it those peaks are left unexplained or
-    credited to other species. Th II (5261 NIST rows) is left out for now:
-    the set has it already (418 lines with log gf from Gaia-ESO and Morton);
-    the measured spectra of the tests hold no thorium lamp that could show
-    what the extra tabulated-only lines change; and on the lamps they do
-    hold, adding them shifted the engine's automatic source-model choice on
-    one (Goodman 1200M4 HgArNe, argon established → possible; issue 9
-    report). ``species=(("Ar", 2), ("Th", 2))`` adds it. The source ranks
+    Ar II and Th II). Th I and Ar I come from the rascal extract already (the
+    same NIST rows, there with A values and J). Ar II is in no other source,
+    yet argon discharge and hollow-cathode lamps show it (Ar II 664.37 and
+    686.13 nm air in the NOAO Fe-Ar atlas); without it those peaks are left
+    unexplained or credited to other species. Th II (5261 NIST rows) was
+    left out until data 2026.12.7: the set had 418 Th II lines with log gf
+    (Gaia-ESO, Morton), and adding the rest then shifted the engine's
+    automatic source-model choice on one lamp (Goodman 1200M4 HgArNe, argon
+    established → possible). The choice now counts only species with atomic
+    data in range (``workbench.matching.passes``), so tabulated-only rows no
+    longer move it; and a thorium-argon lamp seen in short stretches, as an
+    echelle order sees it, needs them: the real KPNO Th-Ar atlas cut at
+    305–310 nm, where 8 of the 10 thorium lines its own list identifies are
+    Th II, left thorium "not supported" without them and "established"
+    with them (``tests/realdata/test_echelle_windows.py``). The source ranks
     below ``ges2022`` because its rows carry no atomic data: should a
     species it gives also be in Gaia-ESO, the Gaia-ESO row (log gf, levels)
     is kept and the NIST relative intensity filled in from this source.

@@ -1,4 +1,4 @@
-"""Ar II from the NIST rows of PypeIt's Th-Ar list (source ``nist_pypeit``).
+"""Ar II and Th II from the NIST rows of PypeIt's Th-Ar list (source ``nist_pypeit``).
 
 The rows below are copied verbatim from ``pypeit/data/arc_lines/lists/ThAr_lines.dat``
 in the wheel pypeit-2.0.1-py3-none-any.whl (BSD-3-Clause; file lines 1-2, 7, 15,
@@ -28,7 +28,7 @@ EXCERPT = """\
 
 
 def test_parser_keeps_the_nist_rows_of_ar_ii_only():
-    rows, skipped = parse_pypeit_thar(EXCERPT)
+    rows, skipped = parse_pypeit_thar(EXCERPT, species=(("Ar", 2),))
     # Th I (rascal has it), Th II (not chosen), XX and the header are not Ar II;
     # the MURPHY-only Ar II row (NIST flag 0) is skipped and counted
     assert skipped == 1
@@ -83,9 +83,24 @@ def test_shipped_set_has_ar_ii_from_nist_pypeit(table):
 def test_nist_pypeit_adds_no_other_species(table):
     # Ar I and Th I come from the rascal NIST extract; PypeIt's copies are not read
     got = table.filter(pl.col("source_id") == "nist_pypeit")
-    assert set(zip(got["element"], got["ion"], strict=True)) == {("Ar", 2)}
-    alt = table["alt_sources"].fill_null("").str.split(";").explode()
-    assert "nist_pypeit" not in set(alt.to_list())
+    assert set(zip(got["element"], got["ion"], strict=True)) == {("Ar", 2), ("Th", 2)}
+    # where it merged into another source's row, that row is a Th II line
+    # (Gaia-ESO's, with log gf)
+    alt = table.filter(
+        table["alt_sources"].fill_null("").str.split(";").list.contains("nist_pypeit")
+    )
+    assert alt.height > 0
+    assert set(zip(alt["element"], alt["ion"], strict=True)) == {("Th", 2)}
+
+
+def test_shipped_set_has_th_ii_beside_the_atomic_data(table):
+    th2 = table.filter((pl.col("element") == "Th") & (pl.col("ion") == 2))
+    # the 418 Gaia-ESO / Morton lines with log gf stay; PypeIt's NIST rows add the rest
+    assert th2.height > 5000
+    assert {"ges2022", "nist_pypeit"} <= set(th2["source_id"])
+    # Th II 300.2139 nm vacuum, NIST intensity 1200 (EXCERPT above)
+    row = th2.filter((pl.col("wavelength_vac_nm") - 300.21396).abs() <= 1e-5)
+    assert row.height == 1 and row["rel_intensity"][0] == 1200
 
 
 def test_manifest_records_the_pypeit_archive():
