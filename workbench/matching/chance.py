@@ -78,12 +78,12 @@ def misses_tail_probability(p_miss: np.ndarray, missed: np.ndarray) -> float:
     float
         The tail probability in (0, 1].
     """
-    if not np.any(missed):
+    if not missed.any():
         return 1.0
     m = np.clip(p_miss, 1e-12, 1.0 - 1e-12)
     w = np.log((1.0 - m) / m)
     units = np.rint(np.maximum(w, 0.0) / _MISS_WEIGHT_QUANTUM).astype(np.int64)
-    observed = int(np.sum(units[missed]))
+    observed = int(units[missed].sum())
     if observed == 0:
         return 1.0
     keep = units > 0

@@ -262,10 +262,12 @@ def evaluate(
     g = ev.groups
     valid = ~g["explained"]
     found, nset = _found_and_counted(g)
-    k = int(np.sum(nset & found))
-    n = int(np.sum(nset))
-    ev.n_groups_found = int(np.sum(found))
-    ev.n_groups_matched = int(np.sum(g["found"]))
+    # count_nonzero: np.sum on booleans costs a few µs more a call, and
+    # evaluate runs some 400 times on 10,000 random peaks.
+    k = int(np.count_nonzero(nset & found))
+    n = int(np.count_nonzero(nset))
+    ev.n_groups_found = int(np.count_nonzero(found))
+    ev.n_groups_matched = int(np.count_nonzero(g["found"]))
     ev.n_groups_counted = k
     ev.n_groups_expected = n
     # Distinct peaks by a set: np.unique costs ~15 µs a call on a few dozen
@@ -283,7 +285,7 @@ def evaluate(
     pred = g["predicted"]
     penalty = 0.0
     ev.missing_penalty_listed_dex = None
-    if ev.missing_evidence and detection_limit and np.any(missing):
+    if ev.missing_evidence and detection_limit and missing.any():
         dl = g.get("dl")
         dl = dl if dl is not None else np.full(pred.size, float(detection_limit))
         sig = g["sigma"] if "sigma" in g else np.full(pred.size, sigma_dex)
@@ -315,9 +317,9 @@ def evaluate(
         np.argsort(-pred[missing & strong], kind="stable")
     ].tolist()
     ev.masked_lines = g["rep"][g["masked"]].tolist()
-    denom = float(np.sum(g["strength"][nset]))
+    denom = float(g["strength"][nset].sum())
     if denom > 0:
-        ev.found_fraction = float(np.sum(g["strength"][nset & found]) / denom)
+        ev.found_fraction = float(g["strength"][nset & found].sum() / denom)
     else:
         ev.found_fraction = 0.0
     ev.level = decide_verdict(ev)
