@@ -86,6 +86,7 @@ import tarfile
 import tempfile
 import urllib.request
 import zipfile
+from collections.abc import Iterator
 from pathlib import Path
 
 import numpy as np
@@ -694,6 +695,25 @@ def blend_rascal(rows: list[dict]) -> tuple[list[dict], int]:
 # ------------------------------------------------------------------- NIST (PypeIt Th-Ar list)
 
 
+def _pypeit_table(text: str) -> Iterator[tuple[tuple[str, int] | None, str, str, str, str]]:
+    """The data rows of a PypeIt line table: (species, wave, NIST flag, amplitude, Source).
+
+    The table is pipe-separated, ``| ion | wave | NIST | Instr | amplitude |
+    Source |``; the Th-Ar list writes the species ``Ar II``, the per-lamp
+    lists ``FeII``. Species is ``None`` where the label names none
+    (``UNKNWN``, ``XX 1``). Comment and header rows are not yielded.
+    """
+    for line in text.splitlines():
+        cells = [c.strip() for c in line.strip().strip("|").split("|")]
+        if line.startswith("#") or len(cells) != 6 or cells[1] == "wave":
+            continue
+        label, wave, nist_flag, _instr, amplitude, origin = cells
+        m = re.fullmatch(r"([A-Z][a-z]?)\s*([IVX]+)", label)
+        ok = m is not None and m.group(2) in ROMAN and is_element_symbol(m.group(1))
+        sp = (m.group(1), ROMAN[m.group(2)]) if ok else None
+        yield sp, wave, nist_flag, amplitude, origin
+
+
 def parse_pypeit_thar(
     text: str, species: tuple[tuple[str, int], ...] = PYPEIT_SPECIES
 ) -> tuple[list[dict], int]:
@@ -758,17 +778,10 @@ def parse_pypeit_thar(
     wanted = set(species)
     rows: list[dict] = []
     skipped = 0
-    for line in text.splitlines():
-        cells = [c.strip() for c in line.strip().strip("|").split("|")]
-        if line.startswith("#") or len(cells) != 6 or cells[1] == "wave":
-            continue
-        ion_label, wave, nist_flag, _instr, amplitude, origin = cells
-        parts = ion_label.split()
-        if len(parts) != 2 or parts[1] not in ROMAN or not is_element_symbol(parts[0]):
-            continue  # "UNKNWN", "XX 1": no species
-        element, ion = parts[0], ROMAN[parts[1]]
-        if (element, ion) not in wanted:
-            continue
+    for sp, wave, nist_flag, amplitude, origin in _pypeit_table(text):
+        if sp not in wanted:
+            continue  # another species, or "UNKNWN", "XX 1": no species
+        element, ion = sp
         wave_A = _float(wave)
         amp = _float(amplitude)
         if nist_flag != "1" or wave_A is None or amp is None:
@@ -829,20 +842,10 @@ def parse_pypeit_lamp_list(text: str, element: str, ion: int) -> tuple[list[dict
     """
     rows: list[dict] = []
     skipped = 0
-    for line in text.splitlines():
-        cells = [c.strip() for c in line.strip().strip("|").split("|")]
-        if line.startswith("#") or len(cells) != 6 or cells[1] == "wave":
-            continue
-        label, wave, nist_flag, _instr, amplitude, origin = cells
-        m = re.fullmatch(r"([A-Z][a-z]?)\s*([IV]+)", label)
+    for sp, wave, nist_flag, amplitude, origin in _pypeit_table(text):
         wave_A = _float(wave)
         amp = _float(amplitude)
-        if (
-            m is None
-            or (m.group(1), ROMAN.get(m.group(2))) != (element, ion)
-            or nist_flag != "1"
-            or wave_A is None
-        ):
+        if sp != (element, ion) or nist_flag != "1" or wave_A is None:
             skipped += 1
             continue
         nist_intensity = origin == "NIST" and amp is not None and amp > 0
