@@ -152,12 +152,19 @@ def _thar_atlas(path: Path) -> RealSpectrum:
         path.with_name("thar_list.txt"), comments="#", dtype=None, encoding="utf-8"
     )
     ident = np.array([float(r[0]) for r in listed]) / 10.0
-    species = sorted({str(r[1]) for r in listed})
+    labels = np.array([str(r[1]) for r in listed])
+    order = np.argsort(ident, kind="stable")
     spec = Spectrum(wav_A / 10.0, y, "wavelength", "air", _source(path), "counts")
     # The lamp: a thorium hollow cathode in argon (the list's species are Th I,
-    # Th II, Ar I and Ar II, besides a few unlabelled lines).
+    # Th II, Ar I and Ar II, besides a few unlabelled lines). ``line_species``:
+    # the list's label of each identified line, in the order of identified_nm.
     return RealSpectrum(
-        path.stem, spec, "emission", ("Ar", "Th"), np.sort(ident), {"species": species}
+        path.stem,
+        spec,
+        "emission",
+        ("Ar", "Th"),
+        ident[order],
+        {"species": sorted(set(labels.tolist())), "line_species": labels[order]},
     )
 
 

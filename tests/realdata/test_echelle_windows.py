@@ -20,7 +20,7 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from tests.realdata.loader import DATA, load
+from tests.realdata.loader import load
 from tests.realdata.run import element_classes, run_real
 from workbench.datamodel import Spectrum
 
@@ -35,14 +35,9 @@ def _atlas():
     return load("thar")
 
 
-@functools.cache
 def _identified() -> tuple[np.ndarray, np.ndarray]:
-    rows = [
-        line.split()
-        for line in (DATA / "pyreduce" / "thar_list.txt").read_text().splitlines()
-        if line.strip() and not line.startswith("#")
-    ]
-    return np.array([float(r[0]) / 10.0 for r in rows]), np.array([r[1] for r in rows])
+    atlas = _atlas()
+    return atlas.identified_nm, atlas.notes["line_species"]
 
 
 @functools.cache
