@@ -19,7 +19,12 @@ from tests.realdata.run import run_real
 from workbench.matching import MatchParameters
 from workbench.matching.engine import build_index
 from workbench.matching.observed import observed_lines
-from workbench.matching.passes import first_pass, offset_centre
+from workbench.matching.passes import (
+    POSITION_SIGMA_FLOOR_U,
+    first_pass,
+    offset_centre,
+    position_scatter,
+)
 from workbench.matching.scoring import evaluate, rescore_closeness
 from workbench.matching.sourcemodels import SOURCE_MODELS
 from workbench.refdata import load_set
@@ -93,3 +98,55 @@ def test_offset_is_zero_when_no_species_is_probable_yet():
     # Measured 4.4e-15 at stop 26 (19 counted groups); 1e-6 is a loose bound
     # below which the term is clearly counted (common practice, no source).
     assert ev.closeness_probability < 1e-6
+
+
+def _pass_with_offsets(offsets_by_level: dict[int, list[float]]):
+    """A pass whose species carry found, unique, single-line groups at these offsets."""
+    from workbench.matching.evidence import EvidencePass
+    from workbench.matching.scoring import SpeciesEvidence
+
+    evidence = {}
+    for code, (level, offs) in enumerate(offsets_by_level.items()):
+        u = np.asarray(offs, dtype=float)
+        ev = SpeciesEvidence(code=code, label=f"X{code} I", element=f"X{code}", ion=1, family=None)
+        ev.level = level
+        ev.groups = {
+            "found": np.ones(u.size, dtype=bool),
+            "unique": np.ones(u.size, dtype=bool),
+            "explained": np.zeros(u.size, dtype=bool),
+            "offset_lines": np.ones(u.size, dtype=np.int64),
+            "offset_u": u,
+        }
+        evidence[code] = ev
+    empty = np.zeros(0)
+    return EvidencePass(evidence, None, empty, empty, empty, empty, empty)  # type: ignore[arg-type]
+
+
+def test_position_scatter_is_the_median_and_normal_consistent_mad():
+    # Invented offsets: median 0.1; absolute deviations 0.2, 0.1, 0.1, 0, 0,
+    # 0.1, 0.1, 0.2, 0.3 → median 0.1, scatter 1.4826 × 0.1 (arithmetic). The
+    # "possible" species' offsets (level 1) are not used.
+    offs = [-0.1, 0.0, 0.0, 0.1, 0.1, 0.2, 0.2, 0.3, 0.4]
+    centre, sigma = position_scatter(_pass_with_offsets({2: offs, 1: [5.0] * 20}))
+    assert centre == pytest.approx(0.1)
+    assert sigma == pytest.approx(0.14826)
+
+
+def test_position_scatter_has_a_floor_and_needs_eight_groups():
+    centre, sigma = position_scatter(_pass_with_offsets({3: [0.01] * 8}))
+    assert (centre, sigma) == (pytest.approx(0.01), POSITION_SIGMA_FLOOR_U)
+    assert position_scatter(_pass_with_offsets({3: [0.01] * 7})) is None
+
+
+def test_a_claim_far_off_in_position_does_not_explain_a_line_at_the_peak():
+    # Keck LRIS arc (pypeit 2.0.1, held-out): the peak at 577.09 nm is Hg I
+    # 577.12 nm (vacuum; the arc's own identification, yfit 5771.21 Å); the
+    # nearest Ne I line, 577.19 nm, lies over four times the arc's position
+    # scatter away. Hg I's group there is counted, not explained by Ne I.
+    rs = load("lrisr_400_8500_PYPIT")
+    res = run_real(rs, MatchParameters(mode=rs.mode)).result
+    hg = next(v for v in res.evidence.evidence.values() if v.label == "Hg I")
+    g = hg.groups
+    i = int(np.argmin(np.abs(g["position"] - 577.121)))
+    assert abs(g["position"][i] - 577.121) < 1e-3
+    assert g["found"][i] and not g["explained"][i]

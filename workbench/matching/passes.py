@@ -26,7 +26,7 @@ from workbench.matching.sourcemodels import (
     model_strengths,
 )
 
-__all__ = ["choose_model", "first_pass", "second_pass"]
+__all__ = ["choose_model", "first_pass", "position_scatter", "second_pass"]
 
 
 def _plausible(ev_pass: EvidencePass) -> set[int]:
@@ -140,8 +140,10 @@ def second_pass(
         second = gather_evidence(obs, index, strengths, in_range, response=resp_lines, **kw)
     elif second is None:
         second = gather_evidence(obs, index, strengths, in_range, **kw)
+    position = None
     if index.axis == "wavelength":
         apply_offset_centre(second)
+        position = position_scatter(second)
     explain_jointly(
         second,
         obs,
@@ -149,6 +151,7 @@ def second_pass(
         sigma_dex=sigma,
         strong_fraction=params.strong_fraction,
         family_ratio=_family_ratio_for(params) if _is_xray(index, model) else None,
+        position=position,
     )
     if index.axis == "wavelength":
         pool_ion_stages(second)
@@ -159,6 +162,19 @@ def second_pass(
 #: better) needed to measure the spectrum's common offset; below it the
 #: offset is taken as 0, the scale as given (common practice, no source).
 MIN_CENTRE_GROUPS: int = 8
+
+
+def _centre_offsets(ev_pass: EvidencePass) -> np.ndarray:
+    """Offsets (half-windows) of the found, unique, single-line groups of well-called species."""
+    u = []
+    for ev in ev_pass.evidence.values():
+        if ev.level < 2 or ev.xray:
+            continue
+        g = ev.groups
+        m = g["found"] & g["unique"] & ~g["explained"] & (g["offset_lines"] == 1)
+        u.append(g["offset_u"][m])
+    a = np.concatenate(u) if u else np.zeros(0)
+    return a[np.isfinite(a)]
 
 
 def offset_centre(ev_pass: EvidencePass) -> float:
@@ -180,18 +196,36 @@ def offset_centre(ev_pass: EvidencePass) -> float:
     R 700 (Goodman 1200M4 Ne, degraded) had Ne I "possible" with 19 of 34
     groups found, every peak within a tenth of a half-window of its line.
     """
-    u = []
-    for ev in ev_pass.evidence.values():
-        if ev.level < 2 or ev.xray:
-            continue
-        g = ev.groups
-        m = g["found"] & g["unique"] & ~g["explained"] & (g["offset_lines"] == 1)
-        u.append(g["offset_u"][m])
-    a = np.concatenate(u) if u else np.zeros(0)
-    a = a[np.isfinite(a)]
+    a = _centre_offsets(ev_pass)
     if a.size < MIN_CENTRE_GROUPS:
         return 0.0
     return float(np.median(a))
+
+
+#: Least position scatter (half-windows) the joint explanation assumes: a
+#: peak's centre is measured to about FWHM / (2.35 · SNR), 0.04 half-window at
+#: SNR 20 under the ``auto`` window of half a FWHM, and reference
+#: wavelengths carry their own errors (common practice, no source).
+POSITION_SIGMA_FLOOR_U: float = 0.05
+
+
+def position_scatter(ev_pass: EvidencePass) -> tuple[float, float] | None:
+    """The spectrum's common offset and its line-to-line scatter (half-windows).
+
+    Measured on the same groups as :func:`offset_centre` (the found, unique,
+    single-line groups of species called "probable" or better): the median
+    and 1.4826 × the median absolute deviation (the normal-consistent
+    scatter), the latter at least :data:`POSITION_SIGMA_FLOOR_U`. ``None``
+    with fewer than :data:`MIN_CENTRE_GROUPS` such groups: the scatter is
+    then not known and the joint explanation weighs amplitudes alone
+    (:mod:`workbench.matching.joint`).
+    """
+    a = _centre_offsets(ev_pass)
+    if a.size < MIN_CENTRE_GROUPS:
+        return None
+    centre = float(np.median(a))
+    sigma = 1.4826 * float(np.median(np.abs(a - centre)))
+    return centre, max(sigma, POSITION_SIGMA_FLOOR_U)
 
 
 def apply_offset_centre(ev_pass: EvidencePass) -> None:
