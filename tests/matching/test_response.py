@@ -149,3 +149,21 @@ def test_missing_lines_as_upper_limits_remove_the_selection_bias(seed):
     assert fit.n_upper_limits == int(np.sum(~ev.groups["found"]))
     assert err[True] < 0.15  # dex; a loose bound at 0.3 dex line scatter
     assert err[False] > err[True] + 0.1
+
+
+def test_the_report_notes_a_response_that_moves_predictions_by_a_factor_two():
+    from workbench.matching.report import RESPONSE_NOTE_DEX, response_note
+    from workbench.matching.response import ResponseFit
+
+    x = np.linspace(LO, HI, 50)
+    # Invented curves: log10 R = a·u over u ∈ [−1, 1]: a range of 2a decades.
+    steep = ResponseFit(1, (0.5,), 600.0, 200.0, 40, ("A I", "B I"), 12)
+    (note,) = response_note(steep, x, "nm")
+    assert note["kind"] == "instrument_response"
+    assert note["elements"] == ["A I", "B I"]
+    # 1 decade across the span: 0.1× of the highest, lowest at the blue end.
+    assert "0.1× of its highest at 400.0 nm" in note["message"]
+    assert "12 missing lines as upper limits" in note["message"]
+    gentle = ResponseFit(1, (0.5 * RESPONSE_NOTE_DEX - 0.01,), 600.0, 200.0, 40, ("A I",))
+    assert response_note(gentle, x, "nm") == []
+    assert response_note(ResponseFit(), x, "nm") == []

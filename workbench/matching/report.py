@@ -33,7 +33,15 @@ from workbench.matching.scoring import VERDICTS
 if TYPE_CHECKING:
     from workbench.matching.engine import MatchResult
 
-__all__ = ["SCHEMA_VERSION", "build_report", "canonical", "result_json", "summary_text"]
+__all__ = [
+    "RESPONSE_NOTE_DEX",
+    "SCHEMA_VERSION",
+    "build_report",
+    "canonical",
+    "response_note",
+    "result_json",
+    "summary_text",
+]
 
 SCHEMA_VERSION = 2
 _MAX_CANDIDATES = 8
@@ -212,6 +220,7 @@ def build_report(result: MatchResult) -> dict[str, Any]:
     warnings.extend(_other_warnings(result, u))
     warnings.extend(_prior_data_tests(ev_pass))
     warnings.extend(_contrast_notes(ev_pass))
+    warnings.extend(response_note(result.response, result.observed.position, u))
     xray = dict(result.xray) if result.xray else None
     if xray is not None:  # X-ray physics (workbench.xray): artefacts, instrument, exclusions
         warnings.extend(xray.pop("warnings", []))
@@ -348,6 +357,46 @@ def _contrast_notes(ev_pass: Any) -> list[dict[str, object]]:
             }
         )
     return out
+
+
+#: A fitted response is reported when it changes predictions by at least
+#: this many decades (a factor of 2) somewhere in the spectrum (common
+#: practice, no source).
+RESPONSE_NOTE_DEX: float = 0.3
+
+
+def response_note(response: Any, position: np.ndarray, unit: str) -> list[dict[str, object]]:
+    """A note when the shared instrument response moved predictions by a factor ≥ 2.
+
+    Every prediction was multiplied by the fitted response
+    (:mod:`workbench.matching.response`); where it falls steeply (a
+    dichroic, an order-blocking filter, a detector's red end) missing lines
+    there were excused by it. The note names the measuring species, the
+    found lines and upper limits that fixed it, and its range over the
+    observed span, relative to its highest value.
+    """
+    if not response.degree or position.size == 0:
+        return []
+    x = np.linspace(float(np.min(position)), float(np.max(position)), 201)
+    log_r = response.log10_at(x)
+    drop = float(log_r.max() - log_r.min())
+    if drop < RESPONSE_NOTE_DEX:
+        return []
+    lo = float(x[int(np.argmin(log_r))])
+    limits = getattr(response, "n_upper_limits", 0)
+    return [
+        {
+            "kind": "instrument_response",
+            "message": f"predicted intensities include an instrument response fitted on "
+            f"{', '.join(response.species)} ({response.n_points} found lines"
+            + (f", {limits} missing lines as upper limits" if limits else "")
+            + f"): its sensitivity falls to {10.0**-drop:.2g}× of its highest at "
+            f"{lo:.1f} {unit}, so lines there are predicted that much weaker and their absence "
+            f"weighs less",
+            "elements": list(response.species),
+            "lines": [],
+        }
+    ]
 
 
 def _other_warnings(result: MatchResult, u: str) -> list[dict[str, object]]:
