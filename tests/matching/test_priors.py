@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 
 from workbench.errors import ValueRangeError
+from workbench.matching.prior_test import PRIOR_DATA_P, prior_capped
 from workbench.matching.priors import ABUNDANCE_PRIORS, prior_dex
-from workbench.matching.scoring import PRIOR_DATA_P, prior_capped
 
 
 def test_none_is_neutral():

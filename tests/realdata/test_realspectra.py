@@ -270,7 +270,7 @@ def test_astm_solar_prior_makes_no_call_on_its_own():
     # at 16.6 eV and above; NIST ASD Ne I levels, from memory).
     # The data test of a prior-favoured absorber is the binomial chance test
     # with the usable dip density, combined with the closeness of its dips to
-    # its forward-modelled features (scoring.absorption_prior_test).
+    # its forward-modelled features (prior_test.absorption_prior_test).
     _, outcome = _run("ASTMG173", "solar")
     high = {e["species"]: e for e in outcome.report["elements"] if e["verdict_level"] >= 2}
     assert "Ne I" not in high
@@ -284,7 +284,7 @@ def test_astm_solar_prior_makes_no_call_on_its_own():
 def test_astm_prior_data_test_is_in_the_result():
     # What carried a prior-tipped absorption call is written in the result: one
     # prior_data_test note per species at "probable" or above, naming the data
-    # test's p (the engine's own figure, scoring.absorption_prior_test) beside
+    # test's p (the engine's own figure, prior_test.absorption_prior_test) beside
     # the plain chance probability of its species row. None without a prior.
     _, outcome = _run("ASTMG173", "solar")
     notes = [w for w in outcome.report["warnings"] if w["kind"] == "prior_data_test"]

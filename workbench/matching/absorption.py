@@ -14,10 +14,10 @@ source model's curve-of-growth strengths, i.e. the predicted equivalent
 widths). That is the group's forward-modelled position.
 
 An abundance prior may tip a call but not make one
-(:func:`workbench.matching.scoring.prior_capped`): a species it favours
+(:func:`workbench.matching.prior_test.prior_capped`): a species it favours
 needs its data alone to pass one pre-specified test at p ≤ 0.05. For an
 absorption spectrum that test
-(:func:`workbench.matching.scoring.absorption_prior_test`) is the binomial
+(:func:`workbench.matching.prior_test.absorption_prior_test`) is the binomial
 chance test of the evidence with two changes, both exact under chance:
 
 * **Closeness to the blend's dip.** Fisher-combined with the binomial tail,

@@ -464,7 +464,7 @@ def gather_evidence(
         p_line_all = np.minimum(1.0, rho_all * (2.0 * g_tol + g_span))
     prior_test: dict[str, np.ndarray] | None = None
     if absorption and not xray:
-        # The data test of a prior-favoured absorber (scoring.prior_capped):
+        # The data test of a prior-favoured absorber (prior_test.prior_capped):
         # usable chance density, closeness from each blend's dip.
         rho_u = usable_density(density, obs.excluded, obs.half_window, span)
         first_i = np.flatnonzero(np.diff(gid, prepend=-1) != 0)

@@ -40,7 +40,7 @@ one counted group (found, visible, not explained by a better species):
   evidence with the stages' counted groups and unique peaks added up; each
   stage that has a counted group of its own and whose own coincidences are
   significant as one pre-specified test (chance probability p ≤
-  :data:`~workbench.matching.scoring.PRIOR_DATA_P`, 0.05: the element shown
+  :data:`~workbench.matching.prior_test.PRIOR_DATA_P`, 0.05: the element shown
   present names the stage in advance, as an abundance prior does) is raised
   to the pooled class if that is higher (never lowered). A stage without a
   counted group of its own is not raised: it is not seen. Nor is a stage
@@ -72,13 +72,8 @@ from collections import defaultdict
 
 from workbench.matching.chance import sidak_corrected, simes_combined
 from workbench.matching.evidence import EvidencePass
-from workbench.matching.scoring import (
-    PRIOR_DATA_P,
-    SpeciesEvidence,
-    class_level,
-    prior_capped,
-    score_for,
-)
+from workbench.matching.prior_test import PRIOR_DATA_P, prior_capped
+from workbench.matching.scoring import SpeciesEvidence, class_level, score_for
 
 __all__ = ["pool_ion_stages"]
 

@@ -15,7 +15,7 @@ or break one on its own (a species still needs its lines). Since +2 dex
 alone exceeds the "probable" threshold (1.5), a positive prior lifts an
 optical species above "possible" only when its data alone are significant
 as one pre-specified test, chance probability p ≤ 0.05
-(:func:`workbench.matching.scoring.prior_capped`): under ``solar`` the ASTM
+(:func:`workbench.matching.prior_test.prior_capped`): under ``solar`` the ASTM
 G173 sunlight otherwise gave Si I, Cr I, Ni I and Ne I "probable" at
 p = 0.35–0.89. Elements missing
 from the table get the lower limit. The report records which prior was

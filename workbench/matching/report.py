@@ -305,7 +305,7 @@ def _prior_data_tests(ev_pass: Any) -> list[dict[str, object]]:
 
     Under ``absorption`` with an abundance prior, a prior-named species may
     reach "probable" when its data alone pass p ≤ 0.05 on the forward-modelled
-    blend positions (``scoring.absorption_prior_test``), a different figure
+    blend positions (``prior_test.absorption_prior_test``), a different figure
     from the plain ``chance_probability`` of its species row; the note names
     both, so a reviewer can see what carried the call.
     """
