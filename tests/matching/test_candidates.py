@@ -27,7 +27,7 @@ def test_no_candidates():
 
 
 def test_range_max_matches_loop():
-    from workbench.matching.evidence import _range_max
+    from workbench.peaks.extrema import range_max
 
     rng = np.random.default_rng(7)
     a = rng.normal(size=50)
@@ -35,6 +35,6 @@ def test_range_max_matches_loop():
     padded = np.append(a, -np.inf)
     lo = rng.integers(0, 50, 200)
     hi = np.minimum(lo + rng.integers(0, 6, 200), 50)
-    got = _range_max(padded, lo, hi)
+    got = range_max(padded, lo, hi)
     want = np.array([a[i:j].max() if j > i else -np.inf for i, j in zip(lo, hi, strict=True)])
     np.testing.assert_array_equal(got, want)

@@ -87,7 +87,7 @@ import numpy as np
 from scipy import special
 
 from workbench.matching.chance import CLOSENESS_FLOOR, fisher_combined
-from workbench.peaks.extrema import local_maxima
+from workbench.peaks.extrema import local_maxima, range_max
 
 __all__ = [
     "blend_closeness_terms",
@@ -206,14 +206,6 @@ def blend_closeness_terms(
     unit = np.where(ok, group_tolerance / safe, nan)
     rho_tol = np.where(found, density * group_tolerance, nan)
     return {"blend_u": u, "blend_ref_u": ref, "blend_unit": unit, "blend_rho_tol": rho_tol}
-
-
-def _range_max(padded: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """Maximum of ``padded[lo:hi]`` per window (−inf where empty); ``padded`` ends in −inf."""
-    if lo.size == 0:
-        return np.empty(0)
-    out = np.maximum.reduceat(padded, np.column_stack([lo, hi]).ravel())[::2]
-    return np.where(hi > lo, out, -np.inf)
 
 
 def instrument_fwhm(resolution: np.ndarray, usable: np.ndarray) -> float:
@@ -469,7 +461,7 @@ def species_features(
         hi_a = np.searchsorted(x, pos - tol, side="left")
         lo_b = np.searchsorted(x, pos + tol, side="right")
         hi_b = np.searchsorted(x, pos + 3.0 * tol, side="right")
-        side = np.maximum(_range_max(padded, lo_a, hi_a), _range_max(padded, lo_b, hi_b))
+        side = np.maximum(range_max(padded, lo_a, hi_a), range_max(padded, lo_b, hi_b))
         near = visible & (side >= predicted)
     counted = visible & ~near
     # One dip counts once: the feature with the larger prediction keeps it.

@@ -93,6 +93,7 @@ from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import LOSS_PROBABILITY, SpeciesEvidence, evaluate
 from workbench.matching.species_scale import species_scales
 from workbench.matching.xray_evidence import group_blend_maxima, xray_terms
+from workbench.peaks.extrema import range_max
 
 __all__ = [
     "EvidencePass",
@@ -150,18 +151,6 @@ class EvidencePass:
     span: float = 0.0
     sorted_intensity: np.ndarray | None = None
     xray_overlaps: list = field(default_factory=list)  # workbench.matching.xray_overlap
-
-
-def _range_max(padded: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
-    """Maximum of ``padded[lo:hi]`` per window (−inf for empty windows), vectorised.
-
-    ``padded`` ends with a −inf sentinel so that ``hi`` may equal the data length.
-    """
-    if lo.size == 0:
-        return np.empty(0)
-    idx = np.column_stack([lo, hi]).ravel()
-    out = np.maximum.reduceat(padded, idx)[::2]
-    return np.where(hi > lo, out, -np.inf)
 
 
 def local_density(obs: ObservedLines, x: np.ndarray) -> np.ndarray:
@@ -386,7 +375,7 @@ def gather_evidence(
             w = 3.0 * g_tol[cand]
             lo_i = np.searchsorted(obs.position, xc - w, side="left")
             hi_i = np.searchsorted(obs.position, xc + w, side="right")
-            masked_all[cand] = _range_max(intensity_padded, lo_i, hi_i) >= predicted_all[cand]
+            masked_all[cand] = range_max(intensity_padded, lo_i, hi_i) >= predicted_all[cand]
     else:
         # Optical: crowded = a peak at least as strong as the prediction
         # within three half-windows but outside the group's own window,
@@ -406,7 +395,7 @@ def gather_evidence(
             lo_b = np.searchsorted(obs.position, xc + t + half, side="right")
             hi_b = np.searchsorted(obs.position, xc + w, side="right")
             side = np.maximum(
-                _range_max(intensity_padded, lo_a, hi_a), _range_max(intensity_padded, lo_b, hi_b)
+                range_max(intensity_padded, lo_a, hi_a), range_max(intensity_padded, lo_b, hi_b)
             )
             near = np.zeros(n_groups, dtype=bool)
             near[cand] = side >= predicted_all[cand]

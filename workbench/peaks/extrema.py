@@ -32,6 +32,7 @@ __all__ = [
     "local_maxima",
     "local_maxima_at_least",
     "peak_prominences",
+    "range_max",
     "select_peaks",
 ]
 
@@ -259,3 +260,26 @@ def half_height_crossings(
     left = _crossing(x, peaks, peaks - np.asarray(left_bases), -1, level)
     right = _crossing(x, peaks, np.asarray(right_bases) - peaks, +1, level)
     return left, right
+
+
+def range_max(padded: np.ndarray, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Maximum of ``padded[lo:hi]`` per window (−inf for empty windows), vectorised.
+
+    Parameters
+    ----------
+    padded : numpy.ndarray
+        The values, ending with a −inf sentinel so that ``hi`` may equal the
+        data length.
+    lo, hi : numpy.ndarray of int
+        Window bounds (``hi`` exclusive).
+
+    Returns
+    -------
+    numpy.ndarray
+        One maximum per window.
+    """
+    if lo.size == 0:
+        return np.empty(0)
+    idx = np.column_stack([lo, hi]).ravel()
+    out = np.maximum.reduceat(padded, idx)[::2]
+    return np.where(hi > lo, out, -np.inf)
