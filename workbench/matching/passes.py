@@ -131,12 +131,7 @@ def second_pass(
         # groups), then the pass is repeated with it. A re-run at a new
         # temperature reuses the response already fitted.
         response = (
-            fit_response(
-                obs,
-                second,
-                equal_species=model != "absorption",
-                censored=model != "absorption",
-            )
+            fit_response(obs, second, equal_species=model != "absorption")
             if index.axis == "wavelength"
             else ResponseFit()
         )

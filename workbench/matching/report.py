@@ -372,7 +372,7 @@ def response_note(response: Any, position: np.ndarray, unit: str) -> list[dict[s
     (:mod:`workbench.matching.response`); where it falls steeply (a
     dichroic, an order-blocking filter, a detector's red end) missing lines
     there were excused by it. The note names the measuring species, the
-    found lines and upper limits that fixed it, and its range over the
+    number of found lines that fixed it, and where it is lowest over the
     observed span, relative to its highest value.
     """
     if not response.degree or position.size == 0:
@@ -383,16 +383,13 @@ def response_note(response: Any, position: np.ndarray, unit: str) -> list[dict[s
     if drop < RESPONSE_NOTE_DEX:
         return []
     lo = float(x[int(np.argmin(log_r))])
-    limits = getattr(response, "n_upper_limits", 0)
     return [
         {
             "kind": "instrument_response",
             "message": f"predicted intensities include an instrument response fitted on "
-            f"{', '.join(response.species)} ({response.n_points} found lines"
-            + (f", {limits} missing lines as upper limits" if limits else "")
-            + f"): its sensitivity falls to {10.0**-drop:.2g}× of its highest at "
-            f"{lo:.1f} {unit}, so lines there are predicted that much weaker and their absence "
-            f"weighs less",
+            f"{', '.join(response.species)} ({response.n_points} found lines): its "
+            f"sensitivity falls to {10.0**-drop:.2g}× of its highest at {lo:.1f} {unit}, "
+            f"so lines there are predicted that much weaker and their absence weighs less",
             "elements": list(response.species),
             "lines": [],
         }

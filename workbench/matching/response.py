@@ -15,31 +15,6 @@ beyond 3 robust standard deviations. P is clipped to [−2, +1] decades so
 that a few points cannot invent a huge correction. The report gives the
 degree, the coefficients and the number of points.
 
-Missing lines are upper limits (a censored, Tobit fit). A group of a
-measuring species with no peak in its window was below the detection limit
-there, log10(DL / (scale_s · S_g)) > c_s + P(u) + ε. Fitted on found lines
-alone, the curve is biased up wherever the response is low: there only the
-lines drawn above their prediction are seen. In the Keck LRIS red arc
-(pypeit 2.0.1, held-out) the spectrograph's dichroic cuts the blue end:
-Ne I 556–583 nm, predicted at 5,000–8,800 counts, are missing, yet the
-curve fitted on the Ne I lines still found rose to +0.81 decades there,
-which made Kr I 557/587 nm "missing" at that height; with the limits it
-falls to −0.63. After the least-squares fit (which also picks the points
-kept), the curve is refitted by maximum likelihood: Gaussian residuals for
-the found points and log Φ((y_DL − μ)/σ) for the missing groups (known
-strength, not masked, with a detection limit), one σ for both fitted with
-the curve (the standard Tobit model; with the source model's σ instead,
-0.3–0.8 dex against a few hundredths of scatter in the invented mixtures,
-the limits outweighed the found lines there and bent the curve 0.5 dex
-below the true one at 589 nm), species weighted as below. On invented lines
-following a known curve (``tests/matching/test_response.py``) the limits
-take the fitted drop towards the low end from −1.26 to −1.40 decades
-(true −1.5; the rest is sampling). The report gives the number of
-limits used (``n_upper_limits``). Emission only: in absorption the
-response cancels in a dip's depth relative to the continuum, and on the
-invented absorption mixtures with the solar prior the limits added a false
-"probable" (5 → 6) and lost a true one (224 → 223 of 268).
-
 In emission every species weighs the same in the fit, however many points
 it brings (each point 1/n of its species' n; ``equal_species``). Lamp and
 plasma lines depart from their tabulated ratios species by species (a
@@ -79,7 +54,6 @@ class ResponseFit:
     half_span: float = 1.0
     n_points: int = 0
     species: tuple[str, ...] = field(default_factory=tuple)
-    n_upper_limits: int = 0
 
     def log10_at(self, x: np.ndarray) -> np.ndarray:
         """log10 R at positions ``x`` (0 where flat)."""
@@ -98,7 +72,6 @@ class ResponseFit:
             "half_span": self.half_span,
             "n_points": self.n_points,
             "species": list(self.species),
-            "n_upper_limits": self.n_upper_limits,
         }
 
 
@@ -108,7 +81,6 @@ def fit_response(
     min_level: int = 2,
     *,
     equal_species: bool = False,
-    censored: bool = True,
 ) -> ResponseFit:
     """Fit the shared response curve from the well-identified species of one pass.
 
@@ -131,7 +103,6 @@ def fit_response(
         The curve (flat when too few points).
     """
     xs, ys, ss, names = [], [], [], []
-    cxs, cys, css = [], [], []
     for ev in sorted(ev_pass.evidence.values(), key=lambda v: v.label):
         if ev.level < min_level or ev.scale is None or not ev.missing_evidence:
             continue
@@ -152,21 +123,6 @@ def fit_response(
         xs.append(g["position"][m])
         ys.append(np.log10(inten[m] / (ev.scale * g["strength"][m])))
         ss.append(np.full(int(np.sum(m)), len(names)))
-        if censored and g.get("dl") is not None:
-            # Groups with no peak in their window: below the detection limit
-            # there, an upper bound on the response (module docstring).
-            c = (
-                ~g["found"]
-                & g["known"]
-                & (g["strength"] > 0)
-                & ~g["masked"]
-                & np.isfinite(g["dl"])
-                & (g["dl"] > 0)
-            )
-            if np.any(c):
-                cxs.append(g["position"][c])
-                cys.append(np.log10(g["dl"][c] / (ev.scale * g["strength"][c])))
-                css.append(np.full(int(np.sum(c)), len(names)))
         names.append(ev.label)
     if not xs:
         return ResponseFit()
@@ -200,111 +156,6 @@ def fit_response(
         if np.array_equal(new_keep, keep) or np.sum(new_keep) < 6:
             break
         keep = new_keep
-    n_censored = 0
-    if cxs:
-        xc = np.concatenate(cxs)
-        coef, n_censored = _censored_refit(
-            (u[keep], y[keep], s[keep]),
-            ((xc - mid) / half, np.concatenate(cys), np.concatenate(css)),
-            sol[: len(names)],
-            coef,
-            max(mad, 0.05),
-            len(names),
-            equal_species,
-        )
     return ResponseFit(
-        degree,
-        tuple(float(c) for c in coef),
-        mid,
-        half,
-        int(np.sum(keep)),
-        tuple(names),
-        n_censored,
+        degree, tuple(float(c) for c in coef), mid, half, int(np.sum(keep)), tuple(names)
     )
-
-
-def _censored_refit(
-    found: tuple[np.ndarray, np.ndarray, np.ndarray],
-    censored: tuple[np.ndarray, np.ndarray, np.ndarray],
-    c0: np.ndarray,
-    a0: np.ndarray,
-    sigma0: float,
-    n_species: int,
-    equal_species: bool,
-) -> tuple[np.ndarray, int]:
-    """Maximum-likelihood curve with the missing groups as upper limits (Tobit).
-
-    Found points: Gaussian residuals; missing groups: log Φ((y_DL − μ)/σ);
-    one σ for both, fitted with the curve (bounded to [0.05, 3] decades).
-    Species weights as in the least-squares fit. Newton's method in Olsen's
-    parameters (γ = β/σ, h = 1/σ), in which the log-likelihood is concave
-    (Olsen 1978, Econometrica 46, 1211; from memory), so the iteration from
-    the least-squares start climbs to the one maximum; numpy only, since
-    importing ``scipy.optimize`` alone costs a command about 0.17 s
-    (measured here). Returns the polynomial coefficients and the number of
-    upper limits used.
-    """
-    from scipy import special
-
-    u_f, y_f, s_f = found
-    u_c, y_c, s_c = censored
-    degree = a0.size
-    if equal_species:
-        counts = np.bincount(s_f, minlength=n_species) + np.bincount(s_c, minlength=n_species)
-        w_f, w_c = 1.0 / counts[s_f], 1.0 / counts[s_c]
-    else:
-        w_f, w_c = np.ones(u_f.size), np.ones(u_c.size)
-
-    def design(u: np.ndarray, sp: np.ndarray) -> np.ndarray:
-        x = np.zeros((u.size, n_species + degree))
-        x[np.arange(u.size), sp] = 1.0
-        for i in range(degree):
-            x[:, n_species + i] = u ** (i + 1)
-        return x
-
-    xf, xc = design(u_f, s_f), design(u_c, s_c)
-    h_lo, h_hi = 1.0 / 3.0, 1.0 / 0.05
-
-    def loglik(gamma: np.ndarray, h: float) -> float:
-        r = h * y_f - xf @ gamma
-        z = h * y_c - xc @ gamma
-        return float(np.sum(w_f * (np.log(h) - 0.5 * r**2)) + np.sum(w_c * special.log_ndtr(z)))
-
-    h = 1.0 / float(np.clip(sigma0, 0.05, 3.0))
-    gamma = np.concatenate([c0, a0]) * h
-    ll = loglik(gamma, h)
-    start_ll = ll
-    for _ in range(50):
-        r = h * y_f - xf @ gamma
-        z = h * y_c - xc @ gamma
-        lam = np.exp(-0.5 * z**2 - 0.5 * np.log(2.0 * np.pi) - special.log_ndtr(z))  # φ/Φ
-        # Gradient and Hessian in (γ, h): found terms log h − r²/2, limits log Φ(z).
-        g_gamma = xf.T @ (w_f * r) - xc.T @ (w_c * lam)
-        g_h = float(np.sum(w_f * (1.0 / h - r * y_f)) + np.sum(w_c * lam * y_c))
-        d = w_c * lam * (z + lam)  # −d²/dz² log Φ
-        hgg = -(xf.T * w_f) @ xf - (xc.T * d) @ xc
-        hgh = xf.T @ (w_f * y_f) + xc.T @ (d * y_c)
-        hhh = -float(np.sum(w_f * (1.0 / h**2 + y_f**2)) + np.sum(d * y_c**2))
-        hess = np.block([[hgg, hgh[:, None]], [hgh[None, :], np.array([[hhh]])]])
-        grad = np.concatenate([g_gamma, [g_h]])
-        try:
-            step = np.linalg.solve(hess, -grad)
-        except np.linalg.LinAlgError:
-            break
-        t = 1.0
-        while t > 1e-4:
-            g_new = gamma + t * step[:-1]
-            h_new = float(np.clip(h + t * step[-1], h_lo, h_hi))
-            ll_new = loglik(g_new, h_new)
-            if ll_new >= ll:
-                break
-            t *= 0.5
-        else:
-            break
-        done = ll_new - ll < 1e-10 * max(1.0, abs(ll))
-        gamma, h, ll = g_new, h_new, ll_new
-        if done:
-            break
-    if not np.isfinite(ll) or ll < start_ll:
-        return a0, 0
-    return gamma[n_species:] / h, int(u_c.size)
