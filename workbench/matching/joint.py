@@ -219,9 +219,8 @@ def explain_jointly(
                 # Emission: a weaker claim explains the peak too when it
                 # accounts for it within 2σ of the better species' own model
                 # and is the closer account of the two, in σ (module docstring).
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    z_claim = np.abs(np.log10(obs_h / claim_pred[pk])) / claim_sig[pk]
-                    z_own = np.abs(np.log10(obs_h / own_pred)) / g["sigma"]
+                z_claim = _account_z(obs_h, claim_pred[pk], claim_sig[pk])
+                z_own = _account_z(obs_h, own_pred, g["sigma"])
                 closer = z_claim <= np.nan_to_num(z_own, nan=np.inf)
                 enough |= with_int[pk] & (z_claim <= 2.0) & closer
             # A peak both species predict at a comparable height is a blend and
@@ -239,9 +238,8 @@ def explain_jointly(
                 # claim must also be the closer account of the peak in
                 # amplitude and position together (module docstring).
                 centre_u, sigma_u = position
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    zc = np.abs(np.log10(obs_h / claim_pred[pk])) / claim_sig[pk]
-                    zo = np.abs(np.log10(obs_h / own_pred)) / g["sigma"]
+                zc = _account_z(obs_h, claim_pred[pk], claim_sig[pk])
+                zo = _account_z(obs_h, own_pred, g["sigma"])
                 use_int = with_int[pk] & ev.missing_evidence
                 zc = np.where(use_int & np.isfinite(zc), zc, 0.0)
                 zo = np.where(use_int & np.isfinite(zo), zo, 0.0)
@@ -285,6 +283,16 @@ def explain_jointly(
             claim_sig[p[better]] = g["sigma"][own][better]
             claim_el[p[better]] = el
             claim_off[p[better]] = np.nan_to_num(g["offset_u"][own][better], nan=0.0)
+
+
+def _account_z(observed: np.ndarray, predicted: np.ndarray, sigma: np.ndarray) -> np.ndarray:
+    """How far a prediction is from the observed heights, in its model's σ (decades).
+
+    |log10(observed / predicted)| / σ; inf or NaN where a height or a
+    prediction is zero (the callers decide what that means).
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.abs(np.log10(observed / predicted)) / sigma
 
 
 def independent_scale_factor(

@@ -212,10 +212,12 @@ POSITION_SIGMA_FLOOR_U: float = 0.05
 def position_scatter(ev_pass: EvidencePass) -> tuple[float, float] | None:
     """The spectrum's common offset and its line-to-line scatter (half-windows).
 
-    Measured on the same groups as :func:`offset_centre` (the found, unique,
-    single-line groups of species called "probable" or better): the median
-    and 1.4826 × the median absolute deviation (the normal-consistent
-    scatter), the latter at least :data:`POSITION_SIGMA_FLOOR_U`. ``None``
+    Measured on the groups :func:`offset_centre` uses (the found, unique,
+    single-line groups of species called "probable" or better), taken after
+    the closeness re-scoring (:func:`apply_offset_centre`), so species that
+    the closeness term lifted to "probable" add their groups; the median and
+    1.4826 × the median absolute deviation (the normal-consistent scatter),
+    the latter at least :data:`POSITION_SIGMA_FLOOR_U`. ``None``
     with fewer than :data:`MIN_CENTRE_GROUPS` such groups: the scatter is
     then not known and the joint explanation weighs amplitudes alone
     (:mod:`workbench.matching.joint`).
