@@ -273,3 +273,32 @@ def test_tolerance_per_peak_and_excluded_peaks(invented_set):
     first = rep["lines"][0]
     assert first["label"] == "artefact (test)" and first["n_candidates"] == 0
     assert rep["lines"][1]["tolerance_nm"] == pytest.approx(0.02)
+
+
+def test_line_inside_an_excluded_peak_is_masked_not_missing(invented_set):
+    # A peak set aside is never matched; a line whose window holds it, at least
+    # as strong as the line's prediction, may hide in it: it must not count as
+    # missing (it would if the peak were simply absent). Data invented.
+    pos, e = _lines_of(invented_set, "Qa I")
+    inner = (pos > pos.min()) & (pos < pos.max())  # inside the observed range
+    strongest = int(np.argmax(np.where(inner, e, -1.0)))
+    # Noise 1 per peak (snr = height): a detection limit of 3, so a missing
+    # line predicted at 1000 counts against the species.
+    peaks = peaks_from(pos + 0.001, 1000 * e, snr=1000 * e)
+    keep = np.arange(pos.size) != strongest
+    absent = match_peaks(
+        peaks_from(pos[keep] + 0.001, 1000 * e[keep], snr=1000 * e[keep]), [invented_set], _params()
+    )
+    row_of = int(np.argsort(np.argsort(pos))[strongest])  # peaks_from sorts by position
+    set_aside = match_peaks(peaks, [invented_set], _params(), excluded_peaks=[row_of])
+
+    def missing_nm(result):
+        row = _by_species(result.report())["Qa I"]
+        return [m["reference_nm"] for m in row["missing_lines"]], row
+
+    gone, row_absent = missing_nm(absent)
+    hidden, row_hidden = missing_nm(set_aside)
+    assert any(abs(w - pos[strongest]) < 1e-6 for w in gone)
+    assert not any(abs(w - pos[strongest]) < 1e-6 for w in hidden)
+    assert row_hidden["n_masked"] == row_absent["n_masked"] + 1
+    assert row_hidden["missing_penalty_dex"] > row_absent["missing_penalty_dex"]

@@ -19,7 +19,10 @@ as in :mod:`workbench.matching.scoring`:
   of the species' strongest (without intensities);
 * a group that should be seen and has no peak is *missing*, unless an
   observed peak at least as strong as its prediction lies within three
-  half-windows (it may hide in that wing: *masked*, counted neither way);
+  half-windows (it may hide in that wing: *masked*, counted neither way),
+  or a peak set aside (a band, an artefact, an analyst's exclusion: never
+  matched) at least as strong lies in its own window (it may hide in it;
+  :mod:`workbench.matching.masking`);
 * the chance probability and the missing-line penalty are computed from
   these (see :mod:`workbench.matching.scoring`).
 
@@ -88,12 +91,12 @@ from workbench.matching.candidates import CandidatePairs
 from workbench.matching.contrast import miss_prediction, species_contrast
 from workbench.matching.density import density_outside_own_peaks, nearest_neighbour_density
 from workbench.matching.layout import pass_layout
+from workbench.matching.masking import hidden_groups
 from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import LOSS_PROBABILITY, SpeciesEvidence, evaluate
 from workbench.matching.species_scale import species_scales
 from workbench.matching.xray_evidence import group_blend_maxima, xray_terms
-from workbench.peaks.extrema import range_max
 
 __all__ = [
     "EvidencePass",
@@ -366,41 +369,20 @@ def gather_evidence(
         )
     else:
         visible_all = g_known & (g_strength >= strong_fraction)
-    masked_all = np.zeros(n_groups, dtype=bool)
-    crowded_all = np.zeros(n_groups, dtype=bool)
-    if xray:
-        cand = with_scale & visible_all & ~found
-        if np.any(cand):
-            xc = g_pos[cand]
-            w = 3.0 * g_tol[cand]
-            lo_i = np.searchsorted(obs.position, xc - w, side="left")
-            hi_i = np.searchsorted(obs.position, xc + w, side="right")
-            masked_all[cand] = range_max(intensity_padded, lo_i, hi_i) >= predicted_all[cand]
-    else:
-        # Optical: crowded = a peak at least as strong as the prediction
-        # within three half-windows but outside the group's own window,
-        # judged alike for found and unfound groups ("masked" when missing,
-        # "crowded" when found; both left out of the chance test). Masking
-        # only the unfound ones left the chance test with the hits alone: in
-        # a dense spectrum nearly every unfound group is masked (10,000
-        # random peaks gave 43 species "established").
-        cand = with_scale & visible_all
-        if np.any(cand):
-            xc = g_pos[cand]
-            t = g_tol[cand]
-            half = g_span[cand] / 2.0
-            w = 3.0 * t + half
-            lo_a = np.searchsorted(obs.position, xc - w, side="left")
-            hi_a = np.searchsorted(obs.position, xc - t - half, side="left")
-            lo_b = np.searchsorted(obs.position, xc + t + half, side="right")
-            hi_b = np.searchsorted(obs.position, xc + w, side="right")
-            side = np.maximum(
-                range_max(intensity_padded, lo_a, hi_a), range_max(intensity_padded, lo_b, hi_b)
-            )
-            near = np.zeros(n_groups, dtype=bool)
-            near[cand] = side >= predicted_all[cand]
-            masked_all = near & ~found
-            crowded_all = near & found
+    # Groups that may hide in another peak (masking.py): masked when missing,
+    # crowded when found; both left out of the chance test.
+    masked_all, crowded_all = hidden_groups(
+        obs.position,
+        obs.excluded,
+        intensity_padded,
+        with_scale & visible_all,
+        found,
+        predicted_all,
+        g_pos,
+        g_tol,
+        g_span,
+        xray=xray,
+    )
     if not xray and not absorption:
         # Emission: a group of strength unknown from a source that lists only
         # lines known to show (reference.LISTED_SOURCES: Zn I 330.26 nm of
