@@ -302,3 +302,22 @@ def test_line_inside_an_excluded_peak_is_masked_not_missing(invented_set):
     assert not any(abs(w - pos[strongest]) < 1e-6 for w in hidden)
     assert row_hidden["n_masked"] == row_absent["n_masked"] + 1
     assert row_hidden["missing_penalty_dex"] > row_absent["missing_penalty_dex"]
+
+
+def test_missing_line_at_the_end_of_the_axis_is_masked(invented_set):
+    # A line whose profile the end of the spectrum cuts may leave no peak: it
+    # is masked, not missing; one resolution element further in it counts.
+    # Data invented; fixed windows ±0.02 nm stand for a resolution of 0.02 nm.
+    pos, e = _lines_of(invented_set, "Qa I")
+    last = int(np.argmax(pos))
+    keep = np.arange(pos.size) != last
+
+    def row(end_nm):
+        peaks = peaks_from(pos[keep] + 0.001, 1000 * e[keep], snr=1000 * e[keep])
+        peaks.extra["x_range"] = (float(pos.min()) - 1.0, end_nm)
+        return _by_species(match_peaks(peaks, [invented_set], _params()).report())["Qa I"]
+
+    at_end, inside = row(float(pos[last]) + 0.01), row(float(pos[last]) + 1.0)
+    assert [m["reference_nm"] for m in inside["missing_lines"]] == [pytest.approx(pos[last])]
+    assert at_end["missing_lines"] == []
+    assert at_end["n_masked"] == inside["n_masked"] + 1

@@ -78,3 +78,33 @@ def test_span_widens_the_own_window():
     # (half-span 0.3 + 0.1): the 500 peak no longer crowds it from outside.
     m, c = _run([100.5], [True], [300.0], span=[0.6])
     assert not c[0] and not m[0]
+
+
+@pytest.mark.parametrize(
+    ("pos", "masked"),
+    [
+        (99.85, True),  # 0.05 from the start (99.8): within one resolution element (0.1)
+        (99.95, False),  # 0.15 from it: its profile is whole
+        (101.75, True),  # 0.05 from the end (101.8)
+        (101.3, False),
+    ],
+)
+def test_missing_line_at_the_axis_end_is_masked(pos, masked):
+    # A line whose profile the axis end cuts may not make a peak (a peak
+    # needs samples on both sides of its maximum): masked, not missing.
+    n = 1
+    m, c = hidden_groups(
+        PEAKS,
+        None,
+        PADDED,
+        np.ones(n, dtype=bool),
+        np.zeros(n, dtype=bool),
+        np.array([600.0]),  # above every peak: no wing masks it
+        np.array([pos]),
+        np.full(n, TOL),
+        np.zeros(n),
+        xray=False,
+        axis_range=(99.8, 101.8),
+        resolution=np.full(n, 0.1),
+    )
+    assert m[0] == masked and not c[0]

@@ -294,6 +294,7 @@ def match_peaks(
     else:
         lo = float(np.min(obs.position - obs.half_window))
         hi = float(np.max(obs.position + obs.half_window))
+    obs = replace(obs, axis_range=(lo, hi))
     in_range = (index.position >= lo) & (index.position <= hi)
     if xray is not None:
         el_line = np.asarray(index.species_element, dtype=object)[index.species]

@@ -129,6 +129,9 @@ class ObservedLines:
     #: shape (energy axis, :mod:`workbench.xray.centroid`; NaN where not
     #: fitted); None elsewhere.
     position_sigma: np.ndarray | None = None
+    #: The ends of the axis the peaks were searched over (the spectrum's
+    #: range, or the peaks' windows for a bare peak list); set by the engine.
+    axis_range: tuple[float, float] | None = None
 
     def detection_limit_at(self, x: np.ndarray) -> np.ndarray:
         """Detection limit at positions ``x`` (the scalar limit where no curve is known)."""
@@ -382,6 +385,10 @@ def gather_evidence(
         g_tol,
         g_span,
         xray=xray,
+        axis_range=obs.axis_range,
+        resolution=None
+        if obs.resolution is None or xray
+        else np.interp(g_pos, obs.position, obs.resolution),
     )
     if not xray and not absorption:
         # Emission: a group of strength unknown from a source that lists only

@@ -18,6 +18,13 @@ strong as its prediction lies close enough for the line to hide in it:
   excluded) is never matched, so a line inside its own window could never
   be found there; where that peak is at least as strong as the prediction,
   the missing group is masked too. Before stop 29 it counted as missing.
+* **Optical, the ends of the axis**: a missing group whose nearest line lies
+  within one resolution element (the peaks' ≈ FWHM at its position) of an
+  end of the axis searched (the spectrum's range; for a bare peak list the
+  outermost peaks' windows) is masked: the end cuts its profile, and a peak
+  needs samples on both sides of its maximum. Real cases: Hg I 819.56 nm
+  0.05 nm inside the end of the Goodman 1200M6 HgAr lamps, Ar II 422.99 nm
+  in 1200M2 FeHeAr, Ne I 537.49 nm in the Kast arc (none changes a class).
 
 Masked groups are counted neither way (:mod:`workbench.matching.scoring`).
 Constants: three half-windows (common practice for a line's wing at the
@@ -49,6 +56,8 @@ def hidden_groups(
     span: np.ndarray,
     *,
     xray: bool,
+    axis_range: tuple[float, float] | None = None,
+    resolution: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """The masked (missing) and crowded (found) groups of a pass.
 
@@ -70,6 +79,12 @@ def hidden_groups(
         Per group: centre, half-window and span of its lines (axis units).
     xray : bool
         Energy axis (any peak within the wing masks) or optical.
+    axis_range : tuple of float, optional
+        Ends of the axis searched (optical: missing groups within one
+        resolution element of an end are masked).
+    resolution : numpy.ndarray, optional
+        Resolution element (≈ FWHM) at each group; without it the ends mask
+        nothing.
 
     Returns
     -------
@@ -113,4 +128,11 @@ def hidden_groups(
         masked |= hidden & ~found
     masked |= near & ~found
     crowded = near & found
+    if axis_range is not None and resolution is not None:
+        # Within one resolution element of an end of the axis a line's
+        # profile is cut: its peak may not be found (a peak needs samples on
+        # both sides of its maximum).
+        lo, hi = axis_range
+        edge = (position - span / 2.0 - lo < resolution) | (hi - position - span / 2.0 < resolution)
+        masked |= candidate & edge & ~found
     return masked, crowded
