@@ -108,3 +108,28 @@ def test_missing_line_at_the_axis_end_is_masked(pos, masked):
         resolution=np.full(n, 0.1),
     )
     assert m[0] == masked and not c[0]
+
+
+def test_saturated_peak_masks_a_line_of_any_height():
+    # A flat-topped (saturated) peak's recorded height is only a lower bound:
+    # the 500 peak at 100.25 masks a line predicted at 10,000 in its wing
+    # only when flagged saturated.
+    def masked(saturated):
+        m, _ = hidden_groups(
+            PEAKS,
+            None,
+            PADDED,
+            np.ones(1, dtype=bool),
+            np.zeros(1, dtype=bool),
+            np.array([10_000.0]),
+            np.array([100.0]),
+            np.full(1, TOL),
+            np.zeros(1),
+            xray=False,
+            saturated=saturated,
+        )
+        return bool(m[0])
+
+    assert not masked(None)
+    assert not masked(np.array([False, False, False]))
+    assert masked(np.array([False, True, False]))

@@ -386,6 +386,7 @@ def gather_evidence(
         g_span,
         xray=xray,
         axis_range=obs.axis_range,
+        saturated=obs.saturated,
         resolution=None
         if obs.resolution is None or xray
         else np.interp(g_pos, obs.position, obs.resolution),

@@ -25,6 +25,11 @@ strong as its prediction lies close enough for the line to hide in it:
   needs samples on both sides of its maximum. Real cases: Hg I 819.56 nm
   0.05 nm inside the end of the Goodman 1200M6 HgAr lamps, Ar II 422.99 nm
   in 1200M2 FeHeAr, Ne I 537.49 nm in the Kast arc (none changes a class).
+* **Saturated peaks**: a flat-topped peak's recorded height is only a lower
+  bound, so in any of the rules above it may hide a line of any predicted
+  height. (No class changes on the real spectra or the invented saturated
+  lamps; only the held-out LRIS arc has saturated peaks, and none of them
+  changes a result there.)
 
 Masked groups are counted neither way (:mod:`workbench.matching.scoring`).
 Constants: three half-windows (common practice for a line's wing at the
@@ -58,6 +63,7 @@ def hidden_groups(
     xray: bool,
     axis_range: tuple[float, float] | None = None,
     resolution: np.ndarray | None = None,
+    saturated: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """The masked (missing) and crowded (found) groups of a pass.
 
@@ -85,6 +91,9 @@ def hidden_groups(
     resolution : numpy.ndarray, optional
         Resolution element (≈ FWHM) at each group; without it the ends mask
         nothing.
+    saturated : numpy.ndarray of bool, optional
+        Peaks flagged saturated: their recorded height is only a lower bound,
+        so they may hide a line of any predicted height.
 
     Returns
     -------
@@ -92,6 +101,8 @@ def hidden_groups(
         One entry per group.
     """
     n = found.size
+    if saturated is not None and np.any(saturated):
+        intensity_padded = np.where(np.append(saturated, False), np.inf, intensity_padded)
     masked = np.zeros(n, dtype=bool)
     crowded = np.zeros(n, dtype=bool)
     x_obs = peak_position
