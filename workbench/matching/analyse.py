@@ -167,17 +167,22 @@ def peaks_from_spectrum(
     On an energy axis the SNIP window follows the detector (``instrument``,
     the documented default when ``None``) unless ``peak_options`` sets one.
 
-    The spectrum's span bounds where lines could have been seen (and so where
-    a line can be "missing"); the local sample spacing at each peak floors its
-    width at two samples (a line cannot be narrower than the sampling allows,
-    and peak finders underestimate widths of undersampled lines).
+    The spectrum's span, less the gaps in its sampling, bounds where lines
+    could have been seen (and so where a line can be "missing"); the local
+    sample spacing at each peak floors its width at two samples (a line
+    cannot be narrower than the sampling allows, and peak finders
+    underestimate widths of undersampled lines).
     """
     import numpy as np
 
     from workbench.peaks import find_peaks
+    from workbench.peaks.sampling import sampling_gaps
 
     peaks = find_peaks(spectrum, mode=mode, **_peak_options(spectrum, instrument, peak_options))
     peaks.extra.setdefault("x_range", (float(spectrum.x[0]), float(spectrum.x[-1])))
+    # Where the sampling skips part of the axis (chip gaps, removed samples)
+    # no line could have been seen either (workbench.peaks.sampling).
+    peaks.extra.setdefault("x_gaps", sampling_gaps(np.asarray(spectrum.x, dtype=float)))
     if spectrum.axis == "energy":
         # X-ray: overlaps are settled by a fit to the spectrum itself
         # (workbench.xray.prepare keeps it off the peak list).

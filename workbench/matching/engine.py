@@ -294,7 +294,22 @@ def match_peaks(
     else:
         lo = float(np.min(obs.position - obs.half_window))
         hi = float(np.max(obs.position + obs.half_window))
-    obs = replace(obs, axis_range=(lo, hi))
+    gaps = peaks.extra.get("x_gaps") if isinstance(peaks.extra, dict) else None
+    gaps = tuple((float(a), float(b)) for a, b in gaps or () if b > lo and a < hi)
+    obs = replace(obs, axis_range=(lo, hi), axis_gaps=gaps)
+    if gaps and peaks.axis != "energy":
+        shown = ", ".join(f"{a:.6g}–{b:.6g}" for a, b in gaps[:5])
+        unit = peaks.position_column.rsplit("_", 1)[-1]  # wavelength_nm -> nm
+        notes.append(
+            {
+                "kind": "sampling_gaps",
+                "message": f"the spectrum's sampling skips {len(gaps)} part(s) of the axis "
+                f"({shown}{', ...' if len(gaps) > 5 else ''} {unit}); "
+                "a line there, or within a resolution element of one, was not counted missing",
+                "elements": [],
+                "lines": [],
+            }
+        )
     in_range = (index.position >= lo) & (index.position <= hi)
     if xray is not None:
         el_line = np.asarray(index.species_element, dtype=object)[index.species]
@@ -375,9 +390,15 @@ def match_peaks(
     if apply and scale.shift is not None:
         corrected = scale.correct(obs.position)
         new_table = peaks.table.with_columns(pl.Series(peaks.position_column, corrected))
-        new_peaks = PeakList(
-            new_table, peaks.axis, peaks.medium, peaks.source, peaks.mode, dict(peaks.extra)
-        )
+        extra = dict(peaks.extra)
+        # The axis' ends and gaps move with the peaks, into the corrected frame.
+        if extra.get("x_range"):
+            extra["x_range"] = tuple(scale.correct(np.asarray(extra["x_range"], float)).tolist())
+        if extra.get("x_gaps"):
+            extra["x_gaps"] = tuple(
+                tuple(scale.correct(np.asarray(g, float)).tolist()) for g in extra["x_gaps"]
+            )
+        new_peaks = PeakList(new_table, peaks.axis, peaks.medium, peaks.source, peaks.mode, extra)
         inner = match_peaks(
             new_peaks,
             sets,
@@ -399,7 +420,9 @@ def match_peaks(
         )
         inner.peaks = peaks
         inner.xray = xray.to_dict() | {"warnings": xray.warnings} if xray else inner.xray
-        inner.notes = notes + inner.notes
+        # Notes the inner run makes again from the same peaks are kept once (its own).
+        again = {n["kind"] for n in inner.notes} & {"broad_dips", "sampling_gaps"}
+        inner.notes = [n for n in notes if n["kind"] not in again] + inner.notes
         return inner
 
     assignments = assign_peaks(obs, ev_pass, params.share_ratio)

@@ -132,6 +132,9 @@ class ObservedLines:
     #: The ends of the axis the peaks were searched over (the spectrum's
     #: range, or the peaks' windows for a bare peak list); set by the engine.
     axis_range: tuple[float, float] | None = None
+    #: Parts of that axis the spectrum's sampling skips (last sample before,
+    #: first after; :mod:`workbench.peaks.sampling`); set by the engine.
+    axis_gaps: tuple[tuple[float, float], ...] = ()
 
     def detection_limit_at(self, x: np.ndarray) -> np.ndarray:
         """Detection limit at positions ``x`` (the scalar limit where no curve is known)."""
@@ -386,6 +389,7 @@ def gather_evidence(
         g_span,
         xray=xray,
         axis_range=obs.axis_range,
+        gaps=obs.axis_gaps,
         saturated=obs.saturated,
         resolution=None
         if obs.resolution is None or xray

@@ -25,6 +25,12 @@ strong as its prediction lies close enough for the line to hide in it:
   needs samples on both sides of its maximum. Real cases: Hg I 819.56 nm
   0.05 nm inside the end of the Goodman 1200M6 HgAr lamps, Ar II 422.99 nm
   in 1200M2 FeHeAr, Ne I 537.49 nm in the Kast arc (none changes a class).
+* **Optical, gaps in the sampling**: the same inside a part of the axis the
+  spectrum's sampling skips (:mod:`workbench.peaks.sampling`: a chip gap,
+  samples removed), and within one resolution element of its edges; the
+  report says where (warning ``sampling_gaps``). None of the real spectra
+  has a gap; with 5 nm of the Goodman 1200M4 Ne lamp removed, three Ne I
+  lines there counted missing before.
 * **Saturated peaks**: a flat-topped peak's recorded height is only a lower
   bound, so in any of the rules above it may hide a line of any predicted
   height. (No class changes on the real spectra or the invented saturated
@@ -62,6 +68,7 @@ def hidden_groups(
     *,
     xray: bool,
     axis_range: tuple[float, float] | None = None,
+    gaps: tuple[tuple[float, float], ...] = (),
     resolution: np.ndarray | None = None,
     saturated: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
@@ -88,6 +95,9 @@ def hidden_groups(
     axis_range : tuple of float, optional
         Ends of the axis searched (optical: missing groups within one
         resolution element of an end are masked).
+    gaps : tuple of (float, float)
+        Parts of the axis the sampling skips (optical: missing groups inside
+        one, or within one resolution element of its edges, are masked).
     resolution : numpy.ndarray, optional
         Resolution element (≈ FWHM) at each group; without it the ends mask
         nothing.
@@ -144,6 +154,10 @@ def hidden_groups(
         # profile is cut: its peak may not be found (a peak needs samples on
         # both sides of its maximum).
         lo, hi = axis_range
-        edge = (position - span / 2.0 - lo < resolution) | (hi - position - span / 2.0 < resolution)
+        first, last = position - span / 2.0, position + span / 2.0
+        edge = (first - lo < resolution) | (hi - last < resolution)
+        for a, b in gaps:
+            # Inside a gap, or cut by one of its edges (an inner end of the axis).
+            edge |= (last > a - resolution) & (first < b + resolution)
         masked |= candidate & edge & ~found
     return masked, crowded

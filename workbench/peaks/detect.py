@@ -205,7 +205,12 @@ def find_peaks(
             "give a sampled spectrum, or a peak list if you have one",
         )
     if not np.all(np.isfinite(y)):
-        raise ValueRangeError("the spectrum contains NaN or infinite values", "remove them")
+        bad = int(np.count_nonzero(~np.isfinite(y)))
+        raise ValueRangeError(
+            f"the spectrum contains {bad} NaN or infinite value(s) (masked or bad samples)",
+            "remove those samples (rows); the gap they leave is handled: a line inside it "
+            "is not counted missing",
+        )
     kw = {
         "snip_iterations": prm.snip_iterations,
         "snip_lls": prm.snip_lls,
