@@ -142,6 +142,25 @@ def test_scale_shift_estimated_and_applied():
     assert max(abs(d) for d in deltas) < 1e-6
 
 
+def test_axis_ends_and_gaps_move_with_an_applied_scale_correction():
+    # The axis' ends and sampling gaps are positions on the same axis as the
+    # peaks: when a significant shift is applied, they move with them (one
+    # sampling-gaps note, not one per run). Invented shift and gap.
+    fake = _many_line_set()
+    pos, e = _lines_of(fake, "Qd I")
+    shift = 0.006
+    peaks = peaks_from(pos + shift, 1000 * e)
+    lo, hi = float(pos.min()) - 1.0 + shift, float(pos.max()) + 1.0 + shift
+    gap = (float(pos.min()) + 0.3 + shift, float(pos.min()) + 0.4 + shift)
+    peaks.extra.update(x_range=(lo, hi), x_gaps=(gap,))
+    res = match_peaks(peaks, [fake], _params())
+    assert res.report()["calibration"]["applied"]
+    assert res.observed.axis_range == pytest.approx((lo - shift, hi - shift), abs=1e-6)
+    assert res.observed.axis_gaps[0] == pytest.approx((gap[0] - shift, gap[1] - shift), abs=1e-6)
+    kinds = [w["kind"] for w in res.report()["warnings"]]
+    assert kinds.count("sampling_gaps") == 1
+
+
 @pytest.mark.parametrize(
     ("kind", "value", "x", "expected"),
     [
