@@ -17,7 +17,7 @@ strong as its prediction lies close enough for the line to hide in it:
   ``BAND_WIDTH_FACTOR`` × the median width, an artefact, one the analyst
   excluded) is never matched, so a line inside its own window could never
   be found there; where that peak is at least as strong as the prediction,
-  the missing group is masked too. Before stop 29 it counted as missing.
+  the missing group is masked too. Before stop 30 it counted as missing.
 * **Optical, the ends of the axis**: a missing group whose nearest line lies
   within one resolution element (the peaks' ≈ FWHM at its position) of an
   end of the axis searched (the spectrum's range; for a bare peak list the
