@@ -105,7 +105,7 @@ def test_missing_line_at_the_axis_end_is_masked(pos, masked):
         np.zeros(n),
         xray=False,
         axis_range=(99.8, 101.8),
-        resolution=np.full(n, 0.1),
+        peak_resolution=np.full(PEAKS.size, 0.1),
     )
     assert m[0] == masked and not c[0]
 

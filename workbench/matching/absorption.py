@@ -87,7 +87,8 @@ import numpy as np
 from scipy import special
 
 from workbench.matching.chance import CLOSENESS_FLOOR, fisher_combined
-from workbench.peaks.extrema import local_maxima, range_max
+from workbench.matching.masking import wing_max
+from workbench.peaks.extrema import local_maxima
 
 __all__ = [
     "blend_closeness_terms",
@@ -457,11 +458,7 @@ def species_features(
     near = np.zeros(pos.size, dtype=bool)
     if scale is not None and np.any(np.isfinite(inten)):
         padded = np.append(np.nan_to_num(inten, nan=-np.inf), -np.inf)
-        lo_a = np.searchsorted(x, pos - 3.0 * tol, side="left")
-        hi_a = np.searchsorted(x, pos - tol, side="left")
-        lo_b = np.searchsorted(x, pos + tol, side="right")
-        hi_b = np.searchsorted(x, pos + 3.0 * tol, side="right")
-        side = np.maximum(range_max(padded, lo_a, hi_a), range_max(padded, lo_b, hi_b))
+        side, _, _ = wing_max(x, padded, pos, tol)
         near = visible & (side >= predicted)
     counted = visible & ~near
     # One dip counts once: the feature with the larger prediction keeps it.

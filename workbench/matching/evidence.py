@@ -391,9 +391,7 @@ def gather_evidence(
         axis_range=obs.axis_range,
         gaps=obs.axis_gaps,
         saturated=obs.saturated,
-        resolution=None
-        if obs.resolution is None or xray
-        else np.interp(g_pos, obs.position, obs.resolution),
+        peak_resolution=None if xray else obs.resolution,
     )
     if not xray and not absorption:
         # Emission: a group of strength unknown from a source that lists only

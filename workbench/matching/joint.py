@@ -209,6 +209,7 @@ def explain_jointly(
                 True,
             )
             own_pred = np.where(np.isfinite(g["predicted"]), g["predicted"], 0.0)
+            z_claim = z_own = None
             if "delta" not in g and not g.get("absorption") and ev.missing_evidence:
                 # Emission: this species' own account of a claimed peak at the
                 # scale its unclaimed lines measure, not one fitted on the
@@ -238,11 +239,12 @@ def explain_jointly(
                 # claim must also be the closer account of the peak in
                 # amplitude and position together (module docstring).
                 centre_u, sigma_u = position
-                zc = _account_z(obs_h, claim_pred[pk], claim_sig[pk])
-                zo = _account_z(obs_h, own_pred, g["sigma"])
+                if z_claim is None:  # not computed above (absorption)
+                    z_claim = _account_z(obs_h, claim_pred[pk], claim_sig[pk])
+                    z_own = _account_z(obs_h, own_pred, g["sigma"])
                 use_int = with_int[pk] & ev.missing_evidence
-                zc = np.where(use_int & np.isfinite(zc), zc, 0.0)
-                zo = np.where(use_int & np.isfinite(zo), zo, 0.0)
+                zc = np.where(use_int & np.isfinite(z_claim), z_claim, 0.0)
+                zo = np.where(use_int & np.isfinite(z_own), z_own, 0.0)
                 pc = (claim_off[pk] - centre_u) / sigma_u
                 po = np.nan_to_num((g["offset_u"] - centre_u) / sigma_u, nan=0.0)
                 # Several lines within the resolution: the group's peak is

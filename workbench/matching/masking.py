@@ -49,10 +49,41 @@ import numpy as np
 
 from workbench.peaks.extrema import range_max
 
-__all__ = ["WING_HALF_WINDOWS", "hidden_groups"]
+__all__ = ["WING_HALF_WINDOWS", "hidden_groups", "wing_max"]
 
 #: How far (in half-windows) a stronger peak's wing may hide a line.
 WING_HALF_WINDOWS: float = 3.0
+
+
+def wing_max(
+    peak_position: np.ndarray,
+    intensity_padded: np.ndarray,
+    centre: np.ndarray,
+    tolerance: np.ndarray,
+    half_span: np.ndarray | float = 0.0,
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The strongest peak in each line's wing, outside its own window (optical rule).
+
+    The wing reaches :data:`WING_HALF_WINDOWS` half-windows beyond the
+    group's lines; the own window is ``centre ± (tolerance + half_span)``.
+
+    Returns
+    -------
+    side : numpy.ndarray
+        The wing's strongest peak per group (−inf where the wing is empty).
+    own_lo, own_hi : numpy.ndarray of int
+        The own window's bounds in ``peak_position`` (``hi`` exclusive).
+    """
+    reach = WING_HALF_WINDOWS * tolerance + half_span
+    own = tolerance + half_span
+    own_lo = np.searchsorted(peak_position, centre - own, side="left")
+    own_hi = np.searchsorted(peak_position, centre + own, side="right")
+    lo = np.searchsorted(peak_position, centre - reach, side="left")
+    hi = np.searchsorted(peak_position, centre + reach, side="right")
+    side = np.maximum(
+        range_max(intensity_padded, lo, own_lo), range_max(intensity_padded, own_hi, hi)
+    )
+    return side, own_lo, own_hi
 
 
 def hidden_groups(
@@ -69,7 +100,7 @@ def hidden_groups(
     xray: bool,
     axis_range: tuple[float, float] | None = None,
     gaps: tuple[tuple[float, float], ...] = (),
-    resolution: np.ndarray | None = None,
+    peak_resolution: np.ndarray | None = None,
     saturated: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """The masked (missing) and crowded (found) groups of a pass.
@@ -98,9 +129,9 @@ def hidden_groups(
     gaps : tuple of (float, float)
         Parts of the axis the sampling skips (optical: missing groups inside
         one, or within one resolution element of its edges, are masked).
-    resolution : numpy.ndarray, optional
-        Resolution element (≈ FWHM) at each group; without it the ends mask
-        nothing.
+    peak_resolution : numpy.ndarray, optional
+        Resolution element (≈ FWHM) at each peak, interpolated to the groups;
+        without it the ends mask nothing.
     saturated : numpy.ndarray of bool, optional
         Peaks flagged saturated: their recorded height is only a lower bound,
         so they may hide a line of any predicted height.
@@ -128,17 +159,8 @@ def hidden_groups(
     cand = candidate
     if not np.any(cand):
         return masked, crowded
-    xc = position[cand]
-    t = tolerance[cand]
-    half = span[cand] / 2.0
-    w = WING_HALF_WINDOWS * t + half
-    own_lo = np.searchsorted(x_obs, xc - t - half, side="left")
-    own_hi = np.searchsorted(x_obs, xc + t + half, side="right")
-    lo_a = np.searchsorted(x_obs, xc - w, side="left")
-    hi_b = np.searchsorted(x_obs, xc + w, side="right")
-    side = np.maximum(
-        range_max(intensity_padded, lo_a, own_lo),
-        range_max(intensity_padded, own_hi, hi_b),
+    side, own_lo, own_hi = wing_max(
+        x_obs, intensity_padded, position[cand], tolerance[cand], span[cand] / 2.0
     )
     near = np.zeros(n, dtype=bool)
     near[cand] = side >= predicted[cand]
@@ -149,15 +171,32 @@ def hidden_groups(
         masked |= hidden & ~found
     masked |= near & ~found
     crowded = near & found
-    if axis_range is not None and resolution is not None:
+    if axis_range is not None and peak_resolution is not None and peak_resolution.size:
         # Within one resolution element of an end of the axis a line's
         # profile is cut: its peak may not be found (a peak needs samples on
-        # both sides of its maximum).
-        lo, hi = axis_range
+        # both sides of its maximum). The resolution at each group is looked
+        # up only for the missing groups the largest one could reach: the
+        # look-up over every group cost milliseconds a pass.
         first, last = position - span / 2.0, position + span / 2.0
-        edge = (first - lo < resolution) | (hi - last < resolution)
-        for a, b in gaps:
-            # Inside a gap, or cut by one of its edges (an inner end of the axis).
-            edge |= (last > a - resolution) & (first < b + resolution)
-        masked |= candidate & edge & ~found
+        reach = float(np.max(peak_resolution))
+        idx = np.flatnonzero(candidate & ~found & _at_edge(first, last, reach, axis_range, gaps))
+        if idx.size:
+            res = np.interp(position[idx], x_obs, peak_resolution)
+            masked[idx[_at_edge(first[idx], last[idx], res, axis_range, gaps)]] = True
     return masked, crowded
+
+
+def _at_edge(
+    first: np.ndarray,
+    last: np.ndarray,
+    resolution: np.ndarray | float,
+    axis_range: tuple[float, float],
+    gaps: tuple[tuple[float, float], ...],
+) -> np.ndarray:
+    """Groups within ``resolution`` of an end of the axis, or inside or beside a gap."""
+    lo, hi = axis_range
+    edge = (first - lo < resolution) | (hi - last < resolution)
+    for a, b in gaps:
+        # Inside a gap, or cut by one of its edges (an inner end of the axis).
+        edge |= (last > a - resolution) & (first < b + resolution)
+    return edge
