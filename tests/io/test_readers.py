@@ -258,3 +258,83 @@ def test_spectrum_with_one_duplicated_row_is_not_silently_a_peak_list():
     assert sniff(text)["kind"] == "spectrum"
     with pytest.raises(ValueRangeError, match="row 42 repeats"):  # index 40 + header + 1-based
         read_any(text)
+
+
+# ------------------------------------------------ missing intensities in a spectrum
+# Invented spectra (test inputs). A missing intensity is a sample not measured
+# (workbench.io.spectra docstring): the row is left out with a note.
+
+
+def _rows(n=60, lo=400.0, hi=459.0):
+    x = np.linspace(lo, hi, n)
+    return x, 10.0 + np.exp(-0.5 * ((x - 430.0) / 0.8) ** 2)
+
+
+@pytest.mark.parametrize("cell", ["", "nan", "NaN"])
+def test_missing_intensity_rows_are_left_out_with_a_note(cell):
+    x, y = _rows()
+    body = [f"{a:.3f},{b:.6f}" for a, b in zip(x, y, strict=True)]
+    body[7] = f"{x[7]:.3f},{cell}"  # data row 8, file line 9
+    spec = read_spectrum(("wavelength (nm),counts\n" + "\n".join(body) + "\n").encode())
+    assert spec.x.size == 59 and round(x[7], 3) not in spec.x
+    assert np.all(np.isfinite(spec.y))
+    (note,) = [n for n in spec.source.notes if "no measured" in n]
+    assert note.startswith("1 of 60 rows") and "row 9" in note
+
+
+def test_missing_rows_left_out_of_a_descending_axis():
+    x, y = _rows()
+    y = y.copy()
+    y[[3, 4]] = np.nan
+    body = [f"{a:.3f},{b:.6f}" for a, b in zip(x[::-1], y[::-1], strict=True)]
+    spec = read_spectrum(("wavelength (nm),counts\n" + "\n".join(body) + "\n").encode())
+    np.testing.assert_allclose(spec.x, np.delete(x, [3, 4]), atol=1e-3)
+    np.testing.assert_allclose(spec.y, np.delete(y, [3, 4]), atol=1e-6)
+
+
+def test_parquet_null_and_nan_intensities_are_missing():
+    x, y = _rows()
+    ys = [float(v) for v in y]
+    ys[5] = float("nan")
+    ys[9] = None
+    buf = io.BytesIO()
+    pl.DataFrame({"wavelength (nm)": x, "counts": ys}).write_parquet(buf)
+    spec = read_spectrum(buf.getvalue())
+    assert spec.x.size == 58
+    (note,) = [n for n in spec.source.notes if "no measured" in n]
+    assert "data row 6, data row 10" in note
+
+
+def test_jcamp_question_mark_is_a_missing_point():
+    # JCAMP-DX 4.24 writes "?" for a point with no value.
+    text = (
+        "##TITLE=t\n##JCAMP-DX=4.24\n##XUNITS=NANOMETERS\n##YUNITS=COUNTS\n"
+        "##FIRSTX=400\n##LASTX=407\n##NPOINTS=8\n##XFACTOR=1\n##YFACTOR=1\n"
+        "##XYDATA=(X++(Y..Y))\n400 1 2 3 ? 5 6 7 8\n##END=\n"
+    )
+    spec = read_spectrum(text.encode())
+    np.testing.assert_allclose(spec.x, [400, 401, 402, 404, 405, 406, 407])
+    assert any("1 of 8 rows" in n for n in spec.source.notes)
+
+
+def test_too_few_measured_points_is_one_clear_error():
+    x, y = _rows(8)
+    body = [
+        f"{a:.3f},{'nan' if i > 2 else f'{b:.3f}'}"
+        for i, (a, b) in enumerate(zip(x, y, strict=True))
+    ]
+    with pytest.raises(FileFormatError, match="only 3 points with a measured"):
+        read_spectrum(("wavelength (nm),counts\n" + "\n".join(body) + "\n").encode(), unit="nm")
+
+
+def test_infinite_intensity_is_still_refused():
+    x, y = _rows()
+    body = [f"{a:.3f},{b:.6f}" for a, b in zip(x, y, strict=True)]
+    body[4] = f"{x[4]:.3f},inf"
+    with pytest.raises(ValueRangeError, match="row 6"):
+        read_spectrum(("wavelength (nm),counts\n" + "\n".join(body) + "\n").encode())
+
+
+def test_nan_intensity_in_a_peak_list_is_null_like_an_empty_cell():
+    pl_ = read_peak_list("wavelength (nm),intensity\n393.37,nan\n396.85,2\n")
+    assert np.isnan(pl_.intensities[0]) and pl_.intensities[1] == 2.0

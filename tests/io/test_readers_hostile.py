@@ -279,7 +279,8 @@ def test_bulk_reader_equals_careful_reader(monkeypatch, label, data):
     [
         ("wavelength (nm),intensity\n" + "400,1\n" * 3 + "401,x\n", "row 5"),
         ("wavelength (nm),intensity\n400,1\n401,2,3\n", "row 3"),
-        ("wavelength (nm),intensity\n400,1\n401,nan\n", "row 3"),
+        ("wavelength (nm),intensity\n400,1\n401,inf\n", "row 3"),
+        ("wavelength (nm),intensity\n400,1\nnan,2\n", "row 3"),
     ],
 )
 def test_bulk_refusal_names_the_row(text, where):
@@ -293,23 +294,41 @@ def test_progress_is_reported_up_to_one():
     assert seen == sorted(seen) and seen[-1] == 1.0 and len(seen) >= 3
 
 
-def _with_blank_lines_and_nan(sep: str) -> bytes:
+def _with_blank_lines_and_nan(sep: str, nan_in: str = "y") -> bytes:
     x = np.linspace(400.0, 500.0, 100)
     rows = [f"{a:.3f}{sep}{2 + np.sin(a):.3f}" for a in x]
     rows.insert(10, "")
     rows.insert(20, "   ")
-    rows[50] = f"450.000{sep}nan"
+    # rows[50] holds x[48] after the two insertions.
+    rows[50] = f"{x[48]:.3f}{sep}nan" if nan_in == "y" else f"nan{sep}3.0"
     head = "wavelength_nm" if sep.isspace() else "wavelength (nm)"
     return (f"{head}{sep}intensity\n" + "\n".join(rows) + "\n\n").encode()
 
 
 @pytest.mark.parametrize("sep", ["   ", ","])
-def test_bulk_and_careful_name_the_same_row(monkeypatch, sep):
+def test_bulk_and_careful_leave_out_the_same_missing_row(monkeypatch, sep):
+    # A NaN intensity is a missing sample: both parsers leave the row out
+    # and name it in the same note (workbench.io.spectra docstring).
     data = _with_blank_lines_and_nan(sep)
+    fast = read_spectrum(data)
+    slow = _careful(monkeypatch, read_spectrum, data)
+    assert fast.x.size == slow.x.size == 99
+    np.testing.assert_array_equal(fast.x, slow.x)
+    np.testing.assert_array_equal(fast.y, slow.y)
+    assert round(400.0 + 48 * 100.0 / 99, 3) not in fast.x
+    note = [n for n in fast.source.notes if "no measured" in n]
+    # Header on line 1, rows[i] on line i + 2: rows[50] is line 52 (counted by hand).
+    assert len(note) == 1 and "1 of 100 rows" in note[0] and "row 52" in note[0]
+    assert note == [n for n in slow.source.notes if "no measured" in n]
+
+
+@pytest.mark.parametrize("sep", ["   ", ","])
+def test_bulk_and_careful_name_the_same_row(monkeypatch, sep):
+    data = _with_blank_lines_and_nan(sep, nan_in="x")
     with pytest.raises(ValueRangeError) as fast:
         read_spectrum(data)
     with pytest.raises(ValueRangeError) as slow:
         _careful(monkeypatch, read_spectrum, data)
-    # Header on line 1, rows[i] on line i + 2: rows[50] is line 52 (counted by hand).
     assert "row 52" in fast.value.problem
+    assert fast.value.problem == slow.value.problem
     assert fast.value.problem == slow.value.problem

@@ -324,7 +324,8 @@ def numeric_column(
     label : str
         Column name for messages.
     allow_empty : bool
-        Whether empty cells are allowed (returned as NaN and flagged in the mask).
+        Whether missing values are allowed: empty cells and NaN, returned as
+        NaN and flagged in the mask.
 
     Returns
     -------
@@ -335,7 +336,7 @@ def numeric_column(
     Raises
     ------
     ValueRangeError
-        For an empty cell where none is allowed, NaN or infinity.
+        For an empty cell or NaN where no missing value is allowed, or infinity.
     FileFormatError
         For a cell that is not a number.
     UnitError
@@ -354,6 +355,8 @@ def numeric_column(
             f"{table.name}: row {table.line_numbers[i]}, column {label!r} is empty",
             "fill the cell or delete the row",
         )
+    if allow_empty:
+        empty = empty | np.isnan(values)  # "nan" written out: a missing value too
     bad = ~np.isfinite(values) & ~empty
     if bad.any():
         i = int(np.argmax(bad))

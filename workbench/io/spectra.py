@@ -1,8 +1,21 @@
 """Sampled spectra: x and y from the columns of a table or from a JCAMP-DX block.
 
-Every value must be finite and within range; x is converted to nm (with a
+Every position must be finite and within range; x is converted to nm (with a
 medium) or eV and must be strictly monotonic (a descending axis is reversed,
 with a note; a repeated or out-of-order position is refused, naming the row).
+
+A missing intensity (an empty cell, NaN, a null in Parquet, ``?`` in
+JCAMP-DX) is a sample the instrument or its pipeline did not measure: a dead
+or masked pixel, a saturated column blanked by the reduction, a chip gap
+written out as NaN. Such rows are left out with a note naming them, and the
+spectrum keeps its other samples; the hole they leave is judged like any
+other stretch of the axis without samples
+(:func:`workbench.peaks.sampling.sampling_gaps`: wider than three sampling
+steps, it is a gap, and lines inside it are neither found nor counted
+missing). Refusing the whole file for one blank pixel would make the analyst
+edit the evidence by hand; the original bytes are kept either way. An
+infinite intensity is still refused: it is an export fault, not a missing
+measurement.
 """
 
 from __future__ import annotations
@@ -82,31 +95,45 @@ def spectrum_from_xy(
     Returns
     -------
     Spectrum
-        Strictly increasing x (a descending axis reversed, with a note).
+        Strictly increasing x (a descending axis reversed, with a note);
+        rows without a measured y (NaN) left out, with a note naming them.
     """
     if x.size < MIN_SPECTRUM_POINTS:
         raise FileFormatError(
             f"{where} has only {x.size} points",
             f"a spectrum needs at least {MIN_SPECTRUM_POINTS} points",
         )
-    for arr, label in ((x, x_label), (y, y_label)):
-        bad = ~np.isfinite(arr)
+    missing = np.isnan(y)
+    for arr, label, bad in (
+        (x, x_label, ~np.isfinite(x)),
+        (y, y_label, ~np.isfinite(y) & ~missing),
+    ):
         if bad.any():
             i = int(np.argmax(bad))
             raise ValueRangeError(
                 f"{where}: {row_label(i)}, {label} is {arr[i]} (not a finite number)",
                 f"remove {row_label(i)} or replace the value",
             )
-    check_magnitude(y, y_label, row_label, where)
+    n_measured = x.size - int(np.count_nonzero(missing))
+    if n_measured < MIN_SPECTRUM_POINTS:
+        raise FileFormatError(
+            f"{where} has only {n_measured} points with a measured {y_label} "
+            f"({x.size - n_measured} empty or NaN)",
+            f"a spectrum needs at least {MIN_SPECTRUM_POINTS} measured points",
+        )
+    check_magnitude(np.where(missing, 0.0, y), y_label, row_label, where)
+
     check_positions(x, x_label, row_label, where)
     if check_units:
         check_unit_plausibility(x, u, f"{where} {x_label}")
     xc = to_canonical(x, u)
+    reversed_axis = False
     # xc holds no NaN, so b − a > 0 exactly when b > a (a difference of unequal
     # doubles is never rounded to zero): compare neighbours without the differences.
     if not np.all(xc[1:] > xc[:-1]):
         if np.all(xc[1:] < xc[:-1]):
             xc, y = xc[::-1].copy(), y[::-1].copy()
+            reversed_axis = True
             notes.append("axis was in descending order; reversed")
         else:
             d = np.diff(xc)
@@ -123,6 +150,10 @@ def spectrum_from_xy(
                 )
                 remedy = "sort the spectrum by position or split it into separate scans"
             raise ValueRangeError(problem, remedy)
+    if missing.any():
+        notes.append(_missing_note(missing, row_label, y_label, x.size))
+        keep = ~missing[::-1] if reversed_axis else ~missing
+        xc, y = xc[keep], y[keep]
     src = input_source(raw, "spectrum", fmt, notes)
     return Spectrum(
         x=np.ascontiguousarray(xc, dtype=np.float64),
@@ -131,6 +162,18 @@ def spectrum_from_xy(
         medium=med,  # type: ignore[arg-type]
         source=src,
         y_label=y_label,
+    )
+
+
+def _missing_note(missing: np.ndarray, row_label, y_label: str, n_rows: int) -> str:
+    """The note for rows left out without a measured intensity, naming the first few."""
+    rows = np.flatnonzero(missing)
+    named = ", ".join(row_label(int(i)) for i in rows[:3])
+    more = f" and {rows.size - 3} more" if rows.size > 3 else ""
+    return (
+        f"{rows.size} of {n_rows} rows have no measured {y_label} (empty or NaN) and were "
+        f"left out ({named}{more}); a hole wider than three sampling steps is a sampling "
+        "gap, where lines are neither found nor counted missing"
     )
 
 
@@ -198,7 +241,8 @@ def spectrum_from_columns(
         if cols.details.get("n_columns", 2) != 2:
             notes.append("no header row: column 1 read as x, column 2 as y")
     x, _, cell_unit = cols.get(xi, x_label, False)
-    y, _, _ = cols.get(yi, y_label, False)
+    # Missing intensities are allowed here and left out by spectrum_from_xy.
+    y, _, _ = cols.get(yi, y_label, True)
     u = resolve_unit(unit, header_unit, cell_unit, cols.comments, cols.name, notes)
     axis = axis_for(u, name)
     stated = [(header_medium, f"header {x_label!r}"), *comment_media(cols.comments)]

@@ -98,14 +98,17 @@ def columns_from_fast(ft: FastTable, name: str) -> Columns:
 
     def get(index: int, label: str, allow_empty: bool):
         values = ft.columns[index]
-        bad = ~np.isfinite(values)
+        # The bulk parse reads an empty cell and "nan" alike as NaN: both are a
+        # missing value where one is allowed (as in the careful parser).
+        missing = np.isnan(values) if allow_empty else np.zeros(values.size, dtype=bool)
+        bad = ~np.isfinite(values) & ~missing
         if bad.any():
             i = int(np.argmax(bad))
             raise ValueRangeError(
                 f"{name}: {row_label(i)}, column {label!r} is '{values[i]}' (not a finite number)",
                 "remove the row or replace the value with a measured number",
             )
-        return values, np.zeros(values.size, dtype=bool), None
+        return values, missing, None
 
     details = {
         "delimiter": t.delimiter_name,
@@ -161,8 +164,10 @@ def columns_from_parquet(data: bytes, name: str) -> Columns:
             )
         try:
             series = col.cast(pl.Float64, strict=True)
-            empty = series.is_null().to_numpy()
             values = series.fill_null(np.nan).to_numpy().astype(np.float64)
+            empty = series.is_null().to_numpy()
+            if allow_empty:
+                empty = empty | np.isnan(values)  # NaN: a missing value, like a null
         except BaseException as exc:
             if isinstance(exc, KeyboardInterrupt | SystemExit):
                 raise
