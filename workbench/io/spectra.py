@@ -2,7 +2,9 @@
 
 Every position must be finite and within range; x is converted to nm (with a
 medium) or eV and must be strictly monotonic (a descending axis is reversed,
-with a note; a repeated or out-of-order position is refused, naming the row).
+with a note; a file of several scans written one after another, such as
+spectrometer channels, is joined by :mod:`workbench.io.stitch`, with a note;
+a repeated or out-of-order position is refused, naming the row).
 
 A missing intensity (an empty cell, NaN, a null in Parquet, ``?`` in
 JCAMP-DX) is a sample the instrument or its pipeline did not measure: a dead
@@ -45,6 +47,7 @@ from workbench.io.resolve import (
     to_canonical,
 )
 from workbench.io.source import RawInput
+from workbench.io.stitch import MIN_SCAN_POINTS, join_scans, split_scans
 from workbench.io.tabular import (
     Columns,
 )
@@ -127,32 +130,18 @@ def spectrum_from_xy(
     if check_units:
         check_unit_plausibility(x, u, f"{where} {x_label}")
     xc = to_canonical(x, u)
-    reversed_axis = False
     # xc holds no NaN, so b − a > 0 exactly when b > a (a difference of unequal
     # doubles is never rounded to zero): compare neighbours without the differences.
     if not np.all(xc[1:] > xc[:-1]):
         if np.all(xc[1:] < xc[:-1]):
             xc, y = xc[::-1].copy(), y[::-1].copy()
-            reversed_axis = True
             notes.append("axis was in descending order; reversed")
         else:
-            d = np.diff(xc)
-            increasing = np.count_nonzero(d > 0) >= np.count_nonzero(d < 0)
-            bad = (d <= 0) if increasing else (d >= 0)
-            i = int(np.argmax(bad)) + 1
-            if d[i - 1] == 0:
-                problem = f"{where}: {row_label(i)} repeats the {x_label} of {row_label(i - 1)}"
-                remedy = "remove duplicated positions (average them first if needed)"
-            else:
-                problem = (
-                    f"{where}: {x_label} is not monotonic: {row_label(i)} "
-                    f"({x[i]:g}) breaks the order of {row_label(i - 1)} ({x[i - 1]:g})"
-                )
-                remedy = "sort the spectrum by position or split it into separate scans"
-            raise ValueRangeError(problem, remedy)
+            unit = "nm" if axis == "wavelength" else "eV"
+            xc, y = _scans_or_refuse(xc, y, x, row_label, where, x_label, unit, notes)
     if missing.any():
         notes.append(_missing_note(missing, row_label, y_label, x.size))
-        keep = ~missing[::-1] if reversed_axis else ~missing
+        keep = ~np.isnan(y)
         xc, y = xc[keep], y[keep]
     src = input_source(raw, "spectrum", fmt, notes)
     return Spectrum(
@@ -163,6 +152,42 @@ def spectrum_from_xy(
         source=src,
         y_label=y_label,
     )
+
+
+def _scans_or_refuse(
+    xc: np.ndarray,
+    y: np.ndarray,
+    x: np.ndarray,
+    row_label,
+    where: str,
+    x_label: str,
+    unit: str,
+    notes: list[str],
+) -> tuple[np.ndarray, np.ndarray]:
+    """Join a file of several scans (:mod:`workbench.io.stitch`), or refuse, naming the row."""
+    d = np.diff(xc)
+    increasing = np.count_nonzero(d > 0) >= np.count_nonzero(d < 0)
+    xs, ys = (xc, y) if increasing else (xc[::-1], y[::-1])
+    scans = split_scans(xs)
+    if scans is not None:
+        xs, ys, note = join_scans(xs, ys, scans, unit)
+        notes.append(note)
+        return xs, ys
+    bad = (d <= 0) if increasing else (d >= 0)
+    i = int(np.argmax(bad)) + 1
+    if d[i - 1] == 0:
+        problem = f"{where}: {row_label(i)} repeats the {x_label} of {row_label(i - 1)}"
+        remedy = "remove duplicated positions (average them first if needed)"
+    else:
+        problem = (
+            f"{where}: {x_label} is not monotonic: {row_label(i)} "
+            f"({x[i]:g}) breaks the order of {row_label(i - 1)} ({x[i - 1]:g})"
+        )
+        remedy = (
+            "sort the spectrum by position, or give each scan at least "
+            f"{MIN_SCAN_POINTS} samples if the file holds several (spectrometer channels)"
+        )
+    raise ValueRangeError(problem, remedy)
 
 
 def _missing_note(missing: np.ndarray, row_label, y_label: str, n_rows: int) -> str:
