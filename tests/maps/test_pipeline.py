@@ -68,3 +68,64 @@ def test_background_only_cube_gives_no_map(energy_eV):
     with Runner("threads") as runner:
         res = run_maps(Cube.from_array(counts, energy_eV), runner, instrument=INSTRUMENT)
     assert res.families == [] and res.maps.shape == (0, 6, 7)
+
+
+@pytest.fixture(scope="module")
+def holed(counts, energy_eV):
+    # The planted cube (invented) as a scan with two pixels not measured: one
+    # written wholly as NaN (a dropped fly-scan point), one with a single NaN
+    # channel (a masked dead pixel).
+    c = counts.astype(np.float64)
+    c[3, 4, :] = np.nan
+    c[15, 20, 100] = np.nan
+    return c
+
+
+def test_unmeasured_pixels_are_blank_and_left_out(holed, counts, energy_eV):
+    from workbench.maps import Cube
+
+    with Runner("threads") as runner:
+        res = run_maps(Cube.from_array(holed, energy_eV), runner, instrument=INSTRUMENT)
+        clean = run_maps(Cube.from_array(counts, energy_eV), runner, instrument=INSTRUMENT)
+    assert res.families == clean.families
+    blank = np.zeros(holed.shape[:2], dtype=bool)
+    blank[3, 4] = blank[15, 20] = True
+    assert np.all(np.isnan(res.maps[:, blank])) and np.all(np.isfinite(res.maps[:, ~blank]))
+    assert np.all(np.isnan(res.chi2[blank]))
+    # The sum spectrum is that of the measured pixels only.
+    np.testing.assert_allclose(res.sum_spectrum, counts[~blank].sum(axis=0))
+    # The other pixels are fitted as before, up to the shared weights (mean of 478 pixels, not 480).
+    np.testing.assert_allclose(res.maps[:, ~blank], clean.maps[:, ~blank], rtol=2e-3, atol=0.5)
+    assert res.cube["pixels_unmeasured"] == 2
+    assert any("2 of 480 pixels" in n for n in res.cube["notes"])
+
+
+def test_a_cube_with_no_measured_pixel_is_one_clear_error(energy_eV):
+    from workbench.errors import InputError
+    from workbench.maps import Cube
+
+    empty = np.full((3, 4, energy_eV.size), np.nan)
+    with Runner("threads") as runner, pytest.raises(InputError, match="no pixel of the cube"):
+        run_maps(Cube.from_array(empty, energy_eV), runner, instrument=INSTRUMENT)
+
+
+def test_region_sum_leaves_out_unmeasured_pixels(holed, counts, energy_eV):
+    from workbench.maps import Cube
+    from workbench.maps.region import region_spectrum
+
+    cube = Cube.from_array(holed, energy_eV)
+    got = region_spectrum(cube, 2, 6, 3, 7)  # holds pixel (3, 4)
+    keep = np.ones((4, 4), dtype=bool)
+    keep[1, 1] = False
+    np.testing.assert_allclose(got, counts[2:6, 3:7][keep].sum(axis=0))
+
+
+def test_unmeasured_pixels_are_white_in_the_previews():
+    from workbench.maps.store import colourise
+
+    img = np.arange(12.0).reshape(3, 4)
+    img[1, 2] = np.nan
+    rgb = colourise(img)
+    assert rgb[1, 2].tolist() == [255, 255, 255]
+    # viridis never reaches white, so no measured pixel is mistaken for one
+    assert not np.any(np.all(np.delete(rgb.reshape(-1, 3), 6, axis=0) == 255, axis=1))

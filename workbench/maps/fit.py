@@ -20,7 +20,7 @@ import numpy as np
 from workbench.maps.nnls import nnls_batch
 from workbench.maps.templates import TemplateSet
 
-__all__ = ["FitModel", "poisson_sigma_matrix", "roi_counts"]
+__all__ = ["FitModel", "measured_pixels", "poisson_sigma_matrix", "roi_counts"]
 
 
 def poisson_sigma_matrix(P: np.ndarray, A: np.ndarray) -> np.ndarray:
@@ -119,18 +119,43 @@ class FitModel:
         nf = self.n_families
         out = np.empty((ry * rx, self.n_out), np.float32)
         for start in range(0, ry * rx, batch):
-            Y = flat[start : start + batch].T.astype(np.float64)
+            rows = flat[start : start + batch]
+            bad = ~measured_pixels(rows)
+            Y = rows.T.astype(np.float64)
+            if bad.any():
+                Y[:, bad] = 0.0  # solved as zeros (NaN would spoil the batch), then blanked
             X, sigma, chi2, _ = self.solve(Y)
             roi = roi_counts(Y, self.templates.roi_windows)
-            out[start : start + batch] = np.concatenate(
-                [X[:nf], sigma[:nf], roi, chi2[None]], axis=0
-            ).T
+            part = np.concatenate([X[:nf], sigma[:nf], roi, chi2[None]], axis=0).T
+            part[bad] = np.nan
+            out[start : start + batch] = part
         return out.reshape(ry, rx, self.n_out)
 
 
-def _sum_max_block(block: np.ndarray) -> np.ndarray:
-    """Per-chunk channel sum and maximum, shape ``(1, 1, 2, n_channels)``."""
+def measured_pixels(flat: np.ndarray) -> np.ndarray:
+    """Pixels (rows of ``flat``, one spectrum each) whose every channel is a finite number.
+
+    A scan writes NaN (or leaves garbage) where a pixel was not measured: a
+    dropped fly-scan point, a beam loss, a masked dead pixel. Such a pixel
+    takes no part in the sum spectrum and is left blank (NaN) in every map
+    rather than fitted on made-up counts.
+    """
+    if not np.issubdtype(flat.dtype, np.floating):
+        return np.ones(flat.shape[0], dtype=bool)  # integer counts are always numbers
+    return np.isfinite(flat).all(axis=1)
+
+
+def _sum_max_block(block: np.ndarray) -> tuple[np.ndarray, np.ndarray, int]:
+    """Per-chunk channel sum and maximum over the measured pixels, and how many were not."""
     flat = block.reshape(-1, block.shape[-1])
-    return np.stack([flat.sum(axis=0, dtype=np.float64), flat.max(axis=0).astype(np.float64)])[
-        None, None
-    ]
+    ok = measured_pixels(flat)
+    if not ok.all():
+        flat = flat[ok]
+    if flat.shape[0] == 0:
+        n = block.shape[-1]
+        return np.zeros(n), np.full(n, -np.inf), int(ok.size)
+    return (
+        flat.sum(axis=0, dtype=np.float64),
+        flat.max(axis=0).astype(np.float64),
+        int(ok.size - np.count_nonzero(ok)),
+    )

@@ -202,16 +202,31 @@ def run_maps(
     t0 = time.perf_counter()
     total = np.zeros(nch)
     peak = np.full(nch, -np.inf)
+    n_unmeasured = 0
 
-    def add(_: int, part: np.ndarray) -> None:
-        nonlocal total, peak
-        total = total + part[0, 0, 0]
-        peak = np.maximum(peak, part[0, 0, 1])
+    def add(_: int, part: tuple[np.ndarray, np.ndarray, int]) -> None:
+        nonlocal total, peak, n_unmeasured
+        total = total + part[0]
+        peak = np.maximum(peak, part[1])
+        n_unmeasured += part[2]
 
     runner.compute_each(
         [dask.delayed(_sum_max_block)(blocks[i, j, 0]) for i, j in flat], add, "sum spectrum"
     )
     timings["sum_pass"] = time.perf_counter() - t0
+    n_measured = ny * nx - n_unmeasured
+    if n_measured == 0:
+        raise InputError(
+            f"no pixel of the cube holds a measured spectrum (all {ny * nx} hold NaN or "
+            "infinite counts)",
+            "check the dataset chosen and the export of the scan",
+        )
+    notes = list(cube.notes)
+    if n_unmeasured:
+        notes.append(
+            f"{n_unmeasured} of {ny * nx} pixels hold NaN or infinite counts (not measured): "
+            "left out of the sum spectrum and blank in every map"
+        )
 
     # 2. identification by the engine, on the sum and the maximum-pixel spectra.
     t0 = time.perf_counter()
@@ -248,7 +263,7 @@ def run_maps(
     roi = np.zeros_like(maps)
     chi2 = np.zeros((ny, nx), np.float32)
     tpl = build_templates(e, families, instrument, knot_spacing_eV=params.knot_spacing_eV)
-    model = FitModel.from_mean_spectrum(tpl, total / (ny * nx))
+    model = FitModel.from_mean_spectrum(tpl, total / n_measured)
     dmodel = dask.delayed(model, pure=True)
 
     def put(idx: int, out: np.ndarray) -> None:
@@ -275,7 +290,8 @@ def run_maps(
         "pixel_size_um": cube.pixel_size_um,
         "energy_first_eV": float(e[0]),
         "energy_last_eV": float(e[-1]),
-        "notes": cube.notes,
+        "notes": notes,
+        "pixels_unmeasured": n_unmeasured,
     }
     return MapResult(
         families,

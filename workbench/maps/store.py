@@ -55,15 +55,26 @@ def _lut() -> np.ndarray:
 
 
 def _normalise(img: np.ndarray, vmin: float | None, vmax: float | None) -> np.ndarray:
-    a = np.nan_to_num(np.asarray(img, dtype=float))
-    lo = float(np.percentile(a, 1)) if vmin is None else vmin
-    hi = float(np.percentile(a, 99.5)) if vmax is None else vmax
-    return np.clip((a - lo) / (hi - lo if hi > lo else 1.0), 0, 1)
+    """Values scaled to 0–1 over the measured (finite) pixels; unmeasured ones 0."""
+    a = np.asarray(img, dtype=float)
+    finite = np.isfinite(a)
+    v = a[finite] if finite.any() else np.zeros(1)
+    lo = float(np.percentile(v, 1)) if vmin is None else vmin
+    hi = float(np.percentile(v, 99.5)) if vmax is None else vmax
+    with np.errstate(invalid="ignore"):
+        out = np.clip((a - lo) / (hi - lo if hi > lo else 1.0), 0, 1)
+    return np.where(finite, out, 0.0)
 
 
 def colourise(img: np.ndarray, vmin: float | None = None, vmax: float | None = None) -> np.ndarray:
-    """Map values to viridis RGB ``(ny, nx, 3)`` uint8 (1st–99.5th percentile by default)."""
-    return _lut()[(_normalise(img, vmin, vmax) * 255).astype(np.uint8)]
+    """Map values to viridis RGB ``(ny, nx, 3)`` uint8 (1st–99.5th percentile by default).
+
+    Unmeasured pixels (NaN, :func:`workbench.maps.fit.measured_pixels`) are white,
+    a colour the viridis scale never takes.
+    """
+    rgb = _lut()[(_normalise(img, vmin, vmax) * 255).astype(np.uint8)]
+    rgb[~np.isfinite(np.asarray(img, dtype=float))] = 255
+    return rgb
 
 
 def rgb_overlay(red: np.ndarray, green: np.ndarray, blue: np.ndarray) -> np.ndarray:
@@ -208,7 +219,9 @@ def write_products(
     px = result.cube.get("pixel_size_um")
     for k, sp in enumerate(result.families):
         files[f"{_safe(sp)}.png"] = preview_png(
-            colourise(result.maps[k]), px, f"{sp} fitted counts (max {result.maps[k].max():.0f})"
+            colourise(result.maps[k]),
+            px,
+            f"{sp} fitted counts (max {np.nanmax(result.maps[k]):.0f})",
         )
     if rgb:
         idx = [result.family_index(s) for s in rgb]
