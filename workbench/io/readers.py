@@ -49,6 +49,8 @@ def _guess_kind(parsed: Parsed, block: int | str | None) -> tuple[str, str]:
         return "spectrum", f"JCAMP-DX block holds ##{b.kind.upper()}"
     cols = parsed.cols
     assert cols is not None
+    if cols.details.get("fits_image"):
+        return "spectrum", "FITS 1-D image"
     roles: dict[str, ColumnChoice] = {}
     if cols.headers is not None:
         try:
@@ -156,6 +158,8 @@ def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
         return jcamp_spectrum(b, parsed.raw, unit, medium, check, notes)
     cols = parsed.cols
     assert cols is not None
+    if "fits" in cols.details:
+        notes.append(str(cols.details["fits"]))
     if kind == "peak_list":
         return peak_list_from_columns(
             cols,
@@ -194,7 +198,7 @@ def read_peak_list(
     max_bytes: int = DEFAULT_MAX_BYTES,
     progress: Progress | None = None,
 ) -> PeakList:
-    """Read a peak list (delimited text, pasted cells, Parquet or a JCAMP-DX peak table).
+    """Read a peak list (delimited text, pasted cells, Parquet, FITS table, JCAMP-DX peak table).
 
     Parameters
     ----------
@@ -259,7 +263,7 @@ def read_spectrum(
     max_bytes: int = DEFAULT_MAX_BYTES,
     progress: Progress | None = None,
 ) -> Spectrum:
-    """Read a sampled spectrum (two-column text, JCAMP-DX or Parquet).
+    """Read a sampled spectrum (two-column text, JCAMP-DX, Parquet or FITS).
 
     Parameters
     ----------
@@ -323,8 +327,9 @@ def read_any(
 ) -> PeakList | Spectrum:
     """Read a peak list or a spectrum, deciding which from the content.
 
-    JCAMP-DX is recognised by its leading ``##TITLE=``, Parquet by its magic
-    bytes. A delimited table with at least 50 rows whose positions step
+    JCAMP-DX is recognised by its leading ``##TITLE=``, Parquet and FITS by
+    their first bytes; a FITS 1-D image is a spectrum. A table with at least
+    50 rows whose positions step
     (nearly: ≥ 95 % of steps) one way, evenly (95th-percentile step at most 3×
     the 5th), and no peak columns (fwhm, area, snr) is a spectrum, whose
     stricter checks then name any duplicated or out-of-order row; anything

@@ -1,7 +1,8 @@
 """From an input's bytes to columns: format detection and the column adapters.
 
 :func:`parse_source` loads the bytes (:mod:`workbench.io.source`), recognises
-Parquet by its magic bytes and JCAMP-DX by its leading ``##TITLE=``, and
+Parquet and FITS (:mod:`workbench.io.fits`) by their first bytes and JCAMP-DX
+by its leading ``##TITLE=``, and
 reads anything else as delimited text: its head is sniffed and the bulk
 parsed by polars (:mod:`workbench.io.fastcsv`); the careful line parser
 (:mod:`workbench.io.delimited`) runs only when that refuses, and only up to
@@ -17,12 +18,13 @@ import hashlib
 import io
 import os
 from collections.abc import Callable
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 import polars as pl
 
 from workbench.errors import FileFormatError, ValueRangeError
+from workbench.io.columnset import Columns
 from workbench.io.delimited import Table, numeric_column, parse_delimited
 from workbench.io.fastcsv import (
     CAREFUL_MAX_BYTES,
@@ -33,6 +35,7 @@ from workbench.io.fastcsv import (
     first_problem,
     read_fast,
 )
+from workbench.io.fits import columns_from_fits, looks_like_fits
 from workbench.io.jcamp import JcampBlock, looks_like_jcamp, parse_jcamp
 from workbench.io.source import BackgroundSha256, RawInput, decode_text, read_source
 
@@ -51,20 +54,6 @@ __all__ = [
 Source = bytes | str | os.PathLike[str]
 #: ``progress(fraction, message)``: called with 0 < fraction <= 1 as reading advances.
 Progress = Callable[[float, str], None]
-
-
-@dataclass
-class Columns:
-    """Columns of any tabular input, with row labels for messages."""
-
-    name: str
-    headers: list[str] | None
-    n_rows: int
-    get: Callable[[int, str, bool], tuple[np.ndarray, np.ndarray, str | None]]
-    row_label: Callable[[int], str]
-    comments: list[str] = field(default_factory=list)
-    fmt: str = "delimited"
-    details: dict[str, object] = field(default_factory=dict)
 
 
 def columns_from_table(table: Table) -> Columns:
@@ -268,6 +257,8 @@ def _parse_raw(raw: RawInput, progress: Progress | None) -> Parsed:
     report_progress(progress, 0.1, f"read {raw.size_bytes:,} bytes")
     if raw.data[:4] == b"PAR1":
         parsed = Parsed(raw, "parquet", cols=columns_from_parquet(raw.data, raw.name))
+    elif looks_like_fits(raw.data):
+        parsed = Parsed(raw, "fits", cols=columns_from_fits(raw.data, raw.name))
     elif raw.data.startswith((b"\xff\xfe", b"\xfe\xff")):
         # UTF-16 (rare): decode once, then treat the UTF-8 re-encoding like any file.
         text, encoding = decode_text(raw.data, raw.name)
