@@ -338,3 +338,34 @@ def test_infinite_intensity_is_still_refused():
 def test_nan_intensity_in_a_peak_list_is_null_like_an_empty_cell():
     pl_ = read_peak_list("wavelength (nm),intensity\n393.37,nan\n396.85,2\n")
     assert np.isnan(pl_.intensities[0]) and pl_.intensities[1] == 2.0
+
+
+# ------------------------------------------------ title lines; steps in stretches
+# Invented files (test inputs).
+
+
+@pytest.mark.parametrize("titles", [["Lab 7 spark stand, run 12"], ["Export v2", "Sample: demo"]])
+def test_title_lines_above_the_header_are_kept_as_comments(titles):
+    x, y = _rows()
+    body = "\n".join(f"{a:.3f},{b:.6f}" for a, b in zip(x, y, strict=True))
+    text = "\n".join(titles) + "\nwavelength (nm),counts\n" + body + "\n"
+    spec = read_spectrum(text.encode())
+    assert spec.x.size == 60
+    lines = ", ".join(str(i + 1) for i in range(len(titles)))
+    assert f"title line(s) above the header kept as comments (line {lines})" in spec.source.notes
+
+
+def test_a_text_cell_in_the_first_data_row_is_not_taken_for_a_header():
+    with pytest.raises(FileFormatError, match="row 2"):
+        read_peak_list("wavelength (nm),intensity\n400,abc\n401,2\n402,3\n")
+
+
+def test_steps_in_a_few_stretches_are_a_spectrum_and_irregular_ones_a_peak_list():
+    # 0.5 nm, then 1 nm, then 5 nm steps (as ASTM G173-03 is sampled).
+    x = np.r_[np.arange(300.0, 400.0, 0.5), np.arange(400.0, 700.0, 1.0), np.arange(700, 900, 5.0)]
+    body = "\n".join(f"{a:.2f},1.0" for a in x)
+    assert isinstance(read_any(("wavelength (nm),counts\n" + body).encode()), Spectrum)
+    rng = np.random.default_rng(20261204)
+    peaks = np.sort(rng.uniform(300.0, 900.0, 120))
+    body = "\n".join(f"{a:.3f},1.0" for a in peaks)
+    assert isinstance(read_any(("wavelength (nm),counts\n" + body).encode()), PeakList)

@@ -4,7 +4,12 @@ The delimiter is found from the data lines (tab, then semicolon, then comma,
 then runs of whitespace). With a semicolon, tab or whitespace delimiter a
 decimal comma (``656,28``, common in European labs) is read as a decimal
 point. Lines starting with ``#`` or ``%`` are comments, and so are lines
-starting with ``;`` unless ``;`` is the delimiter. Row numbers in messages
+starting with ``;`` unless ``;`` is the delimiter. Text lines above the
+header are a title (``ASTM G173-03 Reference Spectra …`` above the column
+names of pvlib's copy of that spectrum; an instrument's name and date): where
+two or more text lines precede the first line of numbers and the last of them
+has at least two cells and no number, that last line is the header and those
+above it are title lines, kept with the comments and noted. Row numbers in messages
 are 1-based physical line numbers, as a spreadsheet shows them (the header
 and comment lines count).
 """
@@ -66,7 +71,10 @@ class Table:
     decimal_comma : bool
         Whether ``,`` was read as the decimal separator.
     comments : list of str
-        Comment lines (without their marker), for medium and unit hints.
+        Comment lines (without their marker) and title lines, for medium and
+        unit hints.
+    title_lines : list of int
+        Line numbers of the title lines above the header (module docstring).
     inner_comments : list of int
         Line numbers of comment lines found among the data rows (skipped).
     trailing_delimiter : bool
@@ -83,6 +91,7 @@ class Table:
     comments: list[str] = field(default_factory=list)
     inner_comments: list[int] = field(default_factory=list)
     trailing_delimiter: bool = False
+    title_lines: list[int] = field(default_factory=list)
 
     @property
     def n_columns(self) -> int:
@@ -250,6 +259,13 @@ def parse_delimited(text: str, name: str) -> Table:
     if delimiter != ",":
         probe = [c for _, row in cells[1:200] for c in row]
         decimal_comma = any(_DECIMAL_COMMA.match(c) for c in probe)
+    title_lines: list[int] = []
+    n_text = _leading_text_rows(cells, decimal_comma)
+    if n_text >= 2 and _names_only(cells[n_text - 1][1], decimal_comma):
+        for number, row in cells[: n_text - 1]:
+            comments.append(" ".join(c for c in row if c))
+            title_lines.append(number)
+        cells = cells[n_text - 1 :]
     first_number, first = cells[0]
     header: list[str] | None = None
     header_line: int | None = None
@@ -294,7 +310,22 @@ def parse_delimited(text: str, name: str) -> Table:
         comments=comments,
         inner_comments=[n for n in comment_lines if n > first_data],
         trailing_delimiter=trailing,
+        title_lines=title_lines,
     )
+
+
+def _leading_text_rows(cells: list[tuple[int, list[str]]], decimal_comma: bool) -> int:
+    """How many rows precede the first row of numbers only (all rows when none is)."""
+    for i, (_, row) in enumerate(cells):
+        if all(_is_number(c, decimal_comma) for c in row if c):
+            return i
+    return len(cells)
+
+
+def _names_only(row: list[str], decimal_comma: bool) -> bool:
+    """Whether ``row`` can be a header: at least two cells, none of them a number."""
+    names = [c for c in row if c]
+    return len(names) >= 2 and not any(_is_number(c, decimal_comma) for c in names)
 
 
 def _fit_whitespace_header(line: str, width: int) -> list[str] | None:

@@ -98,7 +98,25 @@ def _guess_kind(parsed: Parsed, block: int | str | None) -> tuple[str, str]:
             lo, hi = np.percentile(steps, [5.0, 95.0])
             if hi <= 3.0 * lo:
                 return "spectrum", f"{cols.n_rows} evenly spaced rows"
+            if _piecewise_even(steps):
+                return "spectrum", f"{cols.n_rows} rows in stretches of even steps"
     return "peak_list", "positions are irregularly spaced"
+
+
+def _piecewise_even(steps: np.ndarray) -> bool:
+    """Whether positive ``steps`` are a few stretches of one step each.
+
+    Spectra are often sampled finer where it matters and coarser elsewhere
+    (ASTM G173-03: 0.5 nm to 400 nm, 1 nm to 1700 nm, 5 nm beyond; a merged
+    scan of two gratings): the step changes at a handful of places and stays
+    put between them. A peak list's spacings change at nearly every row. A
+    change is a step more than 5 % away from the one before; at most 1 % of
+    the steps (at least 2) may change (common practice, no source).
+    """
+    if steps.size < 49:
+        return False
+    change = np.abs(np.diff(steps)) > 0.05 * np.minimum(steps[1:], steps[:-1])
+    return bool(np.count_nonzero(change) <= max(2.0, 0.01 * steps.size))
 
 
 #: Positions per block in :func:`_steps_even_one_way` (a cache-sized slice).
@@ -141,6 +159,9 @@ def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
         notes.append(
             f"delimiter: {t.delimiter_name}" + ("; decimal comma" if t.decimal_comma else "")
         )
+        if t.title_lines:
+            shown = ", ".join(str(n) for n in t.title_lines)
+            notes.append(f"title line(s) above the header kept as comments (line {shown})")
         if t.inner_comments:
             shown = ", ".join(str(n) for n in t.inner_comments[:10])
             more = f" and {len(t.inner_comments) - 10} more" if len(t.inner_comments) > 10 else ""

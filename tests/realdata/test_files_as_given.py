@@ -1,0 +1,44 @@
+"""Real files given to the product as they come, not through the test loader.
+
+The loader (tests/realdata/loader.py) picks a column and a range; an analyst
+gives the whole file. pvlib 0.16.1's copy of ASTM G173-03
+(tests/data/realspectra/pvlib, hashes in the manifest) opens with a title
+line above its column names and steps 0.5, 1 and 5 nm: read whole, it must be
+a spectrum (read as 2,002 "peaks" at every sample, it gave Xe II "probable"),
+and matched in absorption it must call nothing the Sun's Fraunhofer spectrum
+does not show (H, Na, Mg, Ca, Fe: the issue's list for this spectrum).
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from tests.realdata.loader import DATA
+from workbench.datamodel import Spectrum
+from workbench.errors import UnitError
+from workbench.io import read_any
+from workbench.matching import MatchParameters
+from workbench.matching.analyse import analyse_spectrum
+
+G173 = DATA / "pvlib" / "ASTMG173.csv"
+
+
+def test_g173_as_given_is_a_spectrum_with_its_title_kept():
+    spec = read_any(G173, unit="nm")
+    assert isinstance(spec, Spectrum) and spec.x.size == 2002  # rows of the file, counted
+    assert spec.x[0] == 280.0 and spec.x[-1] == 4000.0
+    assert any("title line" in n and "line 1" in n for n in spec.source.notes)
+    assert any("'extraterrestrial'" in n for n in spec.source.notes)  # the first y column
+
+
+def test_g173_without_a_unit_asks_for_one():
+    with pytest.raises(UnitError, match="--unit"):
+        read_any(G173)
+
+
+@pytest.mark.parametrize("prior", ["none", "solar"])
+def test_g173_as_given_calls_nothing_the_sun_does_not_show(prior):
+    spec = read_any(G173, unit="nm")
+    out = analyse_spectrum(spec, None, MatchParameters(mode="absorption", abundance_prior=prior))
+    high = {e["element"] for e in out.report["elements"] if e["verdict_level"] >= 2}
+    assert high <= {"H", "Na", "Mg", "Ca", "Fe"}, high
