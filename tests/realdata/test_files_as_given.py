@@ -11,6 +11,7 @@ does not show (H, Na, Mg, Ca, Fe: the issue's list for this spectrum).
 
 from __future__ import annotations
 
+import numpy as np
 import pytest
 
 from tests.realdata.loader import DATA
@@ -42,3 +43,17 @@ def test_g173_as_given_calls_nothing_the_sun_does_not_show(prior):
     out = analyse_spectrum(spec, None, MatchParameters(mode="absorption", abundance_prior=prior))
     high = {e["element"] for e in out.report["elements"] if e["verdict_level"] >= 2}
     assert high <= {"H", "Na", "Mg", "Ca", "Fe"}, high
+
+
+def test_a_pipe_table_line_list_as_given():
+    # pypeit 2.0.1's OH line list: a '|'-bounded table with text columns
+    # (ion, source) beside the numbers; wavelengths in vacuum Å (its docs).
+    from tests.realdata.test_sky_lines import _oh_lines
+    from workbench.io import read_peak_list
+
+    w_nm, amp = _oh_lines("OH_MODS_lines.dat")
+    peaks = read_peak_list(DATA / "pypeit" / "OH_MODS_lines.dat", unit="angstrom", medium="vacuum")
+    order = np.argsort(w_nm)
+    np.testing.assert_allclose(peaks.positions, w_nm[order], rtol=1e-12)
+    np.testing.assert_allclose(peaks.intensities, amp[order], rtol=1e-12)
+    assert "delimiter: pipe" in peaks.source.notes

@@ -42,6 +42,7 @@ _SYNONYMS: dict[str, tuple[str, ...]] = {
     "position": (
         "wavelength",
         "wave length",
+        "wave",
         "lambda",
         "λ",
         "wl",
@@ -65,6 +66,7 @@ _SYNONYMS: dict[str, tuple[str, ...]] = {
         "height",
         "peak height",
         "amplitude",
+        "flux",
         "signal",
         "i",
         "int",

@@ -47,7 +47,7 @@ _SPREADSHEET_ERROR = re.compile(
 #: Longest cell accepted (characters); csv's own limit is 131,072.
 MAX_CELL_CHARS = 100_000
 _DECIMAL_COMMA = re.compile(r"^\s*[+-]?\d*,\d+(?:[eE][+-]?\d+)?\s*$")
-_DELIMITER_NAMES = {"\t": "tab", ";": "semicolon", ",": "comma", " ": "whitespace"}
+_DELIMITER_NAMES = {"\t": "tab", ";": "semicolon", ",": "comma", "|": "pipe", " ": "whitespace"}
 
 
 @dataclass
@@ -168,7 +168,7 @@ def _split_unit(cell: str) -> tuple[float, str | None] | None:
 
 def _choose_delimiter(lines: list[str]) -> str:
     sample = lines[1:201] if len(lines) > 1 else lines
-    for cand in ("\t", ";", ","):
+    for cand in ("\t", ";", ",", "|"):
         counts = {line.count(cand) for line in sample}
         if len(counts) == 1 and next(iter(counts)) > 0:
             return cand

@@ -304,5 +304,5 @@ def _columns(
         row_label=lambda i: f"{row_word} {i + 1}",
         comments=[],
         fmt="fits",
-        details={"fits": note, "fits_image": image, "n_columns": len(headers)},
+        details={"note": f"FITS {note}", "fits_image": image, "n_columns": len(headers)},
     )

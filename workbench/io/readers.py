@@ -179,8 +179,8 @@ def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
         return jcamp_spectrum(b, parsed.raw, unit, medium, check, notes)
     cols = parsed.cols
     assert cols is not None
-    if "fits" in cols.details:
-        notes.append(str(cols.details["fits"]))
+    if "note" in cols.details:  # what a FITS or JSON reader decided
+        notes.append(str(cols.details["note"]))
     if kind == "peak_list":
         return peak_list_from_columns(
             cols,

@@ -1,8 +1,9 @@
 """From an input's bytes to columns: format detection and the column adapters.
 
 :func:`parse_source` loads the bytes (:mod:`workbench.io.source`), recognises
-Parquet and FITS (:mod:`workbench.io.fits`) by their first bytes and JCAMP-DX
-by its leading ``##TITLE=``, and
+Parquet and FITS (:mod:`workbench.io.fits`) by their first bytes, JSON
+tables (:mod:`workbench.io.jsontable`) by a leading ``{`` or ``[`` that
+parses, and JCAMP-DX by its leading ``##TITLE=``, and
 reads anything else as delimited text: its head is sniffed and the bulk
 parsed by polars (:mod:`workbench.io.fastcsv`); the careful line parser
 (:mod:`workbench.io.delimited`) runs only when that refuses, and only up to
@@ -37,6 +38,7 @@ from workbench.io.fastcsv import (
 )
 from workbench.io.fits import columns_from_fits, looks_like_fits
 from workbench.io.jcamp import JcampBlock, looks_like_jcamp, parse_jcamp
+from workbench.io.jsontable import columns_from_json, looks_like_json
 from workbench.io.source import BackgroundSha256, RawInput, decode_text, read_source
 
 __all__ = [
@@ -259,6 +261,8 @@ def _parse_raw(raw: RawInput, progress: Progress | None) -> Parsed:
         parsed = Parsed(raw, "parquet", cols=columns_from_parquet(raw.data, raw.name))
     elif looks_like_fits(raw.data):
         parsed = Parsed(raw, "fits", cols=columns_from_fits(raw.data, raw.name))
+    elif looks_like_json(raw.data) and (js := columns_from_json(raw.data, raw.name)) is not None:
+        parsed = Parsed(raw, "json", cols=js)
     elif raw.data.startswith((b"\xff\xfe", b"\xfe\xff")):
         # UTF-16 (rare): decode once, then treat the UTF-8 re-encoding like any file.
         text, encoding = decode_text(raw.data, raw.name)

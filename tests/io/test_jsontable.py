@@ -1,0 +1,91 @@
+"""JSON tables: objects of arrays, records, rows; and what is not a table.
+
+Invented data (test inputs), except pypeit 2.0.1's archived Kast arc solution
+(tests/data/realspectra/pypeit, hashes in the manifest), a JSON file that
+holds no spectrum with wavelengths.
+"""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+
+from tests.realdata.loader import DATA
+from workbench.datamodel import PeakList, Spectrum
+from workbench.errors import FileFormatError, InputError
+from workbench.io import read_any, read_peak_list, read_spectrum
+
+
+def _spectrum_arrays(n=120):
+    x = np.linspace(400.0, 460.0, n)
+    return x, 10.0 + 100.0 * np.exp(-0.5 * ((x - 430.0) / 0.3) ** 2)
+
+
+def test_object_of_arrays_is_a_spectrum():
+    x, y = _spectrum_arrays()
+    doc = {"instrument": "demo", "wavelength (nm)": x.tolist(), "counts": y.tolist()}
+    spec = read_any(json.dumps(doc).encode())
+    assert isinstance(spec, Spectrum) and spec.source.format == "json"
+    np.testing.assert_allclose(spec.x, x)
+    assert any("members not read: instrument" in n for n in spec.source.notes)
+
+
+def test_one_nested_object_is_opened():
+    x, y = _spectrum_arrays()
+    doc = {"spectrum": {"wavelength_nm": x.tolist(), "intensity": y.tolist()}}
+    spec = read_spectrum(json.dumps(doc).encode())
+    assert spec.x.size == 120 and any("member 'spectrum'" in n for n in spec.source.notes)
+
+
+def test_null_intensities_are_missing_samples():
+    x, y = _spectrum_arrays()
+    ys = y.tolist()
+    ys[10] = None
+    spec = read_spectrum(json.dumps({"wavelength (nm)": x.tolist(), "counts": ys}).encode())
+    assert spec.x.size == 119 and any("value 11" in n for n in spec.source.notes)
+
+
+def test_records_are_a_peak_list():
+    doc = [
+        {"wavelength_nm": 393.366, "intensity": 100, "note": "Ca II K"},
+        {"wavelength_nm": 396.847, "intensity": 90, "note": "Ca II H"},
+        {"wavelength_nm": 422.673, "intensity": 40, "note": "Ca I"},
+    ]
+    peaks = read_any(json.dumps(doc).encode())
+    assert isinstance(peaks, PeakList)
+    np.testing.assert_allclose(peaks.positions, [393.366, 396.847, 422.673])
+
+
+def test_rows_without_a_header():
+    doc = [[393.366, 100.0], [396.847, 90.0], [422.673, 40.0]]
+    peaks = read_peak_list(json.dumps(doc).encode(), unit="nm")
+    np.testing.assert_allclose(peaks.intensities, [100.0, 90.0, 40.0])
+
+
+@pytest.mark.parametrize(
+    ("doc", "why"),
+    [
+        ({"name": "x", "settings": {"gain": 2}}, "no member is an array"),
+        ({"a": [1.0, 2.0, 3.0], "b": [1.0, 2.0]}, "no two number arrays"),
+        ([{"a": 1.0, "b": "x"}, {"a": 2.0, "b": "y"}], "fewer than two number fields"),
+        ([[1.0, 2.0], [3.0]], "different lengths"),
+        ([[1.0, "a"], [3.0, "b"]], "other than numbers"),
+    ],
+)
+def test_json_without_a_table_is_one_clear_error(doc, why):
+    with pytest.raises(FileFormatError, match=why):
+        read_any(json.dumps(doc).encode())
+
+
+def test_a_pipeline_archive_is_refused_clearly():
+    # pypeit's arc solution: pixel-space fit and identified lines, no wavelength column.
+    with pytest.raises(InputError, match="position column"):
+        read_any(DATA / "pypeit" / "kastr_600_7500_PYPIT.json", unit="nm")
+
+
+def test_text_starting_with_a_bracket_that_is_not_json_is_a_table():
+    text = "[nm],counts\n" + "\n".join(f"{400 + i},{i % 7}" for i in range(60))
+    spec = read_spectrum(text.encode(), unit="nm")
+    assert spec.source.format == "delimited" and spec.x.size == 60

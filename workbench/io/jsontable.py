@@ -1,0 +1,139 @@
+"""JSON tables: equal-length number arrays or records, read as columns.
+
+Scripts and web services often hand a spectrum or a peak list on as JSON.
+Three layouts are read, each becoming :class:`~workbench.io.columnset.Columns`
+so that the same column, unit, medium and value checks apply as for a
+delimited table:
+
+* an object of arrays, ``{"wavelength (nm)": [...], "counts": [...]}``: the
+  longest arrays of numbers that share their length (at least two arrays of
+  at least two values; ``null`` is a missing value); an object whose only
+  member is such an object (``{"spectrum": {...}}``) is opened once;
+* a list of records, ``[{"wavelength_nm": 393.37, "intensity": 10}, ...]``:
+  the keys of the first record whose values are numbers;
+* a list of rows, ``[[393.37, 10], ...]``: columns without a header.
+
+Anything else (a pipeline's own archive, a configuration file) is one clear
+error naming the layouts read.
+"""
+
+from __future__ import annotations
+
+import json
+from collections import Counter
+from typing import Any
+
+import numpy as np
+
+from workbench.errors import FileFormatError, ValueRangeError
+from workbench.io.columnset import Columns
+
+__all__ = ["columns_from_json", "looks_like_json"]
+
+
+def looks_like_json(data: bytes) -> bool:
+    """Whether the bytes open (after white space and a BOM) with ``{`` or ``[``."""
+    head = data[:64].removeprefix(b"\xef\xbb\xbf").lstrip()
+    return head[:1] in (b"{", b"[")
+
+
+def _no_table(name: str, why: str) -> FileFormatError:
+    return FileFormatError(
+        f"{name} is JSON but holds no table ({why})",
+        'give an object of equal-length number arrays ({"wavelength (nm)": [...], '
+        '"counts": [...]}), a list of records or a list of rows, or export a CSV table',
+    )
+
+
+def _numbers(values: Any) -> np.ndarray | None:
+    """A list of numbers (``null`` → NaN) as float64, or None when it is not one."""
+    if not isinstance(values, list) or len(values) < 2:
+        return None
+    if not all(
+        v is None or (isinstance(v, int | float) and not isinstance(v, bool)) for v in values
+    ):
+        return None
+    return np.array([np.nan if v is None else float(v) for v in values], dtype=np.float64)
+
+
+def columns_from_json(data: bytes, name: str) -> Columns | None:
+    """Columns of a JSON table (module docstring); None when the text is not JSON.
+
+    Text that opens with ``[`` or ``{`` but does not parse as JSON is left to
+    the delimited-text reader (a header cell may be ``[nm]``).
+
+    Raises
+    ------
+    FileFormatError
+        For JSON in none of the layouts read.
+    """
+    try:
+        doc = json.loads(data.decode("utf-8-sig"))
+    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError):
+        return None
+    note = ""
+    if isinstance(doc, dict) and len(doc) == 1 and isinstance(next(iter(doc.values())), dict):
+        key = next(iter(doc))
+        doc = doc[key]
+        note = f"the table of member {key!r}; "
+    if isinstance(doc, dict):
+        arrays = {str(k): a for k, v in doc.items() if (a := _numbers(v)) is not None}
+        if not arrays:
+            raise _no_table(name, "no member is an array of numbers")
+        shared = [n for n, c in Counter(a.size for a in arrays.values()).items() if c >= 2]
+        if not shared:
+            raise _no_table(name, "no two number arrays have the same length")
+        length = max(shared)  # a spectrum's arrays are the longest ones
+        headers = [k for k, a in arrays.items() if a.size == length]
+        values = [arrays[k] for k in headers]
+        skipped = [k for k in doc if str(k) not in headers]
+        note += f"arrays {', '.join(headers)} of {length:,} values"
+        if skipped:
+            note += f"; members not read: {', '.join(map(str, skipped[:10]))}"
+        return _columns(name, headers, values, note, "value")
+    if isinstance(doc, list) and doc and all(isinstance(r, dict) for r in doc):
+        keys = [str(k) for k, v in doc[0].items() if isinstance(v, int | float | None)]
+        cols = [_numbers([r.get(k) for r in doc] if len(doc) >= 2 else []) for k in keys]
+        pairs = [(k, c) for k, c in zip(keys, cols, strict=True) if c is not None]
+        if len(pairs) < 2:
+            raise _no_table(name, "the records have fewer than two number fields")
+        note = f"{len(doc):,} records, fields {', '.join(k for k, _ in pairs)}"
+        return _columns(name, [k for k, _ in pairs], [c for _, c in pairs], note, "record")
+    if isinstance(doc, list) and doc and all(isinstance(r, list) for r in doc):
+        widths = {len(r) for r in doc}
+        if len(widths) != 1 or widths.pop() < 2:
+            raise _no_table(name, "the rows have different lengths or fewer than two values")
+        cols = [_numbers([r[j] for r in doc]) for j in range(len(doc[0]))]
+        if any(c is None for c in cols):
+            raise _no_table(name, "a row holds something other than numbers")
+        note = f"{len(doc):,} rows of {len(cols)} numbers, no header"
+        return _columns(name, None, cols, note, "row")  # type: ignore[arg-type]
+    raise _no_table(name, "neither an object of arrays nor a list of records or rows")
+
+
+def _columns(
+    name: str, headers: list[str] | None, values: list[np.ndarray], note: str, row_word: str
+) -> Columns:
+    n = values[0].size
+
+    def get(index: int, label: str, allow_empty: bool):
+        v = values[index]
+        missing = np.isnan(v)
+        if missing.any() and not allow_empty:
+            i = int(np.argmax(missing))
+            raise ValueRangeError(
+                f"{name}: {row_word} {i + 1} of {label!r} is null",
+                "give a number there, or drop the value from every array",
+            )
+        return v, missing, None
+
+    return Columns(
+        name=name,
+        headers=headers,
+        n_rows=n,
+        get=get,
+        row_label=lambda i: f"{row_word} {i + 1}",
+        comments=[],
+        fmt="json",
+        details={"note": f"JSON: {note}", "n_columns": len(values)},
+    )
