@@ -1,4 +1,4 @@
-"""Seeded generators of hostile reader inputs (delimited text, JCAMP-DX, Parquet).
+"""Seeded generators of hostile reader inputs (delimited text, JCAMP-DX, Parquet, FITS, JSON).
 
 Plain functions of a ``numpy.random.Generator``, so the same seed gives the
 same inputs on every machine, and the harness can be run against any commit
@@ -20,7 +20,9 @@ __all__ = [
     "HOSTILE_CELLS",
     "Outcome",
     "delimited_case",
+    "fits_case",
     "jcamp_case",
+    "json_case",
     "mutate",
     "parquet_case",
     "run_case",
@@ -215,6 +217,82 @@ def parquet_case(rng: np.random.Generator) -> bytes:
     buf = io.BytesIO()
     df.write_parquet(buf)
     return buf.getvalue()
+
+
+def fits_case(rng: np.random.Generator) -> bytes:
+    """A small FITS file: a 1-D image with random WCS keywords, or a table."""
+    import warnings
+
+    from astropy.io import fits
+
+    n = int(rng.choice([0, 1, 3, 60]))
+    if rng.random() < 0.3:
+        cols = [
+            fits.Column(
+                name=str(rng.choice(["WAVE", "wavelength", "x", "pixel"])),
+                format="D",
+                unit=str(rng.choice(["nm", "Angstrom", "", "keV", "furlong"])),
+                array=np.sort(rng.uniform(300, 800, n)),
+            ),
+            fits.Column(name="FLUX", format="D", array=rng.choice([1.0, np.nan, 1e308], n)),
+        ]
+        hdus = [fits.PrimaryHDU(), fits.BinTableHDU.from_columns(cols)]
+    else:
+        shape = (n,) if rng.random() < 0.8 else (2, max(n, 1))
+        data = rng.uniform(0, 100, shape).astype(str(rng.choice(["float32", "int16", "float64"])))
+        hdu = fits.PrimaryHDU(data)
+        keys = {
+            "CTYPE1": ["WAVE", "AWAV", "LINEAR", "WAVE-LOG", "RA---TAN", ""],
+            "CUNIT1": ["nm", "Angstrom", "m", "", "parsec"],
+            "CRVAL1": [500.0, 0.0, -1.0, 1e300, 5e-7],
+            "CDELT1": [0.1, 0.0, -0.1, 1e300, 1e-11],
+            "CRPIX1": [1.0, 0.0, 1e9],
+            "DC-FLAG": [0, 1, 7],
+            "GSP_FUNC": ["Chebyshev1D", "Spline3"],
+            "GSP_ORDR": [2, -1, 99],
+            "GSP_C000": [5000.0],
+            "GSP_C001": [1.0],
+        }
+        for k, choices in keys.items():
+            if rng.random() < 0.6:
+                v = choices[int(rng.integers(0, len(choices)))]
+                hdu.header[k] = v
+        hdus = [hdu]
+    buf = io.BytesIO()
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        fits.HDUList(hdus).writeto(buf)
+    return buf.getvalue()
+
+
+def json_case(rng: np.random.Generator) -> bytes:
+    """A small JSON document: arrays, records or rows, with hostile values."""
+    import json
+
+    n = int(rng.choice([0, 1, 3, 60]))
+    values = [0.0, -1.0, 1e308, None, True, "x", 10**400, [], {}, float("nan")]
+
+    def cell() -> object:
+        return (
+            values[int(rng.integers(0, len(values)))]
+            if rng.random() < 0.1
+            else float(rng.uniform(300, 800))
+        )
+
+    kind = int(rng.integers(0, 4))
+    if kind == 0:
+        doc: object = {
+            "wavelength (nm)": sorted(float(v) for v in rng.uniform(300, 800, n)),
+            "counts": [cell() for _ in range(n)],
+            "meta": {"gain": cell()},
+        }
+    elif kind == 1:
+        doc = {"spectrum": {"x": [cell() for _ in range(n)], "y": [cell() for _ in range(n)]}}
+    elif kind == 2:
+        doc = [{"wavelength_nm": cell(), "intensity": cell()} for _ in range(n)]
+    else:
+        doc = [[cell() for _ in range(int(rng.integers(1, 4)))] for _ in range(n)]
+    return json.dumps(doc, allow_nan=True).encode()
 
 
 def mutate(data: bytes, rng: np.random.Generator) -> bytes:

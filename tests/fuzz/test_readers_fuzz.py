@@ -4,10 +4,10 @@ Bounds checked on every input (documented in tests/fuzz/README.md): at most
 5 s per MB of input (at least 1 MB counted) as a hang guard, not a speed
 measurement; Python-side peak memory (tracemalloc, on every fourth seeded
 input) at most 4 x the input + 16 MiB. Warnings are errors in this suite, so a numpy
-RuntimeWarning also fails. Inputs: 11,500 in all (hypothesis, derandomized:
+RuntimeWarning also fails. Inputs: 12,400 in all (hypothesis, derandomized:
 2,500 tables, 3,000 byte strings, 1,500 JCAMP-DX; seeded generators of
 ``generators.py``, half of them mutated: 2,200 tables, 2,000 JCAMP-DX, 300
-Parquet).
+Parquet, 300 FITS, 600 JSON).
 """
 
 from __future__ import annotations
@@ -21,7 +21,9 @@ from tests.fuzz.generators import (
     HOSTILE_CELLS,
     Outcome,
     delimited_case,
+    fits_case,
     jcamp_case,
+    json_case,
     mutate,
     parquet_case,
     run_case,
@@ -136,9 +138,15 @@ def test_hypothesis_jcamp(labels, table, data_lines) -> None:
         ("delimited", delimited_case, 2200),
         ("jcamp", jcamp_case, 2000),
         ("parquet", parquet_case, 300),
+        ("fits", fits_case, 300),
+        ("json", json_case, 600),
     ],
 )
 def test_seeded_generators_and_mutations(label, make, n) -> None:
+    if label == "fits":
+        # astropy is imported on the first FITS input; import it before the
+        # memory of any input is traced (its import is not the reader's cost).
+        import astropy.io.fits  # noqa: F401
     rng = np.random.default_rng(20261202)
     outcome = Outcome()
     readers = (_read_checked, read_peak_list, read_spectrum)

@@ -129,6 +129,10 @@ def _head(data: bytes, name: str, size: int) -> tuple[str, int]:
     text, encoding = decode_text(head, name)
     if encoding not in ("utf-8", "utf-8-sig", "latin-1"):
         raise NeedCarefulParser(encoding)
+    if encoding == "latin-1" and b"\x85" in head:
+        # In latin-1 the byte 0x85 is NEL, a line break to str.splitlines: the
+        # head's line numbers would no longer count the b"\n" of the bytes.
+        raise NeedCarefulParser("unusual line breaks")
     return text, cut
 
 
@@ -136,7 +140,9 @@ def _offset_of_line(data: bytes, line: int) -> int:
     """Byte offset of the start of 1-based physical ``line``."""
     pos = 0
     for _ in range(line - 1):
-        pos = data.index(b"\n", pos) + 1
+        pos = data.find(b"\n", pos) + 1
+        if pos == 0:  # the head counted a break the bytes do not hold
+            raise NeedCarefulParser("line numbering")
     return pos
 
 

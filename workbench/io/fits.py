@@ -88,7 +88,8 @@ def columns_from_fits(data: bytes, name: str) -> Columns:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")  # non-standard keywords: read what is there
             hdul = fits.open(io.BytesIO(data), memmap=False, lazy_load_hdus=False)
-            hdus = [(i, h.name, h.header.copy(), _data(h)) for i, h in enumerate(hdul)]
+            # dict(): every card parsed here, so that a broken one is caught here.
+            hdus = [(i, h.name, dict(h.header.items()), _data(h)) for i, h in enumerate(hdul)]
             hdul.close()
     except FileFormatError:
         raise
@@ -158,19 +159,23 @@ def _image_columns(
             f"{name} {label}: the header has no wavelength solution (CRVAL1)",
             "add CRVAL1, CDELT1 (or CD1_1), CRPIX1 and CUNIT1, or export a two-column table",
         )
-    crval = float(header["CRVAL1"])
-    cdelt = float(header.get("CDELT1", header.get("CD1_1", 1.0)))
-    crpix = float(header.get("CRPIX1", 1.0))
+    crval = _number(header, "CRVAL1", None, name, label)
+    step_key = "CDELT1" if "CDELT1" in header else "CD1_1"
+    cdelt = _number(header, step_key, 1.0, name, label)
+    crpix = _number(header, "CRPIX1", 1.0, name, label)
     p = np.arange(1, n + 1, dtype=np.float64) - crpix
     how = "linear"
-    if ctype.endswith("-LOG"):
-        x = crval * np.exp(cdelt * p / crval)
-        how = "logarithmic (WCS -LOG)"
-    elif int(header.get("DC-FLAG", 0)) == 1:
-        x = 10.0 ** (crval + cdelt * p)
-        how = "log10-linear (IRAF DC-FLAG = 1)"
-    else:
-        x = crval + cdelt * p
+    # Overflow or 0/0 from absurd keywords gives inf/NaN positions, which the
+    # spectrum checks refuse, naming the sample.
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        if ctype.endswith("-LOG"):
+            x = crval * np.exp(cdelt * p / crval)
+            how = "logarithmic (WCS -LOG)"
+        elif _int(header.get("DC-FLAG", 0)) == 1:
+            x = 10.0 ** (crval + cdelt * p)
+            how = "log10-linear (IRAF DC-FLAG = 1)"
+        else:
+            x = crval + cdelt * p
     factor, unit = _unit_of(header.get("CUNIT1"))
     unit_from = "CUNIT1"
     if unit is None:
@@ -180,7 +185,8 @@ def _image_columns(
     if unit is None and ctype in ("WAVE", "AWAV", "WAVE-LOG", "AWAV-LOG"):
         factor, unit = 1e9, "nm"  # the standard's default unit for WAVE/AWAV is the metre
         unit_from = "the WCS default (m)"
-    x = x * factor
+    with np.errstate(over="ignore", invalid="ignore"):
+        x = x * factor
     medium = _CTYPE_MEDIUM.get(ctype)
     inside = ", ".join(v for v in (unit, medium) if v)
     headers = ["wavelength" + (f" ({inside})" if inside else ""), _y_label(header)]
@@ -221,8 +227,10 @@ def _goodman_columns(
         )
     try:
         order = int(header["GSP_ORDR"])
+        if not 0 <= order <= 20:
+            raise ValueError(order)
         coef = [float(header[f"GSP_C{i:03d}"]) for i in range(order + 1)]
-    except (KeyError, ValueError):
+    except (KeyError, ValueError, TypeError, OverflowError):
         raise FileFormatError(
             f"{name} {label}: GSP_ORDR or one of the GSP_C coefficients is missing or not a number",
             "export the spectrum with its wavelengths as a two-column CSV table",
@@ -236,6 +244,27 @@ def _goodman_columns(
         note += "; skipped " + "; ".join(skipped)
     headers = ["wavelength (angstrom, air)", _y_label(header)]
     return _columns(name, headers, [x, np.asarray(y, dtype=np.float64)], note, "sample", True)
+
+
+def _number(header: Any, key: str, default: float | None, name: str, label: str) -> float:
+    """A header keyword as a float (``default`` when absent), or one clear error."""
+    if key not in header and default is not None:
+        return default
+    try:
+        return float(header[key])
+    except (TypeError, ValueError, OverflowError):
+        raise FileFormatError(
+            f"{name} {label}: keyword {key} = {header[key]!r} is not a number",
+            f"correct {key} in the header, or export a two-column table",
+        ) from None
+
+
+def _int(v: Any) -> int | None:
+    """A header value as an int, or None when it is not one."""
+    try:
+        return int(v)
+    except (TypeError, ValueError, OverflowError):
+        return None
 
 
 def _y_label(header: Any) -> str:

@@ -53,7 +53,15 @@ def _numbers(values: Any) -> np.ndarray | None:
         v is None or (isinstance(v, int | float) and not isinstance(v, bool)) for v in values
     ):
         return None
-    return np.array([np.nan if v is None else float(v) for v in values], dtype=np.float64)
+    return np.array([np.nan if v is None else _float(v) for v in values], dtype=np.float64)
+
+
+def _float(v: float) -> float:
+    """``float(v)``; an integer beyond the float range becomes ±inf (refused later, named)."""
+    try:
+        return float(v)
+    except OverflowError:
+        return float("inf") if v > 0 else float("-inf")
 
 
 def columns_from_json(data: bytes, name: str) -> Columns | None:
