@@ -1,4 +1,4 @@
-"""Seeded generators of hostile reader inputs (delimited text, JCAMP-DX, Parquet, FITS, JSON).
+"""Seeded generators of hostile reader inputs (delimited, JCAMP-DX, Parquet, FITS, JSON, EMSA).
 
 Plain functions of a ``numpy.random.Generator``, so the same seed gives the
 same inputs on every machine, and the harness can be run against any commit
@@ -23,6 +23,7 @@ __all__ = [
     "fits_case",
     "jcamp_case",
     "json_case",
+    "msa_case",
     "mutate",
     "parquet_case",
     "run_case",
@@ -293,6 +294,33 @@ def json_case(rng: np.random.Generator) -> bytes:
     else:
         doc = [[cell() for _ in range(int(rng.integers(1, 4)))] for _ in range(n)]
     return json.dumps(doc, allow_nan=True).encode()
+
+
+def msa_case(rng: np.random.Generator) -> bytes:
+    """A small EMSA/MAS file with hostile keywords and data cells."""
+    n = int(rng.choice([0, 1, 5, 60, 60, 60]))
+    datatype = str(rng.choice(["Y", "Y", "XY", "Q", ""]))
+    keys = {
+        "NPOINTS": [str(n), "0", "nan", "1e400", str(n + 1), "-3"],
+        "XUNITS": ["keV", "eV", "", "nm", "furlong"],
+        "XPERCHAN": ["0.01", "0", "-0.01", "nan", "x", "1e308"],
+        "OFFSET": ["-0.2", "0", "1e308", "inf", ""],
+        "DATATYPE": [datatype],
+    }
+    head = ["#FORMAT : EMSA/MAS Spectral Data File"]
+    for k, choices in keys.items():
+        if rng.random() < 0.8:
+            # The first choice (a valid value) two times in three.
+            pick = 0 if rng.random() < 0.67 else int(rng.integers(0, len(choices)))
+            head.append(f"#{k} : {choices[pick]}")
+    width = 2 if datatype == "XY" else 5
+    cells = [
+        str(rng.choice(HOSTILE_CELLS)) if rng.random() < 0.005 else f"{rng.uniform(0, 20):.4g}"
+        for _ in range(n * (2 if datatype == "XY" else 1))
+    ]
+    rows = [", ".join(cells[i : i + width]) for i in range(0, len(cells), width)]
+    end = ["#ENDOFDATA : end"] if rng.random() < 0.8 else []
+    return "\n".join([*head, "#SPECTRUM : start", *rows, *end]).encode("utf-8", "replace")
 
 
 def mutate(data: bytes, rng: np.random.Generator) -> bytes:

@@ -4,10 +4,10 @@ Bounds checked on every input (documented in tests/fuzz/README.md): at most
 5 s per MB of input (at least 1 MB counted) as a hang guard, not a speed
 measurement; Python-side peak memory (tracemalloc, on every fourth seeded
 input) at most 4 x the input + 16 MiB. Warnings are errors in this suite, so a numpy
-RuntimeWarning also fails. Inputs: 12,400 in all (hypothesis, derandomized:
+RuntimeWarning also fails. Inputs: 12,800 in all (hypothesis, derandomized:
 2,500 tables, 3,000 byte strings, 1,500 JCAMP-DX; seeded generators of
 ``generators.py``, half of them mutated: 2,200 tables, 2,000 JCAMP-DX, 300
-Parquet, 300 FITS, 600 JSON).
+Parquet, 300 FITS, 600 JSON, 400 EMSA/MAS).
 """
 
 from __future__ import annotations
@@ -24,6 +24,7 @@ from tests.fuzz.generators import (
     fits_case,
     jcamp_case,
     json_case,
+    msa_case,
     mutate,
     parquet_case,
     run_case,
@@ -140,6 +141,7 @@ def test_hypothesis_jcamp(labels, table, data_lines) -> None:
         ("parquet", parquet_case, 300),
         ("fits", fits_case, 300),
         ("json", json_case, 600),
+        ("emsa", msa_case, 400),
     ],
 )
 def test_seeded_generators_and_mutations(label, make, n) -> None:

@@ -333,5 +333,9 @@ def _columns(
         row_label=lambda i: f"{row_word} {i + 1}",
         comments=[],
         fmt="fits",
-        details={"note": f"FITS {note}", "fits_image": image, "n_columns": len(headers)},
+        details={
+            "note": f"FITS {note}",
+            "sampled": "FITS 1-D image" if image else None,
+            "n_columns": len(headers),
+        },
     )

@@ -49,8 +49,8 @@ def _guess_kind(parsed: Parsed, block: int | str | None) -> tuple[str, str]:
         return "spectrum", f"JCAMP-DX block holds ##{b.kind.upper()}"
     cols = parsed.cols
     assert cols is not None
-    if cols.details.get("fits_image"):
-        return "spectrum", "FITS 1-D image"
+    if cols.details.get("sampled"):
+        return "spectrum", str(cols.details.get("sampled"))
     roles: dict[str, ColumnChoice] = {}
     if cols.headers is not None:
         try:

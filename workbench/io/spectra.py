@@ -106,6 +106,9 @@ def spectrum_from_xy(
             f"{where} has only {x.size} points",
             f"a spectrum needs at least {MIN_SPECTRUM_POINTS} points",
         )
+    n_file = x.size
+    if axis == "energy":
+        x, y, row_label = _leave_out_non_positive_energies(x, y, row_label, x_label, notes)
     missing = np.isnan(y)
     for arr, label, bad in (
         (x, x_label, ~np.isfinite(x)),
@@ -140,7 +143,7 @@ def spectrum_from_xy(
             unit = "nm" if axis == "wavelength" else "eV"
             xc, y = _scans_or_refuse(xc, y, x, row_label, where, x_label, unit, notes)
     if missing.any():
-        notes.append(_missing_note(missing, row_label, y_label, x.size))
+        notes.append(_missing_note(missing, row_label, y_label, n_file))
         keep = ~np.isnan(y)
         xc, y = xc[keep], y[keep]
     src = input_source(raw, "spectrum", fmt, notes)
@@ -152,6 +155,29 @@ def spectrum_from_xy(
         source=src,
         y_label=y_label,
     )
+
+
+def _leave_out_non_positive_energies(x: np.ndarray, y: np.ndarray, row_label, x_label: str, notes):
+    """Drop channels at or below zero energy (EDS/XRF spectra start there), with a note.
+
+    An energy spectrum's first channels often sit at or below 0 eV (a
+    negative offset, the detector's zero-energy noise peak); no X-ray line
+    lies there, so they are left out rather than refusing the file. Row
+    labels keep naming the file's rows.
+    """
+    below = np.isfinite(x) & (x <= 0)
+    if not below.any():
+        return x, y, row_label
+    keep = np.flatnonzero(~below)
+    notes.append(
+        f"{int(below.sum())} channel(s) at or below zero {x_label} left out (no X-ray line "
+        "lies there; an energy spectrum's first channels often do)"
+    )
+
+    def label(i: int) -> str:
+        return row_label(int(keep[i]))
+
+    return x[keep], y[keep], label
 
 
 def _scans_or_refuse(

@@ -3,7 +3,8 @@
 :func:`parse_source` loads the bytes (:mod:`workbench.io.source`), recognises
 Parquet and FITS (:mod:`workbench.io.fits`) by their first bytes, JSON
 tables (:mod:`workbench.io.jsontable`) by a leading ``{`` or ``[`` that
-parses, and JCAMP-DX by its leading ``##TITLE=``, and
+parses, EMSA/MAS (:mod:`workbench.io.msa`) by its ``#FORMAT`` line, and
+JCAMP-DX by its leading ``##TITLE=``, and
 reads anything else as delimited text: its head is sniffed and the bulk
 parsed by polars (:mod:`workbench.io.fastcsv`); the careful line parser
 (:mod:`workbench.io.delimited`) runs only when that refuses, and only up to
@@ -39,6 +40,7 @@ from workbench.io.fastcsv import (
 from workbench.io.fits import columns_from_fits, looks_like_fits
 from workbench.io.jcamp import JcampBlock, looks_like_jcamp, parse_jcamp
 from workbench.io.jsontable import columns_from_json, looks_like_json
+from workbench.io.msa import columns_from_msa, looks_like_msa
 from workbench.io.source import BackgroundSha256, RawInput, decode_text, read_source
 
 __all__ = [
@@ -270,6 +272,9 @@ def _parse_raw(raw: RawInput, progress: Progress | None) -> Parsed:
             parsed = Parsed(raw, "jcamp-dx", encoding, blocks=parse_jcamp(text, raw.name))
         else:
             parsed = _parse_delimited(text.encode("utf-8"), raw, encoding)
+    elif looks_like_msa(_ascii_head(raw.data)):
+        text, encoding = decode_text(raw.data, raw.name)
+        parsed = Parsed(raw, "emsa-mas", encoding, cols=columns_from_msa(text, raw.name))
     elif looks_like_jcamp(_ascii_head(raw.data)):
         text, encoding = decode_text(raw.data, raw.name)
         parsed = Parsed(raw, "jcamp-dx", encoding, blocks=parse_jcamp(text, raw.name))
