@@ -50,7 +50,8 @@ class InputSource:
     kind : {"peak_list", "spectrum"}
         What the file holds.
     format : str
-        Detected format: ``"delimited"``, ``"jcamp-dx"``, ``"parquet"``, ``"fits"``, ``"json"``, ``"emsa-mas"``.
+        Detected format: ``"delimited"``, ``"jcamp-dx"``, ``"parquet"``, ``"fits"``,
+        ``"json"``, ``"emsa-mas"``.
     notes : tuple of str
         What the reader decided (column mapping, unit, block chosen, ...).
     """

@@ -71,7 +71,8 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
                     )
     with src_upload:
         up = st.file_uploader(
-            "Spectrum or peak list (CSV/TSV/text, JCAMP-DX, Parquet, FITS, JSON, EMSA/MAS)", key="upload"
+            "Spectrum or peak list (CSV/TSV/text, JCAMP-DX, Parquet, FITS, JSON, EMSA/MAS)",
+            key="upload",
         )
         if up is not None and st.button("Read uploaded file", key="read_upload"):
             with _ui.shown_errors():

@@ -37,7 +37,8 @@ def input_source(raw: RawInput, kind: str, fmt: str, notes: list[str]) -> InputS
     kind : {"peak_list", "spectrum"}
         What was read.
     fmt : str
-        Format name (``"delimited"``, ``"jcamp-dx"``, ``"parquet"``, ``"fits"``, ``"json"``, ``"emsa-mas"``).
+        Format name (``"delimited"``, ``"jcamp-dx"``, ``"parquet"``, ``"fits"``,
+        ``"json"``, ``"emsa-mas"``).
     notes : list of str
         What the reader decided (columns, units, medium, block, order).
 
