@@ -369,3 +369,14 @@ def test_steps_in_a_few_stretches_are_a_spectrum_and_irregular_ones_a_peak_list(
     peaks = np.sort(rng.uniform(300.0, 900.0, 120))
     body = "\n".join(f"{a:.3f},1.0" for a in peaks)
     assert isinstance(read_any(("wavelength (nm),counts\n" + body).encode()), PeakList)
+
+
+def test_a_header_of_names_over_numbered_columns_is_still_a_header():
+    text = "wavelength (nm),1,2\n" + "\n".join(f"{400 + i},{i},{2 * i}" for i in range(5))
+    peaks = read_peak_list(text)
+    np.testing.assert_allclose(peaks.positions, [400, 401, 402, 403, 404])
+
+
+def test_rows_of_position_and_label_have_no_header():
+    peaks = read_peak_list("393.366 CaII\n396.847 CaII\n422.673 CaI\n", unit="nm")
+    np.testing.assert_allclose(peaks.positions, [393.366, 396.847, 422.673])

@@ -57,3 +57,18 @@ def test_a_pipe_table_line_list_as_given():
     np.testing.assert_allclose(peaks.positions, w_nm[order], rtol=1e-12)
     np.testing.assert_allclose(peaks.intensities, amp[order], rtol=1e-12)
     assert "delimiter: pipe" in peaks.source.notes
+
+
+def test_a_line_list_of_positions_and_labels_as_given():
+    # pyreduce-astro 0.10's thar_list.txt: "3006.9314 ThII" rows (air Å and
+    # species) under '#' reference lines, no header.
+    from workbench.io import read_peak_list
+
+    path = DATA / "pyreduce" / "thar_list.txt"
+    rows = [r.split() for r in path.read_text().splitlines() if r.strip() and r[0] != "#"]
+    peaks = read_peak_list(path, unit="angstrom")
+    np.testing.assert_allclose(peaks.positions, np.sort([float(r[0]) / 10.0 for r in rows]))
+    assert "no header row: column 1 read as position; column 2 holds text, not read" in (
+        peaks.source.notes
+    )
+    assert np.all(np.isnan(peaks.intensities))

@@ -75,6 +75,8 @@ class Table:
         unit hints.
     title_lines : list of int
         Line numbers of the title lines above the header (module docstring).
+    text_columns : list of int
+        Columns whose cell in the first data row is text (a label column).
     inner_comments : list of int
         Line numbers of comment lines found among the data rows (skipped).
     trailing_delimiter : bool
@@ -92,6 +94,7 @@ class Table:
     inner_comments: list[int] = field(default_factory=list)
     trailing_delimiter: bool = False
     title_lines: list[int] = field(default_factory=list)
+    text_columns: list[int] = field(default_factory=list)
 
     @property
     def n_columns(self) -> int:
@@ -269,7 +272,9 @@ def parse_delimited(text: str, name: str) -> Table:
     first_number, first = cells[0]
     header: list[str] | None = None
     header_line: int | None = None
-    if not all(_is_number(c, decimal_comma) for c in first if c):
+    if not all(_is_number(c, decimal_comma) for c in first if c) and not _labelled_data(
+        first, cells[1][1] if len(cells) > 1 else None, decimal_comma
+    ):
         header, header_line = first, first_number
         cells = cells[1:]
     if not cells:
@@ -311,7 +316,21 @@ def parse_delimited(text: str, name: str) -> Table:
         inner_comments=[n for n in comment_lines if n > first_data],
         trailing_delimiter=trailing,
         title_lines=title_lines,
+        text_columns=[j for j, c in enumerate(rows[0]) if c and not looks_numeric_cell(c)],
     )
+
+
+def _labelled_data(row: list[str], below: list[str] | None, decimal_comma: bool) -> bool:
+    """Whether a row holding text is data: numbers where the next row has them, text likewise.
+
+    A line list whose rows are ``3006.9314 ThII`` (a position and a label)
+    has no header; a header's cells are names, none of them a number where
+    the rows below hold numbers.
+    """
+    if below is None or len(row) != len(below):
+        return False
+    kinds = [_is_number(c, decimal_comma) for c in row]
+    return any(kinds) and kinds == [_is_number(c, decimal_comma) for c in below]
 
 
 def _leading_text_rows(cells: list[tuple[int, list[str]]], decimal_comma: bool) -> int:

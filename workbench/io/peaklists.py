@@ -88,8 +88,13 @@ def peak_list_from_columns(
                 "column 1 as positions and column 2 as intensities",
             )
         extra_cols = [f"column {i + 3}" for i in range(_n_columns(cols) - 2)]
-        headers = ["position", "intensity", *extra_cols]
-        notes.append("no header row: column 1 read as position, column 2 as intensity")
+        if _text_column(cols, 1):
+            # "3006.9314 ThII": a position and a label, no intensity.
+            headers = ["position", "label", *extra_cols]
+            notes.append("no header row: column 1 read as position; column 2 holds text, not read")
+        else:
+            headers = ["position", "intensity", *extra_cols]
+            notes.append("no header row: column 1 read as position, column 2 as intensity")
     else:
         headers = cols.headers
     mapping = map_columns(headers, where=cols.name, columns=columns)
@@ -153,6 +158,11 @@ def peak_list_from_columns(
         mode=mode,  # type: ignore[arg-type]
         extra={"mapping": extra_map},
     )
+
+
+def _text_column(cols: Columns, index: int) -> bool:
+    """Whether column ``index`` holds text in the first data row (a label, not a number)."""
+    return index in cols.details.get("text_columns", ())  # type: ignore[operator]
 
 
 def _n_columns(cols: Columns) -> int:

@@ -70,6 +70,7 @@ def columns_from_table(table: Table) -> Columns:
         "delimiter": table.delimiter_name,
         "decimal_comma": table.decimal_comma,
         "header_line": table.header_line,
+        "text_columns": table.text_columns,
     }
     return Columns(
         name=table.name,
@@ -107,6 +108,7 @@ def columns_from_fast(ft: FastTable, name: str) -> Columns:
         "delimiter": t.delimiter_name,
         "decimal_comma": t.decimal_comma,
         "header_line": t.header_line,
+        "text_columns": t.text_columns,
         "n_columns": t.n_columns,
     }
     return Columns(
