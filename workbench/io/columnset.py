@@ -14,7 +14,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["Columns"]
+from workbench.errors import ValueRangeError
+
+__all__ = ["Columns", "array_columns"]
 
 
 @dataclass
@@ -29,3 +31,48 @@ class Columns:
     comments: list[str] = field(default_factory=list)
     fmt: str = "delimited"
     details: dict[str, object] = field(default_factory=dict)
+
+
+def array_columns(
+    name: str,
+    headers: list[str] | None,
+    values: list[np.ndarray],
+    row_label: Callable[[int], str],
+    *,
+    fmt: str,
+    note: str,
+    sampled: str | None = None,
+) -> Columns:
+    """Columns over arrays already parsed (FITS, JSON, EMSA/MAS readers).
+
+    NaN is a missing value: returned, flagged in the mask, where the caller
+    allows missing values, else refused naming the row; infinity is always
+    refused. ``note`` says what the reader decided (it reaches the input's
+    notes); ``sampled`` names why the input is a sampled spectrum whatever its
+    shape (a FITS 1-D image, an EMSA/MAS file), for the kind detection.
+    """
+    n = values[0].size
+
+    def get(index: int, label: str, allow_empty: bool):
+        v = values[index]
+        missing = np.isnan(v)
+        bad = ~np.isfinite(v) & ~(missing if allow_empty else False)
+        if bad.any():
+            i = int(np.argmax(bad))
+            what = "empty (null or NaN)" if np.isnan(v[i]) else f"{v[i]} (not a finite number)"
+            raise ValueRangeError(
+                f"{name}: {row_label(i)}, {label!r} is {what}",
+                "correct the value in the file, or leave the row out",
+            )
+        return v, missing, None
+
+    return Columns(
+        name=name,
+        headers=headers,
+        n_rows=n,
+        get=get,
+        row_label=row_label,
+        comments=[],
+        fmt=fmt,
+        details={"note": note, "sampled": sampled, "n_columns": len(values)},
+    )

@@ -3,7 +3,7 @@
 FITS (NASA/IAU standard, version 4.0) is how observatories, many
 spectrographs and their reduction pipelines write spectra. The file is read
 with :mod:`astropy.io.fits` (imported only when a FITS file is given) and
-turned into :class:`~workbench.io.tabular.Columns`, so that the same column,
+turned into :class:`~workbench.io.columnset.Columns`, so that the same column,
 unit, medium and value checks apply as for a delimited table or Parquet.
 
 Which HDU: the first holding a 1-D spectrum (an image with one axis, or two
@@ -40,8 +40,8 @@ from typing import Any
 
 import numpy as np
 
-from workbench.errors import FileFormatError, ValueRangeError
-from workbench.io.columnset import Columns
+from workbench.errors import FileFormatError
+from workbench.io.columnset import Columns, array_columns
 from workbench.io.resolve import canonical_unit
 
 __all__ = ["columns_from_fits", "looks_like_fits"]
@@ -311,31 +311,12 @@ def _columns(
     row_word: str,
     image: bool,
 ) -> Columns:
-    n = values[0].size
-
-    def get(index: int, label: str, allow_empty: bool):
-        v = values[index]
-        missing = np.isnan(v) if allow_empty else np.zeros(n, dtype=bool)
-        bad = ~np.isfinite(v) & ~missing
-        if bad.any():
-            i = int(np.argmax(bad))
-            raise ValueRangeError(
-                f"{name}: {row_word} {i + 1}, {label!r} is {v[i]} (not a finite number)",
-                "correct the value in the file",
-            )
-        return v, missing, None
-
-    return Columns(
-        name=name,
-        headers=headers,
-        n_rows=n,
-        get=get,
-        row_label=lambda i: f"{row_word} {i + 1}",
-        comments=[],
+    return array_columns(
+        name,
+        headers,
+        values,
+        lambda i: f"{row_word} {i + 1}",
         fmt="fits",
-        details={
-            "note": f"FITS {note}",
-            "sampled": "FITS 1-D image" if image else None,
-            "n_columns": len(headers),
-        },
+        note=f"FITS {note}",
+        sampled="FITS 1-D image" if image else None,
     )

@@ -25,8 +25,8 @@ from typing import Any
 
 import numpy as np
 
-from workbench.errors import FileFormatError, ValueRangeError
-from workbench.io.columnset import Columns
+from workbench.errors import FileFormatError
+from workbench.io.columnset import Columns, array_columns
 
 __all__ = ["columns_from_json", "looks_like_json"]
 
@@ -122,26 +122,6 @@ def columns_from_json(data: bytes, name: str) -> Columns | None:
 def _columns(
     name: str, headers: list[str] | None, values: list[np.ndarray], note: str, row_word: str
 ) -> Columns:
-    n = values[0].size
-
-    def get(index: int, label: str, allow_empty: bool):
-        v = values[index]
-        missing = np.isnan(v)
-        if missing.any() and not allow_empty:
-            i = int(np.argmax(missing))
-            raise ValueRangeError(
-                f"{name}: {row_word} {i + 1} of {label!r} is null",
-                "give a number there, or drop the value from every array",
-            )
-        return v, missing, None
-
-    return Columns(
-        name=name,
-        headers=headers,
-        n_rows=n,
-        get=get,
-        row_label=lambda i: f"{row_word} {i + 1}",
-        comments=[],
-        fmt="json",
-        details={"note": f"JSON: {note}", "n_columns": len(values)},
+    return array_columns(
+        name, headers, values, lambda i: f"{row_word} {i + 1}", fmt="json", note=f"JSON: {note}"
     )

@@ -22,8 +22,8 @@ import re
 
 import numpy as np
 
-from workbench.errors import FileFormatError, ValueRangeError
-from workbench.io.columnset import Columns
+from workbench.errors import FileFormatError
+from workbench.io.columnset import Columns, array_columns
 
 __all__ = ["columns_from_msa", "looks_like_msa"]
 
@@ -121,26 +121,12 @@ def columns_from_msa(text: str, name: str) -> Columns:
         if datatype == "Y"
         else ""
     )
-    cols = [x, y]
-
-    def get(index: int, label: str, allow_empty: bool):
-        v = cols[index]
-        bad = ~np.isfinite(v)
-        if bad.any() and not (allow_empty and np.all(np.isnan(v[bad]))):
-            i = int(np.argmax(bad))
-            raise ValueRangeError(
-                f"{name}: line {lines[i]}, {label!r} is {v[i]} (not a finite number)",
-                "correct the value in the file",
-            )
-        return v, np.isnan(v), None
-
-    return Columns(
-        name=name,
-        headers=headers,
-        n_rows=y.size,
-        get=get,
-        row_label=lambda i: f"line {lines[i]}" if i < lines.size else f"point {i + 1}",
-        comments=[],
+    return array_columns(
+        name,
+        headers,
+        [x, y],
+        lambda i: f"line {lines[i]}" if i < lines.size else f"point {i + 1}",
         fmt="emsa-mas",
-        details={"note": note, "sampled": "EMSA/MAS spectrum", "n_columns": 2},
+        note=note,
+        sampled="EMSA/MAS spectrum",
     )
