@@ -380,3 +380,28 @@ def test_a_header_of_names_over_numbered_columns_is_still_a_header():
 def test_rows_of_position_and_label_have_no_header():
     peaks = read_peak_list("393.366 CaII\n396.847 CaII\n422.673 CaI\n", unit="nm")
     np.testing.assert_allclose(peaks.positions, [393.366, 396.847, 422.673])
+
+
+def test_a_row_of_units_under_the_names_joins_the_header():
+    # Invented export: a title, names, then units, then data.
+    x = np.linspace(400.0, 460.0, 80)
+    body = "\n".join(f"{a:.3f},{1 + np.sin(a):.4f}" for a in x)
+    text = "Instrument export\nWavelength,Intensity\nnm,counts\n" + body + "\n"
+    spec = read_spectrum(text.encode())
+    np.testing.assert_allclose(spec.x[0], 400.0)
+    assert "units on line 3 joined to the column names above them" in spec.source.notes
+    assert "x from 'Wavelength (nm)' (unit nm), y from 'Intensity (counts)'" in spec.source.notes
+    peaks = read_peak_list("Energy;Counts\nkeV;\n6.40;100\n8.05;40\n")
+    np.testing.assert_allclose(peaks.positions, [6400.0, 8050.0])  # eV
+
+
+def test_a_title_line_above_a_whitespace_header_with_spaced_names():
+    # The header "wavelength (nm)   intensity" splits into three words; it is
+    # fitted to the two data columns from its own line, not the title's.
+    x = np.linspace(400.0, 460.0, 80)
+    body = "\n".join(f"{a:.3f}   {1 + np.sin(a):.4f}" for a in x)
+    text = "Run 4 of the invented spark stand\nwavelength (nm)   intensity\n" + body + "\n"
+    spec = read_spectrum(text.encode())
+    assert spec.x.size == 80 and "x from 'wavelength (nm)' (unit nm), y from 'intensity'" in (
+        spec.source.notes
+    )

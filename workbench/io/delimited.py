@@ -9,7 +9,9 @@ header are a title (``ASTM G173-03 Reference Spectra …`` above the column
 names of pvlib's copy of that spectrum; an instrument's name and date): where
 two or more text lines precede the first line of numbers and the last of them
 has at least two cells and no number, that last line is the header and those
-above it are title lines, kept with the comments and noted. Row numbers in messages
+above it are title lines, kept with the comments and noted. A line of units
+under a line of names (``Wavelength, Intensity`` over ``nm, counts``) joins
+it: the header is ``Wavelength (nm), Intensity (counts)``. Row numbers in messages
 are 1-based physical line numbers, as a spreadsheet shows them (the header
 and comment lines count).
 """
@@ -23,6 +25,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from workbench.errors import FileFormatError, UnitError, ValueRangeError
+from workbench.physics.units import normalise_unit
 
 __all__ = [
     "Table",
@@ -77,6 +80,8 @@ class Table:
         Line numbers of the title lines above the header (module docstring).
     text_columns : list of int
         Columns whose cell in the first data row is text (a label column).
+    units_line : int or None
+        Line number of a row of units joined to the header (module docstring).
     inner_comments : list of int
         Line numbers of comment lines found among the data rows (skipped).
     trailing_delimiter : bool
@@ -95,6 +100,7 @@ class Table:
     trailing_delimiter: bool = False
     title_lines: list[int] = field(default_factory=list)
     text_columns: list[int] = field(default_factory=list)
+    units_line: int | None = None
 
     @property
     def n_columns(self) -> int:
@@ -263,12 +269,21 @@ def parse_delimited(text: str, name: str) -> Table:
         probe = [c for _, row in cells[1:200] for c in row]
         decimal_comma = any(_DECIMAL_COMMA.match(c) for c in probe)
     title_lines: list[int] = []
+    units_line: int | None = None
     n_text = _leading_text_rows(cells, decimal_comma)
-    if n_text >= 2 and _names_only(cells[n_text - 1][1], decimal_comma):
-        for number, row in cells[: n_text - 1]:
+    h: int | None = None
+    if n_text >= 2 and _units_under_names(
+        cells[n_text - 2][1], cells[n_text - 1][1], decimal_comma
+    ):
+        h = n_text - 2  # names over a row of units: the header is the pair
+        units_line = cells[n_text - 1][0]
+    elif n_text >= 2 and _names_only(cells[n_text - 1][1], decimal_comma):
+        h = n_text - 1
+    if h is not None:
+        for number, row in cells[:h]:
             comments.append(" ".join(c for c in row if c))
             title_lines.append(number)
-        cells = cells[n_text - 1 :]
+        cells = cells[h:]
     first_number, first = cells[0]
     header: list[str] | None = None
     header_line: int | None = None
@@ -277,6 +292,10 @@ def parse_delimited(text: str, name: str) -> Table:
     ):
         header, header_line = first, first_number
         cells = cells[1:]
+        if units_line is not None:
+            units = cells[0][1]
+            header = [f"{n} ({u})" if u else n for n, u in zip(header, units, strict=True)]
+            cells = cells[1:]
     if not cells:
         raise FileFormatError(
             f"{name} has a header (line {header_line}) but no data rows",
@@ -284,7 +303,8 @@ def parse_delimited(text: str, name: str) -> Table:
         )
     width = len(cells[0][1]) if header is None else len(header)
     if header is not None and delimiter == " " and cells and len(cells[0][1]) != width:
-        header = _fit_whitespace_header(lines[0][1], len(cells[0][1])) or header
+        raw_header = next(line for number, line in lines if number == header_line)
+        header = _fit_whitespace_header(raw_header, len(cells[0][1])) or header
         width = len(header)
     if width < 2:
         raise FileFormatError(
@@ -316,6 +336,7 @@ def parse_delimited(text: str, name: str) -> Table:
         inner_comments=[n for n in comment_lines if n > first_data],
         trailing_delimiter=trailing,
         title_lines=title_lines,
+        units_line=units_line,
         text_columns=[j for j, c in enumerate(rows[0]) if c and not looks_numeric_cell(c)],
     )
 
@@ -331,6 +352,28 @@ def _labelled_data(row: list[str], below: list[str] | None, decimal_comma: bool)
         return False
     kinds = [_is_number(c, decimal_comma) for c in row]
     return any(kinds) and kinds == [_is_number(c, decimal_comma) for c in below]
+
+
+def _units_under_names(names: list[str], units: list[str], decimal_comma: bool) -> bool:
+    """Whether ``units`` is a row of units under a row of column ``names`` (same width).
+
+    Instrument and plotting-program exports often write the names on one
+    line and their units on the next (``Wavelength, Intensity`` over ``nm,
+    counts``); the pair is one header, ``Wavelength (nm), Intensity (counts)``.
+    At least one cell must be a unit the readers know.
+    """
+    if len(names) != len(units) or not _names_only(names, decimal_comma):
+        return False
+    known = 0
+    for cell in units:
+        if not cell:
+            continue
+        try:
+            normalise_unit(cell.strip("()[]"))
+        except UnitError:
+            continue
+        known += 1
+    return known > 0
 
 
 def _leading_text_rows(cells: list[tuple[int, list[str]]], decimal_comma: bool) -> int:

@@ -159,6 +159,8 @@ def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
         notes.append(
             f"delimiter: {t.delimiter_name}" + ("; decimal comma" if t.decimal_comma else "")
         )
+        if t.units_line is not None:
+            notes.append(f"units on line {t.units_line} joined to the column names above them")
         if t.title_lines:
             shown = ", ".join(str(n) for n in t.title_lines)
             notes.append(f"title line(s) above the header kept as comments (line {shown})")
