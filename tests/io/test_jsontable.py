@@ -1,8 +1,7 @@
 """JSON tables: objects of arrays, records, rows; and what is not a table.
 
-Invented data (test inputs), except pypeit 2.0.1's archived Kast arc solution
-(tests/data/realspectra/pypeit, hashes in the manifest), a JSON file that
-holds no spectrum with wavelengths.
+Invented data (test inputs). The real pypeit arc solutions are read in
+tests/realdata/test_files_as_given.py.
 """
 
 from __future__ import annotations
@@ -12,9 +11,8 @@ import json
 import numpy as np
 import pytest
 
-from tests.realdata.loader import DATA
 from workbench.datamodel import PeakList, Spectrum
-from workbench.errors import FileFormatError, InputError
+from workbench.errors import FileFormatError
 from workbench.io import read_any, read_peak_list, read_spectrum
 
 
@@ -79,10 +77,26 @@ def test_json_without_a_table_is_one_clear_error(doc, why):
         read_any(json.dumps(doc).encode())
 
 
-def test_a_pipeline_archive_is_refused_clearly():
-    # pypeit's arc solution: pixel-space fit and identified lines, no wavelength column.
-    with pytest.raises(InputError, match="position column"):
-        read_any(DATA / "pypeit" / "kastr_600_7500_PYPIT.json", unit="nm")
+@pytest.mark.parametrize(
+    ("change", "why"),
+    [
+        ({"function": "spline"}, "a function among"),
+        ({"xnorm": 1.0}, "degenerate"),
+        ({"fmin": "a"}, "not a number"),
+    ],
+)
+def test_a_broken_arc_solution_is_one_clear_error(change, why):
+    # An invented arc solution in the layout pypeit archives (see jsontable).
+    doc = {
+        "spec": [1.0] * 50,
+        "fitc": [5000.0, 100.0],
+        "function": "legendre",
+        "xnorm": 50.0,
+        "fmin": 0.0,
+        "fmax": 1.0,
+    } | change
+    with pytest.raises(FileFormatError, match=why):
+        read_any(json.dumps(doc).encode())
 
 
 def test_text_starting_with_a_bracket_that_is_not_json_is_a_table():

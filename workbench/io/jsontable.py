@@ -11,7 +11,10 @@ delimited table:
   member is such an object (``{"spectrum": {...}}``) is opened once;
 * a list of records, ``[{"wavelength_nm": 393.37, "intensity": 10}, ...]``:
   the keys of the first record whose values are numbers;
-* a list of rows, ``[[393.37, 10], ...]``: columns without a header.
+* a list of rows, ``[[393.37, 10], ...]``: columns without a header;
+* an arc-lamp spectrum with its wavelength solution, as the pypeit pipeline
+  archives them (``spec``, ``fitc``, ``function``, ``xnorm``, ``fmin``,
+  ``fmax``; :func:`_arc_solution`).
 
 Anything else (a pipeline's own archive, a configuration file) is one clear
 error naming the layouts read.
@@ -84,6 +87,8 @@ def columns_from_json(data: bytes, name: str) -> Columns | None:
         key = next(iter(doc))
         doc = doc[key]
         note = f"the table of member {key!r}; "
+    if isinstance(doc, dict) and _ARC_KEYS <= doc.keys():
+        return _arc_solution(doc, name, note)
     if isinstance(doc, dict):
         arrays = {str(k): a for k, v in doc.items() if (a := _numbers(v)) is not None}
         if not arrays:
@@ -119,9 +124,71 @@ def columns_from_json(data: bytes, name: str) -> Columns | None:
     raise _no_table(name, "neither an object of arrays nor a list of records or rows")
 
 
+#: Members of an archived arc-lamp wavelength solution (pypeit's ``*_PYPIT.json``).
+_ARC_KEYS = {"spec", "fitc", "function", "xnorm", "fmin", "fmax"}
+_ARC_FUNCS = {
+    "legendre": np.polynomial.legendre.legval,
+    "chebyshev": np.polynomial.chebyshev.chebval,
+    "polynomial": np.polynomial.polynomial.polyval,
+}
+
+
+def _arc_solution(doc: dict[str, Any], name: str, note: str) -> Columns:
+    """An arc spectrum with its wavelength solution, as pypeit archives them.
+
+    ``spec`` holds counts per pixel; the wavelength of pixel p is
+    ``function(u, fitc)`` with x = p / (xnorm − 1) and u = 2 (x − fmin) /
+    (fmax − fmin) − 1, in vacuum Å (pypeit's conventions, checked on the
+    pypeit 2.0.1 arcs of ``tests/data/realspectra/pypeit`` against each
+    file's identified lines ``xfit``/``yfit``).
+    """
+    func = str(doc.get("function", "")).lower()
+    counts = _numbers(doc.get("spec"))
+    coef = _numbers(doc.get("fitc"))
+    if func not in _ARC_FUNCS or counts is None or coef is None:
+        raise _no_table(
+            name,
+            "an arc solution needs a 'spec' array, 'fitc' coefficients and "
+            f"a function among {', '.join(_ARC_FUNCS)}",
+        )
+    try:
+        xnorm, fmin, fmax = (float(doc[k]) for k in ("xnorm", "fmin", "fmax"))
+    except (TypeError, ValueError):
+        raise _no_table(name, "the arc solution's xnorm, fmin or fmax is not a number") from None
+    if not (xnorm > 1.0 and fmax != fmin):
+        raise _no_table(name, "the arc solution's xnorm or fmin/fmax range is degenerate")
+    x = np.arange(counts.size, dtype=np.float64) / (xnorm - 1.0)
+    u = 2.0 * (x - fmin) / (fmax - fmin) - 1.0
+    with np.errstate(over="ignore", invalid="ignore"):
+        wave_A = _ARC_FUNCS[func](u, coef)
+    note += (
+        f"an arc spectrum of {counts.size:,} pixels with its {func} wavelength solution "
+        "(pypeit's archive: vacuum Å)"
+    )
+    return _columns(
+        name,
+        ["wavelength (angstrom, vacuum)", "counts"],
+        [wave_A, counts],
+        note,
+        "pixel",
+        sampled="arc spectrum with its wavelength solution",
+    )
+
+
 def _columns(
-    name: str, headers: list[str] | None, values: list[np.ndarray], note: str, row_word: str
+    name: str,
+    headers: list[str] | None,
+    values: list[np.ndarray],
+    note: str,
+    row_word: str,
+    sampled: str | None = None,
 ) -> Columns:
     return array_columns(
-        name, headers, values, lambda i: f"{row_word} {i + 1}", fmt="json", note=f"JSON: {note}"
+        name,
+        headers,
+        values,
+        lambda i: f"{row_word} {i + 1}",
+        fmt="json",
+        note=f"JSON: {note}",
+        sampled=sampled,
     )
