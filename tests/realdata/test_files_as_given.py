@@ -72,3 +72,22 @@ def test_a_line_list_of_positions_and_labels_as_given():
         peaks.source.notes
     )
     assert np.all(np.isnan(peaks.intensities))
+
+
+@pytest.mark.parametrize(
+    "name", ["kastr_600_7500_PYPIT", "lrisr_400_8500_PYPIT", "deimos_830G_r_PYPIT"]
+)
+def test_pypeit_arc_solutions_as_given(name):
+    # pypeit 2.0.1's archived arcs: counts per pixel with a Legendre solution
+    # (vacuum Å). Read as given, they are the spectra the verified loader
+    # builds, and get the same calls.
+    from tests.realdata.loader import load
+    from tests.realdata.run import element_classes, run_real
+
+    rs = load(name)
+    spec = read_any(DATA / "pypeit" / f"{name}.json")
+    assert isinstance(spec, Spectrum) and spec.medium == "vacuum"
+    np.testing.assert_allclose(spec.x, rs.spectrum.x, rtol=0, atol=1e-9)
+    np.testing.assert_array_equal(spec.y, rs.spectrum.y)
+    out = analyse_spectrum(spec, None, MatchParameters(mode="emission"))
+    assert element_classes(out.report) == element_classes(run_real(rs).report)

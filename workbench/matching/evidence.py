@@ -95,7 +95,7 @@ from workbench.matching.masking import hidden_groups
 from workbench.matching.priors import prior_dex
 from workbench.matching.reference import ReferenceIndex
 from workbench.matching.scoring import LOSS_PROBABILITY, SpeciesEvidence, evaluate
-from workbench.matching.species_scale import species_scales
+from workbench.matching.species_scale import TIE_MARGIN, species_scales
 from workbench.matching.xray_evidence import group_blend_maxima, xray_terms
 
 __all__ = [
@@ -370,8 +370,11 @@ def gather_evidence(
         with_scale, g_scale * pred_unit_all, np.where(g_known, g_strength, 0.0)
     )
     if dl_all is not None:
+        # The censored median can put a scale exactly on an unseen group's
+        # limit, so that its prediction equals the limit up to rounding
+        # (species_scale.TIE_MARGIN decides that tie the same way every time).
         visible_all = g_known & np.where(
-            with_scale, predicted_all >= dl_all, g_strength >= strong_fraction
+            with_scale, predicted_all >= dl_all * TIE_MARGIN, g_strength >= strong_fraction
         )
     else:
         visible_all = g_known & (g_strength >= strong_fraction)
