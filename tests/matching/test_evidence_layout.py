@@ -120,7 +120,7 @@ def _scales_one_by_one(g_start, g_end, I_all, pred, good_all, gu_all, unseen_all
             if dl_all is not None:
                 unseen, dl = unseen_all[sl], dl_all[sl]
                 for _ in range(4):
-                    cens = unseen & (scale * p >= dl)
+                    cens = unseen & (scale * p >= dl * species_scale.TIE_MARGIN)
                     new = species_scale._median(np.concatenate([ratios, dl[cens] / p[cens]]))
                     if new == scale:
                         break

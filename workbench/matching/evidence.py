@@ -370,9 +370,7 @@ def gather_evidence(
         with_scale, g_scale * pred_unit_all, np.where(g_known, g_strength, 0.0)
     )
     if dl_all is not None:
-        # The censored median can put a scale exactly on an unseen group's
-        # limit, so that its prediction equals the limit up to rounding
-        # (species_scale.TIE_MARGIN decides that tie the same way every time).
+        # A scale can sit exactly on an unseen group's limit (species_scale.TIE_MARGIN).
         visible_all = g_known & np.where(
             with_scale, predicted_all >= dl_all * TIE_MARGIN, g_strength >= strong_fraction
         )
