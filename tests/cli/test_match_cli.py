@@ -164,3 +164,27 @@ def test_too_wide_window_is_one_clear_error(paint_chip, capsys):
     assert main(["match", str(paint_chip), "--tolerance-nm", "5000"]) == 2
     err = capsys.readouterr().err
     assert "pairs would be compared" in err and "Traceback" not in err
+
+
+def test_columns_option_picks_a_column_by_its_header(capsysbinary):
+    # pvlib 0.16.1's ASTM G173-03 (tests/data/realspectra/pvlib): three
+    # irradiance columns; the reader takes the first unless told.
+    import json
+
+    from tests.realdata.loader import DATA
+
+    g173 = str(DATA / "pvlib" / "ASTMG173.csv")
+    args = ["match", g173, "--mode", "absorption", "--unit", "nm", "--json", "-"]
+    assert main([*args, "--columns", "position=wavelength,intensity=global"]) == 0
+    notes = json.loads(capsysbinary.readouterr().out)["input"]["notes"]
+    assert "x from 'wavelength' (unit nm), y from 'global'" in notes
+    assert main(args) == 0
+    notes = json.loads(capsysbinary.readouterr().out)["input"]["notes"]
+    assert "x from 'wavelength' (unit nm), y from 'extraterrestrial'" in notes
+
+
+@pytest.mark.parametrize("value", ["global", "intensity=", "=global"])
+def test_columns_option_malformed_is_a_usage_error(value, capsys):
+    with pytest.raises(SystemExit) as exc:
+        main(["match", "x.csv", "--columns", value])
+    assert exc.value.code == 2 and "is not ROLE=HEADER" in capsys.readouterr().err

@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 
 __all__ = [
+    "add_columns_option",
     "add_store_option",
     "print_json",
     "read_file",
@@ -62,4 +63,28 @@ def refuse_passphrase_option(p: argparse.ArgumentParser) -> None:
     """Catch ``--passphrase``/``--password`` on a parser so the secret is never echoed."""
     p.add_argument(
         "--passphrase", "--password", nargs="?", action=_RefusePassphrase, help=argparse.SUPPRESS
+    )
+
+
+def _columns_arg(text: str) -> dict[str, str]:
+    """``ROLE=HEADER[,ROLE=HEADER...]`` → ``{role: header}`` (roles checked by the reader)."""
+    out: dict[str, str] = {}
+    for part in text.split(","):
+        role, sep, header = part.partition("=")
+        if not sep or not role.strip() or not header.strip():
+            raise argparse.ArgumentTypeError(
+                f"{part!r} is not ROLE=HEADER (e.g. position=wavelength,intensity=global)"
+            )
+        out[role.strip().lower()] = header.strip()
+    return out
+
+
+def add_columns_option(p: argparse.ArgumentParser) -> None:
+    """Add ``--columns ROLE=HEADER,...``: which table column plays which role."""
+    p.add_argument(
+        "--columns",
+        type=_columns_arg,
+        metavar="ROLE=HEADER,...",
+        help="choose columns by their header, e.g. position=wavelength,intensity=global "
+        "(roles: position, intensity, area, fwhm, snr)",
     )

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import argparse
 
+from workbench.cli._options import add_columns_option
+
 __all__ = ["register"]
 
 
@@ -30,6 +32,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--baseline", choices=("snip", "als", "none"), default="snip")
     p.add_argument("--unit", help="unit of the x axis (nm, angstrom, um, cm-1, eV, keV)")
     p.add_argument("--medium", choices=("air", "vacuum"), help="medium of wavelengths")
+    add_columns_option(p)
     p.add_argument("--block", help="JCAMP-DX block index (0-based) or title")
     p.add_argument(
         "--saturation-level",
@@ -52,7 +55,14 @@ def _handle(args: argparse.Namespace) -> int:
     block: int | str | None = args.block
     if isinstance(block, str) and block.strip().isdigit():
         block = int(block)
-    data = read_any(args.input, unit=args.unit, medium=args.medium, mode=args.mode, block=block)
+    data = read_any(
+        args.input,
+        unit=args.unit,
+        medium=args.medium,
+        mode=args.mode,
+        block=block,
+        columns=args.columns,
+    )
     if isinstance(data, PeakList):
         peaks = data
         shown_as_read = True

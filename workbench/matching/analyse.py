@@ -84,6 +84,7 @@ def analyse_input(
     kind: str | None = None,
     peak_options: dict[str, Any] | None = None,
     lab_dir: Path | None = None,
+    columns: dict[str, str] | None = None,
 ) -> AnalysisOutcome:
     """Read an input (peak list or raw spectrum), find peaks if needed, and match.
 
@@ -105,6 +106,9 @@ def analyse_input(
         Extra keyword arguments for :func:`workbench.peaks.find_peaks`.
     lab_dir : pathlib.Path, optional
         Directory of lab reference sets.
+    columns : dict, optional
+        Explicit column choices ``{role: header}`` for a table (see
+        :func:`workbench.io.read_any`).
 
     Returns
     -------
@@ -113,7 +117,7 @@ def analyse_input(
     from workbench.io import read_any
 
     params = params or MatchParameters()
-    kw: dict[str, Any] = {"name": name, "unit": unit, "medium": medium}
+    kw: dict[str, Any] = {"name": name, "unit": unit, "medium": medium, "columns": columns}
     if kind:
         kw["kind"] = kind
     data = read_any(source, **kw)
