@@ -71,3 +71,26 @@ def test_deleting_everything_is_refused():
     edits = [{"action": "deleted", "row": i, "old": {}} for i in (1, 2, 3)]
     with pytest.raises(ValueRangeError, match="every peak"):
         sv.apply_peak_edits(_peaks(), edits)
+
+
+def test_columns_by_header_reach_the_reader_and_the_recorded_options():
+    # pvlib 0.16.1's ASTM G173-03 (tests/data/realspectra/pvlib): the app's
+    # column choice is the CLI's --columns text, parsed by the same function.
+    from tests.realdata.loader import DATA
+
+    data = (DATA / "pvlib" / "ASTMG173.csv").read_bytes()
+    got = sv.load_input(
+        data, "ASTMG173.csv", unit="nm", mode="absorption", columns="intensity=global"
+    )
+    assert "x from 'wavelength' (unit nm), y from 'global'" in got.notes
+    assert got.options["columns"] == "intensity=global"
+    plain = sv.load_input(data, "ASTMG173.csv", unit="nm", mode="absorption")
+    assert "columns" not in plain.options
+
+
+@pytest.mark.parametrize(("text", "why"), [("global", "not ROLE=HEADER"), ("colour=x", "role")])
+def test_a_malformed_column_choice_is_one_clear_error(text, why):
+    from workbench.errors import ColumnMappingError
+
+    with pytest.raises(ColumnMappingError, match=why):
+        sv.load_input(b"wavelength (nm),counts\n400,1\n401,2\n", "t.csv", columns=text)

@@ -48,6 +48,7 @@ def load_input(
     kind: str | None = None,
     mode: str = "emission",
     min_snr: float | None = None,
+    columns: str | None = None,
 ) -> LoadedInput:
     """Read a file or pasted text; find peaks when it is a spectrum.
 
@@ -63,12 +64,16 @@ def load_input(
         Peaks or dips.
     min_snr : float, optional
         Peak-finding threshold (σ) for spectra.
+    columns : str, optional
+        Column choices ``"ROLE=HEADER,..."`` (the CLI's ``--columns``;
+        :func:`workbench.io.columns.parse_column_choices`).
 
     Returns
     -------
     LoadedInput
     """
     from workbench.io import read_any
+    from workbench.io.columns import parse_column_choices
     from workbench.matching.analyse import peaks_from_spectrum
 
     if not data:
@@ -76,8 +81,12 @@ def load_input(
     kw: dict[str, Any] = {"name": name, "unit": unit or None, "medium": medium or None}
     if kind:
         kw["kind"] = kind
+    if columns and columns.strip():
+        kw["columns"] = parse_column_choices(columns)
     got = read_any(bytes(data), mode=mode, **kw)
     options = {"unit": unit or None, "medium": medium or None, "kind": kind or None, "mode": mode}
+    if columns and columns.strip():
+        options["columns"] = columns.strip()
     if isinstance(got, Spectrum):
         pk: dict[str, Any] = {}
         if min_snr:

@@ -34,15 +34,19 @@ with st.expander("Reading options", expanded=False):
         "Position unit", ["as stated", "nm", "Å", "µm", "cm-1", "eV", "keV"], key="opt_unit"
     )
     medium = c3.selectbox("Medium of wavelengths", ["as stated", "air", "vacuum"], key="opt_med")
-    c4, c5 = st.columns(2)
+    c4, c5, c6 = st.columns(3)
     mode = c4.selectbox("Line kind", ["emission", "absorption"], key="opt_mode")
     min_snr = c5.number_input("Peak threshold (× noise σ)", 1.0, 100.0, 5.0, 0.5, key="opt_snr")
+    cols_txt = c6.text_input(
+        "Columns by header (optional)", placeholder="intensity=global", key="opt_cols"
+    )
     st.session_state["read_options"] = {
         "kind": None if kind == "detect" else kind,
         "unit": None if unit == "as stated" else unit,
         "medium": None if medium == "as stated" else medium,
         "mode": mode,
         "min_snr": float(min_snr),
+        "columns": cols_txt.strip() or None,
     }
 
 with _ui.shown_errors(), store_access.open_store(root) as store:

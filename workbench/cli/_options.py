@@ -1,4 +1,4 @@
-"""Options shared by several command groups (imports only argparse)."""
+"""Options shared by several command groups (argparse at import; the rest when used)."""
 
 from __future__ import annotations
 
@@ -67,16 +67,14 @@ def refuse_passphrase_option(p: argparse.ArgumentParser) -> None:
 
 
 def _columns_arg(text: str) -> dict[str, str]:
-    """``ROLE=HEADER[,ROLE=HEADER...]`` → ``{role: header}`` (roles checked by the reader)."""
-    out: dict[str, str] = {}
-    for part in text.split(","):
-        role, sep, header = part.partition("=")
-        if not sep or not role.strip() or not header.strip():
-            raise argparse.ArgumentTypeError(
-                f"{part!r} is not ROLE=HEADER (e.g. position=wavelength,intensity=global)"
-            )
-        out[role.strip().lower()] = header.strip()
-    return out
+    """``ROLE=HEADER[,ROLE=HEADER...]`` → ``{role: header}`` (io.columns.parse_column_choices)."""
+    from workbench.errors import ColumnMappingError
+    from workbench.io.columns import parse_column_choices
+
+    try:
+        return parse_column_choices(text)
+    except ColumnMappingError as exc:
+        raise argparse.ArgumentTypeError(f"{exc.problem}; {exc.remedy}") from None
 
 
 def add_columns_option(p: argparse.ArgumentParser) -> None:

@@ -30,6 +30,7 @@ __all__ = [
     "check_unit_plausibility",
     "map_columns",
     "medium_from_text",
+    "parse_column_choices",
     "parse_header",
 ]
 
@@ -464,3 +465,31 @@ def check_unit_plausibility(values: np.ndarray, unit: str, where: str) -> None:
         f"rename the header to '{quantity} ({label})' or pass --unit {guess} "
         "(check_units=False accepts them as stated)",
     )
+
+
+def parse_column_choices(text: str) -> dict[str, str]:
+    """``"ROLE=HEADER,ROLE=HEADER"`` → ``{role: header}``: the column choices of CLI and app.
+
+    Roles are checked here (one of :data:`ROLES`); headers are checked by the
+    reader against the file's own (:func:`map_columns`).
+
+    Raises
+    ------
+    ColumnMappingError
+        For a part that is not ``ROLE=HEADER`` or an unknown role.
+    """
+    out: dict[str, str] = {}
+    for part in text.split(","):
+        role, sep, header = part.partition("=")
+        role = role.strip().lower()
+        if not sep or not role or not header.strip():
+            raise ColumnMappingError(
+                f"{part.strip()!r} is not ROLE=HEADER",
+                "write e.g. position=wavelength,intensity=global",
+            )
+        if role not in ROLES:
+            raise ColumnMappingError(
+                f"unknown column role {role!r}", f"use one of: {', '.join(ROLES)}"
+            )
+        out[role] = header.strip()
+    return out
