@@ -195,9 +195,9 @@ def _image_columns(
         f"solution (CTYPE1 {ctype or 'unset'!r}, CRVAL1, CDELT1, CRPIX1)"
         + (f", unit from {unit_from}" if unit else "")
     )
-    if skipped:
-        note += "; skipped " + "; ".join(skipped)
-    return _columns(name, headers, [x, np.asarray(y, dtype=np.float64)], note, "sample", True)
+    return _columns(
+        name, headers, [x, np.asarray(y, dtype=np.float64)], note, skipped, "sample", True
+    )
 
 
 #: The Goodman pipeline's wavelength functions (``GSP_FUNC``) and their numpy evaluators.
@@ -240,10 +240,10 @@ def _goodman_columns(
         f"{label}: 1-D image of {y.size:,} samples; positions from the Goodman pipeline's "
         f"{func} wavelength solution of order {order} (GSP_* keywords, Å)"
     )
-    if skipped:
-        note += "; skipped " + "; ".join(skipped)
     headers = ["wavelength (angstrom, air)", _y_label(header)]
-    return _columns(name, headers, [x, np.asarray(y, dtype=np.float64)], note, "sample", True)
+    return _columns(
+        name, headers, [x, np.asarray(y, dtype=np.float64)], note, skipped, "sample", True
+    )
 
 
 def _number(header: Any, key: str, default: float | None, name: str, label: str) -> float:
@@ -298,9 +298,7 @@ def _table_columns(
     else:
         return None
     note = f"{label}: table of {shape_note}; columns {', '.join(h for h, _ in numeric)}"
-    if skipped:
-        note += "; skipped " + "; ".join(skipped)
-    return _columns(name, [h for h, _ in numeric], values, note, "table row", False)
+    return _columns(name, [h for h, _ in numeric], values, note, skipped, "table row", False)
 
 
 def _columns(
@@ -308,9 +306,13 @@ def _columns(
     headers: list[str],
     values: list[np.ndarray],
     note: str,
+    skipped: list[str],
     row_word: str,
     image: bool,
 ) -> Columns:
+    """The HDU's columns; the note names the HDUs passed over before it."""
+    if skipped:
+        note += "; skipped " + "; ".join(skipped)
     return array_columns(
         name,
         headers,

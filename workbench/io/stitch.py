@@ -43,10 +43,15 @@ MIN_OVERLAP_POINTS: int = 3
 
 @dataclass(frozen=True)
 class Scans:
-    """Start and end (exclusive) row of each scan, in file order."""
+    """Start and end (exclusive) row of each scan, in file order, and the joins.
+
+    ``joins`` holds, in order of position, each scan's index with the position
+    from which it is kept (``-inf`` for the first).
+    """
 
     starts: np.ndarray
     ends: np.ndarray
+    joins: tuple[tuple[int, float], ...]
 
 
 def split_scans(x: np.ndarray) -> Scans | None:
@@ -75,17 +80,17 @@ def split_scans(x: np.ndarray) -> Scans | None:
     ends = np.concatenate((breaks, [x.size]))
     if np.any(ends - starts < MIN_SCAN_POINTS):
         return None
-    scans = Scans(starts, ends)
-    return scans if _joins(x, scans) is not None else None
+    joins = _joins(x, starts, ends)
+    return Scans(starts, ends, tuple(joins)) if joins is not None else None
 
 
-def _joins(x: np.ndarray, scans: Scans) -> list[tuple[int, float]] | None:
+def _joins(x: np.ndarray, starts: np.ndarray, ends: np.ndarray) -> list[tuple[int, float]] | None:
     """Scan order by first position and the join below each later scan (None if unjoinable)."""
-    order = np.argsort(x[scans.starts], kind="stable")
+    order = np.argsort(x[starts], kind="stable")
     joins: list[tuple[int, float]] = [(int(order[0]), -np.inf)]
     for a, b in itertools.pairwise(order):
-        xa = x[scans.starts[a] : scans.ends[a]]
-        xb = x[scans.starts[b] : scans.ends[b]]
+        xa = x[starts[a] : ends[a]]
+        xb = x[starts[b] : ends[b]]
         if xb[-1] <= xa[-1]:
             return None  # b lies inside a's range
         if xb[0] >= xa[-1]:
@@ -120,8 +125,7 @@ def join_scans(
     note : str
         What was joined where.
     """
-    joins = _joins(x, scans)
-    assert joins is not None  # split_scans returned these scans only if joinable
+    joins = scans.joins
     keep_x, keep_y, where = [], [], []
     for k, (s, lo) in enumerate(joins):
         hi = joins[k + 1][1] if k + 1 < len(joins) else np.inf

@@ -6,6 +6,7 @@ import numpy as np
 
 from workbench.errors import ValueRangeError
 from workbench.maps.cube import Cube
+from workbench.maps.fit import measured_pixels
 from workbench.maps.pipeline import spectrum_csv
 
 __all__ = ["region_csv", "region_spectrum"]
@@ -38,11 +39,16 @@ def region_spectrum(cube: Cube, y0: int, y1: int, x0: int, x1: int) -> np.ndarra
     import dask
     import dask.array as da
 
-    data = cube.data[ya:yb, xa:xb, :].astype(np.float64)
-    # Unmeasured pixels (maps.fit.measured_pixels) are left out, as in the
-    # sum spectrum; the sum streams chunk by chunk (no region held whole).
-    ok = da.isfinite(data).all(axis=2)
-    part = da.where(ok[..., None], data, 0.0).sum(axis=(0, 1))
+    raw = cube.data[ya:yb, xa:xb, :]
+    # Unmeasured pixels are left out by the sum spectrum's own rule
+    # (measured_pixels, which skips integer cubes); the sum streams chunk by
+    # chunk (no region held whole; chunks span every channel).
+    ok = raw.map_blocks(
+        lambda b: measured_pixels(b.reshape(-1, b.shape[-1])).reshape(b.shape[:-1]),
+        drop_axis=2,
+        dtype=bool,
+    )
+    part = da.where(ok[..., None], raw.astype(np.float64), 0.0).sum(axis=(0, 1))
     counts, n_ok = dask.compute(part, ok.sum(), scheduler="threads")
     if int(n_ok) == 0:
         raise ValueRangeError(
