@@ -89,3 +89,28 @@ def test_summary_and_evidence():
     assert [n["element"] for n in out["not_found"]] == ["Cr", "Pb"]
     assert out["also_possible"] == ["Cr I"] and out["not_supported_count"] == 1
     assert ev["region"]["centre"] == 404.5815 and ev["region"]["observed"][0] == [404.582, 1.0]
+
+
+def test_a_class_raised_by_pooling_names_the_pooled_stages():
+    # Invented: Qa I alone "possible" (one line, 0.7 dex), raised to "established"
+    # by pooling with Qa II (workbench.matching.pooling). The sheet's class words say
+    # so, in the words every face uses (presentation.verdict_basis).
+    qa1 = {
+        "species": "Qa I",
+        "element": "Qa",
+        "verdict": "established",
+        "verdict_level": 3,
+        "own_verdict": "possible",
+        "own_verdict_level": 1,
+        "pooled_with": ["Qa II"],
+        "pooled_evidence_dex": 3.6,
+        "net_evidence_dex": 0.7,
+        "matched_lines": [_line(422.6728, 422.6730, 1.0, "qa1", 0)],
+        "missing_lines": [],
+    }
+    result = {**RESULT, "elements": [qa1], "warnings": []}
+    out = build_conclusions(result, effective_calls(result), "nm", [])
+    (row,) = out["summary"]
+    assert row["class"] == (
+        "established (Qa I established [pooled with Qa II: 3.6 dex; alone possible, 0.7 dex])"
+    )

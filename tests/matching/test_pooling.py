@@ -109,6 +109,10 @@ def test_a_stage_is_raised_only_on_data_of_its_own(p_weak, raised):
     assert weak.pooled_with == ["Qa I"]  # pooled figures are reported either way
     assert (weak.level == 3) is raised
     assert strong.level == 3
+    # A raised stage keeps the class of its own evidence, for every face to show.
+    assert weak.raised_by_pooling is raised
+    assert weak.own_level == (1 if raised else None)
+    assert not strong.raised_by_pooling
 
 
 def test_pooling_alone_raises_to_probable_at_most():
@@ -127,3 +131,41 @@ def test_pooling_alone_raises_to_probable_at_most():
     assert simes_combined([8e-3, 3e-5]) == pytest.approx(6e-5)
     assert two.pooled_evidence_dex >= 3.0
     assert (one.level, two.level) == (2, 2)
+
+
+def _ca_three_lines_and_h_k():
+    # Invented emission spectrum: Gaussian lines at Ca II K and H and Ca I 422.673 nm
+    # (air; NIST ASD positions, from memory, as in the shipped set) on a flat,
+    # noisy baseline (seeded). Ca I has one line: alone it is at most "possible".
+    rng = np.random.default_rng(7)
+    x = np.linspace(380.0, 440.0, 3000)
+    y = rng.normal(100.0, 5.0, x.size)
+    for centre, height in ((393.366, 5000.0), (396.847, 4000.0), (422.673, 3000.0)):
+        y += height * np.exp(-0.5 * ((x - centre) / 0.05) ** 2)
+    text = "wavelength_nm,intensity\n" + "".join(f"{a:.4f},{b:.2f}\n" for a, b in zip(x, y))
+    return analyse_input(text.encode(), name="ca.csv", medium="air").report
+
+
+def test_a_raised_stage_is_marked_in_the_report_and_every_face():
+    # The class of a stage raised by pooling is not its own: the report keeps the
+    # own class, and the CLI table, the app's grid and the findings sheet say
+    # which stages were pooled (workbench.matching.presentation.verdict_basis).
+    from workbench.matching.presentation import element_rows, verdict_basis
+    from workbench.matching.report import summary_text
+
+    rep = _ca_three_lines_and_h_k()
+    by = {e["species"]: e for e in rep["elements"]}
+    ca1, ca2 = by["Ca I"], by["Ca II"]
+    raised = ca1["own_verdict"] is not None
+    if raised:
+        assert ca1["own_verdict_level"] < ca1["verdict_level"]
+        assert ca1["pooled_with"] == ["Ca II"]
+        basis = verdict_basis(ca1)
+        assert basis.startswith("pooled with Ca II: ") and f"alone {ca1['own_verdict']}" in basis
+        text = summary_text(rep)
+        assert f"Ca I: {basis}" in text
+        assert any(ln.startswith("Ca I ") and "*" in ln for ln in text.splitlines())
+        row = next(r for r in element_rows(rep, include_unsupported=True) if r["Species"] == "Ca I")
+        assert row["Class from"] == basis
+    assert ca2["own_verdict"] is None and verdict_basis(ca2) == ""
+    assert raised  # the case this test is about (Ca I alone is one line)

@@ -27,6 +27,7 @@ from typing import Any
 
 from workbench.findings.decisions import ElementCall, element_of
 from workbench.findings.wording import format_delta, format_position, format_rel, line_name
+from workbench.matching.presentation import verdict_basis
 
 __all__ = [
     "DECISIVE_LINES",
@@ -236,12 +237,17 @@ def _region(
     }
 
 
+def _stage_words(s: Mapping[str, Any]) -> str:
+    """``"Ca I established"``, with the basis where pooling raised the class."""
+    basis = verdict_basis(s)
+    text = f"{s['species']} {s.get('verdict', '')}"
+    return f"{text} [{basis}]" if basis else text
+
+
 def _class_words(call: ElementCall) -> str:
-    levels = [
-        f"{s['species']} {s.get('verdict', '')}"
-        for s in sorted(call.species, key=lambda s: -int(s.get("verdict_level") or 0))
-        if s.get("decision") not in ("rejected", "no lines left")
-    ]
+    ranked = sorted(call.species, key=lambda s: -int(s.get("verdict_level") or 0))
+    live = [s for s in ranked if s.get("decision") not in ("rejected", "no lines left")]
+    levels = [_stage_words(s) for s in live]
     text = call.verdict if call.verdict else ""
     if call.added:
         return "added by the analyst"
@@ -253,7 +259,7 @@ def _class_words(call: ElementCall) -> str:
         text = f"{text}; not concluded (analyst's decision)"
     elif not call.concluded:
         text = f"{text}; not concluded"
-    if len(levels) > 1:
+    if len(levels) > 1 or any(verdict_basis(s) for s in live):
         text += " (" + ", ".join(levels) + ")"
     return text
 

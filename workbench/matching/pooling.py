@@ -62,7 +62,12 @@ one counted group (found, visible, not explained by a better species):
   emission mixture and no real spectrum changed (same runs).
 
 The pooled figures are reported per species (``pooled_with``,
-``pooled_evidence_dex``), so the raise is visible and can be checked.
+``pooled_evidence_dex``), and a raised stage keeps the class of its own
+evidence (``own_verdict``), so the raise is visible and can be checked: the
+faces mark such a class and name the stages pooled
+(:func:`workbench.matching.presentation.verdict_basis`). Before, a raised
+stage showed its own small net evidence beside a class it had not earned
+alone (Ca I "established" at 0.7 dex beside Ca II), with nothing to say why.
 """
 
 from __future__ import annotations
@@ -105,5 +110,7 @@ def pool_ion_stages(ev_pass: EvidencePass) -> None:
             ev.pooled_with = [n for n in names if n != ev.label]
             ev.pooled_evidence_dex = e
             if level > ev.level and ev.chance_probability <= PRIOR_DATA_P:
+                if ev.own_level is None:
+                    ev.own_level = ev.level
                 ev.level = level
                 ev.score = max(ev.score, score_for(e))

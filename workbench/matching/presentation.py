@@ -61,6 +61,7 @@ __all__ = [
     "report_reference_lines",
     "result_summary",
     "unassigned_rows",
+    "verdict_basis",
     "warning_species",
     "zoom_range",
 ]
@@ -220,6 +221,26 @@ def result_summary(report: Mapping[str, Any]) -> ResultSummary:
     )
 
 
+def verdict_basis(el: Mapping[str, Any]) -> str:
+    """Why a species has its class, when that is not its own evidence; else ``""``.
+
+    A stage raised by pooling its element's ion stages
+    (:mod:`workbench.matching.pooling`; ``own_verdict`` set) shows its own
+    small net evidence beside a class it did not earn alone; every face
+    says so in these words, e.g. ``"pooled with Ca II: 3.6 dex; alone
+    possible, 0.7 dex"``.
+    """
+    own = el.get("own_verdict")
+    if not own:
+        return ""
+    others = " + ".join(str(s) for s in el.get("pooled_with") or []) or "its other stages"
+    pooled = el.get("pooled_evidence_dex")
+    pooled_txt = f": {float(pooled):.1f} dex" if isinstance(pooled, int | float) else ""
+    alone = el.get("net_evidence_dex")
+    alone_txt = f", {float(alone):.1f} dex" if isinstance(alone, int | float) else ""
+    return f"pooled with {others}{pooled_txt}; alone {own}{alone_txt}"
+
+
 def element_rows(report: Mapping[str, Any], *, include_unsupported: bool) -> list[dict[str, Any]]:
     """Element grid rows with human column headers (units in the headers).
 
@@ -237,6 +258,8 @@ def element_rows(report: Mapping[str, Any], *, include_unsupported: bool) -> lis
                 "Species": el["species"],
                 "Verdict": el["verdict"],
                 "Score": round(float(el["score"]), 3),
+                # The class's basis where it is not the species alone (pooled stages).
+                "Class from": verdict_basis(el) or "its own lines",
                 "Strong lines found": f"{el['n_strong_found']} of {el['n_strong_in_range']}",
                 "Unique lines": int(el["n_unique_found"]),
                 "Missing lines": len(el.get("missing_lines") or []),

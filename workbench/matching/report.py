@@ -28,6 +28,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from workbench import canonjson
+from workbench.matching.presentation import verdict_basis
 from workbench.matching.scoring import VERDICTS
 
 if TYPE_CHECKING:
@@ -162,6 +163,9 @@ def build_report(result: MatchResult) -> dict[str, Any]:
                 "pooled_evidence_dex": None
                 if ev.pooled_evidence_dex is None
                 else round(ev.pooled_evidence_dex, 4),
+                # The class on its own evidence when pooling raised it, else null.
+                "own_verdict": VERDICTS[ev.own_level] if ev.raised_by_pooling else None,
+                "own_verdict_level": ev.own_level if ev.raised_by_pooling else None,
                 "pattern_r": _num(ev.pattern_r) if ev.pattern_r is not None else None,
                 "intensity_scale": _num(ev.scale) if ev.scale is not None else None,
                 "intensity_contrast": round(float(ev.contrast), 4),
@@ -513,6 +517,7 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
     )
     rejected = [el for el in report["elements"] if el["verdict_level"] == 0]
     shown_rejected = 0
+    raised: list[str] = []
     for el in report["elements"]:
         if el["verdict_level"] == 0:
             shown_rejected += 1
@@ -521,13 +526,22 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
         best = sorted(el["matched_lines"], key=lambda m: -(m["expected_rel"] or 0))[:3]
         fmt = ".0f" if u == "eV" else ".3f"  # X-ray energies to 1 eV
         lines = ", ".join(f"{m[f'reference_{u}']:{fmt}}" for m in best)
+        basis = verdict_basis(el)
+        verdict = el["verdict"]
+        if basis:
+            # Its class comes from the element's pooled stages (footnote below).
+            verdict += "*"
+            raised.append(f"  * {el['species']}: {basis}")
         out.append(
-            f"{el['species']:<10} {el['verdict']:<14} {el['net_evidence_dex']:>6.1f} "
+            f"{el['species']:<10} {verdict:<14} {el['net_evidence_dex']:>6.1f} "
             f"{el['n_groups_found']:>3}/{el['n_groups_expected']:<3} "
             f"{el['n_unique_found']:>4} {el['n_missing_strong']:>4}  {lines}"
         )
     if len(rejected) > max_rejected:
         out.append(f"(+{len(rejected) - max_rejected} more species not supported; see the JSON)")
+    if raised:
+        out.append("class from the element's ion stages pooled (E/dex above is the stage alone):")
+        out.extend(raised)
     grouped: list[str] = []
     if xray:
         from workbench.matching.xrf_view import interference_lines

@@ -242,11 +242,19 @@ class SpeciesEvidence:
     groups: dict[str, Any] = field(default_factory=dict, repr=False)
     pooled_with: list[str] = field(default_factory=list)  # see workbench.matching.pooling
     pooled_evidence_dex: float | None = None
+    #: The class on the species' own evidence when pooling its element's ion
+    #: stages raised it (workbench.matching.pooling); None when not raised.
+    own_level: int | None = None
 
     @property
     def verdict(self) -> str:
         """Name of the verdict class."""
         return VERDICTS[self.level]
+
+    @property
+    def raised_by_pooling(self) -> bool:
+        """Whether the class comes from the element's pooled stages, not the species alone."""
+        return self.own_level is not None and self.own_level < self.level
 
 
 def evaluate(
@@ -322,6 +330,7 @@ def evaluate(
     else:
         ev.found_fraction = 0.0
     ev.level = decide_verdict(ev)
+    ev.own_level = None
     ev.score = score_of(ev)
 
 
@@ -419,6 +428,7 @@ def rescore_closeness(ev: SpeciesEvidence, centre_u: float, *, n_tried: int) -> 
     _chance_terms(ev, nset, found)
     _net_evidence(ev, n_tried)
     ev.level = decide_verdict(ev)
+    ev.own_level = None
     ev.score = score_of(ev)
 
 
