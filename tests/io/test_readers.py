@@ -405,3 +405,48 @@ def test_a_title_line_above_a_whitespace_header_with_spaced_names():
     assert spec.x.size == 80 and "x from 'wavelength (nm)' (unit nm), y from 'intensity'" in (
         spec.source.notes
     )
+
+
+# ------------------------------------------ a spectrometer's export without a header
+# Invented export (test input): settings lines, a begin marker, tab-separated
+# numbers, an end marker, as small fibre spectrometers' text exports are laid out.
+_PREAMBLE = (
+    "Data from invented_run.txt Node\n\n"
+    "Date: Mon Jan 05 10:00:00 CET 2026\n"
+    "Integration Time (sec): 1.000000E-1\n"
+    "Scans to average: 3\n"
+    "Number of Pixels in Spectrum: 60\n"
+    ">>>>>Begin Spectral Data<<<<<\n"
+)
+
+
+@pytest.mark.parametrize("delim", ["\t", ";", ","])
+@pytest.mark.parametrize("end_marker", [True, False])
+def test_a_settings_preamble_and_end_marker_around_headerless_numbers(delim, end_marker):
+    x, y = _rows()
+    body = "".join(f"{a:.3f}{delim}{b:.6f}\n" for a, b in zip(x, y, strict=True))
+    text = _PREAMBLE + body + (">>>>>End Spectral Data<<<<<\n" if end_marker else "")
+    spec = read_spectrum(text.encode(), unit="nm")
+    np.testing.assert_allclose(spec.x, np.round(x, 3))
+    np.testing.assert_allclose(spec.y, np.round(y, 6))
+    notes = spec.source.notes
+    assert "title line(s) above the data (no header) kept as comments (line 1, 3, 4, 5, 6, 7)" in (
+        notes
+    )
+    assert ("text line(s) below the data kept as comments (line 68)" in notes) is end_marker
+
+
+def test_a_one_cell_text_row_among_the_numbers_is_still_refused():
+    # Only text rows *below the last numbers* close the table; one inside is an error.
+    x, y = _rows()
+    rows = [f"{a:.3f}\t{b:.6f}" for a, b in zip(x, y, strict=True)]
+    rows.insert(30, "pause")
+    with pytest.raises(FileFormatError, match="row 38"):
+        read_spectrum((_PREAMBLE + "\n".join(rows) + "\n").encode(), unit="nm")
+
+
+def test_a_lone_number_below_the_data_is_not_swallowed_as_a_footer():
+    x, y = _rows()
+    rows = "".join(f"{a:.3f},{b:.6f}\n" for a, b in zip(x, y, strict=True))
+    with pytest.raises(FileFormatError, match="row 62 has 1 cells"):
+        read_spectrum(("wavelength (nm),counts\n" + rows + "12\n").encode())

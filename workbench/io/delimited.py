@@ -11,7 +11,13 @@ two or more text lines precede the first line of numbers and the last of them
 has at least two cells and no number, that last line is the header and those
 above it are title lines, kept with the comments and noted. A line of units
 under a line of names (``Wavelength, Intensity`` over ``nm, counts``) joins
-it: the header is ``Wavelength (nm), Intensity (counts)``. Row numbers in messages
+it: the header is ``Wavelength (nm), Intensity (counts)``. A spectrometer's
+export without a header (lines of settings, ``Integration Time (sec): 0.1``,
+then a marker such as ``>>>>>Begin Spectral Data<<<<<`` above the numbers) is
+read the same way: where the last text line above the numbers is one cell
+and the numbers are two or more, every text line above them is a title line;
+one-cell text lines below the last row of numbers (an end marker) are kept
+with the comments too. Row numbers in messages
 are 1-based physical line numbers, as a spreadsheet shows them (the header
 and comment lines count).
 """
@@ -77,7 +83,10 @@ class Table:
         Comment lines (without their marker) and title lines, for medium and
         unit hints.
     title_lines : list of int
-        Line numbers of the title lines above the header (module docstring).
+        Line numbers of the title lines above the header, or above the data
+        when there is no header (module docstring).
+    footer_lines : list of int
+        Line numbers of one-cell text lines below the data (module docstring).
     text_columns : list of int
         Columns whose cell in the first data row is text (a label column).
     units_line : int or None
@@ -99,6 +108,7 @@ class Table:
     inner_comments: list[int] = field(default_factory=list)
     trailing_delimiter: bool = False
     title_lines: list[int] = field(default_factory=list)
+    footer_lines: list[int] = field(default_factory=list)
     text_columns: list[int] = field(default_factory=list)
     units_line: int | None = None
 
@@ -279,6 +289,9 @@ def parse_delimited(text: str, name: str) -> Table:
         units_line = cells[n_text - 1][0]
     elif n_text >= 2 and _names_only(cells[n_text - 1][1], decimal_comma):
         h = n_text - 1
+    elif _preamble_only(cells, n_text, delimiter):
+        # A spectrometer's export: settings lines above the numbers, no header.
+        h = n_text
     if h is not None:
         for number, row in cells[:h]:
             comments.append(" ".join(c for c in row if c))
@@ -301,6 +314,14 @@ def parse_delimited(text: str, name: str) -> Table:
             f"{name} has a header (line {header_line}) but no data rows",
             "add the data rows below the header",
         )
+    footer_lines: list[int] = []
+    footer = _footer_rows(cells, delimiter, decimal_comma)
+    if footer:
+        # An end marker or closing note below the numbers (module docstring).
+        for number, row in cells[-footer:]:
+            comments.append(" ".join(c for c in row if c))
+            footer_lines.append(number)
+        cells = cells[:-footer]
     width = len(cells[0][1]) if header is None else len(header)
     if header is not None and delimiter == " " and cells and len(cells[0][1]) != width:
         raw_header = next(line for number, line in lines if number == header_line)
@@ -336,6 +357,7 @@ def parse_delimited(text: str, name: str) -> Table:
         inner_comments=[n for n in comment_lines if n > first_data],
         trailing_delimiter=trailing,
         title_lines=title_lines,
+        footer_lines=footer_lines,
         units_line=units_line,
         text_columns=[j for j, c in enumerate(rows[0]) if c and not looks_numeric_cell(c)],
     )
@@ -382,6 +404,40 @@ def _leading_text_rows(cells: list[tuple[int, list[str]]], decimal_comma: bool) 
         if all(_is_number(c, decimal_comma) for c in row if c):
             return i
     return len(cells)
+
+
+def _preamble_only(cells: list[tuple[int, list[str]]], n_text: int, delimiter: str) -> bool:
+    """Whether the text rows above the numbers are a preamble with no header.
+
+    True when the data rows have at least two cells and the last text row is
+    one cell (no delimiter in it; not for whitespace-delimited text, where any
+    words split): it cannot name the columns, so every text row above the
+    numbers is a setting or a marker (``Integration Time (sec): 0.1``,
+    ``>>>>>Begin Spectral Data<<<<<``), not a header.
+    """
+    if delimiter == " " or n_text < 1 or n_text >= len(cells):
+        return False
+    return len(cells[n_text - 1][1]) == 1 and len(cells[n_text][1]) >= 2
+
+
+def _footer_rows(cells: list[tuple[int, list[str]]], delimiter: str, decimal_comma: bool) -> int:
+    """How many one-cell text rows close the table below its last row of numbers.
+
+    Only where the rows above them have at least two cells and no number in
+    those rows (``>>>>>End Spectral Data<<<<<``); a row of the wrong width
+    among the data is still refused, naming it.
+    """
+    if delimiter == " ":
+        return 0
+    n = 0
+    for _, row in reversed(cells):
+        if len(row) == 1 and not _is_number(row[0], decimal_comma):
+            n += 1
+        else:
+            break
+    if n == 0 or n >= len(cells) or len(cells[-n - 1][1]) < 2:
+        return 0
+    return n
 
 
 def _names_only(row: list[str], decimal_comma: bool) -> bool:

@@ -163,7 +163,11 @@ def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
             notes.append(f"units on line {t.units_line} joined to the column names above them")
         if t.title_lines:
             shown = ", ".join(str(n) for n in t.title_lines)
-            notes.append(f"title line(s) above the header kept as comments (line {shown})")
+            where = "the header" if t.header is not None else "the data (no header)"
+            notes.append(f"title line(s) above {where} kept as comments (line {shown})")
+        if t.footer_lines:
+            shown = ", ".join(str(n) for n in t.footer_lines)
+            notes.append(f"text line(s) below the data kept as comments (line {shown})")
         if t.inner_comments:
             shown = ", ".join(str(n) for n in t.inner_comments[:10])
             more = f" and {len(t.inner_comments) - 10} more" if len(t.inner_comments) > 10 else ""
