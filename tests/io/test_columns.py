@@ -105,3 +105,43 @@ def test_implausible_units_refused(values, unit, remedy):
 )
 def test_plausible_units_pass(values, unit):
     check_unit_plausibility(np.array(values), unit, "t")
+
+
+def test_the_ambiguity_message_names_the_cli_app_and_library_ways_to_choose():
+    with pytest.raises(ColumnMappingError) as err:
+        map_columns(["Wavelength (nm)", "lambda (nm)", "counts"], where="t.csv")
+    hint = str(err.value)
+    assert "--columns position=HEADER" in hint and "Columns by header" in hint
+
+
+def test_a_text_column_headed_line_is_a_label_not_a_position():
+    # Invented line table: "Line" holds names (Ca II K ...), the position is in nm.
+    headers = ["Line", "Wavelength (nm)", "Rel. int. (%)"]
+    with pytest.raises(ColumnMappingError, match="both look like the position"):
+        map_columns(headers, where="t.csv")
+    m = map_columns(headers, where="t.csv", label_columns=[0])
+    assert (m["position"].index, m["intensity"].index) == (1, 2)
+    # Either order; an explicit choice still wins; alone, a column of names keeps
+    # its role (and reading its cells then fails, naming the row).
+    m = map_columns(headers[::-1], where="t.csv", label_columns=[2])
+    assert m["position"].index == 1
+    explicit = map_columns(headers, where="t.csv", columns={"position": "Line"}, label_columns=[0])
+    assert explicit["position"].index == 0
+    assert map_columns(["Line", "counts"], where="t.csv", label_columns=[0])["position"].index == 0
+
+
+@pytest.mark.parametrize(
+    "header", ["Rel. int.", "rel int", "Relative Int.", "relative intensity", "Rel. int. (%)"]
+)
+def test_relative_intensity_headers_are_intensity(header):
+    m = map_columns(["wavelength (nm)", header], where="t.csv")
+    assert m["intensity"].index == 1
+
+
+def test_a_line_table_with_names_and_percent_intensities_reads_as_a_peak_list():
+    from workbench.io import read_peak_list
+
+    text = "Line,Wavelength (nm),Rel. int. (%)\nCa II K,393.37,100%\nCa I,422.67,60%\n"
+    peaks = read_peak_list(text)
+    np.testing.assert_allclose(peaks.positions, [393.37, 422.67])
+    np.testing.assert_allclose(peaks.intensities, [100.0, 60.0])

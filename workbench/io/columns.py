@@ -15,6 +15,7 @@ says how to state the unit.
 from __future__ import annotations
 
 import re
+from collections.abc import Collection
 from dataclasses import dataclass
 
 import numpy as np
@@ -72,6 +73,13 @@ _SYNONYMS: dict[str, tuple[str, ...]] = {
         "i",
         "int",
         "y",
+        "relative intensity",
+        "rel intensity",
+        "rel int",
+        "rel. int.",
+        "rel. int",
+        "relative int",
+        "relative int.",
     ),
     "area": ("area", "peak area", "integral", "integrated intensity"),
     "fwhm": ("fwhm", "width", "peak width", "fwhm width"),
@@ -290,6 +298,7 @@ def map_columns(
     where: str,
     columns: dict[str, str] | None = None,
     need_intensity: bool = False,
+    label_columns: Collection[int] = (),
 ) -> dict[str, ColumnChoice]:
     """Assign columns to roles by their headers.
 
@@ -303,6 +312,12 @@ def map_columns(
         Explicit choices ``{role: header}``; they win over fuzzy matching.
     need_intensity : bool
         Refuse when no intensity column is found.
+    label_columns : collection of int
+        Columns holding text (names such as ``Ca II K``;
+        :attr:`workbench.io.delimited.Table.label_columns`). Where one ties
+        with a column of numbers for a role (a column of names headed
+        ``Line`` beside ``Wavelength (nm)``), the numbers take the role;
+        alone it keeps it, and reading its cells then fails naming the row.
 
     Returns
     -------
@@ -351,10 +366,18 @@ def map_columns(
         if role in chosen:
             other = chosen[role]
             if other.score == score and other.index not in used:
+                # A column of names ties with a column of numbers: the numbers.
+                if i in label_columns and other.index not in label_columns:
+                    continue
+                if other.index in label_columns and i not in label_columns:
+                    chosen[role] = ColumnChoice(i, parsed[i], role, float(score))
+                    continue
                 raise ColumnMappingError(
                     f"{where}: columns {headers[other.index]!r} and {headers[i]!r} "
                     f"both look like the {role} column",
-                    f"rename one of them, or choose explicitly (columns={{'{role}': ...}})",
+                    f"rename one of them, or choose one: --columns {role}=HEADER on the "
+                    f"command line, 'Columns by header' in the app, or "
+                    f"columns={{'{role}': HEADER}} in Python",
                 )
             continue
         chosen[role] = ColumnChoice(i, parsed[i], role, float(score))

@@ -89,6 +89,11 @@ class Table:
         Line numbers of one-cell text lines below the data (module docstring).
     text_columns : list of int
         Columns whose cell in the first data row is text (a label column).
+    label_columns : list of int
+        Text columns whose every cell in the first rows is text (names such as
+        ``Ca II K``): never a number column, whatever the header says. A
+        column with text in its first row only (a typo) is not one, so that
+        the typo is refused, naming it.
     units_line : int or None
         Line number of a row of units joined to the header (module docstring).
     inner_comments : list of int
@@ -109,6 +114,7 @@ class Table:
     trailing_delimiter: bool = False
     title_lines: list[int] = field(default_factory=list)
     footer_lines: list[int] = field(default_factory=list)
+    label_columns: list[int] = field(default_factory=list)
     text_columns: list[int] = field(default_factory=list)
     units_line: int | None = None
 
@@ -359,8 +365,20 @@ def parse_delimited(text: str, name: str) -> Table:
         title_lines=title_lines,
         footer_lines=footer_lines,
         units_line=units_line,
-        text_columns=[j for j, c in enumerate(rows[0]) if c and not looks_numeric_cell(c)],
+        text_columns=(
+            text := [j for j, c in enumerate(rows[0]) if c and not looks_numeric_cell(c)]
+        ),
+        label_columns=[j for j in text if _all_text(rows[:_LABEL_ROWS], j)],
     )
+
+
+#: Rows looked at to call a text column a label column (Table.label_columns).
+_LABEL_ROWS: int = 200
+
+
+def _all_text(rows: list[list[str]], j: int) -> bool:
+    """Whether column ``j`` holds text (or nothing) in every one of ``rows``."""
+    return all(not looks_numeric_cell(r[j]) for r in rows if j < len(r) and r[j])
 
 
 def _labelled_data(row: list[str], below: list[str] | None, decimal_comma: bool) -> bool:

@@ -97,7 +97,12 @@ def peak_list_from_columns(
             notes.append("no header row: column 1 read as position, column 2 as intensity")
     else:
         headers = cols.headers
-    mapping = map_columns(headers, where=cols.name, columns=columns)
+    mapping = map_columns(
+        headers,
+        where=cols.name,
+        columns=columns,
+        label_columns=cols.details.get("label_columns", ()),  # type: ignore[arg-type]
+    )
     pos = mapping["position"]
     pos_label = headers[pos.index]
     values, _, cell_unit = cols.get(pos.index, pos_label, False)

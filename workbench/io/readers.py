@@ -54,7 +54,11 @@ def _guess_kind(parsed: Parsed, block: int | str | None) -> tuple[str, str]:
     roles: dict[str, ColumnChoice] = {}
     if cols.headers is not None:
         try:
-            roles = map_columns(cols.headers, where=cols.name)
+            roles = map_columns(
+                cols.headers,
+                where=cols.name,
+                label_columns=cols.details.get("label_columns", ()),  # type: ignore[arg-type]
+            )
         except ColumnMappingError:
             roles = {}
         if {"fwhm", "area", "snr"} & roles.keys():
@@ -439,7 +443,11 @@ def sniff(
         out.update({k: v for k, v in cols.details.items() if k != "n_columns"})
         if cols.headers is not None:
             try:
-                mapping = map_columns(cols.headers, where=cols.name)
+                mapping = map_columns(
+                    cols.headers,
+                    where=cols.name,
+                    label_columns=cols.details.get("label_columns", ()),  # type: ignore[arg-type]
+                )
                 out["mapping"] = {
                     cols.headers[c.index]: {"role": r, "score": c.score, "unit": c.header.unit}
                     for r, c in mapping.items()

@@ -266,7 +266,12 @@ def spectrum_from_columns(
     if cols.headers is not None:
         headers = cols.headers
         try:
-            mapping = map_columns(headers, where=cols.name, columns=columns)
+            mapping = map_columns(
+                headers,
+                where=cols.name,
+                columns=columns,
+                label_columns=cols.details.get("label_columns", ()),  # type: ignore[arg-type]
+            )
         except ColumnMappingError:
             if len(headers) != 2 or columns:
                 raise

@@ -71,6 +71,7 @@ def columns_from_table(table: Table) -> Columns:
         "decimal_comma": table.decimal_comma,
         "header_line": table.header_line,
         "text_columns": table.text_columns,
+        "label_columns": table.label_columns,
     }
     return Columns(
         name=table.name,
@@ -109,6 +110,7 @@ def columns_from_fast(ft: FastTable, name: str) -> Columns:
         "decimal_comma": t.decimal_comma,
         "header_line": t.header_line,
         "text_columns": t.text_columns,
+        "label_columns": t.label_columns,
         "n_columns": t.n_columns,
     }
     return Columns(
