@@ -142,7 +142,9 @@ def _ca_three_lines_and_h_k():
     y = rng.normal(100.0, 5.0, x.size)
     for centre, height in ((393.366, 5000.0), (396.847, 4000.0), (422.673, 3000.0)):
         y += height * np.exp(-0.5 * ((x - centre) / 0.05) ** 2)
-    text = "wavelength_nm,intensity\n" + "".join(f"{a:.4f},{b:.2f}\n" for a, b in zip(x, y))
+    text = "wavelength_nm,intensity\n" + "".join(
+        f"{a:.4f},{b:.2f}\n" for a, b in zip(x, y, strict=True)
+    )
     return analyse_input(text.encode(), name="ca.csv", medium="air").report
 
 

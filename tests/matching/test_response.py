@@ -112,3 +112,52 @@ def test_the_report_notes_a_response_that_moves_predictions_by_a_factor_two():
     gentle = ResponseFit(1, (0.5 * RESPONSE_NOTE_DEX - 0.01,), 600.0, 200.0, 40, ("A I",))
     assert response_note(gentle, x, "nm") == []
     assert response_note(ResponseFit(), x, "nm") == []
+
+
+# ---------------------------------------------- the degree the data ask for (stop 32)
+def _scattered(label, x, scale, curve, sigma, seed, first_peak):
+    """A species whose heights follow ``curve`` with a lamp's own scatter (dex, seeded)."""
+    rng = np.random.default_rng(seed)
+    ev, _ = _species(label, x, scale, 0.0, first_peak)
+    height = scale * ev.groups["strength"] * 10.0 ** (curve(x) + rng.normal(0.0, sigma, x.size))
+    return ev, height
+
+
+def _fit_scattered(curve, sigma=0.3, seed=1):
+    x_a, x_b = np.linspace(LO, HI, 30), np.linspace(LO + 5.0, HI - 5.0, 20)
+    ea, ha = _scattered("A I", x_a, 100.0, curve, sigma, seed, 0)
+    eb, hb = _scattered("B I", x_b, 7.0, curve, sigma, seed + 1, x_a.size)
+    inten = np.concatenate([ha, hb])
+    obs = SimpleNamespace(
+        intensity=inten,
+        saturated=np.zeros(inten.size, dtype=bool),
+        position=np.sort(np.concatenate([x_a, x_b])),
+    )
+    return fit_response(obs, SimpleNamespace(evidence={0: ea, 1: eb}), equal_species=True)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_no_curve_where_the_points_only_scatter(seed):
+    # Flat truth, 0.3 dex scatter per line (a lamp's own departures): a quadratic
+    # was fitted to the scatter before; the information criterion keeps none in
+    # most draws, and whatever it keeps stays small.
+    fit = _fit_scattered(lambda x: 0.0 * x, seed=seed)
+    x = np.linspace(LO, HI, 9)
+    assert np.max(np.abs(fit.log10_at(x))) < 0.35
+    if seed < 3:  # measured: degree 0 in these draws (seeded)
+        assert fit.degree == 0
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_a_real_curve_is_still_fitted_through_the_scatter(seed):
+    # 1.5 decades across the span (a detector's fall-off), same scatter: kept,
+    # and recovered to within the scatter's reach at the ends.
+    def steep(x):
+        u = (x - 0.5 * (LO + HI)) / (0.5 * (HI - LO))
+        return 0.75 * u - 0.3 * u**2
+
+    fit = _fit_scattered(steep, seed=seed)
+    assert fit.degree >= 1
+    x = np.array([LO, 0.5 * (LO + HI), HI])
+    fitted, truth = fit.log10_at(x), steep(x)
+    assert np.max(np.abs((fitted - fitted.mean()) - (truth - truth.mean()))) < 0.3
