@@ -150,7 +150,7 @@ def _ca_three_lines_and_h_k():
 
 def test_a_raised_stage_is_marked_in_the_report_and_every_face():
     # The class of a stage raised by pooling is not its own: the report keeps the
-    # own class, and the CLI table, the app's grid and the findings sheet say
+    # own class, and the CLI table, the app's grid ("Class note") and the findings sheet say
     # which stages were pooled (workbench.matching.presentation.verdict_basis).
     from workbench.matching.presentation import element_rows, verdict_basis
     from workbench.matching.report import summary_text
@@ -168,6 +168,6 @@ def test_a_raised_stage_is_marked_in_the_report_and_every_face():
         assert f"Ca I: {basis}" in text
         assert any(ln.startswith("Ca I ") and "*" in ln for ln in text.splitlines())
         row = next(r for r in element_rows(rep, include_unsupported=True) if r["Species"] == "Ca I")
-        assert row["Class from"] == basis
+        assert row["Class note"] == basis
     assert ca2["own_verdict"] is None and verdict_basis(ca2) == ""
     assert raised  # the case this test is about (Ca I alone is one line)

@@ -258,8 +258,6 @@ def element_rows(report: Mapping[str, Any], *, include_unsupported: bool) -> lis
                 "Species": el["species"],
                 "Verdict": el["verdict"],
                 "Score": round(float(el["score"]), 3),
-                # The class's basis where it is not the species alone (pooled stages).
-                "Class from": verdict_basis(el) or "its own lines",
                 "Strong lines found": f"{el['n_strong_found']} of {el['n_strong_in_range']}",
                 "Unique lines": int(el["n_unique_found"]),
                 "Missing lines": len(el.get("missing_lines") or []),
@@ -268,6 +266,8 @@ def element_rows(report: Mapping[str, Any], *, include_unsupported: bool) -> lis
                 f"Strongest matched ({u})": ", ".join(
                     format_position(m.get(f"reference_{u}"), u) for m in best[:3]
                 ),
+                # Blank where the class is the species' own; else its basis (pooled stages).
+                "Class note": verdict_basis(el),
             }
         )
     return out
