@@ -12,7 +12,8 @@ import pytest
 
 from workbench.matching.chance import closeness_probability
 from workbench.matching.density import LOCAL_DENSITY_NEIGHBOURS
-from workbench.matching.evidence import ObservedLines, local_density
+from workbench.matching.evidence import ObservedLines
+from workbench.matching.hit_chance import local_density
 
 # A group of 5 lines 2 half-windows apart: window [−5, 5] half-windows
 # (W = 2 + span 8), every point of it within 1 half-window of one line, so

@@ -26,40 +26,14 @@ as in :mod:`workbench.matching.scoring`:
 * the chance probability and the missing-line penalty are computed from
   these (see :mod:`workbench.matching.scoring`).
 
-On a wavelength axis the chance of a hit per group is that of the peaks
-around it, never below the spectrum's average density, and bounded by ρw:
-
-* the density is local (:mod:`workbench.matching.density`): peaks crowd
-  where line-rich sources have most lines (a Th-Ar lamp's thorium forest in
-  the blue, the blue of a cool photosphere), and a species whose lines lie
-  there hits more of them than the average predicts. In emission it is
-  measured from the peaks *outside the species' own windows*, so that a
-  present species' own lines do not raise its chance (an iron lamp's Fe I
-  lines are the crowd around Fe I); absorption uses all usable dips (its
-  figures were chosen so);
-* the hit chance is min(1, ρw) rather than 1 − e^(−ρw): peaks closer than a
-  resolution element merge, so a crowded spectrum's peaks are spread more
-  evenly than a Poisson scatter; for any stationary scatter P(a window
-  holds a peak) ≤ its expected number ρw. Where ρw is small the two agree.
+The chance that a group's window holds a peak by coincidence (local
+density, the ρw bound, and on the energy axis the density of comparably
+strong peaks) is :mod:`workbench.matching.hit_chance`.
 
 With the ``absorption`` source model each group also carries the expected
 number of chance dips per half-window (``rho_tol``) for the closeness term
 (:func:`workbench.matching.chance.closeness_probability`: the found dip is
 the nearest of all the dips in the window, not one uniform dip).
-
-Absorption: on 90 seeded invented mixtures
-(``benchmarks/absorption_confusion.py``) these took the false calls without
-a prior from 12 "established" and 24 "probable" (line-rich Ce, U, Nd, W,
-Th, Os, Re, Hf …) to none. Emission (stop 25): until then emission kept the
-average density, because the local one cost three R 1000 invented emission
-mixtures their "established" (few-line Mg II, Li I, Zn I among crowded
-lines). The real Th-Ar atlas at lower resolution
-(``tests/realdata/loader.degrade``) showed what that left: Pr II "probable"
-at R 1000 and Ce I + II, Gd I + II at R 5000, none of them in the lamp, and
-Th itself "possible" at R 1000; with the local density outside the
-species' windows, the ρw bound and Simes pooling
-(:mod:`workbench.matching.pooling`) none is, and Th is "established"
-(figures and costs in ``docs/evidence-model.md``, section 2).
 
 With the ``x-ray`` source model on an energy axis (``xray=True``) the scale
 is that of the family's strongest found group (the best predicted and best
@@ -89,7 +63,7 @@ from workbench.matching.absorption import (
 )
 from workbench.matching.candidates import CandidatePairs
 from workbench.matching.contrast import miss_prediction, species_contrast
-from workbench.matching.density import density_outside_own_peaks, nearest_neighbour_density
+from workbench.matching.hit_chance import group_hit_chance
 from workbench.matching.layout import pass_layout
 from workbench.matching.masking import hidden_groups
 from workbench.matching.priors import prior_dex
@@ -102,7 +76,6 @@ __all__ = [
     "EvidencePass",
     "ObservedLines",
     "gather_evidence",
-    "local_density",
 ]
 
 
@@ -160,18 +133,6 @@ class EvidencePass:
     span: float = 0.0
     sorted_intensity: np.ndarray | None = None
     xray_overlaps: list = field(default_factory=list)  # workbench.matching.xray_overlap
-
-
-def local_density(obs: ObservedLines, x: np.ndarray) -> np.ndarray:
-    """Density of usable (not excluded) peaks around positions ``x``, per axis unit.
-
-    :func:`workbench.matching.density.nearest_neighbour_density` over the
-    usable peaks; zero where fewer than
-    :data:`~workbench.matching.density.LOCAL_DENSITY_NEIGHBOURS` exist (the
-    caller keeps the average then).
-    """
-    pos = obs.position if obs.excluded is None else obs.position[~obs.excluded]
-    return nearest_neighbour_density(pos, x)
 
 
 def _pearson(a: np.ndarray, b: np.ndarray) -> float | None:
@@ -402,48 +363,16 @@ def gather_evidence(
         # is never masked or crowded and the missing-line test leaves it out
         # (scoring.evaluate).
         visible_all = visible_all | L.g_listed
-    if has_int and xray:
-        # X-ray: density of peaks comparable in strength (>= 30 % of the
-        # prediction) per group.
-        n_ge = sorted_intensity.size - np.searchsorted(
-            sorted_intensity, 0.3 * predicted_all, "left"
-        )
-        rho_all = np.where(with_scale, n_ge / span, density)
-    else:
-        # Optical: any peak in the window makes the group found, so the
-        # chance of a hit is that of any peak (a density of comparably
-        # strong peaks made chance hits look rarer than the hits counted).
-        # Peaks crowd where line-rich sources have most lines (the blue of
-        # a cool photosphere, a Th-Ar lamp's thorium forest), so the chance
-        # of a hit is that of the peaks around the group, never below the
-        # average (workbench.matching.density).
-        rho_all = np.full(n_groups, density)
-        if absorption:
-            rho_all = np.maximum(rho_all, local_density(obs, g_pos))
-        elif not xray:
-            # Emission: the peaks outside the species' own windows, so that
-            # a present species' own lines do not raise its chance.
-            # Only where a chance probability can use it: groups that could
-            # be counted, of species with a hit (no hit: p is 1 anyway).
-            has_hit = np.bincount(g_species, weights=found, minlength=index.n_species) > 0
-            want = visible_all & ~masked_all & ~crowded_all & has_hit[g_species]
-            usable_peak = np.ones(n_obs, dtype=bool) if obs.excluded is None else ~obs.excluded
-            rho_all = np.maximum(
-                rho_all,
-                density_outside_own_peaks(
-                    obs.position, usable_peak, g_pos, g_species, pairs.obs, sp, want
-                ),
-            )
-    if xray:
-        p_line_all = 1.0 - np.exp(-rho_all * (2.0 * g_tol + g_span))
-    else:
-        # Optical: peaks closer than a resolution element merge into one, so
-        # the peaks of a crowded spectrum are spread more evenly than a
-        # Poisson scatter and fill windows more often than 1 − e^(−ρw). For
-        # any stationary scatter, P(a window holds a peak) ≤ its expected
-        # number ρw (equal when a window never holds two): the bound is the
-        # honest chance of a hit. Where ρw is small the two agree.
-        p_line_all = np.minimum(1.0, rho_all * (2.0 * g_tol + g_span))
+    rho_all, p_line_all = group_hit_chance(
+        obs,
+        L,
+        index.n_species,
+        counted=visible_all & ~masked_all & ~crowded_all,
+        with_scale=with_scale,
+        predicted=predicted_all,
+        xray=xray,
+        absorption=absorption,
+    )
     prior_test: dict[str, np.ndarray] | None = None
     if absorption and not xray:
         # The data test of a prior-favoured absorber (prior_test.prior_capped):
