@@ -141,3 +141,47 @@ def test_xrf_text_report_lists_ruled_out_families_once_and_every_artefact(xrf_de
         assert f"{shown} eV" in text, a
     # No plasma wording on an energy axis (issue 10).
     assert "temperature" not in text.lower() and "LTE" not in text
+
+
+def _calcium_peaks_report():
+    # Ca II K and H and Ca I 422.673 nm (air; NIST ASD positions, from memory) with
+    # heights: many species have a line in the 422.67 nm window.
+    peaks = PeakList(
+        pl.DataFrame(
+            {"wavelength_nm": [393.366, 396.847, 422.673], "intensity": [100.0, 80.0, 60.0]}
+        ),
+        "wavelength",
+        "air",
+    )
+    return match_peaks(peaks, [load_set("optical")]).report()
+
+
+def test_each_overlap_position_belongs_to_the_element_beside_it():
+    # Elements are sorted; lines and positions were in the pair's own order, so
+    # "Ar II, Ca II" could come with Ca II's position first (stop 32).
+    rep = _calcium_peaks_report()
+    overlaps = [
+        w for w in rep["warnings"] if w["kind"] in ("unresolved_overlap", "reference_overlap")
+    ]
+    assert overlaps
+    for w in overlaps:
+        assert w["elements"] == sorted(w["elements"])
+        for name, pos in zip(w["elements"], w["positions"], strict=True):
+            assert f"{name} {pos:.4f}" in w["message"], (name, pos, w["message"])
+
+
+def test_the_text_report_groups_overlaps_by_observed_line():
+    # One line per observed line, the best-supported species first, instead of
+    # one warning per pair (n(n-1)/2 pairs for n species in the window).
+    from workbench.matching.report import summary_text
+
+    rep = _calcium_peaks_report()
+    pairs = [w for w in rep["warnings"] if w["kind"] == "unresolved_overlap"]
+    text = summary_text(rep)
+    assert "[unresolved_overlap]" not in text
+    grouped = [ln for ln in text.splitlines() if ln.startswith("  422.6730 nm: ")]
+    assert len(grouped) == 1
+    assert grouped[0].startswith("  422.6730 nm: Ca I 422.6728 (")
+    at_422 = {s for w in pairs if abs(w["observed"] - 422.673) < 1e-6 for s in w["elements"]}
+    assert len(at_422) >= 3 and all(s in grouped[0] for s in at_422)
+    assert re.search(r"R ≥ [\d,]+", grouped[0])

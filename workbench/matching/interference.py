@@ -403,12 +403,16 @@ def _overlap_warning(
         f"window (separation {sep:.4f} {unit}; separating them needs {needed_txt}). "
         f"Settle with other lines — {describe_a}; {describe_b}."
     )
+    # Elements sorted, and lines and positions in the same order, so that
+    # each position belongs to the element beside it (they were in the
+    # pair's own order, which the sort could swap).
+    pair = sorted([(ev_a.label, line_a, xa), (ev_b.label, line_b, xb)], key=lambda t: t[0])
     return {
         "kind": kind,
         "message": message,
-        "elements": sorted([ev_a.label, ev_b.label]),
-        "lines": [str(index.line_id[line_a]), str(index.line_id[line_b])],
-        "positions": [round(xa, 6), round(xb, 6)],
+        "elements": [label for label, _, _ in pair],
+        "lines": [str(index.line_id[line]) for _, line, _ in pair],
+        "positions": [round(x, 6) for _, _, x in pair],
         "separation": round(sep, 6),
         "resolving_power_needed": round(needed, 1) if math.isfinite(needed) else None,
         "observed": round(observed, 6) if observed is not None else None,

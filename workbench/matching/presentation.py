@@ -54,6 +54,7 @@ __all__ = [
     "format_position",
     "interference_groups",
     "interference_spans",
+    "observed_interference_lines",
     "observed_sticks",
     "other_warnings",
     "overlap_text",
@@ -372,6 +373,63 @@ def interference_groups(report: Mapping[str, Any]) -> list[InterferenceGroup]:
         out.append(InterferenceGroup(pos, sp, tuple(g["idx"]), tuple(g["msg"]), touches))
     big = math.inf
     out.sort(key=lambda g: (not g.touches_probable, g.position if g.position is not None else big))
+    return out
+
+
+def observed_interference_lines(report: Mapping[str, Any]) -> list[str]:
+    """Wavelength-axis overlaps grouped by observed line, one line each (CLI text).
+
+    The engine warns per *pair* of species whose lines share an observed
+    line's window; where many species have a line there, the pairs grow as
+    n(n − 1)/2 (36 warnings for nine species at Ca I 422.67 nm, 148 in a
+    five-gas arc), most of them between species nobody calls. A reader wants
+    the line once: the best-supported species there, the others with the
+    resolving power that would separate each from it, and their classes.
+    Each pair's message, with the lines that would settle it, stays in the
+    JSON and in the app. Empty on the energy axis (see
+    :func:`workbench.matching.xrf_view.interference_lines`).
+    """
+    if report.get("xray"):
+        return []
+    unit = report["input"]["unit"]
+    by_species = {str(e["species"]): e for e in report.get("elements") or []}
+    warnings = report.get("warnings") or []
+    out = []
+    for g in interference_groups(report):
+        if g.position is None:
+            continue
+        ref: dict[str, float] = {}
+        need: dict[frozenset[str], float] = {}
+        for k in g.warning_indices:
+            w = warnings[k]
+            names = [str(x) for x in w.get("elements") or []]
+            for name, pos in zip(names, w.get("positions") or [], strict=False):
+                if isinstance(pos, int | float):
+                    ref.setdefault(name, float(pos))
+            r = w.get("resolving_power_needed")
+            if len(names) == 2 and isinstance(r, int | float):
+                need[frozenset(names)] = float(r)
+
+        def level(sp: str) -> int:
+            return int((by_species.get(sp) or {}).get("verdict_level") or 0)
+
+        ranked = sorted(g.species, key=lambda sp: (-level(sp), sp))
+        best = ranked[0]
+
+        def named(sp: str, ref: dict[str, float] = ref) -> str:
+            el = by_species.get(sp) or {}
+            mark = "*" if verdict_basis(el) else ""
+            pos = f" {format_position(ref[sp], unit)}" if sp in ref else ""
+            return f"{sp}{pos} ({el.get('verdict', 'not listed')}{mark})"
+
+        others = []
+        for sp in ranked[1:]:
+            r = need.get(frozenset((best, sp)))
+            others.append(named(sp) + (f" R ≥ {r:,.0f}" if r is not None else ""))
+        line = f"{format_position(g.position, unit)} {unit}: {named(best)}"
+        if others:
+            line += " with " + ", ".join(others)
+        out.append(line)
     return out
 
 

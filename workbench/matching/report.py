@@ -28,7 +28,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from workbench import canonjson
-from workbench.matching.presentation import verdict_basis
+from workbench.matching.presentation import observed_interference_lines, verdict_basis
 from workbench.matching.scoring import VERDICTS
 
 if TYPE_CHECKING:
@@ -547,6 +547,8 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
         from workbench.matching.xrf_view import interference_lines
 
         grouped = interference_lines(report)
+    else:
+        grouped = observed_interference_lines(report)
     if report["warnings"]:
         out.append("")
         out.append("warnings:")
@@ -554,11 +556,20 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
             if w["kind"] == "overlap_ruled_out":  # X-ray: listed together below
                 continue
             if grouped and w["kind"] == "unresolved_overlap" and w.get("observed") is not None:
-                continue  # X-ray: grouped by peak below (the JSON keeps each message)
+                continue  # grouped by peak or line below (the JSON keeps each message)
             out.append(f"  [{w['kind']}] {w['message']}")
     if grouped:
         out.append("")
-        out.append("interferences, by peak (families whose lines this detector cannot separate):")
+        if xray:
+            out.append(
+                "interferences, by peak (families whose lines this detector cannot separate):"
+            )
+        else:
+            out.append(
+                "interferences, by observed line (species with a line in its window, the "
+                "best-supported first; R: the resolving power that separates each from it; "
+                "each pair's settling lines are in the JSON):"
+            )
         out.extend(f"  {line}" for line in grouped)
     if any(w["kind"] == "overlap_ruled_out" for w in report["warnings"]):
         from workbench.matching.xrf_view import ruled_out_lines
