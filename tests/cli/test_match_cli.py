@@ -188,3 +188,15 @@ def test_columns_option_malformed_is_a_usage_error(value, capsys):
     with pytest.raises(SystemExit) as exc:
         main(["match", "x.csv", "--columns", value])
     assert exc.value.code == 2 and "is not ROLE=HEADER" in capsys.readouterr().err
+
+
+def test_help_names_every_input_format_the_readers_take(capsys):
+    # The CLI words the formats itself (importing the readers would slow its
+    # start-up); they must be the readers' own list (workbench.io.INPUT_FORMATS).
+    from workbench.io import INPUT_FORMATS
+
+    for command in ("match", "peaks"):
+        with pytest.raises(SystemExit):
+            main([command, "--help"])
+        out = " ".join(capsys.readouterr().out.split())
+        assert INPUT_FORMATS in out, command

@@ -9,6 +9,7 @@ import pandas as pd
 import streamlit as st
 
 from workbench.app import _ui, figures, forms, inputs, store_access
+from workbench.io import INPUT_FORMATS
 
 st.title("Measurement")
 root = _ui.store_root()
@@ -75,7 +76,7 @@ with _ui.shown_errors(), store_access.open_store(root) as store:
                     )
     with src_upload:
         up = st.file_uploader(
-            "Spectrum or peak list (CSV/TSV/text, JCAMP-DX, Parquet, FITS, JSON, EMSA/MAS)",
+            f"Spectrum or peak list ({INPUT_FORMATS})",
             key="upload",
         )
         if up is not None and st.button("Read uploaded file", key="read_upload"):

@@ -159,8 +159,12 @@ def register(sub: argparse._SubParsersAction) -> None:
         description=__doc__,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
+    # The formats as workbench.io.INPUT_FORMATS words them (tested; not imported:
+    # the readers' import would slow every command's start-up).
     p.add_argument(
-        "input", type=Path, help="peak list or spectrum (CSV/TSV/text, JCAMP-DX, Parquet)"
+        "input",
+        type=Path,
+        help="peak list or spectrum (CSV/TSV/text, JCAMP-DX, Parquet, FITS, JSON, EMSA/MAS)",
     )
     add_engine_options(p)
     p.add_argument("--json", metavar="OUT", help="write the JSON result to OUT ('-' for stdout)")

@@ -1,4 +1,4 @@
-"""Input readers: peak lists and spectra from delimited text, JCAMP-DX and Parquet.
+"""Input readers: peak lists and spectra (:data:`INPUT_FORMATS`).
 
 :func:`read_peak_list`, :func:`read_spectrum` and :func:`read_any` take a path,
 the file's bytes or pasted text and return a
@@ -15,6 +15,7 @@ parsed by polars in one call after sniffing its head
 from workbench.io.columns import check_unit_plausibility, map_columns, parse_header
 from workbench.io.jcamp import JcampBlock, parse_jcamp
 from workbench.io.readers import (
+    INPUT_FORMATS,
     MAX_ABS_VALUE,
     Progress,
     read_any,
@@ -26,6 +27,7 @@ from workbench.io.source import DEFAULT_MAX_BYTES, decode_text, load_source
 
 __all__ = [
     "DEFAULT_MAX_BYTES",
+    "INPUT_FORMATS",
     "MAX_ABS_VALUE",
     "JcampBlock",
     "Progress",

@@ -35,7 +35,18 @@ from workbench.io.source import DEFAULT_MAX_BYTES
 from workbench.io.spectra import jcamp_spectrum, spectrum_from_columns
 from workbench.io.tabular import Parsed, Progress, Source, parse_source, report_progress
 
-__all__ = ["MAX_ABS_VALUE", "Progress", "read_any", "read_peak_list", "read_spectrum", "sniff"]
+__all__ = [
+    "INPUT_FORMATS",
+    "MAX_ABS_VALUE",
+    "Progress",
+    "read_any",
+    "read_peak_list",
+    "read_spectrum",
+    "sniff",
+]
+
+#: The formats the readers take, in words (CLI help, the app's upload label).
+INPUT_FORMATS: str = "CSV/TSV/text, JCAMP-DX, Parquet, FITS, JSON, EMSA/MAS"
 
 
 # --------------------------------------------------------------------------- detection
