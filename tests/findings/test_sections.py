@@ -90,3 +90,21 @@ def test_limits_by_axis():
     xray = {"lines": [{"tolerance_eV": 104.3}]}
     text = " ".join(limits(xray, "energy", "eV"))
     assert "104 eV" in text and "matrix effects" in text and "temperature" not in text
+
+
+def test_the_method_paragraph_words_the_evidence_model_not_a_line_count():
+    # The class is decided by net evidence (chance corrected for every species
+    # tried, closeness, missing-line likelihood; docs/evidence-model.md), not by
+    # how many strong lines were found, which the paragraph said until stop 32.
+    from workbench.findings.sections import method_paragraph
+
+    text = method_paragraph(
+        {"technique": "LIBS", "instrument": "Bench LIBS #2"},
+        {"reference_sets": [{"id": "optical", "version": "2026.12.7"}]},
+        {"input": {"name": "q.csv", "kind": "spectrum", "medium": "air"}},
+        "wavelength",
+        "nm",
+    )
+    assert "coincidence" in text and "every element tried" in text
+    assert "should have been seen" in text and "pooled" in text
+    assert "how many of its expected strong lines" not in text

@@ -202,8 +202,12 @@ def method_paragraph(
     text += (
         f". Its peaks were compared, by a program, with the tabulated lines of every element in "
         f"the reference data {ref_words}, on a scale of {scale}. An element is called "
-        "established, probable or possible according to how many of its expected strong lines "
-        "were found, how cleanly and with what relative strengths; otherwise it is not supported."
+        "established, probable or possible according to the weight of its evidence: how "
+        "unlikely it is that its matched lines fall where they do by coincidence, allowing "
+        "for every element tried; how closely they sit on its tabulated lines; and how much "
+        "its lines that should have been seen but were not count against it. Otherwise it "
+        "is not supported. Where an element shows in two ion stages, their evidence may be "
+        "pooled; the class then says so."
     )
     return text
 
