@@ -103,3 +103,16 @@ def test_text_starting_with_a_bracket_that_is_not_json_is_a_table():
     text = "[nm],counts\n" + "\n".join(f"{400 + i},{i % 7}" for i in range(60))
     spec = read_spectrum(text.encode(), unit="nm")
     assert spec.source.format == "delimited" and spec.x.size == 60
+
+
+def test_the_workbench_result_record_is_named_and_points_to_its_input():
+    # A user drops the JSON that `workbench match --json` wrote: say what it is
+    # and which file it came from, rather than "holds no table".
+    from workbench.demo import demo_file
+    from workbench.matching import analyse_input
+    from workbench.matching.report import result_json
+
+    rep = analyse_input(demo_file("paint_chip"), name="paint_chip.csv").report
+    with pytest.raises(FileFormatError, match="is a workbench match result") as err:
+        read_any(result_json(rep), name="result.json")
+    assert "paint_chip.csv" in str(err.value) and rep["input"]["sha256"][:16] in str(err.value)

@@ -83,6 +83,18 @@ def columns_from_json(data: bytes, name: str) -> Columns | None:
     except (UnicodeDecodeError, json.JSONDecodeError, RecursionError):
         return None
     note = ""
+    if isinstance(doc, dict) and _RESULT_KEYS <= doc.keys():
+        # The workbench's own result record: point to the input it was made from.
+        given = doc.get("input") if isinstance(doc.get("input"), dict) else {}
+        source = str(given.get("name") or "its input file")
+        digest = str(given.get("sha256") or "")[:16]
+        raise FileFormatError(
+            f"{name} is a workbench match result (schema {doc.get('schema_version')}), not a "
+            f"spectrum or peak list; it was made from {source}"
+            + (f" (SHA-256 {digest}…)" if digest else ""),
+            f"match {source} itself; a stored analysis reopens in the app's 'Re-open a saved "
+            "analysis'",
+        )
     if isinstance(doc, dict) and len(doc) == 1 and isinstance(next(iter(doc.values())), dict):
         key = next(iter(doc))
         doc = doc[key]
@@ -123,6 +135,9 @@ def columns_from_json(data: bytes, name: str) -> Columns | None:
         return _columns(name, None, cols, note, "row")  # type: ignore[arg-type]
     raise _no_table(name, "neither an object of arrays nor a list of records or rows")
 
+
+#: Members that mark the workbench's own result record (docs/result-schema.md).
+_RESULT_KEYS = {"schema_version", "software_version", "elements", "input", "lines"}
 
 #: Members of an archived arc-lamp wavelength solution (pypeit's ``*_PYPIT.json``).
 _ARC_KEYS = {"spec", "fitc", "function", "xnorm", "fmin", "fmax"}
