@@ -323,6 +323,33 @@ def msa_case(rng: np.random.Generator) -> bytes:
     return "\n".join([*head, "#SPECTRUM : start", *rows, *end]).encode("utf-8", "replace")
 
 
+def workbook_case(rng: np.random.Generator) -> bytes:
+    """A small .xlsx workbook (tests/io/xlsx_fixture.py): sheets of rows, hostile cells."""
+    from tests.io.xlsx_fixture import xlsx_bytes
+
+    hostile: list[object] = [None, "", "x", "1,5", 1e308, -1e308, 0.0, True, "#N/A", "<&>"]
+
+    def cell(v: float) -> object:
+        return hostile[int(rng.integers(0, len(hostile)))] if rng.random() < 0.05 else v
+
+    sheets: dict[str, list[list[object]]] = {}
+    if rng.random() < 0.3:
+        sheets["Info"] = [["Instrument", "invented"], ["Date", "2026-01-05"]]
+    n = int(rng.choice([0, 1, 3, 20, 60]))
+    rows: list[list[object]] = []
+    if rng.random() < 0.4:
+        rows.append(["Invented export"])
+    if rng.random() < 0.8:
+        rows.append([str(rng.choice(_HEADERS)), "intensity"])
+    if rng.random() < 0.2:
+        rows.append(["nm", "counts"])
+    x0, step = float(rng.uniform(300, 700)), float(rng.choice([0.1, -0.1, 0.0, 0.01]))
+    for i in range(n):
+        rows.append([cell(x0 + i * step), cell(float(rng.uniform(0, 1e4)))])
+    sheets[str(rng.choice(["Spectrum", "Sheet1", "Ä & <b>"]))] = rows
+    return xlsx_bytes(sheets)
+
+
 def mutate(data: bytes, rng: np.random.Generator) -> bytes:
     """Flip bits, truncate, duplicate or splice hostile text into valid bytes."""
     b = bytearray(data)

@@ -4,10 +4,10 @@ Bounds checked on every input (documented in tests/fuzz/README.md): at most
 5 s per MB of input (at least 1 MB counted) as a hang guard, not a speed
 measurement; Python-side peak memory (tracemalloc, on every fourth seeded
 input) at most 4 x the input + 16 MiB. Warnings are errors in this suite, so a numpy
-RuntimeWarning also fails. Inputs: 12,800 in all (hypothesis, derandomized:
+RuntimeWarning also fails. Inputs: 13,100 in all (hypothesis, derandomized:
 2,500 tables, 3,000 byte strings, 1,500 JCAMP-DX; seeded generators of
 ``generators.py``, half of them mutated: 2,200 tables, 2,000 JCAMP-DX, 300
-Parquet, 300 FITS, 600 JSON, 400 EMSA/MAS).
+Parquet, 300 FITS, 600 JSON, 400 EMSA/MAS, 300 spreadsheet workbooks).
 """
 
 from __future__ import annotations
@@ -28,6 +28,7 @@ from tests.fuzz.generators import (
     mutate,
     parquet_case,
     run_case,
+    workbook_case,
 )
 from workbench.datamodel import PeakList, Spectrum
 from workbench.errors import InputError
@@ -142,6 +143,7 @@ def test_hypothesis_jcamp(labels, table, data_lines) -> None:
         ("fits", fits_case, 300),
         ("json", json_case, 600),
         ("emsa", msa_case, 400),
+        ("workbook", workbook_case, 300),
     ],
 )
 def test_seeded_generators_and_mutations(label, make, n) -> None:
@@ -149,6 +151,8 @@ def test_seeded_generators_and_mutations(label, make, n) -> None:
         # astropy is imported on the first FITS input; import it before the
         # memory of any input is traced (its import is not the reader's cost).
         import astropy.io.fits  # noqa: F401
+    if label == "workbook":
+        import fastexcel  # noqa: F401  (likewise: imported on the first workbook)
     rng = np.random.default_rng(20261202)
     outcome = Outcome()
     readers = (_read_checked, read_peak_list, read_spectrum)

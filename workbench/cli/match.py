@@ -164,7 +164,8 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument(
         "input",
         type=Path,
-        help="peak list or spectrum (CSV/TSV/text, JCAMP-DX, Parquet, FITS, JSON, EMSA/MAS)",
+        help="peak list or spectrum (CSV/TSV/text, Excel/OpenDocument workbooks, JCAMP-DX, "
+        "Parquet, FITS, JSON, EMSA/MAS)",
     )
     add_engine_options(p)
     p.add_argument("--json", metavar="OUT", help="write the JSON result to OUT ('-' for stdout)")

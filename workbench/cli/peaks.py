@@ -20,7 +20,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p = subparsers.add_parser(
         "peaks",
         help="find emission peaks or absorption dips in a spectrum",
-        description="Read a spectrum (CSV/TSV/text, JCAMP-DX, Parquet, FITS, JSON, EMSA/MAS), "
+        description="Read a spectrum (CSV/TSV/text, Excel/OpenDocument workbooks, JCAMP-DX, "
+        "Parquet, FITS, JSON, EMSA/MAS), "
         "remove the "
         "baseline, and list the peaks with sub-pixel centres, FWHM, SNR and flags. "
         "A peak-list input is shown as read.",

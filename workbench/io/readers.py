@@ -46,7 +46,9 @@ __all__ = [
 ]
 
 #: The formats the readers take, in words (CLI help, the app's upload label).
-INPUT_FORMATS: str = "CSV/TSV/text, JCAMP-DX, Parquet, FITS, JSON, EMSA/MAS"
+INPUT_FORMATS: str = (
+    "CSV/TSV/text, Excel/OpenDocument workbooks, JCAMP-DX, Parquet, FITS, JSON, EMSA/MAS"
+)
 
 
 # --------------------------------------------------------------------------- detection
@@ -171,9 +173,12 @@ def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
         notes.append(f"decoded as {parsed.encoding}")
     if parsed.table is not None:
         t = parsed.table
-        notes.append(
-            f"delimiter: {t.delimiter_name}" + ("; decimal comma" if t.decimal_comma else "")
-        )
+        if parsed.fmt == "spreadsheet":  # which sheet (its rows are the table's lines)
+            notes.append(str(parsed.cols.details.get("note", "")) if parsed.cols else "")
+        else:
+            notes.append(
+                f"delimiter: {t.delimiter_name}" + ("; decimal comma" if t.decimal_comma else "")
+            )
         if t.units_line is not None:
             notes.append(f"units on line {t.units_line} joined to the column names above them")
         if t.title_lines:
@@ -200,7 +205,7 @@ def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
         return jcamp_spectrum(b, parsed.raw, unit, medium, check, notes)
     cols = parsed.cols
     assert cols is not None
-    if "note" in cols.details:  # what a FITS or JSON reader decided
+    if "note" in cols.details and parsed.fmt != "spreadsheet":  # a FITS or JSON reader's
         notes.append(str(cols.details["note"]))
     if kind == "peak_list":
         return peak_list_from_columns(

@@ -38,6 +38,16 @@ _KNOWN_SUFFIXES = (
     ".pq",
     ".asc",
     ".xy",
+    ".fits",
+    ".fit",
+    ".json",
+    ".msa",
+    ".emsa",
+    ".xlsx",
+    ".xlsm",
+    ".xlsb",
+    ".xls",
+    ".ods",
 )
 
 

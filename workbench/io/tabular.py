@@ -1,7 +1,8 @@
 """From an input's bytes to columns: format detection and the column adapters.
 
 :func:`parse_source` loads the bytes (:mod:`workbench.io.source`), recognises
-Parquet and FITS (:mod:`workbench.io.fits`) by their first bytes, JSON
+Parquet and FITS (:mod:`workbench.io.fits`) by their first bytes, Excel and
+OpenDocument workbooks (:mod:`workbench.io.spreadsheet`) by their container, JSON
 tables (:mod:`workbench.io.jsontable`) by a leading ``{`` or ``[`` that
 parses, EMSA/MAS (:mod:`workbench.io.msa`) by its ``#FORMAT`` line, and
 JCAMP-DX by its leading ``##TITLE=``, and
@@ -42,6 +43,7 @@ from workbench.io.jcamp import JcampBlock, looks_like_jcamp, parse_jcamp
 from workbench.io.jsontable import columns_from_json, looks_like_json
 from workbench.io.msa import columns_from_msa, looks_like_msa
 from workbench.io.source import BackgroundSha256, RawInput, decode_text, read_source
+from workbench.io.spreadsheet import looks_like_spreadsheet, table_from_spreadsheet
 
 __all__ = [
     "Columns",
@@ -267,6 +269,12 @@ def _parse_raw(raw: RawInput, progress: Progress | None) -> Parsed:
         parsed = Parsed(raw, "parquet", cols=columns_from_parquet(raw.data, raw.name))
     elif looks_like_fits(raw.data):
         parsed = Parsed(raw, "fits", cols=columns_from_fits(raw.data, raw.name))
+    elif looks_like_spreadsheet(raw.data):
+        table, note = table_from_spreadsheet(raw.data, raw.name)
+        cols = columns_from_table(table)
+        cols.details["n_columns"] = table.n_columns
+        cols.details["note"] = note
+        parsed = Parsed(raw, "spreadsheet", cols=cols, table=table)
     elif looks_like_json(raw.data) and (js := columns_from_json(raw.data, raw.name)) is not None:
         parsed = Parsed(raw, "json", cols=js)
     elif raw.data.startswith((b"\xff\xfe", b"\xfe\xff")):
