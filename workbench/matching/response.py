@@ -25,8 +25,10 @@ points existed (32 of the 33 real emission spectra of ``tests/realdata``);
 the information criterion keeps it in 14, prefers a straight line in 9 and
 no curve at all in 10 (ASTM G173 in absorption: none, was a line): the
 points scatter by the lamps' own 0.3–0.8 dex departures, which a
-quadratic then partly takes for the instrument's and moves every other
-species' predictions by (up to 0.8 dex at the ends of the Keck LRIS arc).
+quadratic then partly took for the instrument's, moving every other
+species' predictions with it (in the 9 of those 10 that had a curve, by
+0.09–0.98 dex across the range: the Goodman 1200M5 Ne lamp −0.28 and
+−0.94 decades at its ends).
 Figures are in ``docs/evidence-model.md``.
 
 In emission every species weighs the same in the fit, however many points
