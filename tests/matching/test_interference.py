@@ -121,7 +121,7 @@ def test_ba_l_under_ti_k_is_ruled_out_on_ba_lines_in_the_lead_white_demo(xrf_dem
 
 
 def test_xrf_text_report_lists_ruled_out_families_once_and_every_artefact(xrf_demo_report):
-    from workbench.matching.report import summary_text
+    from workbench.matching.textsummary import summary_text
 
     text = summary_text(xrf_demo_report)
     assert "[overlap_ruled_out]" not in text
@@ -173,7 +173,7 @@ def test_each_overlap_position_belongs_to_the_element_beside_it():
 def test_the_text_report_groups_overlaps_by_observed_line():
     # One line per observed line, the best-supported species first, instead of
     # one warning per pair (n(n-1)/2 pairs for n species in the window).
-    from workbench.matching.report import summary_text
+    from workbench.matching.textsummary import summary_text
 
     rep = _calcium_peaks_report()
     pairs = [w for w in rep["warnings"] if w["kind"] == "unresolved_overlap"]

@@ -153,7 +153,7 @@ def test_a_raised_stage_is_marked_in_the_report_and_every_face():
     # own class, and the CLI table, the app's grid ("Class note") and the findings sheet say
     # which stages were pooled (workbench.matching.presentation.verdict_basis).
     from workbench.matching.presentation import element_rows, verdict_basis
-    from workbench.matching.report import summary_text
+    from workbench.matching.textsummary import summary_text
 
     rep = _ca_three_lines_and_h_k()
     by = {e["species"]: e for e in rep["elements"]}

@@ -15,7 +15,8 @@ import pytest
 
 from workbench.datamodel import PeakList
 from workbench.matching import MatchParameters, ToleranceSpec, match_peaks
-from workbench.matching.report import result_json, summary_text
+from workbench.matching.report import result_json
+from workbench.matching.textsummary import summary_text
 from workbench.refdata import load_set
 from workbench.xray import Instrument
 from workbench.xray.detector import fwhm_eV

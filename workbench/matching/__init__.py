@@ -9,8 +9,9 @@ and their rules are in :mod:`workbench.matching.scoring`; the JSON record in
 
 from workbench.matching.analyse import AnalysisOutcome, analyse_input
 from workbench.matching.engine import MatchParameters, MatchResult, build_index, match_peaks
-from workbench.matching.report import SCHEMA_VERSION, build_report, result_json, summary_text
+from workbench.matching.report import SCHEMA_VERSION, build_report, result_json
 from workbench.matching.scoring import VERDICTS
+from workbench.matching.textsummary import summary_text
 from workbench.matching.tolerance import ToleranceSpec
 
 __all__ = [
