@@ -351,6 +351,7 @@ def parse_delimited(text: str, name: str) -> Table:
     if decimal_comma:
         rows = [[c.replace(",", ".") for c in row] for row in rows]
     first_data = cells[0][0]
+    text_columns = [j for j, c in enumerate(rows[0]) if c and not looks_numeric_cell(c)]
     return Table(
         name=name,
         header=header,
@@ -365,10 +366,8 @@ def parse_delimited(text: str, name: str) -> Table:
         title_lines=title_lines,
         footer_lines=footer_lines,
         units_line=units_line,
-        text_columns=(
-            text := [j for j, c in enumerate(rows[0]) if c and not looks_numeric_cell(c)]
-        ),
-        label_columns=[j for j in text if _all_text(rows[:_LABEL_ROWS], j)],
+        text_columns=text_columns,
+        label_columns=[j for j in text_columns if _all_text(rows[:_LABEL_ROWS], j)],
     )
 
 

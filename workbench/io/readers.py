@@ -173,9 +173,7 @@ def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
         notes.append(f"decoded as {parsed.encoding}")
     if parsed.table is not None:
         t = parsed.table
-        if parsed.fmt == "spreadsheet":  # which sheet (its rows are the table's lines)
-            notes.append(str(parsed.cols.details.get("note", "")) if parsed.cols else "")
-        else:
+        if parsed.fmt != "spreadsheet":  # a workbook's rows were tab-joined by the reader
             notes.append(
                 f"delimiter: {t.delimiter_name}" + ("; decimal comma" if t.decimal_comma else "")
             )
@@ -205,7 +203,7 @@ def _build(parsed: Parsed, kind: str, kw: dict) -> PeakList | Spectrum:
         return jcamp_spectrum(b, parsed.raw, unit, medium, check, notes)
     cols = parsed.cols
     assert cols is not None
-    if "note" in cols.details and parsed.fmt != "spreadsheet":  # a FITS or JSON reader's
+    if "note" in cols.details:  # what a FITS, JSON or workbook reader decided
         notes.append(str(cols.details["note"]))
     if kind == "peak_list":
         return peak_list_from_columns(
