@@ -98,3 +98,40 @@ def test_a_spectrum_in_a_workbook_is_matched_like_its_csv():
     calls = lambda r: [(e["species"], e["verdict"]) for e in r["elements"]]  # noqa: E731
     assert calls(book) == calls(csv) and calls(book)[0][1] == "established"
     assert isinstance(read_any(xlsx_bytes({"S": rows}), name="s.xlsx"), Spectrum)
+
+
+def _two_samples() -> bytes:
+    second = [[w, 2.0 * h] for w, h in LINES]
+    return xlsx_bytes(
+        {
+            "Info": [["Operator", "demo"]],
+            "2024": [["wavelength (nm)", "intensity"], *LINES],
+            "Sample B": [["wavelength (nm)", "intensity"], *second],
+        }
+    )
+
+
+@pytest.mark.parametrize(
+    ("block", "factor"), [(None, 1.0), ("Sample B", 2.0), (2, 2.0), ("2024", 1.0), (1, 1.0)]
+)
+def test_the_sheet_asked_for_is_read(block, factor):
+    peaks = read_any(_two_samples(), name="two.xlsx", block=block)
+    np.testing.assert_allclose(peaks.intensities, [factor * r[1] for r in LINES])
+
+
+def test_a_sheet_that_is_not_there_names_the_sheets():
+    with pytest.raises(FileFormatError, match="has no sheet 'Sample C'") as err:
+        read_any(_two_samples(), name="two.xlsx", block="Sample C")
+    assert "'Info', '2024', 'Sample B'" in str(err.value)
+    with pytest.raises(FileFormatError, match="has no sheet 7"):
+        read_any(_two_samples(), name="two.xlsx", block=7)
+
+
+def test_the_peaks_command_takes_a_sheet(tmp_path, capsys):
+    from workbench.cli import main
+
+    f = tmp_path / "two.xlsx"
+    f.write_bytes(_two_samples())
+    assert main(["peaks", str(f), "--block", "Sample B"]) == 0
+    out = capsys.readouterr().out
+    assert "sheet 'Sample B' (other sheets, not read: 'Info', '2024')" in out

@@ -35,7 +35,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--unit", help="unit of the x axis (nm, angstrom, um, cm-1, eV, keV)")
     p.add_argument("--medium", choices=("air", "vacuum"), help="medium of wavelengths")
     add_columns_option(p)
-    p.add_argument("--block", help="JCAMP-DX block index (0-based) or title")
+    p.add_argument(
+        "--block",
+        help="JCAMP-DX block index (0-based) or title; a workbook's sheet (index or name)",
+    )
     p.add_argument(
         "--saturation-level",
         type=float,

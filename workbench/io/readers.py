@@ -262,7 +262,8 @@ def read_peak_list(
         Explicit column choices ``{role: header}`` (roles: position,
         intensity, area, fwhm, snr).
     block : int or str, optional
-        JCAMP-DX block index (0-based) or title.
+        JCAMP-DX block index (0-based) or title; in a spreadsheet workbook,
+        the sheet (0-based index or name).
     check_units : bool
         Refuse positions that look implausible in their stated unit.
     max_bytes : int
@@ -281,7 +282,7 @@ def read_peak_list(
     InputError
         One of its subclasses, naming the row or column and the fix.
     """
-    parsed = parse_source(source, name, max_bytes, progress)
+    parsed = parse_source(source, name, max_bytes, progress, part=block)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -322,7 +323,9 @@ def read_spectrum(
         Medium of a wavelength axis (assumed air, with a note, if unstated).
     block : int or str, optional
         JCAMP-DX block index (0-based among data blocks) or title; default
-        the first data block (a note lists the others).
+        the first data block (a note lists the others). In a spreadsheet
+        workbook, the sheet (0-based index or name); default the first
+        holding a table.
     columns : dict, optional
         Explicit column choices ``{"position": header, "intensity": header}``.
     check_units : bool
@@ -342,7 +345,7 @@ def read_spectrum(
     InputError
         One of its subclasses, naming the row or column and the fix.
     """
-    parsed = parse_source(source, name, max_bytes, progress)
+    parsed = parse_source(source, name, max_bytes, progress, part=block)
     kw = {
         "unit": unit,
         "medium": medium,
@@ -396,7 +399,7 @@ def read_any(
     """
     if kind not in (None, "peak_list", "spectrum"):
         raise ValueRangeError(f"unknown kind {kind!r}", "use 'peak_list' or 'spectrum'")
-    parsed = parse_source(source, name, max_bytes, progress)
+    parsed = parse_source(source, name, max_bytes, progress, part=block)
     kw = {
         "unit": unit,
         "medium": medium,

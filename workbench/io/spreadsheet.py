@@ -13,9 +13,11 @@ inside it count): they are the spreadsheet's own numbers unless rows above
 the first filled cell are blank.
 
 Which sheet: the first that holds at least three rows with two or more
-numbers (an "Info" or "Settings" sheet before the data is passed over); the
-note names it and the others. Numbers keep every digit the workbook stores
-(read as floats, written with ``repr``); text cells are kept as text, a date
+numbers (an "Info" or "Settings" sheet before the data is passed over), or
+the one asked for (``block=`` of the readers, ``--block`` of ``workbench
+peaks``: a name or a 0-based index); the note names it and the others.
+Numbers keep every digit the workbook stores (read as floats, written with
+``repr``); text cells are kept as text, a date
 as its ISO form. A workbook with no such sheet, a password-protected one or
 a damaged one is refused with one error naming the fix.
 """
@@ -55,6 +57,24 @@ def looks_like_spreadsheet(data: bytes) -> bool:
     except (zipfile.BadZipFile, OSError, ValueError):
         return False
     return False
+
+
+def _sheet_index(sheet: int | str, names: list[str], name: str) -> int:
+    """The index of the sheet asked for (by name first, then as a 0-based index)."""
+    if isinstance(sheet, str) and sheet in names:
+        return names.index(sheet)
+    try:
+        index = int(sheet)
+    except (TypeError, ValueError):
+        index = -1
+    if not 0 <= index < len(names) and str(sheet) in names:
+        return names.index(str(sheet))  # a sheet named "2024", given as a number
+    if not 0 <= index < len(names):
+        raise FileFormatError(
+            f"{name} has no sheet {sheet!r} (sheets: {', '.join(repr(n) for n in names)})",
+            "give a sheet's name or its 0-based index",
+        )
+    return index
 
 
 def _unreadable(name: str, why: str) -> FileFormatError:
@@ -113,8 +133,14 @@ def _lines(rows: list[list[str]], numeric: list[list[bool]]) -> list[str]:
     return out
 
 
-def table_from_spreadsheet(data: bytes, name: str) -> tuple[Table, str]:
+def table_from_spreadsheet(
+    data: bytes, name: str, sheet: int | str | None = None
+) -> tuple[Table, str]:
     """The first sheet holding a table (module docstring), parsed, and a note naming it.
+
+    ``sheet`` (a 0-based index, or a name: an index given as text, as on the
+    command line, counts as an index unless a sheet has that name) reads
+    that sheet instead, whatever it holds.
 
     Raises
     ------
@@ -133,16 +159,19 @@ def table_from_spreadsheet(data: bytes, name: str) -> tuple[Table, str]:
         names = list(reader.sheet_names)
     except (fastexcel.FastExcelError, ValueError, OSError) as exc:
         raise _unreadable(name, str(exc).splitlines()[0][:200]) from None
-    for index, sheet in enumerate(names):
+    chosen = None if sheet is None else _sheet_index(sheet, names, name)
+    for index, title in enumerate(names):
+        if chosen is not None and index != chosen:
+            continue
         try:
             rows, numeric = _sheet_rows(reader, index)
         except (fastexcel.FastExcelError, ValueError, OSError) as exc:  # a damaged sheet
-            raise _unreadable(name, f"sheet {sheet!r}: {str(exc).splitlines()[0][:200]}") from None
-        if sum(1 for f in numeric if sum(f) >= 2) < MIN_NUMBER_ROWS:
+            raise _unreadable(name, f"sheet {title!r}: {str(exc).splitlines()[0][:200]}") from None
+        if chosen is None and sum(1 for f in numeric if sum(f) >= 2) < MIN_NUMBER_ROWS:
             continue
         table = parse_delimited("\n".join(_lines(rows, numeric)) + "\n", name)
-        others = [n for n in names if n != sheet]
-        note = f"sheet {sheet!r}" + (
+        others = [n for n in names if n != title]
+        note = f"sheet {title!r}" + (
             f" (other sheets, not read: {', '.join(repr(n) for n in others)})" if others else ""
         )
         return table, note

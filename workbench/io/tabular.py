@@ -223,7 +223,12 @@ def _ascii_head(data: bytes) -> str:
 
 
 def parse_source(
-    source: Source, name: str | None, max_bytes: int, progress: Progress | None = None
+    source: Source,
+    name: str | None,
+    max_bytes: int,
+    progress: Progress | None = None,
+    *,
+    part: int | str | None = None,
 ) -> Parsed:
     """Load an input and split it into columns (or JCAMP-DX blocks).
 
@@ -237,6 +242,9 @@ def parse_source(
         Refuse larger inputs before reading them.
     progress : callable, optional
         ``progress(fraction, message)``.
+    part : int or str, optional
+        The sheet of a spreadsheet workbook (0-based index or name); JCAMP-DX
+        blocks are chosen later, from the parsed blocks.
 
     Returns
     -------
@@ -251,11 +259,11 @@ def parse_source(
     label, data = read_source(source, name=name, max_bytes=max_bytes)
     if len(data) < _HASH_IN_THREAD_BYTES:
         raw = RawInput(label, data, hashlib.sha256(data).hexdigest())
-        return _parse_raw(raw, progress)
+        return _parse_raw(raw, progress, part)
     # A large input is hashed in a thread while it is parsed; the parse sees a
     # record without the hash, replaced by the complete one before returning.
     hasher = BackgroundSha256(data)
-    parsed = _parse_raw(RawInput(label, data, ""), progress)
+    parsed = _parse_raw(RawInput(label, data, ""), progress, part)
     return dataclasses.replace(parsed, raw=RawInput(label, data, hasher.hexdigest()))
 
 
@@ -263,14 +271,14 @@ def parse_source(
 _HASH_IN_THREAD_BYTES = 1 << 20
 
 
-def _parse_raw(raw: RawInput, progress: Progress | None) -> Parsed:
+def _parse_raw(raw: RawInput, progress: Progress | None, part: int | str | None = None) -> Parsed:
     report_progress(progress, 0.1, f"read {raw.size_bytes:,} bytes")
     if raw.data[:4] == b"PAR1":
         parsed = Parsed(raw, "parquet", cols=columns_from_parquet(raw.data, raw.name))
     elif looks_like_fits(raw.data):
         parsed = Parsed(raw, "fits", cols=columns_from_fits(raw.data, raw.name))
     elif looks_like_spreadsheet(raw.data):
-        table, note = table_from_spreadsheet(raw.data, raw.name)
+        table, note = table_from_spreadsheet(raw.data, raw.name, sheet=part)
         cols = columns_from_table(table)
         cols.details["n_columns"] = table.n_columns
         cols.details["note"] = note
