@@ -94,3 +94,17 @@ def test_a_malformed_column_choice_is_one_clear_error(text, why):
 
     with pytest.raises(ColumnMappingError, match=why):
         sv.load_input(b"wavelength (nm),counts\n400,1\n401,2\n", "t.csv", columns=text)
+
+
+@pytest.mark.parametrize(("text", "recorded"), [("Sample B", "Sample B"), (" 2 ", 2), ("", None)])
+def test_the_block_or_sheet_reaches_the_reader_and_the_recorded_options(text, recorded):
+    # The CLI's --block words (workbench.io.parse_block_choice): a workbook's sheet.
+    from tests.io.xlsx_fixture import xlsx_bytes
+
+    rows = [["wavelength (nm)", "intensity"], [393.366, 1.0], [396.847, 2.0], [422.673, 3.0]]
+    doubled = [rows[0], *[[w, 2.0 * h] for w, h in rows[1:]]]
+    book = xlsx_bytes({"Info": [["Operator", "demo"]], "Sample A": rows, "Sample B": doubled})
+    got = sv.load_input(book, "two.xlsx", block=text)
+    assert got.options.get("block") == recorded
+    expect = [2.0, 4.0, 6.0] if recorded is not None else [1.0, 2.0, 3.0]
+    assert got.peaks.intensities.tolist() == expect

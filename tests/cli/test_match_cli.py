@@ -200,3 +200,50 @@ def test_help_names_every_input_format_the_readers_take(capsys):
             main([command, "--help"])
         out = " ".join(capsys.readouterr().out.split())
         assert INPUT_FORMATS in out, command
+
+
+def test_analyse_passes_the_column_and_block_choices_to_the_reader(tmp_path, capsys):
+    # `workbench analyse` took --columns (add_engine_options) but did not pass it
+    # on until stop 32: the stored analysis read the file's default column.
+    # ASTM G173-03 from pvlib 0.16.1 (tests/data/realspectra/pvlib).
+    from tests.realdata.loader import DATA
+    from workbench.casefile import CaseStore
+    from workbench.demo import seed_demo_case
+
+    store_dir = tmp_path / "store"
+    with CaseStore.open(store_dir) as store:
+        seed_demo_case(store)
+        item = store.list_items("NRFL-2026-0417")[0]
+        m = store.add_measurement(
+            (item.case_number, item.item_number),
+            (DATA / "pvlib" / "ASTMG173.csv").read_bytes(),
+            "ASTMG173.csv",
+            "absorption",
+            "reference spectrum (pvlib)",
+            {},
+            "Test Analyst (invented)",
+            "2026-11-21T09:00:00Z",
+        )
+    args = ["analyse", str(m.id), "--analyst", "Test Analyst (invented)", "--store"]
+    args += [str(store_dir), "--unit", "nm", "--mode", "absorption", "--json"]
+    assert main([*args, "--columns", "intensity=global"]) == 0
+    notes = json.loads(capsys.readouterr().out)["result"]["input"]["notes"]
+    assert "x from 'wavelength' (unit nm), y from 'global'" in notes
+    assert main(args) == 0
+    notes = json.loads(capsys.readouterr().out)["result"]["input"]["notes"]
+    assert not any("y from 'global'" in n for n in notes)
+
+
+def test_match_reads_the_sheet_asked_for(tmp_path, capsys):
+    from tests.io.xlsx_fixture import xlsx_bytes
+
+    # Ca II K, H and Ca I (air nm; NIST ASD, from memory); invented heights.
+    rows = [["wavelength (nm)", "intensity"], [393.366, 100.0], [396.847, 80.0], [422.673, 60.0]]
+    f = tmp_path / "book.xlsx"
+    f.write_bytes(xlsx_bytes({"Notes": [["see sheet 2"]], "A": rows[:1], "B": rows}))
+    assert main(["match", str(f), "--block", "B", "--json", str(tmp_path / "r.json")]) == 0
+    notes = json.loads((tmp_path / "r.json").read_bytes())["input"]["notes"]
+    assert "sheet 'B' (other sheets, not read: 'Notes', 'A')" in notes
+    capsys.readouterr()
+    assert main(["match", str(f), "--block", "C"]) == 2
+    assert "has no sheet 'C'" in capsys.readouterr().err

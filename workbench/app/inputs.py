@@ -49,6 +49,7 @@ def load_input(
     mode: str = "emission",
     min_snr: float | None = None,
     columns: str | None = None,
+    block: str | None = None,
 ) -> LoadedInput:
     """Read a file or pasted text; find peaks when it is a spectrum.
 
@@ -67,12 +68,15 @@ def load_input(
     columns : str, optional
         Column choices ``"ROLE=HEADER,..."`` (the CLI's ``--columns``;
         :func:`workbench.io.columns.parse_column_choices`).
+    block : str, optional
+        The JCAMP-DX block or workbook sheet to read (the CLI's ``--block``;
+        :func:`workbench.io.parse_block_choice`).
 
     Returns
     -------
     LoadedInput
     """
-    from workbench.io import read_any
+    from workbench.io import parse_block_choice, read_any
     from workbench.io.columns import parse_column_choices
     from workbench.matching.analyse import peaks_from_spectrum
 
@@ -83,10 +87,15 @@ def load_input(
         kw["kind"] = kind
     if columns and columns.strip():
         kw["columns"] = parse_column_choices(columns)
+    part = parse_block_choice(block)
+    if part is not None:
+        kw["block"] = part
     got = read_any(bytes(data), mode=mode, **kw)
     options = {"unit": unit or None, "medium": medium or None, "kind": kind or None, "mode": mode}
     if columns and columns.strip():
         options["columns"] = columns.strip()
+    if part is not None:
+        options["block"] = part
     if isinstance(got, Spectrum):
         pk: dict[str, Any] = {}
         if min_snr:

@@ -41,6 +41,11 @@ with st.expander("Reading options", expanded=False):
     cols_txt = c6.text_input(
         "Columns by header (optional)", placeholder="intensity=global", key="opt_cols"
     )
+    block_txt = st.text_input(
+        "Block or sheet (optional)",
+        placeholder="JCAMP-DX block or workbook sheet: 0-based index or name",
+        key="opt_block",
+    )
     st.session_state["read_options"] = {
         "kind": None if kind == "detect" else kind,
         "unit": None if unit == "as stated" else unit,
@@ -48,6 +53,7 @@ with st.expander("Reading options", expanded=False):
         "mode": mode,
         "min_snr": float(min_snr),
         "columns": cols_txt.strip() or None,
+        "block": block_txt.strip() or None,
     }
 
 with _ui.shown_errors(), store_access.open_store(root) as store:

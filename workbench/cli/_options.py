@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 
 __all__ = [
+    "add_block_option",
     "add_columns_option",
     "add_store_option",
     "print_json",
@@ -85,4 +86,22 @@ def add_columns_option(p: argparse.ArgumentParser) -> None:
         metavar="ROLE=HEADER,...",
         help="choose columns by their header, e.g. position=wavelength,intensity=global "
         "(roles: position, intensity, area, fwhm, snr)",
+    )
+
+
+def _block_arg(text: str) -> int | str | None:
+    """A 0-based index as ``int``, anything else as the name it is (io.parse_block_choice)."""
+    from workbench.io.readers import parse_block_choice
+
+    return parse_block_choice(text)
+
+
+def add_block_option(p: argparse.ArgumentParser) -> None:
+    """Add ``--block``: which part of a multi-part file (JCAMP-DX block, workbook sheet)."""
+    p.add_argument(
+        "--block",
+        type=_block_arg,
+        metavar="INDEX|NAME",
+        help="JCAMP-DX block (0-based index or title) or workbook sheet (index or name); "
+        "default the first holding data",
     )

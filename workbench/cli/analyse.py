@@ -56,6 +56,8 @@ def run(args: argparse.Namespace) -> int:
             kind=args.kind,
             peak_options=peak_options,
             lab_dir=args.lab_dir,
+            columns=args.columns,
+            block=args.block,
         )
         record = store.add_analysis(
             m.id,

@@ -10,7 +10,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from workbench.cli._options import add_columns_option
+from workbench.cli._options import add_block_option, add_columns_option
 
 __all__ = ["add_engine_options", "params_from_args", "peak_options_from_args", "register"]
 
@@ -95,6 +95,7 @@ def add_engine_options(p: argparse.ArgumentParser) -> None:
     )
     p.add_argument("--kind", choices=["peak_list", "spectrum"], help="force how INPUT is read")
     add_columns_option(p)
+    add_block_option(p)
     p.add_argument("--min-snr", type=float, help="peak-finding threshold for raw spectra (σ)")
     p.add_argument("--lab-dir", type=Path, help="directory holding lab reference sets")
     p.add_argument(
@@ -195,6 +196,7 @@ def run(args: argparse.Namespace) -> int:
         peak_options=peak_options,
         lab_dir=args.lab_dir,
         columns=args.columns,
+        block=args.block,
     )
     if args.json == "-":
         sys.stdout.buffer.write(outcome.json_bytes + b"\n")

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from workbench.cli._options import add_columns_option
+from workbench.cli._options import add_block_option, add_columns_option
 
 __all__ = ["register"]
 
@@ -35,10 +35,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p.add_argument("--unit", help="unit of the x axis (nm, angstrom, um, cm-1, eV, keV)")
     p.add_argument("--medium", choices=("air", "vacuum"), help="medium of wavelengths")
     add_columns_option(p)
-    p.add_argument(
-        "--block",
-        help="JCAMP-DX block index (0-based) or title; a workbook's sheet (index or name)",
-    )
+    add_block_option(p)
     p.add_argument(
         "--saturation-level",
         type=float,
@@ -57,15 +54,12 @@ def _handle(args: argparse.Namespace) -> int:
     from workbench.io import read_any
     from workbench.peaks import find_peaks
 
-    block: int | str | None = args.block
-    if isinstance(block, str) and block.strip().isdigit():
-        block = int(block)
     data = read_any(
         args.input,
         unit=args.unit,
         medium=args.medium,
         mode=args.mode,
-        block=block,
+        block=args.block,
         columns=args.columns,
     )
     if isinstance(data, PeakList):

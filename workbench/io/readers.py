@@ -39,11 +39,25 @@ __all__ = [
     "INPUT_FORMATS",
     "MAX_ABS_VALUE",
     "Progress",
+    "parse_block_choice",
     "read_any",
     "read_peak_list",
     "read_spectrum",
     "sniff",
 ]
+
+
+def parse_block_choice(text: str | None) -> int | str | None:
+    """The ``block`` asked for in words (CLI ``--block``, the app's reading options).
+
+    Blank is ``None`` (the first part holding data); digits are a 0-based
+    index; anything else is a JCAMP-DX block title or a workbook sheet name.
+    """
+    t = (text or "").strip()
+    if not t:
+        return None
+    return int(t) if t.isdigit() else t
+
 
 #: The formats the readers take, in words (CLI help, the app's upload label).
 INPUT_FORMATS: str = (

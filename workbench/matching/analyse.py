@@ -85,6 +85,7 @@ def analyse_input(
     peak_options: dict[str, Any] | None = None,
     lab_dir: Path | None = None,
     columns: dict[str, str] | None = None,
+    block: int | str | None = None,
 ) -> AnalysisOutcome:
     """Read an input (peak list or raw spectrum), find peaks if needed, and match.
 
@@ -109,6 +110,9 @@ def analyse_input(
     columns : dict, optional
         Explicit column choices ``{role: header}`` for a table (see
         :func:`workbench.io.read_any`).
+    block : int or str, optional
+        The JCAMP-DX block or workbook sheet to read (see
+        :func:`workbench.io.read_any`); the first holding data by default.
 
     Returns
     -------
@@ -117,7 +121,13 @@ def analyse_input(
     from workbench.io import read_any
 
     params = params or MatchParameters()
-    kw: dict[str, Any] = {"name": name, "unit": unit, "medium": medium, "columns": columns}
+    kw: dict[str, Any] = {
+        "name": name,
+        "unit": unit,
+        "medium": medium,
+        "columns": columns,
+        "block": block,
+    }
     if kind:
         kw["kind"] = kind
     data = read_any(source, **kw)
