@@ -450,3 +450,32 @@ def test_a_lone_number_below_the_data_is_not_swallowed_as_a_footer():
     rows = "".join(f"{a:.3f},{b:.6f}\n" for a, b in zip(x, y, strict=True))
     with pytest.raises(FileFormatError, match="row 62 has 1 cells"):
         read_spectrum(("wavelength (nm),counts\n" + rows + "12\n").encode())
+
+
+# ------------------------------------- the one column beside the positions (stop 32)
+@pytest.mark.parametrize(
+    ("header", "delim"),
+    [("Longitud de onda (nm);Intensidad", ";"), ("Energie (keV);Impulse", ";")],
+)
+def test_the_only_column_beside_the_positions_is_the_intensity(header, delim):
+    # Invented peak lists in Spanish and German: a peak table's other column is its
+    # heights, whatever it is called (they were left empty: "no intensity column").
+    body = "\n".join(f"{a}{delim}{b}" for a, b in (("6,40", "100"), ("7,06", "20"), ("8,05", "60")))
+    peaks = read_peak_list((header + "\n" + body + "\n").encode())
+    np.testing.assert_allclose(peaks.intensities, [100.0, 20.0, 60.0])
+    name = header.split(delim)[1]
+    assert any(
+        n.startswith(f"column {name!r} → intensity (the only column") for n in peaks.source.notes
+    )
+
+
+@pytest.mark.parametrize(
+    "text",
+    [
+        "wavelength (nm),channel\n393.37,1\n396.85,2\n422.67,3\n",  # a counter is no height
+        "wavelength (nm),Intensidad,Otra\n393.37,1,5\n396.85,2,6\n422.67,3,7\n",  # which one?
+    ],
+)
+def test_no_intensity_is_guessed_from_a_counter_or_among_several(text):
+    peaks = read_peak_list(text.encode())
+    assert peaks.table["intensity"].null_count() == peaks.table.height

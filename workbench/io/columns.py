@@ -29,6 +29,7 @@ __all__ = [
     "HeaderInfo",
     "axis_for",
     "check_unit_plausibility",
+    "is_counter_header",
     "map_columns",
     "medium_from_text",
     "parse_column_choices",
@@ -290,6 +291,12 @@ def _role_score(name: str) -> tuple[str, float]:
                         if tok in synonyms and role != "ignore":
                             return role, 70.0
     return best_role, best
+
+
+def is_counter_header(header: str) -> bool:
+    """Whether a header names channel or index numbers (never positions or heights)."""
+    role, score = _role_score(parse_header(header).name)
+    return role == "ignore" and score >= _CUTOFF
 
 
 def map_columns(

@@ -21,9 +21,12 @@ from workbench.errors import (
 )
 from workbench.io.assemble import input_source, jcamp_context
 from workbench.io.columns import (
+    ColumnChoice,
     axis_for,
     check_unit_plausibility,
+    is_counter_header,
     map_columns,
+    parse_header,
 )
 from workbench.io.resolve import (
     canonical_unit,
@@ -105,6 +108,11 @@ def peak_list_from_columns(
     )
     pos = mapping["position"]
     pos_label = headers[pos.index]
+    other = _only_other_column(headers, mapping, cols)
+    if other is not None:
+        # Two columns, the positions and one whose name no rule knows ("Intensidad",
+        # "Impulse"): the other column of a peak table is its heights.
+        mapping["intensity"] = ColumnChoice(other, parse_header(headers[other]), "intensity", 0.0)
     values, _, cell_unit = cols.get(pos.index, pos_label, False)
     u = resolve_unit(unit, pos.header.unit, cell_unit, cols.comments, cols.name, notes)
     axis = axis_for(u, pos.header.name)
@@ -143,7 +151,12 @@ def peak_list_from_columns(
             col_name = role
         data[col_name] = pl.Series(col_name, vals, dtype=pl.Float64).fill_nan(None)
         extra_map[label] = {"role": role, "score": choice.score, "unit": role_unit}
-        notes.append(f"column {label!r} → {role} (score {choice.score:.0f})")
+        why = (
+            f"score {choice.score:.0f}"
+            if choice.score > 0
+            else "the only column beside the positions; its name is not one the reader knows"
+        )
+        notes.append(f"column {label!r} → {role} ({why})")
     if "intensity" not in data:
         data["intensity"] = pl.Series("intensity", [None] * len(canonical), dtype=pl.Float64)
         notes.append("no intensity column; intensities left empty")
@@ -163,6 +176,18 @@ def peak_list_from_columns(
         mode=mode,  # type: ignore[arg-type]
         extra={"mapping": extra_map},
     )
+
+
+def _only_other_column(
+    headers: list[str], mapping: dict[str, ColumnChoice], cols: Columns
+) -> int | None:
+    """The one column beside the positions, when no role took it and it is not text."""
+    if len(headers) != 2 or len(mapping) != 1 or "position" not in mapping:
+        return None
+    other = 1 - mapping["position"].index
+    if _text_column(cols, other) or is_counter_header(headers[other]):
+        return None
+    return other
 
 
 def _text_column(cols: Columns, index: int) -> bool:
