@@ -42,3 +42,23 @@ def test_batch_cli_matches_single_file_cli_byte_for_byte(tmp_path, capsys):
     )
     assert (out / "ground.csv.json").read_bytes() == single.read_bytes()
     assert pl.read_parquet(out / "summary.parquet").height == 2
+
+
+def test_batch_passes_the_column_and_sheet_choices_to_each_file(tmp_path, capsys):
+    # `workbench batch` took --columns and --block (the engine options of match)
+    # but did not pass them on until stop 32. Invented workbook: the sheet asked
+    # for holds the spectrum in its 'counts B' column.
+    from tests.io.xlsx_fixture import xlsx_bytes
+
+    rows = [["wavelength (nm)", "counts A", "counts B"]]
+    rows += [[400.0 + 0.01 * i, 1.0, 1.0 + (i == 300) * 500.0] for i in range(600)]
+    d = tmp_path / "in"
+    d.mkdir()
+    (d / "book.xlsx").write_bytes(xlsx_bytes({"Notes": [["invented"]], "Run 2": rows}))
+    args = ["batch", str(d), "--out", str(tmp_path / "out"), "--scheduler", "threads"]
+    args += ["--block", "Run 2", "--columns", "intensity=counts B", "--json"]
+    assert main(args) == 0
+    (row,) = json.loads(capsys.readouterr().out)
+    notes = json.loads((tmp_path / "out" / row["json"]).read_bytes())["input"]["notes"]
+    assert "sheet 'Run 2' (other sheets, not read: 'Notes')" in notes
+    assert "x from 'wavelength (nm)' (unit nm), y from 'counts B'" in notes

@@ -56,6 +56,8 @@ def run(args: argparse.Namespace) -> int:
         kind=args.kind,
         peak_options={"min_snr": args.min_snr} if args.min_snr else None,
         lab_dir=args.lab_dir,
+        columns=args.columns,
+        block=args.block,
     )
     with Runner(args.scheduler, n_workers=args.workers, progress=TextProgress()) as runner:
         rows = run_batch(args.paths, runner, args.out, options)

@@ -47,6 +47,8 @@ class BatchOptions:
     kind: str | None = None
     peak_options: dict[str, Any] | None = None
     lab_dir: Path | None = None
+    columns: dict[str, str] | None = None
+    block: int | str | None = None
     extra: dict[str, Any] = field(default_factory=dict)
 
 
@@ -99,6 +101,8 @@ def analyse_file(path: Path, options: BatchOptions) -> dict[str, Any]:
             kind=options.kind,
             peak_options=options.peak_options,
             lab_dir=options.lab_dir,
+            columns=options.columns,
+            block=options.block,
         )
     except WorkbenchError as exc:
         return {**row, "error": str(exc)}
