@@ -62,3 +62,29 @@ def test_batch_passes_the_column_and_sheet_choices_to_each_file(tmp_path, capsys
     notes = json.loads((tmp_path / "out" / row["json"]).read_bytes())["input"]["notes"]
     assert "sheet 'Run 2' (other sheets, not read: 'Notes')" in notes
     assert "x from 'wavelength (nm)' (unit nm), y from 'counts B'" in notes
+
+
+def test_batch_reads_the_peak_finding_options_as_match_does(tmp_path, capsys):
+    # --saturation-level was accepted by batch and dropped (only --min-snr reached
+    # peak finding) until stop 32: the result must be match's, byte for byte.
+    import numpy as np
+
+    x = np.linspace(500.0, 520.0, 2000)
+    y = 10.0 + 5000.0 * np.exp(-0.5 * ((x - 510.0) / 0.05) ** 2)  # invented line
+    y = np.minimum(y, 3000.0)  # clipped at an invented detector ceiling
+    d = tmp_path / "in"
+    d.mkdir()
+    f = d / "clipped.csv"
+    f.write_text(
+        "wavelength (nm),counts\n"
+        + "".join(f"{a:.4f},{b:.2f}\n" for a, b in zip(x, y, strict=True))
+    )
+    opts = ["--saturation-level", "2900", "--min-snr", "4"]
+    out = tmp_path / "out"
+    assert main(["batch", str(d), "--out", str(out), "--scheduler", "threads", *opts]) == 0
+    single = tmp_path / "single.json"
+    assert main(["match", str(f), "--json", str(single), *opts]) == 0
+    capsys.readouterr()
+    assert (out / "clipped.csv.json").read_bytes() == single.read_bytes()
+    params = json.loads(single.read_bytes())["input"]["peak_finding"]
+    assert params["saturation_level"] == 2900.0

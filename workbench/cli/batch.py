@@ -44,7 +44,7 @@ def register(sub: argparse._SubParsersAction) -> None:
 def run(args: argparse.Namespace) -> int:
     """Handler of ``workbench batch``."""
     from workbench.cli._options import print_json
-    from workbench.cli.match import params_from_args
+    from workbench.cli.match import params_from_args, peak_options_from_args
     from workbench.maps import Runner, TextProgress
     from workbench.maps.batch import BatchOptions, run_batch
 
@@ -54,7 +54,9 @@ def run(args: argparse.Namespace) -> int:
         unit=args.unit,
         medium=args.medium,
         kind=args.kind,
-        peak_options={"min_snr": args.min_snr} if args.min_snr else None,
+        # The peak-finding options as `workbench match` reads them (--saturation-level
+        # was dropped here until stop 32).
+        peak_options=peak_options_from_args(args),
         lab_dir=args.lab_dir,
         columns=args.columns,
         block=args.block,
