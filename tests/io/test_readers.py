@@ -473,6 +473,7 @@ def test_the_only_column_beside_the_positions_is_the_intensity(header, delim):
     "text",
     [
         "wavelength (nm),channel\n393.37,1\n396.85,2\n422.67,3\n",  # a counter is no height
+        "wavelength (nm),uncertainty (nm)\n393.37,0.01\n396.85,0.02\n422.67,0.01\n",  # nor an error
         "wavelength (nm),Intensidad,Otra\n393.37,1,5\n396.85,2,6\n422.67,3,7\n",  # which one?
     ],
 )

@@ -181,11 +181,20 @@ def peak_list_from_columns(
 def _only_other_column(
     headers: list[str], mapping: dict[str, ColumnChoice], cols: Columns
 ) -> int | None:
-    """The one column beside the positions, when no role took it and it is not text."""
+    """The one column beside the positions, when no role took it and it holds heights.
+
+    Not when it is text, a counter (channel, index), or carries a unit of
+    position or energy (``uncertainty (nm)``: a width or an error, not a height).
+    """
     if len(headers) != 2 or len(mapping) != 1 or "position" not in mapping:
         return None
     other = 1 - mapping["position"].index
-    if _text_column(cols, other) or is_counter_header(headers[other]):
+    unit = parse_header(headers[other]).unit
+    if (
+        _text_column(cols, other)
+        or is_counter_header(headers[other])
+        or (unit is not None and canonical_unit(unit) is not None)
+    ):
         return None
     return other
 
