@@ -32,6 +32,16 @@ class Columns:
     fmt: str = "delimited"
     details: dict[str, object] = field(default_factory=dict)
 
+    @property
+    def text_columns(self) -> tuple[int, ...]:
+        """Columns whose first data cell is text (``Table.text_columns``)."""
+        return tuple(self.details.get("text_columns", ()))  # type: ignore[arg-type]
+
+    @property
+    def label_columns(self) -> tuple[int, ...]:
+        """Columns of names (``Table.label_columns``: text in every one of the first rows)."""
+        return tuple(self.details.get("label_columns", ()))  # type: ignore[arg-type]
+
 
 def array_columns(
     name: str,

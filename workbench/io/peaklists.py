@@ -91,7 +91,7 @@ def peak_list_from_columns(
                 "column 1 as positions and column 2 as intensities",
             )
         extra_cols = [f"column {i + 3}" for i in range(_n_columns(cols) - 2)]
-        if _text_column(cols, 1):
+        if 1 in cols.text_columns:
             # "3006.9314 ThII": a position and a label, no intensity.
             headers = ["position", "label", *extra_cols]
             notes.append("no header row: column 1 read as position; column 2 holds text, not read")
@@ -104,7 +104,7 @@ def peak_list_from_columns(
         headers,
         where=cols.name,
         columns=columns,
-        label_columns=cols.details.get("label_columns", ()),  # type: ignore[arg-type]
+        label_columns=cols.label_columns,
     )
     pos = mapping["position"]
     pos_label = headers[pos.index]
@@ -191,17 +191,12 @@ def _only_other_column(
     other = 1 - mapping["position"].index
     unit = parse_header(headers[other]).unit
     if (
-        _text_column(cols, other)
+        other in cols.text_columns
         or is_counter_header(headers[other])
         or (unit is not None and canonical_unit(unit) is not None)
     ):
         return None
     return other
-
-
-def _text_column(cols: Columns, index: int) -> bool:
-    """Whether column ``index`` holds text in the first data row (a label, not a number)."""
-    return index in cols.details.get("text_columns", ())  # type: ignore[operator]
 
 
 def _n_columns(cols: Columns) -> int:

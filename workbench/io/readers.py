@@ -84,7 +84,7 @@ def _guess_kind(parsed: Parsed, block: int | str | None) -> tuple[str, str]:
             roles = map_columns(
                 cols.headers,
                 where=cols.name,
-                label_columns=cols.details.get("label_columns", ()),  # type: ignore[arg-type]
+                label_columns=cols.label_columns,
             )
         except ColumnMappingError:
             roles = {}
@@ -477,7 +477,7 @@ def sniff(
                 mapping = map_columns(
                     cols.headers,
                     where=cols.name,
-                    label_columns=cols.details.get("label_columns", ()),  # type: ignore[arg-type]
+                    label_columns=cols.label_columns,
                 )
                 out["mapping"] = {
                     cols.headers[c.index]: {"role": r, "score": c.score, "unit": c.header.unit}

@@ -270,7 +270,7 @@ def spectrum_from_columns(
                 headers,
                 where=cols.name,
                 columns=columns,
-                label_columns=cols.details.get("label_columns", ()),  # type: ignore[arg-type]
+                label_columns=cols.label_columns,
             )
         except ColumnMappingError:
             if len(headers) != 2 or columns:

@@ -17,9 +17,9 @@ numbers (an "Info" or "Settings" sheet before the data is passed over), or
 the one asked for (``block=`` of the readers, ``--block`` of ``workbench
 peaks``: a name or a 0-based index); the note names it and the others.
 Numbers keep every digit the workbook stores (read as floats, written with
-``repr``); text cells are kept as text, a date
-as its ISO form. A workbook with no such sheet, a password-protected one or
-a damaged one is refused with one error naming the fix.
+``repr``); text cells are kept as text, a date as its ISO form. A workbook
+with no such sheet, a password-protected one or a damaged one is refused
+with one error naming the fix.
 """
 
 from __future__ import annotations
@@ -160,9 +160,8 @@ def table_from_spreadsheet(
     except (fastexcel.FastExcelError, ValueError, OSError) as exc:
         raise _unreadable(name, str(exc).splitlines()[0][:200]) from None
     chosen = None if sheet is None else _sheet_index(sheet, names, name)
-    for index, title in enumerate(names):
-        if chosen is not None and index != chosen:
-            continue
+    for index in range(len(names)) if chosen is None else (chosen,):
+        title = names[index]
         try:
             rows, numeric = _sheet_rows(reader, index)
         except (fastexcel.FastExcelError, ValueError, OSError) as exc:  # a damaged sheet
