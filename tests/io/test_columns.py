@@ -90,8 +90,22 @@ def test_explicit_choice_wins():
     ],
 )
 def test_implausible_units_refused(values, unit, remedy):
-    with pytest.raises(UnitError, match=remedy):
+    with pytest.raises(UnitError, match=remedy) as info:
         check_unit_plausibility(np.array(values), unit, "t.csv column 'x'")
+    # ... and the remedy says how to keep the unit when the numbers are right.
+    assert f"--unit {unit} on the command line" in info.value.remedy
+
+
+def test_a_stated_unit_is_taken_as_stated_with_a_note():
+    # K-band arc lines in nm (1950–2400 nm; near-infrared work, common
+    # practice, no source) look like Å by their numbers alone: when the
+    # analyst states nm, they are read as nm and the doubt is noted.
+    notes: list[str] = []
+    values = np.array([1950.1, 2000.3, 2300.2])
+    check_unit_plausibility(values, "nm", "k.csv column 'x'", stated=True, notes=notes)
+    assert notes == ["k.csv column 'x': values 1950.1–2300.2 would look like Å; read in nm as stated"]
+    with pytest.raises(UnitError):
+        check_unit_plausibility(values, "nm", "k.csv column 'x'")
 
 
 @pytest.mark.parametrize(

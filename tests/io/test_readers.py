@@ -207,6 +207,22 @@ BAD_PEAK_LISTS = [
 ]
 
 
+@pytest.mark.parametrize("kind", ["peak_list", "spectrum"])
+def test_near_infrared_in_nm_is_read_when_the_unit_is_stated(kind):
+    # 2000–2062 nm (K band) under a 'nm' header looks like Å and is refused;
+    # the analyst's --unit nm (unit=) reads it as nm, with a note.
+    text = "wavelength (nm),counts\n" + "".join(
+        f"{2000 + 2 * i},{1 + (i == 15) * 90}\n" for i in range(32)
+    )
+    read = read_peak_list if kind == "peak_list" else read_spectrum
+    with pytest.raises(UnitError, match="--unit nm on the command line"):
+        read(text.encode(), name="k.csv")
+    got = read(text.encode(), name="k.csv", unit="nm")
+    x = got.table["wavelength_nm"].to_numpy() if kind == "peak_list" else got.x
+    assert x.min() == 2000.0 and x.max() == 2062.0  # nm, not converted from Å
+    assert any("would look like Å; read in nm as stated" in n for n in got.source.notes)
+
+
 @pytest.mark.parametrize(("text", "exc", "pattern"), BAD_PEAK_LISTS)
 def test_bad_peak_lists(text, exc, pattern):
     if exc is None:

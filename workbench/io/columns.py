@@ -443,22 +443,39 @@ def medium_from_text(text: str) -> str | None:
 _UNIT_LABEL = {"nm": "nm", "angstrom": "Å", "um": "µm", "eV": "eV", "keV": "keV"}
 
 
-def check_unit_plausibility(values: np.ndarray, unit: str, where: str) -> None:
-    """Refuse values that disagree with their stated unit.
+def check_unit_plausibility(
+    values: np.ndarray,
+    unit: str,
+    where: str,
+    *,
+    stated: bool = False,
+    notes: list[str] | None = None,
+) -> None:
+    """Refuse values that disagree with the unit their file gives them.
+
+    A unit the analyst states (``--unit``, the app's unit choice, ``unit=``)
+    is taken as stated: near-infrared work in nm (1950–2400 nm, the K band)
+    looks like Å by its numbers alone, and only the analyst knows which it
+    is. Then the doubt is recorded as a note instead.
 
     Parameters
     ----------
     values : numpy.ndarray
         Positions as read (in ``unit``), finite and positive.
     unit : str
-        Their stated unit (any alias).
+        Their unit (any alias).
     where : str
         What the values are (file and column) for the message.
+    stated : bool
+        True when the analyst stated ``unit`` (not read from the file).
+    notes : list of str, optional
+        Receives the note when ``stated`` and the values look implausible.
 
     Raises
     ------
     UnitError
-        With a remedy naming the unit the values probably are in.
+        With a remedy naming the unit the values probably are in, and how to
+        keep the unit as it is; not when ``stated``.
     """
     if values.size == 0:
         return
@@ -489,11 +506,20 @@ def check_unit_plausibility(values: np.ndarray, unit: str, where: str) -> None:
     if guess is None:
         return
     label = _UNIT_LABEL.get(guess, guess)
+    if stated:
+        if notes is not None:
+            notes.append(
+                f"{where}: values {lo:g}–{hi:g} would look like {label}; "
+                f"read in {_UNIT_LABEL.get(u, u)} as stated"
+            )
+        return
     quantity = "energy" if guess in ENERGY_UNITS else "wavelength"
+    own = _UNIT_LABEL.get(u, u)
     raise UnitError(
         f"{where}: values {lo:g}–{hi:g} are implausible in {unit!r} and look like {label}",
-        f"rename the header to '{quantity} ({label})' or pass --unit {guess} "
-        "(check_units=False accepts them as stated)",
+        f"rename the header to '{quantity} ({label})' or pass --unit {guess}; if they "
+        f"really are in {own}, state it: --unit {u} on the command line, 'Position unit' "
+        f"{own} in the app, or unit='{u}' in Python (a unit you state is taken as stated)",
     )
 
 

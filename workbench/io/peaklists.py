@@ -120,7 +120,9 @@ def peak_list_from_columns(
     med = resolve_medium(axis, u, medium, stated, cols.name, notes)
     check_positions(values, pos_label, cols.row_label, cols.name)
     if check_units:
-        check_unit_plausibility(values, u, f"{cols.name} column {pos_label!r}")
+        check_unit_plausibility(
+            values, u, f"{cols.name} column {pos_label!r}", stated=unit is not None, notes=notes
+        )
     canonical = to_canonical(values, u)
     data: dict[str, object] = {AXIS_COLUMN[axis]: canonical}
     extra_map: dict[str, object] = {
@@ -267,7 +269,9 @@ def jcamp_peak_list(b, raw, unit, medium, mode, check_units, notes) -> PeakList:
             )
         check_magnitude(b.width, "width", row_label, where)
     if check_units:
-        check_unit_plausibility(b.x, u, f"{where} peak table")
+        check_unit_plausibility(
+            b.x, u, f"{where} peak table", stated=unit is not None, notes=notes
+        )
     data: dict[str, object] = {AXIS_COLUMN[axis]: to_canonical(b.x, u), "intensity": b.y}
     if b.width is not None:
         data[FWHM_COLUMN[axis]] = width_to_canonical(b.width, u, b.x)

@@ -279,7 +279,9 @@ def read_peak_list(
         JCAMP-DX block index (0-based) or title; in a spreadsheet workbook,
         the sheet (0-based index or name).
     check_units : bool
-        Refuse positions that look implausible in their stated unit.
+        Refuse positions that look implausible in the unit the file gives
+        them; a ``unit`` given here is taken as stated (the doubt becomes a
+        note).
     max_bytes : int
         Refuse larger inputs before reading them.
     progress : callable, optional
@@ -343,7 +345,9 @@ def read_spectrum(
     columns : dict, optional
         Explicit column choices ``{"position": header, "intensity": header}``.
     check_units : bool
-        Refuse x values that look implausible in their stated unit.
+        Refuse x values that look implausible in the unit the file gives
+        them; a ``unit`` given here is taken as stated (the doubt becomes a
+        note).
     max_bytes : int
         Refuse larger inputs before reading them.
     progress : callable, optional

@@ -73,6 +73,7 @@ def spectrum_from_xy(
     fmt: str,
     notes: list[str],
     check_units: bool,
+    unit_stated: bool = False,
 ) -> Spectrum:
     """Check x and y and build the spectrum (x converted to nm or eV, increasing).
 
@@ -94,6 +95,8 @@ def spectrum_from_xy(
         Receives what was decided.
     check_units : bool
         Refuse x values implausible in their unit.
+    unit_stated : bool
+        The analyst stated the unit: implausible values are noted, not refused.
 
     Returns
     -------
@@ -131,7 +134,7 @@ def spectrum_from_xy(
 
     check_positions(x, x_label, row_label, where)
     if check_units:
-        check_unit_plausibility(x, u, f"{where} {x_label}")
+        check_unit_plausibility(x, u, f"{where} {x_label}", stated=unit_stated, notes=notes)
     xc = to_canonical(x, u)
     # xc holds no NaN, so b − a > 0 exactly when b > a (a difference of unequal
     # doubles is never rounded to zero): compare neighbours without the differences.
@@ -318,6 +321,7 @@ def spectrum_from_columns(
         fmt=cols.fmt,
         notes=notes,
         check_units=check_units,
+        unit_stated=unit is not None,
     )
 
 
@@ -367,4 +371,5 @@ def jcamp_spectrum(b, raw, unit, medium, check_units, notes) -> Spectrum:
         fmt="jcamp-dx",
         notes=notes,
         check_units=check_units,
+        unit_stated=unit is not None,
     )
