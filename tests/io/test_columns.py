@@ -103,7 +103,9 @@ def test_a_stated_unit_is_taken_as_stated_with_a_note():
     notes: list[str] = []
     values = np.array([1950.1, 2000.3, 2300.2])
     check_unit_plausibility(values, "nm", "k.csv column 'x'", stated=True, notes=notes)
-    assert notes == ["k.csv column 'x': values 1950.1–2300.2 would look like Å; read in nm as stated"]
+    assert notes == [
+        "k.csv column 'x': values 1950.1–2300.2 would look like Å; read in nm as stated"
+    ]
     with pytest.raises(UnitError):
         check_unit_plausibility(values, "nm", "k.csv column 'x'")
 
