@@ -269,9 +269,7 @@ def jcamp_peak_list(b, raw, unit, medium, mode, check_units, notes) -> PeakList:
             )
         check_magnitude(b.width, "width", row_label, where)
     if check_units:
-        check_unit_plausibility(
-            b.x, u, f"{where} peak table", stated=unit is not None, notes=notes
-        )
+        check_unit_plausibility(b.x, u, f"{where} peak table", stated=unit is not None, notes=notes)
     data: dict[str, object] = {AXIS_COLUMN[axis]: to_canonical(b.x, u), "intensity": b.y}
     if b.width is not None:
         data[FWHM_COLUMN[axis]] = width_to_canonical(b.width, u, b.x)
