@@ -181,6 +181,23 @@ def test_columns_option_picks_a_column_by_its_header(capsysbinary):
     assert main(args) == 0
     notes = json.loads(capsysbinary.readouterr().out)["input"]["notes"]
     assert "x from 'wavelength' (unit nm), y from 'extraterrestrial'" in notes
+    # ... and the columns left are named, with the way to choose one.
+    assert any(n.startswith("other column(s) not read: 'global', 'direct'") for n in notes)
+
+
+def test_the_terminal_summary_shows_what_the_reader_decided(capsys):
+    # pvlib 0.16.1's ASTM G173-03 states no medium and holds three spectra:
+    # the assumed medium and the column read belong in what the analyst sees.
+    from tests.realdata.loader import DATA
+
+    g173 = str(DATA / "pvlib" / "ASTMG173.csv")
+    assert main(["match", g173, "--mode", "absorption", "--unit", "nm"]) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[0].startswith("input     ASTMG173.csv")
+    assert lines[1].startswith("read      ")
+    head = "\n".join(lines[: lines.index(next(x for x in lines if x.startswith("axis")))])
+    assert "medium not stated; assumed air" in head
+    assert "y from 'extraterrestrial'" in head and "not read: 'global', 'direct'" in head
 
 
 @pytest.mark.parametrize("value", ["global", "intensity=", "=global"])

@@ -108,3 +108,20 @@ def test_the_method_paragraph_words_the_evidence_model_not_a_line_count():
     assert "coincidence" in text and "every element tried" in text
     assert "should have been seen" in text and "pooled" in text
     assert "how many of its expected strong lines" not in text
+
+
+@pytest.mark.parametrize(
+    ("notes", "words"),
+    [
+        (["medium not stated; assumed air"], "(air, assumed: the file does not state the medium)"),
+        (["medium air (header 'wavelength air (nm)')"], "(air)"),
+    ],
+)
+def test_the_method_paragraph_says_when_the_medium_was_assumed(notes, words):
+    # An assumed medium moves every wavelength by 0.1–0.3 nm (air vs vacuum);
+    # the sheet must not word the reader's assumption as the file's statement.
+    from workbench.findings.sections import method_paragraph
+
+    result = {"input": {"name": "q.csv", "kind": "spectrum", "medium": "air", "notes": notes}}
+    text = method_paragraph({}, {}, result, "wavelength", "nm")
+    assert f"on a scale of wavelengths in nm {words}" in text

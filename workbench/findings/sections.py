@@ -189,7 +189,11 @@ def method_paragraph(
     refs = analysis.get("reference_sets") or result.get("reference_sets") or []
     ref_words = ", ".join(f"{r.get('id')} (version {r.get('version')})" for r in refs) or "none"
     if axis == "wavelength":
-        scale = f"wavelengths in nm ({inp.get('medium') or 'medium not stated'})"
+        medium = inp.get("medium") or "medium not stated"
+        if "medium not stated; assumed air" in (inp.get("notes") or ()):
+            # The reader's assumption (workbench.io.resolve), not the file's word.
+            medium = "air, assumed: the file does not state the medium"
+        scale = f"wavelengths in nm ({medium})"
     else:
         scale = "photon energies in eV"
     what = "spectrum" if inp.get("kind") == "spectrum" else "peak list"

@@ -307,6 +307,18 @@ def spectrum_from_columns(
     stated = [(header_medium, f"header {x_label!r}"), *comment_media(cols.comments)]
     med = resolve_medium(axis, u, medium, stated, cols.name, notes)
     notes.append(f"x from {x_label!r} (unit {u}), y from {y_label!r}")
+    if cols.headers is not None:
+        # Other numeric columns are other spectra of the same axis (ASTM G173:
+        # extraterrestrial, global, direct): say which were left, and how to
+        # choose one, so that the first is not taken unknowingly.
+        text = cols.text_columns
+        left = [h for i, h in enumerate(cols.headers) if i not in (xi, yi) and i not in text]
+        if left:
+            shown = ", ".join(repr(h) for h in left)
+            notes.append(
+                f"other column(s) not read: {shown} (choose one with --columns "
+                f"intensity=HEADER, 'Columns by header' in the app, or columns=)"
+            )
     return spectrum_from_xy(
         x,
         y,

@@ -26,6 +26,10 @@ def summary_text(report: dict[str, Any], max_rejected: int = 5) -> str:
         f"{inp['n_peaks']} lines",
         "reference " + ", ".join(f"{s['id']} {s['version']}" for s in report["reference_sets"]),
     ]
+    # What the reader decided (columns, assumed medium, rows left out) is part
+    # of the statement: an assumed medium moves every wavelength.
+    for i, note in enumerate(inp.get("notes") or ()):
+        out.insert(1 + i, f"{'read' if i == 0 else '':<9} {note}")
     xray = report.get("xray")
     if xray:
         from workbench.xray.wording import instrument_line
