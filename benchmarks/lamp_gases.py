@@ -30,7 +30,7 @@ from tests.matching.invented_lamps import (
     lamp_cases,
     run_lamp,
 )
-from workbench.matching.evidence import local_density
+from workbench.matching.hit_chance import local_density
 from workbench.refdata import load_set
 
 
