@@ -149,3 +149,24 @@ def test_species_scales_equal_the_per_species_rule(seed, xray):
     want = _scales_one_by_one(g_start, g_end, I_all, pred, good, gu, unseen, dl, xray)
     assert got == want
     assert any(v is None for v in want) and any(v is not None for v in want)
+
+
+def test_a_species_seen_only_on_bounded_peaks_takes_its_least_scale():
+    # Invented: species 0 has one group found only on a clipped or split top
+    # (height 1000, a lower bound; predicted 1 per unit) and one missed group
+    # (predicted 0.5 per unit, detection limit 10); species 1 a measured
+    # group (300 / 1). Species 0's scale is at least 1000, so its missed group
+    # is predicted at 500 or more; without the bound it had no scale at all.
+    g_start, g_end = np.array([0, 2]), np.array([2, 3])
+    I_all = np.array([1000.0, np.nan, 300.0])
+    pred = np.array([1.0, 0.5, 1.0])
+    good = np.array([False, False, True])
+    unseen = np.array([False, True, False])
+    lower = np.array([True, False, False])
+    dl = np.full(3, 10.0)
+    args = (g_start, g_end, I_all, pred, good, good, unseen, dl, False)
+    assert species_scale.species_scales(*args) == [None, 300.0]
+    assert species_scale.species_scales(*args, lower_all=lower) == [1000.0, 300.0]
+    # A measured scale is never replaced by a bound.
+    both = np.array([True, False, True])
+    assert species_scale.species_scales(*args, lower_all=both) == [1000.0, 300.0]

@@ -86,7 +86,7 @@ class ObservedLines:
     position: np.ndarray
     intensity: np.ndarray  # NaN where unknown
     half_window: np.ndarray
-    saturated: np.ndarray  # bool
+    saturated: np.ndarray  # bool: height not a measure (clipped, or a split top)
     detection_limit: float | None  # intensity units; None when intensities are unknown
     tolerance: object = None  # the resolved ToleranceSpec
     excluded: np.ndarray | None = None  # bool: artefact peaks (escape, sum, ...) not to match
@@ -108,6 +108,9 @@ class ObservedLines:
     #: Parts of that axis the spectrum's sampling skips (last sample before,
     #: first after; :mod:`workbench.peaks.sampling`); set by the engine.
     axis_gaps: tuple[tuple[float, float], ...] = ()
+    #: Peaks that are one line's split top (workbench.peaks.split), also in
+    #: ``saturated``; None when the peak list does not say.
+    split_top: np.ndarray | None = None
 
     def detection_limit_at(self, x: np.ndarray) -> np.ndarray:
         """Detection limit at positions ``x`` (the scalar limit where no curve is known)."""
@@ -296,6 +299,8 @@ def gather_evidence(
         )
     # 1. The intensity scale (and pattern correlation) of each species.
     good_uniq_all = good_all & g_unique
+    good_all_bounded = found & g_known & np.isfinite(I_all) & (I_all > 0) & sat_all
+    good_all_bounded &= pred_unit_all > 0
     scales = species_scales(
         g_start,
         g_end,
@@ -307,6 +312,8 @@ def gather_evidence(
         dl_all if has_int and not xray else None,
         xray,
         sigma_all,
+        # Found on a clipped or split top: the height is a lower bound.
+        lower_all=good_all_bounded,
     )
     n_good_uniq = np.concatenate(([0], np.cumsum(good_uniq_all)))
     patterns: list[float | None] = []
@@ -352,7 +359,9 @@ def gather_evidence(
         xray=xray,
         axis_range=obs.axis_range,
         gaps=obs.axis_gaps,
-        saturated=obs.saturated,
+        # Only a clipped top hides a line of any height: a split top's
+        # measured maximum is what its wings can hide (workbench.peaks.split).
+        saturated=obs.saturated if obs.split_top is None else obs.saturated & ~obs.split_top,
         peak_resolution=None if xray else obs.resolution,
     )
     if not xray and not absorption:

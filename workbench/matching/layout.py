@@ -77,6 +77,7 @@ class _LayoutKey:
             obs.intensity,
             obs.half_window,
             obs.saturated,
+            obs.split_top,
             obs.excluded,
             obs.resolution,
             curve[0],

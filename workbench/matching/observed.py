@@ -120,6 +120,12 @@ def observed_lines(
         if "saturated" in t.columns
         else np.zeros(x.size, dtype=bool)
     )
+    split = None
+    if "split_top" in t.columns:
+        # A split top's height is not a measure of strength either
+        # (self-reversed or over-exposed core; workbench.peaks.split).
+        split = t["split_top"].fill_null(False).to_numpy().astype(bool)
+        sat = sat | split
     dl: float | None = None
     if np.any(np.isfinite(inten)):
         if "snr" in t.columns:
@@ -179,6 +185,7 @@ def observed_lines(
         intensity=inten,
         half_window=tol,
         saturated=sat,
+        split_top=split,
         detection_limit=dl,
         tolerance=spec,
         excluded=excl,

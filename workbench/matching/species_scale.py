@@ -86,6 +86,7 @@ def species_scales(
     dl_all: np.ndarray | None,
     xray: bool,
     sigma_all: np.ndarray | None = None,
+    lower_all: np.ndarray | None = None,
 ) -> list[float | None]:
     """Intensity scale per species (groups ``g_start[i]:g_end[i]``), None without a usable group.
 
@@ -184,4 +185,20 @@ def species_scales(
                 consistent = _consistent(scale)
             keep = (is_ratio & consistent) | (~is_ratio & cens[c_of])
             scale = sorted_segment_medians(v_sorted[keep], s_sorted[keep], n_sp)
+    if lower_all is not None and dl_all is not None and not xray:
+        # A species found only on peaks whose height is a lower bound (clipped
+        # or split tops) has no measured scale, but a least one: the largest
+        # observed / predicted ratio among them. Its other lines are then
+        # predicted at least that strong, so lines missing even so count
+        # against it. Without this such a species had no scale and no
+        # missing-line evidence at all, and every species with one line
+        # under a saturated peak was "possible" on that line alone.
+        bound = lower_all[at] & ~has[seg]
+        if np.any(bound):
+            r = I_all[at[bound]] / pred_unit_all[at[bound]]
+            least = np.full(n_sp, -np.inf)
+            np.maximum.at(least, seg[bound], r)
+            use = np.isfinite(least) & ~has
+            scale = np.where(use, least, scale)
+            has = has | use
     return [float(v) if h else None for v, h in zip(scale.tolist(), has.tolist(), strict=True)]
