@@ -134,7 +134,7 @@ class PeakList:
 
     The table has the position column (``wavelength_nm`` or ``energy_eV``) and
     ``intensity`` (float, may be null); optionally ``fwhm_nm``/``fwhm_eV``,
-    ``area``, ``snr`` and ``saturated`` (bool). Rows are sorted by position.
+    ``area``, ``snr``, ``saturated`` and ``split_top`` (bool). Rows are sorted by position.
 
     Attributes
     ----------

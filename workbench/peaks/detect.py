@@ -24,6 +24,9 @@ Pipeline (all vectorised over the spectrum and over the peaks):
    saturation flag (top flat at the spectrum's maximum for ≥ 2 points, tops
    at a ceiling shared by three or more flat-topped peaks, or reaching
    ``saturation_level``).
+6. Emission: maxima closer than 0.85 × the median FWHM are one line with a
+   split top (self-reversal, an over-exposed core) and are merged
+   (:mod:`workbench.peaks.split`).
 """
 
 from __future__ import annotations
@@ -38,6 +41,7 @@ from workbench.errors import InsufficientDataError, ValueRangeError
 from workbench.peaks.baseline import estimate_baseline
 from workbench.peaks.extrema import half_height_crossings, select_peaks
 from workbench.peaks.noise import noise_sigma
+from workbench.peaks.split import merge_split_tops
 
 __all__ = ["PeakFindingParameters", "find_peaks", "refine_centres"]
 
@@ -172,7 +176,9 @@ def find_peaks(
         Table with the position column (``wavelength_nm``/``energy_eV``),
         ``intensity`` (interpolated height above the baseline; for absorption
         the depth as a fraction of the continuum), ``fwhm_nm``/``fwhm_eV``,
-        ``area``, ``snr`` and ``saturated``. ``extra`` holds
+        ``area``, ``snr``, ``saturated`` and ``split_top`` (emission: the
+        merged maxima of one line whose top a dip splits,
+        :mod:`workbench.peaks.split`). ``extra`` holds
         ``"peak_finding"`` (the parameters), ``"noise_sigma"``,
         ``"intensity_unit"`` and, for display only (not JSON),
         ``"baseline"`` (the baseline or continuum array).
@@ -261,6 +267,7 @@ def find_peaks(
                 "area": pl.Series([], dtype=pl.Float64),
                 "snr": pl.Series([], dtype=pl.Float64),
                 "saturated": pl.Series([], dtype=pl.Boolean),
+                "split_top": pl.Series([], dtype=pl.Boolean),
             }
         )
         return PeakList(table, axis, spectrum.medium, spectrum.source, prm.mode, extra)  # type: ignore[arg-type]
@@ -274,6 +281,24 @@ def find_peaks(
     left_ips, right_ips = half_height_crossings(
         s_measure, idx, s_measure[idx] - 0.5 * prom, props["left_bases"], props["right_bases"]
     )
+    split = np.zeros(idx.size, dtype=bool)
+    if prm.mode == "emission" and spectrum.axis == "wavelength" and idx.size >= 3:
+        # Maxima closer than the instrument resolves are one line (workbench.peaks.split;
+        # optical: an X-ray detector's widths grow with energy and its overlaps
+        # are settled by the fit of workbench.xray).
+        keep, split, centre, left_ips, right_ips = merge_split_tops(
+            s_measure,
+            x,
+            idx,
+            height,
+            centre,
+            left_ips,
+            right_ips,
+            props["left_bases"],
+            props["right_bases"],
+            grid,
+        )
+        idx, height, height_detect = idx[keep], height[keep], height_detect[keep]
     x_left = np.interp(left_ips, grid, x)
     x_right = np.interp(right_ips, grid, x)
     fwhm = x_right - x_left
@@ -307,6 +332,7 @@ def find_peaks(
             "area": pl.Series("area", area.tolist(), dtype=pl.Float64),
             "snr": pl.Series("snr", snr.tolist(), dtype=pl.Float64),
             "saturated": pl.Series("saturated", saturated.tolist(), dtype=pl.Boolean),
+            "split_top": pl.Series("split_top", split.tolist(), dtype=pl.Boolean),
         }
     )
     return PeakList(table, axis, spectrum.medium, spectrum.source, prm.mode, extra)  # type: ignore[arg-type]
