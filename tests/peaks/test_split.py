@@ -140,3 +140,21 @@ def test_a_split_top_is_kept_out_of_intensity_evidence():
     obs = observed_lines(PeakList(table, "wavelength", "air"), MatchParameters())
     assert obs.saturated.tolist() == [False, True, False]
     assert obs.split_top is not None and obs.split_top.tolist() == [False, True, False]
+
+
+def test_the_result_and_the_peaks_command_name_the_split_top(capsys):
+    # The same real line through the engine and through `workbench peaks`.
+    from tests.realdata.loader import DATA, load
+    from tests.realdata.run import run_real
+    from workbench.cli import main
+    from workbench.matching import MatchParameters
+
+    rs = load("goodman_comp_1200M4_GG455_HgArNe")
+    report = run_real(rs, MatchParameters(mode=rs.mode)).report
+    ne = next(e for e in report["elements"] if e["species"] == "Ne I")
+    line = next(m for m in ne["matched_lines"] if abs(m["reference_nm"] - 640.2248) < 1e-3)
+    assert line["split_top"] and line["saturated"]
+    fits = DATA / "goodman" / "goodman_comp_1200M4_GG455_HgArNe.fits"
+    assert main(["peaks", str(fits)]) == 0
+    rows = [r for r in capsys.readouterr().out.splitlines() if r.rstrip().endswith("split top")]
+    assert len(rows) == 7  # the lamp's seven split tops (measured here)

@@ -127,7 +127,8 @@ def _print_table(peaks, shown_as_read: bool) -> None:
         fwhm = row.get(fwhm_col) if fwhm_col in cols else None
         snr = row.get("snr") if "snr" in cols else None
         inten = row.get("intensity")
-        flags = "saturated" if row.get("saturated") else ""
+        marks = (("saturated", row.get("saturated")), ("split top", row.get("split_top")))
+        flags = " ".join(f for f, on in marks if on)
         print(
             f"{row[pos_col]:>24.5f} "
             f"{'' if inten is None else f'{inten:.5g}':>12} "

@@ -273,7 +273,10 @@ def _evidence_lines(call: ElementCall, unit: str) -> tuple[list[dict[str, Any]],
             notes = []
             if m.get("shared"):
                 notes.append("shared")
-            if m.get("saturated"):
+            if m.get("split_top"):
+                # One line whose top a dip splits (workbench.peaks.split).
+                notes.append("split top")
+            elif m.get("saturated"):
                 notes.append("saturated")
             if m.get("line_id") in accepted:
                 notes.append("accepted by analyst")

@@ -88,7 +88,10 @@ def build_report(result: MatchResult) -> dict[str, Any]:
         m_peak = np.asarray(ev.found_peaks, dtype=np.int64)
         by_pos = np.argsort(idx.position[m_line], kind="stable")
         m_line, m_peak = m_line[by_pos], m_peak[by_pos]
-        for line, peak, lid, x_obs, x_ref, delta, e_rel, inten, sat, trans in zip(
+        split_top = (
+            obs.split_top[m_peak].tolist() if obs.split_top is not None else [False] * m_peak.size
+        )
+        for line, peak, lid, x_obs, x_ref, delta, e_rel, inten, sat, split, trans in zip(
             m_line.tolist(),
             m_peak.tolist(),
             idx.line_id[m_line].tolist(),
@@ -98,6 +101,7 @@ def build_report(result: MatchResult) -> dict[str, Any]:
             e[m_line].tolist(),
             obs.intensity[m_peak].tolist(),
             obs.saturated[m_peak].tolist(),
+            split_top,
             idx.transition[m_line].tolist(),
             strict=True,
         ):
@@ -113,6 +117,7 @@ def build_report(result: MatchResult) -> dict[str, Any]:
                     "peak_index": peak,
                     "shared": line in shared,
                     "saturated": bool(sat),
+                    "split_top": bool(split),
                     "transition": trans,
                 }
             )
