@@ -40,7 +40,7 @@ from workbench.datamodel import AXIS_COLUMN, FWHM_COLUMN, PeakList, Spectrum
 from workbench.errors import InsufficientDataError, ValueRangeError
 from workbench.peaks.baseline import estimate_baseline
 from workbench.peaks.extrema import half_height_crossings, select_peaks
-from workbench.peaks.noise import noise_sigma
+from workbench.peaks.noise import noise_sigma, quiet_segment_sigma
 from workbench.peaks.split import merge_split_tops
 
 __all__ = ["PeakFindingParameters", "find_peaks", "refine_centres"]
@@ -234,6 +234,8 @@ def find_peaks(
         s = base - y
         intensity_unit = spectrum.y_label
     sigma = noise_sigma(s)
+    # Parts much quieter than the whole keep their own σ (noise.quiet_segment_sigma).
+    local = quiet_segment_sigma(s, sigma) if prm.mode == "emission" and sigma > 0 else None
     # Dips are *detected* on continuum − y, whose noise is uniform; dividing by the
     # continuum would scale the noise by 1/continuum and make a k·σ threshold vary
     # along the spectrum. Heights, widths and areas are then measured on the
@@ -254,9 +256,14 @@ def find_peaks(
         idx = np.empty(0, dtype=np.int64)
         props: dict[str, np.ndarray] = {}
     else:
-        threshold = prm.min_snr * sigma
         wlen = prm.prominence_window_px | 1
-        props = select_peaks(s, threshold, threshold, wlen)
+        if local is None:
+            threshold = prm.min_snr * sigma
+            props = select_peaks(s, threshold, threshold, wlen)
+        else:
+            # A part of the spectrum much quieter than the whole (noise.py):
+            # each sample's height and prominence in units of its own σ.
+            props = select_peaks(s / local, prm.min_snr, prm.min_snr, wlen)
         idx = props["peaks"]
     if idx.size == 0:
         table = pl.DataFrame(
@@ -320,8 +327,9 @@ def find_peaks(
     area = np.interp(centre + fwhm, x, cum) - np.interp(centre - fwhm, x, cum)
     # A σ at the floating-point floor (subnormal) makes height/σ overflow: such
     # an SNR is "as large as a double can say", not infinity.
+    sigma_at = sigma if local is None else local[idx]
     with np.errstate(over="ignore"):
-        snr = np.minimum(height_detect / sigma, np.finfo(np.float64).max)
+        snr = np.minimum(height_detect / sigma_at, np.finfo(np.float64).max)
     # Columns go to polars as Python lists (the same doubles): polars' numpy path
     # imports numpy.ma (about 6 ms of a command's start-up) to look for masks.
     table = pl.DataFrame(
