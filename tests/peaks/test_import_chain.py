@@ -39,6 +39,9 @@ def _spectrum_csv(path) -> None:
     y = 50.0 + 0.1 * (x - 400.0)
     y += 300.0 * np.exp(-0.5 * ((x - 430.0) / 0.15) ** 2)
     y += 200.0 * np.exp(-0.5 * ((x - 470.0) / 0.15) ** 2)
+    # A third line: with three peaks the split-top check runs (peaks.split),
+    # whose np.median loaded numpy.ma until stop 33's review.
+    y += 250.0 * np.exp(-0.5 * ((x - 450.0) / 0.15) ** 2)
     y += np.random.default_rng(20261202).normal(0.0, 2.0, x.size)
     lines = [f"{a:.5f},{b:.4f}" for a, b in zip(x, y, strict=True)]
     path.write_text("wavelength (nm),intensity\n" + "\n".join(lines) + "\n")
@@ -59,10 +62,10 @@ def test_peaks_command_imports_only_what_it_uses(tmp_path):
     rc, loaded = json.loads(r.stdout.strip().splitlines()[-1])
     assert rc == 0
     assert loaded == []
-    # The two invented lines (430 and 470 nm) are found, so the command did its work.
+    # The three invented lines are found, so the command did its work.
     centres = sorted(p["wavelength_nm"] for p in json.loads(out.read_text())["peaks"])
-    assert len(centres) == 2
-    assert abs(centres[0] - 430.0) < 0.05 and abs(centres[1] - 470.0) < 0.05
+    assert len(centres) == 3
+    assert all(abs(c - w) < 0.05 for c, w in zip(centres, (430.0, 450.0, 470.0), strict=True))
 
 
 def test_physics_package_names_resolve_lazily():

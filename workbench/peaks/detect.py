@@ -8,7 +8,9 @@ Pipeline (all vectorised over the spectrum and over the peaks):
    continuum-normalised depth 1 − y / continuum (when the continuum is
    positive), so their intensity is a fraction of the continuum and their
    area an equivalent width.
-2. Noise σ by the robust first-difference MAD (:mod:`workbench.peaks.noise`).
+2. Noise σ by the robust first-difference MAD (:mod:`workbench.peaks.noise`);
+   emission: a part more than 3× quieter than the whole keeps its own σ for
+   steps 3 and 5 (:func:`~workbench.peaks.noise.quiet_segment_sigma`).
 3. Local maxima with height ≥ k·σ *and* prominence ≥ k·σ (k = ``min_snr``),
    by :mod:`workbench.peaks.extrema` (the definitions of
    :func:`scipy.signal.find_peaks`, without importing ``scipy.signal``).
@@ -24,9 +26,9 @@ Pipeline (all vectorised over the spectrum and over the peaks):
    saturation flag (top flat at the spectrum's maximum for ≥ 2 points, tops
    at a ceiling shared by three or more flat-topped peaks, or reaching
    ``saturation_level``).
-6. Emission: maxima closer than 0.85 × the median FWHM are one line with a
-   split top (self-reversal, an over-exposed core) and are merged
-   (:mod:`workbench.peaks.split`).
+6. Optical emission: maxima closer than 0.85 × the median FWHM are one line
+   with a split top (self-reversal, an over-exposed core) and are merged
+   before steps 4–5 measure them (:mod:`workbench.peaks.split`).
 """
 
 from __future__ import annotations

@@ -29,7 +29,9 @@ self-reversed line lies at the line's own wavelength), its height the higher
 maximum, its width the span, flagged ``split_top``. Its height is not a
 measure of the line's strength (self-absorbed or over-exposed), so the
 matching engine treats it as it treats a saturated peak: found, but left out
-of the intensity evidence.
+of the intensity evidence; unlike a clipped top, whose true height could be
+anything, it hides a neighbour's missing line only as far as its measured
+height can (:mod:`workbench.matching.masking`).
 
 The instrument FWHM is the median FWHM of the spectrum's peaks (most lines
 are narrower than the instrument can show). Optical emission only: an
@@ -43,6 +45,7 @@ from __future__ import annotations
 import numpy as np
 
 from workbench.peaks.extrema import half_height_crossings
+from workbench.peaks.noise import median_overwrite
 
 __all__ = ["SPLIT_FRACTION", "merge_split_tops", "split_groups"]
 
@@ -70,7 +73,9 @@ def split_groups(centre: np.ndarray, fwhm: np.ndarray) -> np.ndarray:
     ok = fwhm[np.isfinite(fwhm) & (fwhm > 0)]
     if centre.size < 3 or ok.size == 0:
         return np.arange(centre.size, dtype=np.int64)
-    limit = SPLIT_FRACTION * float(np.median(ok))
+    # ok is a fresh array (boolean indexing): select in it. np.median would
+    # load numpy.ma, which `workbench peaks` does not otherwise need.
+    limit = SPLIT_FRACTION * median_overwrite(ok)
     new = np.concatenate(([True], np.diff(centre) >= limit))
     return np.cumsum(new) - 1
 
