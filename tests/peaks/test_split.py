@@ -140,6 +140,11 @@ def test_a_split_top_is_kept_out_of_intensity_evidence():
     obs = observed_lines(PeakList(table, "wavelength", "air"), MatchParameters())
     assert obs.saturated.tolist() == [False, True, False]
     assert obs.split_top is not None and obs.split_top.tolist() == [False, True, False]
+    # Split and clipped: clipped (no bound on its height in masking).
+    both = table.with_columns(pl.Series("saturated", [False, True, False]))
+    obs = observed_lines(PeakList(both, "wavelength", "air"), MatchParameters())
+    assert obs.saturated.tolist() == [False, True, False]
+    assert obs.split_top is not None and not obs.split_top.any()
 
 
 def test_the_result_and_the_peaks_command_name_the_split_top(capsys):

@@ -124,7 +124,9 @@ def observed_lines(
     if "split_top" in t.columns:
         # A split top's height is not a measure of strength either
         # (self-reversed or over-exposed core; workbench.peaks.split).
-        split = t["split_top"].fill_null(False).to_numpy().astype(bool)
+        # A split top that is also clipped counts as clipped (its height is
+        # then no bound at all: workbench.matching.masking).
+        split = t["split_top"].fill_null(False).to_numpy().astype(bool) & ~sat
         sat = sat | split
     dl: float | None = None
     if np.any(np.isfinite(inten)):
