@@ -85,17 +85,17 @@ def load_input(
     kw: dict[str, Any] = {"name": name, "unit": unit or None, "medium": medium or None}
     if kind:
         kw["kind"] = kind
-    if columns and columns.strip():
-        kw["columns"] = parse_column_choices(columns)
+    options = {"unit": unit or None, "medium": medium or None, "kind": kind or None, "mode": mode}
+    # The reader's choices, kept as given with the reading options.
+    cols_text = (columns or "").strip()
+    if cols_text:
+        kw["columns"] = parse_column_choices(cols_text)
+        options["columns"] = cols_text
     part = parse_block_choice(block)
     if part is not None:
         kw["block"] = part
-    got = read_any(bytes(data), mode=mode, **kw)
-    options = {"unit": unit or None, "medium": medium or None, "kind": kind or None, "mode": mode}
-    if columns and columns.strip():
-        options["columns"] = columns.strip()
-    if part is not None:
         options["block"] = part
+    got = read_any(bytes(data), mode=mode, **kw)
     if isinstance(got, Spectrum):
         pk: dict[str, Any] = {}
         if min_snr:
