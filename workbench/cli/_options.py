@@ -5,6 +5,7 @@ from __future__ import annotations
 import argparse
 
 __all__ = [
+    "INPUT_FORMATS_TEXT",
     "add_block_option",
     "add_columns_option",
     "add_store_option",
@@ -65,6 +66,14 @@ def refuse_passphrase_option(p: argparse.ArgumentParser) -> None:
     p.add_argument(
         "--passphrase", "--password", nargs="?", action=_RefusePassphrase, help=argparse.SUPPRESS
     )
+
+
+#: The formats the readers take, as ``workbench.io.INPUT_FORMATS`` words them
+#: (a test keeps the two equal; not imported: the readers' import would slow
+#: every command's start-up). For the help of ``match`` and ``peaks``.
+INPUT_FORMATS_TEXT = (
+    "CSV/TSV/text, Excel/OpenDocument workbooks, JCAMP-DX, Parquet, FITS, JSON, EMSA/MAS"
+)
 
 
 def _columns_arg(text: str) -> dict[str, str]:

@@ -10,7 +10,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from workbench.cli._options import add_block_option, add_columns_option
+from workbench.cli._options import INPUT_FORMATS_TEXT, add_block_option, add_columns_option
 
 __all__ = ["add_engine_options", "params_from_args", "peak_options_from_args", "register"]
 
@@ -160,14 +160,7 @@ def register(sub: argparse._SubParsersAction) -> None:
         description=__doc__,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    # The formats as workbench.io.INPUT_FORMATS words them (tested; not imported:
-    # the readers' import would slow every command's start-up).
-    p.add_argument(
-        "input",
-        type=Path,
-        help="peak list or spectrum (CSV/TSV/text, Excel/OpenDocument workbooks, JCAMP-DX, "
-        "Parquet, FITS, JSON, EMSA/MAS)",
-    )
+    p.add_argument("input", type=Path, help=f"peak list or spectrum ({INPUT_FORMATS_TEXT})")
     add_engine_options(p)
     p.add_argument("--json", metavar="OUT", help="write the JSON result to OUT ('-' for stdout)")
     p.add_argument("--csv-dir", type=Path, metavar="DIR", help="write CSV tables to DIR")

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import argparse
 
-from workbench.cli._options import add_block_option, add_columns_option
+from workbench.cli._options import INPUT_FORMATS_TEXT, add_block_option, add_columns_option
 
 __all__ = ["register"]
 
@@ -20,9 +20,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:
     p = subparsers.add_parser(
         "peaks",
         help="find emission peaks or absorption dips in a spectrum",
-        description="Read a spectrum (CSV/TSV/text, Excel/OpenDocument workbooks, JCAMP-DX, "
-        "Parquet, FITS, JSON, EMSA/MAS), "
-        "remove the "
+        description=f"Read a spectrum ({INPUT_FORMATS_TEXT}), remove the "
         "baseline, and list the peaks with sub-pixel centres, FWHM, SNR and flags. "
         "A peak-list input is shown as read.",
     )
