@@ -80,7 +80,6 @@ def test_lines_of_the_quiet_part_are_found():
     # pulls 27 % below the noisy part's own: a few noise peaks there are the
     # limit of one σ for a whole spectrum, as before this rule.)
     assert np.sum(pos > 332.0) == 4
-    # Their SNR is in units of their own part's σ.
     # Their SNR is in units of their own part's σ: about 160 (1.6 above the
     # lifted baseline over σ 0.01; invented truth), under 5 in the whole
     # spectrum's; 25, between the two, is a bound chosen here.
